@@ -1,0 +1,3 @@
+from rfsafe.cli import main
+
+main()
