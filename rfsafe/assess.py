@@ -1,0 +1,330 @@
+"""Evaluation of one station: power chain, line, gain, exposure at places, totals, verdict.
+
+``assess`` orchestrates the physics modules; it does no I/O and no formatting.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from rfsafe import __version__
+from rfsafe import exposure as ex
+from rfsafe.errors import bad_value
+from rfsafe.limits import ENVIRONMENTS, limits_at, standard_info
+from rfsafe.power import average_power_w, eirp_w, erp_w, mode_duty_factor, window_fill
+from rfsafe.results import (CAUTIONS, ComplianceDistance, ConfigurationResult, EvaluationResult,
+                            PlaceExposure, PlaceResult, TransmitterShare)
+from rfsafe.station.load import INTRINSIC_GAIN_DBI, LoadedStation
+from rfsafe.station.schema import Antenna, Configuration, Feedline, Station
+from rfsafe.units import DIPOLE_GAIN_DBI, M_PER_FT
+
+__all__ = ["assess", "Emitter", "emitters", "peak_gain_dbi", "NEAR_FIELD_FLAG"]
+
+NEAR_FIELD_FLAG = "far-field estimate; near-field analysis or measurement recommended"
+
+
+@dataclass(frozen=True)
+class Emitter:
+    """One configuration reduced to what a field computation needs (used by ``site``)."""
+
+    configuration: str
+    transmitter: str
+    freq_hz: float
+    x_m: float
+    y_m: float
+    height_m: float
+    antenna: Antenna
+    peak_gain_dbi: float
+    avg_power_at_antenna_w: dict[str, float]
+    pep_at_antenna_w: float
+    eirp_w: dict[str, float]
+    eirp_pep_w: float
+    limits: dict[str, tuple]
+    ground_factor: float
+
+
+def peak_gain_dbi(antenna: Antenna, wire_gain_dbi: float | None = None) -> tuple[float, str]:
+    """Peak gain [dBi] of a declared antenna and where it came from."""
+    if antenna.gain_dbi is not None:
+        return antenna.gain_dbi, "declared (dBi)"
+    if antenna.gain_dbd is not None:
+        return antenna.gain_dbd + DIPOLE_GAIN_DBI, "declared (dBd + 2.15)"
+    if antenna.kind in INTRINSIC_GAIN_DBI:
+        return INTRINSIC_GAIN_DBI[antenna.kind], f"{antenna.kind} model"
+    if antenna.kind == "wire" and wire_gain_dbi is not None:
+        return wire_gain_dbi, "moment-method solver"
+    raise bad_value(f"antennas.{antenna.id}.gain_dbi", None, "is required for this antenna")
+
+
+def _schedule_text(c: Configuration) -> str:
+    if c.schedule is None:
+        return "continuous"
+    return f"{c.schedule.on_minutes:g} min on / {c.schedule.off_minutes:g} min off"
+
+
+def _line_result(station: Station, c: Configuration, f: Feedline, pep_w: float, thermal_avg_w: float):
+    from rfsafe import feedline as fl
+
+    freq_hz = c.freq_mhz * 1e6
+    if f.cable == "custom":
+        loss = f.loss_db_per_100m if f.loss_db_per_100m is not None else f.loss_db_per_100ft / M_PER_FT
+        cable = fl.custom_cable(z0_ohm=f.z0_ohm, loss_db_per_100m=loss, freq_hz=freq_hz,
+                                velocity_factor=f.velocity_factor, max_voltage_v_peak=f.max_voltage_v_peak)
+    else:
+        cable = fl.cable_class(f.cable)
+        if f.max_voltage_v_peak is not None:
+            import dataclasses
+            cable = dataclasses.replace(cable, max_voltage_v_peak=f.max_voltage_v_peak)
+    load = None
+    if c.load_r_ohm is not None:
+        load = complex(c.load_r_ohm, c.load_x_ohm or 0.0)
+    tuner = None
+    if c.tuner is not None:
+        tuner = fl.TunerSpec(kind=c.tuner.kind, location=c.tuner.location, loaded_q=c.tuner.loaded_q,
+                             inductor_q=c.tuner.inductor_q,
+                             capacitor_v_peak_rating=c.tuner.capacitor_v_peak_rating,
+                             inductor_a_rms_rating=c.tuner.inductor_a_rms_rating)
+    swr = c.swr if (c.swr is not None or load is not None) else 1.0
+    return fl.evaluate_line(pep_w=pep_w, avg_power_w=thermal_avg_w, freq_hz=freq_hz, cable=cable,
+                            length_m=f.length_m, swr=swr if load is None else None, load_ohm=load,
+                            connector_loss_db=f.connector_loss_db, connector=f.connector,
+                            connector_v_peak_rating=f.connector_v_peak_rating, tuner=tuner,
+                            exact_complex_z0=station.exact_line_loss)
+
+
+def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_factor: float):
+    st = loaded.model
+    tx = next(t for t in st.transmitters if t.id == c.transmitter)
+    fline = next(f for f in st.feedlines if f.id == c.feedline)
+    ant = next(a for a in st.antennas if a.id == c.antenna)
+    freq_hz = c.freq_mhz * 1e6
+    mode = mode_duty_factor(c.mode, field=f"configurations[{i}].mode")
+    duty = c.duty_factor if c.duty_factor is not None else mode.duty_factor
+    duty_src = "declared in the station file" if c.duty_factor is not None else mode.source
+    on = c.schedule.on_minutes if c.schedule else None
+    off = c.schedule.off_minutes if c.schedule else None
+
+    limits = {env: limits_at(st.standard, freq_hz, env, field=f"configurations[{i}].freq_mhz")
+              for env in ENVIRONMENTS}
+    averaging = {}
+    fraction = {}
+    avg_tx = {}
+    for env in ENVIRONMENTS:
+        timed = [lim.averaging_minutes for lim in limits[env] if lim.averaging_minutes]
+        minutes = min(timed) if timed else None     # shortest window: largest fill (conservative)
+        averaging[env] = minutes
+        fraction[env] = window_fill(on, off, minutes) if minutes else 1.0
+        avg_tx[env] = average_power_w(tx.pep_w, duty, fraction[env])
+
+    flags: list[str] = []
+    if c.swr is None and c.load_r_ohm is None:
+        flags.append("no SWR or load declared: a matched load (SWR 1) is assumed, which gives the "
+                     "largest power at the antenna but understates line stress")
+    line = _line_result(st, c, fline, tx.pep_w, tx.pep_w * duty)
+    loss_fraction = float(line.loss_fraction)
+    wire_gain = None
+    gain, gain_src = peak_gain_dbi(ant, wire_gain)
+    avg_ant = {env: avg_tx[env] * loss_fraction for env in ENVIRONMENTS}
+    pep_ant = tx.pep_w * loss_fraction
+    eirp = {env: float(eirp_w(avg_ant[env], gain)) for env in ENVIRONMENTS}
+    erp = {env: float(erp_w(avg_ant[env], gain)) for env in ENVIRONMENTS}
+    eirp_pep = float(eirp_w(pep_ant, gain))
+    nf = float(ex.near_field_distance_m(freq_hz))
+    ap = float(ex.aperture_far_field_distance_m(ant.aperture_m, freq_hz)) if ant.aperture_m else None
+    flag_dist = max(nf, ap or 0.0)
+
+    distances = []
+    for env in ENVIRONMENTS:
+        best = None
+        for lim in limits[env]:
+            p = eirp_pep if lim.basis == "instantaneous" else eirp[env]
+            d = ex.compliance_distance_m(p, ground_factor, lim)
+            if best is None or d > best[0]:
+                best = (d, lim, p)
+        d, lim, p = best
+        gov = _governing(lim, ex.far_field_power_density_w_m2(p, max(d, 1e-9), ground_factor))
+        distances.append(ComplianceDistance(
+            environment=env, environment_label=lim.environment_label, dist_m=d, dist_ft=d / M_PER_FT,
+            limit_basis=lim.basis, governing=gov, averaging_minutes=lim.averaging_minutes, eirp_w=p,
+            inside_near_field=d < flag_dist, limit_source=lim.source))
+        if d < flag_dist:
+            flags.append(f"{env} compliance distance {d:.2f} m lies inside the near-field boundary "
+                         f"{flag_dist:.2f} m: {NEAR_FIELD_FLAG}")
+    exceeded = tuple(line.exceeded_parts)
+    result = ConfigurationResult(
+        id=c.id, description=c.description, freq_mhz=c.freq_mhz, transmitter=tx.id, feedline=fline.id,
+        antenna=ant.id, mode=c.mode, pep_w=tx.pep_w, duty_factor=duty, duty_factor_source=duty_src,
+        schedule=_schedule_text(c), transmit_fraction=fraction, averaging_minutes=averaging,
+        avg_power_w=avg_tx, line_loss_db=float(line.total_loss_db), loss_fraction=loss_fraction,
+        avg_power_at_antenna_w=avg_ant, pep_at_antenna_w=pep_ant, gain_dbi=gain, gain_source=gain_src,
+        eirp_w=eirp, erp_w=erp, eirp_pep_w=eirp_pep, near_field_distance_m=nf, aperture_far_field_m=ap,
+        compliance_distances=tuple(distances), line=line, exceeded_parts=exceeded, flags=tuple(flags),
+        method="far-field prediction S = EIRP F / (4 pi R^2), peak gain (OET Bulletin 65, section 2)")
+    emitter = Emitter(configuration=c.id, transmitter=tx.id, freq_hz=freq_hz, x_m=ant.x_m, y_m=ant.y_m,
+                      height_m=ant.height_m, antenna=ant, peak_gain_dbi=gain, avg_power_at_antenna_w=avg_ant,
+                      pep_at_antenna_w=pep_ant, eirp_w=eirp, eirp_pep_w=eirp_pep, limits=limits,
+                      ground_factor=ground_factor)
+    return result, emitter
+
+
+def _governing(limit, s_w_m2) -> str:
+    """Name of the quantity that gives the largest ratio under a plane-wave relation."""
+    e, h = ex.plane_wave_fields(s_w_m2)
+    cand = []
+    if limit.power_density_w_m2 is not None:
+        cand.append((s_w_m2 / limit.power_density_w_m2, "power_density"))
+    if limit.e_field_v_m is not None:
+        cand.append(((e / limit.e_field_v_m) ** 2, "e_field"))
+    if limit.h_field_a_m is not None:
+        cand.append(((h / limit.h_field_a_m) ** 2, "h_field"))
+    return max(cand)[1]
+
+
+def _gain_toward(em: Emitter, loaded: LoadedStation, dx, dy, dz) -> tuple[float, str]:
+    ant = em.antenna
+    if not ant.use_pattern:
+        return em.peak_gain_dbi, "peak"
+    from rfsafe.antenna import patterns
+
+    direction = patterns.direction_in_antenna_frame(dx, dy, dz, azimuth_deg=ant.azimuth_deg,
+                                                    tilt_deg=ant.tilt_deg, polarisation=ant.polarisation)
+    g = patterns.pattern_gain_dbi(ant.kind, *direction, peak_gain_dbi=em.peak_gain_dbi,
+                                  front_to_back_db=ant.front_to_back_db, beamwidth_h_deg=ant.beamwidth_h_deg,
+                                  beamwidth_v_deg=ant.beamwidth_v_deg, table=loaded.pattern_tables.get(ant.id))
+    return float(np.asarray(g)), "pattern"
+
+
+def _place_exposure(em: Emitter, loaded: LoadedStation, p_index: int, place, cres: ConfigurationResult):
+    dx, dy, dz = place.x_m - em.x_m, place.y_m - em.y_m, place.height_m - em.height_m
+    dist = math.sqrt(dx * dx + dy * dy + dz * dz)
+    if dist < 1e-3:
+        raise bad_value(f"places[{p_index}]", place.label,
+                        f"is at the position of antenna {em.antenna.id!r}: a place must be at least 1 mm away")
+    gain, how = _gain_toward(em, loaded, dx, dy, dz)
+    env = place.environment
+    best = None
+    for lim in em.limits[env]:
+        p_ant = em.pep_at_antenna_w if lim.basis == "instantaneous" else em.avg_power_at_antenna_w[env]
+        s = float(ex.far_field_power_density_w_m2(eirp_w(p_ant, gain), dist, em.ground_factor))
+        r = float(ex.ratio_at(lim, s))
+        if best is None or r > best[0]:
+            best = (r, lim, s)
+    r, lim, s = best
+    e, h = (float(v) for v in ex.plane_wave_fields(s))
+    flag_dist = max(cres.near_field_distance_m, cres.aperture_far_field_m or 0.0)
+    inside = dist < flag_dist
+    flags = (f"{dist:.2f} m from {em.antenna.id} is inside the near-field boundary {flag_dist:.2f} m: "
+             f"{NEAR_FIELD_FLAG}",) if inside else ()
+    return PlaceExposure(
+        configuration=em.configuration, transmitter=em.transmitter, dist_m=dist, gain_dbi=gain, gain_method=how,
+        power_density_w_m2=s, e_field_v_m=e, h_field_a_m=h, exposure_ratio=r,
+        governing=f"{_governing(lim, s)} ({lim.basis})", margin_db=float(ex.margin_db(r)),
+        method="far-field estimate", inside_near_field=inside, flags=flags)
+
+
+def _totals(exposures, station: Station):
+    """Simultaneous total at a place and the transmitters' shares."""
+    by_cfg = {x.configuration: x for x in exposures}
+    if not station.simultaneous:
+        worst: dict[str, PlaceExposure] = {}
+        for x in exposures:
+            if x.transmitter not in worst or x.exposure_ratio > worst[x.transmitter].exposure_ratio:
+                worst[x.transmitter] = x
+        shares = tuple(TransmitterShare(t, x.configuration, x.exposure_ratio) for t, x in worst.items())
+        rule = ("every transmitter may transmit at the same time, each its worst configuration here "
+                "(default, conservative); ratios summed")
+        return sum(s.exposure_ratio for s in shares), shares, rule
+    groups = [list(g.configurations) for g in station.simultaneous]
+    grouped = {c for g in groups for c in g}
+    groups += [[c] for c in by_cfg if c not in grouped]
+    best = max(groups, key=lambda g: sum(by_cfg[c].exposure_ratio for c in g))
+    shares = tuple(TransmitterShare(by_cfg[c].transmitter, c, by_cfg[c].exposure_ratio) for c in best)
+    rule = "declared simultaneous groups (a configuration in no group transmits alone); worst group summed"
+    return sum(s.exposure_ratio for s in shares), shares, rule
+
+
+def emitters(loaded: LoadedStation) -> list[Emitter]:
+    """Every configuration of a station reduced to an :class:`Emitter`."""
+    gf = ex.GROUND_FACTORS[loaded.model.ground_reflection]
+    return [_configuration(loaded, i, c, gf)[1] for i, c in enumerate(loaded.model.configurations)]
+
+
+def _exemption(st: Station, configs, places):
+    if st.standard != "fcc":
+        return None
+    from rfsafe.limits.exemption import ExemptionSource, fcc_exemption
+
+    sources = []
+    for c in configs:
+        ant = next(a for a in st.antennas if a.id == c.antenna)
+        dists = [math.dist((p.x_m, p.y_m, p.height_m), (ant.x_m, ant.y_m, ant.height_m)) for p in places]
+        if not dists:
+            continue
+        sources.append(ExemptionSource(label=c.id, freq_hz=c.freq_mhz * 1e6,
+                                       avg_power_w=max(c.avg_power_at_antenna_w.values()),
+                                       gain_dbi=c.gain_dbi, separation_m=min(dists)))
+    return fcc_exemption(sources) if sources else None
+
+
+def assess(loaded: LoadedStation, *, today: dt.date | None = None) -> EvaluationResult:
+    """Evaluate a loaded station file.
+
+    Parameters
+    ----------
+    loaded : LoadedStation
+        The validated station (see :func:`rfsafe.station.load_station`).
+    today : datetime.date, optional
+        Date printed when the file gives no evaluation date (default: today).
+    """
+    st = loaded.model
+    info = standard_info(st.standard)
+    gf = ex.GROUND_FACTORS[st.ground_reflection]
+    pairs = [_configuration(loaded, i, c, gf) for i, c in enumerate(st.configurations)]
+    configs = tuple(p[0] for p in pairs)
+    ems = [p[1] for p in pairs]
+    by_id = {c.id: c for c in configs}
+    places = []
+    exceeded = []
+    for c in configs:
+        for part in c.exceeded_parts:
+            exceeded.append(f"configuration {c.id}: {part} exceeds its rating")
+    for pi_, place in enumerate(st.places):
+        exposures = tuple(_place_exposure(em, loaded, pi_, place, by_id[em.configuration]) for em in ems)
+        total, shares, rule = _totals(exposures, st)
+        verdict = "complies" if total <= 1.0 else "exceeds"
+        if verdict == "exceeds":
+            exceeded.append(f"place {place.label!r}: total exposure ratio {total:.3g} > 1 ({place.environment})")
+        flags = tuple(f for x in exposures for f in x.flags)
+        places.append(PlaceResult(
+            label=place.label, x_m=place.x_m, y_m=place.y_m, height_m=place.height_m,
+            environment=place.environment, environment_label=info.environment_labels[place.environment],
+            exposures=exposures, total_ratio=total, total_margin_db=float(ex.margin_db(total)),
+            total_rule=rule, contributions=shares, verdict=verdict, flags=flags))
+    exemption = _exemption(st, configs, st.places)
+    if st.evaluation_date is not None:
+        date, date_src = st.evaluation_date.isoformat(), "file"
+    else:
+        date, date_src = (today or dt.date.today()).isoformat(), "today"
+    loss_models = sorted({c.line.loss_model for c in configs})
+    notes = (
+        "Average power = PEP x mode duty factor x transmit fraction; the transmit fraction is the largest "
+        "share of the standard's averaging window that the declared schedule can fill.",
+        f"Ground reflection: {st.ground_reflection} (power-density factor F = {gf:g}).",
+        "Gain: peak gain toward every place unless an antenna opts in to its pattern (use_pattern = true).",
+        "Compliance distances use peak gain and the far-field prediction, for each environment's limit.",
+        "Places closer than lambda/2pi (or 2D^2/lambda for an aperture) are flagged: far-field estimate.",
+        f"Line loss model: {'; '.join(loss_models)}.",
+        f"Limits: {info.name}; averaging times as the standard gives them per environment.",
+    )
+    return EvaluationResult(
+        title=st.title, station=st.station, evaluator=st.evaluator, evaluation_date=date,
+        evaluation_date_source=date_src, standard=st.standard, standard_name=info.name,
+        environment_labels=dict(info.environment_labels), rfsafe_version=__version__,
+        input_file=loaded.path.name, input_sha256=loaded.sha256, ground_reflection=st.ground_reflection,
+        ground_factor=gf, loss_model="; ".join(loss_models), configurations=configs, places=tuple(places),
+        exemption=exemption, verdict="COMPLIES" if not exceeded else "EXCEEDS", exceeded=tuple(exceeded),
+        method_notes=notes, cautions=CAUTIONS)

@@ -1,0 +1,115 @@
+"""``rfsafe evaluate``: evaluate a station file and print tables (or JSON)."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import typer
+
+
+def _f(x, digits=3) -> str:
+    """Compact number for tables (3 significant digits, no exponent for normal ranges)."""
+    if x is None:
+        return "-"
+    ax = abs(x)
+    if ax != 0 and (ax < 1e-3 or ax >= 1e6):
+        return f"{x:.{digits - 1}e}"
+    return f"{x:.{digits}g}" if ax < 1000 else f"{x:.0f}"
+
+
+def render_evaluation(res) -> str:
+    """Human-readable tables of an EvaluationResult."""
+    from rfsafe.cli.output import format_table
+
+    out = []
+    out.append(f"{res.title}")
+    ident = [f"station: {res.station or '-'}", f"evaluator: {res.evaluator or '-'}",
+             f"date: {res.evaluation_date} ({'from file' if res.evaluation_date_source == 'file' else 'today'})",
+             f"standard: {res.standard_name}",
+             f"ground reflection: {res.ground_reflection} (F = {res.ground_factor:g})",
+             f"input: {res.input_file} sha256 {res.input_sha256[:16]}..."]
+    out.append("  " + "\n  ".join(ident))
+    out.append("")
+    rows = []
+    for c in res.configurations:
+        dist = {d.environment: d for d in c.compliance_distances}
+        rows.append([c.id, f"{c.freq_mhz:g}", c.mode, _f(c.pep_w), f"{c.duty_factor:g}",
+                     f"{c.transmit_fraction['controlled']:.2f}/{c.transmit_fraction['uncontrolled']:.2f}",
+                     _f(c.avg_power_w["uncontrolled"]), f"{c.line_loss_db:.2f}", f"{c.gain_dbi:.2f}",
+                     _f(c.eirp_w["uncontrolled"]),
+                     f"{dist['controlled'].dist_m:.2f} ({dist['controlled'].dist_ft:.1f})",
+                     f"{dist['uncontrolled'].dist_m:.2f} ({dist['uncontrolled'].dist_ft:.1f})"])
+    out.append(format_table(
+        ["configuration", "MHz", "mode", "PEP W", "duty", "fill ctl/unc", "avg W unc", "loss dB",
+         "gain dBi", "EIRP W unc", "ctl dist m (ft)", "unc dist m (ft)"], rows,
+        title="Configurations (average power after duty factor and averaging-window fill; peak gain)"))
+    out.append("")
+    if res.places:
+        rows = []
+        for p in res.places:
+            for x in p.exposures:
+                rows.append([p.label, p.environment, x.configuration, f"{x.dist_m:.2f}",
+                             _f(x.power_density_w_m2), _f(x.e_field_v_m), _f(x.h_field_a_m),
+                             _f(x.exposure_ratio), f"{x.margin_db:+.1f}", x.method + (" [NEAR FIELD]" if x.inside_near_field else "")])
+        out.append(format_table(["place", "environment", "configuration", "dist m", "S W/m2", "E V/m",
+                                 "H A/m", "ratio", "margin dB", "method"], rows,
+                                title="Exposure at each place from each configuration"))
+        out.append("")
+        rows = []
+        for p in res.places:
+            shares = ", ".join(f"{s.configuration} {_f(s.exposure_ratio)}" for s in p.contributions)
+            rows.append([p.label, p.environment, _f(p.total_ratio), f"{p.total_margin_db:+.1f}",
+                         p.verdict.upper(), shares])
+        out.append(format_table(["place", "environment", "total ratio", "margin dB", "verdict", "summed"],
+                                rows, title="Simultaneous total at each place (sum of exposure ratios <= 1)"))
+        out.append(f"  rule: {res.places[0].total_rule}")
+        out.append("")
+    rows = []
+    for c in res.configurations:
+        ln = c.line
+        rows.append([c.id, f"{ln.swr_at_antenna:.2f}", f"{ln.swr_at_transmitter:.2f}",
+                     _f(ln.line_voltage_v_peak), _f(ln.line_current_a_peak), f"{ln.total_loss_db:.2f}",
+                     ", ".join(c.exceeded_parts) or "none"])
+    out.append(format_table(["configuration", "SWR ant", "SWR tx", "V max (peak)", "I max A (peak)",
+                             "loss dB", "ratings exceeded"], rows, title="Feedline and tuner stress at PEP"))
+    if res.exemption is not None:
+        out.append("")
+        ex = res.exemption
+        out.append(f"47 CFR 1.1307(b)(3) exemption: {'EXEMPT' if ex.exempt else 'NOT EXEMPT'} ({ex.criterion})")
+        out.append(f"  {ex.note}")
+    out.append("")
+    if res.exceeded:
+        out.append("Exceeded:")
+        out.extend(f"  - {line}" for line in res.exceeded)
+    out.append(f"VERDICT: {res.verdict}")
+    return "\n".join(out)
+
+
+def evaluate(file: Path = typer.Argument(..., help="Station file (.toml)."),
+             standard: str = typer.Option(None, "--standard",
+                                          help="Override the file's standard: fcc, icnirp2020, icnirp1998, ieee2019, sc6."),
+             json_out: bool = typer.Option(False, "--json", help="Print one JSON document instead of tables.")) -> None:
+    """Evaluate a station: exposure at every place, compliance distances, line stress.
+
+    Exit status: 0 compliant, 1 a limit or rating is exceeded, 2 bad input.
+    """
+    from rfsafe.assess import assess
+    from rfsafe.cli.output import print_json, warn
+    from rfsafe.station import load_station
+
+    res = assess(load_station(file, standard=standard))
+    if json_out:
+        print_json(res)
+    else:
+        typer.echo(render_evaluation(res))
+        flags = sorted({f for c in res.configurations for f in c.flags} |
+                       {f for p in res.places for f in p.flags})
+        for f in flags:
+            warn(f"caution: {f}")
+        for c in res.cautions:
+            warn(f"caution: {c}")
+    raise typer.Exit(res.exit_code)
+
+
+def register(app: typer.Typer) -> None:
+    app.command("evaluate")(evaluate)

@@ -1,0 +1,157 @@
+"""Evaluation results: plain frozen dataclasses, no I/O and no formatting.
+
+The JSON printed by ``rfsafe evaluate --json`` has exactly these field names.
+Per-environment values are dicts keyed ``"controlled"`` / ``"uncontrolled"``.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+__all__ = ["ComplianceDistance", "ConfigurationResult", "PlaceExposure", "TransmitterShare",
+           "PlaceResult", "EvaluationResult", "CAUTIONS"]
+
+#: Cautions carried by every output (in rfsafe's own words).
+CAUTIONS = (
+    "This is an estimate under the stated assumptions, not a measurement.",
+    "Local regulation and the regulator's own guidance govern; where they differ from this tool, follow them.",
+    "Inside the reactive near field a far-field estimate is not valid: such places need near-field "
+    "modelling or measurement by a competent person.",
+    "Antennas, feedlines and tuners carry high RF voltages: they can cause RF burns and electric shock.",
+    "Never touch an antenna or open a tuner while transmitting.",
+    "Installations close to a limit should be reviewed by a professional or licensed engineer.",
+)
+
+
+@dataclass(frozen=True)
+class ComplianceDistance:
+    """Distance beyond which one environment's limit is met (peak gain, far-field formula)."""
+
+    environment: str
+    environment_label: str
+    dist_m: float
+    dist_ft: float
+    limit_basis: str          # "time-averaged" or "instantaneous"
+    governing: str            # which quantity sets it: "power_density", "e_field", "h_field"
+    averaging_minutes: float | None
+    eirp_w: float             # the EIRP compared with the limit (average, or PEP for instantaneous limits)
+    inside_near_field: bool   # the distance itself lies inside lambda/2pi (or 2D^2/lambda)
+    limit_source: str
+
+
+@dataclass(frozen=True)
+class ConfigurationResult:
+    """One operating configuration: power chain, line, gain, compliance distances."""
+
+    id: str
+    description: str
+    freq_mhz: float
+    transmitter: str
+    feedline: str
+    antenna: str
+    mode: str
+    pep_w: float
+    duty_factor: float
+    duty_factor_source: str
+    schedule: str
+    transmit_fraction: dict[str, float]
+    averaging_minutes: dict[str, float | None]
+    avg_power_w: dict[str, float]            # at the transmitter
+    line_loss_db: float
+    loss_fraction: float                     # power at antenna / power into line
+    avg_power_at_antenna_w: dict[str, float]
+    pep_at_antenna_w: float
+    gain_dbi: float                          # peak gain
+    gain_source: str
+    eirp_w: dict[str, float]                 # time-averaged, peak gain
+    erp_w: dict[str, float]
+    eirp_pep_w: float
+    near_field_distance_m: float             # lambda / 2 pi
+    aperture_far_field_m: float | None       # 2 D^2 / lambda where an aperture size is declared
+    compliance_distances: tuple[ComplianceDistance, ...]
+    line: Any                                # rfsafe.feedline LineResult
+    exceeded_parts: tuple[str, ...]
+    flags: tuple[str, ...]
+    method: str
+
+
+@dataclass(frozen=True)
+class PlaceExposure:
+    """Exposure at one place from one configuration."""
+
+    configuration: str
+    transmitter: str
+    dist_m: float
+    gain_dbi: float
+    gain_method: str                         # "peak" or "pattern"
+    power_density_w_m2: float
+    e_field_v_m: float
+    h_field_a_m: float
+    exposure_ratio: float
+    governing: str                           # e.g. "power_density (time-averaged)"
+    margin_db: float
+    method: str                              # "far-field estimate" or "near-field (moment method)"
+    inside_near_field: bool
+    flags: tuple[str, ...]
+    far_field_ratio: float | None = None     # when a near-field result replaces the estimate
+    near_field_ratio: float | None = None
+
+
+@dataclass(frozen=True)
+class TransmitterShare:
+    """A transmitter's contribution to a place's total (its worst configuration there)."""
+
+    transmitter: str
+    configuration: str
+    exposure_ratio: float
+
+
+@dataclass(frozen=True)
+class PlaceResult:
+    """One place: every configuration's exposure and the simultaneous total."""
+
+    label: str
+    x_m: float
+    y_m: float
+    height_m: float
+    environment: str
+    environment_label: str
+    exposures: tuple[PlaceExposure, ...]
+    total_ratio: float
+    total_margin_db: float
+    total_rule: str
+    contributions: tuple[TransmitterShare, ...]
+    verdict: str                             # "complies" or "exceeds"
+    flags: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class EvaluationResult:
+    """The whole evaluation of one station file."""
+
+    title: str
+    station: str
+    evaluator: str
+    evaluation_date: str
+    evaluation_date_source: str             # "file" or "today"
+    standard: str
+    standard_name: str
+    environment_labels: dict[str, str]
+    rfsafe_version: str
+    input_file: str
+    input_sha256: str
+    ground_reflection: str
+    ground_factor: float
+    loss_model: str
+    configurations: tuple[ConfigurationResult, ...]
+    places: tuple[PlaceResult, ...]
+    exemption: Any                          # rfsafe.limits.exemption.ExemptionResult or None
+    verdict: str                            # "COMPLIES" or "EXCEEDS"
+    exceeded: tuple[str, ...]               # one line per limit or rating exceeded
+    method_notes: tuple[str, ...]
+    cautions: tuple[str, ...] = field(default=CAUTIONS)
+
+    @property
+    def exit_code(self) -> int:
+        return 0 if self.verdict == "COMPLIES" else 1

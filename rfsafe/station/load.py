@@ -1,0 +1,189 @@
+"""Load a station file: TOML -> strict model -> cross-reference checks.
+
+Every problem is an :class:`~rfsafe.errors.InputError` naming the field path,
+the value and what is accepted.
+"""
+
+from __future__ import annotations
+
+import hashlib
+from dataclasses import dataclass
+from pathlib import Path
+
+from rfsafe.errors import InputError, bad_value, format_value
+from rfsafe.station.schema import Antenna, Configuration, Feedline, Station
+from rfsafe.station.validation import read_toml, validate_model
+
+__all__ = ["LoadedStation", "load_station", "check_station", "quoted_list"]
+
+#: Intrinsic peak gains of the analytic antenna kinds [dBi] (used when no gain is declared).
+INTRINSIC_GAIN_DBI = {
+    "isotropic": 0.0,
+    "short-dipole": 1.76,            # 10 log10(1.5), Balanis, Antenna Theory, sec. 4.2
+    "half-wave-dipole": 2.15,        # 10 log10(1.64), Balanis sec. 4.6
+    "quarter-wave-vertical": 5.16,   # monopole over perfect ground, image theory (Balanis sec. 4.7)
+}
+_CUSTOM_ONLY = ("z0_ohm", "velocity_factor", "loss_db_per_100m", "loss_db_per_100ft")
+
+
+@dataclass(frozen=True)
+class LoadedStation:
+    """A validated station and where it came from."""
+
+    model: Station
+    path: Path
+    sha256: str
+    wire_specs: dict  # antenna id -> validated wire geometry (solver spec)
+    pattern_tables: dict  # antenna id -> loaded pattern table
+
+
+def quoted_list(names) -> str:
+    return ", ".join(format_value(n) for n in names)
+
+
+def _unique(items, key: str, section: str) -> None:
+    seen = set()
+    for i, item in enumerate(items):
+        value = getattr(item, key)
+        if value in seen:
+            raise bad_value(f"{section}[{i}].{key}", value, f"is a duplicate {key} (each {key} in {section} must be unique)")
+        seen.add(value)
+
+
+def _ref(value: str, declared: list[str], path: str, what: str) -> None:
+    if value not in declared:
+        raise bad_value(path, value, f"is not a declared {what} (declared: {quoted_list(declared)})")
+
+
+def _check_feedline(i: int, f: Feedline) -> None:
+    from rfsafe import feedline as fl
+
+    path = f"feedlines[{i}]"
+    if f.cable == "custom":
+        if f.z0_ohm is None:
+            raise InputError(f"{path}.z0_ohm: is required for a custom cable")
+        if f.velocity_factor is None:
+            raise InputError(f"{path}.velocity_factor: is required for a custom cable")
+        if (f.loss_db_per_100m is None) == (f.loss_db_per_100ft is None):
+            raise InputError(f"{path}.loss_db_per_100m: a custom cable needs exactly one of "
+                             "loss_db_per_100m or loss_db_per_100ft")
+    else:
+        fl.cable_class(f.cable, field=f"{path}.cable")
+        for key in _CUSTOM_ONLY:
+            if getattr(f, key) is not None:
+                raise bad_value(f"{path}.{key}", getattr(f, key),
+                                f'applies only to cable = "custom" (this feedline uses {format_value(f.cable)})')
+    if f.connector is not None:
+        fl.connector_series(f.connector, field=f"{path}.connector")
+
+
+def _check_antenna(i: int, a: Antenna, base: Path, wire_specs: dict, tables: dict) -> None:
+    path = f"antennas[{i}]"
+    if a.gain_dbi is not None and a.gain_dbd is not None:
+        raise InputError(f"{path}.gain_dbd: give either gain_dbi or gain_dbd, not both")
+    has_gain = a.gain_dbi is not None or a.gain_dbd is not None
+    if a.kind in ("beam", "table", "other") and not has_gain:
+        raise InputError(f"{path}.gain_dbi: is required for an antenna of kind {format_value(a.kind)} "
+                         "(give gain_dbi or gain_dbd)")
+    if a.kind == "beam" and a.use_pattern:
+        for key in ("front_to_back_db", "beamwidth_h_deg", "beamwidth_v_deg"):
+            if getattr(a, key) is None:
+                raise InputError(f"{path}.{key}: is required for a beam antenna with use_pattern = true")
+    if a.kind == "table":
+        if a.pattern_file is None:
+            raise InputError(f'{path}.pattern_file: is required for an antenna of kind "table"')
+        from rfsafe.antenna.patterns import load_pattern_table
+
+        tables[a.id] = load_pattern_table(base / a.pattern_file, field=f"{path}.pattern_file")
+    elif a.pattern_file is not None:
+        raise bad_value(f"{path}.pattern_file", a.pattern_file, 'applies only to kind = "table"')
+    if a.kind == "other" and a.use_pattern:
+        raise bad_value(f"{path}.use_pattern", True, 'needs a pattern model: kind "other" has none '
+                        '(use a named kind, "beam" or "table")')
+    if a.kind == "wire":
+        if a.wire is None:
+            raise InputError(f'{path}.wire: is required for an antenna of kind "wire"')
+        from rfsafe.antenna.wire import WireAntennaSpec
+        from rfsafe.station.validation import validate_model as _vm
+
+        wire_specs[a.id] = _vm(WireAntennaSpec, a.wire, prefix=f"{path}.wire.")
+    elif a.wire is not None:
+        raise InputError(f'{path}.wire: applies only to kind = "wire"')
+
+
+def _check_configuration(i: int, c: Configuration, station: Station) -> None:
+    from rfsafe.limits import limits_at
+    from rfsafe.power import mode_duty_factor
+
+    path = f"configurations[{i}]"
+    _ref(c.transmitter, [t.id for t in station.transmitters], f"{path}.transmitter", "transmitter")
+    _ref(c.feedline, [f.id for f in station.feedlines], f"{path}.feedline", "feedline")
+    _ref(c.antenna, [a.id for a in station.antennas], f"{path}.antenna", "antenna")
+    mode_duty_factor(c.mode, field=f"{path}.mode")
+    if c.swr is not None and c.load_r_ohm is not None:
+        raise InputError(f"{path}.swr: give either swr or load_r_ohm/load_x_ohm, not both")
+    if c.load_x_ohm is not None and c.load_r_ohm is None:
+        raise InputError(f"{path}.load_r_ohm: is required when load_x_ohm is given")
+    if c.tuner is not None and c.tuner.kind == "l" and c.tuner.loaded_q is not None:
+        raise bad_value(f"{path}.tuner.loaded_q", c.tuner.loaded_q,
+                        "applies only to a pi network (an L network's Q is set by the impedances)")
+    for env in ("controlled", "uncontrolled"):
+        limits_at(station.standard, c.freq_mhz * 1e6, env, field=f"{path}.freq_mhz")
+
+
+def check_station(station: Station, base: Path) -> tuple[dict, dict]:
+    """Cross-reference and consistency checks the schema alone cannot express."""
+    _unique(station.transmitters, "id", "transmitters")
+    _unique(station.feedlines, "id", "feedlines")
+    _unique(station.antennas, "id", "antennas")
+    _unique(station.configurations, "id", "configurations")
+    _unique(station.places, "label", "places")
+    for i, f in enumerate(station.feedlines):
+        _check_feedline(i, f)
+    wire_specs: dict = {}
+    tables: dict = {}
+    for i, a in enumerate(station.antennas):
+        _check_antenna(i, a, base, wire_specs, tables)
+    for i, c in enumerate(station.configurations):
+        _check_configuration(i, c, station)
+    by_id = {c.id: c for c in station.configurations}
+    for g, group in enumerate(station.simultaneous):
+        used: dict[str, str] = {}
+        for j, cid in enumerate(group.configurations):
+            path = f"simultaneous[{g}].configurations[{j}]"
+            _ref(cid, list(by_id), path, "configuration")
+            tx = by_id[cid].transmitter
+            if tx in used:
+                raise bad_value(path, cid, f"uses transmitter {format_value(tx)} like {format_value(used[tx])}: "
+                                "a transmitter sends one configuration at a time")
+            used[tx] = cid
+    return wire_specs, tables
+
+
+def load_station(path: str | Path, *, standard: str | None = None) -> LoadedStation:
+    """Read, validate and cross-check a station file.
+
+    ``standard`` overrides the file's standard (the ``--standard`` option).
+
+    Raises
+    ------
+    InputError
+        For any problem, naming the field path, the value and what is accepted.
+    """
+    path = Path(path)
+    data, raw = read_toml(path)
+    if standard is not None:
+        if not isinstance(data, dict):
+            raise InputError("(file): must be a TOML table")
+        data = {**data, "standard": standard}
+        try:
+            station = validate_model(Station, data)
+        except InputError as err:
+            if str(err).startswith("standard:"):
+                raise InputError(str(err).replace("standard:", "--standard:", 1)) from None
+            raise
+    else:
+        station = validate_model(Station, data)
+    wire_specs, tables = check_station(station, path.parent)
+    return LoadedStation(model=station, path=path, sha256=hashlib.sha256(raw).hexdigest(),
+                         wire_specs=wire_specs, pattern_tables=tables)

@@ -1,0 +1,118 @@
+"""Turn pydantic validation errors into rfsafe's one-line input errors."""
+
+from __future__ import annotations
+
+import tomllib
+from pathlib import Path
+from typing import Any
+
+from pydantic import BaseModel, ValidationError
+
+from rfsafe.errors import InputError, bad_value, format_value
+
+__all__ = ["field_path", "validation_to_input_error", "read_toml", "validate_model"]
+
+_TYPE_WORDS = {
+    "float_type": "must be a number",
+    "float_parsing": "must be a number",
+    "int_type": "must be an integer",
+    "string_type": "must be a string (in quotes)",
+    "bool_type": "must be true or false",
+    "list_type": "must be an array",
+    "dict_type": "must be a table",
+    "model_type": "must be a table",
+    "model_attributes_type": "must be a table",
+    "date_type": "must be a TOML date (YYYY-MM-DD, no quotes)",
+    "finite_number": "must be a finite number",
+}
+
+
+def field_path(loc: tuple[Any, ...]) -> str:
+    """``("configurations", 2, "antenna")`` -> ``configurations[2].antenna``."""
+    out = ""
+    for part in loc:
+        if isinstance(part, int):
+            out += f"[{part}]"
+        else:
+            out += ("." if out else "") + str(part)
+    return out or "(file)"
+
+
+def _model_at(model: type[BaseModel], loc: tuple[Any, ...]) -> type[BaseModel] | None:
+    """The model class that owns the last key of ``loc`` (for listing accepted keys)."""
+    import typing
+
+    current: Any = model
+    for part in loc[:-1]:
+        if isinstance(part, int):
+            continue
+        if not (isinstance(current, type) and issubclass(current, BaseModel)):
+            return None
+        info = current.model_fields.get(part)
+        if info is None:
+            return None
+        ann = info.annotation
+        candidates = [ann]
+        for _ in range(3):  # unwrap Optional[...] and list[...]
+            nxt = []
+            for c in candidates:
+                args = typing.get_args(c)
+                nxt.extend(args if args else [c])
+            candidates = nxt
+        current = next((c for c in candidates if isinstance(c, type) and issubclass(c, BaseModel)), None)
+    return current if isinstance(current, type) and issubclass(current, BaseModel) else None
+
+
+def validation_to_input_error(err: ValidationError, model: type[BaseModel], *, prefix: str = "") -> InputError:
+    """The first error of a pydantic ``ValidationError`` as an :class:`InputError`."""
+    first = err.errors(include_url=False)[0]
+    loc = tuple(first["loc"])
+    path = prefix + field_path(loc) if loc else (prefix.rstrip(".") or "(file)")
+    kind = first["type"]
+    value = first.get("input")
+    ctx = first.get("ctx") or {}
+    if kind == "missing":
+        return InputError(f"{path}: is required but missing")
+    if kind == "extra_forbidden":
+        owner = _model_at(model, loc)
+        accepted = ", ".join(owner.model_fields) if owner else ""
+        return InputError(f"{path}: is not a known key (accepted keys: {accepted})")
+    if kind == "literal_error":
+        return bad_value(path, value, f"is not accepted (accepted: {ctx.get('expected', '')})")
+    if kind in ("greater_than", "greater_than_equal", "less_than", "less_than_equal"):
+        op = {"greater_than": ">", "greater_than_equal": ">=", "less_than": "<", "less_than_equal": "<="}[kind]
+        bound = next(iter(ctx.values()))
+        return bad_value(path, value, f"is out of range (accepted: {op} {format_value(bound)})")
+    if kind in ("too_short", "too_long"):
+        return bad_value(path, value, f"has the wrong length ({first['msg'].lower()})")
+    if kind in _TYPE_WORDS:
+        return bad_value(path, value, _TYPE_WORDS[kind])
+    return bad_value(path, value, f"is not accepted ({first['msg']})")
+
+
+def read_toml(path: Path) -> tuple[dict[str, Any], bytes]:
+    """Read a TOML file; syntax errors keep tomllib's line and column."""
+    try:
+        raw = path.read_bytes()
+    except FileNotFoundError:
+        raise bad_value("FILE", str(path), "does not exist") from None
+    except IsADirectoryError:
+        raise bad_value("FILE", str(path), "is a directory, not a TOML file") from None
+    except OSError as exc:
+        raise bad_value("FILE", str(path), f"cannot be read ({exc.strerror})") from None
+    try:
+        text = raw.decode("utf-8")
+    except UnicodeDecodeError:
+        raise bad_value("FILE", str(path), "is not UTF-8 text") from None
+    try:
+        return tomllib.loads(text), raw
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(f"{path}: TOML syntax error: {exc}") from None
+
+
+def validate_model(model: type[BaseModel], data: dict[str, Any], *, prefix: str = "") -> BaseModel:
+    """Validate ``data`` against ``model``; the first problem becomes an InputError."""
+    try:
+        return model.model_validate(data)
+    except ValidationError as err:
+        raise validation_to_input_error(err, model, prefix=prefix) from None
