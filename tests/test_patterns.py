@@ -335,3 +335,10 @@ def test_missing_table_file(tmp_path):
     with pytest.raises(InputError) as exc:
         pt.load_pattern_table(p)
     assert str(exc.value) == f'pattern_file: "{p}" does not exist'
+
+
+def test_direction_components_may_be_passed_unpacked():
+    d = pt.direction_in_antenna_frame(3.0, 4.0, 1.0, azimuth_deg=20.0, polarisation="horizontal")
+    a = pt.pattern_gain_dbi("half-wave-dipole", d)
+    b = pt.pattern_gain_dbi("half-wave-dipole", *d)
+    assert a == b

@@ -620,17 +620,32 @@ def make_pattern(kind: str, *, peak_gain_dbi: float | None = None, front_to_back
     return Pattern(kind, peak, fb, bh, bv)
 
 
-def pattern_gain(kind: str, direction: AntennaDirection, *, peak_gain_dbi: float | None = None,
+def _as_direction(parts: tuple) -> AntennaDirection:
+    if len(parts) == 1 and isinstance(parts[0], AntennaDirection):
+        return parts[0]
+    if len(parts) == 4:
+        return AntennaDirection(*parts)
+    raise TypeError("give an AntennaDirection, or its four components forward, right, up, axis")
+
+
+def pattern_gain(kind: str, *direction, peak_gain_dbi: float | None = None,
                  front_to_back_db: float | None = None, beamwidth_h_deg: float | None = None,
-                 beamwidth_v_deg: float | None = None, table: PatternTable | None = None) -> np.ndarray:
-    """Linear gain of a pattern kind toward ``direction`` [1] (see :func:`make_pattern`)."""
+                 beamwidth_v_deg: float | None = None, table: PatternTable | None = None,
+                 field: str = "antenna") -> np.ndarray:
+    """Linear gain of a pattern kind toward a direction [1] (see :func:`make_pattern`).
+
+    ``direction`` is an :class:`AntennaDirection` or its four components
+    (``pattern_gain(kind, *direction_in_antenna_frame(...))`` works too). For
+    many directions with one antenna, build the :class:`Pattern` once with
+    :func:`make_pattern` and call its ``gain``.
+    """
     return make_pattern(kind, peak_gain_dbi=peak_gain_dbi, front_to_back_db=front_to_back_db,
                         beamwidth_h_deg=beamwidth_h_deg, beamwidth_v_deg=beamwidth_v_deg,
-                        table=table).gain(direction)
+                        table=table, field=field).gain(_as_direction(direction))
 
 
-def pattern_gain_dbi(kind: str, direction: AntennaDirection, **params) -> np.ndarray:
-    """Gain of a pattern kind toward ``direction`` [dBi] (10 log10 of :func:`pattern_gain`; nulls give -inf)."""
-    g = pattern_gain(kind, direction, **params)
+def pattern_gain_dbi(kind: str, *direction, **params) -> np.ndarray:
+    """Gain of a pattern kind toward a direction [dBi] (10 log10 of :func:`pattern_gain`; nulls give -inf)."""
+    g = pattern_gain(kind, *direction, **params)
     with np.errstate(divide="ignore"):
         return 10.0 * np.log10(g)
