@@ -1,0 +1,178 @@
+"""`rfsafe line`: feedline loss and the voltage/current stress of line, connectors and tuner."""
+
+from __future__ import annotations
+
+import math
+import re
+
+import typer
+
+from rfsafe.errors import InputError, bad_value
+
+_CAUTION = ("Caution: RF voltages on a feedline and in a matching network can burn and can arc; these are "
+            "estimates from generic cable figures (many marked 'from memory') under stated assumptions. "
+            "Use the ratings of your own parts; local regulation and licensed practice govern.")
+
+#: Library field names -> the option the user typed.
+_FIELD_TO_OPTION = {
+    "line.pep_w": "--pep-w", "line.avg_power_w": "--duty-factor", "line.freq_hz": "--freq-mhz",
+    "line.length_m": "--length-m", "line.swr": "--swr", "line.load_ohm": "--load-ohm",
+    "line.connector_v_peak_rating": "--connector-v-peak", "line.connector": "--connector",
+    "line.tuner.loaded_q": "--q", "line.tuner.inductor_q": "--inductor-q",
+    "line.tuner.capacitor_max_voltage_v_peak": "--capacitor-v-peak",
+    "line.tuner.inductor_max_current_a_rms": "--inductor-a-rms", "line.tuner.load_ohm": "--load-ohm",
+    "line.tuner.l_form": "--l-form", "line.tuner": "--tuner",
+    "cable.z0_ohm": "--z0-ohm", "cable.loss_db_per_100m": "--loss-db-per-100m",
+    "cable.velocity_factor": "--vf", "cable.max_voltage_v_peak": "--max-voltage-v-peak",
+}
+
+_IMPEDANCE_RE = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?([+-](\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?j)?$")
+
+
+def parse_impedance(text: str, *, option: str = "--load-ohm") -> complex:
+    """Parse ``50``, ``73+42.5j``, ``12-35j`` (ohm) into a complex number."""
+    s = text.strip().replace(" ", "")
+    if not _IMPEDANCE_RE.match(s):
+        raise bad_value(option, text, "is not an impedance (accepted: R or R+Xj in ohm, e.g. 50, 73+42.5j, 12-35j)")
+    return complex(s)
+
+
+def _remap(err: InputError) -> InputError:
+    msg = str(err)
+    head, sep, rest = msg.partition(": ")
+    if sep and head in _FIELD_TO_OPTION:
+        return InputError(f"{_FIELD_TO_OPTION[head]}: {rest}")
+    return err
+
+
+def _fmt(x: float, unit: str = "", digits: int = 4) -> str:
+    if x is None:
+        return "-"
+    if isinstance(x, float) and math.isinf(x):
+        return "not reached"
+    return f"{x:.{digits}g}{(' ' + unit) if unit else ''}"
+
+
+def line(
+    pep_w: float = typer.Option(..., "--pep-w", help="Peak envelope power into the line (or tuner) [W]."),
+    freq_mhz: float = typer.Option(..., "--freq-mhz", help="Frequency [MHz]."),
+    length_m: float = typer.Option(..., "--length-m", help="Line length [m]."),
+    cable: str = typer.Option(None, "--cable", help="Cable class id (e.g. rg-213, window-450)."),
+    z0_ohm: float = typer.Option(None, "--z0-ohm", help="Custom line: characteristic impedance [ohm]."),
+    loss_db_per_100m: float = typer.Option(None, "--loss-db-per-100m",
+                                           help="Custom line: matched loss at --freq-mhz [dB/100 m]."),
+    vf: float = typer.Option(None, "--vf", help="Custom line: velocity factor (0-1]."),
+    max_voltage_v_peak: float = typer.Option(None, "--max-voltage-v-peak",
+                                             help="Custom line: peak voltage rating [V]."),
+    swr: float = typer.Option(None, "--swr", help="SWR at the antenna end (load phase unknown: worst case)."),
+    load_ohm: str = typer.Option(None, "--load-ohm", help="Impedance at the antenna end [ohm], e.g. 12-35j."),
+    tuner: str = typer.Option(None, "--tuner", help="Matching network: l or pi."),
+    tuner_at: str = typer.Option("transmitter", "--tuner-at", help="Network position: transmitter or antenna."),
+    q: float = typer.Option(None, "--q", help="Loaded Q of a pi network (default 10)."),
+    inductor_q: float = typer.Option(100.0, "--inductor-q", help="Inductor unloaded Q (default 100)."),
+    capacitor_v_peak: float = typer.Option(None, "--capacitor-v-peak", help="Capacitor rating [V peak]."),
+    inductor_a_rms: float = typer.Option(None, "--inductor-a-rms", help="Inductor rating [A rms]."),
+    l_form: str = typer.Option(None, "--l-form", help="L network form (low-pass, high-pass, ...)."),
+    connector: str = typer.Option(None, "--connector", help="Connector series at both ends: uhf, n, bnc."),
+    connector_v_peak: float = typer.Option(None, "--connector-v-peak", help="Connector rating [V peak]."),
+    duty_factor: float = typer.Option(1.0, "--duty-factor",
+                                      help="Average / peak envelope power for heating (default 1.0, conservative)."),
+    exact_z0: bool = typer.Option(False, "--exact-z0", help="Use the complex Z0 = R0(1 - j alpha/beta) model."),
+    json_out: bool = typer.Option(False, "--json", help="Print the result as JSON."),
+) -> None:
+    """Loss, SWR at both ends and the peak voltage/current on a feedline, its connectors and a tuner."""
+    from rfsafe.cli import output
+    from rfsafe.feedline import cable_class, custom_cable, evaluate_line
+    from rfsafe.matching import TunerSpec
+
+    if not (math.isfinite(freq_mhz) and freq_mhz > 0):
+        raise bad_value("--freq-mhz", freq_mhz, "must be a number > 0 MHz")
+    if not (math.isfinite(duty_factor) and 0 < duty_factor <= 1):
+        raise bad_value("--duty-factor", duty_factor, "must be > 0 and <= 1")
+    custom = {"--z0-ohm": z0_ohm, "--loss-db-per-100m": loss_db_per_100m, "--vf": vf}
+    given = [k for k, v in custom.items() if v is not None]
+    if cable is not None and given:
+        raise bad_value("--cable", cable, f"cannot be combined with {', '.join(given)} (give a class or a custom line)")
+    if cable is None and not given:
+        raise InputError("--cable: none given; give --cable CLASS or --z0-ohm, --loss-db-per-100m and --vf")
+    if (swr is None) == (load_ohm is None):
+        raise InputError("--swr/--load-ohm: " + ("both given" if swr is not None else "none given")
+                         + "; give exactly one (SWR at the antenna end, or the antenna-end impedance)")
+    if tuner is not None and tuner not in ("l", "pi"):
+        raise bad_value("--tuner", tuner, 'is not a known network (known: "l", "pi")')
+    if tuner_at not in ("transmitter", "antenna"):
+        raise bad_value("--tuner-at", tuner_at, 'is not a known position (known: "transmitter", "antenna")')
+    if q is not None and tuner != "pi":
+        raise bad_value("--q", q, "applies to --tuner pi only")
+    for opt, val in (("--inductor-q", inductor_q), ("--q", q)):
+        if val is not None and not (math.isfinite(val) and val > 0):
+            raise bad_value(opt, val, "must be a number > 0")
+    try:
+        if cable is not None:
+            line_cable = cable_class(cable, field="--cable")
+        else:
+            missing = [k for k, v in custom.items() if v is None]
+            if missing:
+                raise InputError(f"{missing[0]}: missing; a custom line needs --z0-ohm, --loss-db-per-100m and --vf")
+            line_cable = custom_cable(z0_ohm=z0_ohm, loss_db_per_100m=loss_db_per_100m, freq_hz=freq_mhz * 1e6,
+                                      velocity_factor=vf, max_voltage_v_peak=max_voltage_v_peak)
+        load = None if load_ohm is None else parse_impedance(load_ohm)
+        spec = None if tuner is None else TunerSpec(
+            topology=tuner, position=tuner_at, loaded_q=q, inductor_q=inductor_q,
+            capacitor_max_voltage_v_peak=capacitor_v_peak, inductor_max_current_a_rms=inductor_a_rms, l_form=l_form)
+        if not (math.isfinite(pep_w) and pep_w > 0):
+            raise bad_value("--pep-w", pep_w, "must be a number > 0 W")
+        result = evaluate_line(pep_w=pep_w, avg_power_w=pep_w * duty_factor, freq_hz=freq_mhz * 1e6,
+                               cable=line_cable, length_m=length_m, swr=swr, load_ohm=load, connector=connector,
+                               connector_v_peak_rating=connector_v_peak, tuner=spec, exact_complex_z0=exact_z0,
+                               field="line")
+    except InputError as err:
+        raise _remap(err) from None
+
+    if json_out:
+        output.print_json(result)
+    else:
+        r = result
+        zin = r.input_impedance_ohm
+        rows = [
+            ("cable", r.cable_id), ("matched loss", _fmt(r.matched_loss_db, "dB")),
+            ("total loss", _fmt(r.total_loss_db, "dB")), ("loss model", r.loss_model),
+            ("SWR at antenna", _fmt(r.swr_at_antenna)), ("SWR at transmitter", _fmt(r.swr_at_transmitter)),
+            ("input impedance", f"{zin.real:.4g} {'+' if zin.imag >= 0 else '-'} j{abs(zin.imag):.4g} ohm"),
+            ("power at antenna (PEP)", _fmt(r.power_at_antenna_w, "W")),
+            ("line dissipation (average)", _fmt(r.line_dissipation_avg_w, "W")),
+            ("max line voltage", f"{_fmt(r.line_voltage_v_peak, 'V peak')} / {_fmt(r.line_voltage_v_rms, 'V rms')}"
+                                 f" at {r.line_voltage_max_position_m:.3g} m from transmitter"),
+            ("max line current", f"{_fmt(r.line_current_a_peak, 'A peak')} / {_fmt(r.line_current_a_rms, 'A rms')}"
+                                 f" at {r.line_current_max_position_m:.3g} m from transmitter"),
+            ("voltage at transmitter end", _fmt(r.voltage_at_transmitter_v_peak, "V peak")),
+            ("voltage at antenna end", _fmt(r.voltage_at_antenna_v_peak, "V peak")),
+        ]
+        typer.echo(output.format_table(["quantity", "value"], rows, title="Feedline", align="ll"))
+        prow = [(p.part, p.quantity, _fmt(p.stress), _fmt(p.rating), p.unit, _fmt(p.headroom, digits=3),
+                 _fmt(p.largest_tolerable_swr, digits=3), "EXCEEDED" if p.exceeded else "ok")
+                for p in r.part_stresses]
+        typer.echo("")
+        typer.echo(output.format_table(["part", "quantity", "stress", "rating", "unit", "headroom",
+                                        "largest SWR", "status"], prow, title="Ratings at this power"))
+        if r.tuner is not None:
+            n = r.tuner.network
+            trow = [(p.name, p.kind, p.placement, _fmt(p.value_pf, "pF") if p.value_pf else _fmt(p.value_uh, "uH"),
+                     _fmt(p.voltage_v_peak), _fmt(p.voltage_v_rms), _fmt(p.current_a_rms), _fmt(p.loss_w))
+                    for p in n.parts]
+            typer.echo("")
+            typer.echo(output.format_table(["part", "kind", "placement", "value", "V peak", "V rms", "A rms",
+                                            "loss W"], trow,
+                                           title=f"{n.topology.upper()} network ({n.form}) at the {r.tuner.position}, "
+                                                 f"loss {n.loss_db:.3g} dB", align="llllrrrr"))
+        output.warn(f"Load: {r.load_assumption}.")
+        output.warn(f"Heating: {r.thermal_rule}.")
+        for note in r.notes:
+            output.warn(f"Note: {note}.")
+        output.warn(_CAUTION)
+    raise typer.Exit(1 if result.exceeded_parts else 0)
+
+
+def register(app: typer.Typer) -> None:
+    """Add the ``line`` command to the app."""
+    app.command("line")(line)
