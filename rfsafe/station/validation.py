@@ -65,7 +65,9 @@ def _model_at(model: type[BaseModel], loc: tuple[Any, ...]) -> type[BaseModel] |
 
 def validation_to_input_error(err: ValidationError, model: type[BaseModel], *, prefix: str = "") -> InputError:
     """The first error of a pydantic ``ValidationError`` as an :class:`InputError`."""
-    first = err.errors(include_url=False)[0]
+    errors = err.errors(include_url=False)
+    # An unknown key usually explains a "missing" one (a typo): report it first.
+    first = next((e for e in errors if e["type"] == "extra_forbidden"), errors[0])
     loc = tuple(first["loc"])
     path = prefix + field_path(loc) if loc else (prefix.rstrip(".") or "(file)")
     kind = first["type"]
@@ -82,7 +84,8 @@ def validation_to_input_error(err: ValidationError, model: type[BaseModel], *, p
     if kind in ("greater_than", "greater_than_equal", "less_than", "less_than_equal"):
         op = {"greater_than": ">", "greater_than_equal": ">=", "less_than": "<", "less_than_equal": "<="}[kind]
         bound = next(iter(ctx.values()))
-        return bad_value(path, value, f"is out of range (accepted: {op} {format_value(bound)})")
+        shown = f"{bound:g}" if isinstance(bound, (int, float)) else format_value(bound)
+        return bad_value(path, value, f"is out of range (accepted: {op} {shown})")
     if kind in ("too_short", "too_long"):
         return bad_value(path, value, f"has the wrong length ({first['msg'].lower()})")
     if kind in _TYPE_WORDS:

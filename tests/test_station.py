@@ -1,0 +1,132 @@
+"""Station files: strict validation with one exact message per problem, nothing written."""
+
+from pathlib import Path
+
+import pytest
+from typer.testing import CliRunner
+
+from rfsafe.cli import app
+from rfsafe.errors import InputError
+from rfsafe.station import load_station
+
+BASE = (Path(__file__).parent / "data" / "station_minimal.toml").read_text()
+
+# (what is broken, replacement (old, new) in the base file, exact message after "Error: ")
+CASES = [
+    ("TOML syntax error", ('pep_w = 100.0', 'pep_w = = 100.0'),
+     "{path}: TOML syntax error: Invalid value (at line 11, column 9)"),
+    ("unknown key (typo)", ('pep_w = 100.0', 'pep_watts = 100.0'),
+     "transmitters[0].pep_watts: is not a known key (accepted keys: id, description, pep_w)"),
+    ("missing key", ('pep_w = 100.0', ''),
+     "transmitters[0].pep_w: is required but missing"),
+    ("wrong type: bool for a number", ('pep_w = 100.0', 'pep_w = true'),
+     "transmitters[0].pep_w: true must be a number"),
+    ("wrong type: string for a number", ('length_m = 20.0', 'length_m = "20"'),
+     'feedlines[0].length_m: "20" must be a number'),
+    ("negative power", ('pep_w = 100.0', 'pep_w = -5.0'),
+     "transmitters[0].pep_w: -5.0 is out of range (accepted: > 0)"),
+    ("SWR below 1", ('swr = 1.5', 'swr = 0.8'),
+     "configurations[0].swr: 0.8 is out of range (accepted: >= 1)"),
+    ("duty factor above 1", ('swr = 1.5', 'swr = 1.5\nduty_factor = 1.5'),
+     "configurations[0].duty_factor: 1.5 is out of range (accepted: <= 1)"),
+    ("frequency outside the standard", ('freq_mhz = 14.2', 'freq_mhz = 0.1'),
+     None),  # message from rfsafe.limits, checked to name the field below
+    ("dangling antenna reference", ('antenna = "dipole-80"', 'antenna = "yagi-3"'),
+     'configurations[0].antenna: "yagi-3" is not a declared antenna (declared: "dipole-80", "beam")'),
+    ("dangling transmitter reference", ('transmitter = "tx"', 'transmitter = "tx2"'),
+     'configurations[0].transmitter: "tx2" is not a declared transmitter (declared: "tx")'),
+    ("duplicate id", ('id = "beam"', 'id = "dipole-80"'),
+     'antennas[1].id: "dipole-80" is a duplicate id (each id in antennas must be unique)'),
+    ("unknown environment", ('environment = "controlled"', 'environment = "staff"'),
+     "places[1].environment: \"staff\" is not accepted (accepted: 'controlled' or 'uncontrolled')"),
+    ("unknown standard", ('standard = "fcc"', 'standard = "fcc2"'),
+     "standard: \"fcc2\" is not accepted (accepted: 'fcc', 'icnirp2020', 'icnirp1998', 'ieee2019' or 'sc6')"),
+    ("unknown cable class", ('cable = "rg-213"', 'cable = "rg-999"'),
+     None),  # message from rfsafe.feedline, checked to name the field below
+    ("unknown mode", ('mode = "ssb"', 'mode = "olivia-x"'),
+     'configurations[0].mode: "olivia-x" is not a known mode (accepted: "cw", "ssb", "ssb-processed", '
+     '"fm", "am", "am-full", "rtty", "afsk", "digital", "carrier")'),
+    ("gain given twice", ('gain_dbi = 8.0', 'gain_dbi = 8.0\ngain_dbd = 5.85'),
+     "antennas[1].gain_dbd: give either gain_dbi or gain_dbd, not both"),
+    ("SWR and load together", ('swr = 1.5', 'swr = 1.5\nload_r_ohm = 50.0'),
+     "configurations[0].swr: give either swr or load_r_ohm/load_x_ohm, not both"),
+    ("custom-cable key on a catalogue cable", ('length_m = 20.0', 'length_m = 20.0\nz0_ohm = 75.0'),
+     'feedlines[0].z0_ohm: 75.0 applies only to cable = "custom" (this feedline uses "rg-213")'),
+    ("negative length", ('length_m = 20.0', 'length_m = -1.0'),
+     "feedlines[0].length_m: -1.0 is out of range (accepted: >= 0)"),
+    ("date as a string", ('evaluation_date = 2026-01-15', 'evaluation_date = "2026-01-15"'),
+     'evaluation_date: "2026-01-15" must be a TOML date (YYYY-MM-DD, no quotes)'),
+    ("beam without gain", ('gain_dbi = 8.0', ''),
+     'antennas[1].gain_dbi: is required for an antenna of kind "beam" (give gain_dbi or gain_dbd)'),
+    ("section that must be an array of tables", ('[[transmitters]]\nid = "tx"\npep_w = 100.0',
+                                                  'transmitters = "tx"'),
+     'transmitters: "tx" must be an array'),
+]
+
+
+def _write(tmp_path: Path, old_new) -> Path:
+    old, new = old_new
+    assert old in BASE, old
+    path = tmp_path / "station.toml"
+    path.write_text(BASE.replace(old, new, 1))
+    return path
+
+
+def test_base_file_is_valid():
+    loaded = load_station(Path(__file__).parent / "data" / "station_minimal.toml")
+    assert loaded.model.configurations[0].id == "hf"
+    assert len(loaded.sha256) == 64
+
+
+@pytest.mark.parametrize("what, old_new, message", CASES, ids=[c[0] for c in CASES])
+@pytest.mark.parametrize("command", ["check", "evaluate"])
+def test_malformed_station(tmp_path, what, old_new, message, command):
+    path = _write(tmp_path, old_new)
+    before = sorted(p.name for p in tmp_path.iterdir())
+    result = CliRunner().invoke(app, [command, str(path)])
+    assert result.exit_code == 2, (what, result.stdout, result.stderr)
+    lines = result.stderr.strip().splitlines()
+    assert len(lines) == 1 and lines[0].startswith("Error: "), result.stderr
+    assert result.stdout == ""
+    if message is not None:
+        assert lines[0] == "Error: " + message.format(path=path)
+    elif what.startswith("frequency"):
+        assert lines[0].startswith("Error: configurations[0].freq_mhz: 0.1")
+    else:
+        assert lines[0].startswith('Error: feedlines[0].cable: "rg-999"')
+    assert sorted(p.name for p in tmp_path.iterdir()) == before  # nothing written
+
+
+def test_missing_file_is_input_error(tmp_path):
+    with pytest.raises(InputError, match=r'^FILE: ".*nope.toml" does not exist$'):
+        load_station(tmp_path / "nope.toml")
+
+
+def test_standard_override(tmp_path):
+    path = tmp_path / "s.toml"
+    path.write_text(BASE)
+    assert load_station(path, standard="icnirp2020").model.standard == "icnirp2020"
+    result = CliRunner().invoke(app, ["check", str(path), "--standard", "nope"])
+    assert result.exit_code == 2
+    assert result.stderr.startswith('Error: --standard: "nope" is not accepted')
+
+
+def test_init_writes_a_file_that_evaluates(tmp_path):
+    path = tmp_path / "starter.toml"
+    runner = CliRunner()
+    assert runner.invoke(app, ["init", str(path)]).exit_code == 0
+    again = runner.invoke(app, ["init", str(path)])
+    assert again.exit_code == 2 and "already exists (use --force to overwrite)" in again.stderr
+    result = runner.invoke(app, ["evaluate", str(path), "--json"])
+    assert result.exit_code in (0, 1), result.stderr
+
+
+def test_schema_is_json_schema():
+    import json
+
+    result = CliRunner().invoke(app, ["schema"])
+    assert result.exit_code == 0
+    schema = json.loads(result.stdout)
+    assert schema["$schema"].startswith("https://json-schema.org/")
+    assert "transmitters" in schema["required"]
+    assert schema["additionalProperties"] is False
