@@ -1,0 +1,188 @@
+"""Station evaluation: power chain per environment, sums over transmitters, verdicts, flags."""
+
+import json
+import math
+from pathlib import Path
+
+import pytest
+from typer.testing import CliRunner
+
+from rfsafe.assess import assess
+from rfsafe.cli import app
+from rfsafe.limits import limits_at
+from rfsafe.station import load_station
+
+BASE = (Path(__file__).parent / "data" / "station_minimal.toml").read_text()
+
+
+def _station(tmp_path, text, name="s.toml"):
+    path = tmp_path / name
+    path.write_text(text)
+    return assess(load_station(path))
+
+
+SECOND_TX = '''
+[[transmitters]]
+id = "tx2"
+pep_w = 100.0
+
+[[configurations]]
+id = "hf2"
+freq_mhz = 14.2
+transmitter = "tx2"
+feedline = "coax"
+antenna = "dipole-80"
+mode = "ssb"
+swr = 1.5
+'''
+
+SAME_TX_OTHER_CONFIG = '''
+[[configurations]]
+id = "hf-cw"
+freq_mhz = 14.05
+transmitter = "tx"
+feedline = "coax"
+antenna = "dipole-80"
+mode = "cw"
+swr = 1.5
+'''
+
+
+def test_two_identical_transmitters_double_the_total(tmp_path):
+    one = _station(tmp_path, BASE, "one.toml")
+    two = _station(tmp_path, BASE + SECOND_TX, "two.toml")
+    for p1, p2 in zip(one.places, two.places):
+        assert p2.total_ratio == pytest.approx(2 * p1.total_ratio, rel=1e-12)
+        assert len(p2.contributions) == 2
+
+
+def test_one_transmitter_counts_its_worst_configuration_once(tmp_path):
+    res = _station(tmp_path, BASE + SAME_TX_OTHER_CONFIG)
+    for p in res.places:
+        worst = max(x.exposure_ratio for x in p.exposures)
+        assert p.total_ratio == pytest.approx(worst)
+        assert [s.configuration for s in p.contributions] == ["hf-cw"]  # CW 0.4 > SSB 0.2
+
+
+def test_declared_simultaneous_group(tmp_path):
+    text = BASE + SECOND_TX + '\n[[simultaneous]]\nconfigurations = ["hf", "hf2"]\n'
+    res = _station(tmp_path, text)
+    for p in res.places:
+        assert p.total_ratio == pytest.approx(sum(x.exposure_ratio for x in p.exposures))
+        assert p.total_rule.startswith("declared simultaneous groups")
+
+
+def test_group_with_one_transmitter_twice_is_refused(tmp_path):
+    path = tmp_path / "s.toml"
+    path.write_text(BASE + SAME_TX_OTHER_CONFIG + '\n[[simultaneous]]\nconfigurations = ["hf", "hf-cw"]\n')
+    result = CliRunner().invoke(app, ["check", str(path)])
+    assert result.exit_code == 2
+    assert result.stderr.strip() == ('Error: simultaneous[0].configurations[1]: "hf-cw" uses transmitter "tx" '
+                                     'like "hf": a transmitter sends one configuration at a time')
+
+
+def test_averaging_window_per_environment(tmp_path):
+    # 47 CFR 1.1310 Table 1: 6 min (occupational/controlled), 30 min (general population/uncontrolled)
+    text = BASE.replace("swr = 1.5", "swr = 1.5\nschedule = { on_minutes = 10.0, off_minutes = 10.0 }")
+    c = _station(tmp_path, text).configurations[0]
+    assert c.averaging_minutes == {"controlled": 6.0, "uncontrolled": 30.0}
+    assert c.transmit_fraction["controlled"] == 1.0
+    assert c.transmit_fraction["uncontrolled"] == pytest.approx(2 / 3)
+    assert c.avg_power_w["uncontrolled"] == pytest.approx(100 * 0.2 * 2 / 3)
+    # power chain: EIRP = average power x loss fraction x peak gain (2.15 dBi)
+    assert c.eirp_w["uncontrolled"] == pytest.approx(c.avg_power_w["uncontrolled"] * c.loss_fraction * 10 ** 0.215)
+
+
+def test_compliance_distance_matches_closed_form(tmp_path):
+    res = _station(tmp_path, BASE)
+    c = res.configurations[0]
+    (lim,) = limits_at("fcc", 14.2e6, "uncontrolled")
+    # 47 CFR 1.1310 Table 1 (B), 1.34-30 MHz: S = 180/f^2 mW/cm^2, and the E/H rows in the same table
+    s_lim = 180 / 14.2 ** 2 * 10
+    d = next(d for d in c.compliance_distances if d.environment == "uncontrolled")
+    expected = math.sqrt(4.0 * c.eirp_w["uncontrolled"] / (4 * math.pi * s_lim))
+    assert d.dist_m == pytest.approx(expected, rel=2e-3)  # the table's E and H are rounded to 3 figures
+    assert d.dist_ft == pytest.approx(d.dist_m / 0.3048)
+    assert lim.averaging_minutes == 30
+
+
+def test_near_field_flag_is_never_hidden(tmp_path):
+    res = _station(tmp_path, BASE)
+    shack = next(p for p in res.places if p.label == "Shack")
+    # lambda/2pi at 14.2 MHz is 3.36 m; the shack is sqrt(3^2 + 8.5^2) = 9.0 m away: no flag there
+    assert not shack.flags
+    near = BASE.replace("x_m = 3.0", "x_m = 1.0").replace("height_m = 1.5\nenvironment = \"controlled\"",
+                                                           "height_m = 9.0\nenvironment = \"controlled\"")
+    res = _station(tmp_path, near, "near.toml")
+    shack = next(p for p in res.places if p.label == "Shack")
+    assert shack.exposures[0].inside_near_field
+    assert "near-field analysis or measurement recommended" in shack.flags[0]
+
+
+def test_exceeding_place_exits_1_and_json_says_so(tmp_path):
+    text = BASE.replace("pep_w = 100.0", "pep_w = 1500.0").replace('mode = "ssb"', 'mode = "fm"') \
+        .replace("x_m = 10.0", "x_m = 1.0").replace("height_m = 1.5\nenvironment = \"uncontrolled\"",
+                                                    "height_m = 8.0\nenvironment = \"uncontrolled\"")
+    path = tmp_path / "hot.toml"
+    path.write_text(text)
+    result = CliRunner().invoke(app, ["evaluate", str(path), "--json"])
+    assert result.exit_code == 1, result.stderr
+    doc = json.loads(result.stdout)
+    assert doc["verdict"] == "EXCEEDS"
+    garden = next(p for p in doc["places"] if p["label"] == "Garden")
+    assert garden["verdict"] == "exceeds" and garden["total_ratio"] > 1
+    assert any("Garden" in line for line in doc["exceeded"])
+
+
+def test_line_rating_exceeded_exits_1(tmp_path):
+    text = BASE.replace('cable = "rg-213"', 'cable = "rg-174"').replace("pep_w = 100.0", "pep_w = 1500.0") \
+        .replace("swr = 1.5", "swr = 8.0")
+    path = tmp_path / "line.toml"
+    path.write_text(text)
+    result = CliRunner().invoke(app, ["evaluate", str(path), "--json"])
+    assert result.exit_code == 1
+    doc = json.loads(result.stdout)
+    assert doc["configurations"][0]["exceeded_parts"]
+    assert any("exceeds its rating" in line for line in doc["exceeded"])
+
+
+def test_pattern_gain_is_opt_in(tmp_path):
+    text = BASE.replace('antenna = "dipole-80"', 'antenna = "beam"').replace(
+        'gain_dbi = 8.0', 'gain_dbi = 8.0\nuse_pattern = true\nfront_to_back_db = 20.0\n'
+                          'beamwidth_h_deg = 60.0\nbeamwidth_v_deg = 50.0\nazimuth_deg = 270.0')
+    res = _station(tmp_path, text)
+    garden = next(p for p in res.places if p.label == "Garden")  # due east, behind a beam facing west
+    x = garden.exposures[0]
+    assert x.gain_method == "pattern"
+    assert x.gain_dbi < 8.0 - 10  # well down the back of the beam
+    peak = _station(tmp_path, BASE.replace('antenna = "dipole-80"', 'antenna = "beam"'), "peak.toml")
+    assert next(p for p in peak.places if p.label == "Garden").exposures[0].gain_method == "peak"
+
+
+def test_json_shape(tmp_path):
+    path = tmp_path / "s.toml"
+    path.write_text(BASE)
+    result = CliRunner().invoke(app, ["evaluate", str(path), "--json"])
+    assert result.exit_code == 0, result.stderr
+    doc = json.loads(result.stdout)
+    for key in ("title", "standard", "input_sha256", "configurations", "places", "verdict", "cautions",
+                "ground_factor", "exemption", "method_notes"):
+        assert key in doc
+    cfg = doc["configurations"][0]
+    for key in ("freq_mhz", "avg_power_w", "eirp_w", "erp_w", "compliance_distances", "line", "flags"):
+        assert key in cfg
+    assert {d["environment"] for d in cfg["compliance_distances"]} == {"controlled", "uncontrolled"}
+    assert set(cfg["line"]["input_impedance_ohm"]) == {"re", "im"}
+    place = doc["places"][0]
+    for key in ("label", "environment", "exposures", "total_ratio", "total_margin_db", "verdict"):
+        assert key in place
+
+
+def test_table_output_and_cautions_on_stderr(tmp_path):
+    path = tmp_path / "s.toml"
+    path.write_text(BASE)
+    result = CliRunner().invoke(app, ["evaluate", str(path)])
+    assert result.exit_code == 0
+    assert "VERDICT: COMPLIES" in result.stdout
+    assert "Garden" in result.stdout and "Shack" in result.stdout
+    assert "caution: Never touch an antenna or open a tuner while transmitting." in result.stderr
