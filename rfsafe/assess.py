@@ -45,6 +45,7 @@ class Emitter:
     eirp_pep_w: float
     limits: dict[str, tuple]
     ground_factor: float
+    solution: object = None       # moment-method solution for a wire antenna, else None
 
 
 def peak_gain_dbi(antenna: Antenna, wire_gain_dbi: float | None = None) -> tuple[float, str]:
@@ -58,6 +59,26 @@ def peak_gain_dbi(antenna: Antenna, wire_gain_dbi: float | None = None) -> tuple
     if antenna.kind == "wire" and wire_gain_dbi is not None:
         return wire_gain_dbi, "moment-method solver"
     raise bad_value(f"antennas.{antenna.id}.gain_dbi", None, "is required for this antenna")
+
+
+def _wire_solution(loaded: LoadedStation, ant: Antenna, freq_hz: float, i: int):
+    """Moment-method solution of a wire antenna at one frequency (None for other kinds)."""
+    if ant.kind != "wire":
+        return None
+    from rfsafe.antenna.wire import solve
+
+    return solve(loaded.wire_specs[ant.id], freq_hz, field=f"configurations[{i}]")
+
+
+def _wire_summary(solution):
+    if solution is None:
+        return None
+    from rfsafe.results import WireSummary
+
+    z = complex(solution.feed_impedance_ohm[0]) if np.ndim(solution.feed_impedance_ohm) else complex(
+        solution.feed_impedance_ohm)
+    return WireSummary(feed_impedance_ohm=z, gain_dbi=float(solution.gain_dbi),
+                       radiated_over_input_power=float(solution.radiated_over_input_power))
 
 
 def _schedule_text(c: Configuration) -> str:
@@ -126,8 +147,8 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
                      "largest power at the antenna but understates line stress")
     line = _line_result(st, c, fline, tx.pep_w, tx.pep_w * duty)
     loss_fraction = float(line.loss_fraction)
-    wire_gain = None
-    gain, gain_src = peak_gain_dbi(ant, wire_gain)
+    solution = _wire_solution(loaded, ant, freq_hz, i)
+    gain, gain_src = peak_gain_dbi(ant, solution.gain_dbi if solution is not None else None)
     avg_ant = {env: avg_tx[env] * loss_fraction for env in ENVIRONMENTS}
     pep_ant = tx.pep_w * loss_fraction
     eirp = {env: float(eirp_w(avg_ant[env], gain)) for env in ENVIRONMENTS}
@@ -163,11 +184,13 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
         avg_power_at_antenna_w=avg_ant, pep_at_antenna_w=pep_ant, gain_dbi=gain, gain_source=gain_src,
         eirp_w=eirp, erp_w=erp, eirp_pep_w=eirp_pep, near_field_distance_m=nf, aperture_far_field_m=ap,
         compliance_distances=tuple(distances), line=line, exceeded_parts=exceeded, flags=tuple(flags),
-        method="far-field prediction S = EIRP F / (4 pi R^2), peak gain (OET Bulletin 65, section 2)")
+        method="far-field prediction S = EIRP F / (4 pi R^2), peak gain (OET Bulletin 65, section 2)"
+               + ("; near field of the wire antenna by the moment-method solver" if solution is not None else ""),
+        wire=_wire_summary(solution))
     emitter = Emitter(configuration=c.id, transmitter=tx.id, freq_hz=freq_hz, x_m=ant.x_m, y_m=ant.y_m,
                       height_m=ant.height_m, antenna=ant, peak_gain_dbi=gain, avg_power_at_antenna_w=avg_ant,
                       pep_at_antenna_w=pep_ant, eirp_w=eirp, eirp_pep_w=eirp_pep, limits=limits,
-                      ground_factor=ground_factor)
+                      ground_factor=ground_factor, solution=solution)
     return result, emitter
 
 
@@ -198,32 +221,77 @@ def _gain_toward(em: Emitter, loaded: LoadedStation, dx, dy, dz) -> tuple[float,
     return float(np.asarray(g)), "pattern"
 
 
-def _place_exposure(em: Emitter, loaded: LoadedStation, p_index: int, place, cres: ConfigurationResult):
-    dx, dy, dz = place.x_m - em.x_m, place.y_m - em.y_m, place.height_m - em.height_m
+def _heights(place) -> list[float]:
+    return list(place.body_heights_m) if place.body_heights_m else [place.height_m]
+
+
+def _far_field_at(em: Emitter, loaded: LoadedStation, place, z_m: float):
+    """Worst far-field (ratio, limit, S, dist, gain, how) at one evaluation height."""
+    dx, dy, dz = place.x_m - em.x_m, place.y_m - em.y_m, z_m - em.height_m
     dist = math.sqrt(dx * dx + dy * dy + dz * dz)
-    if dist < 1e-3:
-        raise bad_value(f"places[{p_index}]", place.label,
-                        f"is at the position of antenna {em.antenna.id!r}: a place must be at least 1 mm away")
     gain, how = _gain_toward(em, loaded, dx, dy, dz)
-    env = place.environment
     best = None
-    for lim in em.limits[env]:
-        p_ant = em.pep_at_antenna_w if lim.basis == "instantaneous" else em.avg_power_at_antenna_w[env]
+    for lim in em.limits[place.environment]:
+        p_ant = em.pep_at_antenna_w if lim.basis == "instantaneous" else em.avg_power_at_antenna_w[place.environment]
         s = float(ex.far_field_power_density_w_m2(eirp_w(p_ant, gain), dist, em.ground_factor))
         r = float(ex.ratio_at(lim, s))
         if best is None or r > best[0]:
-            best = (r, lim, s)
-    r, lim, s = best
+            best = (r, lim, s, dist, gain, how)
+    return best
+
+
+def _near_field_at(em: Emitter, solution, place, heights):
+    """Worst moment-method (ratio, limit, E, H, z) over the evaluation heights."""
+    from rfsafe.limits import exposure_ratio
+
+    pts = np.array([[place.x_m, place.y_m, z] for z in heights], dtype=float)
+    best = None
+    for lim in em.limits[place.environment]:
+        p_ant = em.pep_at_antenna_w if lim.basis == "instantaneous" else em.avg_power_at_antenna_w[place.environment]
+        e, h = solution.fields_rms(pts, p_ant)
+        r = np.asarray(exposure_ratio(lim, e_field_v_m=e, h_field_a_m=h), dtype=float)
+        k = int(np.argmax(r))
+        if best is None or r[k] > best[0]:
+            best = (float(r[k]), lim, float(e[k]), float(h[k]), heights[k])
+    return best
+
+
+def _place_exposure(em: Emitter, loaded: LoadedStation, p_index: int, place, cres: ConfigurationResult,
+                    solution=None):
+    heights = _heights(place)
+    for z in heights:
+        d = math.dist((place.x_m, place.y_m, z), (em.x_m, em.y_m, em.height_m))
+        if d < 1e-3:
+            raise bad_value(f"places[{p_index}]", place.label,
+                            f"is at the position of antenna {em.antenna.id!r}: a place must be at least 1 mm away")
+    r, lim, s, dist, gain, how = max((_far_field_at(em, loaded, place, z) for z in heights), key=lambda b: b[0])
     e, h = (float(v) for v in ex.plane_wave_fields(s))
     flag_dist = max(cres.near_field_distance_m, cres.aperture_far_field_m or 0.0)
-    inside = dist < flag_dist
-    flags = (f"{dist:.2f} m from {em.antenna.id} is inside the near-field boundary {flag_dist:.2f} m: "
+    dist_min = min(math.dist((place.x_m, place.y_m, z), (em.x_m, em.y_m, em.height_m)) for z in heights)
+    inside = dist_min < flag_dist
+    governing = f"{_governing(lim, s)} ({lim.basis})"
+    if inside and solution is not None:
+        rn, limn, en, hn, zn = _near_field_at(em, solution, place, heights)
+        e_part = (en / limn.e_field_v_m) ** 2 if limn.e_field_v_m else 0.0
+        h_part = (hn / limn.h_field_a_m) ** 2 if limn.h_field_a_m else 0.0
+        diff_db = 10 * math.log10(rn / r) if rn > 0 and r > 0 else float("nan")
+        flags = (f"{dist_min:.2f} m from {em.antenna.id} is inside the near-field boundary {flag_dist:.2f} m: "
+                 f"evaluated with the moment-method solver (near field governs; far-field estimate "
+                 f"{r:.3g}, near-field {rn:.3g}, {diff_db:+.1f} dB)",)
+        return PlaceExposure(
+            configuration=em.configuration, transmitter=em.transmitter, dist_m=dist_min, gain_dbi=gain,
+            gain_method=how, power_density_w_m2=max(en ** 2 / ex.ETA_STANDARDS_OHM, ex.ETA_STANDARDS_OHM * hn ** 2),
+            e_field_v_m=en, h_field_a_m=hn, exposure_ratio=rn,
+            governing=f"{'e_field' if e_part >= h_part else 'h_field'} ({limn.basis})",
+            margin_db=float(ex.margin_db(rn)), method="near-field (moment method)", inside_near_field=True,
+            flags=flags, far_field_ratio=r, near_field_ratio=rn)
+    flags = (f"{dist_min:.2f} m from {em.antenna.id} is inside the near-field boundary {flag_dist:.2f} m: "
              f"{NEAR_FIELD_FLAG}",) if inside else ()
     return PlaceExposure(
         configuration=em.configuration, transmitter=em.transmitter, dist_m=dist, gain_dbi=gain, gain_method=how,
-        power_density_w_m2=s, e_field_v_m=e, h_field_a_m=h, exposure_ratio=r,
-        governing=f"{_governing(lim, s)} ({lim.basis})", margin_db=float(ex.margin_db(r)),
-        method="far-field estimate", inside_near_field=inside, flags=flags)
+        power_density_w_m2=s, e_field_v_m=e, h_field_a_m=h, exposure_ratio=r, governing=governing,
+        margin_db=float(ex.margin_db(r)), method="far-field estimate", inside_near_field=inside, flags=flags,
+        far_field_ratio=r)
 
 
 def _totals(exposures, station: Station):
@@ -293,7 +361,8 @@ def assess(loaded: LoadedStation, *, today: dt.date | None = None) -> Evaluation
         for part in c.exceeded_parts:
             exceeded.append(f"configuration {c.id}: {part} exceeds its rating")
     for pi_, place in enumerate(st.places):
-        exposures = tuple(_place_exposure(em, loaded, pi_, place, by_id[em.configuration]) for em in ems)
+        exposures = tuple(_place_exposure(em, loaded, pi_, place, by_id[em.configuration], em.solution)
+                          for em in ems)
         total, shares, rule = _totals(exposures, st)
         verdict = "complies" if total <= 1.0 else "exceeds"
         if verdict == "exceeds":

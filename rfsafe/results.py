@@ -9,7 +9,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import Any
 
-__all__ = ["ComplianceDistance", "ConfigurationResult", "PlaceExposure", "TransmitterShare",
+__all__ = ["ComplianceDistance", "WireSummary", "ConfigurationResult", "PlaceExposure", "TransmitterShare",
            "PlaceResult", "EvaluationResult", "CAUTIONS"]
 
 #: Cautions carried by every output (in rfsafe's own words).
@@ -38,6 +38,15 @@ class ComplianceDistance:
     eirp_w: float             # the EIRP compared with the limit (average, or PEP for instantaneous limits)
     inside_near_field: bool   # the distance itself lies inside lambda/2pi (or 2D^2/lambda)
     limit_source: str
+
+
+@dataclass(frozen=True)
+class WireSummary:
+    """Moment-method solution of a wire antenna at the configuration's frequency."""
+
+    feed_impedance_ohm: complex
+    gain_dbi: float
+    radiated_over_input_power: float
 
 
 @dataclass(frozen=True)
@@ -74,6 +83,7 @@ class ConfigurationResult:
     exceeded_parts: tuple[str, ...]
     flags: tuple[str, ...]
     method: str
+    wire: WireSummary | None = None          # wire antennas: solver summary
 
 
 @dataclass(frozen=True)

@@ -103,10 +103,10 @@ def _check_antenna(i: int, a: Antenna, base: Path, wire_specs: dict, tables: dic
     if a.kind == "wire":
         if a.wire is None:
             raise InputError(f'{path}.wire: is required for an antenna of kind "wire"')
-        from rfsafe.antenna.wire import WireAntennaSpec
-        from rfsafe.station.validation import validate_model as _vm
+        from rfsafe.antenna.wire.model import check_wire_antenna
 
-        wire_specs[a.id] = _vm(WireAntennaSpec, a.wire, prefix=f"{path}.wire.")
+        check_wire_antenna(a.wire, prefix=f"{path}.wire.")
+        wire_specs[a.id] = a.wire
     elif a.wire is not None:
         raise InputError(f'{path}.wire: applies only to kind = "wire"')
 

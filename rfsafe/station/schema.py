@@ -11,6 +11,8 @@ from typing import Literal
 
 from pydantic import BaseModel, ConfigDict, Field
 
+from rfsafe.antenna.wire.model import WireAntennaSpec
+
 __all__ = [
     "ANTENNA_KINDS", "GROUND_REFLECTION", "Transmitter", "Feedline", "Antenna", "Schedule",
     "Tuner", "Configuration", "Place", "SimultaneousGroup", "Station",
@@ -80,7 +82,8 @@ class Antenna(_Strict):
                                      description="Table: CSV of azimuth_deg, elevation_deg, gain_dbi (relative to this file).")
     aperture_m: float | None = Field(default=None, gt=0,
                                      description="Largest dimension D of an aperture antenna (far field beyond 2 D^2/lambda) [m].")
-    wire: dict | None = Field(default=None, description="Wire geometry for the moment-method near-field solver.")
+    wire: WireAntennaSpec | None = Field(
+        default=None, description="Wire geometry (station frame, metres) for the moment-method near-field solver.")
 
 
 class Schedule(_Strict):
@@ -126,6 +129,10 @@ class Place(_Strict):
     x_m: float
     y_m: float
     height_m: float = Field(ge=0, description="Height of the evaluation point above ground [m].")
+    body_heights_m: list[float] | None = Field(
+        default=None, min_length=1,
+        description="Heights above ground at which to evaluate, worst taken (e.g. feet to head of a standing "
+                    "person, [0.5, 1.0, 1.5, 2.0]); default: height_m only.")
     environment: Literal["controlled", "uncontrolled"]
 
 
