@@ -1,0 +1,181 @@
+"""evaluate_line: loss, stress, headroom and tolerable SWR, checked against closed forms (Pozar,
+Microwave Engineering, 4th ed.) and scikit-rf."""
+
+import math
+
+import numpy as np
+import pytest
+from hypothesis import given, settings, strategies as st
+
+skrf = pytest.importorskip("skrf")
+from skrf import tlineFunctions as tf  # noqa: E402
+
+from rfsafe.errors import InputError  # noqa: E402
+from rfsafe.feedline import cable_class, custom_cable, evaluate_line, mismatch_total_loss_db  # noqa: E402
+from rfsafe.feedline.line import low_loss_complex_z0, reflection_coefficient  # noqa: E402
+from rfsafe.matching import TunerSpec  # noqa: E402
+
+LOSSLESS = custom_cable(z0_ohm=50.0, loss_db_per_100m=0.0, freq_hz=14e6, velocity_factor=0.66,
+                        max_voltage_v_peak=2000.0, max_power_w=1000.0)
+
+
+def test_lossless_line_peak_voltage_closed_form():
+    """Pozar eq. 2.40: V_max = |V+|(1+|G|), |V+| = sqrt(2 P_f Z0), P_f = P/(1 - |G|^2)."""
+    r = evaluate_line(pep_w=1000.0, avg_power_w=1000.0, freq_hz=14e6, cable=LOSSLESS, length_m=10.0, swr=3.0)
+    g = 0.5
+    vmax = math.sqrt(2 * 1000.0 / (1 - g * g) * 50.0) * (1 + g)
+    assert r.line_voltage_v_peak == pytest.approx(vmax, rel=1e-12)
+    assert r.line_voltage_v_rms == pytest.approx(vmax / math.sqrt(2), rel=1e-12)
+    assert r.line_current_a_peak == pytest.approx(vmax / 50.0, rel=1e-12)
+    assert r.total_loss_db == pytest.approx(0.0, abs=1e-12)
+    assert r.swr_at_transmitter == pytest.approx(3.0, rel=1e-12)
+    # 1/SWR rule (common practice): on a lossless line the equivalent matched power is avg * SWR
+    heat = next(p for p in r.part_stresses if p.part == "line.heating")
+    assert heat.stress == pytest.approx(1000.0 * 3.0, rel=1e-12)
+
+
+@pytest.mark.parametrize("cable_id,freq_hz,length_m,zl", [
+    ("rg-213", 14.2e6, 30.0, 12 - 35j), ("rg-58", 28.4e6, 21.7, 150 + 80j), ("rg-8x", 50.2e6, 9.0, 20 - 10j),
+    ("window-450", 3.7e6, 33.0, 60 + 5j),
+])
+def test_given_load_against_skrf(cable_id, freq_hz, length_m, zl):
+    c = cable_class(cable_id)
+    r = evaluate_line(pep_w=500.0, avg_power_w=200.0, freq_hz=freq_hz, cable=c, length_m=length_m, load_ohm=zl)
+    g = complex(np.log(10) / 20 * r.matched_loss_db / length_m + 2j * np.pi * freq_hz / (c.velocity_factor * 299792458.0))
+    zin_ref = complex(np.squeeze(tf.zl_2_zin(c.z0_ohm, zl, g * length_m)))
+    assert r.input_impedance_ohm == pytest.approx(zin_ref, rel=1e-10)
+    tl_ref = 10 * math.log10(float(np.squeeze(tf.zl_2_total_loss(c.z0_ohm, zl, g * length_m))))
+    assert r.total_loss_db == pytest.approx(tl_ref, rel=1e-9)
+    assert r.power_at_antenna_w == pytest.approx(500.0 * 10 ** (-tl_ref / 10), rel=1e-9)
+    assert r.line_dissipation_avg_w == pytest.approx(200.0 * (1 - 10 ** (-tl_ref / 10)), rel=1e-9)
+    assert r.swr_at_transmitter == pytest.approx(float(np.squeeze(tf.zl_2_swr(c.z0_ohm, zin_ref))), rel=1e-9)
+    # brute-force maximum of |V| on a 200 001-point grid propagated by skrf from the line input
+    x = np.linspace(0, length_m, 200_001)
+    v_in = math.sqrt(2 * 500.0 * zin_ref.real) * abs(zin_ref) / zin_ref.real  # |V| for P = |V|^2 Re(1/Z*)/2
+    i_in = v_in / zin_ref
+    v2, i2 = tf.voltage_current_propagation(np.array([v_in]), np.array([i_in]), np.array([complex(c.z0_ohm)]),
+                                            np.array([g * x]))
+    vmax_ref, imax_ref = np.abs(v2).max(), np.abs(i2).max()
+    # our refined maximum is at least the dense-grid maximum and exceeds it by less than the grid's
+    # quadratic sampling error (about 1e-8 relative at this spacing)
+    assert vmax_ref * (1 - 1e-9) <= r.line_voltage_v_peak <= vmax_ref * (1 + 1e-6)
+    assert imax_ref * (1 - 1e-9) <= r.line_current_a_peak <= imax_ref * (1 + 1e-6)
+    k = int(np.argmax(np.abs(v2)))
+    assert abs(r.line_voltage_max_position_m - x[k]) < 0.01 * length_m or \
+        abs(np.abs(v2).ravel()[k] - r.line_voltage_v_peak) < 1e-6 * r.line_voltage_v_peak
+
+
+def test_swr_only_is_worst_case_over_phase():
+    c = cable_class("rg-213")
+    kw = dict(pep_w=1000.0, avg_power_w=1000.0, freq_hz=21.2e6, cable=c, length_m=27.0)
+    env = evaluate_line(swr=4.0, **kw)
+    g = 0.6
+    vmax = 0.0
+    for ph in np.linspace(0, 2 * np.pi, 48, endpoint=False):
+        zl = 50 * (1 + g * np.exp(1j * ph)) / (1 - g * np.exp(1j * ph))
+        r = evaluate_line(load_ohm=complex(zl), **kw)
+        assert r.total_loss_db == pytest.approx(env.total_loss_db, rel=1e-9)  # real Z0: loss depends on |G| only
+        assert r.line_voltage_v_peak <= env.line_voltage_v_peak * (1 + 1e-9)
+        assert r.voltage_at_antenna_v_peak <= env.voltage_at_antenna_v_peak * (1 + 1e-9)
+        assert r.voltage_at_transmitter_v_peak <= env.voltage_at_transmitter_v_peak * (1 + 1e-9)
+        vmax = max(vmax, r.line_voltage_v_peak)
+    assert vmax >= env.line_voltage_v_peak * (1 - 1e-3)  # 48 phases come within 0.1 % of the envelope
+    assert env.total_loss_db == pytest.approx(mismatch_total_loss_db(env.matched_loss_db, g), rel=1e-12)
+
+
+def test_exact_complex_z0_option():
+    c = cable_class("rg-58")
+    r = evaluate_line(pep_w=100.0, avg_power_w=100.0, freq_hz=3.6e6, cable=c, length_m=40.0, load_ohm=12 - 35j,
+                      exact_complex_z0=True)
+    assert r.loss_model.startswith("exact, complex Z0")
+    g = complex(np.log(10) / 20 * r.matched_loss_db / 40.0 + 2j * np.pi * 3.6e6 / (0.66 * 299792458.0))
+    z0c = low_loss_complex_z0(50.0, g)
+    assert r.z0_ohm == pytest.approx(z0c)
+    ref = 10 * math.log10(float(np.squeeze(tf.zl_2_total_loss(z0c, 12 - 35j, g * 40.0))))
+    assert r.total_loss_db == pytest.approx(ref, rel=1e-9)
+    closed = evaluate_line(pep_w=100.0, avg_power_w=100.0, freq_hz=3.6e6, cable=c, length_m=40.0, load_ohm=12 - 35j)
+    assert closed.loss_model.startswith("closed form")
+    # alpha/beta ~ 0.03 on RG-58 at 3.6 MHz: with a strongly reactive load the complex Z0 changes the loss
+    # noticeably (here about 0.38 dB), which is why the exact option exists ...
+    assert r.total_loss_db - closed.total_loss_db > 0.1
+    # ... while on a matched (50 ohm) load both models give nearly the matched loss (|G| ~ alpha/(2 beta))
+    m_exact = evaluate_line(pep_w=100.0, avg_power_w=100.0, freq_hz=3.6e6, cable=c, length_m=40.0, load_ohm=50,
+                            exact_complex_z0=True)
+    assert m_exact.total_loss_db == pytest.approx(closed.matched_loss_db, abs=0.01)
+
+
+def test_tolerable_swr_reaches_rating():
+    c = cable_class("rg-213")
+    kw = dict(pep_w=1500.0, avg_power_w=1500.0, freq_hz=14.2e6, cable=c, length_m=30.0, connector="uhf")
+    r = evaluate_line(swr=2.0, **kw)
+    for part in ("connector.transmitter", "connector.antenna", "line.heating"):
+        s_max = r.largest_tolerable_swr[part]
+        again = evaluate_line(swr=s_max, **kw)
+        p = next(p for p in again.part_stresses if p.part == part)
+        assert p.headroom == pytest.approx(1.0, rel=1e-9)
+    assert math.isinf(r.largest_tolerable_swr["line"])  # 7 kV peak is never reached with the line loss
+
+
+def test_exceeded_parts_and_connector_override():
+    c = cable_class("rg-58")
+    r = evaluate_line(pep_w=1500.0, avg_power_w=1500.0, freq_hz=7.1e6, cable=c, length_m=20.0, swr=1.0,
+                      connector_v_peak_rating=300.0)
+    # matched: sqrt(2 * 1500 * 50) = 387 V peak at the transmitter end > 300 V
+    assert r.voltage_at_transmitter_v_peak == pytest.approx(math.sqrt(2 * 1500 * 50), rel=1e-12)
+    assert "connector.transmitter" in r.exceeded_parts
+    p = next(p for p in r.part_stresses if p.part == "connector.transmitter")
+    assert p.largest_tolerable_swr is None and "even with a matched line" in p.tolerable_swr_note
+    ok = evaluate_line(pep_w=10.0, avg_power_w=10.0, freq_hz=7.1e6, cable=c, length_m=20.0, swr=1.5, connector="n")
+    assert ok.exceeded_parts == ()
+
+
+def test_tuner_at_transmitter_and_antenna():
+    c = cable_class("rg-213")
+    kw = dict(pep_w=100.0, avg_power_w=100.0, freq_hz=7.1e6, cable=c, length_m=15.0, load_ohm=12 - 35j)
+    tx = evaluate_line(tuner=TunerSpec("l", inductor_q=math.inf), **kw)
+    assert tx.tuner.network.input_impedance_ohm == pytest.approx(50.0, rel=1e-9)
+    assert tx.swr_seen_by_transmitter == pytest.approx(1.0, abs=1e-9)
+    assert tx.tuner_parts == tx.tuner.network.parts
+    ant = evaluate_line(tuner=TunerSpec("pi", position="antenna", loaded_q=5.0, inductor_q=math.inf), **kw)
+    assert ant.swr_at_antenna == pytest.approx(1.0, abs=1e-9)  # the network matches the antenna to the line
+    assert ant.tuner.network.input_power_w == pytest.approx(ant.power_at_antenna_w, rel=1e-12)
+
+
+@pytest.mark.parametrize("kwargs,message", [
+    (dict(swr=0.9), r"^line.swr: 0.9 must be a finite number >= 1$"),
+    (dict(swr=2.0, load_ohm=50), r"^line.swr: 2.0 give exactly one of swr and load_ohm$"),
+    (dict(load_ohm=-5 + 3j), r"^line.load_ohm: -5\+3j must have a resistance > 0 ohm \(a passive antenna\)$"),
+    (dict(swr=2.0, length_m=-1.0), r"^line.length_m: -1.0 must be a number >= 0 m$"),
+    (dict(swr=2.0, avg_power_w=200.0), r"^line.avg_power_w: 200.0 must not exceed pep_w \(100 W\)$"),
+    (dict(swr=2.0, connector="sma"), r'^line.connector: "sma" is not a known connector series'),
+    (dict(swr=2.0, tuner=TunerSpec("l")), r'^line.tuner: "l" needs load_ohm'),
+])
+def test_bad_inputs(kwargs, message):
+    base = dict(pep_w=100.0, avg_power_w=100.0, freq_hz=7e6, cable=cable_class("rg-58"), length_m=10.0)
+    base.update(kwargs)
+    with pytest.raises(InputError, match=message):
+        evaluate_line(**base)
+
+
+@settings(max_examples=60, deadline=None)
+@given(cable_id=st.sampled_from(["lossless", "rg-58", "rg-213", "window-450", "rg-174"]),
+       r=st.floats(1.0, 3000.0), x=st.floats(-2000.0, 2000.0), half_waves=st.floats(1.0, 12.0),
+       f_mhz=st.floats(1.8, 150.0))
+def test_peak_voltage_never_below_matched_value(cable_id, r, x, half_waves, f_mhz):
+    """For the same forward power at the input, the peak voltage on a line at least half a wavelength long
+    is never below the matched value sqrt(2 P_f Z0) (Pozar eq. 2.40: somewhere in every half wave
+    Gamma(d) is real and positive, so |V| = |V+(d)| (1 + |G(d)|) >= |V+(d)|). On a lossy line |V+| may
+    shrink by e^(-alpha lambda/2) over that half wave, so the bound carries that factor (1 when lossless)."""
+    c = LOSSLESS if cable_id == "lossless" else cable_class(cable_id)
+    lam_line = c.velocity_factor * 299792458.0 / (f_mhz * 1e6)
+    length = half_waves * lam_line / 2
+    res = evaluate_line(pep_w=100.0, avg_power_w=100.0, freq_hz=f_mhz * 1e6, cable=c, length_m=length,
+                        load_ohm=complex(r, x))
+    alpha = np.log(10) / 20 * res.matched_loss_db / length
+    g_in = abs(reflection_coefficient(res.input_impedance_ohm, c.z0_ohm))
+    p_fwd = 100.0 / (1 - g_in ** 2)
+    bound = math.sqrt(2 * p_fwd * c.z0_ohm) * math.exp(-alpha * lam_line / 2)
+    assert res.line_voltage_v_peak >= bound * (1 - 1e-9)
+    if cable_id == "lossless":  # exact: V_max = sqrt(2 P_f Z0)(1 + |G|)
+        assert res.line_voltage_v_peak == pytest.approx(math.sqrt(2 * p_fwd * 50.0) * (1 + g_in), rel=1e-9)
+    assert res.total_loss_db >= res.matched_loss_db - 1e-12
