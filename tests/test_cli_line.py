@@ -1,0 +1,106 @@
+"""`rfsafe line`: exit codes, exact error lines, JSON shape."""
+
+import json
+import math
+
+import pytest
+from typer.testing import CliRunner
+
+from rfsafe.cli import app
+
+BASE = ["line", "--pep-w", "100", "--freq-mhz", "14.2", "--length-m", "30"]
+
+
+def run(args):
+    return CliRunner().invoke(app, args)
+
+
+def test_json_shape_and_values():
+    r = run(BASE + ["--cable", "rg-213", "--load-ohm", "12-35j", "--tuner", "l", "--json"])
+    assert r.exit_code == 0, r.stderr
+    doc = json.loads(r.stdout)
+    for key in ("line_voltage_v_peak", "line_current_a_peak", "total_loss_db", "matched_loss_db",
+                "swr_at_transmitter", "swr_at_antenna", "power_at_antenna_w"):
+        assert isinstance(doc[key], float)
+    assert set(doc["input_impedance_ohm"]) == {"re", "im"}
+    parts = doc["tuner_parts"]
+    assert parts and {"name", "value_pf", "value_uh", "voltage_v_peak", "current_a_rms"} <= set(parts[0])
+    assert doc["exceeded_parts"] == []
+    # power at the antenna from the reported total loss (10 log power ratio)
+    assert doc["power_at_antenna_w"] == pytest.approx(100 * 10 ** (-doc["total_loss_db"] / 10), rel=1e-12)
+
+
+def test_matched_line_table_mode():
+    """Common practice: 50 ohm on 50 ohm line -> SWR 1; peak voltage sqrt(2 P Z0) = 100 V at 100 W."""
+    r = run(BASE + ["--cable", "rg-213", "--load-ohm", "50", "--json"])
+    doc = json.loads(r.stdout)
+    assert doc["swr_at_antenna"] == pytest.approx(1.0)
+    assert doc["line_voltage_v_peak"] == pytest.approx(math.sqrt(2 * 100 * 50), rel=1e-9)
+    t = run(BASE + ["--cable", "rg-213", "--swr", "2"])
+    assert t.exit_code == 0
+    assert "max line voltage" in t.stdout and "Caution:" in t.stderr
+
+
+def test_custom_line_and_exceeded_exit_1():
+    r = run(["line", "--pep-w", "1500", "--freq-mhz", "7.1", "--length-m", "20", "--z0-ohm", "50",
+             "--loss-db-per-100m", "1.5", "--vf", "0.66", "--swr", "3", "--connector", "uhf", "--json"])
+    assert r.exit_code == 1
+    assert "connector.antenna" in json.loads(r.stdout)["exceeded_parts"]
+
+
+def test_duty_factor_reduces_heating_only():
+    a = json.loads(run(BASE + ["--cable", "rg-58", "--swr", "3", "--json"]).stdout)
+    b = json.loads(run(BASE + ["--cable", "rg-58", "--swr", "3", "--duty-factor", "0.25", "--json"]).stdout)
+    assert b["line_voltage_v_peak"] == a["line_voltage_v_peak"]
+    assert b["line_dissipation_avg_w"] == pytest.approx(0.25 * a["line_dissipation_avg_w"], rel=1e-12)
+
+
+KNOWN = ('"rg-58", "rg-8x", "rg-213", "rg-174", "twinlead-300", "window-450", "open-wire-600", '
+         'or "custom" with z0_ohm, loss_db_per_100m, velocity_factor')
+
+
+@pytest.mark.parametrize("extra,message", [
+    (["--cable", "rg-213", "--swr", "0.8"], "--swr: 0.8 must be a finite number >= 1"),
+    (["--cable", "rg-213", "--swr", "2", "--load-ohm", "50"],
+     "--swr/--load-ohm: both given; give exactly one (SWR at the antenna end, or the antenna-end impedance)"),
+    (["--cable", "rg-213"],
+     "--swr/--load-ohm: none given; give exactly one (SWR at the antenna end, or the antenna-end impedance)"),
+    (["--cable", "rg-213", "--load-ohm", "-5+3j"], "--load-ohm: -5+3j must have a resistance > 0 ohm (a passive antenna)"),
+    (["--cable", "rg-213", "--load-ohm", "12-j35"],
+     '--load-ohm: "12-j35" is not an impedance (accepted: R or R+Xj in ohm, e.g. 50, 73+42.5j, 12-35j)'),
+    (["--cable", "rg-9999", "--swr", "2"], f'--cable: "rg-9999" is not a known cable class (known: {KNOWN})'),
+    (["--swr", "2"], "--cable: none given; give --cable CLASS or --z0-ohm, --loss-db-per-100m and --vf"),
+    (["--cable", "rg-213", "--z0-ohm", "50", "--swr", "2"],
+     '--cable: "rg-213" cannot be combined with --z0-ohm (give a class or a custom line)'),
+    (["--z0-ohm", "50", "--loss-db-per-100m", "2", "--swr", "2"],
+     "--vf: missing; a custom line needs --z0-ohm, --loss-db-per-100m and --vf"),
+    (["--z0-ohm", "50", "--loss-db-per-100m", "2", "--vf", "1.3", "--swr", "2"], "--vf: 1.3 must be > 0 and <= 1"),
+    (["--cable", "rg-213", "--swr", "2", "--duty-factor", "1.5"], "--duty-factor: 1.5 must be > 0 and <= 1"),
+    (["--cable", "rg-213", "--load-ohm", "12-35j", "--tuner", "t"], '--tuner: "t" is not a known network (known: "l", "pi")'),
+    (["--cable", "rg-213", "--swr", "2", "--tuner", "l"],
+     '--tuner: "l" needs load_ohm: a network\'s parts depend on the complex impedance, which an SWR alone does not fix'),
+    # 32.86 ohm is the parallel-form resistance of the line input impedance; Q_min = sqrt(50/32.86 - 1)
+    (["--cable", "rg-213", "--load-ohm", "12-35j", "--tuner", "pi", "--q", "0.5"],
+     "--q: 0.5 must be > 0.7221, the least loaded Q that matches 32.86 ohm (parallel form of the load) to 50 ohm"),
+    (["--cable", "rg-213", "--swr", "2", "--connector", "sma"],
+     '--connector: "sma" is not a known connector series (known: "uhf", "n", "bnc")'),
+])
+def test_malformed_inputs_exit_2(extra, message):
+    r = run(BASE + extra)
+    assert r.exit_code == 2
+    assert r.stderr == f"Error: {message}\n"
+    assert r.stdout == ""
+
+
+def test_negative_length_and_power():
+    r = run(["line", "--pep-w", "100", "--freq-mhz", "14.2", "--length-m", "-3", "--cable", "rg-58", "--swr", "2"])
+    assert (r.exit_code, r.stderr) == (2, "Error: --length-m: -3.0 must be a number >= 0 m\n")
+    r = run(["line", "--pep-w", "0", "--freq-mhz", "14.2", "--length-m", "3", "--cable", "rg-58", "--swr", "2"])
+    assert (r.exit_code, r.stderr) == (2, "Error: --pep-w: 0.0 must be a number > 0 W\n")
+    r = run(["line", "--pep-w", "100", "--freq-mhz", "-1", "--length-m", "3", "--cable", "rg-58", "--swr", "2"])
+    assert (r.exit_code, r.stderr) == (2, "Error: --freq-mhz: -1.0 must be a number > 0 MHz\n")
+
+
+def test_help():
+    r = run(["line", "--help"])
+    assert r.exit_code == 0 and "--load-ohm" in r.stdout
