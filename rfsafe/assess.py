@@ -67,7 +67,23 @@ def _wire_solution(loaded: LoadedStation, ant: Antenna, freq_hz: float, i: int):
         return None
     from rfsafe.antenna.wire import solve
 
-    return solve(loaded.wire_specs[ant.id], freq_hz, field=f"configurations[{i}]")
+    index = next(k for k, a in enumerate(loaded.model.antennas) if a.id == ant.id)
+    return _solve_cached(loaded, index, freq_hz)
+
+
+_SOLUTIONS: dict = {}
+
+
+def _solve_cached(loaded: LoadedStation, index: int, freq_hz: float):
+    from rfsafe.antenna.wire import solve
+
+    ant = loaded.model.antennas[index]
+    key = (loaded.sha256, ant.id, freq_hz)
+    if key not in _SOLUTIONS:
+        if len(_SOLUTIONS) > 64:
+            _SOLUTIONS.clear()
+        _SOLUTIONS[key] = solve(loaded.wire_specs[ant.id], freq_hz, field_prefix=f"antennas[{index}].wire.")
+    return _SOLUTIONS[key]
 
 
 def _wire_summary(solution):
@@ -149,6 +165,12 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
     loss_fraction = float(line.loss_fraction)
     solution = _wire_solution(loaded, ant, freq_hz, i)
     gain, gain_src = peak_gain_dbi(ant, solution.gain_dbi if solution is not None else None)
+    if solution is not None and solution.ground == "perfect" and gain_src == "moment-method solver":
+        # The solver's gain over a perfect ground already holds the reflected wave (image):
+        # applying F again would count the ground twice.
+        ground_factor = 1.0
+        flags.append("wire antenna over a perfect ground: the solver's gain includes the ground reflection, "
+                     "so the far-field estimate uses F = 1 with it")
     avg_ant = {env: avg_tx[env] * loss_fraction for env in ENVIRONMENTS}
     pep_ant = tx.pep_w * loss_fraction
     eirp = {env: float(eirp_w(avg_ant[env], gain)) for env in ENVIRONMENTS}
