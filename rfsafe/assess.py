@@ -97,13 +97,77 @@ def _wire_summary(solution):
                        radiated_over_input_power=float(solution.radiated_over_input_power))
 
 
+#: Heights of a standing person's body at which near-field maps are evaluated, worst taken [m].
+MAP_BODY_HEIGHTS_M = (0.5, 1.0, 1.5, 2.0)
+
+
+def _near_wire(points: np.ndarray, spec) -> np.ndarray:
+    """Points closer than max(10 radii, 5 cm) to any wire piece (boolean mask)."""
+    near = np.zeros(len(points), dtype=bool)
+    for w in spec.wires:
+        v = np.asarray(w.points_m, dtype=float)
+        for a, b in zip(v[:-1], v[1:]):
+            ab = b - a
+            t = np.clip(((points - a) @ ab) / (ab @ ab), 0.0, 1.0)
+            d = np.linalg.norm(points - (a + t[:, None] * ab), axis=1)
+            near |= d < max(10 * w.radius_m, 0.05)
+    return near
+
+
+def _near_field_map(cid, ant: Antenna, solution, limits, avg_ant, pep_ant, loaded: LoadedStation):
+    """Horizontal near-field map around a wire antenna: ratios worst over body heights."""
+    if solution is None:
+        return None
+    from rfsafe.limits import exposure_ratio
+    from rfsafe.results import NearFieldMap
+
+    spec = loaded.wire_specs[ant.id]
+    pts = np.array([p for w in spec.wires for p in w.points_m], dtype=float)
+    margin = max(float(ex.near_field_distance_m(solution.freq_hz)), 3.0)
+    x = np.linspace(pts[:, 0].min() - margin, pts[:, 0].max() + margin, 61)
+    y = np.linspace(pts[:, 1].min() - margin, pts[:, 1].max() + margin, 61)
+    gx, gy = np.meshgrid(x, y)
+    # Points on or next to a conductor are left out (NaN): thin-wire fields do not hold there.
+    keep = np.ones(gx.size, dtype=bool)
+    e_ratio, h_ratio = {}, {}
+    for env in ENVIRONMENTS:
+        e_best = np.zeros(gx.shape)
+        h_best = np.zeros(gx.shape)
+        for z in MAP_BODY_HEIGHTS_M:
+            grid = np.column_stack([gx.ravel(), gy.ravel(), np.full(gx.size, z)])
+            near = _near_wire(grid, spec)
+            keep &= ~near
+            for lim in limits[env]:
+                power = pep_ant if lim.basis == "instantaneous" else avg_ant[env]
+                e = np.full(gx.size, np.nan)
+                h = np.full(gx.size, np.nan)
+                e[~near], h[~near] = solution.fields_rms(grid[~near], power)
+                if lim.e_field_v_m is not None:
+                    e_best = np.maximum(e_best, np.asarray(exposure_ratio(lim, e_field_v_m=e)).reshape(gx.shape))
+                if lim.h_field_a_m is not None:
+                    h_best = np.maximum(h_best, np.asarray(exposure_ratio(lim, h_field_a_m=h)).reshape(gx.shape))
+        e_best.ravel()[~keep] = np.nan
+        h_best.ravel()[~keep] = np.nan
+        e_ratio[env], h_ratio[env] = e_best, h_best
+    return NearFieldMap(
+        configuration=cid, antenna=ant.id,
+        plane=f"horizontal, worst over heights {MAP_BODY_HEIGHTS_M[0]:g}-{MAP_BODY_HEIGHTS_M[-1]:g} m above ground",
+        x_m=tuple(float(v) for v in x), y_m=tuple(float(v) for v in y), heights_m=MAP_BODY_HEIGHTS_M,
+        wire_paths_m=tuple(tuple((float(p[0]), float(p[1])) for p in w.points_m) for w in spec.wires),
+        max_e_ratio={env: float(np.nanmax(e_ratio[env])) for env in ENVIRONMENTS},
+        max_h_ratio={env: float(np.nanmax(h_ratio[env])) for env in ENVIRONMENTS},
+        excluded_points=int((~keep).sum()),
+        e_ratio=e_ratio, h_ratio=h_ratio)
+
+
 def _schedule_text(c: Configuration) -> str:
     if c.schedule is None:
         return "continuous"
     return f"{c.schedule.on_minutes:g} min on / {c.schedule.off_minutes:g} min off"
 
 
-def _line_result(station: Station, c: Configuration, f: Feedline, pep_w: float, thermal_avg_w: float):
+def _line_result(station: Station, index: int, c: Configuration, f: Feedline, pep_w: float,
+                 thermal_avg_w: float):
     from rfsafe import feedline as fl
 
     freq_hz = c.freq_mhz * 1e6
@@ -121,16 +185,16 @@ def _line_result(station: Station, c: Configuration, f: Feedline, pep_w: float, 
         load = complex(c.load_r_ohm, c.load_x_ohm or 0.0)
     tuner = None
     if c.tuner is not None:
-        tuner = fl.TunerSpec(kind=c.tuner.kind, location=c.tuner.location, loaded_q=c.tuner.loaded_q,
+        tuner = fl.TunerSpec(topology=c.tuner.kind, position=c.tuner.location, loaded_q=c.tuner.loaded_q,
                              inductor_q=c.tuner.inductor_q,
-                             capacitor_v_peak_rating=c.tuner.capacitor_v_peak_rating,
-                             inductor_a_rms_rating=c.tuner.inductor_a_rms_rating)
+                             capacitor_max_voltage_v_peak=c.tuner.capacitor_v_peak_rating,
+                             inductor_max_current_a_rms=c.tuner.inductor_a_rms_rating)
     swr = c.swr if (c.swr is not None or load is not None) else 1.0
     return fl.evaluate_line(pep_w=pep_w, avg_power_w=thermal_avg_w, freq_hz=freq_hz, cable=cable,
                             length_m=f.length_m, swr=swr if load is None else None, load_ohm=load,
                             connector_loss_db=f.connector_loss_db, connector=f.connector,
                             connector_v_peak_rating=f.connector_v_peak_rating, tuner=tuner,
-                            exact_complex_z0=station.exact_line_loss)
+                            exact_complex_z0=station.exact_line_loss, field=f"configurations[{index}]")
 
 
 def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_factor: float):
@@ -161,7 +225,7 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
     if c.swr is None and c.load_r_ohm is None:
         flags.append("no SWR or load declared: a matched load (SWR 1) is assumed, which gives the "
                      "largest power at the antenna but understates line stress")
-    line = _line_result(st, c, fline, tx.pep_w, tx.pep_w * duty)
+    line = _line_result(st, i, c, fline, tx.pep_w, tx.pep_w * duty)
     loss_fraction = float(line.loss_fraction)
     solution = _wire_solution(loaded, ant, freq_hz, i)
     gain, gain_src = peak_gain_dbi(ant, solution.gain_dbi if solution is not None else None)
@@ -208,7 +272,8 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
         compliance_distances=tuple(distances), line=line, exceeded_parts=exceeded, flags=tuple(flags),
         method="far-field prediction S = EIRP F / (4 pi R^2), peak gain (OET Bulletin 65, section 2)"
                + ("; near field of the wire antenna by the moment-method solver" if solution is not None else ""),
-        wire=_wire_summary(solution))
+        wire=_wire_summary(solution),
+        near_field_map=_near_field_map(c.id, ant, solution, limits, avg_ant, pep_ant, loaded))
     emitter = Emitter(configuration=c.id, transmitter=tx.id, freq_hz=freq_hz, x_m=ant.x_m, y_m=ant.y_m,
                       height_m=ant.height_m, antenna=ant, peak_gain_dbi=gain, avg_power_at_antenna_w=avg_ant,
                       pep_at_antenna_w=pep_ant, eirp_w=eirp, eirp_pep_w=eirp_pep, limits=limits,

@@ -9,7 +9,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import Any
 
-__all__ = ["ComplianceDistance", "WireSummary", "ConfigurationResult", "PlaceExposure", "TransmitterShare",
+__all__ = ["ComplianceDistance", "WireSummary", "NearFieldMap", "ConfigurationResult", "PlaceExposure", "TransmitterShare",
            "PlaceResult", "EvaluationResult", "CAUTIONS"]
 
 #: Cautions carried by every output (in rfsafe's own words).
@@ -50,6 +50,28 @@ class WireSummary:
 
 
 @dataclass(frozen=True)
+class NearFieldMap:
+    """Near-field exposure ratios of a wire antenna on a horizontal grid (for plots).
+
+    ``e_ratio[env]`` and ``h_ratio[env]`` are (len(y_m), len(x_m)) arrays of (E/E_lim)^2 and
+    (H/H_lim)^2, worst over ``heights_m``; they are left out of the JSON output (plot data only).
+    """
+
+    configuration: str
+    antenna: str
+    plane: str
+    x_m: tuple[float, ...]
+    y_m: tuple[float, ...]
+    heights_m: tuple[float, ...]
+    wire_paths_m: tuple[tuple[tuple[float, float], ...], ...]   # each wire's (x, y) vertices, for drawing
+    max_e_ratio: dict[str, float]
+    max_h_ratio: dict[str, float]
+    excluded_points: int                      # grid cells left out because they touch a conductor
+    e_ratio: dict = field(repr=False, default_factory=dict)
+    h_ratio: dict = field(repr=False, default_factory=dict)
+
+
+@dataclass(frozen=True)
 class ConfigurationResult:
     """One operating configuration: power chain, line, gain, compliance distances."""
 
@@ -84,6 +106,7 @@ class ConfigurationResult:
     flags: tuple[str, ...]
     method: str
     wire: WireSummary | None = None          # wire antennas: solver summary
+    near_field_map: NearFieldMap | None = None
 
 
 @dataclass(frozen=True)

@@ -186,3 +186,27 @@ def test_table_output_and_cautions_on_stderr(tmp_path):
     assert "VERDICT: COMPLIES" in result.stdout
     assert "Garden" in result.stdout and "Shack" in result.stdout
     assert "caution: Never touch an antenna or open a tuner while transmitting." in result.stderr
+
+
+def test_tuner_in_a_configuration(tmp_path):
+    # A 40 m dipole fed off-resonance through ladder line, L network at the transmitter end.
+    text = BASE.replace('cable = "rg-213"', 'cable = "window-450"').replace(
+        "swr = 1.5", 'load_r_ohm = 60.0\nload_x_ohm = -250.0\ntuner = { kind = "l", location = "transmitter", '
+                     'capacitor_v_peak_rating = 100.0 }')
+    res = _station(tmp_path, text)
+    line = res.configurations[0].line
+    assert line.tuner is not None
+    parts = line.tuner.network.parts
+    assert parts and all(p.value_pf or p.value_uh for p in parts)
+    # the deliberately low capacitor rating is exceeded, which makes the evaluation exceed
+    assert any(p.startswith("tuner.") for p in res.configurations[0].exceeded_parts)
+    assert res.verdict == "EXCEEDS"
+
+
+def test_tuner_needs_the_load_impedance(tmp_path):
+    path = tmp_path / "s.toml"
+    path.write_text(BASE.replace("swr = 1.5", 'swr = 1.5\ntuner = { kind = "pi" }'))
+    result = CliRunner().invoke(app, ["check", str(path)])
+    assert result.exit_code == 2
+    assert result.stderr.strip() == ("Error: configurations[0].tuner: a tuner needs the antenna's impedance "
+                                     "(give load_r_ohm and load_x_ohm instead of swr)")

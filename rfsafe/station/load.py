@@ -124,6 +124,9 @@ def _check_configuration(i: int, c: Configuration, station: Station) -> None:
         raise InputError(f"{path}.swr: give either swr or load_r_ohm/load_x_ohm, not both")
     if c.load_x_ohm is not None and c.load_r_ohm is None:
         raise InputError(f"{path}.load_r_ohm: is required when load_x_ohm is given")
+    if c.tuner is not None and c.load_r_ohm is None:
+        raise InputError(f"{path}.tuner: a tuner needs the antenna's impedance (give load_r_ohm and "
+                         "load_x_ohm instead of swr)")
     if c.tuner is not None and c.tuner.kind == "l" and c.tuner.loaded_q is not None:
         raise bad_value(f"{path}.tuner.loaded_q", c.tuner.loaded_q,
                         "applies only to a pi network (an L network's Q is set by the impedances)")
