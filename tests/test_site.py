@@ -1,0 +1,320 @@
+"""Tests of rfsafe.site: the grid kernel, polygons, keep-out zones, violations and rope-off radii."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from rfsafe import site
+from rfsafe.antenna import patterns as pt
+from rfsafe.errors import InputError
+
+ISO = pt.make_pattern("isotropic")
+BEAM = pt.make_pattern("beam", peak_gain_dbi=8.0, front_to_back_db=20.0, beamwidth_h_deg=66.0,
+                       beamwidth_v_deg=120.0)
+# Relative tolerance of the kernel: its per-height arithmetic is single precision (eps 6e-8);
+# a few operations and a sum over stations stay below 1e-6.
+RTOL = 1e-6
+
+
+def emitter(tx="a", cfg="c", x=0.0, y=0.0, h=1.0, pattern=ISO, power=(100.0, 100.0), limit=(50.0, 10.0),
+            f=1.0, **kw):
+    return site.SiteEmitter(transmitter=tx, configuration=cfg, x_m=x, y_m=y, height_m=h, pattern=pattern,
+                            freq_hz=146e6, power_w=power, limit_w_m2=limit, ground_factor=f, **kw)
+
+
+def direct_ratio(ems, x, y, heights):
+    """Reference: the far-field prediction written out (OET Bulletin 65 sec. 2,
+    S = P G F / (4 pi R^2)), worst configuration per transmitter, summed, worst height."""
+    x, y = np.asarray(x, float), np.asarray(y, float)
+    best = None
+    for h in heights:
+        per_tx = {}
+        for em in ems:
+            d = pt.direction_in_antenna_frame(x - em.x_m, y - em.y_m, h - em.height_m, azimuth_deg=em.azimuth_deg,
+                                              tilt_deg=em.tilt_deg, polarisation=em.polarisation)
+            r2 = (x - em.x_m) ** 2 + (y - em.y_m) ** 2 + (h - em.height_m) ** 2
+            s = em.pattern.gain(d) * em.ground_factor / (4 * math.pi * r2)
+            r = np.array([em.power_w[e] * s / em.limit_w_m2[e] for e in range(2)])
+            per_tx[em.transmitter] = np.maximum(per_tx.get(em.transmitter, 0.0), r)
+        tot = sum(per_tx.values())
+        best = tot if best is None else np.maximum(best, tot)
+    return best
+
+
+RNG = np.random.default_rng(3)
+PX = RNG.uniform(-30, 30, 3000)
+PY = RNG.uniform(-30, 30, 3000)
+HEIGHTS = (0.5, 1.0, 1.5, 2.0)
+
+
+# ----------------------------------------------------------------- kernel
+
+@pytest.mark.parametrize("kind, kw, tilt, pol", [
+    ("isotropic", {}, 0.0, "vertical"),
+    ("short-dipole", {}, 0.0, "horizontal"),
+    ("short-dipole", {}, 0.0, "vertical"),
+    ("half-wave-dipole", {}, 0.0, "horizontal"),
+    ("half-wave-dipole", {}, 0.0, "vertical"),
+    ("half-wave-dipole", {"peak_gain_dbi": 3.0}, 0.0, "horizontal"),
+    ("quarter-wave-vertical", {}, 0.0, "horizontal"),
+    ("beam", dict(peak_gain_dbi=8.0, front_to_back_db=20.0, beamwidth_h_deg=66.0, beamwidth_v_deg=120.0),
+     0.0, "horizontal"),
+    ("beam", dict(peak_gain_dbi=8.0, front_to_back_db=20.0, beamwidth_h_deg=66.0, beamwidth_v_deg=120.0),
+     12.0, "horizontal"),
+    ("half-wave-dipole", {}, 20.0, "vertical"),
+])
+def test_kernel_matches_the_far_field_prediction(kind, kw, tilt, pol):
+    em = emitter(x=2.0, y=-3.0, h=4.0, pattern=pt.make_pattern(kind, **kw), azimuth_deg=37.0, tilt_deg=tilt,
+                 polarisation=pol, power=(100.0, 60.0), limit=(50.0, 10.0), f=2.56)
+    got = site.ratio_grid([em], PX, PY, HEIGHTS).ratio
+    assert np.allclose(got, direct_ratio([em], PX, PY, HEIGHTS), rtol=RTOL, atol=0)
+
+
+def test_two_identical_stations_at_one_point_double_the_ratio():
+    one = site.ratio_grid([emitter("a")], PX, PY, HEIGHTS).ratio
+    two = site.ratio_grid([emitter("a"), emitter("b")], PX, PY, HEIGHTS).ratio
+    assert np.allclose(two, 2 * one, rtol=RTOL)
+
+
+def test_configurations_of_one_transmitter_are_not_summed():
+    # one transmitter, two configurations on beams pointing east and west: each point sees the worse one
+    east = emitter("a", "east", pattern=BEAM, azimuth_deg=90.0)
+    west = emitter("a", "west", pattern=BEAM, azimuth_deg=270.0)
+    both = site.ratio_grid([east, west], PX, PY, HEIGHTS).ratio
+    sep = np.maximum(site.ratio_grid([east], PX, PY, HEIGHTS).ratio, site.ratio_grid([west], PX, PY, HEIGHTS).ratio)
+    assert np.allclose(both, sep, rtol=RTOL)
+    assert np.allclose(both, direct_ratio([east, west], PX, PY, HEIGHTS), rtol=RTOL)
+    # as two transmitters they are summed instead
+    west_b = emitter("b", "west", pattern=BEAM, azimuth_deg=270.0)
+    summed = site.ratio_grid([east, west_b], PX, PY, HEIGHTS).ratio
+    assert np.all(summed > both * (1 + 1e-3))
+
+
+def test_worst_height_of_the_sum_not_the_sum_of_worst_heights():
+    a = emitter("a", h=0.5)
+    b = emitter("b", x=1.0, h=2.0)
+    got = site.ratio_grid([a, b], PX, PY, (0.5, 2.0))
+    assert np.allclose(got.ratio, direct_ratio([a, b], PX, PY, (0.5, 2.0)), rtol=RTOL)
+    sum_of_worst = (site.ratio_grid([a], PX, PY, (0.5, 2.0)).ratio
+                    + site.ratio_grid([b], PX, PY, (0.5, 2.0)).ratio)
+    assert np.all(got.ratio <= sum_of_worst * (1 + RTOL))
+    assert np.any(got.ratio < sum_of_worst * 0.9)
+    assert set(np.unique(got.worst_height_m)) <= {0.5, 2.0}
+
+
+def test_a_far_station_adds_nothing_measurable():
+    near = site.ratio_grid([emitter("a")], PX, PY, HEIGHTS).ratio
+    with_far = site.ratio_grid([emitter("a"), emitter("far", x=1e5, y=1e5)], PX, PY, HEIGHTS).ratio
+    # 1/R^2 at 141 km vs <= 45 m: the far station contributes < 1e-7 of the near one
+    assert np.allclose(with_far, near, rtol=RTOL)
+
+
+def test_chunking_does_not_change_the_result():
+    ems = [emitter("a", pattern=BEAM, azimuth_deg=10.0), emitter("b", x=5.0, pattern=ISO)]
+    a = site.ratio_grid(ems, PX, PY, HEIGHTS, chunk_points=97).ratio
+    b = site.ratio_grid(ems, PX, PY, HEIGHTS, chunk_points=100000).ratio
+    assert np.array_equal(a, b)
+
+
+def test_point_at_the_antenna_is_infinite_not_nan_and_near_field_is_flagged():
+    em = emitter(h=1.0, near_field_m=2.0, pattern=pt.make_pattern("half-wave-dipole"), polarisation="vertical")
+    got = site.ratio_grid([em], [0.0, 1.0, 3.0], [0.0, 0.0, 0.0], (1.0, 2.0))
+    assert np.all(np.isinf(got.ratio[:, 0]))
+    assert not np.isnan(got.ratio).any()
+    # horizontal distance 1 m at height 1.0 m: R = 1 < 2 m; at 3 m it is outside
+    assert got.near_field.tolist() == [True, True, False]
+
+
+def test_transmitter_ratios_sum_to_the_total_at_one_height():
+    ems = [emitter("a", pattern=BEAM, azimuth_deg=45.0), emitter("b", x=4.0, y=1.0)]
+    names, own = site.transmitter_ratios(ems, PX, PY, (1.5,))
+    total = site.ratio_grid(ems, PX, PY, (1.5,)).ratio
+    assert names == ["a", "b"]
+    assert np.allclose(own.sum(axis=1), total, rtol=RTOL)
+
+
+# ----------------------------------------------------------------- polygons
+
+CONCAVE = [(0, 0), (10, 0), (10, 10), (6, 10), (6, 3), (4, 3), (4, 10), (0, 10)]  # a "U"
+STAR = [(math.cos(a) * (5 if k % 2 == 0 else 2), math.sin(a) * (5 if k % 2 == 0 else 2))
+        for k, a in enumerate(np.linspace(0, 2 * math.pi, 10, endpoint=False))]
+
+
+@pytest.mark.parametrize("poly", [CONCAVE, STAR, list(reversed(CONCAVE))])
+def test_point_in_polygon_matches_matplotlib(poly):
+    """Reference: matplotlib.path.Path.contains_points (a general-purpose library)."""
+    from matplotlib.path import Path
+
+    rng = np.random.default_rng(5)
+    x = rng.uniform(-6, 12, 20000)
+    y = rng.uniform(-6, 12, 20000)
+    ours = site.points_in_polygon(x, y, poly)
+    ref = Path(poly).contains_points(np.column_stack([x, y]))
+    assert np.array_equal(ours, ref)
+
+
+def test_point_in_polygon_on_the_u_shape():
+    # inside the two arms, outside the notch between them
+    assert site.points_in_polygon([2, 8, 5, 5], [8, 8, 8, 1], CONCAVE).tolist() == [True, True, False, True]
+
+
+@pytest.mark.parametrize("poly, message", [
+    ([[0, 0], [1, 0]], "area.polygon: [[0.0, 0.0], [1.0, 0.0]] needs at least 3 vertices [[x_m, y_m], ...]"),
+    ([[0, 0], [1, 0], [2, 0]], "area.polygon: [[0.0, 0.0], [1.0, 0.0], [2.0, 0.0]] encloses no area "
+                               "(vertices on one line)"),
+    ([[0, 0], [1, 0], [1, 1], [0, 0]], "area.polygon[0]: [0.0, 0.0] repeats the previous vertex "
+                                       "(the polygon closes itself; do not repeat vertex 0)"),
+    ([[0, 0], [1, "a"], [1, 1]], 'area.polygon[1]: [1, "a"] must be a pair of numbers [x_m, y_m]'),
+])
+def test_polygon_validation(poly, message):
+    with pytest.raises(InputError) as exc:
+        site.validate_polygon(poly, field="area.polygon")
+    assert str(exc.value) == message
+
+
+def test_polygon_edge_points_include_vertices_and_respect_spacing():
+    x, y = site.polygon_edge_points(CONCAVE, 0.5)
+    pts = set(zip(np.round(x, 9), np.round(y, 9)))
+    assert all((float(a), float(b)) in pts for a, b in CONCAVE)
+    step = np.hypot(np.diff(np.append(x, x[0])), np.diff(np.append(y, y[0])))
+    assert step.max() <= 0.5 + 1e-12
+
+
+# ----------------------------------------------------------------- keep-out zones and violations
+
+def test_rope_off_rule():
+    # keep-out + one grid spacing, rounded up to the next 0.5 m
+    assert site.rope_off_radius_m(4.2, 0.25) == 4.5
+    assert site.rope_off_radius_m(4.25, 0.25) == 4.5
+    assert site.rope_off_radius_m(4.3, 0.25) == 5.0
+    assert site.rope_off_radius_m(0.0, 0.25) == 0.0
+
+
+SQUARE = [(-20, -20), (20, -20), (20, 20), (-20, 20)]
+
+
+def one_isotropic(power=100.0, f=2.56, limit=(10.0, 2.0)):
+    return emitter("tx1", x=0.0, y=0.0, h=1.5, power=(power, power), limit=limit, f=f)
+
+
+def test_keep_out_radius_of_one_isotropic_station_is_the_compliance_distance():
+    """OET Bulletin 65 sec. 2: R = sqrt(EIRP F / (4 pi S_lim)) for an isotropic source.
+    The antenna is at one of the evaluation heights, so the horizontal reach equals R."""
+    spacing = 0.1
+    res = site.analyse_site([one_isotropic()], boundary=SQUARE, areas=[], heights_m=(0.5, 1.5, 2.0),
+                            grid_spacing_m=spacing)
+    tx = res.transmitters[0]
+    for env, lim in zip(site.ENVIRONMENTS, (10.0, 2.0)):
+        r_c = math.sqrt(100.0 * 2.56 / (4 * math.pi * lim))
+        # the farthest grid node inside the zone lies within one spacing of the circle (along an axis)
+        assert r_c - spacing < tx.keep_out_m[env] <= r_c
+        assert tx.own_keep_out_m[env] == tx.keep_out_m[env]
+        assert tx.peak_gain_distance_m[env] == pytest.approx(r_c)
+    assert tx.rope_off_radius_m == site.rope_off_radius_m(tx.keep_out_m["uncontrolled"], spacing)
+    assert tx.rope_off_radius_m >= math.sqrt(100.0 * 2.56 / (4 * math.pi * 2.0))
+    # the number of keep-out nodes is the number of grid nodes inside the circle (independent count)
+    g = res.grid
+    xx, yy = np.meshgrid(g.x_m, g.y_m)
+    r_unc = math.sqrt(100.0 * 2.56 / (4 * math.pi * 2.0))
+    assert res.keep_out_points["uncontrolled"] == int(np.count_nonzero(xx ** 2 + yy ** 2 < r_unc ** 2))
+
+
+def test_violations_exactly_where_constructed():
+    # isotropic station at the origin: uncontrolled zone radius 3.19 m, controlled 1.43 m
+    em = one_isotropic()
+    r_unc = math.sqrt(256 / (4 * math.pi * 2.0))
+    r_ctl = math.sqrt(256 / (4 * math.pi * 10.0))
+    areas = [
+        site.Area("path crossing the zone", "public", ((2.5, -10), (3.0, -10), (3.0, 10), (2.5, 10))),
+        site.Area("path clear", "public", ((5, -10), (6, -10), (6, 10), (5, 10))),
+        site.Area("tent in unc zone", "operators", ((-3.2, -1), (-2.0, -1), (-2.0, 1), (-3.2, 1))),
+        site.Area("tent in ctl zone", "operators", ((-1.0, -4), (-0.5, -4), (-0.5, -1.0), (-1.0, -1.0))),
+        site.Area("tent clear", "operators", ((-1.0, -4), (-0.5, -4), (-0.5, -2.5), (-1.0, -2.5))),
+    ]
+    res = site.analyse_site([em], boundary=SQUARE, areas=areas, heights_m=(0.5, 1.5, 2.0), grid_spacing_m=0.1)
+    by = {r.label: r for r in res.regions}
+    assert by["path crossing the zone"].verdict == "VIOLATION"   # it cuts inside 3.19 m
+    assert by["path clear"].verdict == "complies"                 # 5 m > 3.19 m
+    assert by["tent in unc zone"].verdict == "complies"           # operators: controlled limit, 2 m > 1.43 m
+    assert by["tent in ctl zone"].verdict == "VIOLATION"          # reaches hypot(0.5, 1.0) = 1.12 m < 1.43 m
+    assert by["tent clear"].verdict == "complies"                 # 2.5 m > 1.43 m
+    assert by["open ground"].verdict == "VIOLATION"               # no rope declared around the station
+    assert by["outside the site"].verdict == "complies"
+    assert {v.region for v in res.violations} == {"path crossing the zone", "tent in ctl zone", "open ground"}
+    assert math.hypot(0.5, 1.0) < r_ctl < 2.0
+    v = next(v for v in res.violations if v.region == "path crossing the zone")
+    assert v.environment == "uncontrolled" and v.dominant_transmitter == "tx1"
+    # worst point: the path's west edge next to the station, (2.5, 0); ratio = (r_unc / 2.5)^2 at antenna height
+    assert (v.x_m, v.y_m) == pytest.approx((2.5, 0.0), abs=1e-9)
+    assert v.worst_ratio == pytest.approx((r_unc / 2.5) ** 2, rel=RTOL)
+    # points above the limit: grid nodes of the strip inside the circle plus edge samples inside it
+    t = next(v for v in res.violations if v.region == "tent in ctl zone")
+    assert t.environment == "controlled"
+    assert t.worst_ratio == pytest.approx((r_ctl / math.hypot(0.5, 1.0)) ** 2, rel=RTOL)
+    # violations are listed worst first
+    assert [v.worst_ratio for v in res.violations] == sorted((v.worst_ratio for v in res.violations), reverse=True)
+
+
+def test_a_rope_around_the_zone_clears_the_open_ground():
+    em = one_isotropic()
+    rope = site.Area("rope", "no-access", ((-3.5, -3.5), (3.5, -3.5), (3.5, 3.5), (-3.5, 3.5)))
+    res = site.analyse_site([em], boundary=SQUARE, areas=[rope], heights_m=(1.5,), grid_spacing_m=0.1)
+    assert res.violations == ()
+    assert {r.label: r.verdict for r in res.regions}["rope"] == "not checked"
+
+
+def test_open_ground_and_outside_the_boundary_count_as_public():
+    em = one_isotropic()
+    small = [(-2, -2), (2, -2), (2, 2), (-2, 2)]  # boundary inside the 3.19 m zone
+    res = site.analyse_site([em], boundary=small, areas=[], heights_m=(1.5,), grid_spacing_m=0.1)
+    kinds = {v.kind for v in res.violations}
+    assert kinds == {"open ground", "outside the site"}
+    # the grid extends beyond the boundary far enough to hold the whole zone
+    assert res.grid.extent_m[1] >= math.sqrt(256 / (4 * math.pi * 2.0))
+    assert "a keep-out zone reaches the edge of the evaluated grid: its full extent is not shown" not in res.flags
+
+
+def test_most_restrictive_area_wins_where_areas_overlap():
+    em = one_isotropic()
+    areas = [site.Area("car park", "public", ((-10, -10), (10, -10), (10, 10), (-10, 10))),
+             site.Area("rope", "no-access", ((-4, -4), (4, -4), (4, 4), (-4, 4)))]
+    res = site.analyse_site([em], boundary=SQUARE, areas=areas, heights_m=(1.5,), grid_spacing_m=0.1)
+    assert res.violations == ()
+    areas[1] = site.Area("rope", "no-access", ((-2, -2), (2, -2), (2, 2), (-2, 2)))
+    res = site.analyse_site([em], boundary=SQUARE, areas=areas, heights_m=(1.5,), grid_spacing_m=0.1)
+    assert [v.region for v in res.violations] == ["car park"]
+
+
+def test_keep_out_is_attributed_to_the_dominant_station():
+    a = emitter("strong", x=-8.0, h=1.5, power=(400.0, 400.0), limit=(10.0, 2.0), f=1.0)
+    b = emitter("weak", x=8.0, h=1.5, power=(25.0, 25.0), limit=(10.0, 2.0), f=1.0)
+    res = site.analyse_site([a, b], boundary=SQUARE, areas=[], heights_m=(1.5,), grid_spacing_m=0.1)
+    t = {x.transmitter: x for x in res.transmitters}
+    r_strong = math.sqrt(400 / (4 * math.pi * 2.0))
+    r_weak = math.sqrt(25 / (4 * math.pi * 2.0))
+    # far apart: the zones do not interact much; each radius is close to its own compliance distance
+    # (the other station adds (r/16 m)^2 ~ 1-4 %, i.e. < 2 % on the radius, plus one grid spacing)
+    assert t["strong"].keep_out_m["uncontrolled"] == pytest.approx(r_strong, rel=0.02, abs=0.1)
+    assert t["weak"].keep_out_m["uncontrolled"] == pytest.approx(r_weak, rel=0.02, abs=0.1)
+    assert t["weak"].keep_out_m["uncontrolled"] < t["strong"].keep_out_m["uncontrolled"]
+
+
+def test_too_many_grid_points_is_an_input_error():
+    with pytest.raises(InputError) as exc:
+        site.analyse_site([one_isotropic()], boundary=[(0, 0), (5000, 0), (5000, 5000), (0, 5000)], areas=[],
+                          heights_m=(1.5,), grid_spacing_m=0.5)
+    assert str(exc.value).startswith("grid_spacing_m: 0.5 gives 10015 x 10015 = ")
+
+
+@settings(max_examples=30, deadline=None)
+@given(st.floats(0.1, 1000), st.floats(1, 4), st.floats(0.5, 50))
+def test_summed_reach_bounds_every_keep_out(power, f, limit):
+    """Beyond summed_reach_m the peak-gain sum is below every limit (the grid margin relies on it)."""
+    em = emitter(power=(power, power), f=f, limit=(limit * 5, limit), pattern=BEAM)
+    d = site.summed_reach_m([em])
+    assert power * f / limit * 10 ** 0.8 / (4 * math.pi * d * d) == pytest.approx(1.0)
