@@ -1,0 +1,454 @@
+"""Building blocks shared by rfsafe's PDF documents (station worksheet, event-site review).
+
+Everything here renders; nothing computes. The blocks are:
+
+- :func:`register_fonts` / :data:`FONT` / :data:`FONT_BOLD`: the embedded DejaVu Sans faces
+  (shipped in ``rfsafe/report/fonts/``, with their licence), so that ohm, lambda, <= and micro
+  signs render the same on every machine;
+- :func:`styles`: the paragraph styles (``title``, ``h1``, ``h2``, ``body``, ``small``, ``cell``,
+  ``cell_bold``, ``cell_right``, ``head``, ``caution``, ``mono``);
+- :func:`p` (escaped paragraph), :func:`data_table` (header row, zebra rows, wrapped cells,
+  repeated header across pages), :func:`kv_table` (label/value pairs), :func:`table_style`;
+- :func:`verdict_box` and :func:`identity_block` (title, identity rows, the big verdict);
+- :func:`section_heading` (numbered heading that also becomes a PDF outline entry);
+- :func:`cautions_block` and :func:`signoff_block`;
+- :func:`build_pdf`: the invariant document set-up (A4, portrait and landscape page templates,
+  running header and "page n of m" footer, creation date taken from the evaluation date, no
+  random ids) returning the PDF as bytes;
+- number formatting helpers :func:`num`, :func:`ratio_text`, :func:`margin_text`,
+  :func:`dist_text`.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import io
+import math
+from functools import lru_cache
+from importlib import resources
+from xml.sax.saxutils import escape
+
+from reportlab.lib import colors
+from reportlab.lib.enums import TA_CENTER, TA_LEFT, TA_RIGHT
+from reportlab.lib.pagesizes import A4, landscape
+from reportlab.lib.styles import ParagraphStyle
+from reportlab.lib.units import mm
+from reportlab.pdfbase import pdfmetrics
+from reportlab.pdfbase.pdfmetrics import stringWidth
+from reportlab.pdfbase.ttfonts import TTFont
+from reportlab.pdfgen.canvas import Canvas
+from reportlab.platypus import (BaseDocTemplate, Frame, PageTemplate, Paragraph, Spacer, Table,
+                                TableStyle)
+
+__all__ = [
+    "FONT", "FONT_BOLD", "PAGE", "PAGE_LANDSCAPE", "MARGIN", "COMPLIES_COLOR", "EXCEEDS_COLOR",
+    "ACCENT", "GRID", "register_fonts", "styles", "p", "table_style", "data_table", "kv_table",
+    "verdict_box", "identity_block", "section_heading", "cautions_block", "signoff_block",
+    "build_pdf", "frame_width", "fit_widths", "num", "ratio_text", "margin_text", "dist_text",
+]
+
+FONT = "DejaVuSans"
+FONT_BOLD = "DejaVuSans-Bold"
+PAGE = A4
+PAGE_LANDSCAPE = landscape(A4)
+MARGIN = 15 * mm
+_HEADER_GAP = 8 * mm           # room for the running header / footer inside the margins
+
+COMPLIES_COLOR = colors.HexColor("#1b6e34")   # dark green, white text passes contrast checks
+EXCEEDS_COLOR = colors.HexColor("#b3122b")    # dark red
+ACCENT = colors.HexColor("#1f3a5f")           # headings, table headers
+GRID = colors.HexColor("#9aa5b1")
+ZEBRA = colors.HexColor("#eef2f6")
+
+
+def register_fonts() -> None:
+    """Register the embedded DejaVu Sans regular and bold faces with reportlab (idempotent)."""
+    if FONT in pdfmetrics.getRegisteredFontNames():
+        return
+    folder = resources.files("rfsafe.report") / "fonts"
+    for name, file in ((FONT, "DejaVuSans.ttf"), (FONT_BOLD, "DejaVuSans-Bold.ttf")):
+        with resources.as_file(folder / file) as path:
+            pdfmetrics.registerFont(TTFont(name, str(path)))
+    pdfmetrics.registerFontFamily(FONT, normal=FONT, bold=FONT_BOLD, italic=FONT, boldItalic=FONT_BOLD)
+
+
+@lru_cache(maxsize=1)
+def styles() -> dict[str, ParagraphStyle]:
+    """The paragraph styles of rfsafe documents, keyed by role."""
+    register_fonts()
+    base = ParagraphStyle("body", fontName=FONT, fontSize=9, leading=11.5, spaceAfter=3)
+    s = {
+        "body": base,
+        "title": ParagraphStyle("title", parent=base, fontName=FONT_BOLD, fontSize=17, leading=21,
+                                textColor=ACCENT, spaceAfter=2),
+        "subtitle": ParagraphStyle("subtitle", parent=base, fontSize=10, leading=13, textColor=ACCENT,
+                                   spaceAfter=6),
+        "h1": ParagraphStyle("h1", parent=base, fontName=FONT_BOLD, fontSize=12.5, leading=16,
+                             textColor=ACCENT, spaceBefore=9, spaceAfter=4, keepWithNext=1),
+        "h2": ParagraphStyle("h2", parent=base, fontName=FONT_BOLD, fontSize=10, leading=13,
+                             textColor=ACCENT, spaceBefore=6, spaceAfter=3, keepWithNext=1),
+        "small": ParagraphStyle("small", parent=base, fontSize=7.5, leading=9.5, spaceAfter=2),
+        "bullet": ParagraphStyle("bullet", parent=base, leftIndent=10, bulletIndent=2, spaceAfter=2),
+        "cell": ParagraphStyle("cell", parent=base, fontSize=7.5, leading=9, spaceAfter=0),
+        "cell_bold": ParagraphStyle("cell_bold", parent=base, fontName=FONT_BOLD, fontSize=7.5, leading=9,
+                                    spaceAfter=0),
+        "cell_right": ParagraphStyle("cell_right", parent=base, fontSize=7.5, leading=9, spaceAfter=0,
+                                     alignment=TA_RIGHT),
+        "head": ParagraphStyle("head", parent=base, fontName=FONT_BOLD, fontSize=7.5, leading=9,
+                               spaceAfter=0, textColor=colors.white),
+        "head_right": ParagraphStyle("head_right", parent=base, fontName=FONT_BOLD, fontSize=7.5,
+                                     leading=9, spaceAfter=0, textColor=colors.white, alignment=TA_RIGHT),
+        "kv_key": ParagraphStyle("kv_key", parent=base, fontName=FONT_BOLD, fontSize=8.5, leading=10.5,
+                                 spaceAfter=0),
+        "kv_value": ParagraphStyle("kv_value", parent=base, fontSize=8.5, leading=10.5, spaceAfter=0),
+        "verdict": ParagraphStyle("verdict", parent=base, fontName=FONT_BOLD, fontSize=30, leading=36,
+                                  textColor=colors.white, alignment=TA_CENTER, spaceAfter=0),
+        "verdict_detail": ParagraphStyle("verdict_detail", parent=base, fontSize=9.5, leading=12,
+                                         textColor=colors.white, alignment=TA_CENTER, spaceAfter=0),
+        "caution": ParagraphStyle("caution", parent=base, leftIndent=12, bulletIndent=2, spaceAfter=2.5),
+        "mono": ParagraphStyle("mono", parent=base, fontSize=7.5, leading=9.5, spaceAfter=0),
+        "caption": ParagraphStyle("caption", parent=base, fontSize=7.5, leading=9.5, spaceBefore=1,
+                                  spaceAfter=6, alignment=TA_LEFT, textColor=colors.HexColor("#333333")),
+    }
+    return s
+
+
+def p(text: str, style: str = "body", *, markup: bool = False) -> Paragraph:
+    """A paragraph of plain text (escaped), or of reportlab mini-markup when ``markup``."""
+    return Paragraph(text if markup else escape(str(text)), styles()[style])
+
+
+def frame_width(pagesize=PAGE) -> float:
+    """Usable width of a page's frame [pt]."""
+    return pagesize[0] - 2 * MARGIN
+
+
+# ---------------------------------------------------------------- numbers
+def num(x, sig: int = 3) -> str:
+    """A number with ``sig`` significant digits; exponent form below 1e-3 and from 1e6.
+
+    Non-finite values print as such (never as a plausible number); ``None`` prints as a dash.
+    """
+    if x is None:
+        return "–"
+    x = float(x)
+    if not math.isfinite(x):
+        return str(x)
+    ax = abs(x)
+    if ax != 0 and (ax < 1e-3 or ax >= 1e6):
+        return f"{x:.{sig - 1}e}"
+    if ax >= 10 ** sig:
+        return f"{x:.0f}"
+    return f"{x:.{sig}g}"
+
+
+def ratio_text(r) -> str:
+    """Exposure ratio as printed in rfsafe documents (3 significant digits)."""
+    return num(r, 3)
+
+
+def margin_text(db) -> str:
+    """Margin to the limit [dB], signed, one decimal (positive = below the limit)."""
+    if db is None or not math.isfinite(float(db)):
+        return num(db)
+    return f"{float(db):+.1f}"
+
+
+def dist_text(dist_m, dist_ft=None) -> str:
+    """Distance as ``"m (ft)"`` with 2 and 1 decimals."""
+    if dist_ft is None:
+        return f"{float(dist_m):.2f}"
+    return f"{float(dist_m):.2f} m ({float(dist_ft):.1f} ft)"
+
+
+# ---------------------------------------------------------------- tables
+def table_style(*, n_rows: int, header_rows: int = 1, zebra: bool = True, extra=()) -> TableStyle:
+    """The one table look: dark header, thin grid, zebra body rows, top-aligned cells."""
+    cmds = [
+        ("BACKGROUND", (0, 0), (-1, header_rows - 1), ACCENT),
+        ("VALIGN", (0, 0), (-1, -1), "TOP"),
+        ("GRID", (0, 0), (-1, -1), 0.35, GRID),
+        ("LEFTPADDING", (0, 0), (-1, -1), 2.5),
+        ("RIGHTPADDING", (0, 0), (-1, -1), 2.5),
+        ("TOPPADDING", (0, 0), (-1, -1), 1.6),
+        ("BOTTOMPADDING", (0, 0), (-1, -1), 1.8),
+    ]
+    if zebra:
+        for r in range(header_rows, n_rows):
+            if (r - header_rows) % 2 == 1:
+                cmds.append(("BACKGROUND", (0, r), (-1, r), ZEBRA))
+    cmds.extend(extra)
+    return TableStyle(cmds)
+
+
+def _cell(value, style):
+    if isinstance(value, Paragraph) or hasattr(value, "wrapOn"):
+        return value
+    return p("" if value is None else str(value), style)
+
+
+def _token_width(text: str, font: str, size: float) -> float:
+    words = str(text).split()
+    return max((stringWidth(w, font, size) for w in words), default=0.0)
+
+
+def fit_widths(col_widths, headers, rows, *, padding: float = 5.5) -> list[float]:
+    """Widen columns whose longest word would otherwise be broken, taking the room from columns with
+    slack (in proportion to it); the total width is unchanged.
+
+    Only plain-text cells are measured (flowables wrap themselves).
+    """
+    size = styles()["cell"].fontSize
+    need = []
+    for j, w in enumerate(col_widths):
+        m = _token_width(headers[j], FONT_BOLD, size) if isinstance(headers[j], str) else 0.0
+        for row in rows:
+            if isinstance(row[j], str):
+                m = max(m, _token_width(row[j], FONT, size))
+        need.append(m + padding)
+    widths = [float(w) for w in col_widths]
+    deficit = sum(max(0.0, n - w) for n, w in zip(need, widths))
+    if deficit <= 0:
+        return widths
+    slack = [max(0.0, w - n) for n, w in zip(need, widths)]
+    total_slack = sum(slack)
+    if total_slack <= 0:
+        return widths
+    take = min(1.0, deficit / total_slack)
+    return [max(w, n) if n > w else w - s_ * take for w, n, s_ in zip(widths, need, slack)]
+
+
+def data_table(headers, rows, col_widths, *, align: str | None = None, extra_style=(),
+               zebra: bool = True, bold_rows=()) -> Table:
+    """A wrapped-cell table with a header row repeated on every page.
+
+    Parameters
+    ----------
+    headers : sequence of str
+        Column titles.
+    rows : sequence of sequences
+        Cell texts (str) or flowables (kept as given).
+    col_widths : sequence of float
+        Column widths [pt]; they should add up to at most the frame width.
+    align : str, optional
+        One ``l``/``r`` per column (default: first column left, the rest right).
+    extra_style : sequence
+        Additional TableStyle commands.
+    bold_rows : iterable of int
+        Body row indices (0 = first row after the header) printed in bold.
+    """
+    n = len(headers)
+    align = align or ("l" + "r" * (n - 1))
+    bold_rows = set(bold_rows)
+    st = styles()
+    head = [_cell(h, "head_right" if a == "r" else "head") for h, a in zip(headers, align)]
+    body = []
+    for i, row in enumerate(rows):
+        if len(row) != n:
+            raise ValueError(f"table row {i} has {len(row)} cells, expected {n}")
+        cell_styles = ["cell_bold" if i in bold_rows else ("cell_right" if a == "r" else "cell")
+                       for a in align]
+        body.append([_cell(v, s) for v, s in zip(row, cell_styles)])
+    if bold_rows:
+        # a bold row keeps its alignment: right-aligned bold cells use a derived style
+        rb = ParagraphStyle("cell_bold_right", parent=st["cell_bold"], alignment=TA_RIGHT)
+        for i in bold_rows:
+            for j, a in enumerate(align):
+                if a == "r" and isinstance(rows[i][j], str):
+                    body[i][j] = Paragraph(escape(rows[i][j]), rb)
+    data = [head] + body
+    t = Table(data, colWidths=fit_widths(col_widths, headers, rows), repeatRows=1, hAlign="LEFT")
+    t.setStyle(table_style(n_rows=len(data), zebra=zebra, extra=extra_style))
+    return t
+
+
+def kv_table(pairs, col_widths) -> Table:
+    """Label/value pairs as a two-column table without header."""
+    data = [[_cell(k, "kv_key"), _cell(v, "kv_value")] for k, v in pairs]
+    t = Table(data, colWidths=list(col_widths), hAlign="LEFT")
+    t.setStyle(TableStyle([
+        ("VALIGN", (0, 0), (-1, -1), "TOP"),
+        ("LINEBELOW", (0, 0), (-1, -1), 0.25, GRID),
+        ("LEFTPADDING", (0, 0), (-1, -1), 2),
+        ("RIGHTPADDING", (0, 0), (-1, -1), 2),
+        ("TOPPADDING", (0, 0), (-1, -1), 1.5),
+        ("BOTTOMPADDING", (0, 0), (-1, -1), 2),
+    ]))
+    return t
+
+
+# ---------------------------------------------------------------- blocks
+def verdict_box(verdict: str, detail: str, width: float) -> Table:
+    """The overall verdict in a big coloured box: green ``✓ COMPLIES`` or red ``✗ EXCEEDS``.
+
+    The word and the symbol carry the meaning; the colour only repeats it.
+    """
+    ok = verdict.upper() == "COMPLIES"
+    word = ("✓ " if ok else "✗ ") + verdict.upper()
+    base = styles()["verdict"]
+    size = base.fontSize
+    while size > 12 and stringWidth(word, FONT_BOLD, size) > width - 14:
+        size -= 1
+    big = ParagraphStyle("verdict_fit", parent=base, fontSize=size, leading=size * 1.2)
+    t = Table([[Paragraph(escape(word), big)], [p(detail, "verdict_detail")]], colWidths=[width], hAlign="LEFT")
+    t.setStyle(TableStyle([
+        ("BACKGROUND", (0, 0), (-1, -1), COMPLIES_COLOR if ok else EXCEEDS_COLOR),
+        ("TOPPADDING", (0, 0), (-1, 0), 6),
+        ("BOTTOMPADDING", (0, 0), (-1, 0), 2),
+        ("BOTTOMPADDING", (0, 1), (-1, 1), 7),
+        ("LEFTPADDING", (0, 0), (-1, -1), 6),
+        ("RIGHTPADDING", (0, 0), (-1, -1), 6),
+    ]))
+    return t
+
+
+def identity_block(*, title: str, subtitle: str | None, rows, verdict: str, verdict_detail: str,
+                   width: float) -> list:
+    """Title, identity rows (label, value) beside the verdict box."""
+    out = [p(title, "title")]
+    if subtitle:
+        out.append(p(subtitle, "subtitle"))
+    box_w = 62 * mm
+    gap = 5 * mm
+    ident = kv_table(rows, [36 * mm, width - box_w - gap - 36 * mm])
+    box = verdict_box(verdict, verdict_detail, box_w)
+    outer = Table([[ident, "", box]], colWidths=[width - box_w - gap, gap, box_w], hAlign="LEFT")
+    outer.setStyle(TableStyle([("VALIGN", (0, 0), (-1, -1), "TOP"),
+                               ("LEFTPADDING", (0, 0), (-1, -1), 0), ("RIGHTPADDING", (0, 0), (-1, -1), 0),
+                               ("TOPPADDING", (0, 0), (-1, -1), 0), ("BOTTOMPADDING", (0, 0), (-1, -1), 0)]))
+    out += [outer, Spacer(1, 4 * mm)]
+    return out
+
+
+class _Heading(Paragraph):
+    """A section heading that registers a PDF outline entry when drawn."""
+
+    def __init__(self, text, style, key, level):
+        super().__init__(escape(text), style)
+        self.outline = (text, key, level)
+
+    def draw(self):
+        text, key, level = self.outline
+        self.canv.bookmarkPage(key)
+        self.canv.addOutlineEntry(text, key, level=level, closed=False)
+        super().draw()
+
+
+def section_heading(number: str, text: str, *, level: int = 0) -> Paragraph:
+    """Numbered heading ``"<number>  <text>"``; level 0 uses ``h1``, level 1 ``h2``."""
+    label = f"{number}  {text}" if number else text
+    return _Heading(label, styles()["h1" if level == 0 else "h2"], f"sec-{number or text}", level)
+
+
+def cautions_block(cautions, flags=()) -> list:
+    """The general cautions, then the evaluation's own flags, as bullet lists."""
+    out = []
+    for c in cautions:
+        out.append(Paragraph(escape(c), styles()["caution"], bulletText="•"))
+    if flags:
+        out.append(p("Flags raised by this evaluation:", "h2"))
+        for f in flags:
+            out.append(Paragraph(escape(f), styles()["caution"], bulletText="!"))
+    return out
+
+
+def signoff_block(width: float, *, evaluator: str = "", date: str = "") -> Table:
+    """Sign-off lines: evaluated by / date / signature, then reviewed by / date / signature.
+
+    The evaluator's name and the evaluation date are pre-printed small above the lines where
+    known; signature lines stay blank for ink. The table does not split across pages; wrap it
+    with its heading in one ``KeepTogether`` to keep both together.
+    """
+    line_h = 11 * mm
+    cols = [width * 0.42, width * 0.22, width * 0.36]
+
+    def row(label, prefill_name, prefill_date):
+        return [[p(f"{label}", "kv_key"), p("Date", "kv_key"), p("Signature", "kv_key")],
+                [p(prefill_name, "small"), p(prefill_date, "small"), ""]]
+
+    data = row("Evaluated by (name)", evaluator, date) + row("Reviewed by (name)", "", "")
+    t = Table(data, colWidths=cols, rowHeights=[None, line_h, None, line_h], hAlign="LEFT")
+    t.setStyle(TableStyle([
+        ("VALIGN", (0, 0), (-1, -1), "TOP"),
+        ("LINEBELOW", (0, 1), (-1, 1), 0.8, colors.black),
+        ("LINEBELOW", (0, 3), (-1, 3), 0.8, colors.black),
+        ("TOPPADDING", (0, 2), (-1, 2), 8),
+        ("LEFTPADDING", (0, 0), (-1, -1), 3),
+        ("RIGHTPADDING", (0, 0), (-1, -1), 8),
+    ]))
+    return t
+
+
+# ---------------------------------------------------------------- document
+def _pdf_date(date_iso: str):
+    d = dt.date.fromisoformat(date_iso)
+    return lambda *_: f"D:{d.year:04d}{d.month:02d}{d.day:02d}000000+00'00'"
+
+
+def _page_canvas(header_left: str, header_right: str, footer_left: str, date_iso: str):
+    """A canvas class that stamps header/footer with "page n of m" once the page count is known."""
+    formatter = _pdf_date(date_iso)
+
+    class _Canvas(Canvas):
+        def __init__(self, *args, **kwargs):
+            kwargs["invariant"] = 1
+            super().__init__(*args, **kwargs)
+            self.setDateFormatter(formatter)
+            self._pages = []
+
+        def showPage(self):
+            self._pages.append(dict(self.__dict__))
+            self._startPage()
+
+        def save(self):
+            total = len(self._pages)
+            for state in self._pages:
+                self.__dict__.update(state)
+                self._furniture(total)
+                Canvas.showPage(self)
+            Canvas.save(self)
+
+        def _furniture(self, total):
+            w, h = self._pagesize
+            self.saveState()
+            self.setStrokeColor(GRID)
+            self.setLineWidth(0.4)
+            top = h - MARGIN + 3 * mm
+            self.line(MARGIN, top - 1.5 * mm, w - MARGIN, top - 1.5 * mm)
+            self.line(MARGIN, MARGIN - 2.5 * mm, w - MARGIN, MARGIN - 2.5 * mm)
+            self.setFont(FONT, 7)
+            self.setFillColor(colors.HexColor("#333333"))
+            self.drawString(MARGIN, top, header_left)
+            self.drawRightString(w - MARGIN, top, header_right)
+            self.drawString(MARGIN, MARGIN - 6 * mm, footer_left)
+            self.drawRightString(w - MARGIN, MARGIN - 6 * mm, f"page {self._pageNumber} of {total}")
+            self.restoreState()
+
+    return _Canvas
+
+
+def build_pdf(story, *, title: str, author: str, subject: str, date_iso: str, header_left: str,
+              header_right: str, footer_left: str, keywords=(), first_template: str = "portrait") -> bytes:
+    """Lay out ``story`` into a reproducible PDF and return its bytes.
+
+    Two builds of the same story are byte-identical: reportlab's invariant mode (fixed document
+    id seed), the PDF creation/modification date set to ``date_iso`` (the evaluation date, not
+    the clock), deterministic font-subset names. Page templates ``"portrait"`` and
+    ``"landscape"`` (A4) are available to ``NextPageTemplate``.
+    """
+    register_fonts()
+    buf = io.BytesIO()
+    doc = BaseDocTemplate(buf, pagesize=PAGE, title=title, author=author, subject=subject,
+                          creator="rfsafe", keywords=list(keywords), invariant=1,
+                          leftMargin=MARGIN, rightMargin=MARGIN, topMargin=MARGIN + _HEADER_GAP / 2,
+                          bottomMargin=MARGIN, lang="en")
+    templates = []
+    for name, size in (("portrait", PAGE), ("landscape", PAGE_LANDSCAPE)):
+        frame = Frame(MARGIN, MARGIN, size[0] - 2 * MARGIN, size[1] - 2 * MARGIN - _HEADER_GAP / 2,
+                      id=f"body-{name}", leftPadding=0, rightPadding=0, topPadding=0, bottomPadding=0)
+        templates.append(PageTemplate(id=name, frames=[frame], pagesize=size))
+    if first_template == "landscape":
+        templates.reverse()
+    doc.addPageTemplates(templates)
+    doc.build(list(story), canvasmaker=_page_canvas(header_left, header_right, footer_left, date_iso))
+    return buf.getvalue()

@@ -1,0 +1,201 @@
+"""The worksheet's figures: exposure ratio versus distance, standing-wave profile along a feedline.
+
+Figures draw what the results carry and compute nothing new. The exposure curve of a
+configuration is the far-field peak-gain envelope that the compliance distance already
+summarises: under S = EIRP F / (4 pi R^2) every quantity compared with a limit (S, and E^2, H^2
+through the plane-wave relation) falls as 1/R^2, so ratio(R) = (d_c / R)^2 with d_c the
+compliance distance of that environment. The standing-wave profile is the line result's own
+sampled |V| and |I|.
+"""
+
+from __future__ import annotations
+
+import math
+
+from reportlab.graphics.shapes import Circle, Drawing, Line, Rect, String
+from reportlab.lib import colors
+from reportlab.lib.units import mm
+from reportlab.platypus import Table, TableStyle
+
+from rfsafe.report.common import FONT, GRID
+from rfsafe.report.plots import PALETTE, Axes, linear_ticks, log_range
+
+__all__ = ["exposure_distance_figure", "exposure_legend", "line_profile_figure", "figure_grid",
+           "ENV_DASH", "ENV_SHAPE"]
+
+ENV_DASH = {"controlled": (4, 2), "uncontrolled": None}
+ENV_SHAPE = {"controlled": "square", "uncontrolled": "circle"}
+_MAX_DECADES_Y = 7
+
+
+def _curve(d_c: float, r: float) -> float:
+    return (d_c / r) ** 2
+
+
+def exposure_distance_figure(cfg, places, *, width: float, height: float, place_numbers: dict) -> Drawing:
+    """Exposure ratio versus distance for one configuration (log-log).
+
+    Parameters
+    ----------
+    cfg : ConfigurationResult
+        Supplies the compliance distances (one per environment) and the near-field boundary.
+    places : sequence of PlaceResult
+        Each place's exposure from this configuration is marked at its distance.
+    width, height : float
+        Drawing size [pt].
+    place_numbers : dict
+        Place label -> marker label (e.g. ``"P1"``), as used in the places table.
+    """
+    d = Drawing(width, height)
+    dist = {c.environment: c.dist_m for c in cfg.compliance_distances}
+    boundary = max(cfg.near_field_distance_m, cfg.aperture_far_field_m or 0.0)
+    points = []
+    for pl in places:
+        for x in pl.exposures:
+            if x.configuration == cfg.id:
+                points.append((x.dist_m, x.exposure_ratio, pl.environment, place_numbers[pl.label],
+                               x.inside_near_field))
+    xs = [v for v in dist.values() if v > 0] + [boundary] + [pt[0] for pt in points]
+    xlim = log_range(xs)
+    if xlim[1] / xlim[0] < 100:          # at least two decades so the 1/R^2 slope reads clearly
+        xlim = (xlim[0], xlim[0] * 100)
+    ys = [1.0] + [pt[1] for pt in points if pt[1] > 0]
+    ylim = log_range(ys)
+    ylim = (min(ylim[0], 0.01), max(ylim[1], 10.0))
+    if ylim[1] / ylim[0] > 10 ** _MAX_DECADES_Y:
+        ylim = (ylim[1] / 10 ** _MAX_DECADES_Y, ylim[1])
+    left, bottom, top, right = 40, 24, 14, 6
+    ax = Axes(d, left, bottom, width - left - right, height - bottom - top, xlim=xlim, ylim=ylim,
+              xlog=True, ylog=True)
+    ax.xband(xlim[0], boundary, color=PALETTE["near_field"])
+    ax.frame(xlabel="distance from the antenna R [m]", ylabel="exposure ratio (1 = limit)",
+             title=f"{cfg.id}  ·  {cfg.freq_mhz:g} MHz  ·  {cfg.mode}")
+    ax.hline(1.0, color=PALETTE["limit"], width=1.1, label="limit (ratio = 1)", label_side="right")
+    for env in ("controlled", "uncontrolled"):
+        if env not in dist or dist[env] <= 0:
+            continue
+        ax.segment(xlim[0], _curve(dist[env], xlim[0]), xlim[1], _curve(dist[env], xlim[1]),
+                   color=PALETTE[env], width=1.1, dash=ENV_DASH[env])
+    # compliance distances: a dotted line down from the limit line, labelled at its foot (the region
+    # below the limit line and left of the curves is empty: the curves fall to the right)
+    for k, env in enumerate(("controlled", "uncontrolled")):
+        if env in dist and xlim[0] <= dist[env] <= xlim[1]:
+            X = ax.px(dist[env])
+            ax.segment(dist[env], ylim[0], dist[env], 1.0, color=PALETTE[env], width=0.6, dash=(1, 1.5))
+            ax.text(X + 1.5, ax.y0 + 2.5 + k * (ax.font_size + 2), f"{env} {dist[env]:.2f} m",
+                    color=PALETTE[env], bold=True)
+    labels = []
+    for r, ratio, env, label, _nf in points:
+        X, Y = ax.marker(r, ratio, shape=ENV_SHAPE[env], color=PALETTE[env])
+        labels.append((X, Y, label, PALETTE[env]))
+    ax.point_labels(labels)
+    return d
+
+
+def exposure_legend(width: float) -> Drawing:
+    """One legend shared by the exposure-versus-distance figures."""
+    fs = Axes.font_size
+    entries = [
+        ("line", PALETTE["uncontrolled"], None, "uncontrolled: peak-gain far-field envelope (d/R)²"),
+        ("line", PALETTE["controlled"], ENV_DASH["controlled"], "controlled: the same with the controlled limit"),
+        ("line", PALETTE["limit"], None, "limit: exposure ratio = 1 (each environment's own limit)"),
+        ("band", PALETTE["near_field"], None, "inside λ/2π (or 2D²/λ): far-field estimate not valid"),
+        ("circle", PALETTE["uncontrolled"], None, "place in an uncontrolled area (gain toward it)"),
+        ("square", PALETTE["controlled"], None, "place in a controlled area (gain toward it)"),
+    ]
+    col_w = width / 2
+    h = 36
+    d = Drawing(width, h)
+    for i, (kind, color, dash, label) in enumerate(entries):
+        x = (i % 2) * col_w
+        y = h - 8 - (i // 2) * 11
+        if kind == "line":
+            d.add(Line(x + 2, y + 2, x + 16, y + 2, strokeColor=color, strokeWidth=1.2, strokeDashArray=dash))
+        elif kind == "square":
+            d.add(Rect(x + 6.5, y - 0.4, 5, 5, fillColor=color, strokeColor=None))
+        elif kind == "band":
+            d.add(Rect(x + 2, y - 1, 14, 6, fillColor=color, strokeColor=GRID, strokeWidth=0.3))
+        else:
+            d.add(Circle(x + 9, y + 2, 2.6, fillColor=color, strokeColor=None))
+        d.add(String(x + 20, y, label, fontName=FONT, fontSize=fs, fillColor=colors.black))
+    return d
+
+
+def line_profile_figure(cfg, *, width: float, height: float):
+    """|V| and |I| (peak, at PEP) along the feedline of one configuration, with its voltage ratings.
+
+    Ratings up to 10 times the largest voltage are drawn to scale as dashed lines; a rating
+    further away is named in the caption with its headroom (from the line result), so that the
+    standing wave itself stays readable.
+
+    Returns
+    -------
+    (Drawing, str)
+        The figure and its caption text.
+    """
+    line = cfg.line
+    d = Drawing(width, height)
+    pos = [float(v) for v in line.profile_position_m]
+    volt = [float(v) for v in line.profile_voltage_v_peak]
+    cur = [float(v) for v in line.profile_current_a_peak]
+    length = float(line.length_m)
+    xlim = (0.0, length if length > 0 else 1.0)
+    v_max = float(line.line_voltage_v_peak)
+    i_max = float(line.line_current_a_peak)
+    merged: dict[float, list] = {}       # one line per distinct rating, naming every part it rates
+    for s in line.part_stresses:
+        if s.quantity == "voltage_v_peak" and s.rating is not None:
+            merged.setdefault(float(s.rating), []).append(s)
+    on_scale = [(v, parts) for v, parts in sorted(merged.items()) if v <= 10 * v_max]
+    off_scale = [(v, parts) for v, parts in sorted(merged.items()) if v > 10 * v_max]
+    v_top = max([v_max * 1.25] + [v * 1.1 for v, _ in on_scale])
+    v_top = max(v_top, linear_ticks(0, v_top)[-1])
+    i_top = i_max * 1.25
+    i_top = max(i_top, linear_ticks(0, i_top)[-1])
+
+    left, right, gap, bottom, top = 40, 6, 12, 22, 14
+    panel_h = (height - bottom - top - gap) / 2
+    title = f"{cfg.id}  ·  {line.cable_id}, {length:g} m  ·  SWR {line.swr_at_antenna:.2f}"
+    av = Axes(d, left, bottom + panel_h + gap, width - left - right, panel_h, xlim=xlim, ylim=(0, v_top))
+    av.frame(xlabel="", ylabel="|V| peak [V]", title=title, xticklabels=False)
+    for k, (value, parts) in enumerate(on_scale):
+        color = PALETTE["rating"] if k == 0 else PALETTE["rating2"]
+        names = ", ".join(s.part for s in parts)
+        av.hline(value, color=color, dash=(3, 2), label=f"{value:.0f} V peak: {names}", label_side="left",
+                 above=False)
+    av.polyline(pos, volt, color=PALETTE["voltage"], width=1.2)
+    vx = float(line.line_voltage_max_position_m)
+    av.marker(vx, v_max, color=PALETTE["voltage"], size=2.2)
+    right_half = vx > xlim[0] + 0.5 * (xlim[1] - xlim[0])
+    av.text(av.px(vx) + (-4 if right_half else 4), av.py(v_max) + 3.5, f"max {v_max:.0f} V at {vx:.1f} m",
+            color=PALETTE["voltage"], anchor="end" if right_half else "start", bold=True)
+
+    ai = Axes(d, left, bottom, width - left - right, panel_h, xlim=xlim, ylim=(0, i_top))
+    ai.frame(xlabel="position along the line from the transmitter end [m]", ylabel="|I| peak [A]")
+    ai.polyline(pos, cur, color=PALETTE["current"], width=1.2)
+    ix = float(line.line_current_max_position_m)
+    ai.marker(ix, i_max, color=PALETTE["current"], size=2.2)
+    right_half = ix > xlim[0] + 0.5 * (xlim[1] - xlim[0])
+    ai.text(ai.px(ix) + (-4 if right_half else 4), ai.py(i_max) + 3.5, f"max {i_max:.2f} A at {ix:.1f} m",
+            color=PALETTE["current"], anchor="end" if right_half else "start", bold=True)
+    if off_scale:
+        caption = "Above the scale: " + "; ".join(
+            f"{', '.join(s.part for s in parts)} rated {value:.0f} V peak "
+            f"(headroom {min(s.headroom for s in parts):.1f}×)" for value, parts in off_scale) + "."
+    elif not merged:
+        caption = "No voltage rating declared for this line or its connectors."
+    else:
+        caption = ""
+    return d, caption
+
+
+def figure_grid(drawings, width: float, *, columns: int = 2) -> Table:
+    """Drawings (or lists of flowables, e.g. a drawing and its caption) in rows of ``columns``."""
+    rows = [list(drawings[i:i + columns]) for i in range(0, len(drawings), columns)]
+    if rows and len(rows[-1]) < columns:
+        rows[-1] += [""] * (columns - len(rows[-1]))
+    t = Table(rows, colWidths=[width / columns] * columns, hAlign="LEFT")
+    t.setStyle(TableStyle([("VALIGN", (0, 0), (-1, -1), "TOP"), ("LEFTPADDING", (0, 0), (-1, -1), 0),
+                           ("RIGHTPADDING", (0, 0), (-1, -1), 2 * mm), ("TOPPADDING", (0, 0), (-1, -1), 0),
+                           ("BOTTOMPADDING", (0, 0), (-1, -1), 3 * mm)]))
+    return t

@@ -1,0 +1,328 @@
+"""Vector plots for rfsafe documents, drawn with reportlab.graphics (fast, byte-reproducible).
+
+:class:`Axes` maps data to drawing coordinates on linear or logarithmic scales, draws the frame,
+grid and tick labels (decade labels on log scales), and offers line, marker, band and text
+primitives. Lines are clipped to the plot area in the scale's own space, so a straight line in
+log-log coordinates needs only its two ends.
+"""
+
+from __future__ import annotations
+
+import math
+
+from reportlab.graphics.shapes import Circle, Drawing, Group, Line, PolyLine, Polygon, Rect, String
+from reportlab.lib import colors
+from reportlab.pdfbase.pdfmetrics import stringWidth
+
+from rfsafe.report.common import FONT, FONT_BOLD, GRID, register_fonts
+
+__all__ = ["Axes", "decade_label", "log_range", "linear_ticks", "PALETTE"]
+
+#: Line colours (distinguishable in grey print too, with the dash patterns used beside them).
+PALETTE = {
+    "controlled": colors.HexColor("#7a3e9d"),
+    "uncontrolled": colors.HexColor("#0b6e99"),
+    "limit": colors.HexColor("#b3122b"),
+    "voltage": colors.HexColor("#0b6e99"),
+    "current": colors.HexColor("#c2571a"),
+    "rating": colors.HexColor("#b3122b"),
+    "rating2": colors.HexColor("#7a3e9d"),
+    "near_field": colors.HexColor("#e6e6e6"),
+    "text": colors.HexColor("#222222"),
+}
+
+_SUPERSCRIPT = str.maketrans("-0123456789", "⁻⁰¹²³⁴⁵⁶⁷⁸⁹")
+
+
+def decade_label(exponent: int) -> str:
+    """Label of the decade 10^exponent: plain between 0.001 and 10000, else 10 with superscript."""
+    if -3 <= exponent <= 4:
+        return f"{10.0 ** exponent:.{max(0, -exponent)}f}"
+    return "10" + str(exponent).translate(_SUPERSCRIPT)
+
+
+def log_range(values, *, pad: float = 1.0, min_decades: int = 1) -> tuple[float, float]:
+    """Decade-aligned range holding every positive finite value, widened by ``pad`` decades' fraction.
+
+    Returns (low, high) as powers of ten.
+    """
+    vals = [float(v) for v in values if v is not None and math.isfinite(float(v)) and float(v) > 0]
+    if not vals:
+        raise ValueError("log_range needs at least one positive finite value")
+    lo = math.floor(math.log10(min(vals)) - 1e-9 - (pad - 1.0))
+    hi = math.ceil(math.log10(max(vals)) + 1e-9 + (pad - 1.0))
+    if hi - lo < min_decades:
+        hi = lo + min_decades
+    return 10.0 ** lo, 10.0 ** hi
+
+
+def linear_ticks(lo: float, hi: float, target: int = 5) -> list[float]:
+    """Round tick values (1, 2, 2.5, 5 x 10^n steps) covering [lo, hi]."""
+    span = hi - lo
+    if span <= 0:
+        return [lo]
+    raw = span / target
+    mag = 10 ** math.floor(math.log10(raw))
+    step = min((m * mag for m in (1, 2, 2.5, 5, 10)), key=lambda s: abs(s - raw))
+    first = math.ceil(lo / step - 1e-9) * step
+    ticks = []
+    v = first
+    while v <= hi + step * 1e-9:
+        ticks.append(round(v, 12))
+        v += step
+    return ticks
+
+
+def _tick_text(v: float) -> str:
+    if v == 0:
+        return "0"
+    return f"{v:g}"
+
+
+class Axes:
+    """A plot area inside a Drawing, with linear or log10 scales on x and y.
+
+    Parameters
+    ----------
+    drawing : Drawing
+        Target drawing.
+    x, y, width, height : float
+        Plot-area rectangle inside the drawing [pt] (ticks and labels are drawn outside it).
+    xlim, ylim : tuple of float
+        Data ranges; positive for a log scale.
+    xlog, ylog : bool
+        Logarithmic scales.
+    """
+
+    font_size = 6.5
+
+    def __init__(self, drawing: Drawing, x: float, y: float, width: float, height: float, *,
+                 xlim, ylim, xlog: bool = False, ylog: bool = False):
+        register_fonts()
+        self.d = drawing
+        self.x0, self.y0, self.w, self.h = x, y, width, height
+        self.xlog, self.ylog = xlog, ylog
+        self.xlim = tuple(float(v) for v in xlim)
+        self.ylim = tuple(float(v) for v in ylim)
+        for lim, is_log, name in ((self.xlim, xlog, "x"), (self.ylim, ylog, "y")):
+            if not (lim[1] > lim[0]) or (is_log and lim[0] <= 0):
+                raise ValueError(f"bad {name} range {lim} for a {'log' if is_log else 'linear'} axis")
+
+    # ---- mapping
+    def _u(self, v, lim, is_log):
+        if is_log:
+            return (math.log10(v) - math.log10(lim[0])) / (math.log10(lim[1]) - math.log10(lim[0]))
+        return (v - lim[0]) / (lim[1] - lim[0])
+
+    def px(self, v: float) -> float:
+        return self.x0 + self.w * self._u(v, self.xlim, self.xlog)
+
+    def py(self, v: float) -> float:
+        return self.y0 + self.h * self._u(v, self.ylim, self.ylog)
+
+    def inside(self, xv: float, yv: float) -> bool:
+        return (self.xlim[0] <= xv <= self.xlim[1]) and (self.ylim[0] <= yv <= self.ylim[1])
+
+    # ---- furniture
+    def frame(self, *, xlabel: str, ylabel: str, title: str | None = None, xticklabels: bool = True):
+        """Grid, ticks, tick labels, axis labels and the frame."""
+        fs = self.font_size
+        grid_minor = colors.HexColor("#ececec")
+        for axis in ("x", "y"):
+            is_log = self.xlog if axis == "x" else self.ylog
+            lim = self.xlim if axis == "x" else self.ylim
+            if is_log:
+                lo, hi = math.floor(math.log10(lim[0]) + 1e-9), math.ceil(math.log10(lim[1]) - 1e-9)
+                n_dec = hi - lo
+                major = [10.0 ** k for k in range(lo, hi + 1)]
+                minor = [m * 10.0 ** k for k in range(lo, hi) for m in range(2, 10)] if n_dec <= 6 else []
+                labels = {10.0 ** k: decade_label(k) for k in range(lo, hi + 1)}
+            else:
+                major = linear_ticks(*lim)
+                minor = []
+                labels = {v: _tick_text(v) for v in major}
+            for v in minor:
+                if axis == "x":
+                    X = self.px(v)
+                    self.d.add(Line(X, self.y0, X, self.y0 + self.h, strokeColor=grid_minor, strokeWidth=0.3))
+                else:
+                    Y = self.py(v)
+                    self.d.add(Line(self.x0, Y, self.x0 + self.w, Y, strokeColor=grid_minor, strokeWidth=0.3))
+            for v in major:
+                if axis == "x":
+                    X = self.px(v)
+                    self.d.add(Line(X, self.y0, X, self.y0 + self.h, strokeColor=GRID, strokeWidth=0.4))
+                    self.d.add(Line(X, self.y0 - 2, X, self.y0, strokeColor=colors.black, strokeWidth=0.5))
+                    if xticklabels:
+                        self.d.add(String(X, self.y0 - 2 - fs, labels[v], fontName=FONT, fontSize=fs,
+                                          textAnchor="middle"))
+                else:
+                    Y = self.py(v)
+                    self.d.add(Line(self.x0, Y, self.x0 + self.w, Y, strokeColor=GRID, strokeWidth=0.4))
+                    self.d.add(Line(self.x0 - 2, Y, self.x0, Y, strokeColor=colors.black, strokeWidth=0.5))
+                    self.d.add(String(self.x0 - 3, Y - fs * 0.35, labels[v], fontName=FONT, fontSize=fs,
+                                      textAnchor="end"))
+        self.d.add(Rect(self.x0, self.y0, self.w, self.h, fillColor=None, strokeColor=colors.black,
+                        strokeWidth=0.6))
+        if xlabel:
+            self.d.add(String(self.x0 + self.w / 2, self.y0 - 2 * fs - 4, xlabel, fontName=FONT,
+                              fontSize=fs + 0.5, textAnchor="middle"))
+        g = String(0, 0, ylabel, fontName=FONT, fontSize=fs + 0.5, textAnchor="middle")
+        grp = Group(g)
+        grp.transform = (0, 1, -1, 0, self.x0 - self._ylabel_offset(), self.y0 + self.h / 2)
+        self.d.add(grp)
+        if title:
+            self.d.add(String(self.x0, self.y0 + self.h + 4, title, fontName=FONT_BOLD, fontSize=fs + 1.5))
+
+    def _ylabel_offset(self) -> float:
+        """Distance of the rotated y label from the frame: clear of the widest tick label."""
+        fs = self.font_size
+        if self.ylog:
+            lo, hi = math.floor(math.log10(self.ylim[0]) + 1e-9), math.ceil(math.log10(self.ylim[1]) - 1e-9)
+            texts = [decade_label(k) for k in range(lo, hi + 1)]
+        else:
+            texts = [_tick_text(v) for v in linear_ticks(*self.ylim)]
+        return 3 + max(stringWidth(t, FONT, fs) for t in texts) + fs * 0.9
+
+    # ---- content
+    def _to_unit(self, xv, yv):
+        return self._u(xv, self.xlim, self.xlog), self._u(yv, self.ylim, self.ylog)
+
+    def segment(self, x1, y1, x2, y2, *, color, width=1.0, dash=None):
+        """A straight segment in scale space (straight on the page), clipped to the plot area."""
+        u1, v1 = self._to_unit(x1, y1)
+        u2, v2 = self._to_unit(x2, y2)
+        t0, t1 = 0.0, 1.0
+        du, dv = u2 - u1, v2 - v1
+        for p_, q_ in ((-du, u1), (du, 1 - u1), (-dv, v1), (dv, 1 - v1)):   # Liang-Barsky
+            if p_ == 0:
+                if q_ < 0:
+                    return
+                continue
+            t = q_ / p_
+            if p_ < 0:
+                t0 = max(t0, t)
+            else:
+                t1 = min(t1, t)
+        if t0 > t1:
+            return
+        a = (self.x0 + self.w * (u1 + t0 * du), self.y0 + self.h * (v1 + t0 * dv))
+        b = (self.x0 + self.w * (u1 + t1 * du), self.y0 + self.h * (v1 + t1 * dv))
+        self.d.add(Line(*a, *b, strokeColor=color, strokeWidth=width, strokeDashArray=dash))
+
+    def polyline(self, xs, ys, *, color, width=1.0, dash=None):
+        """A sampled curve (data expected inside the limits; points outside are clamped to the frame)."""
+        pts = []
+        for xv, yv in zip(xs, ys):
+            X = min(max(self.px(float(xv)), self.x0), self.x0 + self.w)
+            Y = min(max(self.py(float(yv)), self.y0), self.y0 + self.h)
+            pts.extend((round(X, 3), round(Y, 3)))
+        self.d.add(PolyLine(pts, strokeColor=color, strokeWidth=width, strokeDashArray=dash))
+
+    def hline(self, yv, *, color, width=0.9, dash=None, label=None, label_side="right", above=True):
+        if not (self.ylim[0] <= yv <= self.ylim[1]):
+            return
+        Y = self.py(yv)
+        self.d.add(Line(self.x0, Y, self.x0 + self.w, Y, strokeColor=color, strokeWidth=width,
+                        strokeDashArray=dash))
+        if label:
+            fs = self.font_size
+            ty = Y + 1.5 if above else Y - fs - 0.5
+            if label_side == "right":
+                self.d.add(String(self.x0 + self.w - 2, ty, label, fontName=FONT, fontSize=fs, fillColor=color,
+                                  textAnchor="end"))
+            else:
+                self.d.add(String(self.x0 + 2, ty, label, fontName=FONT, fontSize=fs, fillColor=color))
+
+    def vline(self, xv, *, color, width=0.6, dash=None):
+        if not (self.xlim[0] <= xv <= self.xlim[1]):
+            return
+        X = self.px(xv)
+        self.d.add(Line(X, self.y0, X, self.y0 + self.h, strokeColor=color, strokeWidth=width,
+                        strokeDashArray=dash))
+
+    def xband(self, x_from, x_to, *, color):
+        """A shaded vertical band between two x values (clipped)."""
+        a = max(x_from, self.xlim[0])
+        b = min(x_to, self.xlim[1])
+        if b <= a:
+            return
+        X1, X2 = self.px(a), self.px(b)
+        self.d.add(Rect(X1, self.y0, X2 - X1, self.h, fillColor=color, strokeColor=None, strokeWidth=0))
+
+    def marker(self, xv, yv, *, shape="circle", color, size=2.6):
+        """A marker; an off-range marker is drawn on the frame edge as a triangle pointing outward so
+        that it is not silently lost. Returns its page position."""
+        X, Y = self.px(min(max(xv, self.xlim[0]), self.xlim[1])), self.py(min(max(yv, self.ylim[0]), self.ylim[1]))
+        if self.inside(xv, yv):
+            if shape == "square":
+                self.d.add(Rect(X - size, Y - size, 2 * size, 2 * size, fillColor=color, strokeColor=colors.white,
+                                strokeWidth=0.4))
+            else:
+                self.d.add(Circle(X, Y, size, fillColor=color, strokeColor=colors.white, strokeWidth=0.4))
+        else:
+            s = size * 1.3
+            down = yv < self.ylim[0]
+            pts = [X - s, Y + (s if down else -s), X + s, Y + (s if down else -s), X, Y]
+            self.d.add(Polygon(pts, fillColor=color, strokeColor=None))
+        return X, Y
+
+    def point_labels(self, items, *, size=2.6):
+        """Labels beside markers, placed greedily so that no two labels overlap.
+
+        ``items`` are (X, Y, text, color) in page coordinates; each label tries right, left, above
+        and below its marker (then further out) and takes the first place clear of the labels
+        already set and inside the plot area.
+        """
+        fs = self.font_size
+        placed = []
+        for X, Y, text, color in sorted(items, key=lambda it: (it[0], -it[1])):
+            w = stringWidth(text, FONT_BOLD, fs)
+            h = fs
+            options = []
+            for k in (1.0, 2.2, 3.4):
+                g = size + 1 + (k - 1) * fs
+                options += [(X + g, Y - h * 0.35), (X - g - w, Y - h * 0.35),
+                            (X - w / 2, Y + g), (X - w / 2, Y - g - h),
+                            (X + g * 0.8, Y + g * 0.8), (X + g * 0.8, Y - g * 0.8 - h)]
+            box = None
+            for bx, by in options:
+                cand = (bx, by, bx + w, by + h)
+                if cand[0] < self.x0 or cand[2] > self.x0 + self.w or cand[1] < self.y0 or cand[3] > self.y0 + self.h:
+                    continue
+                if all(cand[2] <= o[0] or cand[0] >= o[2] or cand[3] <= o[1] or cand[1] >= o[3] for o in placed):
+                    box = cand
+                    break
+            if box is None:
+                box = (options[0][0], options[0][1], options[0][0] + w, options[0][1] + h)
+            placed.append(box)
+            self.d.add(String(box[0], box[1] + 0.5, text, fontName=FONT_BOLD, fontSize=fs, fillColor=color))
+
+    def text(self, X, Y, s, *, color=None, anchor="start", bold=False, size=None):
+        """Text at page coordinates of the drawing."""
+        self.d.add(String(X, Y, s, fontName=FONT_BOLD if bold else FONT, fontSize=size or self.font_size,
+                          fillColor=color or PALETTE["text"], textAnchor=anchor))
+
+    def legend(self, entries, *, x=None, y=None, corner="top-right"):
+        """Legend box of (kind, color, dash, label) entries; kind "line", "circle", "square", "band"."""
+        fs = self.font_size
+        row_h = fs + 2.5
+        w = 16 + max(stringWidth(e[3], FONT, fs) for e in entries) + 6
+        h = row_h * len(entries) + 3
+        if x is None:
+            x = self.x0 + self.w - w - 3 if "right" in corner else self.x0 + 3
+        if y is None:
+            y = self.y0 + self.h - h - 3 if "top" in corner else self.y0 + 3
+        self.d.add(Rect(x, y, w, h, fillColor=colors.white, strokeColor=GRID,
+                        strokeWidth=0.4))
+        for i, (kind, color, dash, label) in enumerate(entries):
+            cy = y + h - 2 - row_h * (i + 0.5) - 0.5
+            if kind == "line":
+                self.d.add(Line(x + 3, cy, x + 14, cy, strokeColor=color, strokeWidth=1.1, strokeDashArray=dash))
+            elif kind == "square":
+                self.d.add(Rect(x + 6.5, cy - 2.2, 4.4, 4.4, fillColor=color, strokeColor=None))
+            elif kind == "band":
+                self.d.add(Rect(x + 3, cy - 2.5, 11, 5, fillColor=color, strokeColor=GRID, strokeWidth=0.3))
+            else:
+                self.d.add(Circle(x + 8.5, cy, 2.3, fillColor=color, strokeColor=None))
+            self.d.add(String(x + 17, cy - fs * 0.35, label, fontName=FONT, fontSize=fs))

@@ -1,0 +1,497 @@
+"""The station worksheet: a reproducible PDF record of one evaluation, ready to sign.
+
+The worksheet renders an :class:`rfsafe.results.EvaluationResult` and computes nothing new: every
+number printed comes from the result. Sections, in order:
+
+1. identity (title, station, evaluator, date, standard, rfsafe version, SHA-256 of the station
+   file) and the overall verdict;
+2. method and assumptions;
+3. configurations (power chain, gain, EIRP/ERP, compliance distances);
+4. places (exposure per configuration and the simultaneous total; the 47 CFR 1.1307(b)(3)
+   exemption status for an FCC evaluation);
+5. line and tuner stress;
+6. figures (exposure ratio versus distance, standing-wave profiles, then any extra figures);
+7. cautions and flags;
+8. sign-off.
+
+Entry points: :func:`build_worksheet_pdf` (bytes) and :func:`write_worksheet` (file, atomically).
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from xml.sax.saxutils import escape
+
+from reportlab.lib.units import mm
+from reportlab.platypus import CondPageBreak, KeepTogether, Paragraph, Spacer
+
+from rfsafe.report.common import (COMPLIES_COLOR, EXCEEDS_COLOR, FONT_BOLD, build_pdf, cautions_block, data_table,
+                                  dist_text, frame_width, identity_block, kv_table, margin_text, num, p,
+                                  ratio_text, section_heading, signoff_block, styles)
+from rfsafe.report.figures import exposure_distance_figure, exposure_legend, figure_grid, line_profile_figure
+
+__all__ = ["build_worksheet_pdf", "write_worksheet", "worksheet_story", "EXEMPTION_STATEMENT"]
+
+ENVIRONMENTS = ("controlled", "uncontrolled")
+EXEMPTION_STATEMENT = ("An exemption under 47 CFR 1.1307(b)(3) removes only the duty to carry out a routine "
+                       "evaluation; it does not remove the duty to comply with the exposure limits of "
+                       "47 CFR 1.1310.")
+_QUANTITY = {"power_density": "S", "e_field": "E", "h_field": "H"}
+_STRESS_QUANTITY = {"voltage_v_peak": "voltage", "current_a_rms": "current", "current_a_peak": "current",
+                    "equivalent_matched_power_w": "heating (equivalent matched power)"}
+_CONFIGS_PER_TABLE = 4
+
+
+def _pair(d: dict, fmt=num) -> str:
+    """Controlled / uncontrolled values of a per-environment dict."""
+    return " / ".join(fmt(d.get(env)) for env in ENVIRONMENTS)
+
+
+def _governing(text: str) -> str:
+    """``"power_density (time-averaged)"`` -> ``"S, avg"`` (names only, no values)."""
+    head, _, tail = text.partition(" ")
+    basis = tail.strip("()")
+    short = {"time-averaged": "avg", "instantaneous": "inst."}.get(basis, basis)
+    return _QUANTITY.get(head, head) + (f", {short}" if short else "")
+
+
+def _quantity(name: str) -> str:
+    """Readable name of a stressed quantity (the unit is printed in its own column)."""
+    return _STRESS_QUANTITY.get(name, name.replace("_", " "))
+
+
+class _Notes:
+    """Footnotes of one table: identical texts share one number."""
+
+    def __init__(self, prefix: str = ""):
+        self.prefix = prefix
+        self.texts: list[str] = []
+
+    def ref(self, texts) -> str:
+        refs = []
+        for t in texts:
+            if t not in self.texts:
+                self.texts.append(t)
+            refs.append(f"{self.prefix}{self.texts.index(t) + 1}")
+        return ", ".join(f"[{r}]" for r in refs)
+
+    def flowables(self) -> list:
+        return [p(f"[{self.prefix}{i + 1}] {t}", "small") for i, t in enumerate(self.texts)]
+
+
+# ------------------------------------------------------------------ 1 identity
+def _identity(res, width) -> list:
+    date_note = ("from the station file" if res.evaluation_date_source == "file"
+                 else "date of this run: the station file gives no evaluation date")
+    rows = [
+        ("Station", res.station or "–"),
+        ("Evaluator", res.evaluator or "–"),
+        ("Evaluation date", f"{res.evaluation_date} ({date_note})"),
+        ("Standard applied", f"{res.standard_name} [{res.standard}]"),
+        ("Environments", "; ".join(f"{env}: {res.environment_labels.get(env, env)}" for env in ENVIRONMENTS)),
+        ("Station file", res.input_file),
+        ("Program", f"rfsafe {res.rfsafe_version}"),
+    ]
+    if res.exemption is not None:
+        ex = res.exemption
+        rows.append(("47 CFR 1.1307(b)(3)", ("EXEMPT from routine evaluation" if ex.exempt else
+                                              "NOT EXEMPT: evaluation required") + f" ({ex.criterion})"))
+    n_places = len(res.places)
+    if res.verdict == "COMPLIES":
+        detail = (f"all {n_places} place{'s' if n_places != 1 else ''} within the limits; no rating exceeded"
+                  if n_places else "no places declared; no rating exceeded")
+    else:
+        detail = f"{len(res.exceeded)} limit{'s' if len(res.exceeded) != 1 else ''} or rating" \
+                 f"{'s' if len(res.exceeded) != 1 else ''} exceeded: see the list below"
+    if res.places:
+        worst = max(res.places, key=lambda pl: pl.total_ratio)
+        detail += f"; highest place total {ratio_text(worst.total_ratio)} ({worst.label})"
+    out = identity_block(title=res.title or "RF exposure evaluation", subtitle="RF exposure evaluation worksheet",
+                         rows=rows, verdict=res.verdict, verdict_detail=detail, width=width)
+    out.insert(-1, kv_table([("SHA-256 of the station file", res.input_sha256)], [46 * mm, width - 46 * mm]))
+    if res.exceeded:
+        st = styles()["body"]
+        out.append(p("Exceeded:", "h2"))
+        for line in res.exceeded:
+            out.append(Paragraph(f'<font color="{_hex(EXCEEDS_COLOR)}">{_esc(line)}</font>', st,
+                                 bulletText="✗"))
+    return out
+
+
+def _esc(text: str) -> str:
+    return escape(str(text))
+
+
+def _hex(color) -> str:
+    return "#" + color.hexval()[2:]
+
+
+def _coloured(text: str, ok: bool, style: str = "cell") -> Paragraph:
+    """Bold text in the pass (green) or fail (red) colour; the word carries the meaning."""
+    return Paragraph(f'<font name="{FONT_BOLD}" color="{_hex(COMPLIES_COLOR if ok else EXCEEDS_COLOR)}">'
+                     f'{_esc(text)}</font>', styles()[style])
+
+
+# ------------------------------------------------------------------ 2 method
+def _method(res, width) -> list:
+    out = [section_heading("2", "Method and assumptions")]
+    for note in res.method_notes:
+        out.append(Paragraph(_esc(note), styles()["bullet"], bulletText="•"))
+    methods = sorted({c.method for c in res.configurations})
+    for m in methods:
+        out.append(Paragraph(_esc(f"Exposure method: {m}."), styles()["bullet"], bulletText="•"))
+    out.append(Spacer(1, 2 * mm))
+    rows = []
+    for c in res.configurations:
+        gain_methods = sorted({x.gain_method for pl in res.places for x in pl.exposures
+                               if x.configuration == c.id})
+        nf = f"{c.near_field_distance_m:.2f}"
+        if c.aperture_far_field_m is not None:
+            nf += f" (2D²/λ {c.aperture_far_field_m:.2f})"
+        rows.append([c.id, f"{c.duty_factor:g}: {c.duty_factor_source}", c.schedule,
+                     _pair(c.averaging_minutes, lambda v: "none" if v is None else f"{v:g}"),
+                     _pair(c.transmit_fraction, lambda v: f"{v:.3g}"),
+                     f"{c.gain_dbi:.2f} dBi, {c.gain_source}; toward places: "
+                     f"{', '.join(gain_methods) if gain_methods else '–'}", nf])
+    out.append(p("Per configuration (controlled / uncontrolled where two values are given):", "small"))
+    out.append(data_table(["configuration", "duty factor and its source", "schedule", "averaging min",
+                           "window fill", "gain", "λ/2π m"], rows,
+                          [22 * mm, 47 * mm, 22 * mm, 17 * mm, 16 * mm, 40 * mm, width - 164 * mm],
+                          align="lllrrlr"))
+    out.append(Spacer(1, 2 * mm))
+    rows = []
+    for c in res.configurations:
+        for cd in c.compliance_distances:
+            rows.append([c.id, f"{cd.environment} ({cd.environment_label})", cd.limit_basis,
+                         "none" if cd.averaging_minutes is None else f"{cd.averaging_minutes:g}",
+                         _QUANTITY.get(cd.governing, cd.governing), cd.limit_source])
+    out.append(p("Limits applied (the limit that sets each compliance distance):", "small"))
+    out.append(data_table(["configuration", "environment", "basis", "averaging min", "governs", "limit source"],
+                          rows, [22 * mm, 40 * mm, 22 * mm, 17 * mm, 15 * mm, width - 116 * mm],
+                          align="lllrll"))
+    return out
+
+
+# ------------------------------------------------------------------ 3 configurations
+def _configurations(res, width) -> list:
+    out = [section_heading("3", "Configurations")]
+    out.append(p("Average powers after the mode duty factor and the averaging-window fill; values given "
+                 "as controlled / uncontrolled where the averaging time differs by environment.", "small"))
+    cfgs = list(res.configurations)
+    for k in range(0, len(cfgs), _CONFIGS_PER_TABLE):
+        chunk = cfgs[k:k + _CONFIGS_PER_TABLE]
+        label_w = 52 * mm
+        col_w = (width - label_w) / _CONFIGS_PER_TABLE
+        spec = [
+            ("description", lambda c: c.description or "–"),
+            ("frequency [MHz]", lambda c: f"{c.freq_mhz:g}"),
+            ("transmitter / feedline / antenna", lambda c: f"{c.transmitter} / {c.feedline} / {c.antenna}"),
+            ("mode", lambda c: c.mode),
+            ("PEP at the transmitter [W]", lambda c: num(c.pep_w)),
+            ("duty factor", lambda c: f"{c.duty_factor:g}"),
+            ("transmit fraction (window fill)", lambda c: _pair(c.transmit_fraction, lambda v: f"{v:.3g}")),
+            ("average power at the transmitter [W]", lambda c: _pair(c.avg_power_w)),
+            ("line loss [dB]", lambda c: f"{c.line_loss_db:.2f}"),
+            ("power reaching the antenna [fraction]", lambda c: f"{c.loss_fraction:.3f}"),
+            ("average power at the antenna [W]", lambda c: _pair(c.avg_power_at_antenna_w)),
+            ("PEP at the antenna [W]", lambda c: num(c.pep_at_antenna_w)),
+            ("peak gain [dBi]", lambda c: f"{c.gain_dbi:.2f} ({c.gain_source})"),
+            ("EIRP, time-averaged [W]", lambda c: _pair(c.eirp_w)),
+            ("ERP, time-averaged [W]", lambda c: _pair(c.erp_w)),
+            ("EIRP at PEP [W]", lambda c: num(c.eirp_pep_w)),
+        ]
+        rows = [[label] + [fn(c) for c in chunk] + [""] * (_CONFIGS_PER_TABLE - len(chunk)) for label, fn in spec]
+        out.append(data_table(["quantity"] + [c.id for c in chunk] + [""] * (_CONFIGS_PER_TABLE - len(chunk)),
+                              rows, [label_w] + [col_w] * _CONFIGS_PER_TABLE))
+        out.append(Spacer(1, 3 * mm))
+    out.append(section_heading("3.1", "Compliance distances", level=1))
+    out.append(p("Distance from the antenna beyond which each environment's limit is met, with peak gain and "
+                 "the far-field prediction. A distance inside the near-field boundary is flagged: the far-field "
+                 "estimate is not valid there.", "small"))
+    rows = []
+    bold = []
+    for c in res.configurations:
+        for cd in c.compliance_distances:
+            rows.append([c.id, cd.environment, f"{cd.dist_m:.2f}", f"{cd.dist_ft:.1f}",
+                         f"{cd.limit_basis}, {_QUANTITY.get(cd.governing, cd.governing)}",
+                         num(cd.eirp_w), f"{c.near_field_distance_m:.2f}",
+                         "YES: far-field estimate" if cd.inside_near_field else "no"])
+    out.append(data_table(["configuration", "environment", "distance m", "distance ft", "limit basis, governs",
+                           "EIRP compared W", "λ/2π m", "inside near field"], rows,
+                          [26 * mm, 24 * mm, 19 * mm, 19 * mm, 30 * mm, 22 * mm, 15 * mm, width - 155 * mm],
+                          align="llrrlrrl", bold_rows=bold))
+    return out
+
+
+# ------------------------------------------------------------------ 4 places
+def _places(res, width, numbers) -> list:
+    out = [section_heading("4", "Places")]
+    if not res.places:
+        out.append(p("No places are declared in the station file: only the compliance distances above were "
+                     "evaluated.", "body"))
+        return out
+    rules = sorted({pl.total_rule for pl in res.places})
+    out.append(section_heading("4.1", "Total at each place (all simultaneous transmitters)", level=1))
+    rows = []
+    for pl in res.places:
+        shares = Paragraph(" +<br/>".join(_esc(f"{s.configuration} {ratio_text(s.exposure_ratio)}")
+                                          for s in pl.contributions), styles()["cell"])
+        rows.append([numbers[pl.label], pl.label, f"{pl.x_m:g}, {pl.y_m:g}, {pl.height_m:g}",
+                     f"{pl.environment} ({pl.environment_label})", ratio_text(pl.total_ratio),
+                     margin_text(pl.total_margin_db), _coloured(pl.verdict.upper(), pl.verdict == "complies"),
+                     shares])
+    out.append(data_table(["#", "place", "x, y, height m", "environment", "total ratio", "margin dB", "verdict",
+                           "summed (configuration ratio)"], rows,
+                          [8 * mm, 34 * mm, 19 * mm, 29 * mm, 15 * mm, 14 * mm, 19 * mm, width - 138 * mm],
+                          align="llllrrll"))
+    for r in rules:
+        out.append(p(f"Summation rule: {r}. A place complies when the sum of exposure ratios is at most 1; "
+                     "margin = -10 log10(ratio).", "small"))
+    out.append(section_heading("4.2", "Exposure at each place from each configuration", level=1))
+    notes = _Notes()
+    rows = []
+    extra = []
+    r = 0
+    for pl in res.places:
+        for j, x in enumerate(pl.exposures):
+            r += 1
+            flag_ref = notes.ref(x.flags) if x.flags else ""
+            method = x.method + (" · inside near field" if x.inside_near_field else "")
+            rows.append([f"{numbers[pl.label]} {pl.label}" if j == 0 else "", x.configuration, f"{x.dist_m:.2f}",
+                         f"{x.gain_dbi:.2f} {x.gain_method}", num(x.power_density_w_m2), num(x.e_field_v_m),
+                         num(x.h_field_a_m), ratio_text(x.exposure_ratio), margin_text(x.margin_db),
+                         _governing(x.governing), (method + " " + flag_ref).strip()])
+            if j == 0 and r > 1:
+                extra.append(("LINEABOVE", (0, r), (-1, r), 0.9, styles()["cell"].textColor))
+    out.append(data_table(["place", "configuration", "dist m", "gain dBi", "S W/m²", "E V/m", "H A/m", "ratio",
+                           "margin dB", "governs", "method, flags"], rows,
+                          [29 * mm, 21 * mm, 11 * mm, 16 * mm, 13 * mm, 11 * mm, 13 * mm, 14 * mm, 12 * mm,
+                           13 * mm, width - 153 * mm],
+                          align="llrrrrrrrll", extra_style=extra, zebra=False))
+    out.append(p("dist: straight-line distance from the antenna; gain: toward the place (pattern) or the peak gain; "
+                 "governs: the quantity with the largest ratio (S power density, E or H field) and the limit's "
+                 "basis (avg = time-averaged, inst. = instantaneous, compared with PEP).", "small"))
+    out.extend(notes.flowables())
+    if res.exemption is not None:
+        out.extend(_exemption(res.exemption, width))
+    return out
+
+
+def _exemption(ex, width) -> list:
+    out = [section_heading("4.3", "Exemption from routine evaluation, 47 CFR 1.1307(b)(3)", level=1)]
+    status = "EXEMPT" if ex.exempt else "NOT EXEMPT"
+    out.append(p(f"Status: <b>{status}</b> ({_esc(ex.criterion)}); sum of fractions "
+                 f"{num(ex.sum_of_fractions)}.", "body", markup=True))
+    per = list(getattr(ex, "per_source", ()) or ())
+    if per:
+        import dataclasses
+        if dataclasses.is_dataclass(per[0]):
+            names = [f.name for f in dataclasses.fields(per[0])]
+        else:
+            names = ["label", "criterion", "threshold", "value", "fraction", "margin_db"]
+        rows = []
+        for s in per:
+            row = []
+            for n in names:
+                v = getattr(s, n, None)
+                row.append(margin_text(v) if n == "margin_db" else (num(v) if isinstance(v, float) else
+                                                                     ("–" if v is None else str(v))))
+            rows.append(row)
+        widths = [width / len(names)] * len(names)
+        out.append(data_table([n.replace("_", " ") for n in names], rows, widths,
+                              align="l" + "".join("r" if isinstance(getattr(per[0], n, None), float) else "l"
+                                                  for n in names[1:])))
+    note = getattr(ex, "note", "")
+    if note:
+        out.append(p(note, "small"))
+    out.append(p(EXEMPTION_STATEMENT, "body"))
+    return out
+
+
+# ------------------------------------------------------------------ 5 line and tuner
+def _line_stress(res, width) -> list:
+    out = [section_heading("5", "Line and tuner stress")]
+    out.append(p("Voltages and currents are peak values of the RF sine at PEP; positions are measured from the "
+                 "transmitter end of the line. Headroom = rating / stress (above 1 is within the rating).",
+                 "small"))
+    rows = []
+    for c in res.configurations:
+        ln = c.line
+        rows.append([c.id, f"{ln.cable_id}, {ln.length_m:g} m", f"{ln.swr_at_antenna:.2f}",
+                     f"{ln.swr_at_transmitter:.2f}", f"{ln.matched_loss_db:.2f}", f"{ln.total_loss_db:.2f}",
+                     f"{num(ln.line_voltage_v_peak)} at {ln.line_voltage_max_position_m:.1f} m",
+                     f"{num(ln.line_current_a_peak)} at {ln.line_current_max_position_m:.1f} m",
+                     num(ln.line_dissipation_avg_w),
+                     ", ".join(c.exceeded_parts) if c.exceeded_parts else "none"])
+    out.append(data_table(["configuration", "cable, length", "SWR ant.", "SWR tx", "matched loss dB",
+                           "total loss dB", "V max (peak)", "I max A (peak)", "line heat W avg", "exceeded"],
+                          rows, [22 * mm, 24 * mm, 14 * mm, 16 * mm, 15 * mm, 14 * mm, 22 * mm, 20 * mm, 15 * mm,
+                                 width - 162 * mm], align="llrrrrrrrl"))
+    out.append(Spacer(1, 2 * mm))
+    notes = _Notes("s")
+    sources = _Notes("r")
+    rows = []
+    extra = []
+    r = 0
+    for c in res.configurations:
+        for j, s in enumerate(c.line.part_stresses):
+            r += 1
+            tol = "–" if s.largest_tolerable_swr is None else (
+                "any SWR" if s.largest_tolerable_swr == float("inf") else f"{s.largest_tolerable_swr:.2f}")
+            ref = notes.ref([s.tolerable_swr_note]) if s.tolerable_swr_note else ""
+            src = sources.ref([s.rating_source]) if s.rating_source else ""
+            status = (_coloured("EXCEEDED", False) if s.exceeded else
+                      ("no rating" if s.rating is None else "within rating"))
+            rows.append([c.id if j == 0 else "", s.part, f"{_quantity(s.quantity)} [{s.unit}]", num(s.stress),
+                         f"{num(s.rating)} {src}".strip(),
+                         "–" if s.headroom is None else f"{s.headroom:.2f}", f"{tol} {ref}".strip(), status])
+            if j == 0 and r > 1:
+                extra.append(("LINEABOVE", (0, r), (-1, r), 0.9, styles()["cell"].textColor))
+    out.append(p("Parts against their ratings:", "small"))
+    out.append(data_table(["configuration", "part", "quantity [unit]", "stress", "rating [source]", "headroom",
+                           "largest tolerable SWR", "status"], rows,
+                          [22 * mm, 33 * mm, 34 * mm, 14 * mm, 20 * mm, 15 * mm, 20 * mm, width - 158 * mm],
+                          align="lllrrrrl", extra_style=extra, zebra=False))
+    out.extend(notes.flowables())
+    if sources.texts:
+        out.append(p("Rating sources:", "small"))
+        out.extend(sources.flowables())
+    tuned = [c for c in res.configurations if c.line.tuner_parts]
+    for c in tuned:
+        out.append(section_heading("5.1", f"Tuner parts, {c.id}", level=1))
+        rows = []
+        for m in c.line.tuner_parts:
+            value = f"{m.value_pf:.4g} pF" if m.value_pf is not None else (
+                f"{m.value_uh:.4g} µH" if m.value_uh is not None else "–")
+            rows.append([m.name, f"{m.kind}, {m.placement}", value, f"{m.reactance_ohm:.4g}", num(m.voltage_v_peak),
+                         num(m.current_a_rms), num(m.loss_w),
+                         "–" if m.rating is None else f"{num(m.rating)} {m.rating_unit}",
+                         "–" if m.headroom is None else f"{m.headroom:.2f}",
+                         _coloured("EXCEEDED", False) if m.exceeded else
+                         ("no rating" if m.rating is None else "within rating")])
+        out.append(data_table(["part", "kind, placement", "value", "X Ω", "V peak", "I A rms", "loss W", "rating",
+                               "headroom", "status"], rows,
+                              [12 * mm, 36 * mm, 18 * mm, 16 * mm, 15 * mm, 15 * mm, 14 * mm, 20 * mm, 15 * mm,
+                               width - 161 * mm], align="lllrrrrrrl"))
+        tuner = c.line.tuner
+        if tuner is not None:
+            net = tuner.network
+            out.append(p(f"Network: {net.topology} ({net.form}) at the {tuner.position}; loss {net.loss_db:.2f} dB "
+                         f"({num(net.loss_w)} W at PEP). {tuner.method}", "small"))
+    out.append(p("Line method notes:", "small"))
+    for c in res.configurations:
+        ln = c.line
+        text = f"{c.id}: {ln.load_assumption}; profile: {ln.profile_kind}."
+        if ln.notes:
+            text += " " + "; ".join(ln.notes) + "."
+        out.append(Paragraph(_esc(text), styles()["small"], bulletText="·"))
+    return out
+
+
+# ------------------------------------------------------------------ 6 figures
+def _figures(res, width, numbers, extra_figures) -> list:
+    out = [CondPageBreak(120 * mm), section_heading("6", "Figures")]
+    fig_w = width / 2 - 2 * mm
+    out.append(section_heading("6.1", "Exposure ratio versus distance", level=1))
+    out.append(p("Lines: the far-field peak-gain envelope of each configuration, ratio = (d/R)² with d the "
+                 "compliance distance of each environment from section 3.1 (the far-field prediction falls as "
+                 "1/R²). Markers: the places of section 4 with their evaluated ratio (gain toward the place; "
+                 "a place below its line is off the main beam). A marker on the frame edge lies off scale.",
+                 "small"))
+    drawings = [exposure_distance_figure(c, res.places, width=fig_w, height=62 * mm, place_numbers=numbers)
+                for c in res.configurations]
+    out.append(figure_grid(drawings, width))
+    out.append(exposure_legend(width))
+    out.append(Spacer(1, 3 * mm))
+    out.append(CondPageBreak(80 * mm))
+    out.append(section_heading("6.2", "Standing wave along each feedline", level=1))
+    out.append(p("|V| and |I| at PEP along the line (0 = transmitter end), from the line results; dashed lines "
+                 "are the voltage ratings of the cable and connectors.", "small"))
+    cells = []
+    for c in res.configurations:
+        drawing, caption = line_profile_figure(c, width=fig_w, height=66 * mm)
+        cells.append([drawing, p(caption, "caption")] if caption else drawing)
+    out.append(figure_grid(cells, width))
+    if extra_figures:
+        out.append(section_heading("6.3", "Further figures", level=1))
+        out.extend(extra_figures)
+    return out
+
+
+# ------------------------------------------------------------------ 7 cautions, 8 sign-off
+def _all_flags(res) -> list[str]:
+    seen: list[str] = []
+    texts = [f"configuration {c.id}: {f}" for c in res.configurations for f in c.flags]
+    texts += [f"place {pl.label}: {f}" for pl in res.places for f in pl.flags]
+    for text in texts:
+        if text not in seen:
+            seen.append(text)
+    return seen
+
+
+def worksheet_story(result, *, extra_figures=()) -> list:
+    """The worksheet's flowables, in section order (a fresh list for every build).
+
+    Parameters
+    ----------
+    result : EvaluationResult
+        The evaluation to render.
+    extra_figures : sequence of flowables
+        Further figures (e.g. near-field or site maps) placed after the standard figures in
+        section 6; each flowable can be used in one build only.
+    """
+    width = frame_width()
+    numbers = {pl.label: f"P{i + 1}" for i, pl in enumerate(result.places)}
+    story = []
+    story += _identity(result, width)
+    story += _method(result, width)
+    story += _configurations(result, width)
+    story += _places(result, width, numbers)
+    story += _line_stress(result, width)
+    story += _figures(result, width, numbers, list(extra_figures))
+    story.append(CondPageBreak(70 * mm))
+    story.append(section_heading("7", "Cautions"))
+    story += cautions_block(result.cautions, _all_flags(result))
+    story.append(Spacer(1, 4 * mm))
+    story.append(KeepTogether([section_heading("8", "Sign-off"),
+                               p("I have reviewed the inputs and results of this worksheet.", "small"),
+                               Spacer(1, 2 * mm),
+                               signoff_block(width, evaluator=result.evaluator or "", date="")]))
+    return story
+
+
+def build_worksheet_pdf(result, *, extra_figures=()) -> bytes:
+    """The worksheet of ``result`` as PDF bytes; the same result gives the same bytes.
+
+    Parameters
+    ----------
+    result : EvaluationResult
+        The evaluation to render (from :func:`rfsafe.assess.assess`).
+    extra_figures : sequence of flowables
+        Further figures appended to section 6 (hook for near-field and site maps).
+    """
+    story = worksheet_story(result, extra_figures=extra_figures)
+    who = result.station or result.title or "station"
+    return build_pdf(
+        story, title=result.title or "RF exposure evaluation worksheet", author=result.evaluator or "",
+        subject=f"RF exposure evaluation of {who} under {result.standard_name}: {result.verdict}",
+        keywords=("RF exposure", result.standard, result.verdict), date_iso=result.evaluation_date,
+        header_left=f"{who} · RF exposure worksheet · {result.evaluation_date}",
+        header_right=f"{result.standard} · {result.verdict}",
+        footer_left=f"{result.input_file} · SHA-256 {result.input_sha256[:16]}… · rfsafe {result.rfsafe_version}")
+
+
+def write_worksheet(result, path, *, force: bool = False, extra_figures=()) -> Path:
+    """Write the worksheet of ``result`` to ``path`` (temporary file, then rename).
+
+    Raises :class:`~rfsafe.errors.InputError` (field ``-o``) if the file exists and ``force`` is
+    false, or if its folder does not exist. The PDF is built completely in memory before anything
+    is written, so a failure leaves no file behind.
+    """
+    from rfsafe.fileio import atomic_write_bytes, check_writable
+
+    path = Path(path)
+    check_writable(path, force=force)
+    data = build_worksheet_pdf(result, extra_figures=extra_figures)
+    atomic_write_bytes(path, data)
+    return path
