@@ -1,0 +1,14 @@
+"""rfsafe's thin-wire moment-method solver for HF wire antennas (near-field E and H, impedance, gain).
+
+Public API: the input models (:class:`WireAntennaSpec`, :class:`WireFile`), :func:`solve` and its
+result :class:`WireSolution`. Method: Pocklington's equation with the reduced thin-wire kernel,
+Galerkin testing with piecewise-sinusoidal functions and closed-form filament fields (Richmond's
+reaction method); see :mod:`rfsafe.antenna.wire.solver`.
+"""
+
+from rfsafe.antenna.wire.model import (FeedSpec, PointSpec, WireAntennaSpec, WireFile, WireSpec,
+                                       check_wire_antenna, load_wire_file, validate_wire_antenna)
+from rfsafe.antenna.wire.solver import WireSolution, solve
+
+__all__ = ["WireAntennaSpec", "WireSpec", "FeedSpec", "PointSpec", "WireFile", "WireSolution", "solve",
+           "check_wire_antenna", "validate_wire_antenna", "load_wire_file"]

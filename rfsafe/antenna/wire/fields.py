@@ -1,0 +1,159 @@
+"""Near-field E and H of the solved wire currents, in closed form (no quadrature).
+
+Every segment carries I(z') = [I1 sin k(d - z') + I2 sin kz'] / sin kd; its E and H at any point
+follow from the end currents alone (``kernel.segment_e_terms`` / ``segment_h_terms``, the fields of
+a sinusoidal filament). The sum runs over all segments and, above a perfect ground, their images.
+The exact filament (no reduced kernel) is used: the points must be several radii from the wires.
+
+References
+----------
+J. H. Richmond, NASA CR-2396 (1974), fields of sinusoidal filaments; C. A. Balanis, Antenna Theory,
+3rd ed., Wiley, 2005, Sec. 8.5 (near fields of the sinusoidal-current dipole) and Sec. 4.7 (images).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from rfsafe.antenna.wire.geometry import point_segment_distances
+from rfsafe.antenna.wire.kernel import segment_e_terms, segment_h_terms
+from rfsafe.errors import bad_value
+
+__all__ = ["near_fields", "check_points", "point_cautions", "MIN_POINT_RADII",
+           "NEAR_SEGMENT_WAVELENGTHS"]
+
+#: Points must be at least this many wire radii from the wire axis (thin-wire fields).
+MIN_POINT_RADII = 3.0
+#: Segments within lambda/(2 pi) of a point of interest must be at most lambda/20 (common practice).
+NEAR_SEGMENT_WAVELENGTHS = 0.05
+_CHUNK = 200_000
+
+
+def near_fields(st, k: float, seg_i: np.ndarray, points_m: np.ndarray):
+    """E [V/m] and H [A/m] peak phasors (N, 3) of segment currents ``seg_i`` (Ns, 2) [A peak].
+
+    Parameters
+    ----------
+    st : Structure
+        Segmented structure.
+    k : float
+        Wavenumber [rad/m].
+    seg_i : ndarray (Ns, 2) complex
+        Current at the start and end of each segment, in the segment direction [A peak].
+    points_m : ndarray (N, 3)
+        Observation points [m].
+    """
+    pts = np.asarray(points_m, dtype=float).reshape(-1, 3)
+    e_out = np.zeros(pts.shape, dtype=complex)
+    h_out = np.zeros(pts.shape, dtype=complex)
+    for s0, s1, _r, sign, _d in st.sources():
+        sd = s1 - s0
+        d = np.linalg.norm(sd, axis=1)
+        sdir = sd / d[:, None]
+        i1, i2 = sign * seg_i[:, 0], sign * seg_i[:, 1]
+        tiny = (1e-9 * d) ** 2
+        step = max(1, _CHUNK // len(s0))
+        for a in range(0, len(pts), step):
+            p = pts[a:a + step, None, :]
+            v = p - s0[None]
+            z = np.einsum("nqi,qi->nq", v, sdir)
+            rv = v - z[..., None] * sdir[None]
+            rho2 = np.einsum("nqi,nqi->nq", rv, rv)
+            axis = rho2 <= tiny[None, :]
+            r2 = np.where(axis, 1.0, rho2)
+            ez1, ez2, er1, er2 = segment_e_terms(z, r2, d[None], k)
+            h1, h2 = segment_h_terms(z, r2, d[None], k)
+            ez = ez1 * i1 + ez2 * i2
+            er = np.where(axis, 0.0, er1 * i1 + er2 * i2)
+            hh = np.where(axis, 0.0, h1 * i1 + h2 * i2)
+            e_out[a:a + step] += np.einsum("nq,qi->ni", ez, sdir) + np.einsum("nq,nqi->ni", er, rv)
+            h_out[a:a + step] += np.einsum("nq,nqi->ni", hh, np.cross(sdir[None], rv))
+    return e_out, h_out
+
+
+def _as_points(points_m, field):
+    try:
+        pts = np.asarray(points_m, dtype=float)
+    except (TypeError, ValueError):
+        raise bad_value(field, points_m, "must be an array of [x, y, z] points in metres") from None
+    if pts.ndim == 1 and pts.shape == (3,):
+        pts = pts[None, :]
+    if pts.ndim != 2 or pts.shape[1] != 3:
+        raise bad_value(field, np.shape(points_m), "must have shape (N, 3) (points [x, y, z] in metres)")
+    bad = ~np.all(np.isfinite(pts), axis=1)
+    if np.any(bad):
+        i = int(np.argmax(bad))
+        raise bad_value(f"{field}[{i}]", pts[i].tolist(), "must be finite coordinates in metres")
+    return pts
+
+
+def _nearest(st, pts):
+    """Distance from each point to the nearest wire [m], that segment, and all distances."""
+    dist = point_segment_distances(pts[:, None, :], st.start_m[None], st.end_m[None])
+    q = np.argmin(dist, axis=1)
+    return dist[np.arange(len(pts)), q], q, dist
+
+
+def check_points(sol, points_m, *, field: str = "points_m") -> np.ndarray:
+    """Validate observation points against the method's limits; returns them as (N, 3).
+
+    Raises
+    ------
+    InputError
+        A point below a perfect ground, closer than 3 wire radii to a wire, or within
+        lambda/(2 pi) of a segment longer than lambda/20.
+    """
+    st = sol.structure
+    pts = _as_points(points_m, field)
+    if st.ground and np.any(pts[:, 2] < 0):
+        i = int(np.argmax(pts[:, 2] < 0))
+        raise bad_value(f"{field}[{i}]", pts[i].tolist(), "is below the perfect ground (accepted: z >= 0 m)")
+    if len(pts) == 0:
+        return pts
+    lam = sol.wavelength_m
+    d_near = lam / (2 * math.pi)
+    step = max(1, _CHUNK // st.num_segments)
+    for a in range(0, len(pts), step):
+        p = pts[a:a + step]
+        dmin, q, dist = _nearest(st, p)
+        ratio = dmin / st.radius_m[q]
+        if np.any(ratio < MIN_POINT_RADII):
+            i = int(np.argmax(ratio < MIN_POINT_RADII))
+            w = int(st.wire[q[i]])
+            raise bad_value(f"{field}[{a + i}]", p[i].tolist(),
+                            f"is {dmin[i]:.3g} m from wire {st.wire_labels[w]!r} (radius {st.radius_m[q[i]]:g} m): "
+                            f"accepted: at least {MIN_POINT_RADII:g} wire radii from every wire "
+                            "(thin-wire fields do not hold on or inside a conductor)")
+        long_seg = st.length_m > NEAR_SEGMENT_WAVELENGTHS * lam * (1 + 1e-9)
+        if np.any(long_seg):
+            hit = (dist < d_near) & long_seg[None, :]
+            if np.any(hit):
+                i, qq = map(int, np.argwhere(hit)[0])
+                w = int(st.wire[qq])
+                length = float(st.length_m[qq])
+                need = math.ceil(float(st.length_m[st.wire == w].sum()) / (NEAR_SEGMENT_WAVELENGTHS * lam))
+                raise bad_value(f"{field}[{a + i}]", p[i].tolist(),
+                                f"is within lambda/2pi ({d_near:.3g} m) of wire {st.wire_labels[w]!r}, whose "
+                                f"segments are {length:.3g} m = lambda/{lam / length:.3g} long: accepted: "
+                                f"segments at most lambda/20 ({NEAR_SEGMENT_WAVELENGTHS * lam:.3g} m) near a point "
+                                f"of interest (set {st.wire_fields[w]}.segments >= {need})")
+    return pts
+
+
+def point_cautions(sol, points_m, labels=None) -> tuple[str, ...]:
+    """Cautions for points within one segment length of a wire (the result depends on segmentation)."""
+    st = sol.structure
+    pts = _as_points(points_m, "points_m")
+    if len(pts) == 0:
+        return ()
+    dmin, q, _ = _nearest(st, pts)
+    out = []
+    for i in np.nonzero(dmin < st.length_m[q])[0]:
+        name = labels[i] if labels is not None else f"points_m[{i}]"
+        w = int(st.wire[q[i]])
+        out.append(f"point {name!s} is {dmin[i]:.3g} m from wire {st.wire_labels[w]!r}, closer than one "
+                   f"segment ({st.length_m[q[i]]:.3g} m): the near field there depends on the segmentation; "
+                   "refine the segments and compare")
+    return tuple(out)

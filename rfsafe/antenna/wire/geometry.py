@@ -1,0 +1,395 @@
+"""Segmentation, junctions, images and basis functions of a wire structure.
+
+Each wire is cut into straight segments (at its vertices, at its feed points and by the segment
+rule). A piecewise-sinusoidal basis function spans the two segments on either side of every interior
+node of a wire; where n >= 2 wire ends meet, n - 1 basis functions run from the first wire into each
+of the others, which enforces current continuity (Kirchhoff's current law) at the junction; a wire
+end on a perfectly conducting ground carries a basis function that continues into its image.
+Free ends carry no basis function, so the current vanishes there.
+
+References
+----------
+J. H. Richmond, NASA CR-2396 (1974), piecewise-sinusoidal expansion on wire structures with junctions.
+C. A. Balanis, Antenna Theory, 3rd ed., Wiley, 2005, Sec. 4.7 (ground plane, image theory).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from rfsafe.errors import InputError, bad_value
+
+__all__ = ["Structure", "build_structure", "segment_distances", "point_segment_distances",
+           "DEFAULT_SEGMENTS_PER_WAVELENGTH", "MAX_SEGMENT_WAVELENGTHS", "MIN_SEGMENT_RADII",
+           "JOIN_TOLERANCE_M", "MAX_JUNCTION_RADIUS_RATIO"]
+
+#: Default rule when a wire gives neither ``segments`` nor ``max_segment_m``: lambda/40.
+DEFAULT_SEGMENTS_PER_WAVELENGTH = 40
+#: Longest segment accepted anywhere [wavelengths] (common practice for PWS moment methods).
+MAX_SEGMENT_WAVELENGTHS = 0.1
+#: Shortest segment accepted [wire radii]: below this the thin-wire kernel fails (common practice).
+MIN_SEGMENT_RADII = 4.0
+#: Largest ratio of radii accepted among wires meeting at a junction (see solver.impedance_matrix).
+MAX_JUNCTION_RADIUS_RATIO = 2.0
+#: Wire ends closer than this are joined [m].
+JOIN_TOLERANCE_M = 1e-6
+
+
+@dataclass(frozen=True)
+class Structure:
+    """A segmented wire structure ready for the matrix fill (all lengths in metres)."""
+
+    freq_hz: float
+    wavelength_m: float
+    ground: bool
+    start_m: np.ndarray        # (Ns, 3) segment start points
+    end_m: np.ndarray          # (Ns, 3) segment end points
+    radius_m: np.ndarray       # (Ns,)
+    wire: np.ndarray           # (Ns,) wire index of each segment
+    node1: np.ndarray          # (Ns,) global node id at start
+    node2: np.ndarray          # (Ns,) global node id at end
+    ground_nodes: frozenset    # node ids lying on a perfect ground
+    half_to_basis: np.ndarray  # (2 Ns, Nb): basis current -> half-function amplitude (+-1)
+    feed_coupling: np.ndarray  # (Nf, Nb): current through each feed gap per basis amplitude
+    feed_voltage_v: np.ndarray  # (Nf,) complex source voltages (amplitude, phase)
+    feed_position_m: np.ndarray  # (Nf, 3)
+    wire_labels: tuple[str, ...]
+    wire_fields: tuple[str, ...]
+    distance_m: np.ndarray = field(repr=False)        # (Ns, Ns) real-real segment distances
+    image_distance_m: np.ndarray | None = field(repr=False, default=None)  # (Ns, Ns) real-image
+
+    @property
+    def length_m(self) -> np.ndarray:
+        return np.linalg.norm(self.end_m - self.start_m, axis=1)
+
+    @property
+    def direction(self) -> np.ndarray:
+        return (self.end_m - self.start_m) / self.length_m[:, None]
+
+    @property
+    def num_segments(self) -> int:
+        return self.start_m.shape[0]
+
+    @property
+    def num_unknowns(self) -> int:
+        return self.half_to_basis.shape[1]
+
+    def sources(self):
+        """Source segments: the real ones, then (perfect ground) the images with current sign -1.
+
+        Yields ``(start, end, radius, sign, distance)`` where ``distance`` is the (Ns_test, Ns_src)
+        matrix of test-to-source segment distances.
+        """
+        yield self.start_m, self.end_m, self.radius_m, 1.0, self.distance_m
+        if self.ground:
+            m = np.array([1.0, 1.0, -1.0])
+            yield self.start_m * m, self.end_m * m, self.radius_m, -1.0, self.image_distance_m
+
+
+def point_segment_distances(points, a0, a1):
+    """Distances from points (..., 3) to segments a0->a1 (broadcasting) [m]."""
+    u = a1 - a0
+    uu = np.einsum("...i,...i->...", u, u)
+    w = points - a0
+    t = np.clip(np.einsum("...i,...i->...", w, u) / uu, 0.0, 1.0)
+    return np.linalg.norm(w - t[..., None] * u, axis=-1)
+
+
+def segment_distances(a0, a1, b0, b1) -> np.ndarray:
+    """Shortest distances between segments a (N) and segments b (M) [m], shape (N, M).
+
+    The minimum is reached at an end of one segment or at interior points of both (common
+    perpendicular); all five candidates are evaluated.
+    """
+    A0, A1 = a0[:, None, :], a1[:, None, :]
+    B0, B1 = b0[None, :, :], b1[None, :, :]
+    d = np.minimum.reduce([
+        point_segment_distances(A0, B0, B1), point_segment_distances(A1, B0, B1),
+        point_segment_distances(B0, A0, A1), point_segment_distances(B1, A0, A1)])
+    u, v, w = A1 - A0, B1 - B0, A0 - B0
+    a = np.einsum("...i,...i->...", u, u)
+    b = np.einsum("...i,...i->...", u, v)
+    c = np.einsum("...i,...i->...", v, v)
+    dd = np.einsum("...i,...i->...", u, w)
+    e = np.einsum("...i,...i->...", v, w)
+    den = a * c - b * b
+    ok = den > 1e-12 * a * c
+    with np.errstate(divide="ignore", invalid="ignore"):
+        s = np.where(ok, (b * e - c * dd) / den, -1.0)
+        t = np.where(ok, (a * e - b * dd) / den, -1.0)
+    inside = (s > 0) & (s < 1) & (t > 0) & (t < 1)
+    if np.any(inside):
+        pa = A0 + s[..., None] * u
+        pb = B0 + t[..., None] * v
+        d = np.where(inside, np.linalg.norm(pa - pb, axis=-1), d)
+    return d
+
+
+def _allocate(total: int, lengths: list[float]) -> list[int]:
+    """Split ``total`` segments over pieces in proportion to length, at least one each."""
+    ltot = sum(lengths)
+    n = [max(1, int(math.floor(total * x / ltot))) for x in lengths]
+    while sum(n) < total:
+        i = max(range(len(n)), key=lambda j: lengths[j] / n[j])
+        n[i] += 1
+    while sum(n) > total:
+        i = min((j for j in range(len(n)) if n[j] > 1), key=lambda j: lengths[j] / (n[j] - 1))
+        n[i] -= 1
+    return n
+
+
+def _segment_wire(w, path, feeds_here, wavelength_m):
+    """Node coordinates of one wire and the node index of each feed on it."""
+    pts = np.asarray(w.points_m, dtype=float)
+    piece = np.linalg.norm(np.diff(pts, axis=0), axis=1)
+    cum = np.concatenate([[0.0], np.cumsum(piece)])
+    total = cum[-1]
+    breaks = list(cum)
+    for pos in feeds_here:
+        breaks.append(pos * total)
+    breaks = sorted(breaks)
+    merged = [breaks[0]]
+    for b in breaks[1:]:
+        if b - merged[-1] > JOIN_TOLERANCE_M:
+            merged.append(b)
+    merged[-1] = total
+    sub = [merged[i + 1] - merged[i] for i in range(len(merged) - 1)]
+    if w.segments is not None:
+        if w.segments < len(sub):
+            raise bad_value(f"{path}.segments", w.segments,
+                            f"is too few: the wire has {len(sub)} straight pieces between corners and "
+                            f"feed points (accepted: at least {len(sub)})")
+        counts = _allocate(w.segments, sub)
+    else:
+        max_seg = w.max_segment_m if w.max_segment_m is not None else wavelength_m / DEFAULT_SEGMENTS_PER_WAVELENGTH
+        counts = [max(1, math.ceil(x / max_seg - 1e-9)) for x in sub]
+
+    def at(arc):
+        j = min(int(np.searchsorted(cum, arc, side="right")) - 1, len(piece) - 1)
+        t = (arc - cum[j]) / piece[j]
+        return pts[j] + t * (pts[j + 1] - pts[j])
+
+    arcs = [0.0]
+    for i, n in enumerate(counts):
+        arcs.extend(merged[i] + sub[i] * (np.arange(1, n + 1) / n))
+    arcs = np.asarray(arcs)
+    arcs[-1] = total
+    nodes = np.array([at(a) for a in arcs])
+    for j, c in enumerate(cum):  # vertices exactly as given
+        nodes[int(np.argmin(np.abs(arcs - c)))] = pts[j]
+    feed_nodes = [int(np.argmin(np.abs(arcs - pos * total))) for pos in feeds_here]
+    return nodes, feed_nodes
+
+
+def build_structure(spec, freq_hz: float, feed_wires: tuple[int, ...], *, prefix: str = "",
+                    enforce_limits: bool = True) -> Structure:
+    """Segment the wires of ``spec``, find junctions and build the basis functions.
+
+    Parameters
+    ----------
+    spec : WireAntennaSpec
+        Checked model (see ``check_wire_antenna``).
+    freq_hz : float
+        Frequency [Hz].
+    feed_wires : tuple of int
+        Wire index of each feed.
+    prefix : str
+        Field-path prefix for messages.
+    enforce_limits : bool
+        Refuse segments longer than lambda/10 or shorter than 4 radii (default). Only method
+        validation (e.g. the one-basis induced-EMF check) turns this off; segments must always be
+        shorter than lambda/2.
+
+    Raises
+    ------
+    InputError
+        Segment limits, wires that touch or cross without a junction, feeds on free ends.
+    """
+    from rfsafe.antenna.wire.model import wire_label
+
+    lam = 299_792_458.0 / freq_hz
+    ground = spec.ground == "perfect"
+    labels = tuple(wire_label(spec, i) for i in range(len(spec.wires)))
+    fields = tuple(f"{prefix}wires[{i}]" for i in range(len(spec.wires)))
+
+    wire_nodes, feed_nodes_by_wire = [], []
+    for i, w in enumerate(spec.wires):
+        here = [(f, feed.position) for f, feed in enumerate(spec.feeds) if feed_wires[f] == i]
+        nodes, fn = _segment_wire(w, fields[i], [p for _, p in here], lam)
+        wire_nodes.append(nodes)
+        feed_nodes_by_wire.append(dict(zip([f for f, _ in here], fn)))
+
+    # Global node ids: interior nodes unique, wire ends clustered into junctions.
+    ends = [(i, e, wire_nodes[i][0 if e == 0 else -1]) for i in range(len(wire_nodes)) for e in (0, 1)]
+    cluster = list(range(len(ends)))
+    for a in range(len(ends)):
+        for b in range(a):
+            if np.linalg.norm(ends[a][2] - ends[b][2]) <= JOIN_TOLERANCE_M:
+                cluster[a] = cluster[b]
+                break
+    next_id = max(cluster) + 1
+    node_ids = []
+    for i, nodes in enumerate(wire_nodes):
+        ids = np.empty(len(nodes), dtype=int)
+        ids[0], ids[-1] = cluster[2 * i], cluster[2 * i + 1]
+        for j in range(1, len(nodes) - 1):
+            ids[j] = next_id
+            next_id += 1
+        node_ids.append(ids)
+    ground_nodes = frozenset(cluster[a] for a in range(len(ends)) if ground and abs(ends[a][2][2]) <= JOIN_TOLERANCE_M)
+
+    start, end, radius, wire, n1, n2 = [], [], [], [], [], []
+    first_seg = []
+    for i, nodes in enumerate(wire_nodes):
+        first_seg.append(len(start))
+        for j in range(len(nodes) - 1):
+            start.append(nodes[j]); end.append(nodes[j + 1])
+            radius.append(spec.wires[i].radius_m); wire.append(i)
+            n1.append(node_ids[i][j]); n2.append(node_ids[i][j + 1])
+    start, end = np.array(start), np.array(end)
+    radius, wire = np.array(radius), np.array(wire)
+    n1, n2 = np.array(n1), np.array(n2)
+    ns = len(start)
+    length = np.linalg.norm(end - start, axis=1)
+
+    for i in range(len(spec.wires)):
+        li = length[wire == i]
+        hint = f"{fields[i]}.segments" if spec.wires[i].segments is not None else (
+            f"{fields[i]}.max_segment_m" if spec.wires[i].max_segment_m is not None else f"{fields[i]}.segments")
+        if li.max() >= 0.5 * lam:
+            raise bad_value(hint, spec.wires[i].segments or spec.wires[i].max_segment_m or "default",
+                            f"gives segments of {li.max():.4g} m on wire {labels[i]!r}, at least half a "
+                            f"wavelength ({0.5 * lam:.4g} m): accepted: shorter than lambda/10 = {lam / 10:.4g} m")
+        if not enforce_limits:
+            continue
+        if li.max() > MAX_SEGMENT_WAVELENGTHS * lam * (1 + 1e-9):
+            need = math.ceil(li.sum() / (MAX_SEGMENT_WAVELENGTHS * lam))
+            raise bad_value(hint, spec.wires[i].segments or spec.wires[i].max_segment_m or "default",
+                            f"gives segments of {li.max():.4g} m on wire {labels[i]!r}, longer than "
+                            f"lambda/10 = {lam / 10:.4g} m at {freq_hz / 1e6:g} MHz (accepted: at most "
+                            f"lambda/10, e.g. segments >= {need})")
+        a = spec.wires[i].radius_m
+        if li.min() < MIN_SEGMENT_RADII * a * (1 - 1e-9):
+            raise bad_value(hint, spec.wires[i].segments or spec.wires[i].max_segment_m or "default",
+                            f"gives a segment of {li.min():.4g} m on wire {labels[i]!r}, shorter than "
+                            f"{MIN_SEGMENT_RADII:g} wire radii ({MIN_SEGMENT_RADII * a:.4g} m): the thin-wire "
+                            "kernel does not hold (accepted: segments at least 4 radii long; use fewer "
+                            "segments, move feeds away from corners, or a thinner wire)")
+
+    # Basis functions: lists of (half-function index, sign). Half index 2q = shape 1 (peak at the
+    # start of segment q), 2q + 1 = shape 2 (peak at its end).
+    bases: list[list[tuple[int, float]]] = []
+    interior_basis: dict[tuple[int, int], int] = {}
+    for i, nodes in enumerate(wire_nodes):
+        q0 = first_seg[i]
+        for j in range(1, len(nodes) - 1):
+            interior_basis[(i, j)] = len(bases)
+            bases.append([(2 * (q0 + j - 1) + 1, 1.0), (2 * (q0 + j), 1.0)])
+
+    def end_half(a, toward_node: bool):
+        i, e, _ = ends[a]
+        q = first_seg[i] + (len(wire_nodes[i]) - 2 if e == 1 else 0)
+        h = 2 * q + (1 if e == 1 else 0)
+        # segment direction points toward the node at the wire's last end
+        sign = 1.0 if (e == 1) == toward_node else -1.0
+        return h, sign
+
+    members: dict[int, list[int]] = {}
+    for a in range(len(ends)):
+        members.setdefault(cluster[a], []).append(a)
+    end_bases: dict[int, list[int]] = {a: [] for a in range(len(ends))}
+    for cid, mem in members.items():
+        if cid in ground_nodes:
+            for a in mem:
+                end_bases[a].append(len(bases))
+                bases.append([end_half(a, True)])
+        elif len(mem) >= 2:
+            radii = [spec.wires[ends[a][0]].radius_m for a in mem]
+            if max(radii) > MAX_JUNCTION_RADIUS_RATIO * min(radii) * (1 + 1e-9):
+                i_big = ends[mem[radii.index(max(radii))]][0]
+                i_small = ends[mem[radii.index(min(radii))]][0]
+                raise bad_value(f"{fields[i_big]}.radius_m", max(radii),
+                                f"joins wire {labels[i_small]!r} of radius {min(radii):g} m at "
+                                f"{np.round(ends[mem[0]][2], 4).tolist()}: accepted: radii at a junction within a "
+                                f"factor of {MAX_JUNCTION_RADIUS_RATIO:g} (the thin-wire kernel is unreliable at "
+                                "larger radius steps; use equal radii or step through short intermediate pieces)")
+            u = mem[0]
+            for v in mem[1:]:
+                end_bases[u].append(len(bases)); end_bases[v].append(len(bases))
+                bases.append([end_half(u, True), end_half(v, False)])
+
+    nb = len(bases)
+    p_mat = np.zeros((2 * ns, nb))
+    for m, entries in enumerate(bases):
+        for h, sgn in entries:
+            p_mat[h, m] += sgn
+
+    nf = len(spec.feeds)
+    g = np.zeros((nf, nb))
+    volts = np.zeros(nf, dtype=complex)
+    fpos = np.zeros((nf, 3))
+    for f, feed in enumerate(spec.feeds):
+        i = feed_wires[f]
+        j = feed_nodes_by_wire[i][f]
+        last = len(wire_nodes[i]) - 1
+        fpos[f] = wire_nodes[i][j]
+        volts[f] = feed.amplitude * np.exp(1j * math.radians(feed.phase_deg))
+        if 0 < j < last:
+            g[f, interior_basis[(i, j)]] = 1.0
+            continue
+        a = 2 * i + (0 if j == 0 else 1)
+        if not end_bases[a]:
+            raise bad_value(f"{prefix}feeds[{f}].position", feed.position,
+                            f"is a free end of wire {labels[i]!r}, where no current flows (accepted: "
+                            "0 < position < 1, or an end joined to other wires or touching a perfect ground)")
+        h_end, _ = end_half(a, True)
+        for m in end_bases[a]:
+            for h, sgn in bases[m]:
+                if h == h_end:
+                    g[f, m] = sgn
+    if nb == 0:
+        raise InputError(f"{prefix}wires: the structure carries no current (every wire end is free and "
+                         "no wire has an interior node)")
+
+    # Wires that touch or cross without a junction, and wires touching their ground image.
+    dist = segment_distances(start, end, start, end)
+    share = (n1[:, None] == n1[None, :]) | (n1[:, None] == n2[None, :]) | \
+            (n2[:, None] == n1[None, :]) | (n2[:, None] == n2[None, :])
+    touch = (dist <= radius[:, None] + radius[None, :]) & ~share
+    _report_touch(touch, start, end, wire, labels, fields, dist, "")
+    img_dist = None
+    if ground:
+        m3 = np.array([1.0, 1.0, -1.0])
+        img_dist = segment_distances(start, end, start * m3, end * m3)
+        on_g = np.array([[x in ground_nodes for x in (a, b)] for a, b in zip(n1, n2)])
+        gnode = np.where(on_g[:, 0], n1, np.where(on_g[:, 1], n2, -1))
+        share_img = (gnode[:, None] == gnode[None, :]) & (gnode[:, None] >= 0)
+        touch = (img_dist <= radius[:, None] + radius[None, :]) & ~share_img
+        _report_touch(touch, start, end, wire, labels, fields, img_dist, "image ")
+
+    return Structure(freq_hz=float(freq_hz), wavelength_m=lam, ground=ground, start_m=start, end_m=end,
+                     radius_m=radius, wire=wire, node1=n1, node2=n2, ground_nodes=ground_nodes,
+                     half_to_basis=p_mat, feed_coupling=g, feed_voltage_v=volts, feed_position_m=fpos,
+                     wire_labels=labels, wire_fields=fields, distance_m=dist, image_distance_m=img_dist)
+
+
+def _report_touch(touch, start, end, wire, labels, fields, dist, what):
+    if not np.any(touch):
+        return
+    p, q = map(int, np.argwhere(touch)[0])
+    at = np.round(0.5 * (start[p] + end[p]), 4).tolist()
+    wp, wq = int(wire[p]), int(wire[q])
+    if what:
+        raise bad_value(fields[wp], labels[wp],
+                        f"comes within {dist[p, q]:.3g} m of its ground image near {at} (accepted: ends on "
+                        "the ground at z = 0, or every part more than one radius above ground)")
+    if wp == wq:
+        raise bad_value(fields[wp], labels[wp],
+                        f"touches or crosses itself near {at} (accepted: wires join only at their ends)")
+    raise bad_value(fields[wp], labels[wp],
+                    f"touches or crosses wire {labels[wq]!r} near {at} without a junction (accepted: wires "
+                    "join only where their end points coincide; split a wire at a T-junction, or keep "
+                    "them more than the sum of their radii apart)")

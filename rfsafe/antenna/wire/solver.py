@@ -1,0 +1,407 @@
+"""Thin-wire moment-method solver: Pocklington's equation, Galerkin with piecewise-sinusoidal functions.
+
+The current on the wires is expanded in piecewise-sinusoidal (PWS) basis functions and tested with
+the same functions (Galerkin; Richmond's reaction method). The matrix element between test function
+m and source function n is the reaction
+
+    Z_mn = - int_m I_m(s) s_m . E_n(r_m(s)) ds ,
+
+where E_n is the *closed-form* field of the sinusoidal filament currents of basis n (see
+``kernel``), evaluated with the reduced thin-wire kernel (source on the axis, test point on the
+surface, distances sqrt(rho^2 + a^2)). Only a one-dimensional Gauss-Legendre quadrature along the
+test segment remains, vectorised over all segment pairs; pairs closer than one test-segment length
+use a sinh-mapped rule clustered at the segment ends, where the reduced kernel peaks. A perfectly
+conducting ground at z = 0 is represented by images. Delta-gap sources at nodes give the voltage
+vector V_m = sum_f g_fm V_f, and Z I = V is solved densely.
+
+Pattern and gain come from the radiation integrals of the PWS currents (closed form); the radiated
+power is the integral of the radiation intensity over the sphere (hemisphere above a perfect
+ground), reported against the input power 0.5 Re(sum V I*) as a check of the solution.
+
+References
+----------
+R. F. Harrington, Field Computation by Moment Methods, Macmillan, 1968 (Galerkin method, reaction).
+J. H. Richmond, "Radiation and scattering by thin-wire structures in the complex frequency domain,"
+NASA CR-2396, 1974 (PWS reaction method for wire structures).
+C. A. Balanis, Antenna Theory: Analysis and Design, 3rd ed., Wiley, 2005, Ch. 8 (Pocklington's
+integral equation, reduced kernel, delta-gap source, moment method) and Ch. 4 (pattern, directivity,
+image theory Sec. 4.7).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from rfsafe.antenna.wire.geometry import Structure, build_structure
+from rfsafe.antenna.wire.kernel import (ETA0_OHM, gauss_legendre_01, radiation_integrals,
+                                        segment_e_terms, sinh_rule)
+from rfsafe.errors import bad_value
+
+__all__ = ["WireSolution", "solve", "impedance_matrix"]
+
+C0_M_S = 299_792_458.0
+#: Gauss-Legendre nodes along a test segment for well-separated pairs.
+N_FAR = 8
+#: Nodes per half segment (sinh-mapped) for pairs closer than one test-segment length.
+N_NEAR = 12
+#: Point-pair evaluations per vectorised chunk (memory bound).
+_CHUNK = 250_000
+
+
+def _pair_blocks(x, w, f1, f2, tdir, p1, sdir, d, a2, k):
+    """2x2 reaction blocks -int f_e' s_p . E_e for test points x (..., Q, 3) and broadcast sources."""
+    v = x - p1
+    z = np.einsum("...i,...i->...", v, sdir)
+    rv = v - z[..., None] * sdir
+    rho2 = np.einsum("...i,...i->...", rv, rv) + a2
+    ez1, ez2, er1, er2 = segment_e_terms(z, rho2, d, k, with_charges=True)
+    cos_ps = np.einsum("...i,...i->...", tdir, sdir)
+    t_rho = np.einsum("...i,...i->...", rv, tdir)
+    t1 = ez1 * cos_ps + er1 * t_rho
+    t2 = ez2 * cos_ps + er2 * t_rho
+    wf1, wf2 = w * f1, w * f2
+    out = np.empty(t1.shape[:-1] + (2, 2), dtype=complex)
+    out[..., 0, 0] = -np.sum(wf1 * t1, axis=-1)
+    out[..., 0, 1] = -np.sum(wf1 * t2, axis=-1)
+    out[..., 1, 0] = -np.sum(wf2 * t1, axis=-1)
+    out[..., 1, 1] = -np.sum(wf2 * t2, axis=-1)
+    return out
+
+
+def _test_shapes(s, d, k):
+    sk = np.sin(k * d)
+    return np.sin(k * (d - s)) / sk, np.sin(k * s) / sk
+
+
+def _reaction(st: Structure, k: float, src) -> np.ndarray:
+    """Half-function reaction matrix S[2p+e', 2q+e] for one set of source segments."""
+    s0, s1, srad, sign, dist = src
+    t0, t1 = st.start_m, st.end_m
+    td = t1 - t0
+    tl = np.linalg.norm(td, axis=1)
+    tdir = td / tl[:, None]
+    sd = s1 - s0
+    sl = np.linalg.norm(sd, axis=1)
+    sdir = sd / sl[:, None]
+    ns, nq = len(t0), len(s0)
+    # Reduced-kernel radius of a pair: the harmonic mean of the two radii (see impedance_matrix).
+    a2 = (2.0 / (1.0 / st.radius_m[:, None] + 1.0 / srad[None, :])) ** 2
+    blocks = np.empty((ns, nq, 2, 2), dtype=complex)
+
+    # All pairs with plain Gauss-Legendre, chunked over test segments.
+    xg, wg = gauss_legendre_01(N_FAR)
+    s = tl[:, None] * xg[None, :]
+    w = tl[:, None] * wg[None, :]
+    f1, f2 = _test_shapes(s, tl[:, None], k)
+    x = t0[:, None, :] + s[..., None] * tdir[:, None, :]
+    step = max(1, _CHUNK // (nq * N_FAR))
+    for i in range(0, ns, step):
+        sl_ = slice(i, i + step)
+        blocks[sl_] = _pair_blocks(
+            x[sl_, None], w[sl_, None], f1[sl_, None], f2[sl_, None], tdir[sl_, None, None],
+            s0[None, :, None], sdir[None, :, None], sl[None, :, None], a2[sl_, :, None], k)
+
+    # Near pairs again with the end-clustered rule.
+    ip, iq = np.nonzero(dist < tl[:, None])
+    if len(ip):
+        b = np.sqrt(a2[ip, iq])
+        half = 0.5 * tl[ip]
+        sa, wa = sinh_rule(half, b, N_NEAR)
+        s = np.concatenate([sa, tl[ip, None] - sa], axis=1)
+        w = np.concatenate([wa, wa], axis=1)
+        d_t = tl[ip, None]
+        f1, f2 = _test_shapes(s, d_t, k)
+        x = t0[ip, None, :] + s[..., None] * tdir[ip, None, :]
+        step = max(1, _CHUNK // (2 * N_NEAR))
+        for j in range(0, len(ip), step):
+            sl_ = slice(j, j + step)
+            blocks[ip[sl_], iq[sl_]] = _pair_blocks(
+                x[sl_], w[sl_], f1[sl_], f2[sl_], tdir[ip[sl_], None], s0[iq[sl_], None],
+                sdir[iq[sl_], None], sl[iq[sl_], None], a2[ip[sl_], iq[sl_], None], k)
+    blocks *= sign
+    return blocks.transpose(0, 2, 1, 3).reshape(2 * ns, 2 * nq)
+
+
+def impedance_matrix(st: Structure) -> np.ndarray:
+    """Galerkin impedance matrix Z [ohm] of the structure's basis functions, shape (Nb, Nb).
+
+    Notes
+    -----
+    The reduced kernel uses, for a test segment of radius a_p and a source segment of radius a_q,
+    the distance sqrt(rho^2 + a^2) with a the harmonic mean 2 a_p a_q / (a_p + a_q). On one wire this
+    is the wire radius (the usual reduced kernel); it is symmetric in p and q, so Z is symmetric
+    (reciprocity) and the input power equals the radiated power; and because 1/a is the mean of
+    1/a_p and 1/a_q, the leading term of the end charges of segments of different radii meeting at
+    a junction cancels (the charges themselves are kept in the closed-form fields). At a radius
+    step the computed feed reactance still drifts with the step (a 2:1 step at the base of a
+    ground-plane vertical moves it by about 5 ohm against either uniform radius), so junctions of
+    wires whose radii differ by more than a factor of 2 are refused (``geometry``).
+
+    References
+    ----------
+    Richmond, NASA CR-2396 (1974), reaction between PWS dipoles; Harrington (1968), Sec. 4
+    (Galerkin's method gives a symmetric matrix for a reciprocal medium).
+    """
+    k = 2.0 * math.pi * st.freq_hz / C0_M_S
+    s = sum(_reaction(st, k, src) for src in st.sources())
+    p = st.half_to_basis
+    return p.T @ s @ p
+
+
+def _directions(theta, phi):
+    st = np.sin(theta)
+    return np.stack([st * np.cos(phi), st * np.sin(phi), np.cos(theta)], axis=-1)
+
+
+def _radiation_vector(st: Structure, k: float, seg_i: np.ndarray, rhat: np.ndarray) -> np.ndarray:
+    """N(r_hat) = sum_q s_q int I_q e^{jk r_hat . r'} dz' over segments and images, (ndir, 3) [A m]."""
+    out = np.zeros(rhat.shape[:-1] + (3,), dtype=complex)
+    flat = rhat.reshape(-1, 3)
+    res = out.reshape(-1, 3)
+    for s0, s1, _r, sign, _d in st.sources():
+        sd = s1 - s0
+        d = np.linalg.norm(sd, axis=1)
+        sdir = sd / d[:, None]
+        step = max(1, _CHUNK // len(s0))
+        for i in range(0, len(flat), step):
+            r = flat[i:i + step]
+            alpha = k * (r @ sdir.T)
+            j1, j2 = radiation_integrals(alpha, d[None, :], k)
+            ph = np.exp(1j * k * (r @ s0.T))
+            amp = sign * ph * (seg_i[None, :, 0] * j1 + seg_i[None, :, 1] * j2)
+            res[i:i + step] += amp @ sdir
+    return out
+
+
+def _intensity(st, k, seg_i, rhat):
+    """Radiation intensity U(r_hat) [W/sr] for the solved currents (peak phasors)."""
+    n = _radiation_vector(st, k, seg_i, rhat)
+    n_perp = n - rhat * np.einsum("...i,...i->...", rhat, n)[..., None]
+    return ETA0_OHM * k * k / (32.0 * math.pi ** 2) * np.einsum("...i,...i->...", n_perp, n_perp.conj()).real
+
+
+@dataclass(frozen=True)
+class WireSolution:
+    """Solved currents of a wire antenna and the quantities derived from them.
+
+    Per-unit-excitation quantities refer to the feeds driven with their ``amplitude`` [V peak] and
+    ``phase_deg``; field methods rescale to a stated power delivered to the antenna.
+    """
+
+    freq_hz: float
+    ground: str
+    num_segments: int
+    num_unknowns: int
+    feed_impedance_ohm: tuple[complex, ...]   # per feed, V/I at the gap (active impedance)
+    feed_voltage_v: tuple[complex, ...]       # per feed, excitation [V peak]
+    feed_current_a: tuple[complex, ...]       # per feed, for that excitation [A peak]
+    input_power_w: float                      # 0.5 Re sum V I* for that excitation [W]
+    radiated_power_w: float                   # integral of the far-field intensity [W]
+    radiated_over_input_power: float
+    gain_dbi: float                           # peak gain [dBi] (over a perfect ground: full-space isotropic)
+    peak_azimuth_deg: float                   # compass bearing of the peak, clockwise from north
+    peak_elevation_deg: float                 # elevation of the peak above horizontal
+    front_to_back_db: float                   # peak gain minus the gain at azimuth + 180 deg, same elevation
+    basis_current_a: np.ndarray = field(repr=False)    # (Nb,) complex
+    segment_current_a: np.ndarray = field(repr=False)  # (Ns, 2) current at segment start/end [A peak]
+    structure: Structure = field(repr=False)
+    impedance_matrix_ohm: np.ndarray = field(repr=False)
+
+    @property
+    def wavelength_m(self) -> float:
+        return C0_M_S / self.freq_hz
+
+    @property
+    def k(self) -> float:
+        return 2.0 * math.pi * self.freq_hz / C0_M_S
+
+    def power_scale(self, input_power_w: float, *, field: str = "input_power_w") -> float:
+        """Amplitude factor taking the unit excitation to ``input_power_w`` delivered [W]."""
+        if not (isinstance(input_power_w, (int, float)) and math.isfinite(input_power_w) and input_power_w > 0):
+            raise bad_value(field, input_power_w, "must be a finite power > 0 W")
+        return math.sqrt(input_power_w / self.input_power_w)
+
+    def port_impedance_matrix_ohm(self) -> np.ndarray:
+        """Impedance matrix between the feed gaps [ohm], shape (Nf, Nf).
+
+        Z_port = (G Z^-1 G^T)^-1 with G the gap-to-basis coupling: the open-circuit network seen at
+        the feeds (self impedances on the diagonal, mutual impedances off it).
+        """
+        g = self.structure.feed_coupling
+        return np.linalg.inv(g @ np.linalg.solve(self.impedance_matrix_ohm, g.T))
+
+    def gain_dbi_toward(self, azimuth_deg, elevation_deg) -> np.ndarray:
+        """Gain [dBi] toward compass bearing(s) ``azimuth_deg`` and elevation(s) ``elevation_deg``.
+
+        Over a perfect ground the gain below the horizon is -inf (no field there).
+        """
+        az = np.radians(np.asarray(azimuth_deg, dtype=float))
+        el = np.radians(np.asarray(elevation_deg, dtype=float))
+        az, el = np.broadcast_arrays(az, el)
+        theta, phi = 0.5 * math.pi - el, 0.5 * math.pi - az
+        u = _intensity(self.structure, self.k, self.segment_current_a, _directions(theta, phi))
+        with np.errstate(divide="ignore"):
+            g = 10.0 * np.log10(4.0 * math.pi * u / self.input_power_w)
+        if self.ground == "perfect":
+            g = np.where(el < 0, -np.inf, g)
+        return g
+
+    def fields_phasor(self, points_m, input_power_w: float, *, field: str = "points_m"):
+        """Complex near-field phasors at points for ``input_power_w`` delivered to the antenna.
+
+        Parameters
+        ----------
+        points_m : array_like (N, 3)
+            Observation points in the station frame [m].
+        input_power_w : float
+            Power delivered to the antenna terminals [W].
+        field : str
+            Field path used in error messages.
+
+        Returns
+        -------
+        e_v_m, h_a_m : ndarray (N, 3) complex
+            E [V/m] and H [A/m] as peak-amplitude phasors (x, y, z components).
+
+        Raises
+        ------
+        InputError
+            Points closer than 3 wire radii to a wire, below a perfect ground, or near segments
+            longer than lambda/20 (see ``fields.check_points``).
+        """
+        from rfsafe.antenna.wire.fields import check_points, near_fields
+
+        pts = check_points(self, points_m, field=field)
+        e, h = near_fields(self.structure, self.k, self.segment_current_a, pts)
+        scale = self.power_scale(input_power_w)
+        return e * scale, h * scale
+
+    def fields_rms(self, points_m, input_power_w: float, *, field: str = "points_m"):
+        """RMS field strengths at points for ``input_power_w`` delivered to the antenna.
+
+        Returns
+        -------
+        e_field_v_m, h_field_a_m : ndarray (N,)
+            sqrt(sum |E_i|^2 / 2) [V/m rms] and the same for H [A/m rms].
+        """
+        e, h = self.fields_phasor(points_m, input_power_w, field=field)
+        return (np.sqrt(0.5 * np.sum(np.abs(e) ** 2, axis=-1)),
+                np.sqrt(0.5 * np.sum(np.abs(h) ** 2, axis=-1)))
+
+    def point_cautions(self, points_m, labels=None) -> tuple[str, ...]:
+        """Method-limit cautions for points (closer to a wire than one segment length)."""
+        from rfsafe.antenna.wire.fields import point_cautions
+
+        return point_cautions(self, points_m, labels)
+
+
+def _peak_search(st, k, seg_i, theta0, phi0, dth, dph, tmax):
+    th, ph = theta0, phi0
+    best = _intensity(st, k, seg_i, _directions(np.array(th), np.array(ph)))
+    for _ in range(40):
+        tt = np.clip(th + dth * np.array([-1, -1, -1, 0, 0, 1, 1, 1]), 0.0, tmax)
+        pp = ph + dph * np.array([-1, 0, 1, -1, 1, -1, 0, 1])
+        u = _intensity(st, k, seg_i, _directions(tt, pp))
+        j = int(np.argmax(u))
+        if u[j] > best * (1 + 1e-12):
+            best, th, ph = u[j], tt[j], pp[j]
+        else:
+            dth, dph = 0.5 * dth, 0.5 * dph
+            if dth < 1e-5:
+                break
+    return float(best), float(th), float(ph)
+
+
+def solve(spec, freq_hz: float, *, field_prefix: str = "", enforce_limits: bool = True) -> WireSolution:
+    """Solve a wire antenna at one frequency.
+
+    Parameters
+    ----------
+    spec : WireAntennaSpec
+        Wire geometry (a ``WireFile`` works too; its frequency is not used here).
+    freq_hz : float
+        Frequency [Hz].
+    field_prefix : str
+        Field-path prefix for error messages (e.g. ``"antennas[2].wire."``).
+    enforce_limits : bool
+        Refuse segmentations outside the method's limits (default True). Turn off only for method
+        validation (a single basis function per dipole).
+
+    Returns
+    -------
+    WireSolution
+
+    Raises
+    ------
+    InputError
+        Bad geometry or segmentation, each naming the field, the value and what is accepted.
+
+    References
+    ----------
+    Richmond, NASA CR-2396 (1974); Harrington (1968); Balanis, Antenna Theory, 3rd ed., Ch. 8.
+    """
+    from rfsafe.antenna.wire.model import check_wire_antenna
+
+    if not (isinstance(freq_hz, (int, float)) and math.isfinite(freq_hz) and freq_hz > 0):
+        raise bad_value(f"{field_prefix}freq_hz", freq_hz, "must be a finite frequency > 0 Hz")
+    feed_wires = check_wire_antenna(spec, prefix=field_prefix)
+    st = build_structure(spec, float(freq_hz), feed_wires, prefix=field_prefix, enforce_limits=enforce_limits)
+    k = 2.0 * math.pi * st.freq_hz / C0_M_S
+    z = impedance_matrix(st)
+    g = st.feed_coupling
+    v = g.T @ st.feed_voltage_v
+    c = np.linalg.solve(z, v)
+    i_feed = g @ c
+    zin = st.feed_voltage_v / i_feed
+    p_in = 0.5 * float(np.real(np.sum(st.feed_voltage_v * np.conj(i_feed))))
+    halves = st.half_to_basis @ c
+    seg_i = halves.reshape(-1, 2)
+
+    # Radiated power: Gauss-Legendre in cos(theta), trapezoid in phi (periodic).
+    pts = np.concatenate([st.start_m, st.end_m])
+    if st.ground:
+        pts = np.concatenate([pts, pts * np.array([1.0, 1.0, -1.0])])
+    size = float(np.max(np.linalg.norm(pts[:, None, :] - pts[None, :, :], axis=-1))) if len(pts) < 3000 else \
+        float(np.linalg.norm(pts.max(0) - pts.min(0)))
+    n_t = int(k * size) + 24
+    n_p = 2 * int(k * size) + 36
+    xg, wg = gauss_legendre_01(n_t)
+    if st.ground:
+        mu, wmu = xg, wg            # cos(theta) in [0, 1]
+        tmax = 0.5 * math.pi
+    else:
+        mu, wmu = 2 * xg - 1, 2 * wg  # [-1, 1]
+        tmax = math.pi
+    theta = np.arccos(mu)
+    phi = 2 * math.pi * np.arange(n_p) / n_p
+    th, ph = np.meshgrid(theta, phi, indexing="ij")
+    u = _intensity(st, k, seg_i, _directions(th, ph))
+    p_rad = float(np.sum(u * wmu[:, None]) * 2 * math.pi / n_p)
+
+    # Peak: best grid points refined by a shrinking pattern search.
+    dth, dph = math.pi / n_t, 2 * math.pi / n_p
+    order = np.argsort(u, axis=None)[::-1][:3]
+    best = (-1.0, 0.0, 0.0)
+    for flat in order:
+        it, ip = np.unravel_index(flat, u.shape)
+        cand = _peak_search(st, k, seg_i, th[it, ip], ph[it, ip], dth, dph, tmax)
+        if cand[0] > best[0]:
+            best = cand
+    u_max, t_best, p_best = best
+    gain = 10 * math.log10(4 * math.pi * u_max / p_in)
+    el = 90.0 - math.degrees(t_best)
+    az = round(90.0 - math.degrees(p_best), 6) % 360.0 if abs(el) < 89.999 else 0.0  # undefined at zenith
+    u_back = _intensity(st, k, seg_i, _directions(np.array(t_best), np.array(p_best + math.pi)))
+    fb = 10 * math.log10(u_max / float(u_back)) if u_back > 0 else math.inf
+
+    return WireSolution(
+        freq_hz=st.freq_hz, ground=spec.ground, num_segments=st.num_segments, num_unknowns=st.num_unknowns,
+        feed_impedance_ohm=tuple(complex(x) for x in zin),
+        feed_voltage_v=tuple(complex(x) for x in st.feed_voltage_v),
+        feed_current_a=tuple(complex(x) for x in i_feed),
+        input_power_w=p_in, radiated_power_w=p_rad, radiated_over_input_power=p_rad / p_in,
+        gain_dbi=gain, peak_azimuth_deg=az, peak_elevation_deg=el, front_to_back_db=fb,
+        basis_current_a=c, segment_current_a=seg_i, structure=st, impedance_matrix_ohm=z)
