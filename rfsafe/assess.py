@@ -408,21 +408,66 @@ def emitters(loaded: LoadedStation) -> list[Emitter]:
     return [_configuration(loaded, i, c, gf)[1] for i, c in enumerate(loaded.model.configurations)]
 
 
-def _exemption(st: Station, configs, places):
-    if st.standard != "fcc":
+def _segments_distance_m(points: np.ndarray, segments) -> float:
+    """Smallest distance [m] from any point to any straight segment (a, b)."""
+    best = np.inf
+    for a, b in segments:
+        a, b = np.asarray(a, dtype=float), np.asarray(b, dtype=float)
+        ab = b - a
+        t = np.clip(((points - a) @ ab) / (ab @ ab), 0.0, 1.0) if ab @ ab > 0 else np.zeros(len(points))
+        best = min(best, float(np.linalg.norm(points - (a + t[:, None] * ab), axis=1).min()))
+    return best
+
+
+def _separation_m(loaded: LoadedStation, ant: Antenna, freq_hz: float, places) -> tuple[float, str]:
+    """Smallest distance from a person to the radiating structure, and how it was found.
+
+    47 CFR 1.1307(b)(3) measures R from any part of the radiating structure; the declared position is
+    the centre of radiation, so the structure's extent is used where it is known.
+    """
+    from rfsafe.units import wavelength_m
+
+    pts = np.array([(p.x_m, p.y_m, z) for p in places for z in _heights(p)], dtype=float)
+    if ant.kind == "wire":
+        segs = [(a, b) for w in loaded.wire_specs[ant.id].wires for a, b in zip(w.points_m[:-1], w.points_m[1:])]
+        return _segments_distance_m(pts, segs), "nearest point of the wire geometry"
+    centre = np.array([ant.x_m, ant.y_m, ant.height_m])
+    lam = wavelength_m(freq_hz)
+    half = {"half-wave-dipole": lam / 4, "quarter-wave-vertical": lam / 8, "short-dipole": lam / 20}.get(ant.kind)
+    if half is not None:
+        if ant.polarisation == "vertical" or ant.kind == "quarter-wave-vertical":
+            axis = np.array([0.0, 0.0, 1.0])
+        else:  # a horizontal dipole's wire runs broadside to its azimuth
+            az = math.radians(ant.azimuth_deg + 90.0)
+            axis = np.array([math.sin(az), math.cos(az), 0.0])
+        seg = (centre - half * axis, centre + half * axis)
+        return _segments_distance_m(pts, [seg]), f"nearest point of a {ant.kind} of textbook length"
+    r = float(np.linalg.norm(pts - centre, axis=1).min())
+    if ant.aperture_m is not None:
+        return max(r - ant.aperture_m / 2, 1e-3), "centre distance less half the declared aperture_m"
+    return r, ("distance to the declared antenna position: declare aperture_m (largest dimension) so that "
+               "the nearest part of the antenna is used, as the rule requires")
+
+
+def _exemption(loaded: LoadedStation, configs, places):
+    st = loaded.model
+    if st.standard != "fcc" or not places:
         return None
     from rfsafe.limits.exemption import ExemptionSource, fcc_exemption
 
     sources = []
+    notes: list[str] = []
     for c in configs:
         ant = next(a for a in st.antennas if a.id == c.antenna)
-        dists = [math.dist((p.x_m, p.y_m, p.height_m), (ant.x_m, ant.y_m, ant.height_m)) for p in places]
-        if not dists:
-            continue
+        sep, how = _separation_m(loaded, ant, c.freq_mhz * 1e6, places)
+        notes.append(f"{c.id}: separation {sep:.2f} m, {how}")
         sources.append(ExemptionSource(label=c.id, freq_hz=c.freq_mhz * 1e6,
                                        avg_power_w=max(c.avg_power_at_antenna_w.values()),
-                                       gain_dbi=c.gain_dbi, separation_m=min(dists)))
-    return fcc_exemption(sources) if sources else None
+                                       gain_dbi=c.gain_dbi, separation_m=sep))
+    import dataclasses
+
+    result = fcc_exemption(sources)
+    return dataclasses.replace(result, assumptions=tuple(result.assumptions) + tuple(notes))
 
 
 def assess(loaded: LoadedStation, *, today: dt.date | None = None) -> EvaluationResult:
@@ -460,7 +505,7 @@ def assess(loaded: LoadedStation, *, today: dt.date | None = None) -> Evaluation
             environment=place.environment, environment_label=info.environment_labels[place.environment],
             exposures=exposures, total_ratio=total, total_margin_db=float(ex.margin_db(total)),
             total_rule=rule, contributions=shares, verdict=verdict, flags=flags))
-    exemption = _exemption(st, configs, st.places)
+    exemption = _exemption(loaded, configs, st.places)
     if st.evaluation_date is not None:
         date, date_src = st.evaluation_date.isoformat(), "file"
     else:
