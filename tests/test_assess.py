@@ -210,3 +210,19 @@ def test_tuner_needs_the_load_impedance(tmp_path):
     assert result.exit_code == 2
     assert result.stderr.strip() == ("Error: configurations[0].tuner: a tuner needs the antenna's impedance "
                                      "(give load_r_ohm and load_x_ohm instead of swr)")
+
+
+def test_exemption_uses_the_nearest_part_of_the_antenna(tmp_path):
+    # 47 CFR 1.1307(b)(3): R is measured from any part of the radiating structure. The dipole is
+    # at the origin, 10 m up, azimuth 0, so its wire runs east-west for lambda/4 = 5.28 m each side at
+    # 14.2 MHz; the shack at x = 3 m, 1.5 m up, is then 8.5 m from the wire right above it.
+    res = _station(tmp_path, BASE)
+    assert res.exemption is not None
+    note = next(a for a in res.exemption.assumptions if a.startswith("hf: separation"))
+    assert note.startswith("hf: separation 8.50 m, nearest point of a half-wave-dipole")
+    assert "never removes the duty to comply" in res.exemption.note or "duty" in res.exemption.note
+
+
+def test_no_exemption_outside_fcc(tmp_path):
+    res = _station(tmp_path, BASE.replace('standard = "fcc"', 'standard = "icnirp2020"'))
+    assert res.exemption is None
