@@ -76,7 +76,7 @@ def register_fonts() -> None:
 def styles() -> dict[str, ParagraphStyle]:
     """The paragraph styles of rfsafe documents, keyed by role."""
     register_fonts()
-    base = ParagraphStyle("body", fontName=FONT, fontSize=9, leading=11.5, spaceAfter=3)
+    base = ParagraphStyle("body", fontName=FONT, bulletFontName=FONT, fontSize=9, leading=11.5, spaceAfter=3)
     s = {
         "body": base,
         "title": ParagraphStyle("title", parent=base, fontName=FONT_BOLD, fontSize=17, leading=21,
@@ -165,6 +165,7 @@ def dist_text(dist_m, dist_ft=None) -> str:
 def table_style(*, n_rows: int, header_rows: int = 1, zebra: bool = True, extra=()) -> TableStyle:
     """The one table look: dark header, thin grid, zebra body rows, top-aligned cells."""
     cmds = [
+        ("FONTNAME", (0, 0), (-1, -1), FONT),
         ("BACKGROUND", (0, 0), (-1, header_rows - 1), ACCENT),
         ("VALIGN", (0, 0), (-1, -1), "TOP"),
         ("GRID", (0, 0), (-1, -1), 0.35, GRID),
@@ -267,6 +268,7 @@ def kv_table(pairs, col_widths) -> Table:
     data = [[_cell(k, "kv_key"), _cell(v, "kv_value")] for k, v in pairs]
     t = Table(data, colWidths=list(col_widths), hAlign="LEFT")
     t.setStyle(TableStyle([
+        ("FONTNAME", (0, 0), (-1, -1), FONT),
         ("VALIGN", (0, 0), (-1, -1), "TOP"),
         ("LINEBELOW", (0, 0), (-1, -1), 0.25, GRID),
         ("LEFTPADDING", (0, 0), (-1, -1), 2),
@@ -292,6 +294,7 @@ def verdict_box(verdict: str, detail: str, width: float) -> Table:
     big = ParagraphStyle("verdict_fit", parent=base, fontSize=size, leading=size * 1.2)
     t = Table([[Paragraph(escape(word), big)], [p(detail, "verdict_detail")]], colWidths=[width], hAlign="LEFT")
     t.setStyle(TableStyle([
+        ("FONTNAME", (0, 0), (-1, -1), FONT),
         ("BACKGROUND", (0, 0), (-1, -1), COMPLIES_COLOR if ok else EXCEEDS_COLOR),
         ("TOPPADDING", (0, 0), (-1, 0), 6),
         ("BOTTOMPADDING", (0, 0), (-1, 0), 2),
@@ -313,7 +316,7 @@ def identity_block(*, title: str, subtitle: str | None, rows, verdict: str, verd
     ident = kv_table(rows, [36 * mm, width - box_w - gap - 36 * mm])
     box = verdict_box(verdict, verdict_detail, box_w)
     outer = Table([[ident, "", box]], colWidths=[width - box_w - gap, gap, box_w], hAlign="LEFT")
-    outer.setStyle(TableStyle([("VALIGN", (0, 0), (-1, -1), "TOP"),
+    outer.setStyle(TableStyle([("FONTNAME", (0, 0), (-1, -1), FONT), ("VALIGN", (0, 0), (-1, -1), "TOP"),
                                ("LEFTPADDING", (0, 0), (-1, -1), 0), ("RIGHTPADDING", (0, 0), (-1, -1), 0),
                                ("TOPPADDING", (0, 0), (-1, -1), 0), ("BOTTOMPADDING", (0, 0), (-1, -1), 0)]))
     out += [outer, Spacer(1, 4 * mm)]
@@ -369,6 +372,7 @@ def signoff_block(width: float, *, evaluator: str = "", date: str = "") -> Table
     data = row("Evaluated by (name)", evaluator, date) + row("Reviewed by (name)", "", "")
     t = Table(data, colWidths=cols, rowHeights=[None, line_h, None, line_h], hAlign="LEFT")
     t.setStyle(TableStyle([
+        ("FONTNAME", (0, 0), (-1, -1), FONT),
         ("VALIGN", (0, 0), (-1, -1), "TOP"),
         ("LINEBELOW", (0, 1), (-1, 1), 0.8, colors.black),
         ("LINEBELOW", (0, 3), (-1, 3), 0.8, colors.black),
@@ -441,7 +445,7 @@ def build_pdf(story, *, title: str, author: str, subject: str, date_iso: str, he
     doc = BaseDocTemplate(buf, pagesize=PAGE, title=title, author=author, subject=subject,
                           creator="rfsafe", keywords=list(keywords), invariant=1,
                           leftMargin=MARGIN, rightMargin=MARGIN, topMargin=MARGIN + _HEADER_GAP / 2,
-                          bottomMargin=MARGIN, lang="en")
+                          bottomMargin=MARGIN, lang="en", initialFontName=FONT, initialFontSize=9)
     templates = []
     for name, size in (("portrait", PAGE), ("landscape", PAGE_LANDSCAPE)):
         frame = Frame(MARGIN, MARGIN, size[0] - 2 * MARGIN, size[1] - 2 * MARGIN - _HEADER_GAP / 2,

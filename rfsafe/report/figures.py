@@ -18,9 +18,9 @@ from reportlab.lib.units import mm
 from reportlab.platypus import Table, TableStyle
 
 from rfsafe.report.common import FONT, GRID
-from rfsafe.report.plots import PALETTE, Axes, linear_ticks, log_range
+from rfsafe.report.plots import PALETTE, Axes, linear_ticks, log_range, new_drawing
 
-__all__ = ["exposure_distance_figure", "exposure_legend", "line_profile_figure", "figure_grid",
+__all__ = ["exposure_distance_figure", "exposure_plot_ranges", "exposure_legend", "line_profile_figure", "figure_grid",
            "ENV_DASH", "ENV_SHAPE"]
 
 ENV_DASH = {"controlled": (4, 2), "uncontrolled": None}
@@ -32,7 +32,32 @@ def _curve(d_c: float, r: float) -> float:
     return (d_c / r) ** 2
 
 
-def exposure_distance_figure(cfg, places, *, width: float, height: float, place_numbers: dict) -> Drawing:
+def exposure_plot_ranges(cfg, places) -> tuple[tuple[float, float], tuple[float, float]]:
+    """Decade-aligned distance [m] and ratio ranges of a configuration's exposure figure.
+
+    Distances cover the compliance distances, the near-field boundary and every place (at least
+    two decades); ratios cover 0.01 to 10 and every place's ratio, at most seven decades.
+    """
+    dist = [c.dist_m for c in cfg.compliance_distances if c.dist_m > 0]
+    boundary = max(cfg.near_field_distance_m, cfg.aperture_far_field_m or 0.0)
+    xs, ys = dist + [boundary], [1.0]
+    for pl in places:
+        for x in pl.exposures:
+            if x.configuration == cfg.id:
+                xs.append(x.dist_m)
+                if x.exposure_ratio > 0:
+                    ys.append(x.exposure_ratio)
+    xlim = log_range(xs)
+    if xlim[1] / xlim[0] < 100:          # at least two decades so the 1/R^2 slope reads clearly
+        xlim = (xlim[0], xlim[0] * 100)
+    ylim = log_range(ys)
+    ylim = (min(ylim[0], 0.01), max(ylim[1], 10.0))
+    if ylim[1] / ylim[0] > 10 ** _MAX_DECADES_Y:
+        ylim = (ylim[1] / 10 ** _MAX_DECADES_Y, ylim[1])
+    return xlim, ylim
+
+
+def exposure_distance_figure(cfg, places, *, width: float, height: float, place_numbers: dict):
     """Exposure ratio versus distance for one configuration (log-log).
 
     Parameters
@@ -45,8 +70,13 @@ def exposure_distance_figure(cfg, places, *, width: float, height: float, place_
         Drawing size [pt].
     place_numbers : dict
         Place label -> marker label (e.g. ``"P1"``), as used in the places table.
+
+    Returns
+    -------
+    (Drawing, str)
+        The figure and its caption text (the compliance distances and the near-field boundary).
     """
-    d = Drawing(width, height)
+    d = new_drawing(width, height)
     dist = {c.environment: c.dist_m for c in cfg.compliance_distances}
     boundary = max(cfg.near_field_distance_m, cfg.aperture_far_field_m or 0.0)
     points = []
@@ -55,15 +85,7 @@ def exposure_distance_figure(cfg, places, *, width: float, height: float, place_
             if x.configuration == cfg.id:
                 points.append((x.dist_m, x.exposure_ratio, pl.environment, place_numbers[pl.label],
                                x.inside_near_field))
-    xs = [v for v in dist.values() if v > 0] + [boundary] + [pt[0] for pt in points]
-    xlim = log_range(xs)
-    if xlim[1] / xlim[0] < 100:          # at least two decades so the 1/R^2 slope reads clearly
-        xlim = (xlim[0], xlim[0] * 100)
-    ys = [1.0] + [pt[1] for pt in points if pt[1] > 0]
-    ylim = log_range(ys)
-    ylim = (min(ylim[0], 0.01), max(ylim[1], 10.0))
-    if ylim[1] / ylim[0] > 10 ** _MAX_DECADES_Y:
-        ylim = (ylim[1] / 10 ** _MAX_DECADES_Y, ylim[1])
+    xlim, ylim = exposure_plot_ranges(cfg, places)
     left, bottom, top, right = 40, 24, 14, 6
     ax = Axes(d, left, bottom, width - left - right, height - bottom - top, xlim=xlim, ylim=ylim,
               xlog=True, ylog=True)
@@ -76,20 +98,19 @@ def exposure_distance_figure(cfg, places, *, width: float, height: float, place_
             continue
         ax.segment(xlim[0], _curve(dist[env], xlim[0]), xlim[1], _curve(dist[env], xlim[1]),
                    color=PALETTE[env], width=1.1, dash=ENV_DASH[env])
-    # compliance distances: a dotted line down from the limit line, labelled at its foot (the region
-    # below the limit line and left of the curves is empty: the curves fall to the right)
-    for k, env in enumerate(("controlled", "uncontrolled")):
+    # compliance distances: a dotted line down from the limit line (values in the caption)
+    for env in ("controlled", "uncontrolled"):
         if env in dist and xlim[0] <= dist[env] <= xlim[1]:
-            X = ax.px(dist[env])
             ax.segment(dist[env], ylim[0], dist[env], 1.0, color=PALETTE[env], width=0.6, dash=(1, 1.5))
-            ax.text(X + 1.5, ax.y0 + 2.5 + k * (ax.font_size + 2), f"{env} {dist[env]:.2f} m",
-                    color=PALETTE[env], bold=True)
     labels = []
     for r, ratio, env, label, _nf in points:
         X, Y = ax.marker(r, ratio, shape=ENV_SHAPE[env], color=PALETTE[env])
         labels.append((X, Y, label, PALETTE[env]))
     ax.point_labels(labels)
-    return d
+    parts = [f"{env} {dist[env]:.2f} m" for env in ("controlled", "uncontrolled") if env in dist]
+    caption = (f"Compliance distance (dotted): {', '.join(parts)}. Shaded: inside {boundary:.2f} m "
+               f"({'2D²/λ' if boundary > cfg.near_field_distance_m else 'λ/2π'}).")
+    return d, caption
 
 
 def exposure_legend(width: float) -> Drawing:
@@ -105,7 +126,7 @@ def exposure_legend(width: float) -> Drawing:
     ]
     col_w = width / 2
     h = 36
-    d = Drawing(width, h)
+    d = new_drawing(width, h)
     for i, (kind, color, dash, label) in enumerate(entries):
         x = (i % 2) * col_w
         y = h - 8 - (i // 2) * 11
@@ -134,7 +155,7 @@ def line_profile_figure(cfg, *, width: float, height: float):
         The figure and its caption text.
     """
     line = cfg.line
-    d = Drawing(width, height)
+    d = new_drawing(width, height)
     pos = [float(v) for v in line.profile_position_m]
     volt = [float(v) for v in line.profile_voltage_v_peak]
     cur = [float(v) for v in line.profile_current_a_peak]
@@ -195,7 +216,7 @@ def figure_grid(drawings, width: float, *, columns: int = 2) -> Table:
     if rows and len(rows[-1]) < columns:
         rows[-1] += [""] * (columns - len(rows[-1]))
     t = Table(rows, colWidths=[width / columns] * columns, hAlign="LEFT")
-    t.setStyle(TableStyle([("VALIGN", (0, 0), (-1, -1), "TOP"), ("LEFTPADDING", (0, 0), (-1, -1), 0),
+    t.setStyle(TableStyle([("FONTNAME", (0, 0), (-1, -1), FONT), ("VALIGN", (0, 0), (-1, -1), "TOP"), ("LEFTPADDING", (0, 0), (-1, -1), 0),
                            ("RIGHTPADDING", (0, 0), (-1, -1), 2 * mm), ("TOPPADDING", (0, 0), (-1, -1), 0),
                            ("BOTTOMPADDING", (0, 0), (-1, -1), 3 * mm)]))
     return t

@@ -16,7 +16,7 @@ from reportlab.pdfbase.pdfmetrics import stringWidth
 
 from rfsafe.report.common import FONT, FONT_BOLD, GRID, register_fonts
 
-__all__ = ["Axes", "decade_label", "log_range", "linear_ticks", "PALETTE"]
+__all__ = ["Axes", "new_drawing", "decade_label", "log_range", "linear_ticks", "PALETTE"]
 
 #: Line colours (distinguishable in grey print too, with the dash patterns used beside them).
 PALETTE = {
@@ -32,6 +32,12 @@ PALETTE = {
 }
 
 _SUPERSCRIPT = str.maketrans("-0123456789", "⁻⁰¹²³⁴⁵⁶⁷⁸⁹")
+
+
+def new_drawing(width: float, height: float) -> Drawing:
+    """A Drawing whose default font is the embedded DejaVu Sans (reportlab's default is Helvetica)."""
+    register_fonts()
+    return Drawing(width, height, initialFontName=FONT, initialFontSize=7)
 
 
 def decade_label(exponent: int) -> str:
@@ -228,11 +234,11 @@ class Axes:
         if label:
             fs = self.font_size
             ty = Y + 1.5 if above else Y - fs - 0.5
-            if label_side == "right":
-                self.d.add(String(self.x0 + self.w - 2, ty, label, fontName=FONT, fontSize=fs, fillColor=color,
-                                  textAnchor="end"))
-            else:
-                self.d.add(String(self.x0 + 2, ty, label, fontName=FONT, fontSize=fs, fillColor=color))
+            tw = stringWidth(label, FONT, fs)
+            tx = self.x0 + self.w - 2 - tw if label_side == "right" else self.x0 + 2
+            # white backing keeps the label readable over grid lines
+            self.d.add(Rect(tx - 1, ty - 1.6, tw + 2, fs + 1.2, fillColor=colors.white, strokeColor=None))
+            self.d.add(String(tx, ty, label, fontName=FONT, fontSize=fs, fillColor=color))
 
     def vline(self, xv, *, color, width=0.6, dash=None):
         if not (self.xlim[0] <= xv <= self.xlim[1]):

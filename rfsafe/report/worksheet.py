@@ -94,8 +94,9 @@ def _identity(res, width) -> list:
     ]
     if res.exemption is not None:
         ex = res.exemption
-        rows.append(("47 CFR 1.1307(b)(3)", ("EXEMPT from routine evaluation" if ex.exempt else
-                                              "NOT EXEMPT: evaluation required") + f" ({ex.criterion})"))
+        rows.append(("47 CFR 1.1307(b)(3)", ("EXEMPT from routine evaluation (not from compliance)" if ex.exempt
+                                              else "NOT EXEMPT: a routine evaluation is required")
+                     + "; see section 4.3"))
     n_places = len(res.places)
     if res.verdict == "COMPLIES":
         detail = (f"all {n_places} place{'s' if n_places != 1 else ''} within the limits; no rating exceeded"
@@ -162,12 +163,12 @@ def _method(res, width) -> list:
     rows = []
     for c in res.configurations:
         for cd in c.compliance_distances:
-            rows.append([c.id, f"{cd.environment} ({cd.environment_label})", cd.limit_basis,
+            rows.append([c.id, cd.environment, cd.limit_basis,
                          "none" if cd.averaging_minutes is None else f"{cd.averaging_minutes:g}",
                          _QUANTITY.get(cd.governing, cd.governing), cd.limit_source])
     out.append(p("Limits applied (the limit that sets each compliance distance):", "small"))
     out.append(data_table(["configuration", "environment", "basis", "averaging min", "governs", "limit source"],
-                          rows, [22 * mm, 40 * mm, 22 * mm, 17 * mm, 15 * mm, width - 116 * mm],
+                          rows, [22 * mm, 22 * mm, 22 * mm, 17 * mm, 15 * mm, width - 98 * mm],
                           align="lllrll"))
     return out
 
@@ -237,12 +238,12 @@ def _places(res, width, numbers) -> list:
         shares = Paragraph(" +<br/>".join(_esc(f"{s.configuration} {ratio_text(s.exposure_ratio)}")
                                           for s in pl.contributions), styles()["cell"])
         rows.append([numbers[pl.label], pl.label, f"{pl.x_m:g}, {pl.y_m:g}, {pl.height_m:g}",
-                     f"{pl.environment} ({pl.environment_label})", ratio_text(pl.total_ratio),
+                     pl.environment, ratio_text(pl.total_ratio),
                      margin_text(pl.total_margin_db), _coloured(pl.verdict.upper(), pl.verdict == "complies"),
                      shares])
     out.append(data_table(["#", "place", "x, y, height m", "environment", "total ratio", "margin dB", "verdict",
                            "summed (configuration ratio)"], rows,
-                          [8 * mm, 34 * mm, 19 * mm, 29 * mm, 15 * mm, 14 * mm, 19 * mm, width - 138 * mm],
+                          [8 * mm, 40 * mm, 19 * mm, 21 * mm, 15 * mm, 14 * mm, 19 * mm, width - 136 * mm],
                           align="llllrrll"))
     for r in rules:
         out.append(p(f"Summation rule: {r}. A place complies when the sum of exposure ratios is at most 1; "
@@ -279,32 +280,27 @@ def _places(res, width, numbers) -> list:
 
 def _exemption(ex, width) -> list:
     out = [section_heading("4.3", "Exemption from routine evaluation, 47 CFR 1.1307(b)(3)", level=1)]
-    status = "EXEMPT" if ex.exempt else "NOT EXEMPT"
-    out.append(p(f"Status: <b>{status}</b> ({_esc(ex.criterion)}); sum of fractions "
-                 f"{num(ex.sum_of_fractions)}.", "body", markup=True))
-    per = list(getattr(ex, "per_source", ()) or ())
-    if per:
-        import dataclasses
-        if dataclasses.is_dataclass(per[0]):
-            names = [f.name for f in dataclasses.fields(per[0])]
-        else:
-            names = ["label", "criterion", "threshold", "value", "fraction", "margin_db"]
-        rows = []
-        for s in per:
-            row = []
-            for n in names:
-                v = getattr(s, n, None)
-                row.append(margin_text(v) if n == "margin_db" else (num(v) if isinstance(v, float) else
-                                                                     ("–" if v is None else str(v))))
-            rows.append(row)
-        widths = [width / len(names)] * len(names)
-        out.append(data_table([n.replace("_", " ") for n in names], rows, widths,
-                              align="l" + "".join("r" if isinstance(getattr(per[0], n, None), float) else "l"
-                                                  for n in names[1:])))
-    note = getattr(ex, "note", "")
-    if note:
-        out.append(p(note, "small"))
-    out.append(p(EXEMPTION_STATEMENT, "body"))
+    status = "EXEMPT from routine evaluation" if ex.exempt else "NOT EXEMPT: a routine evaluation is required"
+    out.append(p(f"Status: <b>{_esc(status)}</b>. Criterion: {_esc(ex.criterion)}. Sum of fractions: "
+                 f"{_esc(num(ex.sum_of_fractions))} (exempt needs at most 1).", "body", markup=True))
+    notes = _Notes("e")
+    rows = []
+    for s in ex.per_source:
+        ref = notes.ref(s.other_criteria) if s.other_criteria else ""
+        rows.append([s.label, f"{s.criterion} ({s.reference}) {ref}".strip(), f"{num(s.value_w)} ({s.value_kind})",
+                     num(s.threshold_w), num(s.erp_w), num(s.fraction), margin_text(s.margin_db)])
+    if rows:
+        out.append(data_table(["source", "criterion (paragraph)", "value compared W", "threshold W", "ERP W",
+                               "fraction", "margin dB"], rows,
+                              [22 * mm, 58 * mm, 34 * mm, 18 * mm, 16 * mm, 15 * mm, width - 163 * mm],
+                              align="lllrrrr"))
+    if notes.texts:
+        out.append(p("Other criteria considered:", "small"))
+        out.extend(notes.flowables())
+    for a in ex.assumptions:
+        out.append(Paragraph(_esc(a), styles()["small"], bulletText="·"))
+    # the rule's own note says that exemption removes only the duty to evaluate; ours if it is missing
+    out.append(p(ex.note if "duty to comply" in (ex.note or "") else EXEMPTION_STATEMENT, "body"))
     return out
 
 
@@ -398,9 +394,12 @@ def _figures(res, width, numbers, extra_figures) -> list:
                  "1/R²). Markers: the places of section 4 with their evaluated ratio (gain toward the place; "
                  "a place below its line is off the main beam). A marker on the frame edge lies off scale.",
                  "small"))
-    drawings = [exposure_distance_figure(c, res.places, width=fig_w, height=62 * mm, place_numbers=numbers)
-                for c in res.configurations]
-    out.append(figure_grid(drawings, width))
+    cells = []
+    for c in res.configurations:
+        drawing, caption = exposure_distance_figure(c, res.places, width=fig_w, height=60 * mm,
+                                                    place_numbers=numbers)
+        cells.append([drawing, p(caption, "caption")])
+    out.append(figure_grid(cells, width))
     out.append(exposure_legend(width))
     out.append(Spacer(1, 3 * mm))
     out.append(CondPageBreak(80 * mm))
