@@ -102,8 +102,9 @@ def check_points(sol, points_m, *, field: str = "points_m") -> np.ndarray:
     Raises
     ------
     InputError
-        A point below a perfect ground, closer than 3 wire radii to a wire, or within
-        lambda/(2 pi) of a segment longer than lambda/20.
+        A point below a perfect ground, closer than 3 wire radii to a wire, or (unless the solution
+        was computed with ``enforce_limits=False``) within lambda/(2 pi) of a segment longer than
+        lambda/20.
     """
     st = sol.structure
     pts = _as_points(points_m, field)
@@ -127,7 +128,7 @@ def check_points(sol, points_m, *, field: str = "points_m") -> np.ndarray:
                             f"accepted: at least {MIN_POINT_RADII:g} wire radii from every wire "
                             "(thin-wire fields do not hold on or inside a conductor)")
         long_seg = st.length_m > NEAR_SEGMENT_WAVELENGTHS * lam * (1 + 1e-9)
-        if np.any(long_seg):
+        if sol.limits_enforced and np.any(long_seg):
             hit = (dist < d_near) & long_seg[None, :]
             if np.any(hit):
                 i, qq = map(int, np.argwhere(hit)[0])

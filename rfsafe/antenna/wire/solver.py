@@ -205,6 +205,7 @@ class WireSolution:
     peak_azimuth_deg: float                   # compass bearing of the peak, clockwise from north
     peak_elevation_deg: float                 # elevation of the peak above horizontal
     front_to_back_db: float                   # peak gain minus the gain at azimuth + 180 deg, same elevation
+    limits_enforced: bool                     # False only for method validation (see solve)
     basis_current_a: np.ndarray = field(repr=False)    # (Nb,) complex
     segment_current_a: np.ndarray = field(repr=False)  # (Ns, 2) current at segment start/end [A peak]
     structure: Structure = field(repr=False)
@@ -404,4 +405,5 @@ def solve(spec, freq_hz: float, *, field_prefix: str = "", enforce_limits: bool 
         feed_current_a=tuple(complex(x) for x in i_feed),
         input_power_w=p_in, radiated_power_w=p_rad, radiated_over_input_power=p_rad / p_in,
         gain_dbi=gain, peak_azimuth_deg=az, peak_elevation_deg=el, front_to_back_db=fb,
+        limits_enforced=bool(enforce_limits),
         basis_current_a=c, segment_current_a=seg_i, structure=st, impedance_matrix_ohm=z)

@@ -1,0 +1,100 @@
+"""`rfsafe wire`: table and JSON output, cautions, malformed files (exit 2, one Error line)."""
+
+import json
+import math
+from pathlib import Path
+
+import pytest
+from typer.testing import CliRunner
+
+from rfsafe.cli import app
+
+DEMO = Path(__file__).resolve().parent.parent / "reports_demo"
+
+DIPOLE = """
+freq_mhz = 14.2
+input_power_w = 100.0
+[[wires]]
+label = "dipole"
+points_m = [[-5.0, 0.0, 10.0], [5.0, 0.0, 10.0]]
+radius_m = 0.001
+[[feeds]]
+wire = "dipole"
+[[points]]
+label = "under"
+position_m = [0.0, 0.0, 2.0]
+[[points]]
+label = "beside"
+position_m = [0.0, 6.0, 10.0]
+"""
+
+
+def run(tmp_path, text, *args):
+    f = tmp_path / "w.toml"
+    f.write_text(text, encoding="utf-8")
+    return CliRunner().invoke(app, ["wire", str(f), *args])
+
+
+def test_table_output_and_cautions_on_stderr(tmp_path):
+    r = run(tmp_path, DIPOLE)
+    assert r.exit_code == 0, r.output
+    assert "Feeds (at 100 W delivered to the antenna)" in r.stdout
+    assert "peak gain" in r.stdout and "radiated / input power" in r.stdout
+    assert "under" in r.stdout and "E [V/m rms]" in r.stdout
+    assert "Caution:" not in r.stdout
+    assert "perfect" in r.stderr and "thin-wire" in r.stderr and "regulation" in r.stderr
+
+
+def test_json_output_has_the_documented_keys(tmp_path):
+    r = run(tmp_path, DIPOLE, "--json")
+    assert r.exit_code == 0, r.output
+    doc = json.loads(r.stdout)
+    z = doc["feed_impedance_ohm"][0]
+    # A 10 m dipole at 14.2 MHz is 0.474 lambda, a little shorter than resonance for this thin wire
+    # (~0.485 lambda, see test_wire_solver): R somewhat below the ~70 ohm of resonance and X
+    # capacitive (Balanis Sec. 4.6; common practice).
+    assert set(z) == {"re", "im"} and 55 < z["re"] < 75 and -60 < z["im"] < -10
+    assert 1.9 < doc["gain_dbi"] < 2.4  # half-wave dipole, 2.15 dBi (Balanis eq. 4-91)
+    assert abs(doc["radiated_over_input_power"] - 1) < 1e-3
+    under = doc["points"][0]
+    assert under["label"] == "under" and under["e_field_v_m"] > 0 and under["h_field_a_m"] > 0
+    # rms current from the power delivered: I = sqrt(P / R).
+    assert doc["feeds"][0]["current_a_rms"] == pytest.approx(math.sqrt(100.0 / z["re"]), rel=1e-9)
+    assert doc["cautions"]
+
+
+def test_demo_files_run():
+    for name in ("wire_inverted_v_40m.toml", "wire_ground_plane_20m.toml", "wire_beam_3el_20m.toml"):
+        r = CliRunner().invoke(app, ["wire", str(DEMO / name), "--json"])
+        assert r.exit_code == 0, r.output
+        assert abs(json.loads(r.stdout)["radiated_over_input_power"] - 1) < 1e-3
+
+
+@pytest.mark.parametrize("text,line", [
+    ("freq_mhz = 14.2\n[[wires]\n", r"^Error: .*w\.toml: TOML syntax error: .*\(at line 2, column \d+\)$"),
+    (DIPOLE.replace("radius_m = 0.001", "radius_m = 0.001\ncolour = \"red\""),
+     r"^Error: wires\[0\]\.colour: is not a known key \(accepted keys: label, points_m, radius_m, segments, "
+     r"max_segment_m\)$"),
+    (DIPOLE.replace("freq_mhz = 14.2", "freq_mhz = \"14.2\""), r"^Error: freq_mhz: \"14\.2\" must be a number$"),
+    (DIPOLE.replace("freq_mhz = 14.2\n", ""), r"^Error: freq_mhz: is required but missing$"),
+    (DIPOLE.replace('wire = "dipole"', 'wire = "dipol"'),
+     r"^Error: feeds\[0\]\.wire: \"dipol\" is not a wire label \(declared labels: \"dipole\"; or give the index from 0\)$"),
+    (DIPOLE.replace("[0.0, 6.0, 10.0]", "[0.0, 0.002, 10.0]"),
+     r"^Error: points\[1\]\.position_m: \[0\.0, 0\.002, 10\.0\] is 0\.002 m from wire 'dipole'"),
+    (DIPOLE.replace('label = "beside"', 'label = "under"'), r"^Error: points\[1\]\.label: \"under\" is a duplicate"),
+])
+def test_malformed_files_give_one_error_line_and_exit_2(tmp_path, text, line):
+    r = run(tmp_path, text)
+    assert r.exit_code == 2
+    assert r.stdout == ""
+    lines = r.stderr.strip().splitlines()
+    assert len(lines) == 1
+    import re
+    assert re.match(line, lines[0]), lines[0]
+
+
+def test_missing_file_and_help():
+    r = CliRunner().invoke(app, ["wire", "/nonexistent/w.toml"])
+    assert r.exit_code == 2 and r.stderr.startswith("Error: FILE:")
+    h = CliRunner().invoke(app, ["wire", "--help"])
+    assert h.exit_code == 0 and "--json" in h.stdout

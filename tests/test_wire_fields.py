@@ -1,0 +1,157 @@
+"""Near fields of the wire solver against textbook closed forms (lambda = 1 m: f = c0)."""
+
+import math
+
+import numpy as np
+import pytest
+from scipy.special import sici
+
+from rfsafe.antenna.wire import WireAntennaSpec, solve
+from rfsafe.antenna.wire.kernel import ETA0_OHM
+from rfsafe.errors import InputError
+
+F_HZ = 299_792_458.0
+K = 2 * math.pi
+EULER_GAMMA = 0.5772156649015329
+
+
+def zdipole(length, radius, segments):
+    return WireAntennaSpec.model_validate({
+        "wires": [{"points_m": [[0, 0, -length / 2], [0, 0, length / 2]], "radius_m": radius,
+                   "segments": segments}],
+        "feeds": [{"wire": 0}]})
+
+
+def spherical_to_cartesian(theta):
+    r_hat = np.array([math.sin(theta), 0.0, math.cos(theta)])
+    t_hat = np.array([math.cos(theta), 0.0, -math.sin(theta)])
+    return r_hat, t_hat
+
+
+@pytest.mark.parametrize("kr", [0.5, 1.0, 2.0, 10.0])
+@pytest.mark.parametrize("theta_deg", [30.0, 90.0])
+def test_short_dipole_matches_the_hertzian_dipole(kr, theta_deg):
+    # Balanis, Antenna Theory, 3rd ed., Sec. 4.2, fields of the infinitesimal dipole (eqs. 4-8a..4-10c,
+    # numbers from memory):
+    #   E_r  = eta I l cos(t) / (2 pi r^2) (1 + 1/(jkr)) e^{-jkr}
+    #   E_t  = j eta k I l sin(t) / (4 pi r) (1 + 1/(jkr) - 1/(kr)^2) e^{-jkr}
+    #   H_p  = j k I l sin(t) / (4 pi r) (1 + 1/(jkr)) e^{-jkr}
+    # with the moment I l fixed by the radiated power, P = eta (k I l)^2 / (12 pi) (Balanis eq. 4-16),
+    # here P = 1 W delivered (energy balance). Length 0.002 lambda: the finite-length corrections
+    # are O((l/r)^2) <= 6e-4 at kr = 0.5 and O((kl)^2) = 2e-4; tolerance 2e-3.
+    length, p_w = 0.002, 1.0
+    sol = solve(zdipole(length, 1e-5, 10), F_HZ)
+    il = math.sqrt(12 * math.pi * p_w / ETA0_OHM) / K  # |I l| [A m] peak
+    r, t = kr / K, math.radians(theta_deg)
+    ph = np.exp(-1j * kr)
+    e_r = ETA0_OHM * il * math.cos(t) / (2 * math.pi * r ** 2) * (1 + 1 / (1j * kr)) * ph
+    e_t = 1j * ETA0_OHM * K * il * math.sin(t) / (4 * math.pi * r) * (1 + 1 / (1j * kr) - 1 / kr ** 2) * ph
+    h_p = 1j * K * il * math.sin(t) / (4 * math.pi * r) * (1 + 1 / (1j * kr)) * ph
+    e_rms_ref = math.sqrt((abs(e_r) ** 2 + abs(e_t) ** 2) / 2)
+    h_rms_ref = abs(h_p) / math.sqrt(2)
+    r_hat, _ = spherical_to_cartesian(t)
+    e, h = sol.fields_rms(r * r_hat[None, :], p_w)
+    assert e[0] == pytest.approx(e_rms_ref, rel=2e-3)
+    assert h[0] == pytest.approx(h_rms_ref, rel=2e-3)
+
+
+def test_half_wave_dipole_near_field_matches_the_sinusoidal_current_closed_form():
+    # Balanis, Antenna Theory, 3rd ed., Sec. 8.5 (near fields of the dipole with sinusoidal current
+    # I0 sin k(h - |z|)):
+    #   E_z   = -j eta I0/4pi [e^{-jkR1}/R1 + e^{-jkR2}/R2 - 2 cos(kh) e^{-jkr}/r]
+    #   E_rho =  j eta I0/(4pi rho) [(z-h) e^{-jkR1}/R1 + (z+h) e^{-jkR2}/R2 - 2 z cos(kh) e^{-jkr}/r]
+    #   H_phi =  j I0/(4pi rho) [e^{-jkR1} + e^{-jkR2} - 2 cos(kh) e^{-jkr}]
+    # One PWS basis on a half-wave dipole is exactly that current; I0 follows from the power and the
+    # induced-EMF resistance eta/(4 pi) Cin(2 pi) (Balanis Sec. 4.6), not from the solver. Tolerance
+    # 1e-4: the solver's resistance equals the closed form to ~1e-6.
+    p_w, h = 10.0, 0.25
+    sol = solve(zdipole(0.5, 1e-6, 2), F_HZ, enforce_limits=False)
+    r_in = ETA0_OHM / (4 * math.pi) * (EULER_GAMMA + math.log(2 * math.pi) - sici(2 * math.pi)[1])
+    i0 = math.sqrt(2 * p_w / r_in)
+    pts = np.array([[0.05, 0.0, 0.0], [0.1, 0.0, 0.2], [0.3, 0.0, -0.4], [0.02, 0.0, 0.26], [1.5, 0.0, 0.7]])
+    e, hh = sol.fields_rms(pts, p_w)
+    for j, (x, _, z) in enumerate(pts):
+        rho = x
+        r1, r2, r0 = math.hypot(rho, z - h), math.hypot(rho, z + h), math.hypot(rho, z)
+        g = [np.exp(-1j * K * q) for q in (r1, r2, r0)]
+        ckh = math.cos(K * h)
+        ez = -1j * ETA0_OHM * i0 / (4 * math.pi) * (g[0] / r1 + g[1] / r2 - 2 * ckh * g[2] / r0)
+        er = 1j * ETA0_OHM * i0 / (4 * math.pi * rho) * ((z - h) * g[0] / r1 + (z + h) * g[1] / r2
+                                                         - 2 * z * ckh * g[2] / r0)
+        hp = 1j * i0 / (4 * math.pi * rho) * (g[0] + g[1] - 2 * ckh * g[2])
+        assert e[j] == pytest.approx(math.sqrt((abs(ez) ** 2 + abs(er) ** 2) / 2), rel=1e-4)
+        assert hh[j] == pytest.approx(abs(hp) / math.sqrt(2), rel=1e-4)
+
+
+def test_far_away_the_power_density_follows_the_far_field_formula_with_the_solver_gain():
+    # Far-field relation (Balanis Sec. 2.4-2.6): S = P G / (4 pi r^2) and E/H = eta0 in the far
+    # field. At r = 60 lambda from a 3-element beam of 0.4 lambda depth the near-field terms are
+    # O(1/(kr)) ~ 3e-3 in amplitude and the phase-centre offset O(0.2/60); tolerance 2 %.
+    wires = [{"points_m": [[-length / 2, y, 0], [length / 2, y, 0]], "radius_m": 0.004}
+             for y, length in ((-0.2, 0.482), (0.0, 0.47), (0.2, 0.428))]
+    sol = solve(WireAntennaSpec.model_validate({"wires": wires, "feeds": [{"wire": 1}]}), F_HZ)
+    p_w, r = 100.0, 60.0
+    az, el = math.radians(sol.peak_azimuth_deg), math.radians(sol.peak_elevation_deg)
+    pt = r * np.array([[math.cos(el) * math.sin(az), math.cos(el) * math.cos(az), math.sin(el)]])
+    e, h = sol.fields_rms(pt, p_w)
+    s_far = p_w * 10 ** (sol.gain_dbi / 10) / (4 * math.pi * r ** 2)
+    assert e[0] ** 2 / ETA0_OHM == pytest.approx(s_far, rel=0.02)
+    assert e[0] / h[0] == pytest.approx(ETA0_OHM, rel=0.01)
+
+
+def test_fields_scale_with_the_square_root_of_power_and_are_vectorised():
+    sol = solve(zdipole(0.48, 1e-3, 20), F_HZ)
+    rng = np.random.default_rng(0)
+    pts = rng.uniform([0.1, -1, -1], [1, 1, 1], (500, 3))
+    e1, h1 = sol.fields_rms(pts, 1.0)
+    e4, h4 = sol.fields_rms(pts, 4.0)
+    np.testing.assert_allclose(e4, 2 * e1, rtol=1e-12)
+    np.testing.assert_allclose(h4, 2 * h1, rtol=1e-12)
+    e_one, _ = sol.fields_rms(pts[7], 1.0)
+    assert e_one[0] == pytest.approx(e1[7], rel=1e-12)
+
+
+def test_image_fields_vanish_tangentially_on_a_perfect_ground():
+    # Boundary condition of a perfect conductor (image theory, Balanis Sec. 4.7): on z = 0 the
+    # tangential E and the normal H vanish.
+    s = WireAntennaSpec.model_validate({
+        "ground": "perfect",
+        "wires": [{"points_m": [[-0.24, 0.0, 0.3], [0.0, 0.1, 0.35], [0.24, 0.0, 0.3]], "radius_m": 1e-3}],
+        "feeds": [{"wire": 0}]})
+    sol = solve(s, F_HZ)
+    pts = np.array([[0.1, 0.2, 0.0], [-0.5, 0.3, 0.0], [0.0, 0.0, 0.0]])
+    e, h = sol.fields_phasor(pts, 1.0)
+    scale = np.max(np.abs(e))
+    assert np.max(np.abs(e[:, :2])) < 1e-9 * scale
+    assert np.max(np.abs(h[:, 2])) < 1e-9 * np.max(np.abs(h))
+
+
+def test_points_on_or_inside_a_wire_are_refused():
+    sol = solve(zdipole(0.48, 1e-3, 20), F_HZ)
+    with pytest.raises(InputError, match=r"^points_m\[1\]: \[0\.002, 0\.0, 0\.1\] is 0\.002 m from wire "
+                                         r"'wires\[0\]' \(radius 0\.001 m\): accepted: at least 3 wire radii"):
+        sol.fields_rms(np.array([[0.5, 0, 0], [0.002, 0.0, 0.1]]), 1.0)
+    with pytest.raises(InputError, match="input_power_w: -1.0 must be a finite power > 0 W"):
+        sol.fields_rms(np.array([[0.5, 0, 0]]), -1.0)
+    with pytest.raises(InputError, match=r"points_m\[0\]: \[.*\] must be finite"):
+        sol.fields_rms(np.array([[math.nan, 0, 0]]), 1.0)
+
+
+def test_segments_near_points_of_interest_must_be_at_most_lambda_over_20():
+    # Common practice for PWS near fields: segments <= lambda/20 near the points evaluated.
+    sol = solve(zdipole(0.5, 1e-3, 6), F_HZ)  # lambda/12 segments: accepted for impedance
+    assert sol.fields_rms(np.array([[3.0, 0, 0]]), 1.0)[0][0] > 0  # far from the wire: fine
+    with pytest.raises(InputError, match=r"points_m\[0\]: .* segments at most lambda/20 .*"
+                                         r"set wires\[0\]\.segments >= 10"):
+        sol.fields_rms(np.array([[0.1, 0, 0]]), 1.0)
+
+
+def test_points_below_a_perfect_ground_are_refused_and_close_points_get_a_caution():
+    s = WireAntennaSpec.model_validate({
+        "ground": "perfect", "wires": [{"points_m": [[0, 0, 0], [0, 0, 0.25]], "radius_m": 1e-3}],
+        "feeds": [{"wire": 0, "position": 0.0}]})
+    sol = solve(s, F_HZ)
+    with pytest.raises(InputError, match=r"points_m\[0\]: \[1\.0, 0\.0, -0\.5\] is below the perfect ground"):
+        sol.fields_rms(np.array([[1.0, 0.0, -0.5]]), 1.0)
+    cautions = sol.point_cautions(np.array([[0.005, 0, 0.1], [1, 0, 0]]), ["close", "far"])
+    assert len(cautions) == 1 and cautions[0].startswith("point close is 0.005 m from wire")

@@ -1,0 +1,121 @@
+"""Segmentation, junctions and the refusals of the wire solver (model and geometry checks)."""
+
+import math
+
+import numpy as np
+import pytest
+
+from rfsafe.antenna.wire import WireAntennaSpec, solve, validate_wire_antenna
+from rfsafe.antenna.wire.geometry import build_structure, segment_distances
+from rfsafe.antenna.wire.model import check_wire_antenna
+from rfsafe.errors import InputError
+
+F_HZ = 299_792_458.0  # lambda = 1 m
+
+
+def spec(wires, feeds=({"wire": 0},), ground="free-space"):
+    return WireAntennaSpec.model_validate({"ground": ground, "wires": list(wires), "feeds": list(feeds)})
+
+
+def wire(*pts, radius=1e-3, **kw):
+    return {"points_m": [list(p) for p in pts], "radius_m": radius, **kw}
+
+
+def test_default_rule_is_lambda_over_40_and_feeds_and_corners_are_nodes():
+    s = spec([wire((-0.3, 0, 0.5), (0, 0, 0.7), (0.3, 0, 0.5))], [{"wire": 0, "position": 0.3}])
+    st = build_structure(s, F_HZ, check_wire_antenna(s))
+    assert st.length_m.max() <= 1 / 40 + 1e-12
+    nodes = np.concatenate([st.start_m, st.end_m])
+    assert np.min(np.linalg.norm(nodes - [0, 0, 0.7], axis=1)) < 1e-12  # the corner
+    total = 2 * math.hypot(0.3, 0.2)
+    along = 0.3 * total
+    expect = np.array([-0.3, 0, 0.5]) + along / math.hypot(0.3, 0.2) * np.array([0.3, 0, 0.2])
+    assert np.allclose(st.feed_position_m[0], expect)
+
+
+def test_segments_are_split_over_pieces_by_length():
+    s = spec([wire((0, 0, 0), (0, 0, 0.3), (0.1, 0, 0.3), segments=8)], [{"wire": 0, "position": 0.5}])
+    st = build_structure(s, F_HZ, check_wire_antenna(s))
+    assert st.num_segments == 8
+    assert st.num_unknowns == 7  # free ends carry no basis function
+
+
+def test_junction_of_n_wires_has_n_minus_1_basis_functions_and_ground_ends_one_each():
+    radials = [wire((0, 0, 0.3), (0.25 * math.cos(a), 0.25 * math.sin(a), 0.2), segments=5)
+               for a in (0, 2.1, 4.2)]
+    s = spec([wire((0, 0, 0.3), (0, 0, 0.55), segments=5), *radials], [{"wire": 0, "position": 0.0}])
+    st = build_structure(s, F_HZ, check_wire_antenna(s))
+    assert st.num_unknowns == 4 * 4 + 3
+    assert np.count_nonzero(st.feed_coupling) == 3  # the feed drives every junction function
+    g = spec([wire((0, 0, 0), (0, 0, 0.25), segments=5)], [{"wire": 0, "position": 0.0}], ground="perfect")
+    assert build_structure(g, F_HZ, check_wire_antenna(g)).num_unknowns == 5
+
+
+def test_segment_distances_cover_crossing_parallel_and_end_cases():
+    a0, a1 = np.array([[0, 0, 0.0]]), np.array([[1, 0, 0.0]])
+    b0 = np.array([[0.5, -1, 0.2], [0, 1, 0], [2, 0, 0], [0.2, 0.3, 0]])
+    b1 = np.array([[0.5, 1, 0.2], [1, 1, 0], [3, 0, 0], [0.8, 0.3, 0]])
+    np.testing.assert_allclose(segment_distances(a0, a1, b0, b1)[0], [0.2, 1.0, 1.0, 0.3])
+
+
+@pytest.mark.parametrize("wires,feeds,ground,message", [
+    ([wire((0, 0, -0.25), (0, 0, 0.25), segments=4)], [{"wire": 0}], "free-space",
+     r"^wires\[0\]\.segments: 4 gives segments of 0\.125 m on wire 'wires\[0\]', longer than lambda/10 = 0\.1 m "
+     r"at 299\.792 MHz \(accepted: at most lambda/10, e\.g\. segments >= 5\)$"),
+    ([wire((0, 0, -0.25), (0, 0, 0.25), radius=0.004, segments=40)], [{"wire": 0}], "free-space",
+     r"^wires\[0\]\.segments: 40 gives a segment of 0\.0125 m .* shorter than 4 wire radii \(0\.016 m\)"),
+    ([wire((0, 0, -0.25), (0, 0, 0.25)), wire((-0.2, 0, 0.1), (0.2, 0, 0.1))], [{"wire": 0}], "free-space",
+     r"^wires\[0\]: \"wires\[0\]\" touches or crosses wire 'wires\[1\]' near .* without a junction"),
+    ([wire((0, 0, -0.25), (0, 0, 0.25)), wire((0, 0, 0.0), (0.2, 0, 0.1))], [{"wire": 0, "position": 0.2}],
+     "free-space", r"split a wire at a T-junction"),
+    ([wire((0, 0, -0.25), (0, 0, 0.25))], [{"wire": 0, "position": 1.0}], "free-space",
+     r"^feeds\[0\]\.position: 1\.0 is a free end of wire 'wires\[0\]', where no current flows"),
+    ([wire((0, 0, 0), (0, 0, 0.25), radius=0.003), wire((0, 0, 0), (0.25, 0, 0), radius=0.001)],
+     [{"wire": 0, "position": 0.0}], "free-space",
+     r"^wires\[0\]\.radius_m: 0\.003 joins wire 'wires\[1\]' of radius 0\.001 m .* within a factor of 2"),
+    ([wire((-0.25, 0, 0.0008), (0.25, 0, 0.0008))], [{"wire": 0}], "perfect",
+     r"^wires\[0\]: \"wires\[0\]\" comes within 0\.0016 m of its ground image"),
+])
+def test_geometry_that_would_give_a_wrong_answer_is_refused(wires, feeds, ground, message):
+    with pytest.raises(InputError, match=message):
+        solve(spec(wires, feeds, ground), F_HZ)
+
+
+@pytest.mark.parametrize("data,message", [
+    ({"wires": [wire((0, 0, 0), (0, 0, 1))], "feeds": [{"wire": 0}], "grund": "perfect"},
+     r"^grund: is not a known key \(accepted keys: ground, wires, feeds\)$"),
+    ({"wires": [wire((0, 0, 0), (0, 0, 1), radius=-1.0)], "feeds": [{"wire": 0}]},
+     r"^wires\[0\]\.radius_m: -1\.0 is out of range \(accepted: > 0\)$"),
+    ({"wires": [wire((0, 0, 0), (0, 0, 1), radius="1mm")], "feeds": [{"wire": 0}]},
+     r"^wires\[0\]\.radius_m: \"1mm\" must be a number$"),
+    ({"wires": [{"points_m": [[0, 0, 0], [0, 0]], "radius_m": 0.001}], "feeds": [{"wire": 0}]},
+     r"^wires\[0\]\.points_m\[1\]: \[0, 0\] has the wrong length"),
+    ({"wires": [wire((0, 0, 0), (0, 0, 1))], "feeds": [{"wire": "driven"}]},
+     r"^feeds\[0\]\.wire: \"driven\" is not a wire label \(declared labels: none; or give the index from 0\)$"),
+    ({"wires": [wire((0, 0, 0), (0, 0, 1))], "feeds": [{"wire": 3}]},
+     r"^feeds\[0\]\.wire: 3 is not a wire index \(accepted: 0 to 0\)$"),
+    ({"wires": [wire((0, 0, 0), (0, 0, 1), label="a"), wire((1, 0, 0), (1, 0, 1), label="a")],
+      "feeds": [{"wire": "a"}]}, r"^wires\[1\]\.label: \"a\" is a duplicate label"),
+    ({"wires": [wire((0, 0, 0), (0, 0, 0), (0, 0, 1))], "feeds": [{"wire": 0}]},
+     r"^wires\[0\]\.points_m\[1\]: \[0\.0, 0\.0, 0\.0\] repeats the previous point"),
+    ({"ground": "perfect", "wires": [wire((0, 0, -1), (0, 0, 1))], "feeds": [{"wire": 0}]},
+     r"^wires\[0\]\.points_m\[0\]: \[0\.0, 0\.0, -1\.0\] is below the perfect ground"),
+    ({"wires": [wire((0, 0, 0), (0, 0, 1), segments=9, max_segment_m=0.1)], "feeds": [{"wire": 0}]},
+     r"^wires\[0\]\.max_segment_m: give either segments or max_segment_m, not both$"),
+    ({"wires": [wire((0, 0, 0), (0, 0, 1))], "feeds": [{"wire": 0}, {"wire": 0}]},
+     r"^feeds\[1\]\.position: 0\.5 is the place of feeds\[0\]"),
+])
+def test_bad_tables_name_the_field_and_the_value(data, message):
+    with pytest.raises(InputError, match=message):
+        validate_wire_antenna(data)
+
+
+def test_prefix_names_the_station_path():
+    with pytest.raises(InputError, match=r"^antennas\[2\]\.wire\.wires\[0\]\.radius_m: "):
+        validate_wire_antenna({"wires": [wire((0, 0, 0), (0, 0, 1), radius=0.0)], "feeds": [{"wire": 0}]},
+                              prefix="antennas[2].wire.")
+    s = spec([wire((0, 0, -0.25), (0, 0, 0.25), segments=4)])
+    with pytest.raises(InputError, match=r"^antennas\[2\]\.wire\.wires\[0\]\.segments: 4 "):
+        solve(s, F_HZ, field_prefix="antennas[2].wire.")
+    with pytest.raises(InputError, match=r"^freq_hz: -1\.0 must be a finite frequency > 0 Hz$"):
+        solve(s, -1.0)
