@@ -736,12 +736,14 @@ def analyse_site(emitters: Sequence[SiteEmitter], *, boundary, areas: Sequence[A
         grp = [g for g in groups if g.transmitter == t]
         nf = max(g.near_field_m for g in grp)
         tflags = []
-        if 0.0 < keep_out["uncontrolled"] <= nf:
+        dzmin = min(abs(h - g.height_m) for g in grp for h in heights)
+        nf_reach = math.sqrt(max(nf * nf - dzmin * dzmin, 0.0))   # near field's horizontal reach at the nearest height
+        if 0.0 < keep_out["uncontrolled"] <= nf_reach:
             tflags.append(f"{name}: the keep-out zone ({keep_out['uncontrolled']:.2f} m) lies inside the near "
                           f"field ({nf:.2f} m): far-field estimate; near-field analysis or measurement recommended")
-        elif keep_out["uncontrolled"] > 0.0 and any(g.near_field_m > 0 for g in grp):
-            tflags.append(f"{name}: points within {nf:.2f} m of the antenna are in the near field, where the "
-                          "far-field estimate is not valid")
+        elif keep_out["uncontrolled"] > 0.0 and nf_reach > 0.0:
+            tflags.append(f"{name}: the keep-out zone reaches into the near field (within {nf_reach:.2f} m of the "
+                          "antenna on the ground), where the far-field estimate is not valid")
         if 0.0 < keep_out["uncontrolled"] < 3.0 * grid_spacing_m:
             tflags.append(f"{name}: the keep-out zone is less than 3 grid spacings across; "
                           "use a finer grid_spacing_m to resolve it")

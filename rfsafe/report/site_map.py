@@ -20,7 +20,8 @@ KIND_STYLE = {
     "operators": dict(edgecolor="#5b2a86", hatch="//", facecolor="none", linestyle="-"),
     "no-access": dict(edgecolor="#444444", hatch="xx", facecolor="none", linestyle="--"),
 }
-_RATIO_RANGE = (1e-2, 1e1)  # colour scale limits (ratios outside are drawn at the ends)
+_RATIO_RANGE = (1e-2, 1e1)
+_KEEP_OUT = "#c0007a"        # keep-out contours: magenta, apart from the red-orange colour field  # colour scale limits (ratios outside are drawn at the ends)
 
 
 def nice_length(span: float) -> float:
@@ -89,20 +90,20 @@ def site_map_png(res, *, width_in: float = 10.2, height_in: float = 6.0, dpi: in
         unc = np.nan_to_num(g.ratio[1], posinf=_RATIO_RANGE[1] * 10, nan=_RATIO_RANGE[1] * 10)
         ctl = np.nan_to_num(g.ratio[0], posinf=_RATIO_RANGE[1] * 10, nan=_RATIO_RANGE[1] * 10)
         shown = np.clip(unc, _RATIO_RANGE[0], _RATIO_RANGE[1])
-        mesh = ax.pcolormesh(g.x_m, g.y_m, shown, cmap="YlOrRd", norm=LogNorm(*_RATIO_RANGE), shading="nearest",
+        mesh = ax.pcolormesh(g.x_m, g.y_m, shown, cmap="OrRd", norm=LogNorm(*_RATIO_RANGE), shading="nearest",
                              rasterized=True)
         cb = fig.colorbar(mesh, cax=cax)
         cb.set_label("total exposure ratio, uncontrolled (public) limit\n(worst height; 1 = limit)", fontsize=7)
         cb.set_ticks([0.01, 0.1, 1, 10])
         cb.set_ticklabels(["≤ 0.01", "0.1", "1", "≥ 10"])
         if (unc > 1).any():
-            ax.contour(g.x_m, g.y_m, unc, levels=[1.0], colors="#b3122b", linewidths=1.4)
+            ax.contour(g.x_m, g.y_m, unc, levels=[1.0], colors=_KEEP_OUT, linewidths=1.6)
         if (ctl > 1).any():
-            ax.contour(g.x_m, g.y_m, ctl, levels=[1.0], colors="#111111", linewidths=1.0, linestyles="--")
+            ax.contour(g.x_m, g.y_m, ctl, levels=[1.0], colors=_KEEP_OUT, linewidths=1.2, linestyles="--")
 
         ax.add_patch(Polygon(res.boundary, closed=True, fill=False, edgecolor="black", linewidth=1.6, zorder=3))
         xr = g.extent_m[1] - g.extent_m[0]
-        stations_xy = [(t.x_m, t.y_m) for t in res.transmitters]
+        stations_xy = [(t.x_m, t.y_m) for t in res.transmitters] + [(v.x_m, v.y_m) for v in res.violations]
         for area in res.areas:
             st = KIND_STYLE[area.kind]
             ax.add_patch(Polygon(area.polygon, closed=True, linewidth=1.0, zorder=3, **st))
@@ -172,8 +173,8 @@ def site_map_png(res, *, width_in: float = 10.2, height_in: float = 6.0, dpi: in
                                       fontproperties={"size": 7}))
 
         handles = [
-            Line2D([], [], color="#b3122b", linewidth=1.4, label="ratio = 1, uncontrolled:\npublic kept out inside"),
-            Line2D([], [], color="#111111", linewidth=1.0, linestyle="--",
+            Line2D([], [], color=_KEEP_OUT, linewidth=1.6, label="ratio = 1, uncontrolled:\npublic kept out inside"),
+            Line2D([], [], color=_KEEP_OUT, linewidth=1.2, linestyle="--",
                    label="ratio = 1, controlled:\nnobody inside"),
             Line2D([], [], color="black", linewidth=1.6, label="site boundary"),
         ]

@@ -1,0 +1,179 @@
+"""``rfsafe site``: review an event site (several stations, areas, keep-out zones) and print tables or JSON."""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+import typer
+
+#: Grids with at least this many points get a progress bar (stderr, terminals only, not with --json).
+PROGRESS_MIN_POINTS = 200_000
+
+
+def _f(x, digits: int = 3) -> str:
+    if x is None:
+        return "-"
+    x = float(x)
+    if x != x or x in (float("inf"), float("-inf")):
+        return str(x)
+    ax = abs(x)
+    if ax != 0 and (ax < 1e-3 or ax >= 1e6):
+        return f"{x:.{digits - 1}e}"
+    return f"{x:.{digits}g}" if ax < 1000 else f"{x:.0f}"
+
+
+def _m(x) -> str:
+    return "-" if not x else f"{x:.2f}"
+
+
+def render_site(res) -> str:
+    """Human-readable tables of a SiteResult: violations first, then stations, then areas."""
+    from rfsafe.cli.output import format_table
+
+    out = [res.title]
+    out.append("  " + "\n  ".join([
+        f"site: {res.site or '-'}", f"evaluator: {res.evaluator or '-'}",
+        f"date: {res.evaluation_date} ({'from file' if res.evaluation_date_source == 'file' else 'today'})",
+        f"standard: {res.standard_name}",
+        f"ground reflection: {res.ground_reflection} (F = {res.ground_factor:g})",
+        f"heights: {', '.join(f'{h:g}' for h in res.heights_m)} m (worst taken); grid {res.grid_spacing_m:g} m, "
+        f"{res.grid_info['nx']} x {res.grid_info['ny']} points",
+        f"input: {res.input_file} sha256 {res.input_sha256[:16]}..."]))
+    out.append("")
+    if res.violations:
+        out.append(f"VIOLATIONS ({len(res.violations)}):")
+        out.extend(f"  V{i + 1}. {v.text}" for i, v in enumerate(res.violations))
+    else:
+        out.append("No violations: no public or operators' area, open ground or ground outside the site is "
+                   "above its limit.")
+    out.append("")
+    rows = []
+    for t in res.transmitters:
+        rows.append([t.transmitter, f"({t.x_m:g}, {t.y_m:g})", f"{t.height_m:g}", ", ".join(t.configurations),
+                     _m(t.keep_out_m["uncontrolled"]), _m(t.keep_out_m["controlled"]),
+                     _m(t.peak_gain_distance_m["uncontrolled"]),
+                     _m(t.rope_off_radius_m) if t.rope_off_radius_m else "none needed",
+                     f"{t.near_field_m:.2f}"])
+    out.append(format_table(
+        ["station", "x, y m", "height m", "configurations", "keep-out unc m", "keep-out ctl m",
+         "peak-gain dist unc m", "rope-off radius m", "near field m"], rows, align="llrlrrrrr",
+        title="Stations: keep-out zones on the ground (horizontal distance from the antenna; - = none)"))
+    out.append("")
+    rows = []
+    for r in res.regions:
+        rows.append([r.label, r.kind, r.checked_environment or "-", _f(r.worst_ratio["uncontrolled"]),
+                     _f(r.worst_ratio["controlled"]), str(r.points_over) if r.checked_environment else "-",
+                     r.dominant_transmitter or "-", str(r.near_field_points), r.verdict])
+    out.append(format_table(
+        ["area", "kind", "limit checked", "worst unc", "worst ctl", "points over", "mostly from",
+         "near-field pts", "verdict"], rows, align="lllrrrlrl",
+        title="Areas: worst total exposure ratio (1 = limit)"))
+    rated = [x for s in res.stations for x in s.exceeded_parts]
+    if rated:
+        out.append("")
+        out.append("Ratings exceeded:")
+        out.extend(f"  - {x}" for x in rated)
+    out.append("")
+    out.append(f"VERDICT: {res.verdict}")
+    return "\n".join(out)
+
+
+def grid_csv_bytes(res) -> bytes:
+    """The evaluated grid as CSV: one row per point, environments side by side."""
+    import io
+
+    import numpy as np
+
+    g = res.grid
+    xx, yy = np.meshgrid(g.x_m, g.y_m)
+    cols = [xx.ravel(), yy.ravel(), g.ratio[0].ravel(), g.ratio[1].ravel(),
+            g.worst_height_m[0].ravel(), g.worst_height_m[1].ravel()]
+    num = np.column_stack(cols)
+    text = io.StringIO()
+    text.write("x_m,y_m,ratio_controlled,ratio_uncontrolled,worst_height_controlled_m,"
+               "worst_height_uncontrolled_m,near_field,region\n")
+    quoted = ['"' + str(s).replace('"', '""') + '"' for s in g.region_labels]
+    qlab = np.array(quoted, dtype=object)[g.region.ravel()]
+    nf = np.where(g.near_field.ravel(), "true", "false")
+    body = io.StringIO()
+    np.savetxt(body, num, fmt=["%.6g", "%.6g", "%.6g", "%.6g", "%.6g", "%.6g"], delimiter=",")
+    lines = body.getvalue().splitlines()
+    for line, n, lab in zip(lines, nf, qlab):
+        text.write(f"{line},{n},{lab}\n")
+    return text.getvalue().encode("utf-8")
+
+
+class _Progress:
+    """A one-line progress bar on stderr."""
+
+    def __init__(self) -> None:
+        self.last = -1
+
+    def __call__(self, done: int, total: int) -> None:
+        if total < PROGRESS_MIN_POINTS:
+            return
+        pct = int(100 * done / total)
+        if pct == self.last:
+            return
+        self.last = pct
+        bar = "#" * (pct // 4) + "-" * (25 - pct // 4)
+        sys.stderr.write(f"\rgrid [{bar}] {pct:3d}% of {total} points")
+        if done >= total:
+            sys.stderr.write("\n")
+        sys.stderr.flush()
+
+
+def site(file: Path = typer.Argument(..., help="Site file (.toml)."),
+         json_out: bool = typer.Option(False, "--json", help="Print one JSON document instead of tables."),
+         csv_out: Path = typer.Option(None, "--csv", metavar="GRID.csv",
+                                      help="Also write the evaluated grid as CSV (one row per point)."),
+         output: Path = typer.Option(None, "-o", "--output", metavar="SITE.pdf",
+                                     help="Also write the site review as PDF (map, tables, cautions)."),
+         force: bool = typer.Option(False, "--force", help="Overwrite existing output files.")) -> None:
+    """Review an event site: keep-out zones of every station, areas, violations, rope-off radii.
+
+    Exit status: 0 no violation and no rating exceeded, 1 a violation or exceeded rating, 2 bad input.
+    """
+    from rfsafe.cli.output import print_json, warn
+    from rfsafe.errors import bad_value
+    from rfsafe.fileio import atomic_write_bytes, check_writable
+    from rfsafe.site import assess_site
+    from rfsafe.site_schema import load_site
+
+    if output is not None:
+        check_writable(output, force=force, field="-o")
+    if csv_out is not None:
+        check_writable(csv_out, force=force, field="--csv")
+        if output is not None and csv_out.resolve() == output.resolve():
+            raise bad_value("--csv", str(csv_out), "is the same file as -o (give two different files)")
+    loaded = load_site(file)
+    progress = _Progress() if (not json_out and sys.stderr.isatty()) else None
+    res = assess_site(loaded, progress=progress)
+    pdf = None
+    if output is not None:
+        from rfsafe.report.site_pdf import build_site_pdf
+
+        pdf = build_site_pdf(res)
+    csv_bytes = grid_csv_bytes(res) if csv_out is not None else None
+    if csv_bytes is not None:
+        atomic_write_bytes(csv_out, csv_bytes)
+    if pdf is not None:
+        atomic_write_bytes(output, pdf)
+    if json_out:
+        print_json(res)
+    else:
+        typer.echo(render_site(res))
+        for f in res.flags:
+            warn(f"caution: {f}")
+        for c in res.cautions:
+            warn(f"caution: {c}")
+        if output is not None:
+            warn(f"wrote {output}")
+        if csv_out is not None:
+            warn(f"wrote {csv_out}")
+    raise typer.Exit(res.exit_code)
+
+
+def register(app: typer.Typer) -> None:
+    app.command("site")(site)
