@@ -2,6 +2,7 @@
 
 import json
 import math
+import re
 from pathlib import Path
 
 import pytest
@@ -89,7 +90,6 @@ def test_malformed_files_give_one_error_line_and_exit_2(tmp_path, text, line):
     assert r.stdout == ""
     lines = r.stderr.strip().splitlines()
     assert len(lines) == 1
-    import re
     assert re.match(line, lines[0]), lines[0]
 
 

@@ -27,7 +27,7 @@ def spec(wires, feeds, ground="free-space"):
     return WireAntennaSpec.model_validate({"ground": ground, "wires": wires, "feeds": feeds})
 
 
-def dipole(length, radius, segments=None, *, x=0.0, feed=True):
+def dipole(length, radius, segments=None, *, x=0.0):
     w = {"points_m": [[x, 0.0, -length / 2], [x, 0.0, length / 2]], "radius_m": radius}
     if segments is not None:
         w["segments"] = segments
