@@ -1,0 +1,247 @@
+"""The event-site review: a reproducible PDF record of one site evaluation, ready to sign.
+
+It renders a :class:`rfsafe.site.SiteResult` and computes nothing new. Sections, in order:
+
+1. identity (title, site, evaluator, date, standard, rfsafe version, SHA-256 of the site file
+   and of every station file it reads) and the overall verdict, with the violations listed first;
+2. stations and their keep-out zones (rope-off radii);
+3. areas and the worst exposure in each;
+4. the site map (landscape page);
+5. configurations (power chain from the core evaluation);
+6. method and assumptions;
+7. cautions and flags;
+8. sign-off.
+
+Entry points: :func:`build_site_pdf` (bytes) and :func:`write_site_pdf` (file, atomically).
+The PDF uses the station worksheet's invariant set-up (fixed document id, creation date = the
+evaluation date); the map is a PNG drawn without a timestamp, so the same site file gives the
+same bytes.
+"""
+
+from __future__ import annotations
+
+import io
+from pathlib import Path
+from xml.sax.saxutils import escape
+
+from reportlab.lib.units import mm
+from reportlab.platypus import CondPageBreak, Image, KeepTogether, NextPageTemplate, PageBreak, Paragraph, Spacer
+
+from rfsafe.report.common import (COMPLIES_COLOR, EXCEEDS_COLOR, FONT_BOLD, PAGE_LANDSCAPE, build_pdf,
+                                  cautions_block, data_table, frame_width, identity_block, kv_table, num, p,
+                                  ratio_text, section_heading, signoff_block, styles)
+
+__all__ = ["build_site_pdf", "write_site_pdf", "site_story"]
+
+ENVIRONMENTS = ("controlled", "uncontrolled")
+
+
+def _hex(color) -> str:
+    return "#" + color.hexval()[2:]
+
+
+def _coloured(text: str, ok: bool, style: str = "cell") -> Paragraph:
+    return Paragraph(f'<font name="{FONT_BOLD}" color="{_hex(COMPLIES_COLOR if ok else EXCEEDS_COLOR)}">'
+                     f'{escape(text)}</font>', styles()[style])
+
+
+def _m(x) -> str:
+    return "–" if not x else f"{x:.2f}"
+
+
+def _ratio(x) -> str:
+    """An exposure ratio; infinity only occurs at a grid point on an antenna (distance 0)."""
+    return "∞ (at an antenna)" if x == float("inf") else ratio_text(x)
+
+
+# ------------------------------------------------------------------ 1 identity
+def _identity(res, width) -> list:
+    date_note = ("from the site file" if res.evaluation_date_source == "file"
+                 else "date of this run: the site file gives no evaluation date")
+    rows = [
+        ("Site", res.site or "–"),
+        ("Evaluator", res.evaluator or "–"),
+        ("Evaluation date", f"{res.evaluation_date} ({date_note})"),
+        ("Standard applied", f"{res.standard_name} [{res.standard}]"),
+        ("Environments", "; ".join(f"{env}: {res.environment_labels.get(env, env)}" for env in ENVIRONMENTS)),
+        ("Site file", res.input_file),
+        ("Program", f"rfsafe {res.rfsafe_version}"),
+    ]
+    n_v = len(res.violations)
+    rated = [x for s in res.stations for x in s.exceeded_parts]
+    if res.verdict == "COMPLIES":
+        rope = [t for t in res.transmitters if t.rope_off_radius_m]
+        detail = (f"no area above its limit; {len(rope)} station{'s' if len(rope) != 1 else ''} "
+                  "need a roped keep-out zone (section 2)" if rope else "no area above its limit; no keep-out zone")
+    else:
+        parts = []
+        if n_v:
+            parts.append(f"{n_v} violation{'s' if n_v != 1 else ''}")
+        if rated:
+            parts.append(f"{len(rated)} rating{'s' if len(rated) != 1 else ''} exceeded")
+        detail = " and ".join(parts) + ": see the list below"
+    out = identity_block(title=res.title or "Event site RF exposure review", subtitle="Event site RF exposure review",
+                         rows=rows, verdict=res.verdict, verdict_detail=detail, width=width)
+    hashes = [("SHA-256 of the site file", res.input_sha256)]
+    hashes += [(f"SHA-256 of {s.source}", s.source_sha256) for s in res.stations if s.source_sha256]
+    out.insert(-1, kv_table(hashes, [46 * mm, width - 46 * mm]))
+    st = styles()["body"]
+    if res.violations:
+        out.append(p("Violations (worst first):", "h2"))
+        for i, v in enumerate(res.violations):
+            out.append(Paragraph(f'<font color="{_hex(EXCEEDS_COLOR)}"><b>V{i + 1}</b> {escape(v.text)}</font>', st,
+                                 bulletText="✗"))
+    if rated:
+        out.append(p("Ratings exceeded:", "h2"))
+        for line in rated:
+            out.append(Paragraph(f'<font color="{_hex(EXCEEDS_COLOR)}">{escape(line)}</font>', st, bulletText="✗"))
+    rope = [t for t in res.transmitters if t.rope_off_radius_m]
+    if rope:
+        out.append(p("Keep-out zones to rope off before transmitting:", "h2"))
+        for t in rope:
+            out.append(Paragraph(escape(f"{t.transmitter}: rope at {t.rope_off_radius_m:g} m or more from the "
+                                        f"antenna at ({t.x_m:g}, {t.y_m:g}) m (keep-out zone reaches "
+                                        f"{t.keep_out_m['uncontrolled']:.2f} m on the ground)"), st, bulletText="•"))
+    return out
+
+
+# ------------------------------------------------------------------ 2 map
+def _map(res) -> list:
+    from rfsafe.report.site_map import site_map_png
+
+    width = PAGE_LANDSCAPE[0] - 30 * mm
+    height = width * 6.0 / 10.2
+    png = site_map_png(res, width_in=10.2, height_in=6.0, dpi=200)
+    g = res.grid_info
+    caption = (f"Colour: total exposure ratio against the uncontrolled (public) limit, worst of the heights "
+               f"{', '.join(f'{h:g}' for h in res.heights_m)} m, summed over all stations (each its worst "
+               f"configuration). Magenta contours: ratio = 1 against the uncontrolled limit (solid; the public "
+               f"must be kept out inside) and the controlled limit (dashed; nobody inside). Grid "
+               f"{res.grid_spacing_m:g} m, {g['nx']} x {g['ny']} points. Dotted circles: where the ground is in an "
+               f"antenna's near field (the far-field estimate is not valid there). Crosses V1, V2, ...: the worst "
+               f"point of each violation. x east, y north, metres.")
+    return [NextPageTemplate("landscape"), PageBreak(), section_heading("4", "Site map"),
+            Image(io.BytesIO(png), width=width, height=height), p(caption, "caption"),
+            NextPageTemplate("portrait"), PageBreak()]
+
+
+# ------------------------------------------------------------------ 3 stations
+def _stations(res, width) -> list:
+    out = [section_heading("2", "Stations and keep-out zones")]
+    out.append(p("Keep-out distances are horizontal distances on the ground from the antenna to the farthest grid "
+                 "point of the total keep-out zone where this station has the largest share (uncontrolled: the "
+                 "public must be kept out; controlled: nobody). The peak-gain distance is the 3-D far-field "
+                 "compliance distance with peak gain toward every direction, an upper bound of the station's own "
+                 "zone. Rope-off radius: keep-out distance plus one grid spacing, rounded up to the next 0.5 m.",
+                 "small"))
+    headers = ["Station", "Antenna x, y, height m", "Configurations", "Gain toward points",
+               "Keep-out unc / ctl m", "Peak-gain distance unc / ctl m", "Rope-off radius m", "Near field m"]
+    rows = []
+    for t in res.transmitters:
+        st = next(s for s in res.stations if t.transmitter in s.transmitters)
+        how = "; ".join(sorted(set(st.pattern_used.values())))
+        rope = f"{t.rope_off_radius_m:g}" if t.rope_off_radius_m else "none needed"
+        rows.append([t.transmitter, f"{t.x_m:g}, {t.y_m:g}, {t.height_m:g}", ", ".join(t.configurations), how,
+                     f"{_m(t.keep_out_m['uncontrolled'])} / {_m(t.keep_out_m['controlled'])}",
+                     f"{t.peak_gain_distance_m['uncontrolled']:.2f} / {t.peak_gain_distance_m['controlled']:.2f}",
+                     rope, f"{t.near_field_m:.2f}"])
+    w = [0.11, 0.12, 0.14, 0.19, 0.11, 0.13, 0.10, 0.10]
+    out.append(data_table(headers, rows, [f * width for f in w], align="llllrrrr"))
+    srcs = [[s.name, s.description or "–", s.source] for s in res.stations]
+    out.append(Spacer(1, 3 * mm))
+    out.append(data_table(["Station", "Description", "Read from"], srcs, [0.15 * width, 0.6 * width, 0.25 * width],
+                          align="lll"))
+    return out
+
+
+# ------------------------------------------------------------------ 4 areas
+def _areas(res, width) -> list:
+    out = [CondPageBreak(60 * mm), section_heading("3", "Areas")]
+    out.append(p("Worst total exposure ratio found at the area's grid points and along its edges (1 = limit). "
+                 "Public areas, open ground (in no declared area) and ground outside the site are checked against "
+                 "the uncontrolled limit, operators' areas against the controlled limit; no-access areas are not "
+                 "checked (nobody may be there while the stations transmit).", "small"))
+    headers = ["Area", "Kind", "Limit checked", "Worst ratio unc", "Worst ratio ctl", "Points over",
+               "Worst point x, y m", "Mostly from", "Near-field points", "Verdict"]
+    rows = []
+    for r in res.regions:
+        ok = r.verdict != "VIOLATION"
+        verdict = _coloured(r.verdict, ok) if r.checked_environment else p(r.verdict, "cell")
+        where = "–" if r.worst_x_m is None else f"{r.worst_x_m:.1f}, {r.worst_y_m:.1f}"
+        rows.append([r.label, r.kind, r.checked_environment or "–", _ratio(r.worst_ratio["uncontrolled"]),
+                     _ratio(r.worst_ratio["controlled"]), str(r.points_over) if r.checked_environment else "–",
+                     where, r.dominant_transmitter or "–", str(r.near_field_points), verdict])
+    w = [0.15, 0.09, 0.10, 0.10, 0.10, 0.07, 0.11, 0.09, 0.08, 0.11]
+    out.append(data_table(headers, rows, [f * width for f in w], align="lllrrrrlrl"))
+    return out
+
+
+# ------------------------------------------------------------------ 5 configurations
+def _configurations(res, width) -> list:
+    out = [CondPageBreak(60 * mm), section_heading("5", "Configurations (power chain)")]
+    out.append(p("From the core evaluation of each station (as rfsafe evaluate): average power after the mode "
+                 "duty factor and the largest fill of the averaging window, line loss, peak gain and EIRP "
+                 "(uncontrolled averaging window).", "small"))
+    headers = ["Station", "Configuration", "MHz", "Mode", "PEP W", "Duty", "Window fill ctl / unc", "Line loss dB",
+               "Avg power at antenna W unc", "Peak gain dBi", "EIRP W unc"]
+    rows = []
+    for s in res.stations:
+        for c in s.configurations:
+            rows.append([s.name, c.id, f"{c.freq_mhz:g}", c.mode, num(c.pep_w), f"{c.duty_factor:g}",
+                         f"{c.transmit_fraction['controlled']:.2f} / {c.transmit_fraction['uncontrolled']:.2f}",
+                         f"{c.line_loss_db:.2f}", num(c.avg_power_at_antenna_w["uncontrolled"]),
+                         f"{c.gain_dbi:.2f}", num(c.eirp_w["uncontrolled"])])
+    w = [0.11, 0.12, 0.07, 0.08, 0.07, 0.06, 0.11, 0.08, 0.11, 0.08, 0.11]
+    out.append(data_table(headers, rows, [f * width for f in w], align="llrlrrrrrrr"))
+    return out
+
+
+# ------------------------------------------------------------------ 6-8
+def _method(res) -> list:
+    out = [CondPageBreak(50 * mm), section_heading("6", "Method and assumptions")]
+    for note in res.method_notes:
+        out.append(Paragraph(escape(note), styles()["bullet"], bulletText="•"))
+    return out
+
+
+def site_story(res) -> list:
+    """The site review's flowables, in section order (a fresh list for every build)."""
+    width = frame_width()
+    story = []
+    story += _identity(res, width)
+    story += _stations(res, width)
+    story += _areas(res, width)
+    story += _map(res)
+    story += _configurations(res, width)
+    story += _method(res)
+    story.append(CondPageBreak(70 * mm))
+    story.append(section_heading("7", "Cautions"))
+    story += cautions_block(res.cautions, res.flags)
+    story.append(Spacer(1, 4 * mm))
+    story.append(KeepTogether([section_heading("8", "Sign-off"),
+                               p("I have reviewed the inputs and results of this site review, and the keep-out zones "
+                                 "are roped off as listed.", "small"),
+                               Spacer(1, 2 * mm), signoff_block(width, evaluator=res.evaluator or "", date="")]))
+    return story
+
+
+def build_site_pdf(res) -> bytes:
+    """The site review of ``res`` as PDF bytes; the same result gives the same bytes."""
+    who = res.site or res.title or "site"
+    return build_pdf(
+        site_story(res), title=res.title or "Event site RF exposure review", author=res.evaluator or "",
+        subject=f"RF exposure review of {who} under {res.standard_name}: {res.verdict}",
+        keywords=("RF exposure", "event site", res.standard, res.verdict), date_iso=res.evaluation_date,
+        header_left=f"{who} · event site RF exposure review · {res.evaluation_date}",
+        header_right=f"{res.standard} · {res.verdict}",
+        footer_left=f"{res.input_file} · SHA-256 {res.input_sha256[:16]}… · rfsafe {res.rfsafe_version}")
+
+
+def write_site_pdf(res, path, *, force: bool = False) -> Path:
+    """Write the site review to ``path`` (temporary file, then rename); refuses to overwrite unless ``force``."""
+    from rfsafe.fileio import atomic_write_bytes, check_writable
+
+    path = Path(path)
+    check_writable(path, force=force)
+    atomic_write_bytes(path, build_site_pdf(res))
+    return path
