@@ -327,7 +327,7 @@ def _far_field_at(em: Emitter, loaded: LoadedStation, place, z_m: float):
     return best
 
 
-def _near_field_at(em: Emitter, solution, place, heights):
+def _near_field_at(em: Emitter, solution, place, heights, field: str):
     """Worst moment-method (ratio, limit, E, H, z) over the evaluation heights."""
     from rfsafe.limits import exposure_ratio
 
@@ -335,7 +335,7 @@ def _near_field_at(em: Emitter, solution, place, heights):
     best = None
     for lim in em.limits[place.environment]:
         p_ant = em.pep_at_antenna_w if lim.basis == "instantaneous" else em.avg_power_at_antenna_w[place.environment]
-        e, h = solution.fields_rms(pts, p_ant)
+        e, h = solution.fields_rms(pts, p_ant, field=field)
         r = np.asarray(exposure_ratio(lim, e_field_v_m=e, h_field_a_m=h), dtype=float)
         k = int(np.argmax(r))
         if best is None or r[k] > best[0]:
@@ -358,7 +358,7 @@ def _place_exposure(em: Emitter, loaded: LoadedStation, p_index: int, place, cre
     inside = dist_min < flag_dist
     governing = f"{_governing(lim, s)} ({lim.basis})"
     if inside and solution is not None:
-        rn, limn, en, hn, zn = _near_field_at(em, solution, place, heights)
+        rn, limn, en, hn, zn = _near_field_at(em, solution, place, heights, f"places[{p_index}].body_heights_m")
         e_part = (en / limn.e_field_v_m) ** 2 if limn.e_field_v_m else 0.0
         h_part = (hn / limn.h_field_a_m) ** 2 if limn.h_field_a_m else 0.0
         diff_db = 10 * math.log10(rn / r) if rn > 0 and r > 0 else float("nan")
