@@ -795,13 +795,16 @@ def analyse_site(emitters: Sequence[SiteEmitter], *, boundary, areas: Sequence[A
                                   dominant_transmitter=dom, near_field_points=int(np.count_nonzero(pn)),
                                   verdict=verdict))
         if over:
-            what = {"open ground": "open ground (no area declared; treated as public)",
-                    "outside the site": "outside the site boundary (treated as public)"}.get(kind, f"{kind} area")
+            where = {"open ground": "open ground (in no declared area; treated as public)",
+                     "outside the site": "outside the site boundary (treated as public)"}.get(
+                kind, f"{label!r} ({kind} area)")
+            how_much = (f"exposure ratio unbounded at the antenna itself, ({wx:.1f}, {wy:.1f}) m"
+                        if worst[env] == math.inf else
+                        f"{env} exposure ratio up to {worst[env]:.3g} at ({wx:.1f}, {wy:.1f}) m")
             violations.append(Violation(
                 region=label, kind=kind, environment=env, worst_ratio=worst[env], x_m=wx, y_m=wy,
                 points_over=over, dominant_transmitter=dom,
-                text=(f"{label!r} ({what}): {env} exposure ratio up to {worst[env]:.3g} at "
-                      f"({wx:.1f}, {wy:.1f}) m, {over} points above the limit, mostly from {dom}")))
+                text=f"{where}: {how_much}, {over} points above the {env} limit, mostly from {dom}"))
         if pn.any() and env is not None:
             flags.append(f"{label!r}: {int(np.count_nonzero(pn))} points lie in the near field of a station: "
                          "far-field estimate; near-field analysis or measurement recommended")

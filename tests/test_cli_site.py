@@ -1,0 +1,136 @@
+"""Tests of ``rfsafe site``: exit codes, tables, JSON shape, grid CSV, the PDF and file handling."""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+from typer.testing import CliRunner
+
+from rfsafe.cli import app
+
+DEMO = Path(__file__).resolve().parent.parent / "reports_demo" / "event_field_day.toml"
+
+
+@pytest.fixture(scope="module")
+def demo_json():
+    r = CliRunner().invoke(app, ["site", str(DEMO), "--json"])
+    assert r.exit_code == 1, r.stderr
+    return json.loads(r.stdout)
+
+
+def test_demo_tables_list_violations_first_and_exit_1():
+    r = CliRunner().invoke(app, ["site", str(DEMO)])
+    assert r.exit_code == 1
+    out = r.stdout
+    assert out.index("VIOLATIONS (1):") < out.index("Stations:") < out.index("Areas:") < out.index("VERDICT: EXCEEDS")
+    assert "V1. 'Public footpath' (public area): uncontrolled exposure ratio up to" in out
+    assert "caution: Local regulation and the regulator's own guidance govern" in r.stderr
+    assert "grid [" not in r.stderr   # no progress bar when stderr is not a terminal
+
+
+def test_demo_json_shape(demo_json):
+    d = demo_json
+    for key in ("title", "site", "evaluator", "evaluation_date", "standard", "rfsafe_version", "input_file",
+                "input_sha256", "heights_m", "grid_spacing_m", "grid_info", "boundary", "areas", "stations",
+                "transmitters", "regions", "violations", "exceeded", "verdict", "method_notes", "flags", "cautions"):
+        assert key in d
+    assert "grid" not in d and "emitters" not in d   # bulky arrays stay out of JSON (see --csv)
+    assert d["verdict"] == "EXCEEDS"
+    assert [v["region"] for v in d["violations"]] == ["Public footpath"]
+    assert d["violations"][0]["dominant_transmitter"] == "HF CW"
+    tx = {t["transmitter"]: t for t in d["transmitters"]}
+    assert set(tx) == {"HF phone", "HF CW", "Digital", "Talk-in"}
+    assert tx["HF CW"]["rope_off_radius_m"] >= tx["HF CW"]["keep_out_m"]["uncontrolled"]
+    assert set(tx["HF CW"]["keep_out_m"]) == {"controlled", "uncontrolled"}
+    # the talk-in station comes from its own station file, with its hash
+    talk = next(s for s in d["stations"] if s["name"] == "Talk-in")
+    assert talk["source"] == "event_field_day_vhf.toml" and len(talk["source_sha256"]) == 64
+    # an infinite ratio (grid point on an antenna) becomes null in JSON, never a plausible number
+    rope = next(r for r in d["regions"] if r["label"] == "Rope: Digital vertical")
+    assert rope["worst_ratio"]["uncontrolled"] is None
+
+
+def test_grid_csv(tmp_path, demo_json):
+    path = tmp_path / "grid.csv"
+    r = CliRunner().invoke(app, ["site", str(DEMO), "--csv", str(path)])
+    assert r.exit_code == 1
+    rows = list(csv.DictReader(io.StringIO(path.read_text())))
+    assert list(rows[0]) == ["x_m", "y_m", "ratio_controlled", "ratio_uncontrolled", "worst_height_controlled_m",
+                             "worst_height_uncontrolled_m", "near_field", "region"]
+    assert len(rows) == demo_json["grid_info"]["points"]
+    path_rows = [row for row in rows if row["region"] == "Public footpath"]
+    over = [row for row in path_rows if float(row["ratio_uncontrolled"]) > 1]
+    assert over   # the violation is on the grid too (the JSON count adds the edge samples)
+    assert len(over) <= next(x for x in demo_json["regions"] if x["label"] == "Public footpath")["points_over"]
+    assert {row["near_field"] for row in rows} <= {"true", "false"}
+
+
+def test_pdf_is_reproducible_and_never_overwritten_without_force(tmp_path):
+    from pypdf import PdfReader
+
+    a, b = tmp_path / "a.pdf", tmp_path / "b.pdf"
+    assert CliRunner().invoke(app, ["site", str(DEMO), "-o", str(a)]).exit_code == 1
+    assert CliRunner().invoke(app, ["site", str(DEMO), "-o", str(b)]).exit_code == 1
+    assert a.read_bytes() == b.read_bytes()
+    text = "".join(page.extract_text() for page in PdfReader(str(a)).pages)
+    import hashlib
+
+    assert hashlib.sha256(DEMO.read_bytes()).hexdigest() in text
+    for words in ("EXCEEDS", "Site map", "Stations and keep-out zones", "Areas", "Cautions", "Sign-off"):
+        assert words in text
+    before = a.read_bytes()
+    r = CliRunner().invoke(app, ["site", str(DEMO), "-o", str(a)])
+    assert r.exit_code == 2
+    assert r.stderr == f'Error: -o: "{a}" already exists (use --force to overwrite)\n'
+    assert a.read_bytes() == before
+    a.write_bytes(b"old")
+    assert CliRunner().invoke(app, ["site", str(DEMO), "-o", str(a), "--force"]).exit_code == 1
+    assert a.read_bytes() == before
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["a.pdf", "b.pdf"]   # no temporary files left
+
+
+def test_csv_and_pdf_must_differ(tmp_path):
+    out = tmp_path / "x.out"
+    r = CliRunner().invoke(app, ["site", str(DEMO), "-o", str(out), "--csv", str(out)])
+    assert r.exit_code == 2
+    assert r.stderr == f'Error: --csv: "{out}" is the same file as -o (give two different files)\n'
+    assert not out.exists()
+
+
+def test_missing_site_file(tmp_path):
+    r = CliRunner().invoke(app, ["site", str(tmp_path / "none.toml")])
+    assert r.exit_code == 2
+    assert r.stderr == f'Error: FILE: "{tmp_path / "none.toml"}" does not exist\n'
+
+
+def test_help():
+    r = CliRunner().invoke(app, ["site", "--help"])
+    assert r.exit_code == 0
+    for opt in ("--json", "--csv", "-o", "--force"):
+        assert opt in r.stdout
+
+
+def test_command_module_imports_no_numpy():
+    code = "import sys, rfsafe.cli.cmd_site; print('numpy' in sys.modules, 'matplotlib' in sys.modules)"
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
+    assert out.split() == ["False", "False"]
+
+
+def test_progress_bar_draws_on_stderr_for_large_grids(capsys):
+    from rfsafe.cli.cmd_site import PROGRESS_MIN_POINTS, _Progress
+
+    bar = _Progress()
+    bar(10, 100)                                   # small grid: nothing
+    assert capsys.readouterr().err == ""
+    n = PROGRESS_MIN_POINTS
+    bar(n // 2, n)
+    bar(n, n)
+    err = capsys.readouterr().err
+    assert f"\rgrid [############-------------]  50% of {n} points" in err
+    assert err.endswith(f"\rgrid [#########################] 100% of {n} points\n")
