@@ -200,7 +200,7 @@ def test_renders_to_png_pages(demo, tmp_path):
     _, data, _ = demo
     pdf = tmp_path / "demo.pdf"
     pdf.write_bytes(data)
-    subprocess.run(["pdftoppm", "-r", "30", "-png", str(pdf), str(tmp_path / "page")], check=True,
+    subprocess.run(["pdftoppm", "-r", "50", "-png", str(pdf), str(tmp_path / "page")], check=True,
                    capture_output=True)
     pngs = sorted(tmp_path.glob("page-*.png"))
     assert len(pngs) == len(pypdf.PdfReader(io.BytesIO(data)).pages)
@@ -209,6 +209,7 @@ def test_renders_to_png_pages(demo, tmp_path):
         w, h = im.size
         assert h > w                                      # A4 portrait
         lo, hi = im.getextrema()
-        assert hi == 255 and lo < 100                     # a white page with dark ink on it
+        # a white page with ink on it (small anti-aliased text at 50 dpi is grey, not black)
+        assert hi == 255 and lo < 150
         inked = sum(im.histogram()[:200])                # pixels darker than light grey
         assert inked > 0.002 * w * h, f"{png.name} is nearly empty"

@@ -92,7 +92,7 @@ def exposure_distance_figure(cfg, places, *, width: float, height: float, place_
     ax.xband(xlim[0], boundary, color=PALETTE["near_field"])
     ax.frame(xlabel="distance from the antenna R [m]", ylabel="exposure ratio (1 = limit)",
              title=f"{cfg.id}  ·  {cfg.freq_mhz:g} MHz  ·  {cfg.mode}")
-    ax.hline(1.0, color=PALETTE["limit"], width=1.1, label="limit (ratio = 1)", label_side="right")
+    ax.hline(1.0, color=PALETTE["limit"], width=1.1)
     for env in ("controlled", "uncontrolled"):
         if env not in dist or dist[env] <= 0:
             continue
@@ -107,6 +107,10 @@ def exposure_distance_figure(cfg, places, *, width: float, height: float, place_
         X, Y = ax.marker(r, ratio, shape=ENV_SHAPE[env], color=PALETTE[env])
         labels.append((X, Y, label, PALETTE[env]))
     ax.point_labels(labels)
+    Y1 = ax.py(1.0)
+    right, left = ax.x0 + ax.w - 2, ax.x0 + 2
+    ax.label([(right, Y1 + 2.5, "end"), (right, Y1 - ax.font_size - 1, "end"), (left, Y1 + 2.5, "start"),
+              (left, Y1 - ax.font_size - 1, "start")], "limit (ratio = 1)", color=PALETTE["limit"], backing=True)
     parts = [f"{env} {dist[env]:.2f} m" for env in ("controlled", "uncontrolled") if env in dist]
     caption = (f"Compliance distance (dotted): {', '.join(parts)}. Shaded: inside {boundary:.2f} m "
                f"({'2D²/λ' if boundary > cfg.near_field_distance_m else 'λ/2π'}).")
@@ -145,9 +149,10 @@ def exposure_legend(width: float) -> Drawing:
 def line_profile_figure(cfg, *, width: float, height: float):
     """|V| and |I| (peak, at PEP) along the feedline of one configuration, with its voltage ratings.
 
-    Ratings up to 10 times the largest voltage are drawn to scale as dashed lines; a rating
-    further away is named in the caption with its headroom (from the line result), so that the
-    standing wave itself stays readable.
+    Voltage ratings up to 10 times the largest voltage are drawn to scale as dashed lines: the
+    cable's along the whole line, each connector's over the end it sits at. A rating further away
+    is named in the caption with its headroom (from the line result), so that the standing wave
+    itself stays readable.
 
     Returns
     -------
@@ -163,13 +168,15 @@ def line_profile_figure(cfg, *, width: float, height: float):
     xlim = (0.0, length if length > 0 else 1.0)
     v_max = float(line.line_voltage_v_peak)
     i_max = float(line.line_current_a_peak)
-    merged: dict[float, list] = {}       # one line per distinct rating, naming every part it rates
-    for s in line.part_stresses:
-        if s.quantity == "voltage_v_peak" and s.rating is not None:
-            merged.setdefault(float(s.rating), []).append(s)
-    on_scale = [(v, parts) for v, parts in sorted(merged.items()) if v <= 10 * v_max]
-    off_scale = [(v, parts) for v, parts in sorted(merged.items()) if v > 10 * v_max]
-    v_top = max([v_max * 1.25] + [v * 1.1 for v, _ in on_scale])
+    # ratings that apply along the line: the cable's over its whole length, each connector at its end
+    # (ratings of tuner parts are stresses of the network, not of the line, and are tabulated instead)
+    spans = {"line": (0.0, xlim[1]), "connector.transmitter": (0.0, 0.12 * xlim[1]),
+             "connector.antenna": (0.88 * xlim[1], xlim[1])}
+    ratings = [s for s in line.part_stresses
+               if s.quantity == "voltage_v_peak" and s.rating is not None and s.part in spans]
+    on_scale = [s for s in ratings if s.rating <= 10 * v_max]
+    off_scale = [s for s in ratings if s.rating > 10 * v_max]
+    v_top = max([v_max * 1.25] + [s.rating * 1.12 for s in on_scale])
     v_top = max(v_top, linear_ticks(0, v_top)[-1])
     i_top = i_max * 1.25
     i_top = max(i_top, linear_ticks(0, i_top)[-1])
@@ -179,35 +186,48 @@ def line_profile_figure(cfg, *, width: float, height: float):
     title = f"{cfg.id}  ·  {line.cable_id}, {length:g} m  ·  SWR {line.swr_at_antenna:.2f}"
     av = Axes(d, left, bottom + panel_h + gap, width - left - right, panel_h, xlim=xlim, ylim=(0, v_top))
     av.frame(xlabel="", ylabel="|V| peak [V]", title=title, xticklabels=False)
-    for k, (value, parts) in enumerate(on_scale):
-        color = PALETTE["rating"] if k == 0 else PALETTE["rating2"]
-        names = ", ".join(s.part for s in parts)
-        av.hline(value, color=color, dash=(3, 2), label=f"{value:.0f} V peak: {names}", label_side="left",
-                 above=False)
+    for s in on_scale:
+        av.hline(s.rating, color=PALETTE["rating"], dash=(3, 2), x_from=spans[s.part][0], x_to=spans[s.part][1])
     av.polyline(pos, volt, color=PALETTE["voltage"], width=1.2)
     vx = float(line.line_voltage_max_position_m)
     av.marker(vx, v_max, color=PALETTE["voltage"], size=2.2)
-    right_half = vx > xlim[0] + 0.5 * (xlim[1] - xlim[0])
-    av.text(av.px(vx) + (-4 if right_half else 4), av.py(v_max) + 3.5, f"max {v_max:.0f} V at {vx:.1f} m",
-            color=PALETTE["voltage"], anchor="end" if right_half else "start", bold=True)
+    _max_label(av, vx, v_max, f"max {v_max:.0f} V at {vx:.1f} m", PALETTE["voltage"])
+    by_value: dict[float, list[str]] = {}       # one label per rating value
+    for s in on_scale:
+        by_value.setdefault(float(s.rating), []).append(s.part)
+    fs = av.font_size
+    for value, parts in by_value.items():
+        names = "connectors" if sorted(parts) == ["connector.antenna", "connector.transmitter"] else " & ".join(parts)
+        X1 = av.px(min(spans[n][0] for n in parts)) + 2
+        X2 = av.px(max(spans[n][1] for n in parts)) - 2
+        Y = av.py(value)
+        cands = [(X1, Y + 2.5, "start"), (X2, Y + 2.5, "end")]
+        cands += [(X, Y - k * (fs + 1.5) - fs, a) for k in range(3) for X, a in ((X1, "start"), (X2, "end"))]
+        av.label(cands, f"{names} {value:.0f} V peak", color=PALETTE["rating"], backing=True)
 
     ai = Axes(d, left, bottom, width - left - right, panel_h, xlim=xlim, ylim=(0, i_top))
     ai.frame(xlabel="position along the line from the transmitter end [m]", ylabel="|I| peak [A]")
     ai.polyline(pos, cur, color=PALETTE["current"], width=1.2)
     ix = float(line.line_current_max_position_m)
     ai.marker(ix, i_max, color=PALETTE["current"], size=2.2)
-    right_half = ix > xlim[0] + 0.5 * (xlim[1] - xlim[0])
-    ai.text(ai.px(ix) + (-4 if right_half else 4), ai.py(i_max) + 3.5, f"max {i_max:.2f} A at {ix:.1f} m",
-            color=PALETTE["current"], anchor="end" if right_half else "start", bold=True)
+    _max_label(ai, ix, i_max, f"max {i_max:.2f} A at {ix:.1f} m", PALETTE["current"])
     if off_scale:
         caption = "Above the scale: " + "; ".join(
-            f"{', '.join(s.part for s in parts)} rated {value:.0f} V peak "
-            f"(headroom {min(s.headroom for s in parts):.1f}×)" for value, parts in off_scale) + "."
-    elif not merged:
-        caption = "No voltage rating declared for this line or its connectors."
+            f"{s.part} rated {s.rating:.0f} V peak (headroom {s.headroom:.1f}×)" for s in off_scale) + "."
+    elif not ratings:
+        caption = "No voltage rating is known for this line or its connectors."
     else:
         caption = ""
     return d, caption
+
+
+def _max_label(ax, xv, yv, text, color):
+    """Label a maximum beside its marker, on the side with room."""
+    X, Y = ax.px(xv), ax.py(yv)
+    fs = ax.font_size
+    ax.label([(X + 4, Y + 3.5, "start"), (X - 4, Y + 3.5, "end"), (X + 4, Y - fs - 2, "start"),
+              (X - 4, Y - fs - 2, "end"), (X, Y + 4, "middle"), (X, Y - fs - 3, "middle")],
+             text, color=color, bold=True, backing=True)
 
 
 def figure_grid(drawings, width: float, *, columns: int = 2) -> Table:

@@ -113,6 +113,8 @@ class Axes:
         for lim, is_log, name in ((self.xlim, xlog, "x"), (self.ylim, ylog, "y")):
             if not (lim[1] > lim[0]) or (is_log and lim[0] <= 0):
                 raise ValueError(f"bad {name} range {lim} for a {'log' if is_log else 'linear'} axis")
+        self._boxes: list[tuple] = []        # markers and labels already placed [pt]
+        self._segments: list[tuple] = []     # drawn curves labels must not cover [pt]
 
     # ---- mapping
     def _u(self, v, lim, is_log):
@@ -194,6 +196,22 @@ class Axes:
     def _to_unit(self, xv, yv):
         return self._u(xv, self.xlim, self.xlog), self._u(yv, self.ylim, self.ylog)
 
+    def _keep_clear(self, *segments):
+        """Register drawn page-coordinate segments that labels must not cover."""
+        self._segments.extend(segments)
+
+    def _box_in_frame(self, box) -> bool:
+        x1, y1, x2, y2 = box
+        return x1 >= self.x0 and x2 <= self.x0 + self.w and y1 >= self.y0 and y2 <= self.y0 + self.h
+
+    def _conflicts(self, box) -> int:
+        x1, y1, x2, y2 = box
+        n = sum(1 for b in self._boxes if not (x2 <= b[0] or x1 >= b[2] or y2 <= b[1] or y1 >= b[3]))
+        return n + sum(1 for seg in self._segments if _segment_hits_box(seg, box))
+
+    def _box_is_free(self, box) -> bool:
+        return self._box_in_frame(box) and self._conflicts(box) == 0
+
     def segment(self, x1, y1, x2, y2, *, color, width=1.0, dash=None):
         """A straight segment in scale space (straight on the page), clipped to the plot area."""
         u1, v1 = self._to_unit(x1, y1)
@@ -215,6 +233,7 @@ class Axes:
         a = (self.x0 + self.w * (u1 + t0 * du), self.y0 + self.h * (v1 + t0 * dv))
         b = (self.x0 + self.w * (u1 + t1 * du), self.y0 + self.h * (v1 + t1 * dv))
         self.d.add(Line(*a, *b, strokeColor=color, strokeWidth=width, strokeDashArray=dash))
+        self._keep_clear((*a, *b))
 
     def polyline(self, xs, ys, *, color, width=1.0, dash=None):
         """A sampled curve (data expected inside the limits; points outside are clamped to the frame)."""
@@ -224,28 +243,17 @@ class Axes:
             Y = min(max(self.py(float(yv)), self.y0), self.y0 + self.h)
             pts.extend((round(X, 3), round(Y, 3)))
         self.d.add(PolyLine(pts, strokeColor=color, strokeWidth=width, strokeDashArray=dash))
+        self._keep_clear(*[(pts[i], pts[i + 1], pts[i + 2], pts[i + 3]) for i in range(0, len(pts) - 2, 2)])
 
-    def hline(self, yv, *, color, width=0.9, dash=None, label=None, label_side="right", above=True):
+    def hline(self, yv, *, color, width=0.9, dash=None, x_from=None, x_to=None):
+        """A horizontal line at ``yv`` (optionally only between two x values)."""
         if not (self.ylim[0] <= yv <= self.ylim[1]):
             return
         Y = self.py(yv)
-        self.d.add(Line(self.x0, Y, self.x0 + self.w, Y, strokeColor=color, strokeWidth=width,
-                        strokeDashArray=dash))
-        if label:
-            fs = self.font_size
-            ty = Y + 1.5 if above else Y - fs - 0.5
-            tw = stringWidth(label, FONT, fs)
-            tx = self.x0 + self.w - 2 - tw if label_side == "right" else self.x0 + 2
-            # white backing keeps the label readable over grid lines
-            self.d.add(Rect(tx - 1, ty - 1.6, tw + 2, fs + 1.2, fillColor=colors.white, strokeColor=None))
-            self.d.add(String(tx, ty, label, fontName=FONT, fontSize=fs, fillColor=color))
-
-    def vline(self, xv, *, color, width=0.6, dash=None):
-        if not (self.xlim[0] <= xv <= self.xlim[1]):
-            return
-        X = self.px(xv)
-        self.d.add(Line(X, self.y0, X, self.y0 + self.h, strokeColor=color, strokeWidth=width,
-                        strokeDashArray=dash))
+        X1 = self.x0 if x_from is None else self.px(max(x_from, self.xlim[0]))
+        X2 = self.x0 + self.w if x_to is None else self.px(min(x_to, self.xlim[1]))
+        self.d.add(Line(X1, Y, X2, Y, strokeColor=color, strokeWidth=width, strokeDashArray=dash))
+        self._keep_clear((X1, Y, X2, Y))
 
     def xband(self, x_from, x_to, *, color):
         """A shaded vertical band between two x values (clipped)."""
@@ -271,64 +279,73 @@ class Axes:
             down = yv < self.ylim[0]
             pts = [X - s, Y + (s if down else -s), X + s, Y + (s if down else -s), X, Y]
             self.d.add(Polygon(pts, fillColor=color, strokeColor=None))
+        self._boxes.append((X - size, Y - size, X + size, Y + size))
         return X, Y
 
-    def point_labels(self, items, *, size=2.6):
-        """Labels beside markers, placed greedily so that no two labels overlap.
+    def label(self, candidates, text, *, color=None, bold=False, backing=False):
+        """Text at the first candidate position clear of curves, markers and earlier labels.
 
-        ``items`` are (X, Y, text, color) in page coordinates; each label tries right, left, above
-        and below its marker (then further out) and takes the first place clear of the labels
-        already set and inside the plot area.
+        ``candidates`` are (X, Y, anchor) page positions of the text baseline ("start", "end" or
+        "middle"); when none is clear the first is used. ``backing`` puts a white box behind the
+        text. Returns the box used.
         """
         fs = self.font_size
-        placed = []
+        font = FONT_BOLD if bold else FONT
+        w = stringWidth(text, font, fs)
+        boxes = []
+        for X, Y, anchor in candidates:
+            left = X - w if anchor == "end" else (X - w / 2 if anchor == "middle" else X)
+            boxes.append((left, Y - fs * 0.25, left + w, Y + fs * 0.8))
+        box = next((b for b in boxes if self._box_is_free(b)), None)
+        if box is None:          # nothing clear: the in-frame candidate with the fewest conflicts
+            inside = [b for b in boxes if self._box_in_frame(b)] or boxes
+            box = min(inside, key=self._conflicts)
+        if backing:
+            self.d.add(Rect(box[0] - 0.8, box[1], box[2] - box[0] + 1.6, box[3] - box[1],
+                            fillColor=colors.white, strokeColor=None))
+        self.d.add(String(box[0], box[1] + fs * 0.25, text, fontName=font, fontSize=fs,
+                          fillColor=color or PALETTE["text"]))
+        self._boxes.append(box)
+        return box
+
+    def point_labels(self, items, *, size=2.6):
+        """Labels beside markers: each tries right, left, above and below its marker (then further
+        out) and takes the first place clear of markers, curves and the labels already set.
+
+        ``items`` are (X, Y, text, color) in page coordinates.
+        """
+        fs = self.font_size
         for X, Y, text, color in sorted(items, key=lambda it: (it[0], -it[1])):
-            w = stringWidth(text, FONT_BOLD, fs)
-            h = fs
-            options = []
-            for k in (1.0, 2.2, 3.4):
-                g = size + 1 + (k - 1) * fs
-                options += [(X + g, Y - h * 0.35), (X - g - w, Y - h * 0.35),
-                            (X - w / 2, Y + g), (X - w / 2, Y - g - h),
-                            (X + g * 0.8, Y + g * 0.8), (X + g * 0.8, Y - g * 0.8 - h)]
-            box = None
-            for bx, by in options:
-                cand = (bx, by, bx + w, by + h)
-                if cand[0] < self.x0 or cand[2] > self.x0 + self.w or cand[1] < self.y0 or cand[3] > self.y0 + self.h:
-                    continue
-                if all(cand[2] <= o[0] or cand[0] >= o[2] or cand[3] <= o[1] or cand[1] >= o[3] for o in placed):
-                    box = cand
-                    break
-            if box is None:
-                box = (options[0][0], options[0][1], options[0][0] + w, options[0][1] + h)
-            placed.append(box)
-            self.d.add(String(box[0], box[1] + 0.5, text, fontName=FONT_BOLD, fontSize=fs, fillColor=color))
+            cands = []
+            for k in range(3):
+                g = size + 1 + k * fs
+                cands += [(X + g, Y - fs * 0.3, "start"), (X - g, Y - fs * 0.3, "end"),
+                          (X, Y + g, "middle"), (X, Y - g - fs * 0.6, "middle"),
+                          (X + g * 0.8, Y + g * 0.8, "start"), (X + g * 0.8, Y - g * 0.8 - fs * 0.6, "start")]
+            self.label(cands, text, color=color, bold=True)
 
     def text(self, X, Y, s, *, color=None, anchor="start", bold=False, size=None):
-        """Text at page coordinates of the drawing."""
+        """Text at page coordinates of the drawing (not checked for overlap)."""
         self.d.add(String(X, Y, s, fontName=FONT_BOLD if bold else FONT, fontSize=size or self.font_size,
                           fillColor=color or PALETTE["text"], textAnchor=anchor))
 
-    def legend(self, entries, *, x=None, y=None, corner="top-right"):
-        """Legend box of (kind, color, dash, label) entries; kind "line", "circle", "square", "band"."""
-        fs = self.font_size
-        row_h = fs + 2.5
-        w = 16 + max(stringWidth(e[3], FONT, fs) for e in entries) + 6
-        h = row_h * len(entries) + 3
-        if x is None:
-            x = self.x0 + self.w - w - 3 if "right" in corner else self.x0 + 3
-        if y is None:
-            y = self.y0 + self.h - h - 3 if "top" in corner else self.y0 + 3
-        self.d.add(Rect(x, y, w, h, fillColor=colors.white, strokeColor=GRID,
-                        strokeWidth=0.4))
-        for i, (kind, color, dash, label) in enumerate(entries):
-            cy = y + h - 2 - row_h * (i + 0.5) - 0.5
-            if kind == "line":
-                self.d.add(Line(x + 3, cy, x + 14, cy, strokeColor=color, strokeWidth=1.1, strokeDashArray=dash))
-            elif kind == "square":
-                self.d.add(Rect(x + 6.5, cy - 2.2, 4.4, 4.4, fillColor=color, strokeColor=None))
-            elif kind == "band":
-                self.d.add(Rect(x + 3, cy - 2.5, 11, 5, fillColor=color, strokeColor=GRID, strokeWidth=0.3))
-            else:
-                self.d.add(Circle(x + 8.5, cy, 2.3, fillColor=color, strokeColor=None))
-            self.d.add(String(x + 17, cy - fs * 0.35, label, fontName=FONT, fontSize=fs))
+
+def _segment_hits_box(seg, box) -> bool:
+    """True when the segment (x1, y1, x2, y2) passes through the box (x1, y1, x2, y2) (Liang-Barsky)."""
+    x1, y1, x2, y2 = seg
+    bx1, by1, bx2, by2 = box
+    dx, dy = x2 - x1, y2 - y1
+    t0, t1 = 0.0, 1.0
+    for p_, q_ in ((-dx, x1 - bx1), (dx, bx2 - x1), (-dy, y1 - by1), (dy, by2 - y1)):
+        if p_ == 0:
+            if q_ < 0:
+                return False
+            continue
+        t = q_ / p_
+        if p_ < 0:
+            t0 = max(t0, t)
+        else:
+            t1 = min(t1, t)
+        if t0 > t1:
+            return False
+    return True

@@ -23,7 +23,7 @@ from pathlib import Path
 from xml.sax.saxutils import escape
 
 from reportlab.lib.units import mm
-from reportlab.platypus import CondPageBreak, KeepTogether, Paragraph, Spacer
+from reportlab.platypus import CondPageBreak, KeepTogether, PageBreak, Paragraph, Spacer
 
 from rfsafe.report.common import (COMPLIES_COLOR, EXCEEDS_COLOR, FONT_BOLD, build_pdf, cautions_block, data_table,
                                   dist_text, frame_width, identity_block, kv_table, margin_text, num, p,
@@ -53,6 +53,13 @@ def _governing(text: str) -> str:
     basis = tail.strip("()")
     short = {"time-averaged": "avg", "instantaneous": "inst."}.get(basis, basis)
     return _QUANTITY.get(head, head) + (f", {short}" if short else "")
+
+
+def _boundary_text(c) -> str:
+    """The near-field boundary a configuration's flags use: the larger of lambda/2pi and 2D^2/lambda."""
+    if c.aperture_far_field_m is not None and c.aperture_far_field_m > c.near_field_distance_m:
+        return f"{c.aperture_far_field_m:.2f} (2D²/λ)"
+    return f"{c.near_field_distance_m:.2f} (λ/2π)"
 
 
 def _quantity(name: str) -> str:
@@ -146,9 +153,9 @@ def _method(res, width) -> list:
     for c in res.configurations:
         gain_methods = sorted({x.gain_method for pl in res.places for x in pl.exposures
                                if x.configuration == c.id})
-        nf = f"{c.near_field_distance_m:.2f}"
+        nf = f"λ/2π {c.near_field_distance_m:.2f}"
         if c.aperture_far_field_m is not None:
-            nf += f" (2D²/λ {c.aperture_far_field_m:.2f})"
+            nf += f"; 2D²/λ {c.aperture_far_field_m:.2f}"
         rows.append([c.id, f"{c.duty_factor:g}: {c.duty_factor_source}", c.schedule,
                      _pair(c.averaging_minutes, lambda v: "none" if v is None else f"{v:g}"),
                      _pair(c.transmit_fraction, lambda v: f"{v:.3g}"),
@@ -156,9 +163,9 @@ def _method(res, width) -> list:
                      f"{', '.join(gain_methods) if gain_methods else '–'}", nf])
     out.append(p("Per configuration (controlled / uncontrolled where two values are given):", "small"))
     out.append(data_table(["configuration", "duty factor and its source", "schedule", "averaging min",
-                           "window fill", "gain", "λ/2π m"], rows,
-                          [22 * mm, 47 * mm, 22 * mm, 17 * mm, 16 * mm, 40 * mm, width - 164 * mm],
-                          align="lllrrlr"))
+                           "window fill", "gain", "near-field boundary m"], rows,
+                          [22 * mm, 44 * mm, 20 * mm, 17 * mm, 16 * mm, 38 * mm, width - 157 * mm],
+                          align="lllrrll"))
     out.append(Spacer(1, 2 * mm))
     rows = []
     for c in res.configurations:
@@ -201,6 +208,8 @@ def _configurations(res, width) -> list:
             ("ERP, time-averaged [W]", lambda c: _pair(c.erp_w)),
             ("EIRP at PEP [W]", lambda c: num(c.eirp_pep_w)),
         ]
+        if not any(c.description for c in chunk):
+            spec = spec[1:]
         rows = [[label] + [fn(c) for c in chunk] + [""] * (_CONFIGS_PER_TABLE - len(chunk)) for label, fn in spec]
         out.append(data_table(["quantity"] + [c.id for c in chunk] + [""] * (_CONFIGS_PER_TABLE - len(chunk)),
                               rows, [label_w] + [col_w] * _CONFIGS_PER_TABLE))
@@ -215,11 +224,11 @@ def _configurations(res, width) -> list:
         for cd in c.compliance_distances:
             rows.append([c.id, cd.environment, f"{cd.dist_m:.2f}", f"{cd.dist_ft:.1f}",
                          f"{cd.limit_basis}, {_QUANTITY.get(cd.governing, cd.governing)}",
-                         num(cd.eirp_w), f"{c.near_field_distance_m:.2f}",
+                         num(cd.eirp_w), _boundary_text(c),
                          "YES: far-field estimate" if cd.inside_near_field else "no"])
     out.append(data_table(["configuration", "environment", "distance m", "distance ft", "limit basis, governs",
-                           "EIRP compared W", "λ/2π m", "inside near field"], rows,
-                          [26 * mm, 24 * mm, 19 * mm, 19 * mm, 30 * mm, 22 * mm, 15 * mm, width - 155 * mm],
+                           "EIRP compared W", "near-field boundary m", "inside near field"], rows,
+                          [24 * mm, 22 * mm, 16 * mm, 16 * mm, 30 * mm, 20 * mm, 24 * mm, width - 152 * mm],
                           align="llrrlrrl", bold_rows=bold))
     return out
 
@@ -386,7 +395,7 @@ def _line_stress(res, width) -> list:
 
 # ------------------------------------------------------------------ 6 figures
 def _figures(res, width, numbers, extra_figures) -> list:
-    out = [CondPageBreak(120 * mm), section_heading("6", "Figures")]
+    out = [PageBreak(), section_heading("6", "Figures")]
     fig_w = width / 2 - 2 * mm
     out.append(section_heading("6.1", "Exposure ratio versus distance", level=1))
     out.append(p("Lines: the far-field peak-gain envelope of each configuration, ratio = (d/R)² with d the "
@@ -401,11 +410,11 @@ def _figures(res, width, numbers, extra_figures) -> list:
         cells.append([drawing, p(caption, "caption")])
     out.append(figure_grid(cells, width))
     out.append(exposure_legend(width))
-    out.append(Spacer(1, 3 * mm))
-    out.append(CondPageBreak(80 * mm))
+    out.append(PageBreak())
     out.append(section_heading("6.2", "Standing wave along each feedline", level=1))
-    out.append(p("|V| and |I| at PEP along the line (0 = transmitter end), from the line results; dashed lines "
-                 "are the voltage ratings of the cable and connectors.", "small"))
+    out.append(p("|V| and |I| at PEP along the line (0 = transmitter end), from the line results. Dashed: the "
+                 "voltage rating of the cable (along the whole line) and of each connector (over the end it sits "
+                 "at); tuner parts are rated in section 5.", "small"))
     cells = []
     for c in res.configurations:
         drawing, caption = line_profile_figure(c, width=fig_w, height=66 * mm)
@@ -453,7 +462,8 @@ def worksheet_story(result, *, extra_figures=()) -> list:
     story += cautions_block(result.cautions, _all_flags(result))
     story.append(Spacer(1, 4 * mm))
     story.append(KeepTogether([section_heading("8", "Sign-off"),
-                               p("I have reviewed the inputs and results of this worksheet.", "small"),
+                               p("Signed to confirm that the station file describes the station as operated "
+                                 "and that the results, flags and cautions above were read.", "small"),
                                Spacer(1, 2 * mm),
                                signoff_block(width, evaluator=result.evaluator or "", date="")]))
     return story
