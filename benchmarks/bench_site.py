@@ -118,9 +118,22 @@ def main() -> None:
     print(f"per pattern kind ({len(ems)} stations of one kind, same grid and heights):")
     for kind in KINDS:
         one = stations(args.stations, extent, [kind])
-        tk = best_time(lambda: ratio_grid(one, x, y, heights, chunk_points=args.chunk), 1)
-        tf = best_time(lambda: floor_sum(one, x, y, heights, args.chunk), 1)
+        tk = best_time(lambda: ratio_grid(one, x, y, heights, chunk_points=args.chunk), args.repeat)
+        tf = best_time(lambda: floor_sum(one, x, y, heights, args.chunk), args.repeat)
         print(f"  {kind[0]:22s} {kind[2]:10s} {per_m(tk) * 1e3:6.2f} ms per million  ratio to floor {tk / tf:5.2f}")
+    # the whole site analysis (grid, areas, keep-out attribution) on a 100 m site at 0.1 m spacing
+    from rfsafe.site import Area, analyse_site
+
+    areas = [Area("path", "public", ((40.0, 0.0), (45.0, 0.0), (45.0, 100.0), (40.0, 100.0))),
+             Area("tent", "operators", ((60.0, 60.0), (70.0, 60.0), (70.0, 70.0), (60.0, 70.0)))]
+    t0 = time.perf_counter()
+    res_site = analyse_site(ems, boundary=((0, 0), (100, 0), (100, 100), (0, 100)), areas=areas,
+                            heights_m=heights, grid_spacing_m=0.1)
+    t_site = time.perf_counter() - t0
+    rss_site = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+    g = res_site.grid
+    print(f"analyse_site: {g.nx} x {g.ny} = {g.nx * g.ny} points (margin {g.margin_m:g} m), {len(ems)} stations, "
+          f"{len(heights)} heights: {t_site:.2f} s; peak RSS of the process now {rss_site:.0f} MB")
     tilted = [dataclasses.replace(em, tilt_deg=5.0) for em in ems]
     tt = best_time(lambda: ratio_grid(tilted, x, y, heights, chunk_points=args.chunk), 1)
     print(f"  tilted antennas (general path, float64 direction + pattern): {per_m(tt) * 1e3:6.2f} ms per million  "

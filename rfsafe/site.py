@@ -412,7 +412,7 @@ def transmitter_ratios(emitters: Sequence[SiteEmitter], x_m, y_m, heights_m, *,
     x, y, heights = _check_points(x_m, y_m, heights_m)
     names, groups = _groups(emitters)
     evaluators = [_evaluator(g) for g in groups]
-    out = np.empty((2, len(names), x.size))
+    out = np.empty((2, len(names), x.size), dtype=_F32)   # single precision, like the kernel
     for start in range(0, x.size, chunk_points):
         stop = min(x.size, start + chunk_points)
         per, _ = _chunk_pass(names, groups, evaluators, x[start:stop], y[start:stop], heights,
