@@ -10,7 +10,6 @@ sampled |V| and |I|.
 
 from __future__ import annotations
 
-import math
 
 from reportlab.graphics.shapes import Circle, Drawing, Line, Rect, String
 from reportlab.lib import colors

@@ -26,7 +26,7 @@ from reportlab.lib.units import mm
 from reportlab.platypus import CondPageBreak, KeepTogether, PageBreak, Paragraph, Spacer
 
 from rfsafe.report.common import (COMPLIES_COLOR, EXCEEDS_COLOR, FONT_BOLD, build_pdf, cautions_block, data_table,
-                                  dist_text, frame_width, identity_block, kv_table, margin_text, num, p,
+                                  frame_width, identity_block, kv_table, margin_text, num, p,
                                   ratio_text, section_heading, signoff_block, styles)
 from rfsafe.report.figures import exposure_distance_figure, exposure_legend, figure_grid, line_profile_figure
 
@@ -113,7 +113,8 @@ def _identity(res, width) -> list:
                  f"{'s' if len(res.exceeded) != 1 else ''} exceeded: see the list below"
     if res.places:
         worst = max(res.places, key=lambda pl: pl.total_ratio)
-        detail += f"; highest place total {ratio_text(worst.total_ratio)} ({worst.label})"
+        label = worst.label if len(worst.label) <= 36 else worst.label[:35].rstrip() + "…"
+        detail += f"; highest place total {ratio_text(worst.total_ratio)} ({label})"
     out = identity_block(title=res.title or "RF exposure evaluation", subtitle="RF exposure evaluation worksheet",
                          rows=rows, verdict=res.verdict, verdict_detail=detail, width=width)
     out.insert(-1, kv_table([("SHA-256 of the station file", res.input_sha256)], [46 * mm, width - 46 * mm]))
@@ -210,9 +211,8 @@ def _configurations(res, width) -> list:
         ]
         if not any(c.description for c in chunk):
             spec = spec[1:]
-        rows = [[label] + [fn(c) for c in chunk] + [""] * (_CONFIGS_PER_TABLE - len(chunk)) for label, fn in spec]
-        out.append(data_table(["quantity"] + [c.id for c in chunk] + [""] * (_CONFIGS_PER_TABLE - len(chunk)),
-                              rows, [label_w] + [col_w] * _CONFIGS_PER_TABLE))
+        rows = [[label] + [fn(c) for c in chunk] for label, fn in spec]
+        out.append(data_table(["quantity"] + [c.id for c in chunk], rows, [label_w] + [col_w] * len(chunk)))
         out.append(Spacer(1, 3 * mm))
     out.append(section_heading("3.1", "Compliance distances", level=1))
     out.append(p("Distance from the antenna beyond which each environment's limit is met, with peak gain and "
