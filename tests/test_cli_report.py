@@ -80,6 +80,15 @@ def test_refuses_to_overwrite_without_force(station):
     assert out.read_bytes().startswith(b"%PDF-")
 
 
+def test_never_overwrites_the_station_file_itself(station):
+    before = station.read_bytes()
+    rep = invoke("report", station, "-o", station, "--force")
+    assert rep.exit_code == 2
+    assert rep.stderr.strip() == (f'Error: -o: "{station}" is the station file itself: '
+                                  "choose another name for the PDF")
+    assert station.read_bytes() == before
+
+
 def test_missing_folder_is_an_input_error(station):
     out = station.parent / "nowhere" / "x.pdf"
     rep = invoke("report", station, "-o", out)
