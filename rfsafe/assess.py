@@ -48,7 +48,7 @@ class Emitter:
     solution: object = None       # moment-method solution for a wire antenna, else None
 
 
-def peak_gain_dbi(antenna: Antenna, wire_gain_dbi: float | None = None) -> tuple[float, str]:
+def peak_gain_dbi(antenna: Antenna, wire_gain_dbi: float | None = None, table=None) -> tuple[float, str]:
     """Peak gain [dBi] of a declared antenna and where it came from."""
     if antenna.gain_dbi is not None:
         return antenna.gain_dbi, "declared (dBi)"
@@ -58,6 +58,8 @@ def peak_gain_dbi(antenna: Antenna, wire_gain_dbi: float | None = None) -> tuple
         return INTRINSIC_GAIN_DBI[antenna.kind], f"{antenna.kind} model"
     if antenna.kind == "wire" and wire_gain_dbi is not None:
         return wire_gain_dbi, "moment-method solver"
+    if antenna.kind == "table" and table is not None:
+        return float(np.max(table.gain_dbi)), "largest gain of the pattern table"
     raise bad_value(f"antennas.{antenna.id}.gain_dbi", None, "is required for this antenna")
 
 
@@ -228,7 +230,11 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
     line = _line_result(st, i, c, fline, tx.pep_w, tx.pep_w * duty)
     loss_fraction = float(line.loss_fraction)
     solution = _wire_solution(loaded, ant, freq_hz, i)
-    gain, gain_src = peak_gain_dbi(ant, solution.gain_dbi if solution is not None else None)
+    gain, gain_src = peak_gain_dbi(ant, solution.gain_dbi if solution is not None else None,
+                                   loaded.pattern_tables.get(ant.id))
+    if ant.kind == "quarter-wave-vertical" and ground_factor > 1:
+        flags.append("quarter-wave vertical: its 5.16 dBi model gain already holds a perfect ground image, so "
+                     f"applying F = {ground_factor:g} as well overstates the far field (conservative, up to 6 dB)")
     if solution is not None and solution.ground == "perfect" and gain_src == "moment-method solver":
         # The solver's gain over a perfect ground already holds the reflected wave (image):
         # applying F again would count the ground twice.
@@ -257,7 +263,8 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
         distances.append(ComplianceDistance(
             environment=env, environment_label=lim.environment_label, dist_m=d, dist_ft=d / M_PER_FT,
             limit_basis=lim.basis, governing=gov, averaging_minutes=lim.averaging_minutes, eirp_w=p,
-            inside_near_field=d < flag_dist, limit_source=lim.source))
+            inside_near_field=d < flag_dist, limit_source=lim.source,
+            **_limit_values(lim)))
         if d < flag_dist:
             flags.append(f"{env} compliance distance {d:.2f} m lies inside the near-field boundary "
                          f"{flag_dist:.2f} m: {NEAR_FIELD_FLAG}")
@@ -281,6 +288,11 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
     return result, emitter
 
 
+def _limit_values(limit) -> dict:
+    return {"power_density_limit_w_m2": limit.power_density_w_m2, "e_field_limit_v_m": limit.e_field_v_m,
+            "h_field_limit_a_m": limit.h_field_a_m}
+
+
 def _governing(limit, s_w_m2) -> str:
     """Name of the quantity that gives the largest ratio under a plane-wave relation."""
     e, h = ex.plane_wave_fields(s_w_m2)
@@ -296,6 +308,7 @@ def _governing(limit, s_w_m2) -> str:
 
 def _gain_toward(em: Emitter, loaded: LoadedStation, dx, dy, dz) -> tuple[float, str]:
     ant = em.antenna
+    index = next(k for k, a in enumerate(loaded.model.antennas) if a.id == ant.id)
     if not ant.use_pattern:
         return em.peak_gain_dbi, "peak"
     from rfsafe.antenna import patterns
@@ -304,7 +317,8 @@ def _gain_toward(em: Emitter, loaded: LoadedStation, dx, dy, dz) -> tuple[float,
                                                     tilt_deg=ant.tilt_deg, polarisation=ant.polarisation)
     g = patterns.pattern_gain_dbi(ant.kind, *direction, peak_gain_dbi=em.peak_gain_dbi,
                                   front_to_back_db=ant.front_to_back_db, beamwidth_h_deg=ant.beamwidth_h_deg,
-                                  beamwidth_v_deg=ant.beamwidth_v_deg, table=loaded.pattern_tables.get(ant.id))
+                                  beamwidth_v_deg=ant.beamwidth_v_deg, table=loaded.pattern_tables.get(ant.id),
+                                  field=f"antennas[{index}]")
     return float(np.asarray(g)), "pattern"
 
 
@@ -371,14 +385,14 @@ def _place_exposure(em: Emitter, loaded: LoadedStation, p_index: int, place, cre
             e_field_v_m=en, h_field_a_m=hn, exposure_ratio=rn,
             governing=f"{'e_field' if e_part >= h_part else 'h_field'} ({limn.basis})",
             margin_db=float(ex.margin_db(rn)), method="near-field (moment method)", inside_near_field=True,
-            flags=flags, far_field_ratio=r, near_field_ratio=rn)
+            flags=flags, far_field_ratio=r, near_field_ratio=rn, limit_source=limn.source, **_limit_values(limn))
     flags = (f"{dist_min:.2f} m from {em.antenna.id} is inside the near-field boundary {flag_dist:.2f} m: "
              f"{NEAR_FIELD_FLAG}",) if inside else ()
     return PlaceExposure(
         configuration=em.configuration, transmitter=em.transmitter, dist_m=dist, gain_dbi=gain, gain_method=how,
         power_density_w_m2=s, e_field_v_m=e, h_field_a_m=h, exposure_ratio=r, governing=governing,
         margin_db=float(ex.margin_db(r)), method="far-field estimate", inside_near_field=inside, flags=flags,
-        far_field_ratio=r)
+        far_field_ratio=r, limit_source=lim.source, **_limit_values(lim))
 
 
 def _totals(exposures, station: Station):

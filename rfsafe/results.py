@@ -38,6 +38,9 @@ class ComplianceDistance:
     eirp_w: float             # the EIRP compared with the limit (average, or PEP for instantaneous limits)
     inside_near_field: bool   # the distance itself lies inside lambda/2pi (or 2D^2/lambda)
     limit_source: str
+    power_density_limit_w_m2: float | None = None   # the governing limit's values (None: not defined)
+    e_field_limit_v_m: float | None = None
+    h_field_limit_a_m: float | None = None
 
 
 @dataclass(frozen=True)
@@ -129,6 +132,10 @@ class PlaceExposure:
     flags: tuple[str, ...]
     far_field_ratio: float | None = None     # when a near-field result replaces the estimate
     near_field_ratio: float | None = None
+    power_density_limit_w_m2: float | None = None   # the governing limit at this place
+    e_field_limit_v_m: float | None = None
+    h_field_limit_a_m: float | None = None
+    limit_source: str = ""
 
 
 @dataclass(frozen=True)

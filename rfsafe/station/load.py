@@ -82,7 +82,7 @@ def _check_antenna(i: int, a: Antenna, base: Path, wire_specs: dict, tables: dic
     if a.gain_dbi is not None and a.gain_dbd is not None:
         raise InputError(f"{path}.gain_dbd: give either gain_dbi or gain_dbd, not both")
     has_gain = a.gain_dbi is not None or a.gain_dbd is not None
-    if a.kind in ("beam", "table", "other") and not has_gain:
+    if a.kind in ("beam", "other") and not has_gain:
         raise InputError(f"{path}.gain_dbi: is required for an antenna of kind {format_value(a.kind)} "
                          "(give gain_dbi or gain_dbd)")
     if a.kind == "beam" and a.use_pattern:
@@ -97,9 +97,16 @@ def _check_antenna(i: int, a: Antenna, base: Path, wire_specs: dict, tables: dic
         tables[a.id] = load_pattern_table(base / a.pattern_file, field=f"{path}.pattern_file")
     elif a.pattern_file is not None:
         raise bad_value(f"{path}.pattern_file", a.pattern_file, 'applies only to kind = "table"')
-    if a.kind == "other" and a.use_pattern:
-        raise bad_value(f"{path}.use_pattern", True, 'needs a pattern model: kind "other" has none '
-                        '(use a named kind, "beam" or "table")')
+    if a.kind in ("other", "wire") and a.use_pattern:
+        raise bad_value(f"{path}.use_pattern", True, f'needs a pattern model: kind {format_value(a.kind)} has none '
+                        '(use a named kind, "beam" or "table"; wire antennas use the solver near them)')
+    if a.use_pattern or a.kind == "table":
+        from rfsafe.antenna.patterns import make_pattern
+
+        gain = a.gain_dbi if a.gain_dbi is not None else (a.gain_dbd + 2.15 if a.gain_dbd is not None else None)
+        make_pattern(a.kind, peak_gain_dbi=gain, front_to_back_db=a.front_to_back_db,
+                     beamwidth_h_deg=a.beamwidth_h_deg, beamwidth_v_deg=a.beamwidth_v_deg,
+                     table=tables.get(a.id), field=path)
     if a.kind == "wire":
         if a.wire is None:
             raise InputError(f'{path}.wire: is required for an antenna of kind "wire"')

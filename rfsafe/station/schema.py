@@ -76,8 +76,8 @@ class Antenna(_Strict):
     use_pattern: bool = Field(default=False,
                               description="Use the pattern gain toward each place instead of the peak gain (opt-in).")
     front_to_back_db: float | None = Field(default=None, gt=0, description="Beam: front-to-back ratio [dB].")
-    beamwidth_h_deg: float | None = Field(default=None, gt=0, le=360, description="Beam: horizontal half-power beamwidth [deg].")
-    beamwidth_v_deg: float | None = Field(default=None, gt=0, le=180, description="Beam: vertical half-power beamwidth [deg].")
+    beamwidth_h_deg: float | None = Field(default=None, gt=0, lt=360, description="Beam: horizontal half-power beamwidth [deg].")
+    beamwidth_v_deg: float | None = Field(default=None, gt=0, lt=180, description="Beam: vertical half-power beamwidth [deg].")
     pattern_file: str | None = Field(default=None,
                                      description="Table: CSV of azimuth_deg, elevation_deg, gain_dbi (relative to this file).")
     aperture_m: float | None = Field(default=None, gt=0,
