@@ -168,14 +168,16 @@ def l_network_ladders(load_ohm: complex, target_ohm: float, *, field: str = "tun
     if abs(zl - z0) <= _REL_TINY * scale:
         return [("none (already matched)", "direct", [])]
     mag2 = rl * rl + xl * xl
-    disc = mag2 - z0 * rl
+    disc = rl * (rl - z0) + xl * xl  # = |Z_L|^2 - Z0 R_L, without cancellation when R_L ~ Z0
     if disc >= 0:  # shunt element across the load, series element toward the source
         root = math.sqrt(rl / z0) * math.sqrt(disc)
         for sign in (+1.0, -1.0):
             b = (xl + sign * root) / mag2
             ladder = []
             if abs(b) * scale > _REL_TINY:
-                x = 1.0 / b + xl * z0 / rl - z0 / (b * rl)
+                # (1/b)(1 - Z0/R_L) + X_L Z0/R_L: Pozar eq. (5.3b) grouped so that the two 1/b terms
+                # cancel exactly when R_L = Z0 (nearly matched loads)
+                x = (1.0 - z0 / rl) / b + xl * z0 / rl
                 if abs(x) > _REL_TINY * scale:
                     ladder.append(("series", x))
                 ladder.append(("shunt, load side", -1.0 / b))
