@@ -89,13 +89,7 @@ def _root(ctx: typer.Context,
 
 
 for _name in _COMMAND_MODULES:
-    try:
-        _module = importlib.import_module(_name)
-    except ModuleNotFoundError as exc:  # a command still under construction
-        if exc.name != _name:
-            raise
-        continue
-    _module.register(app)
+    importlib.import_module(_name).register(app)
 
 
 def main() -> None:
