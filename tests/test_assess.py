@@ -226,3 +226,20 @@ def test_exemption_uses_the_nearest_part_of_the_antenna(tmp_path):
 def test_no_exemption_outside_fcc(tmp_path):
     res = _station(tmp_path, BASE.replace('standard = "fcc"', 'standard = "icnirp2020"'))
     assert res.exemption is None
+
+
+def test_sc6_nerve_stimulation_uses_pep_not_average(tmp_path):
+    # Safety Code 6 (2015): below 10 MHz the nerve-stimulation reference level (uncontrolled 83 V/m,
+    # from memory) is instantaneous and is compared with the peak-envelope field, while the SAR-based
+    # level (87/sqrt(f) V/m, from memory) is time-averaged. With SSB (duty factor 0.2) at 3.6 MHz the
+    # PEP-based ratio is the larger: (E_pep/83)^2 > (E_avg/45.85)^2 because 0.2 < (45.85/83)^2 = 0.305.
+    text = BASE.replace('standard = "fcc"', 'standard = "sc6"').replace("freq_mhz = 14.2", "freq_mhz = 3.6")
+    res = _station(tmp_path, text)
+    c = res.configurations[0]
+    garden = next(p for p in res.places if p.label == "Garden")
+    x = garden.exposures[0]
+    assert x.governing.endswith("(instantaneous)")
+    s_pep = 4.0 * c.eirp_pep_w / (4 * math.pi * x.dist_m ** 2)       # F = 4 (full reflection)
+    assert x.exposure_ratio == pytest.approx(s_pep * 377.0 / 83.0 ** 2, rel=1e-9)
+    s_avg = 4.0 * c.eirp_w["uncontrolled"] / (4 * math.pi * x.dist_m ** 2)
+    assert x.exposure_ratio > s_avg * 377.0 / (87 / math.sqrt(3.6)) ** 2  # the averaged limit gives less
