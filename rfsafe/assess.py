@@ -67,8 +67,6 @@ def _wire_solution(loaded: LoadedStation, ant: Antenna, freq_hz: float, i: int):
     """Moment-method solution of a wire antenna at one frequency (None for other kinds)."""
     if ant.kind != "wire":
         return None
-    from rfsafe.antenna.wire import solve
-
     index = next(k for k, a in enumerate(loaded.model.antennas) if a.id == ant.id)
     return _solve_cached(loaded, index, freq_hz)
 

@@ -457,7 +457,7 @@ def validate_polygon(polygon, *, field: str) -> tuple[tuple[float, float], ...]:
     for i in range(len(pts)):
         if pts[i] == pts[(i + 1) % len(pts)]:
             raise bad_value(f"{field}[{(i + 1) % len(pts)}]", list(pts[(i + 1) % len(pts)]),
-                            f"repeats the previous vertex (the polygon closes itself; do not repeat vertex 0)")
+                            "repeats the previous vertex (the polygon closes itself; do not repeat vertex 0)")
     xs = np.array([p[0] for p in pts])
     ys = np.array([p[1] for p in pts])
     area = 0.5 * abs(np.dot(xs, np.roll(ys, -1)) - np.dot(ys, np.roll(xs, -1)))

@@ -175,22 +175,11 @@ def load_site(path: str | Path, *, standard: str | None = None) -> LoadedSite:
         For any problem, naming the field path, the value and what is accepted.
     """
     from rfsafe.site import Area, validate_polygon
-    from rfsafe.station.validation import read_toml, validate_model
+    from rfsafe.station.validation import read_toml, validate_with_standard
 
     path = Path(path)
     data, raw = read_toml(path)
-    if standard is not None:
-        if not isinstance(data, dict):
-            raise InputError("(file): must be a TOML table")
-        data = {**data, "standard": standard}
-        try:
-            site = validate_model(Site, data)
-        except InputError as err:
-            if str(err).startswith("standard:"):
-                raise InputError(str(err).replace("standard:", "--standard:", 1)) from None
-            raise
-    else:
-        site = validate_model(Site, data)
+    site = validate_with_standard(Site, data, standard)
     for k, h in enumerate(site.heights_m):
         if not h >= 0.0:
             raise bad_value(f"heights_m[{k}]", h, "is out of range (accepted: >= 0 m above ground)")

@@ -3,7 +3,7 @@
 import math
 
 import pytest
-from hypothesis import assume, given, settings, strategies as st
+from hypothesis import given, settings, strategies as st
 
 from rfsafe.errors import InputError
 from rfsafe.matching import (

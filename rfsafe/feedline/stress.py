@@ -18,7 +18,7 @@ import numpy as np
 from rfsafe.errors import bad_value
 from rfsafe.feedline.catalogue import CableClass, connector_series, matched_loss_db_per_100m, power_rating_w
 from rfsafe.feedline.line import (
-    NP_PER_DB, low_loss_complex_z0, mismatch_total_loss_db, propagation_constant,
+    low_loss_complex_z0, mismatch_total_loss_db, propagation_constant,
     reflection_coefficient, reflection_from_swr, swr_from_reflection, exact_total_loss_db,
     line_voltage_current,
 )

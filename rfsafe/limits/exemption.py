@@ -20,7 +20,7 @@ from dataclasses import dataclass
 from functools import lru_cache
 from importlib import resources
 
-from rfsafe.errors import InputError, bad_value
+from rfsafe.errors import bad_value
 
 __all__ = [
     "ExemptionSource", "SourceExemption", "ExemptionResult", "fcc_exemption",

@@ -12,7 +12,7 @@ from pathlib import Path
 
 from rfsafe.errors import InputError, bad_value, format_value
 from rfsafe.station.schema import Antenna, Configuration, Feedline, Station
-from rfsafe.station.validation import read_toml, validate_model
+from rfsafe.station.validation import read_toml, validate_with_standard
 
 __all__ = ["LoadedStation", "load_station", "check_station", "quoted_list"]
 
@@ -182,18 +182,7 @@ def load_station(path: str | Path, *, standard: str | None = None) -> LoadedStat
     """
     path = Path(path)
     data, raw = read_toml(path)
-    if standard is not None:
-        if not isinstance(data, dict):
-            raise InputError("(file): must be a TOML table")
-        data = {**data, "standard": standard}
-        try:
-            station = validate_model(Station, data)
-        except InputError as err:
-            if str(err).startswith("standard:"):
-                raise InputError(str(err).replace("standard:", "--standard:", 1)) from None
-            raise
-    else:
-        station = validate_model(Station, data)
+    station = validate_with_standard(Station, data, standard)
     wire_specs, tables = check_station(station, path.parent)
     return LoadedStation(model=station, path=path, sha256=hashlib.sha256(raw).hexdigest(),
                          wire_specs=wire_specs, pattern_tables=tables)

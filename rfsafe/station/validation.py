@@ -10,7 +10,8 @@ from pydantic import BaseModel, ValidationError
 
 from rfsafe.errors import InputError, bad_value, format_value
 
-__all__ = ["field_path", "validation_to_input_error", "read_toml", "validate_model"]
+__all__ = ["field_path", "validation_to_input_error", "read_toml", "validate_model",
+           "validate_with_standard"]
 
 _TYPE_WORDS = {
     "float_type": "must be a number",
@@ -119,3 +120,20 @@ def validate_model(model: type[BaseModel], data: dict[str, Any], *, prefix: str 
         return model.model_validate(data)
     except ValidationError as err:
         raise validation_to_input_error(err, model, prefix=prefix) from None
+
+
+def validate_with_standard(model: type[BaseModel], data: Any, standard: str | None) -> BaseModel:
+    """Validate a station or site file, with ``standard`` (the ``--standard`` option) overriding its own.
+
+    A bad override is reported against ``--standard``, not against the file.
+    """
+    if standard is None:
+        return validate_model(model, data)
+    if not isinstance(data, dict):
+        raise InputError("(file): must be a TOML table")
+    try:
+        return validate_model(model, {**data, "standard": standard})
+    except InputError as err:
+        if str(err).startswith("standard:"):
+            raise InputError(str(err).replace("standard:", "--standard:", 1)) from None
+        raise

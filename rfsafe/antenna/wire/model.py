@@ -126,7 +126,7 @@ def check_wire_antenna(spec: WireAntennaSpec, *, prefix: str = "") -> tuple[int,
             a, b = w.points_m[j - 1], w.points_m[j]
             if math.dist(a, b) <= 1e-6:
                 raise bad_value(f"{path}.points_m[{j}]", b,
-                                f"repeats the previous point (pieces must be longer than 1e-6 m)")
+                                "repeats the previous point (pieces must be longer than 1e-6 m)")
         if spec.ground == "perfect":
             for j, p in enumerate(w.points_m):
                 if p[2] < 0:
