@@ -7,10 +7,12 @@ number printed comes from the result. Sections, in order:
    file) and the overall verdict;
 2. method and assumptions;
 3. configurations (power chain, gain, EIRP/ERP, compliance distances);
-4. places (exposure per configuration and the simultaneous total; the 47 CFR 1.1307(b)(3)
-   exemption status for an FCC evaluation);
+4. places (exposure per configuration and the simultaneous total; the moment-method result beside
+   the far-field estimate where a place lies inside lambda/2pi of a wire antenna; the
+   47 CFR 1.1307(b)(3) exemption status for an FCC evaluation);
 5. line and tuner stress;
-6. figures (exposure ratio versus distance, standing-wave profiles, then any extra figures);
+6. figures (exposure ratio versus distance, standing-wave profiles, near-field maps of wire
+   antennas, then any extra figures);
 7. cautions and flags;
 8. sign-off.
 
@@ -29,6 +31,7 @@ from rfsafe.report.common import (COMPLIES_COLOR, EXCEEDS_COLOR, FONT_BOLD, buil
                                   frame_width, identity_block, kv_table, margin_text, num, p,
                                   ratio_text, section_heading, signoff_block, styles)
 from rfsafe.report.figures import exposure_distance_figure, exposure_legend, figure_grid, line_profile_figure
+from rfsafe.report.near_field import comparison_exposures, near_field_comparison_section, near_field_map_section
 
 __all__ = ["build_worksheet_pdf", "write_worksheet", "worksheet_story", "EXEMPTION_STATEMENT"]
 
@@ -103,7 +106,7 @@ def _identity(res, width) -> list:
         ex = res.exemption
         rows.append(("47 CFR 1.1307(b)(3)", ("EXEMPT from routine evaluation (not from compliance)" if ex.exempt
                                               else "NOT EXEMPT: a routine evaluation is required")
-                     + "; see section 4.3"))
+                     + f"; see section {_exemption_number(res)}"))
     n_places = len(res.places)
     if res.verdict == "COMPLIES":
         detail = (f"all {n_places} place{'s' if n_places != 1 else ''} within the limits; no rating exceeded"
@@ -234,6 +237,11 @@ def _configurations(res, width) -> list:
 
 
 # ------------------------------------------------------------------ 4 places
+def _exemption_number(res) -> str:
+    """4.3, or 4.4 when the near-field comparison takes 4.3."""
+    return "4.4" if comparison_exposures(res) else "4.3"
+
+
 def _places(res, width, numbers) -> list:
     out = [section_heading("4", "Places")]
     if not res.places:
@@ -282,13 +290,14 @@ def _places(res, width, numbers) -> list:
                  "governs: the quantity with the largest ratio (S power density, E or H field) and the limit's "
                  "basis (avg = time-averaged, inst. = instantaneous, compared with PEP).", "small"))
     out.extend(notes.flowables())
+    out.extend(near_field_comparison_section(res, width, numbers, "4.3"))
     if res.exemption is not None:
-        out.extend(_exemption(res.exemption, width))
+        out.extend(_exemption(res.exemption, width, _exemption_number(res)))
     return out
 
 
-def _exemption(ex, width) -> list:
-    out = [section_heading("4.3", "Exemption from routine evaluation, 47 CFR 1.1307(b)(3)", level=1)]
+def _exemption(ex, width, number) -> list:
+    out = [section_heading(number, "Exemption from routine evaluation, 47 CFR 1.1307(b)(3)", level=1)]
     status = "EXEMPT from routine evaluation" if ex.exempt else "NOT EXEMPT: a routine evaluation is required"
     out.append(p(f"Status: <b>{_esc(status)}</b>. Criterion: {_esc(ex.criterion)}. Sum of fractions: "
                  f"{_esc(num(ex.sum_of_fractions))} (exempt needs at most 1).", "body", markup=True))
@@ -420,8 +429,12 @@ def _figures(res, width, numbers, extra_figures) -> list:
         drawing, caption = line_profile_figure(c, width=fig_w, height=66 * mm)
         cells.append([drawing, p(caption, "caption")] if caption else drawing)
     out.append(figure_grid(cells, width))
+    maps = near_field_map_section(res, width, numbers, "6.3")
+    if maps:
+        out.append(PageBreak())
+        out.extend(maps)
     if extra_figures:
-        out.append(section_heading("6.3", "Further figures", level=1))
+        out.append(section_heading("6.4" if maps else "6.3", "Further figures", level=1))
         out.extend(extra_figures)
     return out
 
@@ -445,8 +458,8 @@ def worksheet_story(result, *, extra_figures=()) -> list:
     result : EvaluationResult
         The evaluation to render.
     extra_figures : sequence of flowables
-        Further figures (e.g. near-field or site maps) placed after the standard figures in
-        section 6; each flowable can be used in one build only.
+        Further figures placed after the standard figures (and the near-field maps of wire
+        antennas, which are built in) in section 6; each flowable can be used in one build only.
     """
     width = frame_width()
     numbers = {pl.label: f"P{i + 1}" for i, pl in enumerate(result.places)}
@@ -477,7 +490,7 @@ def build_worksheet_pdf(result, *, extra_figures=()) -> bytes:
     result : EvaluationResult
         The evaluation to render (from :func:`rfsafe.assess.assess`).
     extra_figures : sequence of flowables
-        Further figures appended to section 6 (hook for near-field and site maps).
+        Further figures appended to section 6, after the built-in ones.
     """
     story = worksheet_story(result, extra_figures=extra_figures)
     who = result.station or result.title or "station"

@@ -1,0 +1,217 @@
+"""Near-field maps and the near/far comparison in the station worksheet, checked against ``evaluate --json``."""
+
+import io
+import json
+import math
+import shutil
+import struct
+from pathlib import Path
+
+import pypdf
+import pytest
+from typer.testing import CliRunner
+
+from rfsafe.assess import assess
+from rfsafe.cli import app
+from rfsafe.report.near_field import CONTOUR_STYLE, MAX_DECADES, _colour_range, near_field_map_png
+from rfsafe.report.worksheet import build_worksheet_pdf
+from rfsafe.station import load_station
+
+DEMOS = Path(__file__).resolve().parent.parent / "reports_demo"
+WIRE_DEMO = DEMOS / "demo_wire_station.toml"
+PLAIN_DEMO = DEMOS / "demo_station.toml"
+MOMENT_METHOD = "near-field (moment method)"
+
+
+def text_of(data: bytes) -> str:
+    """All page text with whitespace runs collapsed (table cells wrap onto several lines)."""
+    reader = pypdf.PdfReader(io.BytesIO(data))
+    return " ".join(" ".join(page.extract_text() for page in reader.pages).split())
+
+
+def page_texts(data: bytes) -> list[str]:
+    return [" ".join(page.extract_text().split()) for page in pypdf.PdfReader(io.BytesIO(data)).pages]
+
+
+def images_per_page(data: bytes) -> list[list]:
+    """Image XObjects drawn on each page: (width, height) in pixels."""
+    out = []
+    for page in pypdf.PdfReader(io.BytesIO(data)).pages:
+        xobjects = page["/Resources"].get("/XObject") or {}
+        found = []
+        for ref in xobjects.values():
+            obj = ref.get_object()
+            if obj.get("/Subtype") == "/Image":
+                found.append((int(obj["/Width"]), int(obj["/Height"])))
+        out.append(found)
+    return out
+
+
+def sig3(x: float) -> str:
+    """Printed precision, written independently: 3 significant digits, exponent form below 1e-3."""
+    return f"{x:.2e}" if abs(x) < 1e-3 else f"{x:.3g}"
+
+
+@pytest.fixture(scope="module")
+def wire(tmp_path_factory):
+    """``evaluate --json`` and ``rfsafe report`` of a copy of the wire demo (exit 1: it exceeds at the path)."""
+    folder = tmp_path_factory.mktemp("wire")
+    station = folder / WIRE_DEMO.name
+    shutil.copy(WIRE_DEMO, station)
+    runner = CliRunner()
+    ev = runner.invoke(app, ["evaluate", str(station), "--json"])
+    assert ev.exit_code == 1, ev.output
+    rep = runner.invoke(app, ["report", str(station)])
+    assert rep.exit_code == 1, rep.output
+    data = station.with_suffix(".pdf").read_bytes()
+    return json.loads(ev.stdout), data, text_of(data)
+
+
+def test_comparison_rows_equal_evaluate_json(wire):
+    js, _, text = wire
+    numbers = {pl["label"]: f"P{i + 1}" for i, pl in enumerate(js["places"])}
+    boundary = {c["id"]: c["near_field_distance_m"] for c in js["configurations"]}
+    rows = 0
+    for pl in js["places"]:
+        for x in pl["exposures"]:
+            if x["method"] != MOMENT_METHOD:
+                continue
+            rows += 1
+            far, near = x["far_field_ratio"], x["near_field_ratio"]
+            # exposure ratios are squared-field (power-like) quantities: 10 log10 (common practice)
+            diff = f"{10 * math.log10(near / far):+.1f}"
+            # the evaluation's own flag states the same difference in dB
+            assert any(f"{diff} dB" in f for f in x["flags"]), x["flags"]
+            governs = "near-field result" if x["exposure_ratio"] == near else "far-field estimate"
+            row = (f"{numbers[pl['label']]} {pl['label']} {x['configuration']} {x['dist_m']:.2f} "
+                   f"{boundary[x['configuration']]:.2f} {sig3(far)} {sig3(near)} {diff} {governs} {MOMENT_METHOD}")
+            assert row in text, row
+            assert x["dist_m"] < boundary[x["configuration"]]          # only places inside lambda/2pi
+    assert rows == 2        # the bench under the dipole and the path beside the vertical
+
+
+def test_near_field_result_governs_inside_the_boundary(wire):
+    js, _, _ = wire
+    for pl in js["places"]:
+        for x in pl["exposures"]:
+            if x["method"] == MOMENT_METHOD:
+                assert x["exposure_ratio"] == x["near_field_ratio"]
+
+
+def test_sections_numbered_in_order(wire):
+    _, _, text = wire
+    heads = ["4.2 Exposure at each place", "4.3 Near-field result beside the far-field estimate",
+             "4.4 Exemption from routine evaluation", "6.2 Standing wave", "6.3 Near-field maps of the wire antennas",
+             "7 Cautions"]
+    positions = [text.index(h) for h in heads]
+    assert positions == sorted(positions)
+    assert "see section 4.4" in text           # the identity block points at the renumbered exemption
+
+
+def test_one_image_per_near_field_map_beside_its_caption(wire):
+    js, data, _ = wire
+    maps = [c for c in js["configurations"] if c["near_field_map"] is not None]
+    assert len(maps) == 2
+    images = images_per_page(data)
+    pages = page_texts(data)
+    assert sum(len(i) for i in images) == len(maps)        # the rest of the worksheet is vector graphics
+    for c in maps:
+        on = [k for k, t in enumerate(pages) if f"Near-field map of {c['id']} (" in t]
+        assert len(on) == 1, c["id"]
+        assert images[on[0]], f"no image on the page of the {c['id']} map"
+
+
+def test_captions_state_cells_left_out_and_places_marked(wire):
+    js, _, text = wire
+    for c in js["configurations"]:
+        m = c["near_field_map"]
+        cells = len(m["x_m"]) * len(m["y_m"])
+        assert f"{m['excluded_points']} of {cells} cells left out because they touch a conductor" in text
+        dx = m["x_m"][1] - m["x_m"][0]
+        dy = m["y_m"][1] - m["y_m"][0]
+        inside = [f"P{i + 1} {pl['label']}" for i, pl in enumerate(js["places"])
+                  if m["x_m"][0] - dx / 2 <= pl["x_m"] <= m["x_m"][-1] + dx / 2
+                  and m["y_m"][0] - dy / 2 <= pl["y_m"] <= m["y_m"][-1] + dy / 2]
+        assert inside, c["id"]            # the demo puts a place beside each antenna
+        caption_start = text.index(f"Near-field map of {c['id']} (")
+        caption = text[caption_start:caption_start + 700]
+        assert f"Places marked: {'; '.join(inside)}." in caption
+        for env in ("uncontrolled", "controlled"):
+            assert f"E {sig3(m['max_e_ratio'][env])}, H {sig3(m['max_h_ratio'][env])} ({env})" in caption
+    # the quarter-wave vertical's base cell touches the conductor, the dipole 8 m up touches none
+    excluded = {c["id"]: c["near_field_map"]["excluded_points"] for c in js["configurations"]}
+    assert excluded["20m-cw-amp"] > 0 and excluded["40m-ssb"] == 0
+
+
+def test_two_builds_byte_identical_and_equal_to_the_cli_file(wire):
+    _, data, _ = wire
+    res = assess(load_station(WIRE_DEMO))
+    first = build_worksheet_pdf(res)
+    assert first == build_worksheet_pdf(res)
+    # the CLI evaluated a copy with the same name and content: the same worksheet, byte for byte
+    assert first == data
+
+
+def png_chunks(png: bytes) -> list[str]:
+    assert png[:8] == b"\x89PNG\r\n\x1a\n"
+    out, k = [], 8
+    while k < len(png):
+        (length,) = struct.unpack(">I", png[k:k + 4])
+        out.append(png[k + 4:k + 8].decode("ascii"))
+        k += 12 + length
+    return out
+
+
+def test_map_png_reproducible_opaque_and_without_stamps():
+    res = assess(load_station(WIRE_DEMO))
+    numbers = {pl.label: f"P{i + 1}" for i, pl in enumerate(res.places)}
+    cfg = next(c for c in res.configurations if c.near_field_map is not None)
+    png, w_in, h_in = near_field_map_png(cfg, res.places, place_numbers=numbers)
+    assert png == near_field_map_png(cfg, res.places, place_numbers=numbers)[0]
+    chunks = png_chunks(png)
+    assert not {"tEXt", "iTXt", "zTXt", "tIME"} & set(chunks)      # no software or time stamp
+    colour_type = png[25]                                             # IHDR: 2 = RGB, no alpha channel
+    assert colour_type == 2
+    assert w_in * 72 <= 510.3                                        # fits the 180 mm worksheet frame
+
+
+def test_colour_scale_holds_the_limit_and_the_largest_ratio():
+    import numpy as np
+
+    # all far below the limit: the scale still reaches 1 so the reader sees the distance to it
+    lo, hi = _colour_range(np.array([[1e-9, 1e-3], [np.nan, 4e-4]]))
+    assert hi == 1.0 and lo == pytest.approx(10.0 ** -MAX_DECADES)
+    # above the limit: the decade above the largest ratio, and at least two decades shown
+    lo, hi = _colour_range(np.array([[0.06, 230.0]]))
+    assert (lo, hi) == (pytest.approx(0.01), pytest.approx(1000.0))
+    lo, hi = _colour_range(np.array([[2.0, 3.0]]))
+    assert hi == pytest.approx(10.0) and lo <= hi / 100
+
+
+def test_four_contours_have_distinct_styles():
+    styles = {(s["color"], str(s["linestyle"])) for s in CONTOUR_STYLE.values()}
+    assert len(styles) == 4
+    # E and H differ in colour, the environments in line style
+    assert CONTOUR_STYLE[("e", "uncontrolled")]["color"] != CONTOUR_STYLE[("h", "uncontrolled")]["color"]
+    assert CONTOUR_STYLE[("e", "uncontrolled")]["linestyle"] != CONTOUR_STYLE[("e", "controlled")]["linestyle"]
+
+
+def test_station_without_wire_antennas_has_no_near_field_section():
+    res = assess(load_station(PLAIN_DEMO))
+    assert all(c.near_field_map is None for c in res.configurations)
+    data = build_worksheet_pdf(res)
+    text = text_of(data)
+    assert "Near-field maps" not in text and "Near-field map of" not in text
+    assert "Near-field result beside the far-field estimate" not in text
+    assert not any(images_per_page(data))
+    assert "4.3 Exemption from routine evaluation" in text
+
+
+def test_extra_figures_follow_the_near_field_maps():
+    from rfsafe.report.common import p
+
+    res = assess(load_station(WIRE_DEMO))
+    text = text_of(build_worksheet_pdf(res, extra_figures=[p("Hook figure after the near-field maps")]))
+    i = text.index("Hook figure after the near-field maps")
+    assert text.index("6.3 Near-field maps of the wire antennas") < text.index("6.4 Further figures") < i
+    assert i < text.index("7 Cautions")
