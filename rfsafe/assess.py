@@ -128,27 +128,29 @@ def _near_field_map(cid, ant: Antenna, solution, limits, avg_ant, pep_ant, loade
     y = np.linspace(pts[:, 1].min() - margin, pts[:, 1].max() + margin, 61)
     gx, gy = np.meshgrid(x, y)
     # Points on or next to a conductor are left out (NaN): thin-wire fields do not hold there.
-    keep = np.ones(gx.size, dtype=bool)
     e_ratio, h_ratio = {}, {}
+    # Fields scale with sqrt(power): solve every height once at 1 W, then scale per limit.
+    grid = np.concatenate([np.column_stack([gx.ravel(), gy.ravel(), np.full(gx.size, z)])
+                           for z in MAP_BODY_HEIGHTS_M])
+    near = _near_wire(grid, spec)
+    e1 = np.full(len(grid), np.nan)
+    h1 = np.full(len(grid), np.nan)
+    e1[~near], h1[~near] = solution.fields_rms(grid[~near], 1.0)
+    keep = ~near.reshape(len(MAP_BODY_HEIGHTS_M), -1).any(axis=0)
     for env in ENVIRONMENTS:
-        e_best = np.zeros(gx.shape)
-        h_best = np.zeros(gx.shape)
-        for z in MAP_BODY_HEIGHTS_M:
-            grid = np.column_stack([gx.ravel(), gy.ravel(), np.full(gx.size, z)])
-            near = _near_wire(grid, spec)
-            keep &= ~near
-            for lim in limits[env]:
-                power = pep_ant if lim.basis == "instantaneous" else avg_ant[env]
-                e = np.full(gx.size, np.nan)
-                h = np.full(gx.size, np.nan)
-                e[~near], h[~near] = solution.fields_rms(grid[~near], power)
-                if lim.e_field_v_m is not None:
-                    e_best = np.maximum(e_best, np.asarray(exposure_ratio(lim, e_field_v_m=e)).reshape(gx.shape))
-                if lim.h_field_a_m is not None:
-                    h_best = np.maximum(h_best, np.asarray(exposure_ratio(lim, h_field_a_m=h)).reshape(gx.shape))
-        e_best.ravel()[~keep] = np.nan
-        h_best.ravel()[~keep] = np.nan
-        e_ratio[env], h_ratio[env] = e_best, h_best
+        e_best = np.zeros(gx.size)
+        h_best = np.zeros(gx.size)
+        for lim in limits[env]:
+            scale = math.sqrt(pep_ant if lim.basis == "instantaneous" else avg_ant[env])
+            if lim.e_field_v_m is not None:
+                r = np.asarray(exposure_ratio(lim, e_field_v_m=e1 * scale)).reshape(len(MAP_BODY_HEIGHTS_M), -1)
+                e_best = np.maximum(e_best, np.nanmax(np.where(np.isnan(r), -np.inf, r), axis=0))
+            if lim.h_field_a_m is not None:
+                r = np.asarray(exposure_ratio(lim, h_field_a_m=h1 * scale)).reshape(len(MAP_BODY_HEIGHTS_M), -1)
+                h_best = np.maximum(h_best, np.nanmax(np.where(np.isnan(r), -np.inf, r), axis=0))
+        e_best[~keep] = np.nan
+        h_best[~keep] = np.nan
+        e_ratio[env], h_ratio[env] = e_best.reshape(gx.shape), h_best.reshape(gx.shape)
     return NearFieldMap(
         configuration=cid, antenna=ant.id,
         plane=f"horizontal, worst over heights {MAP_BODY_HEIGHTS_M[0]:g}-{MAP_BODY_HEIGHTS_M[-1]:g} m above ground",
