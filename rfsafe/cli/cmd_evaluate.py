@@ -41,7 +41,7 @@ def render_evaluation(res) -> str:
                      f"{dist['uncontrolled'].dist_m:.2f} ({dist['uncontrolled'].dist_ft:.1f})"])
     out.append(format_table(
         ["configuration", "MHz", "mode", "PEP W", "duty", "fill ctl/unc", "avg W unc", "loss dB",
-         "gain dBi", "EIRP W unc", "ctl dist m (ft)", "unc dist m (ft)"], rows,
+         "gain dBi", "EIRP W unc", "ctl dist m (ft)", "unc dist m (ft)"], rows, align="lrlrrrrrrrrr",
         title="Configurations (average power after duty factor and averaging-window fill; peak gain)"))
     out.append("")
     if res.places:
@@ -50,9 +50,9 @@ def render_evaluation(res) -> str:
             for x in p.exposures:
                 rows.append([p.label, p.environment, x.configuration, f"{x.dist_m:.2f}",
                              _f(x.power_density_w_m2), _f(x.e_field_v_m), _f(x.h_field_a_m),
-                             _f(x.exposure_ratio), f"{x.margin_db:+.1f}", x.method + (" [NEAR FIELD]" if x.inside_near_field else "")])
+                             _f(x.exposure_ratio), f"{x.margin_db:+.1f}", x.method + (" [INSIDE NEAR FIELD]" if x.inside_near_field and x.near_field_ratio is None else "")])
         out.append(format_table(["place", "environment", "configuration", "dist m", "S W/m2", "E V/m",
-                                 "H A/m", "ratio", "margin dB", "method"], rows,
+                                 "H A/m", "ratio", "margin dB", "method"], rows, align="lllrrrrrrl",
                                 title="Exposure at each place from each configuration"))
         out.append("")
         rows = []
@@ -61,17 +61,28 @@ def render_evaluation(res) -> str:
             rows.append([p.label, p.environment, _f(p.total_ratio), f"{p.total_margin_db:+.1f}",
                          p.verdict.upper(), shares])
         out.append(format_table(["place", "environment", "total ratio", "margin dB", "verdict", "summed"],
-                                rows, title="Simultaneous total at each place (sum of exposure ratios <= 1)"))
+                                rows, align="llrrll", title="Simultaneous total at each place (sum of exposure ratios <= 1)"))
         out.append(f"  rule: {res.places[0].total_rule}")
         out.append("")
     rows = []
     for c in res.configurations:
         ln = c.line
+        rated = [ps for ps in ln.part_stresses if ps.headroom is not None]
+        weakest = min(rated, key=lambda ps: ps.headroom) if rated else None
+        if weakest is None:
+            weak_text, swr_text = "no ratings", "-"
+        else:
+            weak_text = f"{weakest.part} x{weakest.headroom:.2g}"
+            tol = weakest.largest_tolerable_swr
+            swr_text = ("exceeded" if weakest.exceeded else "-") if tol is None else (
+                "any" if tol == float("inf") else _f(tol))
         rows.append([c.id, f"{ln.swr_at_antenna:.2f}", f"{ln.swr_at_transmitter:.2f}",
                      _f(ln.line_voltage_v_peak), _f(ln.line_current_a_peak), f"{ln.total_loss_db:.2f}",
-                     ", ".join(c.exceeded_parts) or "none"])
+                     weak_text, swr_text, ", ".join(c.exceeded_parts) or "none"])
     out.append(format_table(["configuration", "SWR ant", "SWR tx", "V max (peak)", "I max A (peak)",
-                             "loss dB", "ratings exceeded"], rows, title="Feedline and tuner stress at PEP"))
+                             "loss dB", "least headroom", "SWR limit", "ratings exceeded"], rows, align="lrrrrrlrl",
+                            title="Feedline and tuner stress at PEP (headroom = rating / stress; SWR limit: "
+                                  "largest tolerable SWR of that part at this power)"))
     if res.exemption is not None:
         out.append("")
         ex = res.exemption
