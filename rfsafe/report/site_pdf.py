@@ -193,6 +193,29 @@ def _configurations(res, width) -> list:
                          f"{c.gain_dbi:.2f}", num(c.eirp_w["uncontrolled"])])
     w = [0.11, 0.12, 0.07, 0.08, 0.07, 0.06, 0.11, 0.08, 0.11, 0.08, 0.11]
     out.append(data_table(headers, rows, [f * width for f in w], align="llrlrrrrrrr"))
+    out += _near_field_maps(res, width)
+    return out
+
+
+def _near_field_maps(res, width) -> list:
+    """Near-field maps of the wire antennas of each station (from the core evaluation), in station coordinates."""
+    from types import SimpleNamespace
+
+    from rfsafe.report.near_field import near_field_map_section
+
+    out = []
+    k = 0
+    for s in res.stations:
+        if not any(c.near_field_map is not None for c in s.configurations):
+            continue
+        k += 1
+        section = near_field_map_section(SimpleNamespace(configurations=s.configurations, places=()), width, {},
+                                         f"5.{k}")
+        note = p(f"Station {escape(s.name)}: coordinates in the station's own frame (its origin stands at "
+                 f"x = {s.x_m:g} m, y = {s.y_m:g} m on the site). The site map above uses the far-field estimate "
+                 "with the solver's peak gain for this station; these maps are its moment-method near field.",
+                 "small", markup=True)
+        out += [CondPageBreak(90 * mm), section[0], note] + section[1:]
     return out
 
 
