@@ -34,7 +34,7 @@ _STATION_TABLES = ("transmitters", "feedlines", "antennas", "configurations")
 
 
 class _Strict(BaseModel):
-    model_config = ConfigDict(strict=True, extra="forbid", frozen=True)
+    model_config = ConfigDict(strict=True, extra="forbid", frozen=True, allow_inf_nan=False)
 
 
 class SiteStation(_Strict):

@@ -7,6 +7,7 @@ the value and what is accepted.
 from __future__ import annotations
 
 import hashlib
+import math
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -156,6 +157,12 @@ def check_station(station: Station, base: Path) -> tuple[dict, dict]:
         _check_antenna(i, a, base, wire_specs, tables)
     for i, c in enumerate(station.configurations):
         _check_configuration(i, c, station)
+    for p_index, place in enumerate(station.places):
+        for z in place.body_heights_m or [place.height_m]:
+            for a in station.antennas:
+                if math.dist((place.x_m, place.y_m, z), (a.x_m, a.y_m, a.height_m)) < 1e-3:
+                    raise bad_value(f"places[{p_index}]", place.label,
+                                    f"is at the position of antenna {a.id!r}: a place must be at least 1 mm away")
     by_id = {c.id: c for c in station.configurations}
     for g, group in enumerate(station.simultaneous):
         used: dict[str, str] = {}

@@ -26,7 +26,7 @@ ANTENNA_KINDS = ("isotropic", "short-dipole", "half-wave-dipole", "quarter-wave-
 
 
 class _Strict(BaseModel):
-    model_config = ConfigDict(strict=True, extra="forbid", frozen=True)
+    model_config = ConfigDict(strict=True, extra="forbid", frozen=True, allow_inf_nan=False)
 
 
 class Transmitter(_Strict):
