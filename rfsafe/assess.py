@@ -359,12 +359,7 @@ def _near_field_at(em: Emitter, solution, place, heights, field: str):
 
 def _place_exposure(em: Emitter, loaded: LoadedStation, p_index: int, place, cres: ConfigurationResult,
                     solution=None):
-    heights = _heights(place)
-    for z in heights:
-        d = math.dist((place.x_m, place.y_m, z), (em.x_m, em.y_m, em.height_m))
-        if d < 1e-3:
-            raise bad_value(f"places[{p_index}]", place.label,
-                            f"is at the position of antenna {em.antenna.id!r}: a place must be at least 1 mm away")
+    heights = _heights(place)  # the loader has refused places on an antenna
     r, lim, s, dist, gain, how = max((_far_field_at(em, loaded, place, z) for z in heights), key=lambda b: b[0])
     e, h = (float(v) for v in ex.plane_wave_fields(s))
     flag_dist = max(cres.near_field_distance_m, cres.aperture_far_field_m or 0.0)
