@@ -216,20 +216,11 @@ class Axes:
         """A straight segment in scale space (straight on the page), clipped to the plot area."""
         u1, v1 = self._to_unit(x1, y1)
         u2, v2 = self._to_unit(x2, y2)
-        t0, t1 = 0.0, 1.0
         du, dv = u2 - u1, v2 - v1
-        for p_, q_ in ((-du, u1), (du, 1 - u1), (-dv, v1), (dv, 1 - v1)):   # Liang-Barsky
-            if p_ == 0:
-                if q_ < 0:
-                    return
-                continue
-            t = q_ / p_
-            if p_ < 0:
-                t0 = max(t0, t)
-            else:
-                t1 = min(t1, t)
-        if t0 > t1:
+        span = _clip_span(((-du, u1), (du, 1 - u1), (-dv, v1), (dv, 1 - v1)))
+        if span is None:
             return
+        t0, t1 = span
         a = (self.x0 + self.w * (u1 + t0 * du), self.y0 + self.h * (v1 + t0 * dv))
         b = (self.x0 + self.w * (u1 + t1 * du), self.y0 + self.h * (v1 + t1 * dv))
         self.d.add(Line(*a, *b, strokeColor=color, strokeWidth=width, strokeDashArray=dash))
@@ -330,16 +321,13 @@ class Axes:
                           fillColor=color or PALETTE["text"], textAnchor=anchor))
 
 
-def _segment_hits_box(seg, box) -> bool:
-    """True when the segment (x1, y1, x2, y2) passes through the box (x1, y1, x2, y2) (Liang-Barsky)."""
-    x1, y1, x2, y2 = seg
-    bx1, by1, bx2, by2 = box
-    dx, dy = x2 - x1, y2 - y1
+def _clip_span(constraints):
+    """Liang-Barsky: the parameter span (t0, t1) of a segment inside the constraints p t <= q, or None."""
     t0, t1 = 0.0, 1.0
-    for p_, q_ in ((-dx, x1 - bx1), (dx, bx2 - x1), (-dy, y1 - by1), (dy, by2 - y1)):
+    for p_, q_ in constraints:
         if p_ == 0:
             if q_ < 0:
-                return False
+                return None
             continue
         t = q_ / p_
         if p_ < 0:
@@ -347,5 +335,13 @@ def _segment_hits_box(seg, box) -> bool:
         else:
             t1 = min(t1, t)
         if t0 > t1:
-            return False
-    return True
+            return None
+    return t0, t1
+
+
+def _segment_hits_box(seg, box) -> bool:
+    """True when the segment (x1, y1, x2, y2) passes through the box (x1, y1, x2, y2) (Liang-Barsky)."""
+    x1, y1, x2, y2 = seg
+    bx1, by1, bx2, by2 = box
+    dx, dy = x2 - x1, y2 - y1
+    return _clip_span(((-dx, x1 - bx1), (dx, bx2 - x1), (-dy, y1 - by1), (dy, by2 - y1))) is not None
