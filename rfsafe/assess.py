@@ -341,8 +341,19 @@ def _far_field_at(em: Emitter, loaded: LoadedStation, place, z_m: float):
     return best
 
 
-def _near_field_at(em: Emitter, solution, place, heights, field: str):
-    """Worst moment-method (ratio, limit, E, H, z) over the evaluation heights."""
+#: Standards whose whole-body reference levels may be compared with fields spatially averaged over the
+#: body (all five, from memory: OET Bulletin 65 section 2 and its spatial-averaging discussion; ICNIRP 2020
+#: and 1998 whole-body reference levels; IEEE C95.1-2019 spatial averaging of exposure reference levels;
+#: Safety Code 6 (2015) spatially averaged reference levels).
+SPATIAL_AVERAGE_ALLOWED = {"fcc": True, "icnirp2020": True, "icnirp1998": True, "ieee2019": True, "sc6": True}
+
+
+def _near_field_at(em: Emitter, solution, place, heights, field: str, average: bool = False):
+    """Moment-method (ratio, limit, E, H, z) at a place: worst height, or the body-height spatial average.
+
+    The spatial average is the rms over the heights, sqrt(mean(E^2)) and sqrt(mean(H^2)), so that the
+    averaged quantity is the equivalent power density; ``z`` is then None.
+    """
     from rfsafe.limits import exposure_ratio
 
     pts = np.array([[place.x_m, place.y_m, z] for z in heights], dtype=float)
@@ -350,6 +361,12 @@ def _near_field_at(em: Emitter, solution, place, heights, field: str):
     for lim in em.limits[place.environment]:
         p_ant = em.pep_at_antenna_w if lim.basis == "instantaneous" else em.avg_power_at_antenna_w[place.environment]
         e, h = solution.fields_rms(pts, p_ant, field=field)
+        if average and lim.basis != "instantaneous":   # instantaneous limits are never averaged
+            e, h = np.sqrt(np.mean(e ** 2, keepdims=True)), np.sqrt(np.mean(h ** 2, keepdims=True))
+            r = np.asarray(exposure_ratio(lim, e_field_v_m=e, h_field_a_m=h), dtype=float).reshape(1)
+            if best is None or r[0] > best[0]:
+                best = (float(r[0]), lim, float(e[0]), float(h[0]), None)
+            continue
         r = np.asarray(exposure_ratio(lim, e_field_v_m=e, h_field_a_m=h), dtype=float)
         k = int(np.argmax(r))
         if best is None or r[k] > best[0]:
@@ -367,19 +384,25 @@ def _place_exposure(em: Emitter, loaded: LoadedStation, p_index: int, place, cre
     inside = dist_min < flag_dist
     governing = f"{_governing(lim, s)} ({lim.basis})"
     if inside and solution is not None:
-        rn, limn, en, hn, zn = _near_field_at(em, solution, place, heights, f"places[{p_index}].body_heights_m")
+        average = loaded.model.near_field_spatial_average and SPATIAL_AVERAGE_ALLOWED[loaded.model.standard]
+        rn, limn, en, hn, zn = _near_field_at(em, solution, place, heights, f"places[{p_index}].body_heights_m",
+                                              average)
+        how_nf = ("near-field (moment method, spatial average over body heights)" if zn is None
+                  else "near-field (moment method)")
         e_part = (en / limn.e_field_v_m) ** 2 if limn.e_field_v_m else 0.0
         h_part = (hn / limn.h_field_a_m) ** 2 if limn.h_field_a_m else 0.0
         diff_db = 10 * math.log10(rn / r) if rn > 0 and r > 0 else float("nan")
         flags = (f"{dist_min:.2f} m from {em.antenna.id} is inside the near-field boundary {flag_dist:.2f} m: "
                  f"evaluated with the moment-method solver (near field governs; far-field estimate "
-                 f"{r:.3g}, near-field {rn:.3g}, {diff_db:+.1f} dB)",)
+                 f"{r:.3g}, near-field {rn:.3g}, {diff_db:+.1f} dB)"
+                 + (f"; spatial average over body heights {', '.join(f'{z:g}' for z in heights)} m, as "
+                    "the standard allows (option near_field_spatial_average)" if zn is None else ""),)
         return PlaceExposure(
             configuration=em.configuration, transmitter=em.transmitter, dist_m=dist_min, gain_dbi=gain,
             gain_method=how, power_density_w_m2=max(en ** 2 / ex.ETA_STANDARDS_OHM, ex.ETA_STANDARDS_OHM * hn ** 2),
             e_field_v_m=en, h_field_a_m=hn, exposure_ratio=rn,
             governing=f"{'e_field' if e_part >= h_part else 'h_field'} ({limn.basis})",
-            margin_db=float(ex.margin_db(rn)), method="near-field (moment method)", inside_near_field=True,
+            margin_db=float(ex.margin_db(rn)), method=how_nf, inside_near_field=True,
             flags=flags, far_field_ratio=r, near_field_ratio=rn, limit_source=limn.source, **_limit_values(limn))
     flags = (f"{dist_min:.2f} m from {em.antenna.id} is inside the near-field boundary {flag_dist:.2f} m: "
              f"{NEAR_FIELD_FLAG}",) if inside else ()

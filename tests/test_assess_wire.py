@@ -6,7 +6,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from rfsafe.assess import assess
+from rfsafe.assess import assess, emitters
 from rfsafe.station import load_station
 
 DEMO = Path(__file__).resolve().parent.parent / "reports_demo" / "demo_wire_station.toml"
@@ -62,3 +62,32 @@ def test_wire_gain_over_perfect_ground_is_not_counted_twice(result):
     cfg = next(c for c in result.configurations if c.id == "40m-ssb")
     assert cfg.gain_source == "moment-method solver"
     assert any("F = 1" in f for f in cfg.flags)
+
+
+def test_spatial_average_over_body_heights_is_a_labelled_option(tmp_path):
+    # The standards' whole-body reference levels may be compared with the field averaged over the body
+    # (OET Bulletin 65 section 2; ICNIRP 2020; IEEE C95.1-2019; Safety Code 6 - from memory). The rms
+    # average over heights can never exceed the worst height, and the result must say which was used.
+    text = DEMO.read_text().replace('ground_reflection = "full"',
+                                    'ground_reflection = "full"\nnear_field_spatial_average = true')
+    path = tmp_path / "avg.toml"
+    path.write_text(text)
+    averaged = assess(load_station(path))
+    worst = assess(load_station(DEMO))
+
+    def pick(res):
+        p = next(p for p in res.places if p.label == "Garden path beside the vertical")
+        return next(e for e in p.exposures if e.configuration == "20m-cw-amp")
+
+    a, w = pick(averaged), pick(worst)
+    assert a.method == "near-field (moment method, spatial average over body heights)"
+    assert w.method == "near-field (moment method)"
+    assert a.exposure_ratio < w.exposure_ratio
+    # the average of (H/H_lim)^2 over the four heights, computed here from the solver directly
+    em = next(e for e in emitters(load_station(path)) if e.configuration == "20m-cw-amp")
+    pts = np.array([[13.5, 0.0, z] for z in (0.5, 1.0, 1.5, 2.0)])
+    e, h = em.solution.fields_rms(pts, em.avg_power_at_antenna_w["uncontrolled"])
+    (lim,) = em.limits["uncontrolled"]
+    expected = max(np.mean(e ** 2) / lim.e_field_v_m ** 2, np.mean(h ** 2) / lim.h_field_a_m ** 2)
+    assert a.exposure_ratio == pytest.approx(expected, rel=1e-12)
+    assert "spatial average over body heights" in a.flags[0]

@@ -52,7 +52,7 @@ def has_near_field_maps(res) -> bool:
 def comparison_exposures(res) -> list:
     """(place, exposure) pairs evaluated with the moment method, carrying both ratios, in place order."""
     return [(pl, x) for pl in res.places for x in pl.exposures
-            if x.method == NEAR_FIELD_METHOD and x.far_field_ratio is not None and x.near_field_ratio is not None]
+            if x.far_field_ratio is not None and x.near_field_ratio is not None]
 
 
 def _difference_db(near: float, far: float) -> str:

@@ -152,6 +152,11 @@ class Station(_Strict):
     standard: Literal["fcc", "icnirp2020", "icnirp1998", "ieee2019", "sc6"] = "fcc"
     ground_reflection: Literal["none", "typical", "full"] = Field(
         default="full", description="Ground-reflection factor: none (F=1), typical (F=2.56), full (F=4; default, conservative).")
+    near_field_spatial_average: bool = Field(
+        default=False,
+        description="Near-field places: compare the average of E^2 and H^2 over the place's body_heights_m "
+                    "(the whole-body spatial average the standards allow) instead of the worst height "
+                    "(default false: worst point, conservative).")
     exact_line_loss: bool = Field(default=False,
                                   description="Use the exact complex-Z0 mismatched-line loss instead of the closed form.")
     transmitters: list[Transmitter] = Field(min_length=1)
