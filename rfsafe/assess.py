@@ -22,7 +22,7 @@ from rfsafe.station.load import INTRINSIC_GAIN_DBI, LoadedStation
 from rfsafe.station.schema import Antenna, Configuration, Feedline, Station
 from rfsafe.units import DIPOLE_GAIN_DBI, M_PER_FT
 
-__all__ = ["assess", "Emitter", "emitters", "peak_gain_dbi", "NEAR_FIELD_FLAG"]
+__all__ = ["assess", "assess_with_emitters", "Emitter", "emitters", "peak_gain_dbi", "NEAR_FIELD_FLAG"]
 
 NEAR_FIELD_FLAG = "far-field estimate; near-field analysis or measurement recommended"
 
@@ -67,23 +67,10 @@ def _wire_solution(loaded: LoadedStation, ant: Antenna, freq_hz: float, i: int):
     """Moment-method solution of a wire antenna at one frequency (None for other kinds)."""
     if ant.kind != "wire":
         return None
-    index = next(k for k, a in enumerate(loaded.model.antennas) if a.id == ant.id)
-    return _solve_cached(loaded, index, freq_hz)
-
-
-_SOLUTIONS: dict = {}
-
-
-def _solve_cached(loaded: LoadedStation, index: int, freq_hz: float):
     from rfsafe.antenna.wire import solve
 
-    ant = loaded.model.antennas[index]
-    key = (loaded.sha256, ant.id, freq_hz)
-    if key not in _SOLUTIONS:
-        if len(_SOLUTIONS) > 64:
-            _SOLUTIONS.clear()
-        _SOLUTIONS[key] = solve(loaded.wire_specs[ant.id], freq_hz, field_prefix=f"antennas[{index}].wire.")
-    return _SOLUTIONS[key]
+    index = next(k for k, a in enumerate(loaded.model.antennas) if a.id == ant.id)
+    return solve(loaded.wire_specs[ant.id], freq_hz, field_prefix=f"antennas[{index}].wire.")
 
 
 def _wire_summary(solution):
@@ -103,14 +90,13 @@ MAP_BODY_HEIGHTS_M = (0.5, 1.0, 1.5, 2.0)
 
 def _near_wire(points: np.ndarray, spec) -> np.ndarray:
     """Points closer than max(10 radii, 5 cm) to any wire piece (boolean mask)."""
+    from rfsafe.antenna.wire.geometry import point_segment_distances
+
     near = np.zeros(len(points), dtype=bool)
     for w in spec.wires:
         v = np.asarray(w.points_m, dtype=float)
-        for a, b in zip(v[:-1], v[1:]):
-            ab = b - a
-            t = np.clip(((points - a) @ ab) / (ab @ ab), 0.0, 1.0)
-            d = np.linalg.norm(points - (a + t[:, None] * ab), axis=1)
-            near |= d < max(10 * w.radius_m, 0.05)
+        d = point_segment_distances(points[:, None, :], v[:-1], v[1:])   # (points, pieces)
+        near |= (d < max(10 * w.radius_m, 0.05)).any(axis=1)
     return near
 
 
@@ -442,13 +428,11 @@ def emitters(loaded: LoadedStation) -> list[Emitter]:
 
 def _segments_distance_m(points: np.ndarray, segments) -> float:
     """Smallest distance [m] from any point to any straight segment (a, b)."""
-    best = np.inf
-    for a, b in segments:
-        a, b = np.asarray(a, dtype=float), np.asarray(b, dtype=float)
-        ab = b - a
-        t = np.clip(((points - a) @ ab) / (ab @ ab), 0.0, 1.0) if ab @ ab > 0 else np.zeros(len(points))
-        best = min(best, float(np.linalg.norm(points - (a + t[:, None] * ab), axis=1).min()))
-    return best
+    from rfsafe.antenna.wire.geometry import point_segment_distances
+
+    a = np.array([seg[0] for seg in segments], dtype=float)
+    b = np.array([seg[1] for seg in segments], dtype=float)
+    return float(point_segment_distances(points[:, None, :], a, b).min())
 
 
 def _separation_m(loaded: LoadedStation, ant: Antenna, freq_hz: float, places) -> tuple[float, str]:
@@ -512,6 +496,12 @@ def assess(loaded: LoadedStation, *, today: dt.date | None = None) -> Evaluation
     today : datetime.date, optional
         Date printed when the file gives no evaluation date (default: today).
     """
+    return assess_with_emitters(loaded, today=today)[0]
+
+
+def assess_with_emitters(loaded: LoadedStation, *, today: dt.date | None = None
+                         ) -> tuple[EvaluationResult, list[Emitter]]:
+    """:func:`assess` and the configurations' :class:`Emitter` objects from the same computation."""
     st = loaded.model
     info = standard_info(st.standard)
     gf = ex.GROUND_FACTORS[st.ground_reflection]
@@ -553,7 +543,7 @@ def assess(loaded: LoadedStation, *, today: dt.date | None = None) -> Evaluation
         f"Line loss model: {'; '.join(loss_models)}.",
         f"Limits: {info.name}; averaging times as the standard gives them per environment.",
     )
-    return EvaluationResult(
+    result = EvaluationResult(
         title=st.title, station=st.station, evaluator=st.evaluator, evaluation_date=date,
         evaluation_date_source=date_src, standard=st.standard, standard_name=info.name,
         environment_labels=dict(info.environment_labels), rfsafe_version=__version__,
@@ -561,3 +551,4 @@ def assess(loaded: LoadedStation, *, today: dt.date | None = None) -> Evaluation
         ground_factor=gf, loss_model="; ".join(loss_models), configurations=configs, places=tuple(places),
         exemption=exemption, verdict="COMPLIES" if not exceeded else "EXCEEDS", exceeded=tuple(exceeded),
         method_notes=notes, cautions=CAUTIONS)
+    return result, ems

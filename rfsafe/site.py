@@ -921,7 +921,7 @@ def _site_pattern(ant, peak_gain_dbi: float, tables: dict, field: str):
 
 def site_emitters(loaded_site) -> tuple[list[SiteEmitter], list[SiteStationResult], list[str]]:
     """Every configuration of every station, placed on the site, with its power chain from rfsafe.assess."""
-    from rfsafe.assess import assess, emitters
+    from rfsafe.assess import assess_with_emitters
 
     out: list[SiteEmitter] = []
     stations: list[SiteStationResult] = []
@@ -930,8 +930,7 @@ def site_emitters(loaded_site) -> tuple[list[SiteEmitter], list[SiteStationResul
                                                           loaded_site.sources)):
         prefix = f"stations[{i}]." if source == "inline" else f"stations[{i}] (file {source!r}): "
         try:
-            evaluation = assess(loaded)
-            ems = emitters(loaded)
+            evaluation, ems = assess_with_emitters(loaded)
         except InputError as err:
             raise InputError(f"{prefix}{err}") from None
         tx_ids = [t.id for t in loaded.model.transmitters]
@@ -954,7 +953,8 @@ def site_emitters(loaded_site) -> tuple[list[SiteEmitter], list[SiteStationResul
                 polarisation=em.antenna.polarisation, near_field_m=nf))
             if em.antenna.kind == "wire":
                 flags.append(f"{s.name}: wire antenna {em.antenna.id!r} is mapped with its solver peak gain in every "
-                             "direction (far field); see rfsafe evaluate for its near-field evaluation")
+                             "direction (far field); its moment-method near-field map is in the site PDF, and rfsafe "
+                             "evaluate gives its near field at declared places")
         exceeded = tuple(f"station {s.name}, configuration {c.id}: {part} exceeds its rating"
                          for c in evaluation.configurations for part in c.exceeded_parts)
         flags.extend(f"{s.name}, configuration {c.id}: {f}" for c in evaluation.configurations for f in c.flags)
