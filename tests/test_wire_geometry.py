@@ -1,4 +1,10 @@
-"""Segmentation, junctions and the refusals of the wire solver (model and geometry checks)."""
+"""Segmentation, junctions and the refusals of the wire solver (model and geometry checks).
+
+The numbers checked here are not measurements: they follow from the geometry each test builds
+(elementary analytic geometry, common practice) and from the solver's stated rules: the default
+segment length lambda/40, segments between 4 radii and lambda/10 (the usual thin-wire guidance, common
+practice; e.g. Balanis, Antenna Theory, ch. 8), and one basis function per interior node.
+"""
 
 import math
 
@@ -10,7 +16,7 @@ from rfsafe.antenna.wire.geometry import build_structure, segment_distances
 from rfsafe.antenna.wire.model import check_wire_antenna
 from rfsafe.errors import InputError
 
-F_HZ = 299_792_458.0  # lambda = 1 m
+F_HZ = 299_792_458.0  # lambda = 1 m exactly (c = 299 792 458 m/s, SI definition)
 
 
 def spec(wires, feeds=({"wire": 0},), ground="free-space"):
@@ -24,9 +30,10 @@ def wire(*pts, radius=1e-3, **kw):
 def test_default_rule_is_lambda_over_40_and_feeds_and_corners_are_nodes():
     s = spec([wire((-0.3, 0, 0.5), (0, 0, 0.7), (0.3, 0, 0.5))], [{"wire": 0, "position": 0.3}])
     st = build_structure(s, F_HZ, check_wire_antenna(s))
-    assert st.length_m.max() <= 1 / 40 + 1e-12
+    assert st.length_m.max() <= 1 / 40 + 1e-12  # the stated default rule, lambda/40 (1e-12: rounding)
     nodes = np.concatenate([st.start_m, st.end_m])
     assert np.min(np.linalg.norm(nodes - [0, 0, 0.7], axis=1)) < 1e-12  # the corner
+    # the feed at 30 % of a two-piece wire: arc length along the polyline (elementary geometry)
     total = 2 * math.hypot(0.3, 0.2)
     along = 0.3 * total
     expect = np.array([-0.3, 0, 0.5]) + along / math.hypot(0.3, 0.2) * np.array([0.3, 0, 0.2])
@@ -37,7 +44,7 @@ def test_segments_are_split_over_pieces_by_length():
     s = spec([wire((0, 0, 0), (0, 0, 0.3), (0.1, 0, 0.3), segments=8)], [{"wire": 0, "position": 0.5}])
     st = build_structure(s, F_HZ, check_wire_antenna(s))
     assert st.num_segments == 8
-    assert st.num_unknowns == 7  # free ends carry no basis function
+    assert st.num_unknowns == 7  # free ends carry no basis function: 8 segments, 7 interior nodes
 
 
 def test_junction_of_n_wires_has_n_minus_1_basis_functions_and_ground_ends_one_each():
@@ -45,9 +52,12 @@ def test_junction_of_n_wires_has_n_minus_1_basis_functions_and_ground_ends_one_e
                for a in (0, 2.1, 4.2)]
     s = spec([wire((0, 0, 0.3), (0, 0, 0.55), segments=5), *radials], [{"wire": 0, "position": 0.0}])
     st = build_structure(s, F_HZ, check_wire_antenna(s))
+    # 4 wires of 5 segments: 4 interior nodes each, plus n - 1 = 3 functions at the 4-wire junction
+    # (current continuity, Kirchhoff's current law: common practice)
     assert st.num_unknowns == 4 * 4 + 3
     assert np.count_nonzero(st.feed_coupling) == 3  # the feed drives every junction function
     g = spec([wire((0, 0, 0), (0, 0, 0.25), segments=5)], [{"wire": 0, "position": 0.0}], ground="perfect")
+    # image theory (Balanis sec. 4.7): the grounded end continues into its image, so it carries a function
     assert build_structure(g, F_HZ, check_wire_antenna(g)).num_unknowns == 5
 
 
@@ -55,6 +65,8 @@ def test_segment_distances_cover_crossing_parallel_and_end_cases():
     a0, a1 = np.array([[0, 0, 0.0]]), np.array([[1, 0, 0.0]])
     b0 = np.array([[0.5, -1, 0.2], [0, 1, 0], [2, 0, 0], [0.2, 0.3, 0]])
     b1 = np.array([[0.5, 1, 0.2], [1, 1, 0], [3, 0, 0], [0.8, 0.3, 0]])
+    # distances read off the construction (elementary geometry): crossing 0.2 m above, parallel 1 m away,
+    # collinear with a 1 m gap, parallel 0.3 m away
     np.testing.assert_allclose(segment_distances(a0, a1, b0, b1)[0], [0.2, 1.0, 1.0, 0.3])
 
 
