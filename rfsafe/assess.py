@@ -63,7 +63,7 @@ def peak_gain_dbi(antenna: Antenna, wire_gain_dbi: float | None = None, table=No
     raise bad_value(f"antennas.{antenna.id}.gain_dbi", None, "is required for this antenna")
 
 
-def _wire_solution(loaded: LoadedStation, ant: Antenna, freq_hz: float, i: int):
+def _wire_solution(loaded: LoadedStation, ant: Antenna, freq_hz: float):
     """Moment-method solution of a wire antenna at one frequency (None for other kinds)."""
     if ant.kind != "wire":
         return None
@@ -78,9 +78,7 @@ def _wire_summary(solution):
         return None
     from rfsafe.results import WireSummary
 
-    z = complex(solution.feed_impedance_ohm[0]) if np.ndim(solution.feed_impedance_ohm) else complex(
-        solution.feed_impedance_ohm)
-    return WireSummary(feed_impedance_ohm=z, gain_dbi=float(solution.gain_dbi),
+    return WireSummary(feed_impedance_ohm=complex(solution.feed_impedance_ohm[0]), gain_dbi=float(solution.gain_dbi),
                        radiated_over_input_power=float(solution.radiated_over_input_power))
 
 
@@ -215,7 +213,7 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
                      "largest power at the antenna but understates line stress")
     line = _line_result(st, i, c, fline, tx.pep_w, tx.pep_w * duty)
     loss_fraction = float(line.loss_fraction)
-    solution = _wire_solution(loaded, ant, freq_hz, i)
+    solution = _wire_solution(loaded, ant, freq_hz)
     gain, gain_src = peak_gain_dbi(ant, solution.gain_dbi if solution is not None else None,
                                    loaded.pattern_tables.get(ant.id))
     if ant.kind == "quarter-wave-vertical" and ground_factor > 1:

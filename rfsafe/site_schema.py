@@ -151,19 +151,6 @@ def _station_from_file(i: int, s: SiteStation, site: Site, base: Path):
                          pattern_tables=tables), (s.file, digest)
 
 
-def _check_patterns(loaded, prefix: str) -> None:
-    """Build every pattern the site grid will use, so that an inconsistent beam is an input error now."""
-    from rfsafe.antenna.patterns import PATTERN_KINDS, make_pattern
-    from rfsafe.assess import peak_gain_dbi
-
-    for k, a in enumerate(loaded.model.antennas):
-        if a.use_pattern and a.kind in PATTERN_KINDS:
-            gain, _ = peak_gain_dbi(a)
-            make_pattern(a.kind, peak_gain_dbi=gain, front_to_back_db=a.front_to_back_db,
-                         beamwidth_h_deg=a.beamwidth_h_deg, beamwidth_v_deg=a.beamwidth_v_deg,
-                         table=loaded.pattern_tables.get(a.id), field=f"{prefix}antennas[{k}]")
-
-
 def load_site(path: str | Path, *, standard: str | None = None) -> LoadedSite:
     """Read, validate and cross-check a site file and the station files it names.
 
@@ -207,7 +194,6 @@ def load_site(path: str | Path, *, standard: str | None = None) -> LoadedSite:
     for i, s in enumerate(site.stations):
         loaded, source = (_station_from_file if s.file is not None else _station_from_tables)(
             i, s, site, path.parent)
-        _check_patterns(loaded, f"stations[{i}]." if s.file is None else f"stations[{i}] (file {format_value(s.file)}): ")
         stations.append(loaded)
         sources.append(source)
     return LoadedSite(model=site, path=path, sha256=hashlib.sha256(raw).hexdigest(), stations=tuple(stations),

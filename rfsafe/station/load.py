@@ -14,6 +14,7 @@ from pathlib import Path
 from rfsafe.errors import InputError, bad_value, format_value
 from rfsafe.station.schema import Antenna, Configuration, Feedline, Station
 from rfsafe.station.validation import read_toml, validate_with_standard
+from rfsafe.units import dbd_to_dbi
 
 __all__ = ["LoadedStation", "load_station", "check_station", "quoted_list"]
 
@@ -104,7 +105,7 @@ def _check_antenna(i: int, a: Antenna, base: Path, wire_specs: dict, tables: dic
     if a.use_pattern or a.kind == "table":
         from rfsafe.antenna.patterns import make_pattern
 
-        gain = a.gain_dbi if a.gain_dbi is not None else (a.gain_dbd + 2.15 if a.gain_dbd is not None else None)
+        gain = a.gain_dbi if a.gain_dbi is not None else (dbd_to_dbi(a.gain_dbd) if a.gain_dbd is not None else None)
         make_pattern(a.kind, peak_gain_dbi=gain, front_to_back_db=a.front_to_back_db,
                      beamwidth_h_deg=a.beamwidth_h_deg, beamwidth_v_deg=a.beamwidth_v_deg,
                      table=tables.get(a.id), field=path)
