@@ -125,7 +125,7 @@ def _near_field_map(cid, ant: Antenna, solution, limits, avg_ant, pep_ant, loade
         e_best = np.zeros(gx.size)
         h_best = np.zeros(gx.size)
         for lim in limits[env]:
-            scale = math.sqrt(pep_ant if lim.basis == "instantaneous" else avg_ant[env])
+            scale = math.sqrt(_power_for(lim, avg_ant[env], pep_ant))
             if lim.e_field_v_m is not None:
                 r = np.asarray(exposure_ratio(lim, e_field_v_m=e1 * scale)).reshape(len(MAP_BODY_HEIGHTS_M), -1)
                 e_best = np.maximum(e_best, np.nanmax(np.where(np.isnan(r), -np.inf, r), axis=0))
@@ -175,9 +175,9 @@ def _line_result(station: Station, index: int, c: Configuration, f: Feedline, pe
                              inductor_q=c.tuner.inductor_q,
                              capacitor_max_voltage_v_peak=c.tuner.capacitor_v_peak_rating,
                              inductor_max_current_a_rms=c.tuner.inductor_a_rms_rating)
-    swr = c.swr if (c.swr is not None or load is not None) else 1.0
+    swr = None if load is not None else (c.swr if c.swr is not None else 1.0)  # no SWR: matched (flagged)
     return fl.evaluate_line(pep_w=pep_w, avg_power_w=thermal_avg_w, freq_hz=freq_hz, cable=cable,
-                            length_m=f.length_m, swr=swr if load is None else None, load_ohm=load,
+                            length_m=f.length_m, swr=swr, load_ohm=load,
                             connector_loss_db=f.connector_loss_db, connector=f.connector,
                             connector_v_peak_rating=f.connector_v_peak_rating, tuner=tuner,
                             exact_complex_z0=station.exact_line_loss, field=f"configurations[{index}]")
@@ -238,7 +238,7 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
     for env in ENVIRONMENTS:
         best = None
         for lim in limits[env]:
-            p = eirp_pep if lim.basis == "instantaneous" else eirp[env]
+            p = _power_for(lim, eirp[env], eirp_pep)
             d = ex.compliance_distance_m(p, ground_factor, lim)
             if best is None or d > best[0]:
                 best = (d, lim, p)
@@ -272,6 +272,11 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
     return result, emitter
 
 
+def _power_for(limit, avg_w: float, pep_w: float) -> float:
+    """The power a limit is compared with: PEP for instantaneous limits, else the time average."""
+    return pep_w if limit.basis == "instantaneous" else avg_w
+
+
 def _limit_values(limit) -> dict:
     return {"power_density_limit_w_m2": limit.power_density_w_m2, "e_field_limit_v_m": limit.e_field_v_m,
             "h_field_limit_a_m": limit.h_field_a_m}
@@ -292,11 +297,11 @@ def _governing(limit, s_w_m2) -> str:
 
 def _gain_toward(em: Emitter, loaded: LoadedStation, dx, dy, dz) -> tuple[float, str]:
     ant = em.antenna
-    index = next(k for k, a in enumerate(loaded.model.antennas) if a.id == ant.id)
     if not ant.use_pattern:
         return em.peak_gain_dbi, "peak"
     from rfsafe.antenna import patterns
 
+    index = next(k for k, a in enumerate(loaded.model.antennas) if a.id == ant.id)
     direction = patterns.direction_in_antenna_frame(dx, dy, dz, azimuth_deg=ant.azimuth_deg,
                                                     tilt_deg=ant.tilt_deg, polarisation=ant.polarisation)
     g = patterns.pattern_gain_dbi(ant.kind, *direction, peak_gain_dbi=em.peak_gain_dbi,
@@ -317,7 +322,7 @@ def _far_field_at(em: Emitter, loaded: LoadedStation, place, z_m: float):
     gain, how = _gain_toward(em, loaded, dx, dy, dz)
     best = None
     for lim in em.limits[place.environment]:
-        p_ant = em.pep_at_antenna_w if lim.basis == "instantaneous" else em.avg_power_at_antenna_w[place.environment]
+        p_ant = _power_for(lim, em.avg_power_at_antenna_w[place.environment], em.pep_at_antenna_w)
         s = float(ex.far_field_power_density_w_m2(eirp_w(p_ant, gain), dist, em.ground_factor))
         r = float(ex.ratio_at(lim, s))
         if best is None or r > best[0]:
@@ -343,7 +348,7 @@ def _near_field_at(em: Emitter, solution, place, heights, field: str, average: b
     pts = np.array([[place.x_m, place.y_m, z] for z in heights], dtype=float)
     best = None
     for lim in em.limits[place.environment]:
-        p_ant = em.pep_at_antenna_w if lim.basis == "instantaneous" else em.avg_power_at_antenna_w[place.environment]
+        p_ant = _power_for(lim, em.avg_power_at_antenna_w[place.environment], em.pep_at_antenna_w)
         e, h = solution.fields_rms(pts, p_ant, field=field)
         if average and lim.basis != "instantaneous":   # instantaneous limits are never averaged
             e, h = np.sqrt(np.mean(e ** 2, keepdims=True)), np.sqrt(np.mean(h ** 2, keepdims=True))
