@@ -6,17 +6,15 @@ from pathlib import Path
 
 import typer
 
-from rfsafe.errors import bad_value
 
 
 def init(path: Path = typer.Argument(..., help="Where to write the starter station file (.toml)."),
          force: bool = typer.Option(False, "--force", help="Overwrite an existing file.")) -> None:
     """Write a commented starter station file that evaluates as it is."""
+    from rfsafe.fileio import atomic_write_bytes, check_writable
     from rfsafe.station.template import STARTER_TOML
-    from rfsafe.fileio import atomic_write_bytes
 
-    if path.exists() and not force:
-        raise bad_value("PATH", str(path), "already exists (use --force to overwrite)")
+    check_writable(path, force=force, field="PATH")
     atomic_write_bytes(path, STARTER_TOML.encode("utf-8"))
     typer.echo(f"wrote {path}: edit it, then run: rfsafe evaluate {path}")
     raise typer.Exit(0)
