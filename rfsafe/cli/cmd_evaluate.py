@@ -6,15 +6,7 @@ from pathlib import Path
 
 import typer
 
-
-def _f(x, digits=3) -> str:
-    """Compact number for tables (3 significant digits, no exponent for normal ranges)."""
-    if x is None:
-        return "-"
-    ax = abs(x)
-    if ax != 0 and (ax < 1e-3 or ax >= 1e6):
-        return f"{x:.{digits - 1}e}"
-    return f"{x:.{digits}g}" if ax < 1000 else f"{x:.0f}"
+from rfsafe.cli.output import compact_number
 
 
 def render_evaluation(res) -> str:
@@ -33,10 +25,10 @@ def render_evaluation(res) -> str:
     rows = []
     for c in res.configurations:
         dist = {d.environment: d for d in c.compliance_distances}
-        rows.append([c.id, f"{c.freq_mhz:g}", c.mode, _f(c.pep_w), f"{c.duty_factor:g}",
+        rows.append([c.id, f"{c.freq_mhz:g}", c.mode, compact_number(c.pep_w), f"{c.duty_factor:g}",
                      f"{c.transmit_fraction['controlled']:.2f}/{c.transmit_fraction['uncontrolled']:.2f}",
-                     _f(c.avg_power_w["uncontrolled"]), f"{c.line_loss_db:.2f}", f"{c.gain_dbi:.2f}",
-                     _f(c.eirp_w["uncontrolled"]),
+                     compact_number(c.avg_power_w["uncontrolled"]), f"{c.line_loss_db:.2f}", f"{c.gain_dbi:.2f}",
+                     compact_number(c.eirp_w["uncontrolled"]),
                      f"{dist['controlled'].dist_m:.2f} ({dist['controlled'].dist_ft:.1f})",
                      f"{dist['uncontrolled'].dist_m:.2f} ({dist['uncontrolled'].dist_ft:.1f})"])
     out.append(format_table(
@@ -49,16 +41,16 @@ def render_evaluation(res) -> str:
         for p in res.places:
             for x in p.exposures:
                 rows.append([p.label, p.environment, x.configuration, f"{x.dist_m:.2f}",
-                             _f(x.power_density_w_m2), _f(x.e_field_v_m), _f(x.h_field_a_m),
-                             _f(x.exposure_ratio), f"{x.margin_db:+.1f}", x.method + (" [INSIDE NEAR FIELD]" if x.inside_near_field and x.near_field_ratio is None else "")])
+                             compact_number(x.power_density_w_m2), compact_number(x.e_field_v_m), compact_number(x.h_field_a_m),
+                             compact_number(x.exposure_ratio), f"{x.margin_db:+.1f}", x.method + (" [INSIDE NEAR FIELD]" if x.inside_near_field and x.near_field_ratio is None else "")])
         out.append(format_table(["place", "environment", "configuration", "dist m", "S W/m2", "E V/m",
                                  "H A/m", "ratio", "margin dB", "method"], rows, align="lllrrrrrrl",
                                 title="Exposure at each place from each configuration"))
         out.append("")
         rows = []
         for p in res.places:
-            shares = ", ".join(f"{s.configuration} {_f(s.exposure_ratio)}" for s in p.contributions)
-            rows.append([p.label, p.environment, _f(p.total_ratio), f"{p.total_margin_db:+.1f}",
+            shares = ", ".join(f"{s.configuration} {compact_number(s.exposure_ratio)}" for s in p.contributions)
+            rows.append([p.label, p.environment, compact_number(p.total_ratio), f"{p.total_margin_db:+.1f}",
                          p.verdict.upper(), shares])
         out.append(format_table(["place", "environment", "total ratio", "margin dB", "verdict", "summed"],
                                 rows, align="llrrll", title="Simultaneous total at each place (sum of exposure ratios <= 1)"))
@@ -75,9 +67,9 @@ def render_evaluation(res) -> str:
             weak_text = f"{weakest.part} x{weakest.headroom:.2g}"
             tol = weakest.largest_tolerable_swr
             swr_text = ("exceeded" if weakest.exceeded else "-") if tol is None else (
-                "any" if tol == float("inf") else _f(tol))
+                "any" if tol == float("inf") else compact_number(tol))
         rows.append([c.id, f"{ln.swr_at_antenna:.2f}", f"{ln.swr_at_transmitter:.2f}",
-                     _f(ln.line_voltage_v_peak), _f(ln.line_current_a_peak), f"{ln.total_loss_db:.2f}",
+                     compact_number(ln.line_voltage_v_peak), compact_number(ln.line_current_a_peak), f"{ln.total_loss_db:.2f}",
                      weak_text, swr_text, ", ".join(c.exceeded_parts) or "none"])
     out.append(format_table(["configuration", "SWR ant", "SWR tx", "V max (peak)", "I max A (peak)",
                              "loss dB", "least headroom", "SWR limit", "ratings exceeded"], rows, align="lrrrrrlrl",

@@ -7,20 +7,10 @@ from pathlib import Path
 
 import typer
 
+from rfsafe.cli.output import compact_number
+
 #: Grids with at least this many points get a progress bar (stderr, terminals only, not with --json).
 PROGRESS_MIN_POINTS = 200_000
-
-
-def _f(x, digits: int = 3) -> str:
-    if x is None:
-        return "-"
-    x = float(x)
-    if x != x or x in (float("inf"), float("-inf")):
-        return str(x)
-    ax = abs(x)
-    if ax != 0 and (ax < 1e-3 or ax >= 1e6):
-        return f"{x:.{digits - 1}e}"
-    return f"{x:.{digits}g}" if ax < 1000 else f"{x:.0f}"
 
 
 def _m(x) -> str:
@@ -62,8 +52,8 @@ def render_site(res) -> str:
     out.append("")
     rows = []
     for r in res.regions:
-        rows.append([r.label, r.kind, r.checked_environment or "-", _f(r.worst_ratio["uncontrolled"]),
-                     _f(r.worst_ratio["controlled"]), str(r.points_over) if r.checked_environment else "-",
+        rows.append([r.label, r.kind, r.checked_environment or "-", compact_number(r.worst_ratio["uncontrolled"]),
+                     compact_number(r.worst_ratio["controlled"]), str(r.points_over) if r.checked_environment else "-",
                      r.dominant_transmitter or "-", str(r.near_field_points), r.verdict])
     out.append(format_table(
         ["area", "kind", "limit checked", "worst unc", "worst ctl", "points over", "mostly from",

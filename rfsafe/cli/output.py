@@ -15,7 +15,7 @@ import sys
 from collections.abc import Mapping, Sequence
 from typing import Any
 
-__all__ = ["to_jsonable", "dump_json", "print_json", "format_table", "warn"]
+__all__ = ["to_jsonable", "dump_json", "print_json", "format_table", "compact_number", "warn"]
 
 
 def to_jsonable(obj: Any) -> Any:
@@ -76,6 +76,22 @@ def format_table(headers: Sequence[str], rows: Sequence[Sequence[Any]], *,
     lines.append("  ".join("-" * w for w in widths))
     lines.extend(fmt(r) for r in cells[1:])
     return "\n".join(lines)
+
+
+def compact_number(x, digits: int = 3) -> str:
+    """A number for tables: ``digits`` significant figures, exponent only below 1e-3 or from 1e6.
+
+    ``None`` prints as ``-``; non-finite values print as themselves (``inf``, ``nan``), never as a number.
+    """
+    if x is None:
+        return "-"
+    x = float(x)
+    if not math.isfinite(x):
+        return str(x)
+    ax = abs(x)
+    if ax != 0 and (ax < 1e-3 or ax >= 1e6):
+        return f"{x:.{digits - 1}e}"
+    return f"{x:.{digits}g}" if ax < 1000 else f"{x:.0f}"
 
 
 def warn(message: str) -> None:
