@@ -17,7 +17,7 @@ __all__ = ["InputError", "__version__", "load_station", "assess", "load_site", "
 _LAZY = {
     "load_station": ("rfsafe.station", "load_station"),
     "assess": ("rfsafe.assess", "assess"),
-    "load_site": ("rfsafe.site_schema", "load_site"),
+    "load_site": ("rfsafe.site", "load_site"),
     "assess_site": ("rfsafe.site", "assess_site"),
 }
 

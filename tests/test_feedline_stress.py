@@ -13,7 +13,7 @@ from skrf import tlineFunctions as tf  # noqa: E402
 from rfsafe.errors import InputError  # noqa: E402
 from rfsafe.feedline import cable_class, custom_cable, evaluate_line, mismatch_total_loss_db  # noqa: E402
 from rfsafe.feedline.line import low_loss_complex_z0, reflection_coefficient  # noqa: E402
-from rfsafe.matching import TunerSpec  # noqa: E402
+from rfsafe.feedline.matching import TunerSpec  # noqa: E402
 
 LOSSLESS = custom_cable(z0_ohm=50.0, loss_db_per_100m=0.0, freq_hz=14e6, velocity_factor=0.66,
                         max_voltage_v_peak=2000.0, max_power_w=1000.0)

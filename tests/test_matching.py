@@ -6,7 +6,7 @@ import pytest
 from hypothesis import given, settings, strategies as st
 
 from rfsafe.errors import InputError
-from rfsafe.matching import (
+from rfsafe.feedline.matching import (
     TunerSpec, analyse_ladder, design_tuner, l_network_ladders, ladder_input_impedance, pi_network_ladder,
 )
 

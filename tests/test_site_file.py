@@ -9,7 +9,7 @@ from typer.testing import CliRunner
 
 from rfsafe.cli import app
 from rfsafe.errors import InputError
-from rfsafe.site_schema import DEFAULT_HEIGHTS_M, load_site
+from rfsafe.site import DEFAULT_HEIGHTS_M, load_site
 
 BASE = '''title = "Test site"
 evaluation_date = 2026-07-18

@@ -19,7 +19,7 @@ def test_scale_bar_is_a_round_length_of_about_a_fifth(span, bar):
 
 def test_map_png_is_reproducible_and_unstamped():
     from rfsafe.site import assess_site
-    from rfsafe.site_schema import load_site
+    from rfsafe.site import load_site
 
     res = assess_site(load_site(DEMO))
     a = site_map_png(res, width_in=6.0, height_in=3.5, dpi=80)

@@ -37,7 +37,7 @@ def demo() -> None:
     from rfsafe.report.site_pdf import write_site_pdf
     from rfsafe.report.worksheet import write_worksheet
     from rfsafe.site import assess_site
-    from rfsafe.site_schema import load_site
+    from rfsafe.site import load_site
     from rfsafe.station import load_station
 
     folder = demo_dir()

@@ -83,7 +83,7 @@ def line(
     """Loss, SWR at both ends and the peak voltage/current on a feedline, its connectors and a tuner."""
     from rfsafe.cli import output
     from rfsafe.feedline import cable_class, custom_cable, evaluate_line
-    from rfsafe.matching import TunerSpec
+    from rfsafe.feedline.matching import TunerSpec
 
     if not (math.isfinite(freq_mhz) and freq_mhz > 0):
         raise bad_value("--freq-mhz", freq_mhz, "must be a number > 0 MHz")

@@ -129,7 +129,7 @@ def site(file: Path = typer.Argument(..., help="Site file (.toml)."),
     from rfsafe.errors import bad_value
     from rfsafe.fileio import atomic_write_bytes, check_writable
     from rfsafe.site import assess_site
-    from rfsafe.site_schema import load_site
+    from rfsafe.site import load_site
 
     if output is not None:
         check_writable(output, force=force, field="-o")

@@ -6,7 +6,7 @@ from rfsafe.feedline.catalogue import (
 )
 from rfsafe.feedline.line import mismatch_total_loss_db
 from rfsafe.feedline.stress import LineResult, PartStress, evaluate_line
-from rfsafe.matching import TunerResult, TunerSpec
+from rfsafe.feedline.matching import TunerResult, TunerSpec
 
 __all__ = [
     "CUSTOM_CABLE_ID", "CableClass", "ConnectorSeries", "cable_class", "cable_ids", "connector_ids",

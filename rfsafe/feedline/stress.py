@@ -22,7 +22,7 @@ from rfsafe.feedline.line import (
     reflection_coefficient, reflection_from_swr, swr_from_reflection, exact_total_loss_db,
     line_voltage_current,
 )
-from rfsafe.matching import MatchingPart, TunerResult, TunerSpec, design_tuner
+from rfsafe.feedline.matching import MatchingPart, TunerResult, TunerSpec, design_tuner
 
 __all__ = ["PartStress", "LineResult", "evaluate_line", "THERMAL_RULE", "LOSS_MODEL_CLOSED",
            "LOSS_MODEL_EXACT", "TRANSMITTER_TARGET_OHM"]

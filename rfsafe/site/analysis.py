@@ -1,0 +1,313 @@
+"""Site analysis: the evaluation grid, regions with precedence, keep-out zones, violations."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Callable, Sequence
+
+import numpy as np
+
+from rfsafe.errors import bad_value
+from rfsafe.site.constants import _FOUR_PI, ENVIRONMENTS
+from rfsafe.site.geometry import (
+    Area,
+    points_in_polygon,
+    polygon_edge_points,
+    rope_off_radius_m,
+)
+from rfsafe.site.grid import SiteEmitter, _groups, ratio_grid, transmitter_ratios
+
+__all__ = ["summed_reach_m", "analyse_site", "SiteGrid", "TransmitterSite", "RegionSite", "Violation", "SiteAnalysis", "CHECKED_ENVIRONMENT", "MAX_GRID_POINTS"]
+
+
+#: Largest grid accepted (points); about 40 bytes of results per point are kept.
+MAX_GRID_POINTS = 4_000_000
+#: Region kinds in order of precedence where areas overlap (most restrictive first).
+_PRECEDENCE = ("no-access", "operators", "public")
+#: Which environment's limit applies to the people allowed in each region kind.
+CHECKED_ENVIRONMENT = {"public": "uncontrolled", "open ground": "uncontrolled",
+                       "outside the site": "uncontrolled", "operators": "controlled", "no-access": None}
+
+
+@dataclass(frozen=True)
+class SiteGrid:
+    """The evaluation grid and the fields on it (kept out of JSON; see ``--csv``).
+
+    ``ratio`` and ``worst_height_m`` have shape (2, ny, nx) (environments
+    first); ``region`` (ny, nx) holds the index into ``region_labels``.
+    """
+
+    x_m: np.ndarray = field(repr=False)
+    y_m: np.ndarray = field(repr=False)
+    ratio: np.ndarray = field(repr=False)
+    worst_height_m: np.ndarray = field(repr=False)
+    near_field: np.ndarray = field(repr=False)
+    region: np.ndarray = field(repr=False)
+    region_labels: tuple[str, ...] = field(repr=False)
+    spacing_m: float = 0.0
+    nx: int = 0
+    ny: int = 0
+    extent_m: tuple[float, float, float, float] = (0.0, 0.0, 0.0, 0.0)   # x_min, x_max, y_min, y_max
+    margin_m: float = 0.0
+    evaluations: int = 0
+
+
+@dataclass(frozen=True)
+class TransmitterSite:
+    """One transmitter on the site: where its keep-out zone reaches and the suggested rope-off radius."""
+
+    transmitter: str
+    x_m: float
+    y_m: float
+    height_m: float
+    configurations: tuple[str, ...]
+    near_field_m: float
+    keep_out_m: dict[str, float]       # farthest grid point of the total zone where it dominates [m]
+    own_keep_out_m: dict[str, float]   # farthest grid point where its own ratio alone exceeds 1 [m]
+    rope_off_radius_m: float           # from the uncontrolled keep-out (see rope_off_radius_m)
+    peak_gain_distance_m: dict[str, float]   # sqrt(P F G_peak / (4 pi S_lim)): 3-D bound of its own zone [m]
+    flags: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class RegionSite:
+    """An area (or the open ground, or outside the site) and the worst exposure found in it."""
+
+    label: str
+    kind: str                          # public, operators, no-access, open ground, outside the site
+    checked_environment: str | None    # the limit that applies to the people allowed there
+    points: int                        # grid points plus edge samples evaluated
+    worst_ratio: dict[str, float]
+    worst_x_m: float | None
+    worst_y_m: float | None
+    points_over: int                   # points above the checked limit
+    dominant_transmitter: str | None   # largest own contribution at the worst point
+    near_field_points: int             # points inside some emitter's near field (estimate not valid)
+    verdict: str                       # "complies", "VIOLATION", "not checked" (no-access)
+
+
+@dataclass(frozen=True)
+class Violation:
+    """A place where people allowed there would be exposed above their limit."""
+
+    region: str
+    kind: str
+    environment: str
+    worst_ratio: float
+    x_m: float
+    y_m: float
+    points_over: int
+    dominant_transmitter: str
+    text: str
+
+
+@dataclass(frozen=True)
+class SiteAnalysis:
+    """Everything computed for a site (no identity, no I/O)."""
+
+    heights_m: tuple[float, ...]
+    transmitters: tuple[TransmitterSite, ...]
+    regions: tuple[RegionSite, ...]
+    violations: tuple[Violation, ...]
+    keep_out_points: dict[str, int]
+    flags: tuple[str, ...]
+    grid: SiteGrid
+
+
+def _axis(lo: float, hi: float, spacing: float) -> np.ndarray:
+    i0 = math.floor(lo / spacing + 1e-9)
+    i1 = math.ceil(hi / spacing - 1e-9)
+    return np.arange(i0, i1 + 1) * spacing
+
+
+def summed_reach_m(emitters: Sequence[SiteEmitter]) -> float:
+    """Distance beyond which even the peak-gain sum of all emitters is below every limit [m].
+
+    At a distance of at least D from every antenna, the total ratio is at most
+    ``sum_t max_c c G_peak / (4 pi D^2)``; this returns the D where that bound is 1.
+    """
+    names, groups = _groups(emitters)
+    per_t = np.zeros((len(names), 2))
+    for g in groups:
+        per_t[g.transmitter] = np.maximum(per_t[g.transmitter],
+                                          g.coefficient * 10.0 ** (g.pattern.peak_gain_dbi / 10.0))
+    return float(math.sqrt(per_t.sum(axis=0).max() / _FOUR_PI))
+
+
+def _dist_to_antennas(px, py, positions) -> np.ndarray:
+    d = np.full(np.shape(px), np.inf)
+    for (ax, ay) in positions:
+        d = np.minimum(d, np.hypot(px - ax, py - ay))
+    return d
+
+
+def analyse_site(emitters: Sequence[SiteEmitter], *, boundary, areas: Sequence[Area], heights_m,
+                 grid_spacing_m: float, progress: Callable[[int, int], None] | None = None,
+                 field_prefix: str = "") -> SiteAnalysis:
+    """Evaluate a site: grid of total ratios, keep-out zones, areas, violations, rope-off radii.
+
+    The grid covers the site boundary plus :func:`summed_reach_m` (so no
+    keep-out zone is cut off at the grid edge), at ``grid_spacing_m``.
+    Ground inside the boundary that lies in no area is "open ground" and,
+    like everything outside the boundary, is treated as public
+    (conservative): a keep-out zone there must be roped off (declared as a
+    no-access area). Where areas overlap, the most restrictive kind applies
+    (no-access, then operators, then public). Checks: public ground against
+    the uncontrolled limit; operators' areas against the controlled limit;
+    no-access areas are not checked. Areas are checked at their grid points
+    and along their edges (vertices included) at half the grid spacing.
+
+    Parameters
+    ----------
+    emitters : sequence of SiteEmitter
+    boundary : sequence of (x, y)
+        Site boundary polygon [m].
+    areas : sequence of Area
+    heights_m : sequence of float
+        Evaluation heights [m]; the worst is kept.
+    grid_spacing_m : float
+        Grid spacing [m].
+    progress : callable, optional
+        ``progress(done, total)`` while the grid is evaluated.
+    field_prefix : str
+        Prefix for field names in error messages.
+    """
+    heights = tuple(float(h) for h in heights_m)
+    names, groups = _groups(emitters)
+    positions = {t: sorted({(g.x_m, g.y_m) for g in groups if g.transmitter == i})
+                 for i, t in enumerate(names)}
+    reach = summed_reach_m(emitters)
+    margin = max(2.0 * grid_spacing_m, math.ceil(reach / grid_spacing_m) * grid_spacing_m)
+    bx = [p[0] for p in boundary] + [g.x_m for g in groups]
+    by = [p[1] for p in boundary] + [g.y_m for g in groups]
+    gx = _axis(min(bx) - margin, max(bx) + margin, grid_spacing_m)
+    gy = _axis(min(by) - margin, max(by) + margin, grid_spacing_m)
+    if gx.size * gy.size > MAX_GRID_POINTS:
+        raise bad_value(f"{field_prefix}grid_spacing_m", grid_spacing_m,
+                        f"gives {gx.size} x {gy.size} = {gx.size * gy.size} grid points over the site and the "
+                        f"{margin:g} m margin its stations need (accepted: at most {MAX_GRID_POINTS}; "
+                        "use a larger spacing)")
+    xx, yy = np.meshgrid(gx, gy)
+    res = ratio_grid(emitters, xx, yy, heights, progress=progress)
+    ratio = res.ratio.reshape(2, gy.size, gx.size)
+    near = res.near_field.reshape(gy.size, gx.size)
+
+    # regions: 0 = outside the site, 1 = open ground, 2.. = areas (most restrictive wins)
+    labels = ["outside the site", "open ground"] + [a.label for a in areas]
+    kinds = ["outside the site", "open ground"] + [a.kind for a in areas]
+    region = np.where(points_in_polygon(xx, yy, boundary), 1, 0).astype(np.int32)
+    order = sorted(range(len(areas)), key=lambda i: -_PRECEDENCE.index(areas[i].kind))
+    for i in order:  # least restrictive first, so the most restrictive is written last
+        region[points_in_polygon(xx, yy, areas[i].polygon)] = 2 + i
+
+    # keep-out points and who dominates them
+    env_i = {e: k for k, e in enumerate(ENVIRONMENTS)}
+    keep = {e: ratio[env_i[e]] > 1.0 for e in ENVIRONMENTS}
+    any_keep = keep["controlled"] | keep["uncontrolled"]
+    kx, ky = xx[any_keep], yy[any_keep]
+    _, own = transmitter_ratios(emitters, kx, ky, heights) if kx.size else (names, np.zeros((2, len(names), 0)))
+    flags: list[str] = []
+    tx_results = []
+    for t, name in enumerate(names):
+        dist = _dist_to_antennas(kx, ky, positions[name])
+        keep_out, own_keep = {}, {}
+        for e in ENVIRONMENTS:
+            ek = env_i[e]
+            in_zone = keep[e][any_keep]
+            dominant = in_zone & (np.argmax(own[ek], axis=0) == t) if kx.size else in_zone
+            keep_out[e] = float(dist[dominant].max()) if dominant.any() else 0.0
+            own_zone = own[ek, t] > 1.0 if kx.size else in_zone
+            own_keep[e] = float(dist[own_zone].max()) if own_zone.any() else 0.0
+        grp = [g for g in groups if g.transmitter == t]
+        nf = max(g.near_field_m for g in grp)
+        tflags = []
+        dzmin = min(abs(h - g.height_m) for g in grp for h in heights)
+        nf_reach = math.sqrt(max(nf * nf - dzmin * dzmin, 0.0))   # near field's horizontal reach at the nearest height
+        if 0.0 < keep_out["uncontrolled"] <= nf_reach:
+            tflags.append(f"{name}: the keep-out zone ({keep_out['uncontrolled']:.2f} m) lies inside the near "
+                          f"field ({nf:.2f} m): far-field estimate; near-field analysis or measurement recommended")
+        elif keep_out["uncontrolled"] > 0.0 and nf_reach > 0.0:
+            tflags.append(f"{name}: the keep-out zone reaches into the near field (within {nf_reach:.2f} m of the "
+                          "antenna on the ground), where the far-field estimate is not valid")
+        if 0.0 < keep_out["uncontrolled"] < 3.0 * grid_spacing_m:
+            tflags.append(f"{name}: the keep-out zone is less than 3 grid spacings across; "
+                          "use a finer grid_spacing_m to resolve it")
+        flags.extend(tflags)
+        bound = np.max([g.coefficient * 10.0 ** (g.pattern.peak_gain_dbi / 10.0) for g in grp], axis=0)
+        tx_results.append(TransmitterSite(
+            transmitter=name, x_m=grp[0].x_m, y_m=grp[0].y_m, height_m=grp[0].height_m,
+            configurations=tuple(m.configuration for g in grp for m in g.members), near_field_m=nf,
+            keep_out_m=keep_out, own_keep_out_m=own_keep,
+            rope_off_radius_m=rope_off_radius_m(keep_out["uncontrolled"], grid_spacing_m),
+            peak_gain_distance_m={e: float(math.sqrt(bound[env_i[e]] / _FOUR_PI)) for e in ENVIRONMENTS},
+            flags=tuple(tflags)))
+
+    # regions: grid points plus edge samples of the areas
+    regions = []
+    violations = []
+    for r, (label, kind) in enumerate(zip(labels, kinds)):
+        mask = region == r
+        px, py = xx[mask], yy[mask]
+        pr = ratio[:, mask]
+        pn = near[mask]
+        if r >= 2:
+            ex_, ey_ = polygon_edge_points(areas[r - 2].polygon, grid_spacing_m / 2.0)
+            # an edge point strictly inside a more restrictive area belongs to that area
+            keep_edge = np.ones(ex_.size, dtype=bool)
+            for j, other in enumerate(areas):
+                if _PRECEDENCE.index(other.kind) < _PRECEDENCE.index(kind):
+                    keep_edge &= ~points_in_polygon(ex_, ey_, other.polygon)
+            ex_, ey_ = ex_[keep_edge], ey_[keep_edge]
+            if ex_.size:
+                er = ratio_grid(emitters, ex_, ey_, heights)
+                px, py = np.concatenate([px, ex_]), np.concatenate([py, ey_])
+                pr = np.concatenate([pr, er.ratio], axis=1)
+                pn = np.concatenate([pn, er.near_field])
+        env = CHECKED_ENVIRONMENT[kind]
+        worst = {e: float(pr[env_i[e]].max()) if px.size else 0.0 for e in ENVIRONMENTS}
+        if px.size:
+            k = int(np.argmax(pr[env_i[env or "uncontrolled"]]))
+            wx, wy = float(px[k]), float(py[k])
+            _, own_w = transmitter_ratios(emitters, [wx], [wy], heights)
+            dom = names[int(np.argmax(own_w[env_i[env or "uncontrolled"], :, 0]))]
+        else:
+            wx = wy = None
+            dom = None
+        over = int(np.count_nonzero(pr[env_i[env]] > 1.0)) if env else 0
+        verdict = "not checked" if env is None else ("VIOLATION" if over else "complies")
+        regions.append(RegionSite(label=label, kind=kind, checked_environment=env, points=int(px.size),
+                                  worst_ratio=worst, worst_x_m=wx, worst_y_m=wy, points_over=over,
+                                  dominant_transmitter=dom, near_field_points=int(np.count_nonzero(pn)),
+                                  verdict=verdict))
+        if over:
+            where = {"open ground": "open ground (in no declared area; treated as public)",
+                     "outside the site": "outside the site boundary (treated as public)"}.get(
+                kind, f"{label!r} ({kind} area)")
+            how_much = (f"exposure ratio unbounded at the antenna itself, ({wx:.1f}, {wy:.1f}) m"
+                        if worst[env] == math.inf else
+                        f"{env} exposure ratio up to {worst[env]:.3g} at ({wx:.1f}, {wy:.1f}) m")
+            violations.append(Violation(
+                region=label, kind=kind, environment=env, worst_ratio=worst[env], x_m=wx, y_m=wy,
+                points_over=over, dominant_transmitter=dom,
+                text=f"{where}: {how_much}, {over} points above the {env} limit, mostly from {dom}"))
+        if pn.any() and env is not None:
+            flags.append(f"{label!r}: {int(np.count_nonzero(pn))} points lie in the near field of a station: "
+                         "far-field estimate; near-field analysis or measurement recommended")
+    edge = np.zeros_like(any_keep)
+    edge[0, :] = edge[-1, :] = True
+    edge[:, 0] = edge[:, -1] = True
+    if np.any(any_keep & edge):
+        flags.append("a keep-out zone reaches the edge of the evaluated grid: its full extent is not shown")
+    grid = SiteGrid(x_m=gx, y_m=gy, ratio=ratio, worst_height_m=res.worst_height_m.reshape(2, gy.size, gx.size),
+                    near_field=near, region=region, region_labels=tuple(labels), spacing_m=grid_spacing_m,
+                    nx=int(gx.size), ny=int(gy.size), extent_m=(float(gx[0]), float(gx[-1]), float(gy[0]),
+                                                                  float(gy[-1])),
+                    margin_m=float(margin), evaluations=res.evaluations)
+    violations.sort(key=lambda v: -v.worst_ratio)
+    return SiteAnalysis(heights_m=heights, transmitters=tuple(tx_results), regions=tuple(regions),
+                        violations=tuple(violations),
+                        keep_out_points={e: int(np.count_nonzero(keep[e])) for e in ENVIRONMENTS},
+                        flags=tuple(dict.fromkeys(flags)), grid=grid)
+
+

@@ -1,0 +1,232 @@
+"""Evaluation of a loaded site file: every station's power chain from rfsafe.assess, placed on the site."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Callable
+
+from rfsafe.errors import InputError
+from rfsafe.site.analysis import (
+    RegionSite,
+    SiteGrid,
+    TransmitterSite,
+    Violation,
+    analyse_site,
+)
+from rfsafe.site.constants import ENVIRONMENTS, ROPE_STEP_M
+from rfsafe.site.geometry import Area, points_in_polygon
+from rfsafe.site.grid import SiteEmitter
+
+#: Cautions specific to event sites, printed after the general ones.
+SITE_CAUTIONS = (
+    "Rope off every keep-out zone before transmitting, with the rope at or beyond the suggested radius, "
+    "and keep people out of it while any station transmits.",
+    "Re-run this review whenever a station, antenna, power, band, mode or the site layout changes.",
+    "Grid results are sampled at the grid spacing: small gaps between samples are not evaluated.",
+)
+
+__all__ = ["SITE_CAUTIONS", "SiteStationResult", "SiteResult", "limit_equivalent_w_m2", "site_emitters", "assess_site"]
+
+
+
+@dataclass(frozen=True)
+class SiteStationResult:
+    """One station of the site file: where it came from and its configurations' power chain."""
+
+    name: str
+    description: str
+    source: str                        # "inline" or the station file's path as written
+    source_sha256: str | None
+    x_m: float
+    y_m: float
+    transmitters: tuple[str, ...]      # names used on the site ("station" or "station/transmitter")
+    configurations: tuple              # rfsafe.results.ConfigurationResult, antenna positions station-relative
+    pattern_used: dict[str, str]       # antenna id -> how its gain toward each point is taken
+    exceeded_parts: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class SiteResult:
+    """The whole review of one site file (no I/O, no formatting)."""
+
+    title: str
+    site: str
+    evaluator: str
+    evaluation_date: str
+    evaluation_date_source: str
+    standard: str
+    standard_name: str
+    environment_labels: dict[str, str]
+    rfsafe_version: str
+    input_file: str
+    input_sha256: str
+    ground_reflection: str
+    ground_factor: float
+    heights_m: tuple[float, ...]
+    grid_spacing_m: float
+    grid_info: dict
+    boundary: tuple[tuple[float, float], ...]
+    areas: tuple[Area, ...]
+    stations: tuple[SiteStationResult, ...]
+    transmitters: tuple[TransmitterSite, ...]
+    regions: tuple[RegionSite, ...]
+    violations: tuple[Violation, ...]
+    keep_out_points: dict[str, int]
+    exceeded: tuple[str, ...]          # violations, then line/tuner ratings exceeded
+    verdict: str                       # "COMPLIES" or "EXCEEDS"
+    method_notes: tuple[str, ...]
+    flags: tuple[str, ...]
+    cautions: tuple[str, ...]
+    emitters: tuple = field(default=(), repr=False)
+    grid: SiteGrid | None = field(default=None, repr=False)
+
+    @property
+    def exit_code(self) -> int:
+        return 0 if self.verdict == "COMPLIES" else 1
+
+
+def limit_equivalent_w_m2(limits, power_w: float, pep_w: float) -> float:
+    """Fold one environment's limits into a plane-wave-equivalent limit for ``power_w`` [W/m^2].
+
+    Every far-field ratio is proportional to the power density, so the worst
+    basis at any point is the one with the largest ``power x ratio per W/m^2``;
+    an instantaneous basis is compared with the PEP.
+    """
+    from rfsafe import exposure as ex
+
+    worst = max((pep_w if lim.basis == "instantaneous" else power_w) * float(ex.ratio_at(lim, 1.0))
+                for lim in limits)
+    return power_w / worst
+
+
+def _site_pattern(ant, peak_gain_dbi: float, tables: dict, field: str):
+    """The pattern used on the grid and a short note of how it was chosen."""
+    from rfsafe.antenna.patterns import PATTERN_KINDS, make_pattern
+
+    if ant.use_pattern and ant.kind in PATTERN_KINDS:
+        pat = make_pattern(ant.kind, peak_gain_dbi=peak_gain_dbi, front_to_back_db=ant.front_to_back_db,
+                           beamwidth_h_deg=ant.beamwidth_h_deg, beamwidth_v_deg=ant.beamwidth_v_deg,
+                           table=tables.get(ant.id), field=field)
+        return pat, f"{ant.kind} pattern"
+    return make_pattern("isotropic", peak_gain_dbi=peak_gain_dbi), \
+        f"peak gain {peak_gain_dbi:.2f} dBi in every direction (conservative)"
+
+
+def site_emitters(loaded_site) -> tuple[list[SiteEmitter], list[SiteStationResult], list[str]]:
+    """Every configuration of every station, placed on the site, with its power chain from rfsafe.assess."""
+    from rfsafe.assess import assess_with_emitters
+
+    out: list[SiteEmitter] = []
+    stations: list[SiteStationResult] = []
+    flags: list[str] = []
+    for i, (s, loaded, (source, digest)) in enumerate(zip(loaded_site.model.stations, loaded_site.stations,
+                                                          loaded_site.sources)):
+        prefix = f"stations[{i}]." if source == "inline" else f"stations[{i}] (file {source!r}): "
+        try:
+            evaluation, ems = assess_with_emitters(loaded)
+        except InputError as err:
+            raise InputError(f"{prefix}{err}") from None
+        tx_ids = [t.id for t in loaded.model.transmitters]
+        name_of = {t: (s.name if len(tx_ids) == 1 else f"{s.name}/{t}") for t in tx_ids}
+        used = {}
+        for em in ems:
+            k = next(j for j, a in enumerate(loaded.model.antennas) if a.id == em.antenna.id)
+            pat, how = _site_pattern(em.antenna, em.peak_gain_dbi, loaded.pattern_tables, f"{prefix}antennas[{k}]")
+            used[em.antenna.id] = how
+            cfg = next(c for c in evaluation.configurations if c.id == em.configuration)
+            nf = max(cfg.near_field_distance_m, cfg.aperture_far_field_m or 0.0)
+            power = tuple(em.avg_power_at_antenna_w[e] for e in ENVIRONMENTS)
+            limit = tuple(limit_equivalent_w_m2(em.limits[e], em.avg_power_at_antenna_w[e], em.pep_at_antenna_w)
+                          for e in ENVIRONMENTS)
+            out.append(SiteEmitter(
+                transmitter=name_of[em.transmitter], configuration=em.configuration,
+                x_m=s.x_m + em.x_m, y_m=s.y_m + em.y_m, height_m=em.height_m, pattern=pat, freq_hz=em.freq_hz,
+                power_w=power, limit_w_m2=limit, ground_factor=em.ground_factor,
+                azimuth_deg=em.antenna.azimuth_deg, tilt_deg=em.antenna.tilt_deg,
+                polarisation=em.antenna.polarisation, near_field_m=nf))
+            if em.antenna.kind == "wire":
+                flags.append(f"{s.name}: wire antenna {em.antenna.id!r} is mapped with its solver peak gain in every "
+                             "direction (far field); its moment-method near-field map is in the site PDF, and rfsafe "
+                             "evaluate gives its near field at declared places")
+        exceeded = tuple(f"station {s.name}, configuration {c.id}: {part} exceeds its rating"
+                         for c in evaluation.configurations for part in c.exceeded_parts)
+        flags.extend(f"{s.name}, configuration {c.id}: {f}" for c in evaluation.configurations for f in c.flags)
+        stations.append(SiteStationResult(
+            name=s.name, description=s.description, source=source, source_sha256=digest, x_m=s.x_m, y_m=s.y_m,
+            transmitters=tuple(name_of[t] for t in tx_ids), configurations=evaluation.configurations,
+            pattern_used=used, exceeded_parts=exceeded))
+    return out, stations, flags
+
+
+def assess_site(loaded_site, *, today=None, progress: Callable[[int, int], None] | None = None) -> SiteResult:
+    """Evaluate a loaded site file (see :func:`rfsafe.site.load_site`).
+
+    Parameters
+    ----------
+    loaded_site : LoadedSite
+    today : datetime.date, optional
+        Date printed when the file gives no evaluation date (default: today).
+    progress : callable, optional
+        ``progress(done, total)`` while the grid is evaluated.
+    """
+    import datetime as dt
+
+    from rfsafe import __version__
+    from rfsafe import exposure as ex
+    from rfsafe.limits import standard_info
+    from rfsafe.results import CAUTIONS
+
+    m = loaded_site.model
+    info = standard_info(m.standard)
+    ems, stations, flags = site_emitters(loaded_site)
+    for s, st in zip(m.stations, stations):
+        for em in ems:
+            if em.transmitter in st.transmitters and not points_in_polygon(em.x_m, em.y_m, loaded_site.boundary):
+                flags.append(f"{s.name}: antenna of configuration {em.configuration!r} at ({em.x_m:g}, {em.y_m:g}) m "
+                             "is outside the site boundary")
+    analysis = analyse_site(ems, boundary=loaded_site.boundary, areas=loaded_site.areas, heights_m=m.heights_m,
+                            grid_spacing_m=m.grid_spacing_m, progress=progress)
+    exceeded = [v.text for v in analysis.violations] + [x for st in stations for x in st.exceeded_parts]
+    gf = ex.GROUND_FACTORS[m.ground_reflection]
+    if m.evaluation_date is not None:
+        date, date_src = m.evaluation_date.isoformat(), "file"
+    else:
+        date, date_src = (today or dt.date.today()).isoformat(), "today"
+    g = analysis.grid
+    notes = (
+        "Power chain per configuration as for a single station (rfsafe evaluate): average power = PEP x mode duty "
+        "factor x the largest fill of the averaging window by the schedule, less feedline loss.",
+        f"Power density from each antenna: far-field prediction S = P G F / (4 pi R^2) with the gain toward the "
+        f"point (pattern where the antenna opts in with use_pattern = true, else its peak gain in every direction) "
+        f"and ground reflection {m.ground_reflection} (F = {gf:g}).",
+        "Each transmitter sends one configuration at a time: at every point and height its worst configuration "
+        "there counts. All transmitters may transmit together: their exposure ratios are summed (conservative; "
+        "simultaneous groups of station files are not used on a site).",
+        f"Evaluation heights {', '.join(f'{h:g}' for h in m.heights_m)} m above ground; the worst is kept.",
+        f"Grid spacing {m.grid_spacing_m:g} m over the site boundary plus a {g.margin_m:g} m margin (beyond it even "
+        f"the peak-gain sum of all stations is below the limit): {g.nx} x {g.ny} points.",
+        "Keep-out zones: total ratio > 1 against the uncontrolled limit (the public must be kept out) and against "
+        "the controlled limit (nobody may be there).",
+        "Ground in no declared area, and everything outside the site boundary, is treated as public. Where areas "
+        "overlap the most restrictive kind applies (no-access, operators, public). Areas are checked at their grid "
+        "points and along their edges at half the grid spacing.",
+        f"Suggested rope-off radius: the farthest keep-out point attributed to the station (largest own share) plus "
+        f"one grid spacing, rounded up to the next {ROPE_STEP_M:g} m.",
+        "Points within lambda/2pi (or 2D^2/lambda for an aperture) of an antenna are in its near field, where the "
+        "far-field estimate is not valid; they are flagged.",
+        f"Standard: {info.name}; the site's standard and ground reflection apply to every station.",
+    )
+    return SiteResult(
+        title=m.title, site=m.site, evaluator=m.evaluator, evaluation_date=date, evaluation_date_source=date_src,
+        standard=m.standard, standard_name=info.name, environment_labels=dict(info.environment_labels),
+        rfsafe_version=__version__, input_file=loaded_site.path.name, input_sha256=loaded_site.sha256,
+        ground_reflection=m.ground_reflection, ground_factor=gf, heights_m=tuple(m.heights_m),
+        grid_spacing_m=m.grid_spacing_m,
+        grid_info={"nx": g.nx, "ny": g.ny, "points": g.nx * g.ny, "extent_m": list(g.extent_m),
+                   "margin_m": g.margin_m, "evaluations": g.evaluations},
+        boundary=loaded_site.boundary, areas=loaded_site.areas, stations=tuple(stations),
+        transmitters=analysis.transmitters, regions=analysis.regions, violations=analysis.violations,
+        keep_out_points=analysis.keep_out_points, exceeded=tuple(exceeded),
+        verdict="COMPLIES" if not exceeded else "EXCEEDS", method_notes=notes,
+        flags=tuple(dict.fromkeys(flags + list(analysis.flags))), cautions=tuple(CAUTIONS) + SITE_CAUTIONS,
+        emitters=tuple(ems), grid=g)
