@@ -4,7 +4,9 @@ Every command lives in its own module ``rfsafe.cli.cmd_<name>`` exposing
 ``register(app)``. Command modules import numpy, pandas, reportlab and
 matplotlib only inside the command functions, so that ``rfsafe --help`` stays
 fast. Input errors become one ``Error: ...`` line on stderr and exit code 2,
-here and nowhere else.
+here and nowhere else. Any other exception is a bug in rfsafe: it becomes one
+``Internal error: ...`` line and exit code :data:`EXIT_INTERNAL` (never 0, which
+reads as "complies", nor 1, which reads as "exceeds").
 """
 
 from __future__ import annotations
@@ -22,7 +24,10 @@ except ImportError:  # pragma: no cover - older typer depends on click itself
 
 from rfsafe.errors import InputError
 
-__all__ = ["app", "main"]
+__all__ = ["app", "main", "EXIT_INTERNAL"]
+
+#: Exit status of an unexpected internal error (a bug), distinct from 0, 1 and 2.
+EXIT_INTERNAL = 3
 
 #: Command modules, in the order their commands appear in ``--help``.
 _COMMAND_MODULES = (
@@ -59,6 +64,12 @@ class _Group(TyperGroup):
         except typer.Abort:
             typer.echo("Error: aborted", err=True)
             sys.exit(130)
+        except (KeyboardInterrupt, SystemExit):
+            raise
+        except Exception as err:  # noqa: BLE001 - a bug must never read as a verdict
+            typer.echo(f"Internal error: {type(err).__name__}: {err} (this is a bug in rfsafe; no verdict was "
+                       "reached; please report it with the input file)", err=True)
+            sys.exit(EXIT_INTERNAL)
         sys.exit(rv if isinstance(rv, int) else 0)
 
 
