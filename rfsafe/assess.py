@@ -183,7 +183,7 @@ def _line_result(station: Station, index: int, c: Configuration, f: Feedline, pe
                             exact_complex_z0=station.exact_line_loss, field=f"configurations[{index}]")
 
 
-def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_factor: float):
+def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_factor: float, maps: bool = True):
     st = loaded.model
     tx = next(t for t in st.transmitters if t.id == c.transmitter)
     fline = next(f for f in st.feedlines if f.id == c.feedline)
@@ -264,7 +264,7 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
         method="far-field prediction S = EIRP F / (4 pi R^2), peak gain (OET Bulletin 65, section 2)"
                + ("; near field of the wire antenna by the moment-method solver" if solution is not None else ""),
         wire=_wire_summary(solution),
-        near_field_map=_near_field_map(c.id, ant, solution, limits, avg_ant, pep_ant, loaded))
+        near_field_map=_near_field_map(c.id, ant, solution, limits, avg_ant, pep_ant, loaded) if maps else None)
     emitter = Emitter(configuration=c.id, transmitter=tx.id, freq_hz=freq_hz, x_m=ant.x_m, y_m=ant.y_m,
                       height_m=ant.height_m, antenna=ant, peak_gain_dbi=gain, avg_power_at_antenna_w=avg_ant,
                       pep_at_antenna_w=pep_ant, eirp_w=eirp, eirp_pep_w=eirp_pep, limits=limits,
@@ -502,13 +502,17 @@ def assess(loaded: LoadedStation, *, today: dt.date | None = None) -> Evaluation
     return assess_with_emitters(loaded, today=today)[0]
 
 
-def assess_with_emitters(loaded: LoadedStation, *, today: dt.date | None = None
+def assess_with_emitters(loaded: LoadedStation, *, today: dt.date | None = None, near_field_maps: bool = True
                          ) -> tuple[EvaluationResult, list[Emitter]]:
-    """:func:`assess` and the configurations' :class:`Emitter` objects from the same computation."""
+    """:func:`assess` and the configurations' :class:`Emitter` objects from the same computation.
+
+    ``near_field_maps=False`` leaves out the wire antennas' near-field maps (plot data only; the
+    exposure at every place is the same), for the repeated evaluations of :mod:`rfsafe.remedies`.
+    """
     st = loaded.model
     info = standard_info(st.standard)
     gf = ex.GROUND_FACTORS[st.ground_reflection]
-    pairs = [_configuration(loaded, i, c, gf) for i, c in enumerate(st.configurations)]
+    pairs = [_configuration(loaded, i, c, gf, near_field_maps) for i, c in enumerate(st.configurations)]
     configs = tuple(p[0] for p in pairs)
     ems = [p[1] for p in pairs]
     by_id = {c.id: c for c in configs}
