@@ -66,8 +66,14 @@ KNOWN = ('"rg-58", "rg-8x", "rg-213", "rg-174", "twinlead-300", "window-450", "o
     (["--cable", "rg-213"],
      "--swr/--load-ohm: none given; give exactly one (SWR at the antenna end, or the antenna-end impedance)"),
     (["--cable", "rg-213", "--load-ohm", "-5+3j"], "--load-ohm: -5+3j must have a resistance > 0 ohm (a passive antenna)"),
-    (["--cable", "rg-213", "--load-ohm", "12-j35"],
-     '--load-ohm: "12-j35" is not an impedance (accepted: R or R+Xj in ohm, e.g. 50, 73+42.5j, 12-35j)'),
+    (["--cable", "rg-213", "--load-ohm", "12-i35"],
+     '--load-ohm: "12-i35" is not an impedance (accepted: R, R+jX, R-jX, R+Xj or R-Xj in ohm, '
+     'e.g. 50, 600-j900, 73+42.5j)'),
+    (["--cable", "rg-213", "--load-ohm", "12+-j35"],
+     '--load-ohm: "12+-j35" is not an impedance (accepted: R, R+jX, R-jX, R+Xj or R-Xj in ohm, '
+     'e.g. 50, 600-j900, 73+42.5j)'),
+    (["--cable", "rg-213", "--load-ohm", "1e999"], '--load-ohm: "1e999" is not a finite impedance'),
+    (["--cable", "rg-213", "--load-ohm", "-j10"], "--load-ohm: 0-10j must have a resistance > 0 ohm (a passive antenna)"),
     (["--cable", "rg-9999", "--swr", "2"], f'--cable: "rg-9999" is not a known cable class (known: {KNOWN})'),
     (["--swr", "2"], "--cable: none given; give --cable CLASS or --z0-ohm, --loss-db-per-100m and --vf"),
     (["--cable", "rg-213", "--z0-ohm", "50", "--swr", "2"],
@@ -104,3 +110,19 @@ def test_negative_length_and_power():
 def test_help():
     r = run(["line", "--help"])
     assert r.exit_code == 0 and "--load-ohm" in r.stdout
+
+
+@pytest.mark.parametrize("text,value", [
+    ("50", 50), ("600-j900", 600 - 900j), ("600-900j", 600 - 900j), ("73+j42.5", 73 + 42.5j),
+    ("73 + 42.5j", 73 + 42.5j), ("-j10", -10j), ("10j", 10j), ("1e3-j2e2", 1000 - 200j),
+])
+def test_impedance_both_ways_of_writing_j(text, value):
+    """Engineers write the imaginary unit before or after the number (common practice): both parse alike."""
+    from rfsafe.cli.cmd_line import parse_impedance
+    assert parse_impedance(text) == value
+
+
+def test_j_first_and_j_last_give_the_same_result():
+    a = json.loads(run(BASE + ["--cable", "rg-213", "--load-ohm", "600-j900", "--json"]).stdout)
+    b = json.loads(run(BASE + ["--cable", "rg-213", "--load-ohm", "600-900j", "--json"]).stdout)
+    assert a == b and a["load_ohm"] == {"re": 600.0, "im": -900.0}

@@ -26,15 +26,39 @@ _FIELD_TO_OPTION = {
     "cable.velocity_factor": "--vf", "cable.max_voltage_v_peak": "--max-voltage-v-peak",
 }
 
-_IMPEDANCE_RE = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?([+-](\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?j)?$")
+_NUM = r"(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?"
+#: R alone; R+jX, R-jX, R+Xj, R-Xj; jX, -jX, Xj, -Xj (pure reactance: refused later for R = 0).
+_IMPEDANCE_RE = re.compile(
+    rf"^(?:(?P<r>[+-]?{_NUM})(?:(?P<s>[+-])(?:j(?P<x1>{_NUM})|(?P<x2>{_NUM})j))?"
+    rf"|(?P<ps>[+-]?)(?:j(?P<px1>{_NUM})|(?P<px2>{_NUM})j))$")
+IMPEDANCE_ACCEPTED = ("is not an impedance (accepted: R, R+jX, R-jX, R+Xj or R-Xj in ohm, "
+                      "e.g. 50, 600-j900, 73+42.5j)")
 
 
 def parse_impedance(text: str, *, option: str = "--load-ohm") -> complex:
-    """Parse ``50``, ``73+42.5j``, ``12-35j`` (ohm) into a complex number."""
-    s = text.strip().replace(" ", "")
-    if not _IMPEDANCE_RE.match(s):
-        raise bad_value(option, text, "is not an impedance (accepted: R or R+Xj in ohm, e.g. 50, 73+42.5j, 12-35j)")
-    return complex(s)
+    """Parse an impedance in ohm written as engineers write it.
+
+    Accepted: ``50``, ``600-j900``, ``600-900j``, ``73+j42.5``, ``73 + 42.5j``, ``-j10``, ``10j``
+    (spaces ignored). Anything else (``i`` for the imaginary unit, two signs, ``j`` alone) raises
+    InputError naming ``option``.
+
+    Examples
+    --------
+    >>> parse_impedance("600-j900"), parse_impedance("600-900j"), parse_impedance("-j10")
+    ((600-900j), (600-900j), -10j)
+    """
+    s = text.replace(" ", "")
+    m = _IMPEDANCE_RE.match(s)
+    if not m:
+        raise bad_value(option, text, IMPEDANCE_ACCEPTED)
+    if m["r"] is not None:
+        x = m["x1"] or m["x2"]
+        z = complex(float(m["r"]), 0.0 if x is None else float(m["s"] + x))
+    else:
+        z = complex(0.0, float((m["ps"] or "+") + (m["px1"] or m["px2"])))
+    if not (math.isfinite(z.real) and math.isfinite(z.imag)):
+        raise bad_value(option, text, "is not a finite impedance")
+    return z
 
 
 def _remap(err: InputError) -> InputError:
@@ -65,7 +89,7 @@ def line(
     max_voltage_v_peak: float = typer.Option(None, "--max-voltage-v-peak",
                                              help="Custom line: peak voltage rating [V]."),
     swr: float = typer.Option(None, "--swr", help="SWR at the antenna end (load phase unknown: worst case)."),
-    load_ohm: str = typer.Option(None, "--load-ohm", help="Impedance at the antenna end [ohm], e.g. 12-35j."),
+    load_ohm: str = typer.Option(None, "--load-ohm", help="Impedance at the antenna end [ohm], e.g. 600-j900 or 600-900j."),
     tuner: str = typer.Option(None, "--tuner", help="Matching network: l or pi."),
     tuner_at: str = typer.Option("transmitter", "--tuner-at", help="Network position: transmitter or antenna."),
     q: float = typer.Option(None, "--q", help="Loaded Q of a pi network (default 10)."),
