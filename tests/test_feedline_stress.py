@@ -179,3 +179,59 @@ def test_peak_voltage_never_below_matched_value(cable_id, r, x, half_waves, f_mh
     if cable_id == "lossless":  # exact: V_max = sqrt(2 P_f Z0)(1 + |G|)
         assert res.line_voltage_v_peak == pytest.approx(math.sqrt(2 * p_fwd * 50.0) * (1 + g_in), rel=1e-9)
     assert res.total_loss_db >= res.matched_loss_db - 1e-12
+
+
+# --------------------------------------------------------------------------- connector loss (issue: added, never
+# multiplied by the mismatch). The rule: total loss = cable loss with mismatch + connector loss [dB].
+
+def test_connector_loss_on_zero_length_line_is_exactly_the_connector_loss():
+    """A zero-length line has no mismatch loss (Pozar eq. 2.93 with ML = 0 gives L = 0), so 0.25 dB of
+    connectors at SWR 10 lose exactly 0.25 dB: closed form and exact model alike."""
+    c = cable_class("rg-213")
+    for exact in (False, True):
+        r = evaluate_line(pep_w=100.0, avg_power_w=100.0, freq_hz=14.2e6, cable=c, length_m=0.0, swr=10.0,
+                          connector_loss_db=0.25, exact_complex_z0=exact)
+        assert r.total_loss_db == pytest.approx(0.25, abs=1e-12)
+        assert r.loss_fraction == pytest.approx(10 ** (-0.25 / 10), rel=1e-12)
+        assert r.mismatch_extra_loss_db == pytest.approx(0.0, abs=1e-12)
+        assert r.connector_loss_db == 0.25
+
+
+def test_mismatched_line_loss_plus_connectors_textbook_form():
+    """Total loss of a mismatched line, ARRL Antenna Book transmission-line chapter / Pozar, Microwave
+    Engineering, 4th ed., eq. (2.93): L = 10 log10[(a^2 - |G|^2) / (a (1 - |G|^2))], a = 10^(ML/10),
+    written out here; connectors add their loss in dB after it."""
+    c = custom_cable(z0_ohm=50.0, loss_db_per_100m=10.0, freq_hz=14.2e6, velocity_factor=0.66)
+    r = evaluate_line(pep_w=100.0, avg_power_w=100.0, freq_hz=14.2e6, cable=c, length_m=30.0, swr=3.0,
+                      connector_loss_db=0.2)
+    ml = 3.0                 # 10 dB/100 m x 30 m
+    g = (3.0 - 1) / (3.0 + 1)
+    a = 10 ** (ml / 10)
+    expected = 10 * math.log10((a * a - g * g) / (a * (1 - g * g))) + 0.2
+    assert r.matched_loss_db == pytest.approx(ml, rel=1e-12)
+    assert r.total_loss_db == pytest.approx(expected, rel=1e-12)
+    # the worked figure: 3 dB matched at SWR 3 gives 3.97 dB (textbook curves read about 4 dB, from memory)
+    assert r.total_loss_db - 0.2 == pytest.approx(3.968, abs=5e-4)
+    assert r.mismatch_extra_loss_db == pytest.approx(expected - ml - 0.2, rel=1e-12)
+
+
+def test_connector_loss_does_not_change_line_stress_and_skrf_loss():
+    """Connector loss never lowers the voltages on the cable (conservative for stress); the exact model's
+    loss equals scikit-rf's lossy-line power ratio plus the connector loss."""
+    c = cable_class("rg-58")
+    kw = dict(pep_w=400.0, avg_power_w=400.0, freq_hz=7.1e6, cable=c, length_m=25.0, load_ohm=20 - 30j,
+              exact_complex_z0=True)
+    without = evaluate_line(**kw)
+    with_conn = evaluate_line(**kw, connector_loss_db=0.5)
+    assert with_conn.line_voltage_v_peak == pytest.approx(without.line_voltage_v_peak, rel=1e-12)
+    assert with_conn.total_loss_db == pytest.approx(without.total_loss_db + 0.5, rel=1e-12)
+
+
+def test_readme_states_the_same_connector_rule():
+    """The README's feedline-loss rule and the code's loss-model text say the same thing."""
+    from pathlib import Path
+
+    from rfsafe.feedline.stress import CONNECTOR_LOSS_RULE
+
+    readme = (Path(__file__).resolve().parents[1] / "README.md").read_text(encoding="utf-8")
+    assert CONNECTOR_LOSS_RULE in " ".join(readme.split())   # line breaks in the README are not significant

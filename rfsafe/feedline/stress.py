@@ -30,10 +30,12 @@ __all__ = ["PartStress", "LineResult", "evaluate_line", "THERMAL_RULE", "LOSS_MO
 THERMAL_RULE = ("1/SWR rule (common practice): the cable's matched average-power rating is divided by "
                 "(I_max / I_matched)^2, the local heating at the current maximum relative to a matched "
                 "line carrying the same input power; on a lossless line this factor equals the SWR")
-LOSS_MODEL_CLOSED = ("closed form, real Z0: L = 10 log10[(a^2 - |G|^2)/(a (1 - |G|^2))], a = 10^(ML/10) "
-                     "(ARRL Antenna Book; Pozar eq. 2.93)")
+#: How connector loss enters every loss model: added in dB after the cable's loss with mismatch.
+CONNECTOR_LOSS_RULE = "plus connector loss in dB (not scaled by the SWR)"
+LOSS_MODEL_CLOSED = ("closed form, real Z0: L = 10 log10[(a^2 - |G|^2)/(a (1 - |G|^2))], a = 10^(ML/10), "
+                     "ML the cable's matched loss (ARRL Antenna Book; Pozar eq. 2.93), " + CONNECTOR_LOSS_RULE)
 LOSS_MODEL_EXACT = ("exact, complex Z0 = R0 (1 - j alpha/beta): P_in/P_load from the ABCD matrix of the line "
-                    "(Pozar eq. 2.77-2.79, Table 4.1)")
+                    "(Pozar eq. 2.77-2.79, Table 4.1), " + CONNECTOR_LOSS_RULE)
 #: Resistance a transmitter-end network presents to the transmitter [ohm] (common practice: 50 ohm).
 TRANSMITTER_TARGET_OHM = 50.0
 _N_PHASES = 360
@@ -72,9 +74,9 @@ class LineResult:
     swr_at_transmitter: float
     return_loss_at_transmitter_db: float
     input_impedance_ohm: complex
-    matched_loss_db: float
-    total_loss_db: float
-    mismatch_extra_loss_db: float   # total - matched
+    matched_loss_db: float          # the cable's matched loss (connectors not included)
+    total_loss_db: float            # cable loss with mismatch, plus connector loss
+    mismatch_extra_loss_db: float   # total - matched - connector: the extra loss caused by the SWR
     loss_model: str
     loss_fraction: float            # P_antenna / P_line input
     power_at_antenna_w: float       # at PEP
@@ -104,6 +106,7 @@ class LineResult:
     swr_seen_by_transmitter: float
     exceeded_parts: tuple[str, ...]
     notes: tuple[str, ...] = dc_field(default=())
+    connector_loss_db: float = 0.0  # added to the cable's mismatched loss, never multiplied by the mismatch
 
 
 def _positive(field: str, value, unit: str, *, allow_zero: bool = False) -> float:
@@ -218,7 +221,9 @@ def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: Ca
     load_ohm : complex, optional
         Impedance at the antenna end [ohm], resistance > 0.
     connector_loss_db : float
-        Loss of connectors/adapters [dB], lumped into the line's matched loss.
+        Loss of connectors/adapters [dB], added to the cable's loss with mismatch (a matched loss of
+        its own: it is not scaled by the SWR, and it does not lower the voltages and currents on the
+        line, which are computed for the cable alone: conservative for stress).
     connector : str, optional
         Connector series at both ends (``connector_ids()``), rated by its common-practice figure.
     connector_v_peak_rating : float, optional
@@ -269,13 +274,14 @@ def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: Ca
 
     notes: list[str] = []
     r0 = float(cable.z0_ohm)
-    ml_db = matched_loss_db_per_100m(cable, freq) * length / 100.0 + c_loss
+    ml_db = matched_loss_db_per_100m(cable, freq) * length / 100.0   # the cable alone
     loss_db_per_m = ml_db / length if length > 0 else 0.0
     gam = propagation_constant(loss_db_per_m, freq, cable.velocity_factor)
     z0 = low_loss_complex_z0(r0, gam) if exact_complex_z0 else complex(r0)
     a_amp = math.exp(gam.real * length)  # forward-wave amplitude ratio, input / load
     if c_loss:
-        notes.append(f"connector loss {c_loss:g} dB lumped into the line's matched loss")
+        notes.append(f"connector loss {c_loss:g} dB added to the cable's loss with mismatch (not scaled by the "
+                     "SWR); voltages and currents are those of the cable alone (conservative for stress)")
 
     # the network at the antenna feedpoint: the line is loaded by the network's input impedance
     tuner_result: TunerResult | None = None
@@ -370,6 +376,7 @@ def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: Ca
                            f"load phase; input impedance shown for a resistive load of Z0*SWR = {z_res:.6g} ohm")
         gamma_ant = None
 
+    tl_db = float(tl_db) + c_loss    # total = cable loss with mismatch + connector loss (README, Feedline loss)
     loss_fraction = 10.0 ** (-tl_db / 10.0)
     p_ant = pep * loss_fraction
     g_in = abs(reflection_coefficient(z_in, r0))
@@ -436,7 +443,7 @@ def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: Ca
         swr_at_antenna=swr_ant, swr_at_transmitter=swr_tx,
         return_loss_at_transmitter_db=float(-20 * math.log10(g_in)) if g_in > 0 else math.inf,
         input_impedance_ohm=z_in, matched_loss_db=ml_db, total_loss_db=float(tl_db),
-        mismatch_extra_loss_db=float(tl_db) - ml_db, loss_model=loss_model, loss_fraction=loss_fraction,
+        mismatch_extra_loss_db=float(tl_db) - ml_db - c_loss, loss_model=loss_model, loss_fraction=loss_fraction,
         power_at_antenna_w=p_ant, avg_power_at_antenna_w=avg * loss_fraction,
         line_dissipation_avg_w=avg * (1.0 - loss_fraction),
         line_voltage_v_peak=v_max, line_voltage_v_rms=v_max / math.sqrt(2.0),
@@ -451,5 +458,5 @@ def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: Ca
         profile_kind=profile_kind, profile_position_m=x_out, profile_voltage_v_peak=np.asarray(prof_v),
         profile_current_a_peak=np.asarray(prof_i), tuner=tuner_result,
         tuner_parts=() if tuner_result is None else tuner_result.network.parts, swr_seen_by_transmitter=swr_seen,
-        exceeded_parts=tuple(p.part for p in parts if p.exceeded), notes=tuple(notes),
+        exceeded_parts=tuple(p.part for p in parts if p.exceeded), notes=tuple(notes), connector_loss_db=c_loss,
     )
