@@ -235,11 +235,17 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
     flag_dist = max(nf, ap or 0.0)
 
     distances = []
+    every_limit = []
     for env in ENVIRONMENTS:
         best = None
         for lim in limits[env]:
             p = _power_for(lim, eirp[env], eirp_pep)
             d = ex.compliance_distance_m(p, ground_factor, lim)
+            every_limit.append(ComplianceDistance(
+                environment=env, environment_label=lim.environment_label, dist_m=d, dist_ft=d / M_PER_FT,
+                limit_basis=lim.basis, governing=_governing(lim, ex.far_field_power_density_w_m2(
+                    p, max(d, 1e-9), ground_factor)), averaging_minutes=lim.averaging_minutes, eirp_w=p,
+                inside_near_field=d < flag_dist, limit_source=lim.source, **_limit_values(lim)))
             if best is None or d > best[0]:
                 best = (d, lim, p)
         d, lim, p = best
@@ -264,7 +270,8 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
         method="far-field prediction S = EIRP F / (4 pi R^2), peak gain (OET Bulletin 65, section 2)"
                + ("; near field of the wire antenna by the moment-method solver" if solution is not None else ""),
         wire=_wire_summary(solution),
-        near_field_map=_near_field_map(c.id, ant, solution, limits, avg_ant, pep_ant, loaded) if maps else None)
+        near_field_map=_near_field_map(c.id, ant, solution, limits, avg_ant, pep_ant, loaded) if maps else None,
+        limit_distances=tuple(every_limit))
     emitter = Emitter(configuration=c.id, transmitter=tx.id, freq_hz=freq_hz, x_m=ant.x_m, y_m=ant.y_m,
                       height_m=ant.height_m, antenna=ant, peak_gain_dbi=gain, avg_power_at_antenna_w=avg_ant,
                       pep_at_antenna_w=pep_ant, eirp_w=eirp, eirp_pep_w=eirp_pep, limits=limits,
@@ -533,7 +540,7 @@ def assess_with_emitters(loaded: LoadedStation, *, today: dt.date | None = None,
             label=place.label, x_m=place.x_m, y_m=place.y_m, height_m=place.height_m,
             environment=place.environment, environment_label=info.environment_labels[place.environment],
             exposures=exposures, total_ratio=total, total_margin_db=float(ex.margin_db(total)),
-            total_rule=rule, contributions=shares, verdict=verdict, flags=flags))
+            total_rule=rule, contributions=shares, verdict=verdict, flags=flags, why=place.why))
     exemption = _exemption(loaded, configs, st.places)
     if st.evaluation_date is not None:
         date, date_src = st.evaluation_date.isoformat(), "file"
@@ -557,5 +564,24 @@ def assess_with_emitters(loaded: LoadedStation, *, today: dt.date | None = None,
         input_file=loaded.path.name, input_sha256=loaded.sha256, ground_reflection=st.ground_reflection,
         ground_factor=gf, loss_model="; ".join(loss_models), configurations=configs, places=tuple(places),
         exemption=exemption, verdict="COMPLIES" if not exceeded else "EXCEEDS", exceeded=tuple(exceeded),
-        method_notes=notes, cautions=CAUTIONS)
+        method_notes=notes, cautions=CAUTIONS, **_plan_fields(loaded, configs, ems, near_field_maps))
     return result, ems
+
+
+def _plan_fields(loaded: LoadedStation, configs, ems, plan: bool) -> dict:
+    """Identity extras, the override record, the antennas' extent and the keep-out plan of the worksheet
+    (the plan is plot data: left out with the near-field maps)."""
+    from rfsafe.results import AntennaSummary
+    from rfsafe.site.plan import antenna_outline, station_plan
+
+    st = loaded.model
+    outlines = {a.id: antenna_outline(a, [c.freq_mhz * 1e6 for c in configs if c.antenna == a.id],
+                                      loaded.wire_specs.get(a.id)) for a in st.antennas}
+    antennas = tuple(AntennaSummary(
+        id=a.id, description=a.description, kind=a.kind, x_m=a.x_m, y_m=a.y_m, height_m=a.height_m,
+        azimuth_deg=a.azimuth_deg, tilt_deg=a.tilt_deg, polarisation=a.polarisation, size_m=outlines[a.id][1],
+        size_basis=outlines[a.id][2], segments_m=outlines[a.id][0]) for a in st.antennas)
+    own = loaded.file_standard or st.standard
+    return dict(file_standard=own, standard_overridden=own != st.standard, call_sign=st.call_sign,
+                licence=st.licence, address=st.address, antennas=antennas,
+                plan=station_plan(loaded, ems, configs, outlines) if plan else None)

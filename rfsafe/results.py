@@ -9,7 +9,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import Any
 
-__all__ = ["ComplianceDistance", "WireSummary", "NearFieldMap", "ConfigurationResult", "PlaceExposure", "TransmitterShare",
+__all__ = ["ComplianceDistance", "AntennaSummary", "PlanMap", "WireSummary", "NearFieldMap", "ConfigurationResult", "PlaceExposure", "TransmitterShare",
            "PlaceResult", "EvaluationResult", "CAUTIONS"]
 
 #: Cautions carried by every output (in rfsafe's own words).
@@ -75,6 +75,47 @@ class NearFieldMap:
 
 
 @dataclass(frozen=True)
+class AntennaSummary:
+    """An antenna as declared, with the extent rfsafe takes for it (for the worksheet's plan and table).
+
+    ``segments_m`` are straight pieces ((x, y, z), (x, y, z)) of the radiating structure in the station
+    frame: the wire geometry, a textbook length for the named kinds, or the declared aperture; empty when
+    no dimension is known (the antenna is then a point at its declared position).
+    """
+
+    id: str
+    description: str
+    kind: str
+    x_m: float
+    y_m: float
+    height_m: float
+    azimuth_deg: float
+    tilt_deg: float
+    polarisation: str
+    size_m: float | None                     # largest dimension taken [m]; None: not known
+    size_basis: str                          # where the size and its orientation come from
+    segments_m: tuple = ()
+
+
+@dataclass(frozen=True)
+class PlanMap:
+    """Plan view of a station: total exposure ratios on a horizontal grid at two levels (for plots).
+
+    ``ratio[(level, env)]`` is a (len(y_m), len(x_m)) array of the total exposure ratio (every
+    transmitter its worst configuration, all summed), far-field estimate with the gain each antenna
+    uses toward places; ``level`` is ``"ground"`` or ``"head"`` (``heights_m`` of each). Arrays are
+    left out of the JSON output (plot data only).
+    """
+
+    x_m: tuple[float, ...]
+    y_m: tuple[float, ...]
+    heights_m: dict[str, tuple[float, ...]]
+    max_ratio: dict[str, float]              # "<level> <environment>" -> largest ratio on the grid
+    method: str
+    ratio: dict = field(repr=False, default_factory=dict)
+
+
+@dataclass(frozen=True)
 class ConfigurationResult:
     """One operating configuration: power chain, line, gain, compliance distances."""
 
@@ -110,6 +151,7 @@ class ConfigurationResult:
     method: str
     wire: WireSummary | None = None          # wire antennas: solver summary
     near_field_map: NearFieldMap | None = None
+    limit_distances: tuple[ComplianceDistance, ...] = ()   # every limit's own distance (e.g. SC6 nerve stimulation)
 
 
 @dataclass(frozen=True)
@@ -164,6 +206,7 @@ class PlaceResult:
     contributions: tuple[TransmitterShare, ...]
     verdict: str                             # "complies" or "exceeds"
     flags: tuple[str, ...]
+    why: str = ""                            # why the place is in its environment (from the station file)
 
 
 @dataclass(frozen=True)
@@ -191,6 +234,13 @@ class EvaluationResult:
     exceeded: tuple[str, ...]               # one line per limit or rating exceeded
     method_notes: tuple[str, ...]
     cautions: tuple[str, ...] = field(default=CAUTIONS)
+    file_standard: str = ""                 # the standard the station file names
+    standard_overridden: bool = False       # True when --standard replaced the file's standard
+    call_sign: str = ""
+    licence: str = ""
+    address: str = ""
+    antennas: tuple[AntennaSummary, ...] = ()
+    plan: PlanMap | None = None
 
     @property
     def exit_code(self) -> int:

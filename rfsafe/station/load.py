@@ -37,6 +37,7 @@ class LoadedStation:
     sha256: str
     wire_specs: dict  # antenna id -> validated wire geometry (solver spec)
     pattern_tables: dict  # antenna id -> loaded pattern table
+    file_standard: str = ""  # the standard the file itself names (differs from model.standard under --standard)
 
 
 def quoted_list(names) -> str:
@@ -192,5 +193,6 @@ def load_station(path: str | Path, *, standard: str | None = None) -> LoadedStat
     data, raw = read_toml(path)
     station = validate_with_standard(Station, data, standard)
     wire_specs, tables = check_station(station, path.parent)
+    own = data.get("standard", Station.model_fields["standard"].default) if isinstance(data, dict) else ""
     return LoadedStation(model=station, path=path, sha256=hashlib.sha256(raw).hexdigest(),
-                         wire_specs=wire_specs, pattern_tables=tables)
+                         wire_specs=wire_specs, pattern_tables=tables, file_standard=str(own))

@@ -134,6 +134,8 @@ class Place(_Strict):
         description="Heights above ground at which to evaluate, worst taken (e.g. feet to head of a standing "
                     "person, [0.5, 1.0, 1.5, 2.0]); default: height_m only.")
     environment: Literal["controlled", "uncontrolled"]
+    why: str = Field(default="", description="Why the place is in this environment (e.g. \"public pavement\", "
+                                             "\"operator's own desk, trained and aware\"); shown on the worksheet.")
 
 
 class SimultaneousGroup(_Strict):
@@ -148,6 +150,9 @@ class Station(_Strict):
     title: str = "RF exposure evaluation"
     station: str = Field(default="", description="Station label shown on outputs.")
     evaluator: str = ""
+    call_sign: str = Field(default="", description="Call sign of the station, shown on the worksheet.")
+    licence: str = Field(default="", description="Licence (number or class) under which the station operates.")
+    address: str = Field(default="", description="Address of the station, shown on the worksheet.")
     evaluation_date: dt.date | None = Field(default=None, description="Date of the evaluation (TOML date).")
     standard: Literal["fcc", "icnirp2020", "icnirp1998", "ieee2019", "sc6"] = "fcc"
     ground_reflection: Literal["none", "typical", "full"] = Field(

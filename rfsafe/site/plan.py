@@ -1,0 +1,156 @@
+"""A single station seen from above: the extent of its antennas and its keep-out areas on a grid.
+
+The keep-out areas are the site grid kernel (:func:`rfsafe.site.grid.ratio_grid`) applied to the
+configurations of one station: far-field estimate with the gain each antenna uses toward places
+(its pattern where it opts in with ``use_pattern``, else its peak gain in every direction), each
+transmitter its worst configuration at each point, all transmitters summed. Orchestration only:
+the physics is the kernel's and the power chain is :mod:`rfsafe.assess`'s.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+__all__ = ["antenna_outline", "station_plan", "PLAN_LEVELS", "PLAN_POINTS"]
+
+#: Evaluation heights of the two plan levels [m]: the ground itself, and a standing person's body
+#: (worst of 0.5 to 2 m, the heights of the near-field maps), which holds head height.
+PLAN_LEVELS = {"ground": (0.0,), "head": (0.5, 1.0, 1.5, 2.0)}
+#: Grid points along the longer side of the plan.
+PLAN_POINTS = 161
+
+
+def antenna_outline(ant, freqs_hz, wire_spec=None):
+    """Straight pieces of an antenna's radiating structure in the station frame, its size and basis.
+
+    Parameters
+    ----------
+    ant : rfsafe.station.schema.Antenna
+        The declared antenna.
+    freqs_hz : sequence of float
+        Frequencies at which it is used [Hz]; the lowest gives the longest textbook length.
+    wire_spec : WireAntennaSpec, optional
+        Validated wire geometry of a wire antenna.
+
+    Returns
+    -------
+    (tuple, float or None, str)
+        Segments ((x, y, z), (x, y, z)) [m], the largest dimension [m] (None when not known) and
+        where it comes from.
+
+    Notes
+    -----
+    Textbook lengths (common practice): a half-wave dipole lambda/2, a quarter-wave vertical
+    lambda/4 (centred on the declared centre of radiation), a short dipole lambda/10; a horizontal
+    dipole runs broadside to its azimuth. A declared ``aperture_m`` is drawn broadside to the beam
+    heading for a horizontally polarised antenna and vertical for a vertically polarised one.
+    """
+    from rfsafe.units import wavelength_m
+
+    centre = np.array([ant.x_m, ant.y_m, ant.height_m], dtype=float)
+    if wire_spec is not None:
+        segs = tuple((tuple(map(float, a)), tuple(map(float, b)))
+                     for w in wire_spec.wires for a, b in zip(w.points_m[:-1], w.points_m[1:]))
+        pts = np.array([p for s in segs for p in s])
+        size = float(max(np.linalg.norm(pts[:, None, :] - pts[None, :, :], axis=2).max(), 0.0))
+        return segs, size, "wire geometry as declared"
+    lam = wavelength_m(min(freqs_hz)) if freqs_hz else None
+    fraction = {"half-wave-dipole": (0.5, "λ/2"), "quarter-wave-vertical": (0.25, "λ/4"),
+                "short-dipole": (0.1, "λ/10")}.get(ant.kind)
+    vertical = ant.polarisation == "vertical" or ant.kind == "quarter-wave-vertical"
+    az = math.radians(ant.azimuth_deg + 90.0)
+    broadside = np.array([math.sin(az), math.cos(az), 0.0])
+    up = np.array([0.0, 0.0, 1.0])
+    if fraction is not None and lam is not None:
+        size = fraction[0] * lam
+        basis = f"textbook length {fraction[1]} at {min(freqs_hz) / 1e6:g} MHz"
+    elif ant.aperture_m is not None:
+        size = float(ant.aperture_m)
+        basis = "declared aperture_m, " + ("vertical" if vertical else "broadside to the heading")
+    else:
+        return (), None, "no dimension declared: drawn as a point at the declared position"
+    axis = up if vertical else broadside
+    a, b = centre - size / 2 * axis, centre + size / 2 * axis
+    if vertical and a[2] < 0:        # a vertical structure stands on the ground, never below it
+        a, b = a - a[2] * up, b - a[2] * up
+    return ((tuple(map(float, a)), tuple(map(float, b))),), float(size), basis
+
+
+def _extent(loaded, configs, outlines):
+    """Plan extent [m]: antennas (their pieces), places, and the compliance reach around each antenna."""
+    st = loaded.model
+    xs = [p.x_m for p in st.places]
+    ys = [p.y_m for p in st.places]
+    reach = {}
+    for c in configs:
+        d = max((cd.dist_m for cd in c.compliance_distances), default=0.0)
+        reach[c.antenna] = max(reach.get(c.antenna, 0.0), d)
+    for ant in st.antennas:
+        segs, _, _ = outlines[ant.id]
+        pts = [(ant.x_m, ant.y_m)] + [(p[0], p[1]) for s in segs for p in s]
+        r = min(reach.get(ant.id, 0.0), 60.0) * 1.1
+        for x, y in pts:
+            xs += [x - r, x + r]
+            ys += [y - r, y + r]
+    lo_x, hi_x, lo_y, hi_y = min(xs), max(xs), min(ys), max(ys)
+    pad = max(2.0, 0.08 * max(hi_x - lo_x, hi_y - lo_y))
+    return lo_x - pad, hi_x + pad, lo_y - pad, hi_y + pad
+
+
+def station_plan(loaded, emitters, configs, outlines):
+    """Keep-out grid of one station at ground level and at a standing person's heights.
+
+    Parameters
+    ----------
+    loaded : LoadedStation
+    emitters : sequence of rfsafe.assess.Emitter
+        The station's configurations reduced to their power chain.
+    configs : sequence of ConfigurationResult
+        The same configurations' results (for the compliance reach that sizes the plan).
+    outlines : dict
+        Antenna id -> :func:`antenna_outline` result.
+
+    Returns
+    -------
+    rfsafe.results.PlanMap
+    """
+    from rfsafe.results import PlanMap
+    from rfsafe.site.assess import _site_pattern, limit_equivalent_w_m2
+    from rfsafe.site.constants import ENVIRONMENTS
+    from rfsafe.site.grid import SiteEmitter, ratio_grid
+
+    site_ems = []
+    for em in emitters:
+        k = next(j for j, a in enumerate(loaded.model.antennas) if a.id == em.antenna.id)
+        pat, _ = _site_pattern(em.antenna, em.peak_gain_dbi, loaded.pattern_tables, f"antennas[{k}]")
+        cfg = next(c for c in configs if c.id == em.configuration)
+        site_ems.append(SiteEmitter(
+            transmitter=em.transmitter, configuration=em.configuration, x_m=em.x_m, y_m=em.y_m,
+            height_m=em.height_m, pattern=pat, freq_hz=em.freq_hz,
+            power_w=tuple(em.avg_power_at_antenna_w[e] for e in ENVIRONMENTS),
+            limit_w_m2=tuple(limit_equivalent_w_m2(em.limits[e], em.avg_power_at_antenna_w[e], em.pep_at_antenna_w)
+                             for e in ENVIRONMENTS),
+            ground_factor=em.ground_factor, azimuth_deg=em.antenna.azimuth_deg, tilt_deg=em.antenna.tilt_deg,
+            polarisation=em.antenna.polarisation,
+            near_field_m=max(cfg.near_field_distance_m, cfg.aperture_far_field_m or 0.0)))
+    x0, x1, y0, y1 = _extent(loaded, configs, outlines)
+    step = max(x1 - x0, y1 - y0) / (PLAN_POINTS - 1)
+    x = np.arange(x0, x1 + step / 2, step)
+    y = np.arange(y0, y1 + step / 2, step)
+    gx, gy = np.meshgrid(x, y)
+    ratio, top = {}, {}
+    for level, heights in PLAN_LEVELS.items():
+        grid = ratio_grid(site_ems, gx.ravel(), gy.ravel(), heights)
+        for i, env in enumerate(ENVIRONMENTS):
+            r = np.asarray(grid.ratio[i], dtype=float).reshape(gx.shape)
+            ratio[(level, env)] = r
+            finite = r[np.isfinite(r)]
+            top[f"{level} {env}"] = float(finite.max()) if finite.size else float("inf")
+    method = ("far-field estimate S = P G F / (4 pi R^2) on a grid, gain toward each point as used for places "
+              "(pattern where the antenna opts in, else peak gain in every direction); every transmitter its "
+              "worst configuration, all transmitters summed (conservative; simultaneous groups not applied)")
+    return PlanMap(x_m=tuple(float(v) for v in x), y_m=tuple(float(v) for v in y),
+                   heights_m={k: tuple(v) for k, v in PLAN_LEVELS.items()}, max_ratio=top, method=method,
+                   ratio=ratio)
