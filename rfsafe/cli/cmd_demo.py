@@ -43,14 +43,18 @@ def demo() -> None:
     folder = demo_dir()
     summary = []
     for k, name in enumerate(DEMO_STATIONS):
-        res = assess(load_station(folder / name))
+        loaded = load_station(folder / name)
+        res = assess(loaded)
         if k == 0:
             typer.echo(render_evaluation(res))
             typer.echo("")
-        pdf = write_worksheet(res, folder / name.replace(".toml", ".pdf"), force=True)
+        pdf = write_worksheet(res, folder / name.replace(".toml", ".pdf"), force=True,
+                              inputs=loaded.input_paths())
         summary.append(f"{name}: {res.verdict} -> {pdf}")
-    site = assess_site(load_site(folder / DEMO_SITE))
-    pdf = write_site_pdf(site, folder / DEMO_SITE.replace(".toml", ".pdf"), force=True)
+    loaded_site = load_site(folder / DEMO_SITE)
+    site = assess_site(loaded_site)
+    pdf = write_site_pdf(site, folder / DEMO_SITE.replace(".toml", ".pdf"), force=True,
+                         inputs=loaded_site.input_paths())
     summary.append(f"{DEMO_SITE}: {site.verdict} ({len(site.violations)} violation(s)) -> {pdf}")
     typer.echo("Demo worksheets written:")
     for line in summary:

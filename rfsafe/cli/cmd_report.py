@@ -30,18 +30,16 @@ def report(file: Path = typer.Argument(..., help="Station file (.toml)."),
     cases), 2 bad input.
     """
     from rfsafe.assess import assess
-    from rfsafe.errors import bad_value
-    from rfsafe.fileio import check_writable
-    from rfsafe.report.worksheet import write_worksheet
+    from rfsafe.fileio import OutputSet
+    from rfsafe.report.worksheet import build_worksheet_pdf
     from rfsafe.station import load_station
 
     loaded = load_station(file, standard=standard)
     out = output if output is not None else default_output(file)
-    if out.resolve() == Path(file).resolve():
-        raise bad_value("-o", str(out), "is the station file itself: choose another name for the PDF")
-    check_writable(out, force=force)        # before the evaluation: a bad -o fails fast
-    res = assess(loaded)
-    write_worksheet(res, out, force=force)
+    # every output path is checked before the evaluation: a bad -o fails fast
+    with OutputSet([("-o", out)], inputs=loaded.input_paths(), force=force) as outputs:
+        res = assess(loaded)
+        outputs.write_bytes("-o", build_worksheet_pdf(res))
     typer.echo(f"{res.verdict}: worksheet written to {out}")
     raise typer.Exit(res.exit_code)
 

@@ -69,28 +69,43 @@ def render_site(res) -> str:
     return "\n".join(out)
 
 
-def grid_csv_bytes(res) -> bytes:
-    """The evaluated grid as CSV: one row per point, environments side by side."""
+GRID_CSV_HEADER = ("x_m,y_m,ratio_controlled,ratio_uncontrolled,worst_height_controlled_m,"
+                   "worst_height_uncontrolled_m,near_field,region\n")
+
+
+def write_grid_csv(res, fh, *, rows_per_chunk: int = 64) -> None:
+    """Stream the evaluated grid as CSV to the text file ``fh``: one row per point.
+
+    The grid is formatted a few grid rows at a time, so memory beyond the grid itself stays small
+    whatever the grid size.
+    """
     import io
 
     import numpy as np
 
     g = res.grid
-    xx, yy = np.meshgrid(g.x_m, g.y_m)
-    cols = [xx.ravel(), yy.ravel(), g.ratio[0].ravel(), g.ratio[1].ravel(),
-            g.worst_height_m[0].ravel(), g.worst_height_m[1].ravel()]
-    num = np.column_stack(cols)
+    quoted = np.array(['"' + str(s).replace('"', '""') + '"' for s in g.region_labels], dtype=object)
+    fh.write(GRID_CSV_HEADER)
+    nx = g.x_m.size
+    for start in range(0, g.y_m.size, rows_per_chunk):
+        rows = slice(start, min(start + rows_per_chunk, g.y_m.size))
+        ny = rows.stop - rows.start
+        num = np.column_stack([np.tile(g.x_m, ny), np.repeat(g.y_m[rows], nx),
+                               g.ratio[0, rows].ravel(), g.ratio[1, rows].ravel(),
+                               g.worst_height_m[0, rows].ravel(), g.worst_height_m[1, rows].ravel()])
+        body = io.StringIO()
+        np.savetxt(body, num, fmt="%.6g", delimiter=",")
+        nf = np.where(g.near_field[rows].ravel(), "true", "false")
+        lab = quoted[g.region[rows].ravel()]
+        fh.write("".join(f"{line},{n},{q}\n" for line, n, q in zip(body.getvalue().splitlines(), nf, lab)))
+
+
+def grid_csv_bytes(res) -> bytes:
+    """The evaluated grid as CSV bytes (see :func:`write_grid_csv`)."""
+    import io
+
     text = io.StringIO()
-    text.write("x_m,y_m,ratio_controlled,ratio_uncontrolled,worst_height_controlled_m,"
-               "worst_height_uncontrolled_m,near_field,region\n")
-    quoted = ['"' + str(s).replace('"', '""') + '"' for s in g.region_labels]
-    qlab = np.array(quoted, dtype=object)[g.region.ravel()]
-    nf = np.where(g.near_field.ravel(), "true", "false")
-    body = io.StringIO()
-    np.savetxt(body, num, fmt=["%.6g", "%.6g", "%.6g", "%.6g", "%.6g", "%.6g"], delimiter=",")
-    lines = body.getvalue().splitlines()
-    for line, n, lab in zip(lines, nf, qlab):
-        text.write(f"{line},{n},{lab}\n")
+    write_grid_csv(res, text)
     return text.getvalue().encode("utf-8")
 
 
@@ -126,30 +141,22 @@ def site(file: Path = typer.Argument(..., help="Site file (.toml)."),
     Exit status: 0 no violation and no rating exceeded, 1 a violation or exceeded rating, 2 bad input.
     """
     from rfsafe.cli.output import print_json, warn
-    from rfsafe.errors import bad_value
-    from rfsafe.fileio import atomic_write_bytes, check_writable
-    from rfsafe.site import assess_site
-    from rfsafe.site import load_site
+    from rfsafe.fileio import OutputSet
+    from rfsafe.site import assess_site, load_site
 
-    if output is not None:
-        check_writable(output, force=force, field="-o")
-    if csv_out is not None:
-        check_writable(csv_out, force=force, field="--csv")
-        if output is not None and csv_out.resolve() == output.resolve():
-            raise bad_value("--csv", str(csv_out), "is the same file as -o (give two different files)")
     loaded = load_site(file)
-    progress = _Progress() if (not json_out and sys.stderr.isatty()) else None
-    res = assess_site(loaded, progress=progress)
-    pdf = None
-    if output is not None:
-        from rfsafe.report.site_pdf import build_site_pdf
+    wanted = [(field, path) for field, path in (("-o", output), ("--csv", csv_out)) if path is not None]
+    # all output paths are checked before the evaluation; the PDF and CSV are committed as one set
+    with OutputSet(wanted, inputs=loaded.input_paths(), force=force) as outputs:
+        progress = _Progress() if (not json_out and sys.stderr.isatty()) else None
+        res = assess_site(loaded, progress=progress)
+        if csv_out is not None:
+            with outputs.open("--csv", "w", encoding="utf-8", newline="") as fh:
+                write_grid_csv(res, fh)
+        if output is not None:
+            from rfsafe.report.site_pdf import build_site_pdf
 
-        pdf = build_site_pdf(res)
-    csv_bytes = grid_csv_bytes(res) if csv_out is not None else None
-    if csv_bytes is not None:
-        atomic_write_bytes(csv_out, csv_bytes)
-    if pdf is not None:
-        atomic_write_bytes(output, pdf)
+            outputs.write_bytes("-o", build_site_pdf(res))
     if json_out:
         print_json(res)
     else:

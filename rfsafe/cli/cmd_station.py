@@ -11,11 +11,10 @@ import typer
 def init(path: Path = typer.Argument(..., help="Where to write the starter station file (.toml)."),
          force: bool = typer.Option(False, "--force", help="Overwrite an existing file.")) -> None:
     """Write a commented starter station file that evaluates as it is."""
-    from rfsafe.fileio import atomic_write_bytes, check_writable
+    from rfsafe.fileio import atomic_write_bytes
     from rfsafe.station.template import STARTER_TOML
 
-    check_writable(path, force=force, field="PATH")
-    atomic_write_bytes(path, STARTER_TOML.encode("utf-8"))
+    atomic_write_bytes(path, STARTER_TOML.encode("utf-8"), force=force, field="PATH")
     typer.echo(f"wrote {path}: edit it, then run: rfsafe evaluate {path}")
     raise typer.Exit(0)
 

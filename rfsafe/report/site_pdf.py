@@ -260,11 +260,12 @@ def build_site_pdf(res) -> bytes:
         footer_left=f"{res.input_file} · SHA-256 {res.input_sha256[:16]}… · rfsafe {res.rfsafe_version}")
 
 
-def write_site_pdf(res, path, *, force: bool = False) -> Path:
-    """Write the site review to ``path`` (temporary file, then rename); refuses to overwrite unless ``force``."""
-    from rfsafe.fileio import atomic_write_bytes, check_writable
+def write_site_pdf(res, path, *, force: bool = False, inputs=()) -> Path:
+    """Write the site review to ``path`` (temporary file, then rename); refuses to overwrite unless
+    ``force``, and refuses any of ``inputs`` as the output."""
+    from rfsafe.fileio import OutputSet
 
     path = Path(path)
-    check_writable(path, force=force)
-    atomic_write_bytes(path, build_site_pdf(res))
+    with OutputSet([("-o", path)], inputs=inputs, force=force) as out:
+        out.write_bytes("-o", build_site_pdf(res))
     return path

@@ -503,17 +503,16 @@ def build_worksheet_pdf(result, *, extra_figures=()) -> bytes:
         footer_left=f"{result.input_file} · SHA-256 {result.input_sha256[:16]}… · rfsafe {result.rfsafe_version}")
 
 
-def write_worksheet(result, path, *, force: bool = False, extra_figures=()) -> Path:
+def write_worksheet(result, path, *, force: bool = False, extra_figures=(), inputs=()) -> Path:
     """Write the worksheet of ``result`` to ``path`` (temporary file, then rename).
 
     Raises :class:`~rfsafe.errors.InputError` (field ``-o``) if the file exists and ``force`` is
-    false, or if its folder does not exist. The PDF is built completely in memory before anything
-    is written, so a failure leaves no file behind.
+    false, if its folder does not exist or if it is one of ``inputs``. The PDF is built completely in
+    memory before anything is written, so a failure leaves no file behind.
     """
-    from rfsafe.fileio import atomic_write_bytes, check_writable
+    from rfsafe.fileio import OutputSet
 
     path = Path(path)
-    check_writable(path, force=force)
-    data = build_worksheet_pdf(result, extra_figures=extra_figures)
-    atomic_write_bytes(path, data)
+    with OutputSet([("-o", path)], inputs=inputs, force=force) as out:
+        out.write_bytes("-o", build_worksheet_pdf(result, extra_figures=extra_figures))
     return path

@@ -96,4 +96,11 @@ class LoadedSite:
     boundary: tuple[tuple[float, float], ...]
     areas: tuple
 
+    def input_paths(self) -> tuple[Path, ...]:
+        """Every file this site was read from: the site file, station files and pattern tables."""
+        paths = [Path(self.path)]
+        for st in self.stations:
+            paths.extend(p for p in st.input_paths() if p.is_file())
+        return tuple(dict.fromkeys(paths))
+
 

@@ -39,6 +39,12 @@ class LoadedStation:
     pattern_tables: dict  # antenna id -> loaded pattern table
     file_standard: str = ""  # the standard the file itself names (differs from model.standard under --standard)
 
+    def input_paths(self) -> tuple[Path, ...]:
+        """Every file this station was read from: the station file and its pattern tables."""
+        base = Path(self.path).parent
+        tables = [base / a.pattern_file for a in self.model.antennas if getattr(a, "pattern_file", None)]
+        return (Path(self.path), *tables)
+
 
 def quoted_list(names) -> str:
     return ", ".join(format_value(n) for n in names)
