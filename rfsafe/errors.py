@@ -22,16 +22,24 @@ class InputError(ValueError):
     """
 
 
+#: Longest rendering of a user value in a message [characters]; longer ones are cut with "...".
+MAX_SHOWN_CHARS = 120
+
+
 def format_value(value: object) -> str:
-    """Render a user value the way it appears in TOML/JSON (strings quoted)."""
+    """Render a user value the way it appears in TOML/JSON (strings quoted), at most
+    :data:`MAX_SHOWN_CHARS` characters (a long value is cut and ends in "...")."""
     if isinstance(value, float) and not math.isfinite(value):
         return str(value)
     if isinstance(value, complex):
         return f"{value.real:g}{value.imag:+g}j"
     try:
-        return json.dumps(value, ensure_ascii=False, default=str)
-    except (TypeError, ValueError):
-        return repr(value)
+        text = json.dumps(value, ensure_ascii=False, default=str)
+    except (TypeError, ValueError, RecursionError):
+        text = repr(value) if not isinstance(value, (list, dict)) else f"<{type(value).__name__}>"
+    if len(text) > MAX_SHOWN_CHARS:
+        text = text[:MAX_SHOWN_CHARS - 3] + "..."
+    return text
 
 
 def bad_value(field: str, value: object, accepted: str) -> InputError:

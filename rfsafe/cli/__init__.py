@@ -12,7 +12,9 @@ reads as "complies", nor 1, which reads as "exceeds").
 from __future__ import annotations
 
 import importlib
+import re
 import sys
+import warnings
 
 import typer
 from typer.core import TyperGroup
@@ -28,6 +30,8 @@ __all__ = ["app", "main", "EXIT_INTERNAL"]
 
 #: Exit status of an unexpected internal error (a bug), distinct from 0, 1 and 2.
 EXIT_INTERNAL = 3
+#: Warnings raised during the last command (never shown to the user; see ``_Group.main``).
+RECORDED_WARNINGS: list[str] = []
 
 #: Command modules, in the order their commands appear in ``--help``.
 _COMMAND_MODULES = (
@@ -42,6 +46,68 @@ _COMMAND_MODULES = (
 )
 
 
+_NOT_VALID = re.compile(r"^'(?P<value>.*)' is not a valid (?P<type>float|integer|boolean)\.?$", re.S)
+_TYPE_ACCEPTED = {"float": "is not a number (accepted: a number such as 100, 0.5 or 1e3)",
+                  "integer": "is not a whole number (accepted: e.g. 3)",
+                  "boolean": "is not true or false"}
+
+
+def _param_name(param) -> str:
+    """The option as the user types it (the long form), or the argument's metavar."""
+    opts = getattr(param, "opts", None) or []
+    if opts and getattr(param, "param_type_name", "") == "option":
+        return max(opts, key=len)
+    return (getattr(param, "metavar", None) or getattr(param, "name", "ARGUMENT") or "ARGUMENT").upper()
+
+
+def _given_value(name: str, args) -> str | None:
+    """The text the user gave for option ``name`` on the command line, if it can be found."""
+    args = list(args or ())
+    for i, a in enumerate(args):
+        if a == name and i + 1 < len(args):
+            return args[i + 1]
+        if a.startswith(name + "="):
+            return a[len(name) + 1:]
+    return None
+
+
+def usage_message(err, args=None) -> str:
+    """A command-line parser error as ``<option>: <value> <what is accepted>`` (no ``Error:`` prefix)."""
+    from rfsafe.errors import format_value
+
+    if isinstance(err, _cx.MissingParameter) and err.param is not None:
+        return f"{_param_name(err.param)}: is required but missing"
+    if isinstance(err, _cx.BadParameter) and err.param is not None:
+        name = _param_name(err.param)
+        msg = err.message
+        m = _NOT_VALID.match(msg)
+        if m:
+            return f"{name}: {format_value(m['value'])} {_TYPE_ACCEPTED[m['type']]}"
+        given = _given_value(name, args)
+        if "valid number" in msg or "valid float" in msg:
+            accepted = _TYPE_ACCEPTED["float"]
+        elif "valid integer" in msg:
+            accepted = _TYPE_ACCEPTED["integer"]
+        else:
+            accepted = f"is not accepted ({msg[0].lower() + msg[1:] if msg else 'see --help'})"
+        return f"{name}: {format_value(given) + ' ' if given is not None else ''}{accepted}"
+    if isinstance(err, _cx.NoSuchOption):
+        known = sorted(err.possibilities or ())
+        hint = f" (did you mean {', '.join(known)}?)" if known else " (see --help for the options)"
+        return f"{err.option_name}: is not an option of this command{hint}"
+    if isinstance(err, _cx.BadOptionUsage):
+        what = "takes no value (it is a switch)" if "does not take a value" in err.message else "needs a value"
+        return f"{err.option_name}: {what} (see --help)"
+    msg = err.format_message()
+    m = re.match(r"^Got unexpected extra arguments? ?(\(s\))? \((?P<args>.*)\)$", msg)
+    if m:
+        return f"ARGUMENTS: {format_value(m['args'])} are not expected (see --help for the usage)"
+    m = re.match(r"^No such command '(?P<cmd>.*)'\.?$", msg)
+    if m:
+        return f"COMMAND: {format_value(m['cmd'])} is not an rfsafe command (see rfsafe --help)"
+    return f"ARGUMENTS: {msg}"
+
+
 class _Group(TyperGroup):
     """Typer group that turns input errors into one plain line and exit 2."""
 
@@ -49,9 +115,19 @@ class _Group(TyperGroup):
         return list(self.commands)
 
     def main(self, args=None, prog_name=None, complete_var=None, standalone_mode=True, **extra):
+        # Warnings (numpy's RuntimeWarning on an overflow, say) never reach the user: every number
+        # shown is checked or explained where it is made. They are kept in RECORDED_WARNINGS for
+        # the fuzz tests, which treat any of them as a defect to fix at its root.
+        RECORDED_WARNINGS.clear()
         try:
-            rv = super().main(args=args, prog_name=prog_name or "rfsafe",
-                              complete_var=complete_var, standalone_mode=False, **extra)
+            with warnings.catch_warnings(record=True) as caught:
+                warnings.simplefilter("always")
+                try:
+                    rv = super().main(args=args, prog_name=prog_name or "rfsafe",
+                                      complete_var=complete_var, standalone_mode=False, **extra)
+                finally:
+                    RECORDED_WARNINGS.extend(f"{w.category.__name__}: {w.message} ({w.filename}:{w.lineno})"
+                                             for w in caught)
         except InputError as err:
             typer.echo(f"Error: {err}", err=True)
             sys.exit(2)
@@ -59,7 +135,7 @@ class _Group(TyperGroup):
             typer.echo(err.ctx.get_help() if err.ctx else str(err))
             sys.exit(0)
         except _cx.ClickException as err:
-            typer.echo(f"Error: {err.format_message()}", err=True)
+            typer.echo(f"Error: {usage_message(err, args if args is not None else sys.argv[1:])}", err=True)
             sys.exit(err.exit_code)
         except typer.Abort:
             typer.echo("Error: aborted", err=True)

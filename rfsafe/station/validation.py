@@ -96,8 +96,14 @@ def validation_to_input_error(err: ValidationError, model: type[BaseModel], *, p
 
 def read_toml(path: Path) -> tuple[dict[str, Any], bytes]:
     """Read a TOML file; syntax errors keep tomllib's line and column."""
+    from rfsafe.bounds import MAX_FILE_BYTES, check_file_size, check_nesting, nesting_error
+
     try:
-        raw = path.read_bytes()
+        if path.is_file():
+            check_file_size(path.stat().st_size, field="FILE", path=str(path))
+        with path.open("rb") as fh:  # read one byte past the bound: a growing or special file stops there
+            raw = fh.read(MAX_FILE_BYTES + 1)
+        check_file_size(len(raw), field="FILE", path=str(path))
     except FileNotFoundError:
         raise bad_value("FILE", str(path), "does not exist") from None
     except IsADirectoryError:
@@ -109,9 +115,13 @@ def read_toml(path: Path) -> tuple[dict[str, Any], bytes]:
     except UnicodeDecodeError:
         raise bad_value("FILE", str(path), "is not UTF-8 text") from None
     try:
-        return tomllib.loads(text), raw
+        data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise InputError(f"{path}: TOML syntax error: {exc}") from None
+    except RecursionError:  # tomllib recurses once per nesting level
+        raise nesting_error(field="FILE", path=str(path)) from None
+    check_nesting(data, field="FILE", path=str(path))
+    return data, raw
 
 
 def validate_model(model: type[BaseModel], data: dict[str, Any], *, prefix: str = "") -> BaseModel:

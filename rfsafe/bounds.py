@@ -1,0 +1,149 @@
+"""Resource bounds and physical ranges of every input, in one place.
+
+Each bound keeps one run of rfsafe within seconds and a few hundred MiB on a small machine, and is
+far beyond any real station or event site; the README ("Limits of the input") lists the same
+numbers (tests/test_bounds.py checks that it does). A value beyond a bound is refused as bad input
+(``Error: <field>: <value> <what is accepted>``, exit 2), before any computation.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+from rfsafe.errors import InputError, bad_value
+
+__all__ = [
+    "MAX_FILE_BYTES", "MAX_PATTERN_FILE_BYTES", "MAX_TOML_NESTING", "MAX_LIST_ITEMS", "MAX_PLACES",
+    "MAX_CONFIGURATIONS", "MAX_BODY_HEIGHTS", "MAX_SITE_STATIONS", "MAX_POLYGON_VERTICES",
+    "MAX_GRID_POINTS", "MAX_WIRE_SEGMENTS", "MAX_WIRE_POINTS", "MAX_PATTERN_ROWS", "MAX_POWER_W",
+    "MAX_DISTANCE_M", "MAX_LENGTH_M", "MAX_SWR", "MIN_RESISTANCE_OHM", "MAX_IMPEDANCE_OHM",
+    "MAX_TEXT_CHARS", "MAX_GAIN_DBI", "MIN_GAIN_DBI", "MAX_LOSS_DB", "MAX_Q", "check_nesting", "nesting_error",
+    "nesting_depth", "finite_in_range",
+    "check_file_size", "BOUNDS_TABLE",
+]
+
+#: Largest station, site or wire file [bytes].
+MAX_FILE_BYTES = 1_000_000
+#: Largest pattern-table CSV [bytes] (a 0.5-degree table of the whole sphere is about 2.6 MB).
+MAX_PATTERN_FILE_BYTES = 5_000_000
+#: Deepest nesting of tables and arrays in a TOML file (a station file needs 5).
+MAX_TOML_NESTING = 16
+#: Most items in any list of a file not bounded more tightly below (transmitters, feedlines, antennas,
+#: simultaneous groups, wires, feeds, areas).
+MAX_LIST_ITEMS = 200
+#: Most places in a station file, and observation points in a wire file.
+MAX_PLACES = 2000
+#: Most configurations in a station (or per site station).
+MAX_CONFIGURATIONS = 200
+#: Most evaluation heights of a place or a site.
+MAX_BODY_HEIGHTS = 50
+#: Most stations on a site.
+MAX_SITE_STATIONS = 50
+#: Most vertices of a site boundary or area polygon.
+MAX_POLYGON_VERTICES = 1000
+#: Most points of a site's evaluation grid (boundary extent plus margin, divided by the spacing).
+MAX_GRID_POINTS = 2_000_000
+#: Most segments of one wire antenna (the moment-method matrix grows with their square).
+MAX_WIRE_SEGMENTS = 1500
+#: Most vertices of one wire's polyline.
+MAX_WIRE_POINTS = 1000
+#: Most data rows of a pattern table (a 0.5-degree table of the whole sphere has 259,920).
+MAX_PATTERN_ROWS = 300_000
+#: Largest transmitter power (peak envelope) [W]: above the largest broadcast transmitters.
+MAX_POWER_W = 1e8
+#: Largest coordinate, height or distance on a station or site [m].
+MAX_DISTANCE_M = 1e5
+#: Longest feedline [m].
+MAX_LENGTH_M = 1e5
+#: Largest SWR accepted as a number (a short or open load is given as load_r_ohm/load_x_ohm).
+MAX_SWR = 1e6
+#: Smallest load resistance [ohm] and largest |R| or |X| [ohm] of a load.
+MIN_RESISTANCE_OHM = 1e-6
+MAX_IMPEDANCE_OHM = 1e9
+#: Longest text value (labels, titles, descriptions) [characters].
+MAX_TEXT_CHARS = 2000
+#: Range of a declared antenna gain [dBi].
+MAX_GAIN_DBI = 60.0
+MIN_GAIN_DBI = -60.0
+#: Largest declared loss [dB] (line loss per 100 m or 100 ft, connector loss).
+MAX_LOSS_DB = 1000.0
+#: Largest quality factor (loaded or unloaded) of a tuner part.
+MAX_Q = 1e6
+
+#: (what, bound, unit) for the README table and the messages.
+BOUNDS_TABLE = (
+    ("station, site or wire file", MAX_FILE_BYTES, "bytes"),
+    ("pattern-table CSV", MAX_PATTERN_FILE_BYTES, "bytes"),
+    ("nesting of tables and arrays in a TOML file", MAX_TOML_NESTING, "levels"),
+    ("data rows of a pattern table", MAX_PATTERN_ROWS, "rows"),
+    ("places of a station, points of a wire file", MAX_PLACES, "items"),
+    ("configurations of a station", MAX_CONFIGURATIONS, "items"),
+    ("transmitters, feedlines, antennas, groups, wires, feeds, areas", MAX_LIST_ITEMS, "items each"),
+    ("body heights of a place, evaluation heights of a site", MAX_BODY_HEIGHTS, "items"),
+    ("stations on a site", MAX_SITE_STATIONS, "items"),
+    ("vertices of a site boundary or area", MAX_POLYGON_VERTICES, "items"),
+    ("points of a site's evaluation grid", MAX_GRID_POINTS, "points"),
+    ("segments of one wire antenna", MAX_WIRE_SEGMENTS, "segments"),
+    ("vertices of one wire", MAX_WIRE_POINTS, "items"),
+    ("peak envelope power", MAX_POWER_W, "W"),
+    ("coordinates, heights and distances", MAX_DISTANCE_M, "m"),
+    ("feedline length", MAX_LENGTH_M, "m"),
+    ("SWR given as a number", MAX_SWR, ""),
+    ("load resistance", MIN_RESISTANCE_OHM, "ohm (smallest)"),
+    ("load resistance or reactance magnitude", MAX_IMPEDANCE_OHM, "ohm"),
+    ("text values", MAX_TEXT_CHARS, "characters"),
+)
+
+
+def nesting_depth(value: Any) -> int:
+    """Depth of nested dicts/lists (a scalar is 0), without recursion."""
+    deepest = 0
+    stack = [(value, 0)]
+    while stack:
+        v, d = stack.pop()
+        if isinstance(v, dict):
+            stack.extend((x, d + 1) for x in v.values())
+            deepest = max(deepest, d + 1)
+        elif isinstance(v, list):
+            stack.extend((x, d + 1) for x in v)
+            deepest = max(deepest, d + 1)
+    return deepest
+
+
+def nesting_error(*, field: str, path: str) -> InputError:
+    """The error for a file nested deeper than :data:`MAX_TOML_NESTING`."""
+    return bad_value(field, path, f"nests tables and arrays more than {MAX_TOML_NESTING} levels deep "
+                     f"(accepted: at most {MAX_TOML_NESTING})")
+
+
+def check_nesting(data: Any, *, field: str, path: str) -> None:
+    """Refuse a parsed document nested deeper than :data:`MAX_TOML_NESTING`."""
+    if nesting_depth(data) > MAX_TOML_NESTING:
+        raise nesting_error(field=field, path=path)
+
+
+def check_file_size(size_bytes: int, *, field: str, path: str, limit: int = MAX_FILE_BYTES) -> None:
+    """Refuse a file larger than ``limit`` bytes before reading it."""
+    if size_bytes > limit:
+        raise bad_value(field, path, f"is larger than {limit:,} bytes (accepted: at most {limit:,} bytes)")
+
+
+def finite_in_range(field: str, value: float, lo: float | None, hi: float | None, unit: str = "", *,
+                    lo_open: bool = False) -> float:
+    """``value`` as a float, refused unless finite and within [lo, hi] (``lo`` exclusive if ``lo_open``)."""
+    ok = isinstance(value, (int, float)) and not isinstance(value, bool) and math.isfinite(value)
+    if ok and lo is not None:
+        ok = value > lo if lo_open else value >= lo
+    if ok and hi is not None:
+        ok = value <= hi
+    if not ok:
+        u = f" {unit}" if unit else ""
+        parts = []
+        if lo is not None:
+            parts.append(f"{'>' if lo_open else '>='} {lo:g}{u}")
+        if hi is not None:
+            parts.append(f"<= {hi:g}{u}")
+        raise bad_value(field, value, f"is out of range (accepted: a finite number {' and '.join(parts)})"
+                        if parts else "must be a finite number")
+    return float(value)
