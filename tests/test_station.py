@@ -63,7 +63,7 @@ CASES = [
     ("NaN frequency", ('freq_mhz = 14.2', 'freq_mhz = nan'),
      "configurations[0].freq_mhz: nan must be a finite number"),
     ("place on the antenna", ('x_m = 10.0\ny_m = 0.0\nheight_m = 1.5', 'x_m = 0.0\ny_m = 0.0\nheight_m = 10.0'),
-     "places[0]: \"Garden\" is at the position of antenna 'dipole-80': a place must be at least 1 mm away"),
+     "places[0]: \"Garden\" is at the position of antenna 'dipole-80': a place must be away from the antenna"),
     ("section that must be an array of tables", ('[[transmitters]]\nid = "tx"\npep_w = 100.0',
                                                   'transmitters = "tx"'),
      'transmitters: "tx" must be an array'),
@@ -136,3 +136,60 @@ def test_schema_is_json_schema():
     assert schema["$schema"].startswith("https://json-schema.org/")
     assert "transmitters" in schema["required"]
     assert schema["additionalProperties"] is False
+
+
+def _wire_station(dy_m: float, offset_m: float) -> str:
+    """A 20 m wire dipole at y = dy_m and a place offset_m above its middle (invented test geometry)."""
+    return f"""
+standard = "fcc"
+[[transmitters]]
+id = "tx"
+pep_w = 100.0
+[[feedlines]]
+id = "line"
+cable = "rg-213"
+length_m = 10.0
+[[antennas]]
+id = "dipole"
+kind = "wire"
+x_m = 0.0
+y_m = {dy_m!r}
+height_m = 8.0
+[antennas.wire]
+ground = "free-space"
+[[antennas.wire.wires]]
+label = "dipole"
+points_m = [[-10.05, {dy_m!r}, 8.0], [10.05, {dy_m!r}, 8.0]]
+radius_m = 0.001
+[[antennas.wire.feeds]]
+wire = "dipole"
+position = 0.5
+[[configurations]]
+id = "c"
+freq_mhz = 7.1
+transmitter = "tx"
+feedline = "line"
+antenna = "dipole"
+mode = "cw"
+[[places]]
+label = "P"
+x_m = 3.0
+y_m = {dy_m!r}
+height_m = {8.0 + offset_m!r}
+environment = "uncontrolled"
+"""
+
+
+@pytest.mark.parametrize("dy_m", [0.0, 12.0, 12345.0])
+def test_on_antenna_test_does_not_depend_on_where_the_station_sits(tmp_path, dy_m):
+    # A place inside the 1 mm conductor is refused, one just outside it is accepted, wherever the
+    # same geometry sits in the station frame (issue: the test used absolute coordinates).
+    from rfsafe.station import load_station
+
+    inside = tmp_path / "inside.toml"
+    inside.write_text(_wire_station(dy_m, 1e-16))
+    with pytest.raises(InputError, match="lies inside a conductor of antenna 'dipole'"):
+        load_station(inside)
+    outside = tmp_path / "outside.toml"
+    outside.write_text(_wire_station(dy_m, 0.01))
+    load_station(outside)

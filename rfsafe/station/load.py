@@ -46,6 +46,40 @@ class LoadedStation:
         return (Path(self.path), *tables)
 
 
+#: A place closer than this fraction of an antenna's size to its structure is "on the antenna"
+#: (relative, so the test does not depend on where the station sits in its coordinate frame).
+ON_ANTENNA_REL_TOL = 1e-6
+
+
+def _check_place_off_antenna(p_index: int, place, a: Antenna, wire_spec, size_m: float) -> None:
+    """Refuse a place that lies on an antenna: inside a wire's conductor, or (an antenna without
+    declared conductors) within ``ON_ANTENNA_REL_TOL`` of its size ``size_m`` [m] (half a wavelength
+    at its highest frequency) from its reference point.
+
+    Distances are taken in coordinates relative to the antenna (its position subtracted first), so
+    the same geometry gives the same answer wherever it sits.
+    """
+    origin = (a.x_m, a.y_m, a.height_m)
+    heights = place.body_heights_m or [place.height_m]
+    rel = [(place.x_m - origin[0], place.y_m - origin[1], z - origin[2]) for z in heights]
+    if wire_spec is not None:
+        from rfsafe.antenna.wire.geometry import point_segment_distances
+        import numpy as np
+
+        pts = np.asarray(rel, dtype=float)
+        for w in wire_spec.wires:
+            v = np.asarray(w.points_m, dtype=float) - np.asarray(origin, dtype=float)
+            d = point_segment_distances(pts[:, None, :], v[:-1], v[1:]).min()
+            if d <= w.radius_m:
+                raise bad_value(f"places[{p_index}]", place.label,
+                                f"lies inside a conductor of antenna {a.id!r} ({d:.3g} m from a wire of radius "
+                                f"{w.radius_m:.3g} m): a place must be outside the antenna's conductors")
+        return
+    if min(math.hypot(*r) for r in rel) < ON_ANTENNA_REL_TOL * size_m:
+        raise bad_value(f"places[{p_index}]", place.label,
+                        f"is at the position of antenna {a.id!r}: a place must be away from the antenna")
+
+
 def quoted_list(names) -> str:
     return ", ".join(format_value(n) for n in names)
 
@@ -166,11 +200,10 @@ def check_station(station: Station, base: Path) -> tuple[dict, dict]:
     for i, c in enumerate(station.configurations):
         _check_configuration(i, c, station)
     for p_index, place in enumerate(station.places):
-        for z in place.body_heights_m or [place.height_m]:
-            for a in station.antennas:
-                if math.dist((place.x_m, place.y_m, z), (a.x_m, a.y_m, a.height_m)) < 1e-3:
-                    raise bad_value(f"places[{p_index}]", place.label,
-                                    f"is at the position of antenna {a.id!r}: a place must be at least 1 mm away")
+        for a in station.antennas:
+            freqs = [c.freq_mhz for c in station.configurations if c.antenna == a.id]
+            size_m = 299.792458 / (2.0 * max(freqs)) if freqs else 1.0   # half a wavelength [m]
+            _check_place_off_antenna(p_index, place, a, wire_specs.get(a.id), size_m)
     by_id = {c.id: c for c in station.configurations}
     for g, group in enumerate(station.simultaneous):
         used: dict[str, str] = {}
