@@ -179,6 +179,17 @@ for _name in _COMMAND_MODULES:
     importlib.import_module(_name).register(app)
 
 
+def _terminate(signum, frame):  # noqa: ARG001 - signal handler signature
+    raise SystemExit(128 + signum)
+
+
 def main() -> None:
-    """Console-script entry point."""
+    """Console-script entry point.
+
+    SIGTERM becomes :class:`SystemExit`, so that a terminated run unwinds and removes its temporary
+    output files like an interrupted one (SIGKILL cannot be caught: the next run removes them).
+    """
+    import signal
+
+    signal.signal(signal.SIGTERM, _terminate)
     app()
