@@ -60,6 +60,8 @@ class Structure:
     wire_fields: tuple[str, ...]
     distance_m: np.ndarray = field(repr=False)        # (Ns, Ns) real-real segment distances
     image_distance_m: np.ndarray | None = field(repr=False, default=None)  # (Ns, Ns) real-image
+    load_coupling: np.ndarray | None = field(repr=False, default=None)  # (Nl, Nb), like feed_coupling
+    load_position_m: np.ndarray | None = field(repr=False, default=None)  # (Nl, 3)
 
     @property
     def length_m(self) -> np.ndarray:
@@ -185,7 +187,8 @@ def _segment_wire(w, path, feeds_here, wavelength_m):
 
 
 def build_structure(spec, freq_hz: float, feed_wires: tuple[int, ...], *, prefix: str = "",
-                    enforce_limits: bool = True) -> Structure:
+                    enforce_limits: bool = True, load_places: tuple[tuple[int, float], ...] = (),
+                    wire_fields: tuple[str, ...] | None = None) -> Structure:
     """Segment the wires of ``spec``, find junctions and build the basis functions.
 
     Parameters
@@ -202,6 +205,10 @@ def build_structure(spec, freq_hz: float, feed_wires: tuple[int, ...], *, prefix
         Refuse segments longer than lambda/10 or shorter than 4 radii (default). Only method
         validation (e.g. the one-basis induced-EMF check) turns this off; segments must always be
         shorter than lambda/2.
+    load_places : tuple of (int, float)
+        Wire index and fraction along the wire of each lumped load (a node is put there).
+    wire_fields : tuple of str, optional
+        Field path of each wire for messages (default ``<prefix>wires[i]``).
 
     Raises
     ------
@@ -213,14 +220,16 @@ def build_structure(spec, freq_hz: float, feed_wires: tuple[int, ...], *, prefix
     lam = 299_792_458.0 / freq_hz
     ground = spec.ground == "perfect"
     labels = tuple(wire_label(spec, i) for i in range(len(spec.wires)))
-    fields = tuple(f"{prefix}wires[{i}]" for i in range(len(spec.wires)))
+    fields = wire_fields or tuple(f"{prefix}wires[{i}]" for i in range(len(spec.wires)))
 
-    wire_nodes, feed_nodes_by_wire = [], []
+    wire_nodes, feed_nodes_by_wire, load_nodes = [], [], {}
     for i, w in enumerate(spec.wires):
         here = [(f, feed.position) for f, feed in enumerate(spec.feeds) if feed_wires[f] == i]
-        nodes, fn = _segment_wire(w, fields[i], [p for _, p in here], lam)
+        loads_here = [(n, p) for n, (iw, p) in enumerate(load_places) if iw == i]
+        nodes, fn = _segment_wire(w, fields[i], [p for _, p in here] + [p for _, p in loads_here], lam)
         wire_nodes.append(nodes)
         feed_nodes_by_wire.append(dict(zip([f for f, _ in here], fn)))
+        load_nodes.update({n: (i, j) for (n, _), j in zip(loads_here, fn[len(here):])})
 
     # Global node ids: interior nodes unique, wire ends clustered into junctions.
     ends = [(i, e, wire_nodes[i][0 if e == 0 else -1]) for i in range(len(wire_nodes)) for e in (0, 1)]
@@ -350,6 +359,24 @@ def build_structure(spec, freq_hz: float, feed_wires: tuple[int, ...], *, prefix
             for h, sgn in bases[m]:
                 if h == h_end:
                     g[f, m] = sgn
+    # Lumped loads: the current through a gap at a node, built as for a feed.
+    gl = np.zeros((len(load_places), nb))
+    lpos = np.zeros((len(load_places), 3))
+    for n, (i, j) in sorted(load_nodes.items()):
+        lpos[n] = wire_nodes[i][j]
+        if 0 < j < len(wire_nodes[i]) - 1:
+            gl[n, interior_basis[(i, j)]] = 1.0
+            continue
+        a = 2 * i + (0 if j == 0 else 1)
+        if not end_bases[a]:
+            raise bad_value(f"{prefix}loads[{n}].position", load_places[n][1],
+                            f"is a free end of wire {labels[i]!r}, where no current flows (accepted: "
+                            "0 < position < 1, or an end joined to other wires or touching a perfect ground)")
+        h_end, _ = end_half(a, True)
+        for m in end_bases[a]:
+            for h, sgn in bases[m]:
+                if h == h_end:
+                    gl[n, m] = sgn
     if nb == 0:
         raise InputError(f"{prefix}wires: the structure carries no current (every wire end is free and "
                          "no wire has an interior node)")
@@ -373,7 +400,8 @@ def build_structure(spec, freq_hz: float, feed_wires: tuple[int, ...], *, prefix
     return Structure(freq_hz=float(freq_hz), wavelength_m=lam, ground=ground, start_m=start, end_m=end,
                      radius_m=radius, wire=wire, node1=n1, node2=n2, ground_nodes=ground_nodes,
                      half_to_basis=p_mat, feed_coupling=g, feed_voltage_v=volts, feed_position_m=fpos,
-                     wire_labels=labels, wire_fields=fields, distance_m=dist, image_distance_m=img_dist)
+                     wire_labels=labels, wire_fields=fields, distance_m=dist, image_distance_m=img_dist,
+                     load_coupling=gl, load_position_m=lpos)
 
 
 def _report_touch(touch, start, end, wire, labels, fields, dist, what):

@@ -18,8 +18,9 @@ from pydantic import BaseModel, ConfigDict, Field
 from rfsafe.errors import InputError, bad_value, format_value
 
 __all__ = [
-    "WireSpec", "FeedSpec", "WireAntennaSpec", "PointSpec", "WireFile",
+    "WireSpec", "FeedSpec", "CircuitSpec", "LoadSpec", "ChokeSpec", "ShieldSpec", "WireAntennaSpec", "PointSpec", "WireFile",
     "check_wire_antenna", "validate_wire_antenna", "load_wire_file", "wire_label",
+    "check_circuit", "along_fraction", "load_places", "load_label",
 ]
 
 #: Three coordinates (x east, y north, z up) [m].
@@ -53,6 +54,72 @@ class FeedSpec(_Strict):
     phase_deg: float = Field(default=0.0, description="Source voltage phase [deg].")
 
 
+class CircuitSpec(_Strict):
+    """A lumped two-terminal circuit in series with a conductor, described at the operating frequency.
+
+    ``circuit = "series"``: Z = R + jX + (omega L / Q + j omega L) + 1 / (j omega C), any subset
+    (R + jX; a series R-L-C; a loading coil as ``inductance_uh`` with its ``coil_q``).
+    ``circuit = "parallel"``: 1/Z = 1/R + 1/(omega L / Q + j omega L) + j omega C, any subset (a trap;
+    a choke's parallel R-L-C model). ``coil_q`` adds the coil's loss as its series resistance.
+    """
+
+    circuit: Literal["series", "parallel"] = Field(
+        default="series", description='"series" (R, X, L, C in series) or "parallel" (R, L, C in parallel: a trap).')
+    resistance_ohm: float | None = Field(default=None, ge=0,
+                                         description="Resistance [ohm] (series: in series; parallel: shunt loss).")
+    reactance_ohm: float | None = Field(default=None,
+                                        description="Series circuit only: a fixed reactance at the frequency [ohm].")
+    inductance_uh: float | None = Field(default=None, gt=0, description="Inductance [uH].")
+    capacitance_pf: float | None = Field(default=None, gt=0, description="Capacitance [pF].")
+    coil_q: float | None = Field(default=None, gt=0,
+                                 description="Unloaded Q of the inductance (its loss; default: lossless).")
+
+
+class LoadSpec(CircuitSpec):
+    """A lumped load (trap, loading coil, resistor, R + jX) in series with a wire at one place."""
+
+    label: str | None = Field(default=None, min_length=1, description="Name shown in results (default: loads[i]).")
+    wire: str | int = Field(description="Wire label, or index into [[wires]] (from 0).")
+    position: float | None = Field(default=None, ge=0, le=1,
+                                   description="Fraction of the wire length from its first point (0..1).")
+    distance_m: float | None = Field(default=None, ge=0,
+                                     description="Distance along the wire from its first point [m] (instead of position).")
+    voltage_rating_v_peak: float | None = Field(default=None, gt=0,
+                                                description="Rated voltage across the load [V peak] (default: not rated).")
+
+
+class ChokeSpec(CircuitSpec):
+    """A common-mode choke on the feedline shield, at a place along its route."""
+
+    position: float | None = Field(default=None, ge=0, le=1,
+                                   description="Fraction of the route length from the feed point (default 0: at the feed).")
+    distance_m: float | None = Field(default=None, ge=0,
+                                     description="Distance along the route from the feed point [m] (instead of position).")
+
+
+class ShieldSpec(_Strict):
+    """The outer surface of a coaxial feedline's shield, modelled as a wire carrying common-mode current.
+
+    The fed wire is cut at the feed: the shield joins the part named by ``joins`` (the braid's side),
+    the source sits between the other part and that junction. The route runs from the feed point
+    through ``route_m`` to the far end, which is either open (equipment not grounded) or on the ground.
+    """
+
+    feed: int = Field(default=0, ge=0, description="Index of the feed (into [[feeds]]) this feedline drives.")
+    joins: Literal["start-side", "end-side"] = Field(
+        description='Part of the fed wire the shield (braid) connects to: "start-side" (toward the wire\'s '
+                    'first point) or "end-side".')
+    route_m: list[Vec3] = Field(min_length=1,
+                                description="Route of the feedline after the feed point [[x, y, z], ...] [m].")
+    radius_m: float = Field(gt=0, description="Outer radius of the shield [m].")
+    far_end: Literal["open", "ground"] = Field(
+        description='"open" (ends at ungrounded equipment) or "ground" (last route point on the ground, z = 0).')
+    segments: int | None = Field(default=None, ge=1, description="Total number of segments on the route.")
+    max_segment_m: float | None = Field(default=None, gt=0,
+                                        description="Longest segment on the route [m] (default rule: wavelength/40).")
+    choke: ChokeSpec | None = Field(default=None, description="Common-mode choke on the shield (default: none).")
+
+
 class WireAntennaSpec(_Strict):
     """Wire antenna geometry for the moment-method solver (no frequency; see ``solve``)."""
 
@@ -60,6 +127,10 @@ class WireAntennaSpec(_Strict):
         default="free-space", description='"free-space" or "perfect" (perfectly conducting plane z = 0).')
     wires: list[WireSpec] = Field(min_length=1)
     feeds: list[FeedSpec] = Field(min_length=1)
+    loads: list[LoadSpec] = Field(default_factory=list,
+                                  description="Lumped loads in series with wires (traps, loading coils, resistors).")
+    shield: ShieldSpec | None = Field(
+        default=None, description="The coax shield's outer surface as a conductor (common-mode current).")
 
 
 class PointSpec(_Strict):
@@ -146,7 +217,85 @@ def check_wire_antenna(spec: WireAntennaSpec, *, prefix: str = "") -> tuple[int,
                             f"is the place of feeds[{where[key]}] on the same wire (one feed per place)")
         where[key] = f
         out.append(iw)
+    load_places(spec, prefix=prefix)
+    if spec.shield is not None:
+        from rfsafe.antenna.wire.shield import check_shield
+
+        check_shield(spec, tuple(out), prefix=prefix)
     return tuple(out)
+
+
+def _wire_length_m(w: WireSpec) -> float:
+    return sum(math.dist(a, b) for a, b in zip(w.points_m[:-1], w.points_m[1:]))
+
+
+def check_circuit(c: CircuitSpec, path: str) -> None:
+    """Refuse circuits without elements and element combinations that have no meaning."""
+    if c.coil_q is not None and c.inductance_uh is None:
+        raise bad_value(f"{path}.coil_q", c.coil_q, "needs inductance_uh (the Q belongs to the coil)")
+    if c.circuit == "parallel":
+        if c.reactance_ohm is not None:
+            raise bad_value(f"{path}.reactance_ohm", c.reactance_ohm,
+                            'applies only to circuit = "series" (a parallel circuit takes inductance_uh, '
+                            "capacitance_pf and resistance_ohm)")
+        if c.resistance_ohm is not None and c.resistance_ohm == 0:
+            raise bad_value(f"{path}.resistance_ohm", c.resistance_ohm,
+                            "shorts a parallel circuit (accepted: > 0 ohm, or leave it out for no shunt loss)")
+    if all(x is None for x in (c.resistance_ohm, c.reactance_ohm, c.inductance_uh, c.capacitance_pf)):
+        raise InputError(f"{path}: gives no circuit element (accepted: one or more of resistance_ohm, "
+                         "reactance_ohm, inductance_uh, capacitance_pf)")
+
+
+def along_fraction(item, length_m: float, path: str, what: str, default: float | None = None) -> float:
+    """Fraction 0..1 along a conductor from ``position`` or ``distance_m`` (exactly one given)."""
+    if item.position is not None and item.distance_m is not None:
+        raise InputError(f"{path}.distance_m: give either position or distance_m, not both")
+    if item.distance_m is not None:
+        if item.distance_m > length_m * (1 + 1e-9):
+            raise bad_value(f"{path}.distance_m", item.distance_m,
+                            f"is beyond the end of {what} (accepted: 0 to {length_m:.6g} m)")
+        return min(item.distance_m / length_m, 1.0)
+    if item.position is not None:
+        return item.position
+    if default is None:
+        raise InputError(f"{path}.position: is required (or give distance_m along {what})")
+    return default
+
+
+def load_places(spec: WireAntennaSpec, *, prefix: str = "") -> tuple[tuple[int, float], ...]:
+    """Check the loads of ``spec``; returns (wire index, fraction from the wire's first point) of each.
+
+    Raises
+    ------
+    InputError
+        Unknown wires, missing or doubled positions, duplicate labels or places, empty circuits.
+    """
+    out = []
+    seen: dict[str, int] = {}
+    where: dict[tuple[int, float], int] = {}
+    for n, load in enumerate(spec.loads):
+        path = f"{prefix}loads[{n}]"
+        if load.label is not None:
+            if load.label in seen:
+                raise bad_value(f"{path}.label", load.label,
+                                f"is a duplicate label (loads[{seen[load.label]}] has it; labels must be unique)")
+            seen[load.label] = n
+        iw = _wire_index(spec, load, f"{path}.wire")
+        frac = along_fraction(load, _wire_length_m(spec.wires[iw]), path, f"wire {wire_label(spec, iw)!r}")
+        key = (iw, round(frac, 9))
+        if key in where:
+            raise bad_value(f"{path}.position", frac,
+                            f"is the place of loads[{where[key]}] on the same wire (one load per place; "
+                            "combine them into one circuit)")
+        where[key] = n
+        check_circuit(load, path)
+        out.append((iw, frac))
+    return tuple(out)
+
+
+def load_label(spec: WireAntennaSpec, n: int) -> str:
+    """Display name of load ``n``: its label, else ``loads[n]``."""
+    return spec.loads[n].label or f"loads[{n}]"
 
 
 def validate_wire_antenna(data: object, *, prefix: str = "") -> WireAntennaSpec:

@@ -1,0 +1,237 @@
+"""The outer surface of a coax feedline's shield as a conductor of the wire model (common-mode current).
+
+Inside a coaxial line the currents on the inner conductor and on the inside of the shield are equal
+and opposite (skin effect keeps them apart from the outside surface). At the feed point the inner
+conductor drives one part of the antenna and the shield the other; the outside of the shield is a
+third conductor joined at the shield's side, so the source sits between the inner conductor's part
+of the antenna and the junction of the shield's part with the shield's outer surface. The current
+that flows on that outer surface is the common-mode (antenna) current of the feedline; it radiates
+along the route of the cable. A choke on the line is a lumped series impedance on that conductor.
+
+The fed wire is therefore cut at the feed into two wires; the source moves to the end of the
+inner conductor's part, at the junction; the shield's route is added as a wire from the feed point.
+Where the shield is more than twice as thick (or thin) as the antenna wire, short intermediate pieces
+step the radius by at most a factor of 2 (the solver's junction rule).
+
+References
+----------
+C. A. Balanis, Antenna Theory: Analysis and Design, 3rd ed., Wiley, 2005, Sec. 9.7 (baluns: the
+unbalanced current on the outside of a coaxial line feeding a balanced antenna), from memory.
+W. Maxwell, Reflections: Transmission Lines and Antennas, ARRL, 1990, Ch. 21 (current on the outside
+of the coax shield, choke baluns), from memory.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from rfsafe.errors import InputError, bad_value
+
+__all__ = ["ExpandedShield", "check_shield", "expand_shield", "TAPER_PIECE_RADII"]
+
+#: Length of each radius-step piece between the antenna wire and the shield [its own radii].
+TAPER_PIECE_RADII = 10.0
+_TOL_M = 1e-6
+
+
+@dataclass(frozen=True)
+class ExpandedShield:
+    """A wire spec with the shield added as wires, and where the shield's parts are."""
+
+    spec: object                       # WireAntennaSpec without ``shield``
+    feed_wires: tuple[int, ...]
+    wire_fields: tuple[str, ...]       # field path of each wire of ``spec`` for messages
+    load_fields: tuple[str, ...]       # field path of each load of ``spec``
+    route_wires: tuple[int, ...]       # wires of the shield, from the feed point outward
+    route_length_m: float
+    choke_load: int | None             # index of the choke in ``spec.loads``
+    feed_point_m: tuple[float, float, float]
+
+
+def _arcs(points) -> np.ndarray:
+    p = np.asarray(points, dtype=float)
+    return np.concatenate([[0.0], np.cumsum(np.linalg.norm(np.diff(p, axis=0), axis=1))])
+
+
+def _point_at(points, s: float) -> np.ndarray:
+    p = np.asarray(points, dtype=float)
+    cum = _arcs(p)
+    j = min(int(np.searchsorted(cum, s, side="right")) - 1, len(p) - 2)
+    t = (s - cum[j]) / (cum[j + 1] - cum[j])
+    return p[j] + t * (p[j + 1] - p[j])
+
+
+def _route_points(spec, feed_wires) -> tuple[np.ndarray, np.ndarray]:
+    sh = spec.shield
+    w = spec.wires[feed_wires[sh.feed]]
+    p = _point_at(w.points_m, spec.feeds[sh.feed].position * _arcs(w.points_m)[-1])
+    return p, np.concatenate([p[None, :], np.asarray(sh.route_m, dtype=float)])
+
+
+def check_shield(spec, feed_wires: tuple[int, ...], *, prefix: str = "") -> None:
+    """Checks of ``spec.shield`` that need the rest of the model.
+
+    Raises
+    ------
+    InputError
+        Unknown feed, a feed at a wire end, a route that starts at the feed point, a far end that does
+        not match the ground, a choke at an open far end or with no circuit element.
+    """
+    from rfsafe.antenna.wire.model import along_fraction, check_circuit
+
+    sh = spec.shield
+    path = f"{prefix}shield"
+    if sh.feed >= len(spec.feeds):
+        raise bad_value(f"{path}.feed", sh.feed, f"is not a feed index (accepted: 0 to {len(spec.feeds) - 1})")
+    if sh.segments is not None and sh.max_segment_m is not None:
+        raise InputError(f"{path}.max_segment_m: give either segments or max_segment_m, not both")
+    pos = spec.feeds[sh.feed].position
+    if not 1e-9 < pos < 1 - 1e-9:
+        raise bad_value(f"{prefix}feeds[{sh.feed}].position", pos,
+                        "is a wire end: a feedline shield needs a feed inside a wire (0 < position < 1), "
+                        "where the wire is cut into the inner conductor's side and the shield's side")
+    _, route = _route_points(spec, feed_wires)
+    seg = np.linalg.norm(np.diff(route, axis=0), axis=1)
+    if np.any(seg <= _TOL_M):
+        j = int(np.argmax(seg <= _TOL_M))
+        raise bad_value(f"{path}.route_m[{j}]", sh.route_m[j],
+                        "repeats the previous point of the route (the route starts at the feed point; "
+                        "pieces must be longer than 1e-6 m)")
+    z = route[1:, 2]
+    if spec.ground == "perfect":
+        if np.any(z < 0):
+            j = int(np.argmax(z < 0))
+            raise bad_value(f"{path}.route_m[{j}]", sh.route_m[j], "is below the perfect ground (accepted: z >= 0 m)")
+        if np.any(z[:-1] <= _TOL_M):
+            j = int(np.argmax(z[:-1] <= _TOL_M))
+            raise bad_value(f"{path}.route_m[{j}]", sh.route_m[j],
+                            "touches the ground at an interior point of the route (only its far end may)")
+    on_ground = spec.ground == "perfect" and z[-1] <= _TOL_M
+    if sh.far_end == "ground" and not on_ground:
+        raise bad_value(f"{path}.far_end", sh.far_end,
+                        f"needs the last route point on a perfect ground (ground = \"perfect\" and z = 0; "
+                        f"the route ends at {sh.route_m[-1]}): accepted: \"open\", or end the route at z = 0")
+    if sh.far_end == "open" and on_ground:
+        raise bad_value(f"{path}.far_end", sh.far_end,
+                        "ends on the ground (last route point at z = 0): accepted: \"ground\" there, or end "
+                        "the route above ground")
+    if sh.choke is not None:
+        cp = f"{path}.choke"
+        check_circuit(sh.choke, cp)
+        frac = along_fraction(sh.choke, float(seg.sum()), cp, "the shield route", default=0.0)
+        if sh.far_end == "open" and frac >= 1 - 1e-9:
+            raise bad_value(f"{cp}.position", frac, "is the open far end of the shield, where no current "
+                            "flows (accepted: a place before the far end)")
+
+
+def expand_shield(spec, feed_wires: tuple[int, ...], *, prefix: str = "") -> ExpandedShield:
+    """Cut the fed wire at the feed and add the shield's outer surface (and its choke) as wires and a load.
+
+    Parameters
+    ----------
+    spec : WireAntennaSpec
+        Checked model with ``shield`` set.
+    feed_wires : tuple of int
+        Wire index of each feed (from ``check_wire_antenna``).
+    prefix : str
+        Field-path prefix for messages.
+    """
+    from rfsafe.antenna.wire.model import LoadSpec, WireSpec, along_fraction, load_places, wire_label
+
+    sh = spec.shield
+    iw = feed_wires[sh.feed]
+    w = spec.wires[iw]
+    cum = _arcs(w.points_m)
+    total = cum[-1]
+    s_feed = spec.feeds[sh.feed].position * total
+    p_feed, route = _route_points(spec, feed_wires)
+    name = wire_label(spec, iw)
+
+    pts_a = [list(map(float, q)) for q, c in zip(w.points_m, cum) if c < s_feed - _TOL_M] + [p_feed.tolist()]
+    pts_b = [p_feed.tolist()] + [list(map(float, q)) for q, c in zip(w.points_m, cum) if c > s_feed + _TOL_M]
+    frac = s_feed / total
+    seg_a = seg_b = None
+    if w.segments is not None:
+        seg_a = max(1, round(w.segments * frac))
+        seg_b = max(1, w.segments - seg_a)
+    wire_a = WireSpec(label=f"{name} (start side)", points_m=pts_a, radius_m=w.radius_m, segments=seg_a,
+                      max_segment_m=w.max_segment_m)
+    wire_b = WireSpec(label=f"{name} (end side)", points_m=pts_b, radius_m=w.radius_m, segments=seg_b,
+                      max_segment_m=w.max_segment_m)
+    wires = list(spec.wires)
+    wires[iw] = wire_a
+    ib = len(wires)
+    wires.append(wire_b)
+    wire_fields = [f"{prefix}wires[{i}]" for i in range(len(spec.wires))] + [f"{prefix}wires[{iw}]"]
+
+    def remap(wire_index: int, q: float, at_feed: str) -> tuple[int, float]:
+        """Wire and fraction on the cut wires of a place at fraction q of wire ``wire_index``."""
+        if wire_index != iw:
+            return wire_index, q
+        s = q * total
+        if s < s_feed - _TOL_M:
+            return iw, s / s_feed
+        if s > s_feed + _TOL_M:
+            return ib, (s - s_feed) / (total - s_feed)
+        return (ib, 0.0) if at_feed == "b" else (iw, 1.0)
+
+    hot = "b" if sh.joins == "start-side" else "a"   # the inner conductor drives the other part
+    feeds = []
+    for f, (feed, fw) in enumerate(zip(spec.feeds, feed_wires)):
+        nw, q = remap(fw, feed.position, hot)
+        feeds.append(feed.model_copy(update={"wire": nw, "position": q}))
+    new_feed_wires = tuple(int(f.wire) for f in feeds)
+    loads = []
+    for load, (lw, q) in zip(spec.loads, load_places(spec, prefix=prefix)):
+        nw, nq = remap(lw, q, hot)
+        loads.append(load.model_copy(update={"wire": nw, "position": nq, "distance_m": None}))
+    load_fields = [f"{prefix}loads[{n}]" for n in range(len(spec.loads))]
+
+    # Radius steps of at most 2:1 from the antenna wire to the shield along the first route piece.
+    ratio = sh.radius_m / w.radius_m
+    n_steps = math.ceil(abs(math.log2(ratio)) - 1e-9) if abs(math.log2(ratio)) > 1 + 1e-9 else 1
+    radii = [w.radius_m * ratio ** (k / n_steps) for k in range(1, n_steps)]
+    u = (route[1] - route[0]) / np.linalg.norm(route[1] - route[0])
+    taper = float(sum(TAPER_PIECE_RADII * r for r in radii))
+    if taper >= 0.5 * float(np.linalg.norm(route[1] - route[0])):
+        raise bad_value(f"{prefix}shield.route_m[0]", sh.route_m[0],
+                        f"is too close to the feed point for the step from the wire radius {w.radius_m:g} m to "
+                        f"the shield radius {sh.radius_m:g} m (steps of at most 2:1, {taper:.3g} m long): "
+                        f"accepted: a first route piece longer than {2 * taper:.3g} m")
+    route_wires, c0 = [], 0.0
+    for k, r in enumerate(radii):
+        c1 = c0 + TAPER_PIECE_RADII * r
+        route_wires.append(len(wires))
+        wires.append(WireSpec(label=f"feedline shield (radius step {k + 1})",
+                              points_m=[(p_feed + c0 * u).tolist(), (p_feed + c1 * u).tolist()],
+                              radius_m=r, segments=1))
+        wire_fields.append(f"{prefix}shield.radius_m")
+        c0 = c1
+    main_pts = [(p_feed + c0 * u).tolist()] + [list(map(float, q)) for q in sh.route_m]
+    route_wires.append(len(wires))
+    wires.append(WireSpec(label="feedline shield", points_m=main_pts, radius_m=sh.radius_m,
+                          segments=sh.segments, max_segment_m=sh.max_segment_m))
+    wire_fields.append(f"{prefix}shield.route_m")
+    route_len = float(np.linalg.norm(np.diff(route, axis=0), axis=1).sum())
+
+    choke_load = None
+    if sh.choke is not None:
+        d = along_fraction(sh.choke, route_len, f"{prefix}shield.choke", "the shield route", default=0.0) * route_len
+        if d <= _TOL_M:
+            cw, cq = route_wires[0], 0.0
+        else:
+            main_len = route_len - c0
+            cw, cq = route_wires[-1], float(max(0.0, d - c0) / main_len)
+        circuit = {k: getattr(sh.choke, k) for k in
+                   ("circuit", "resistance_ohm", "reactance_ohm", "inductance_uh", "capacitance_pf", "coil_q")}
+        choke_load = len(loads)
+        loads.append(LoadSpec(label="feedline choke", wire=cw, position=cq, **circuit))
+        load_fields.append(f"{prefix}shield.choke")
+
+    new = spec.model_copy(update={"wires": wires, "feeds": feeds, "loads": loads, "shield": None})
+    return ExpandedShield(spec=new, feed_wires=new_feed_wires, wire_fields=tuple(wire_fields),
+                          load_fields=tuple(load_fields), route_wires=tuple(route_wires), route_length_m=route_len,
+                          choke_load=choke_load, feed_point_m=tuple(float(x) for x in p_feed))
