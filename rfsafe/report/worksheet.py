@@ -21,17 +21,21 @@ Entry points: :func:`build_worksheet_pdf` (bytes) and :func:`write_worksheet` (f
 
 from __future__ import annotations
 
+import io
+import math
 from pathlib import Path
 from xml.sax.saxutils import escape
 
 from reportlab.lib.units import mm
-from reportlab.platypus import CondPageBreak, KeepTogether, PageBreak, Paragraph, Spacer
+from reportlab.platypus import CondPageBreak, Image, KeepTogether, PageBreak, Paragraph, Spacer
 
 from rfsafe.report.common import (COMPLIES_COLOR, EXCEEDS_COLOR, FONT_BOLD, build_pdf, cautions_block, data_table,
-                                  frame_width, identity_block, kv_table, margin_text, num, p,
+                                  frame_width, grouped_flags, identity_block, kv_table, margin_text, num, p,
                                   ratio_text, section_heading, signoff_block, styles)
 from rfsafe.report.figures import exposure_distance_figure, exposure_legend, figure_grid, line_profile_figure
 from rfsafe.report.near_field import comparison_exposures, near_field_comparison_section, near_field_map_section
+from rfsafe.exposure import horizontal_compliance_distance_m
+from rfsafe.report.plan_map import plan_map_png
 
 __all__ = ["build_worksheet_pdf", "write_worksheet", "worksheet_story", "EXEMPTION_STATEMENT"]
 
@@ -93,11 +97,17 @@ class _Notes:
 def _identity(res, width) -> list:
     date_note = ("from the station file" if res.evaluation_date_source == "file"
                  else "date of this run: the station file gives no evaluation date")
-    rows = [
-        ("Station", res.station or "–"),
+    standard = f"{res.standard_name} [{res.standard}]"
+    if getattr(res, "standard_overridden", False):
+        standard += (f"; chosen with --standard, overriding the station file's own standard "
+                     f"[{res.file_standard}]")
+    rows = [("Station", res.station or "–")]
+    rows += [(k, v) for k, v in (("Call sign", getattr(res, "call_sign", "")), ("Licence", getattr(res, "licence", "")),
+                                 ("Address", getattr(res, "address", ""))) if v]
+    rows += [
         ("Evaluator", res.evaluator or "–"),
         ("Evaluation date", f"{res.evaluation_date} ({date_note})"),
-        ("Standard applied", f"{res.standard_name} [{res.standard}]"),
+        ("Standard applied", standard),
         ("Environments", "; ".join(f"{env}: {res.environment_labels.get(env, env)}" for env in ENVIRONMENTS)),
         ("Station file", res.input_file),
         ("Program", f"rfsafe {res.rfsafe_version}"),
@@ -153,6 +163,64 @@ def _method(res, width) -> list:
     for m in methods:
         out.append(Paragraph(_esc(f"Exposure method: {m}."), styles()["bullet"], bulletText="•"))
     out.append(Spacer(1, 2 * mm))
+# ------------------------------------------------------------------ 1 station
+def _station(res, width, numbers) -> list:
+    """Section 1: the plan, the antennas and the places, as declared."""
+    out = [section_heading("1", "The station")]
+    if res.plan is not None and res.antennas:
+        out.append(section_heading("1.1", "Plan", level=1))
+        png, w_in, h_in = plan_map_png(res, place_numbers=numbers)
+        scale = min(1.0, width / (w_in * 72.0))
+        img = Image(io.BytesIO(png), width=w_in * 72.0 * scale, height=h_in * 72.0 * scale)
+        plan = res.plan
+        tops = "; ".join(f"{lvl} {env} {ratio_text(plan.max_ratio[f'{lvl} {env}'])}"
+                         for lvl in ("ground", "head") for env in ENVIRONMENTS)
+        caption = ("Seen from above, x east and y north in metres. Antennas are drawn to the size in the table below; "
+                   "places are numbered as in section 4. Colour: total exposure ratio against the uncontrolled "
+                   "limit at head height. Lines: where the total ratio reaches 1 at ground level (0 m, blue) and at "
+                   f"head height (worst of {', '.join(f'{h:g}' for h in plan.heights_m['head'])} m, magenta), "
+                   "solid for the uncontrolled limit (the public is kept out inside), dashed for the controlled "
+                   f"limit (nobody inside). Largest ratio on the plan: {tops}. Method: {plan.method}. Inside an "
+                   "antenna's near-field boundary this is a far-field estimate only (see the flags).")
+        out.append(KeepTogether([img, p(caption, "caption")]))
+    out.append(section_heading("1.2", "Antennas", level=1))
+    rows = []
+    for a in res.antennas:
+        heading = (f"{a.azimuth_deg:g}° from north, tilt {a.tilt_deg:g}°" if a.kind in ("beam", "table")
+                   else ("vertical" if a.polarisation == "vertical" or a.kind == "quarter-wave-vertical"
+                         else f"wire broadside to {a.azimuth_deg:g}°"))
+        size = "not declared" if a.size_m is None else f"{_dist(a.size_m)} m"
+        rows.append([a.id, a.kind, f"{_dist(a.x_m)}, {_dist(a.y_m)}, {_dist(a.height_m)}", heading,
+                     a.polarisation, f"{size}: {a.size_basis}", a.description or "–"])
+    out.append(data_table(["antenna", "kind", "x, y, height m", "orientation", "polarisation", "size (largest "
+                           "dimension) and its basis", "description"], rows,
+                          [24 * mm, 22 * mm, 20 * mm, 26 * mm, 17 * mm, 38 * mm, width - 147 * mm],
+                          align="lllllll"))
+    out.append(section_heading("1.3", "Places", level=1))
+    if not res.places:
+        out.append(p("No places are declared in the station file.", "body"))
+        return out
+    rows = []
+    for pl in res.places:
+        rows.append([numbers[pl.label], pl.label, f"{_dist(pl.x_m)}, {_dist(pl.y_m)}, {_dist(pl.height_m)}",
+                     f"{pl.environment} ({res.environment_labels.get(pl.environment, pl.environment)})",
+                     pl.why or "not stated in the station file"])
+    out.append(data_table(["#", "place", "x, y, height m", "environment", "why this environment"], rows,
+                          [8 * mm, 44 * mm, 22 * mm, 52 * mm, width - 126 * mm], align="lllll"))
+    return out
+
+
+def _dist(x) -> str:
+    """A length [m] to a sensible precision: centimetres below 10 m, decimetres below 100 m, else metres."""
+    if x is None:
+        return "–"
+    x = float(x)
+    if not math.isfinite(x):
+        return num(x)
+    a = abs(x)
+    return f"{x:.2f}" if a < 10 else (f"{x:.1f}" if a < 100 else f"{x:.0f}")
+
+
     rows = []
     for c in res.configurations:
         gain_methods = sorted({x.gain_method for pl in res.places for x in pl.exposures
@@ -219,20 +287,32 @@ def _configurations(res, width) -> list:
         out.append(Spacer(1, 3 * mm))
     out.append(section_heading("3.1", "Compliance distances", level=1))
     out.append(p("Distance from the antenna beyond which each environment's limit is met, with peak gain and "
-                 "the far-field prediction. A distance inside the near-field boundary is flagged: the far-field "
-                 "estimate is not valid there.", "small"))
+                 "the far-field prediction: straight-line (3-D) distance from the antenna's centre of radiation, "
+                 "and the horizontal distance from the point below it at ground level (0 m) and at head height "
+                 f"(worst of {', '.join(f'{h:g}' for h in heads)} m). A distance inside the near-field boundary "
+                 "is flagged: the far-field estimate is not valid there.", "small"))
     rows = []
-    bold = []
+    heights = {a.id: a.height_m for a in res.antennas}
     for c in res.configurations:
         for cd in c.compliance_distances:
-            rows.append([c.id, cd.environment, f"{cd.dist_m:.2f}", f"{cd.dist_ft:.1f}",
+            if h_ant is None:
+                ground = head = "–"
+            else:
+                ground = _dist(float(horizontal_compliance_distance_m(cd.dist_m, h_ant)))
+                head = _dist(float(horizontal_compliance_distance_m(cd.dist_m, min(abs(h_ant - z) for z in heads))))
+            rows.append([c.id, cd.environment, f"{_dist(cd.dist_m)} ({cd.dist_ft:.1f} ft)", ground, head,
                          f"{cd.limit_basis}, {_QUANTITY.get(cd.governing, cd.governing)}",
-                         num(cd.eirp_w), _boundary_text(c),
-                         "YES: far-field estimate" if cd.inside_near_field else "no"])
-    out.append(data_table(["configuration", "environment", "distance m", "distance ft", "limit basis, governs",
-                           "EIRP compared W", "near-field boundary m", "inside near field"], rows,
-                          [24 * mm, 22 * mm, 16 * mm, 16 * mm, 30 * mm, 20 * mm, 24 * mm, width - 152 * mm],
-                          align="llrrlrrl", bold_rows=bold))
+    heads = _head_heights(res)
+                         num(cd.eirp_w), ("YES, inside " if cd.inside_near_field else "no; ") + _boundary_text(c)])
+    out.append(data_table(["configuration", "environment", "3-D distance m", "horizontal at ground m",
+                           "horizontal at head height m", "limit basis, governs", "EIRP compared W",
+                           "inside the near-field boundary m"], rows,
+                          [24 * mm, 21 * mm, 24 * mm, 18 * mm, 20 * mm, 27 * mm, 17 * mm, width - 151 * mm],
+                          align="llrrrlrl"))
+    out.append(p("Horizontal distance = sqrt(d² − Δh²) with d the 3-D distance and Δh the height of the antenna's "
+                 "centre above the level; 0 where the level lies farther than d below the antenna.", "small"))
+    out += _every_limit(res, width)
+        h_ant = heights.get(c.antenna)
     return out
 
 
@@ -245,6 +325,39 @@ def _exemption_number(res) -> str:
 def _places(res, width, numbers) -> list:
     out = [section_heading("4", "Places")]
     if not res.places:
+def _head_heights(res):
+    from rfsafe.site.plan import PLAN_LEVELS
+
+    return tuple(res.plan.heights_m["head"]) if res.plan is not None else PLAN_LEVELS["head"]
+
+
+def _every_limit(res, width) -> list:
+    """Where a standard sets more than one limit at a frequency (Safety Code 6 below 10 MHz: nerve stimulation,
+    compared with the field at PEP, beside the time-averaged limit), each limit's own distance."""
+    several = [c for c in res.configurations if len(c.limit_distances) > len(c.compliance_distances)]
+    if not several:
+        return []
+    nerve = res.standard == "sc6"
+    rows = []
+    for c in several:
+        governing = {(cd.environment, cd.limit_basis) for cd in c.compliance_distances}
+        for cd in c.limit_distances:
+            basis = ("nerve stimulation (instantaneous, field at PEP)" if nerve and cd.limit_basis == "instantaneous"
+                     else (f"{cd.limit_basis} (SAR-based)" if nerve else cd.limit_basis))
+            rows.append([c.id, cd.environment, basis, _QUANTITY.get(cd.governing, cd.governing),
+                         f"{_dist(cd.dist_m)} ({cd.dist_ft:.1f} ft)", num(cd.eirp_w),
+                         "governs" if (cd.environment, cd.limit_basis) in governing else "met within the governing "
+                         "distance", cd.limit_source])
+    title = "Nerve stimulation and time-averaged limits" if nerve else "Each limit on its own"
+    return [section_heading("3.2", title, level=1),
+            p("The standard sets more than one limit at these frequencies; each limit's own compliance distance "
+              "is shown, and the largest sets the distance in section 3.1.", "small"),
+            data_table(["configuration", "environment", "limit", "governs", "distance m", "EIRP compared W",
+                        "role", "limit source"], rows,
+                       [22 * mm, 20 * mm, 34 * mm, 13 * mm, 24 * mm, 17 * mm, 22 * mm, width - 152 * mm],
+                       align="lllrrrll")]
+
+
         out.append(p("No places are declared in the station file: only the compliance distances above were "
                      "evaluated.", "body"))
         return out
@@ -275,10 +388,18 @@ def _places(res, width, numbers) -> list:
             r += 1
             flag_ref = notes.ref(x.flags) if x.flags else ""
             method = x.method + (" · inside near field" if x.inside_near_field else "")
-            rows.append([f"{numbers[pl.label]} {pl.label}" if j == 0 else "", x.configuration, f"{x.dist_m:.2f}",
-                         f"{x.gain_dbi:.2f} {x.gain_method}", num(x.power_density_w_m2), num(x.e_field_v_m),
+            if x.power_density_limit_w_m2 is None:
+                s_text = "not defined"        # the standard sets no S limit here: S is not printed
+            elif x.near_field_ratio is not None and x.exposure_ratio == x.near_field_ratio:
+                s_text = num(x.power_density_w_m2) + " ‡"
+                plane_wave_note = True
+            else:
+                s_text = num(x.power_density_w_m2)
+            rows.append([f"{numbers[pl.label]} {pl.label}" if j == 0 else "", x.configuration, _dist(x.dist_m),
+                         f"{x.gain_dbi:.2f} {x.gain_method}", s_text, num(x.e_field_v_m),
                          num(x.h_field_a_m), ratio_text(x.exposure_ratio), margin_text(x.margin_db),
                          _governing(x.governing), (method + " " + flag_ref).strip()])
+    plane_wave_note = False
             if j == 0 and r > 1:
                 extra.append(("LINEABOVE", (0, r), (-1, r), 0.9, styles()["cell"].textColor))
     out.append(data_table(["place", "configuration", "dist m", "gain dBi", "S W/m²", "E V/m", "H A/m", "ratio",
@@ -288,7 +409,12 @@ def _places(res, width, numbers) -> list:
                           align="llrrrrrrrll", extra_style=extra, zebra=False))
     out.append(p("dist: straight-line distance from the antenna; gain: toward the place (pattern) or the peak gain; "
                  "governs: the quantity with the largest ratio (S power density, E or H field) and the limit's "
-                 "basis (avg = time-averaged, inst. = instantaneous, compared with PEP).", "small"))
+                 "basis (avg = time-averaged, inst. = instantaneous, compared with PEP). S \"not defined\": the "
+                 "standard sets no power-density limit at this frequency, so none is printed.", "small"))
+    if plane_wave_note:
+        out.append(p("‡ Near-field result: S is not a far-field power density but the plane-wave equivalent of the "
+                     "computed fields, the larger of E²/377 Ω and 377 Ω·H²; the ratio compares E and H with their "
+                     "own limits.", "small"))
     out.extend(notes.flowables())
     out.extend(near_field_comparison_section(res, width, numbers, "4.3"))
     if res.exemption is not None:
@@ -300,20 +426,28 @@ def _exemption(ex, width, number) -> list:
     out = [section_heading(number, "Exemption from routine evaluation, 47 CFR 1.1307(b)(3)", level=1)]
     status = "EXEMPT from routine evaluation" if ex.exempt else "NOT EXEMPT: a routine evaluation is required"
     out.append(p(f"Status: <b>{_esc(status)}</b>. Criterion: {_esc(ex.criterion)}. Sum of fractions: "
-                 f"{_esc(num(ex.sum_of_fractions))} (exempt needs at most 1).", "body", markup=True))
+                 f"{_esc(total_text)}.", "body", markup=True))
     notes = _Notes("e")
     rows = []
     for s in ex.per_source:
         ref = notes.ref(s.other_criteria) if s.other_criteria else ""
         rows.append([s.label, f"{s.criterion} ({s.reference}) {ref}".strip(), f"{num(s.value_w)} ({s.value_kind})",
-                     num(s.threshold_w), num(s.erp_w), num(s.fraction), margin_text(s.margin_db)])
+                     num(s.threshold_w) if s.threshold_w is not None else "none applies", num(s.erp_w),
+                     num(s.fraction) if finite else "–", margin_text(s.margin_db) if finite else "–"])
     if rows:
+    total = ex.sum_of_fractions
+    if total is None or not math.isfinite(float(total)):
+        total_text = ("not a number: at least one source has no applicable threshold (see its row), so the "
+                      "sources cannot be summed and exemption cannot be claimed")
+    else:
+        total_text = f"{num(total)} (exempt needs at most 1)"
         out.append(data_table(["source", "criterion (paragraph)", "value compared W", "threshold W", "ERP W",
                                "fraction", "margin dB"], rows,
                               [22 * mm, 58 * mm, 34 * mm, 18 * mm, 16 * mm, 15 * mm, width - 163 * mm],
                               align="lllrrrr"))
     if notes.texts:
         out.append(p("Other criteria considered:", "small"))
+        finite = s.fraction is not None and math.isfinite(float(s.fraction))
         out.extend(notes.flowables())
     for a in ex.assumptions:
         out.append(Paragraph(_esc(a), styles()["small"], bulletText="·"))
@@ -404,7 +538,7 @@ def _line_stress(res, width) -> list:
 
 # ------------------------------------------------------------------ 6 figures
 def _figures(res, width, numbers, extra_figures) -> list:
-    out = [PageBreak(), section_heading("6", "Figures")]
+    out = [CondPageBreak(120 * mm), section_heading("6", "Figures")]
     fig_w = width / 2 - 2 * mm
     out.append(section_heading("6.1", "Exposure ratio versus distance", level=1))
     out.append(p("Lines: the far-field peak-gain envelope of each configuration, ratio = (d/R)² with d the "
@@ -419,7 +553,7 @@ def _figures(res, width, numbers, extra_figures) -> list:
         cells.append([drawing, p(caption, "caption")])
     out.append(figure_grid(cells, width))
     out.append(exposure_legend(width))
-    out.append(PageBreak())
+    out.append(CondPageBreak(100 * mm))
     out.append(section_heading("6.2", "Standing wave along each feedline", level=1))
     out.append(p("|V| and |I| at PEP along the line (0 = transmitter end), from the line results. Dashed: the "
                  "voltage rating of the cable (along the whole line) and of each connector (over the end it sits "
@@ -441,13 +575,10 @@ def _figures(res, width, numbers, extra_figures) -> list:
 
 # ------------------------------------------------------------------ 7 cautions, 8 sign-off
 def _all_flags(res) -> list[str]:
-    seen: list[str] = []
-    texts = [f"configuration {c.id}: {f}" for c in res.configurations for f in c.flags]
-    texts += [f"place {pl.label}: {f}" for pl in res.places for f in pl.flags]
-    for text in texts:
-        if text not in seen:
-            seen.append(text)
-    return seen
+    """Every flag once, with the configurations (or places) it applies to."""
+    items = [(f"configuration {c.id}", f) for c in res.configurations for f in c.flags]
+    items += [(f"place {pl.label}", f) for pl in res.places for f in pl.flags]
+    return grouped_flags(items)
 
 
 def worksheet_story(result, *, extra_figures=()) -> list:
@@ -474,6 +605,7 @@ def worksheet_story(result, *, extra_figures=()) -> list:
     story.append(section_heading("7", "Cautions"))
     story += cautions_block(result.cautions, _all_flags(result))
     story.append(Spacer(1, 4 * mm))
+    story += _station(result, width, numbers)
     story.append(KeepTogether([section_heading("8", "Sign-off"),
                                p("Signed to confirm that the station file describes the station as operated "
                                  "and that the results, flags and cautions above were read.", "small"),
