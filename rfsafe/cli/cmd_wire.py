@@ -58,6 +58,9 @@ class WireResult:
     radiated_over_input_power: float
     points: tuple[WirePointResult, ...]
     cautions: tuple[str, ...]
+    load_power_over_input_power: float = 0.0
+    loads: tuple = ()                  # rfsafe.antenna.wire.loads.LoadStress, at input_power_w
+    common_mode: object = None         # rfsafe.antenna.wire.shield.CommonModeCurrent, or None
 
 
 def build_result(path: Path) -> WireResult:
@@ -91,7 +94,22 @@ def build_result(path: Path) -> WireResult:
                                           distance_to_wire_m=float(dist[j]),
                                           e_field_v_m=float(e[j]), h_field_a_m=float(h[j])))
         cautions.extend(sol.point_cautions(pts, [p.label for p in spec.points]))
+    from rfsafe.antenna.wire.loads import load_stress
+    from rfsafe.antenna.wire.shield import common_mode_current
+
+    loads = load_stress(sol, spec.input_power_w)
+    if loads:
+        cautions.append("Loads: voltages are peaks for input_power_w as a continuous carrier; give the "
+                        "transmitter's PEP at the antenna as input_power_w to read the voltage a trap or coil "
+                        "must withstand. A load's impedance is taken as declared at this one frequency.")
+    cm = common_mode_current(sol, spec.input_power_w, feed=spec.shield.feed) if spec.shield else None
+    if cm is not None:
+        cautions.append("Feedline shield: its outer surface is modelled as a bare wire along the declared route "
+                        "(jacket, equipment, mains and ground leads beyond the route are not modelled); the "
+                        "common-mode current depends strongly on the route length and what the far end "
+                        "connects to.")
     return WireResult(
+        load_power_over_input_power=sol.load_power_w / sol.input_power_w, loads=loads, common_mode=cm,
         file=str(path), method="thin-wire moment method (PWS Galerkin, reduced kernel)",
         freq_hz=sol.freq_hz, wavelength_m=sol.wavelength_m, ground=sol.ground,
         input_power_w=spec.input_power_w, num_segments=sol.num_segments, num_unknowns=sol.num_unknowns,
@@ -139,8 +157,32 @@ def wire(
         [["peak gain", f"{res.gain_dbi:.2f} dBi"],
          ["peak direction", f"azimuth {res.peak_azimuth_deg:.1f} deg, elevation {res.peak_elevation_deg:.1f} deg"],
          ["front-to-back", fb],
-         ["radiated / input power", f"{res.radiated_over_input_power:.5f}"]],
+         ["radiated / input power", f"{res.radiated_over_input_power:.5f}"]]
+        + ([["power in loads / input power", f"{res.load_power_over_input_power:.5f}"]] if res.loads else []),
         title="Pattern", align="ll"))
+    if res.loads:
+        typer.echo("")
+        typer.echo(output.format_table(
+            ["load", "impedance [ohm]", "I rms [A]", "V peak", "dissipated [W]", "rating [V peak]", "headroom"],
+            [[ld.label, _z(ld.impedance_ohm), f"{ld.current_a_rms:.4g}", f"{ld.voltage_v_peak:.4g}",
+              f"{ld.dissipated_w:.4g}",
+              "not rated" if ld.voltage_rating_v_peak is None else f"{ld.voltage_rating_v_peak:g}",
+              "-" if ld.voltage_headroom is None else f"{ld.voltage_headroom:.2f}x"] for ld in res.loads],
+            title=f"Lumped loads (at {res.input_power_w:g} W delivered to the antenna)"))
+    if res.common_mode is not None:
+        cm = res.common_mode
+        n = len(cm.distance_m)
+        rows = sorted(set(range(0, n, max(1, n // 10))) | {n - 1, cm.distance_m.index(cm.max_at_distance_m)})
+        typer.echo("")
+        choke = ("no choke" if cm.choke_impedance_ohm is None else
+                 f"choke {_z(cm.choke_impedance_ohm)} ohm at {cm.choke_distance_m:.3g} m")
+        typer.echo(output.format_table(
+            ["along route [m]", "x [m]", "y [m]", "z [m]", "I rms [A]"],
+            [[f"{cm.distance_m[j]:.3g}", *(f"{c:.3g}" for c in cm.position_m[j]), f"{cm.current_a_rms[j]:.4g}"]
+             for j in rows],
+            title=(f"Common-mode current on the feedline shield ({cm.route_length_m:.3g} m, far end {cm.far_end}, "
+                   f"{choke}); feed current {cm.feed_current_a_rms:.4g} A rms, largest common-mode "
+                   f"{cm.max_current_a_rms:.4g} A rms at {cm.max_at_distance_m:.3g} m")))
     if res.points:
         typer.echo("")
         typer.echo(output.format_table(

@@ -24,6 +24,7 @@ from __future__ import annotations
 import datetime as dt
 import io
 import math
+import re
 from functools import lru_cache
 from importlib import resources
 from xml.sax.saxutils import escape
@@ -43,7 +44,7 @@ from reportlab.platypus import (BaseDocTemplate, Frame, PageTemplate, Paragraph,
 __all__ = [
     "FONT", "FONT_BOLD", "PAGE", "PAGE_LANDSCAPE", "MARGIN", "COMPLIES_COLOR", "EXCEEDS_COLOR",
     "ACCENT", "GRID", "register_fonts", "styles", "p", "table_style", "data_table", "kv_table",
-    "verdict_box", "identity_block", "section_heading", "cautions_block", "signoff_block",
+    "verdict_box", "identity_block", "section_heading", "cautions_block", "signoff_block", "grouped_flags",
     "build_pdf", "frame_width", "fit_widths", "num", "ratio_text", "margin_text", "dist_text",
 ]
 
@@ -386,6 +387,45 @@ def signoff_block(width: float, *, evaluator: str = "", date: str = "") -> Table
 # ---------------------------------------------------------------- document
 def _pdf_date(date_iso: str):
     d = dt.date.fromisoformat(date_iso)
+_NEAR_DIST = re.compile(r"^(controlled|uncontrolled) compliance distance ([0-9.]+) m lies inside the "
+                        r"near-field boundary ([0-9.]+) m: (.*)$")
+
+
+def grouped_flags(items) -> list[str]:
+    """Each flag once, with the subjects (configurations, places) it applies to.
+
+    ``items`` are (subject, text) pairs in order. Identical texts are merged into one line naming
+    every subject; the per-environment "compliance distance inside the near-field boundary" flags
+    of all configurations become one line that lists each configuration's distances.
+    """
+    near: dict[str, list] = {}
+    near_tail = ""
+    texts: dict[str, list[str]] = {}
+    order: list[str] = []
+    for subject, text in items:
+        m = _NEAR_DIST.match(text)
+        if m:
+            env, d, boundary, near_tail = m.groups()
+            if not near:
+                order.append("\0near")
+            near.setdefault(subject, [boundary]).append(f"{env} {d} m")
+            continue
+        if text not in texts:
+            texts[text] = []
+            order.append(text)
+        if subject not in texts[text]:
+            texts[text].append(subject)
+    out = []
+    for key in order:
+        if key == "\0near":
+            parts = "; ".join(f"{subj}: {', '.join(v[1:])} (boundary {v[0]} m)" for subj, v in near.items())
+            out.append(f"Compliance distance inside the near-field boundary ({near_tail}): {parts}.")
+        else:
+            subjects = texts[key]
+            out.append(f"{', '.join(subjects)}: {key}")
+    return out
+
+
     return lambda *_: f"D:{d.year:04d}{d.month:02d}{d.day:02d}000000+00'00'"
 
 

@@ -30,7 +30,8 @@ import numpy as np
 
 from rfsafe.errors import InputError, bad_value
 
-__all__ = ["ExpandedShield", "check_shield", "expand_shield", "TAPER_PIECE_RADII"]
+__all__ = ["ExpandedShield", "check_shield", "expand_shield", "TAPER_PIECE_RADII", "CommonModeCurrent",
+           "common_mode_current"]
 
 #: Length of each radius-step piece between the antenna wire and the shield [its own radii].
 TAPER_PIECE_RADII = 10.0
@@ -49,6 +50,7 @@ class ExpandedShield:
     route_length_m: float
     choke_load: int | None             # index of the choke in ``spec.loads``
     feed_point_m: tuple[float, float, float]
+    far_end: str                       # "open" or "ground"
 
 
 def _arcs(points) -> np.ndarray:
@@ -234,4 +236,63 @@ def expand_shield(spec, feed_wires: tuple[int, ...], *, prefix: str = "") -> Exp
     new = spec.model_copy(update={"wires": wires, "feeds": feeds, "loads": loads, "shield": None})
     return ExpandedShield(spec=new, feed_wires=new_feed_wires, wire_fields=tuple(wire_fields),
                           load_fields=tuple(load_fields), route_wires=tuple(route_wires), route_length_m=route_len,
-                          choke_load=choke_load, feed_point_m=tuple(float(x) for x in p_feed))
+                          choke_load=choke_load, feed_point_m=tuple(float(x) for x in p_feed), far_end=sh.far_end)
+
+
+@dataclass(frozen=True)
+class CommonModeCurrent:
+    """Current on the outside of the feedline shield along its route, at a stated power."""
+
+    distance_m: tuple[float, ...]        # along the route from the feed point, at each node
+    position_m: tuple[tuple[float, float, float], ...]
+    current_a_rms: tuple[float, ...]
+    max_current_a_rms: float
+    max_at_distance_m: float
+    feed_current_a_rms: float            # the (differential) current into the antenna at that feed
+    route_length_m: float
+    choke_impedance_ohm: complex | None
+    choke_distance_m: float | None
+    far_end: str
+
+
+def common_mode_current(sol, input_power_w: float, *, feed: int = 0) -> CommonModeCurrent | None:
+    """The common-mode current along the shield route of a solution (None without a shield).
+
+    Parameters
+    ----------
+    sol : WireSolution
+        Solution of a wire antenna with a ``shield``.
+    input_power_w : float
+        Power delivered to the antenna [W] (the current scales with its square root).
+    feed : int
+        Feed whose current is reported beside it.
+    """
+    ex = sol.shield
+    if ex is None:
+        return None
+    st = sol.structure
+    scale = sol.power_scale(input_power_w)
+    dist, pos, cur = [], [], []
+    s0 = 0.0
+    for iw in ex.route_wires:
+        for q in np.nonzero(st.wire == iw)[0]:
+            if not dist:
+                dist.append(0.0)
+                pos.append(tuple(float(x) for x in st.start_m[q]))
+                cur.append(abs(sol.segment_current_a[q, 0]) * scale / math.sqrt(2))
+            s0 += float(st.length_m[q])
+            dist.append(s0)
+            pos.append(tuple(float(x) for x in st.end_m[q]))
+            cur.append(abs(sol.segment_current_a[q, 1]) * scale / math.sqrt(2))
+    j = int(np.argmax(cur))
+    choke_z = choke_d = None
+    if ex.choke_load is not None:
+        choke_z = complex(sol.load_impedance_ohm[ex.choke_load])
+        p = st.load_position_m[ex.choke_load]
+        choke_d = dist[int(np.argmin([math.dist(p, x) for x in pos]))]
+    return CommonModeCurrent(
+        distance_m=tuple(dist), position_m=tuple(pos), current_a_rms=tuple(float(c) for c in cur),
+        max_current_a_rms=float(cur[j]), max_at_distance_m=float(dist[j]),
+        feed_current_a_rms=abs(sol.feed_current_a[feed]) * scale / math.sqrt(2), route_length_m=ex.route_length_m,
+        choke_impedance_ohm=choke_z, choke_distance_m=choke_d,
+        far_end=ex.far_end)
