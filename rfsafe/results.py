@@ -10,7 +10,8 @@ from dataclasses import dataclass, field
 from typing import Any
 
 __all__ = ["ComplianceDistance", "AntennaSummary", "PlanMap", "WireSummary", "NearFieldMap", "ConfigurationResult", "PlaceExposure", "TransmitterShare",
-           "PlaceResult", "EvaluationResult", "CAUTIONS"]
+           "PlaceResult", "EvaluationResult", "CAUTIONS", "Remedy", "PlaceRemedies", "ConfigurationRemedies",
+           "GroundKeepOut"]
 
 #: Cautions carried by every output (in rfsafe's own words).
 CAUTIONS = (
@@ -210,6 +211,58 @@ class PlaceResult:
 
 
 @dataclass(frozen=True)
+class Remedy:
+    """One change that brings a place (or every place) to its limit, everything else unchanged.
+
+    Solved by re-running the whole evaluation with the parameter changed (see :mod:`rfsafe.remedies`).
+    """
+
+    parameter: str                 # pep_w, avg_power_w, schedule_on_minutes, line_loss_db, antenna_height_m, distance_m
+    applies_to: str                # e.g. "transmitter hf-amp", "configuration 20m-cw", "antenna beam", "place Garden"
+    current: float | None          # today's value (None where it has none)
+    value: float | None            # the answer; None when no value of the parameter helps (see status)
+    status: str                    # "solved", "already complies", "no value helps", "not applicable"
+    ratio_at_value: float | None   # the total exposure ratio re-evaluated with ``value``
+    text: str                      # one sentence for tables and the worksheet
+
+
+@dataclass(frozen=True)
+class PlaceRemedies:
+    """What would make one place that exceeds comply."""
+
+    place: str
+    environment: str
+    total_ratio: float
+    remedies: tuple[Remedy, ...]
+
+
+@dataclass(frozen=True)
+class ConfigurationRemedies:
+    """Per configuration: the values with which every place complies (headroom where it already does)."""
+
+    configuration: str
+    transmitter: str
+    antenna: str
+    remedies: tuple[Remedy, ...]
+
+
+@dataclass(frozen=True)
+class GroundKeepOut:
+    """Horizontal keep-out distance from the antenna's foot at one body level, one configuration alone."""
+
+    configuration: str
+    antenna: str
+    environment: str
+    level: str                     # e.g. "standing person (0.5-2 m)" or "upper floor 4.5 m"
+    heights_m: tuple[float, ...]   # heights evaluated, worst taken [m]
+    keep_out_m: float              # 0 when no point at these heights exceeds
+    compliance_dist_m: float       # the 3-D compliance distance (peak gain, far field) for comparison
+    directions: int                # horizontal directions examined (1 where the gain is the same in all)
+    method: str
+    text: str
+
+
+@dataclass(frozen=True)
 class EvaluationResult:
     """The whole evaluation of one station file."""
 
@@ -234,6 +287,10 @@ class EvaluationResult:
     exceeded: tuple[str, ...]               # one line per limit or rating exceeded
     method_notes: tuple[str, ...]
     cautions: tuple[str, ...] = field(default=CAUTIONS)
+    # filled by rfsafe.remedies.with_answers (empty unless asked for)
+    ground_keep_out: tuple[GroundKeepOut, ...] = ()
+    place_remedies: tuple[PlaceRemedies, ...] = ()
+    configuration_remedies: tuple[ConfigurationRemedies, ...] = ()
     file_standard: str = ""                 # the standard the station file names
     standard_overridden: bool = False       # True when --standard replaced the file's standard
     call_sign: str = ""

@@ -356,37 +356,6 @@ def cautions_block(cautions, flags=()) -> list:
     return out
 
 
-def signoff_block(width: float, *, evaluator: str = "", date: str = "") -> Table:
-    """Sign-off lines: evaluated by / date / signature, then reviewed by / date / signature.
-
-    The evaluator's name and the evaluation date are pre-printed small above the lines where
-    known; signature lines stay blank for ink. The table does not split across pages; wrap it
-    with its heading in one ``KeepTogether`` to keep both together.
-    """
-    line_h = 11 * mm
-    cols = [width * 0.42, width * 0.22, width * 0.36]
-
-    def row(label, prefill_name, prefill_date):
-        return [[p(f"{label}", "kv_key"), p("Date", "kv_key"), p("Signature", "kv_key")],
-                [p(prefill_name, "small"), p(prefill_date, "small"), ""]]
-
-    data = row("Evaluated by (name)", evaluator, date) + row("Reviewed by (name)", "", "")
-    t = Table(data, colWidths=cols, rowHeights=[None, line_h, None, line_h], hAlign="LEFT")
-    t.setStyle(TableStyle([
-        ("FONTNAME", (0, 0), (-1, -1), FONT),
-        ("VALIGN", (0, 0), (-1, -1), "TOP"),
-        ("LINEBELOW", (0, 1), (-1, 1), 0.8, colors.black),
-        ("LINEBELOW", (0, 3), (-1, 3), 0.8, colors.black),
-        ("TOPPADDING", (0, 2), (-1, 2), 8),
-        ("LEFTPADDING", (0, 0), (-1, -1), 3),
-        ("RIGHTPADDING", (0, 0), (-1, -1), 8),
-    ]))
-    return t
-
-
-# ---------------------------------------------------------------- document
-def _pdf_date(date_iso: str):
-    d = dt.date.fromisoformat(date_iso)
 _NEAR_DIST = re.compile(r"^(controlled|uncontrolled) compliance distance ([0-9.]+) m lies inside the "
                         r"near-field boundary ([0-9.]+) m: (.*)$")
 
@@ -426,6 +395,37 @@ def grouped_flags(items) -> list[str]:
     return out
 
 
+def signoff_block(width: float, *, evaluator: str = "", date: str = "") -> Table:
+    """Sign-off lines: evaluated by / date / signature, then reviewed by / date / signature.
+
+    The evaluator's name and the evaluation date are pre-printed small above the lines where
+    known; signature lines stay blank for ink. The table does not split across pages; wrap it
+    with its heading in one ``KeepTogether`` to keep both together.
+    """
+    line_h = 11 * mm
+    cols = [width * 0.42, width * 0.22, width * 0.36]
+
+    def row(label, prefill_name, prefill_date):
+        return [[p(f"{label}", "kv_key"), p("Date", "kv_key"), p("Signature", "kv_key")],
+                [p(prefill_name, "small"), p(prefill_date, "small"), ""]]
+
+    data = row("Evaluated by (name)", evaluator, date) + row("Reviewed by (name)", "", "")
+    t = Table(data, colWidths=cols, rowHeights=[None, line_h, None, line_h], hAlign="LEFT")
+    t.setStyle(TableStyle([
+        ("FONTNAME", (0, 0), (-1, -1), FONT),
+        ("VALIGN", (0, 0), (-1, -1), "TOP"),
+        ("LINEBELOW", (0, 1), (-1, 1), 0.8, colors.black),
+        ("LINEBELOW", (0, 3), (-1, 3), 0.8, colors.black),
+        ("TOPPADDING", (0, 2), (-1, 2), 8),
+        ("LEFTPADDING", (0, 0), (-1, -1), 3),
+        ("RIGHTPADDING", (0, 0), (-1, -1), 8),
+    ]))
+    return t
+
+
+# ---------------------------------------------------------------- document
+def _pdf_date(date_iso: str):
+    d = dt.date.fromisoformat(date_iso)
     return lambda *_: f"D:{d.year:04d}{d.month:02d}{d.day:02d}000000+00'00'"
 
 

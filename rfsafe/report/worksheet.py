@@ -154,15 +154,6 @@ def _coloured(text: str, ok: bool, style: str = "cell") -> Paragraph:
                      f'{_esc(text)}</font>', styles()[style])
 
 
-# ------------------------------------------------------------------ 2 method
-def _method(res, width) -> list:
-    out = [section_heading("2", "Method and assumptions")]
-    for note in res.method_notes:
-        out.append(Paragraph(_esc(note), styles()["bullet"], bulletText="•"))
-    methods = sorted({c.method for c in res.configurations})
-    for m in methods:
-        out.append(Paragraph(_esc(f"Exposure method: {m}."), styles()["bullet"], bulletText="•"))
-    out.append(Spacer(1, 2 * mm))
 # ------------------------------------------------------------------ 1 station
 def _station(res, width, numbers) -> list:
     """Section 1: the plan, the antennas and the places, as declared."""
@@ -221,6 +212,15 @@ def _dist(x) -> str:
     return f"{x:.2f}" if a < 10 else (f"{x:.1f}" if a < 100 else f"{x:.0f}")
 
 
+# ------------------------------------------------------------------ 2 method
+def _method(res, width) -> list:
+    out = [section_heading("2", "Method and assumptions")]
+    for note in res.method_notes:
+        out.append(Paragraph(_esc(note), styles()["bullet"], bulletText="•"))
+    methods = sorted({c.method for c in res.configurations})
+    for m in methods:
+        out.append(Paragraph(_esc(f"Exposure method: {m}."), styles()["bullet"], bulletText="•"))
+    out.append(Spacer(1, 2 * mm))
     rows = []
     for c in res.configurations:
         gain_methods = sorted({x.gain_method for pl in res.places for x in pl.exposures
@@ -286,6 +286,7 @@ def _configurations(res, width) -> list:
         out.append(data_table(["quantity"] + [c.id for c in chunk], rows, [label_w] + [col_w] * len(chunk)))
         out.append(Spacer(1, 3 * mm))
     out.append(section_heading("3.1", "Compliance distances", level=1))
+    heads = _head_heights(res)
     out.append(p("Distance from the antenna beyond which each environment's limit is met, with peak gain and "
                  "the far-field prediction: straight-line (3-D) distance from the antenna's centre of radiation, "
                  "and the horizontal distance from the point below it at ground level (0 m) and at head height "
@@ -294,6 +295,7 @@ def _configurations(res, width) -> list:
     rows = []
     heights = {a.id: a.height_m for a in res.antennas}
     for c in res.configurations:
+        h_ant = heights.get(c.antenna)
         for cd in c.compliance_distances:
             if h_ant is None:
                 ground = head = "–"
@@ -302,7 +304,6 @@ def _configurations(res, width) -> list:
                 head = _dist(float(horizontal_compliance_distance_m(cd.dist_m, min(abs(h_ant - z) for z in heads))))
             rows.append([c.id, cd.environment, f"{_dist(cd.dist_m)} ({cd.dist_ft:.1f} ft)", ground, head,
                          f"{cd.limit_basis}, {_QUANTITY.get(cd.governing, cd.governing)}",
-    heads = _head_heights(res)
                          num(cd.eirp_w), ("YES, inside " if cd.inside_near_field else "no; ") + _boundary_text(c)])
     out.append(data_table(["configuration", "environment", "3-D distance m", "horizontal at ground m",
                            "horizontal at head height m", "limit basis, governs", "EIRP compared W",
@@ -312,19 +313,9 @@ def _configurations(res, width) -> list:
     out.append(p("Horizontal distance = sqrt(d² − Δh²) with d the 3-D distance and Δh the height of the antenna's "
                  "centre above the level; 0 where the level lies farther than d below the antenna.", "small"))
     out += _every_limit(res, width)
-        h_ant = heights.get(c.antenna)
     return out
 
 
-# ------------------------------------------------------------------ 4 places
-def _exemption_number(res) -> str:
-    """4.3, or 4.4 when the near-field comparison takes 4.3."""
-    return "4.4" if comparison_exposures(res) else "4.3"
-
-
-def _places(res, width, numbers) -> list:
-    out = [section_heading("4", "Places")]
-    if not res.places:
 def _head_heights(res):
     from rfsafe.site.plan import PLAN_LEVELS
 
@@ -358,6 +349,15 @@ def _every_limit(res, width) -> list:
                        align="lllrrrll")]
 
 
+# ------------------------------------------------------------------ 4 places
+def _exemption_number(res) -> str:
+    """4.3, or 4.4 when the near-field comparison takes 4.3."""
+    return "4.4" if comparison_exposures(res) else "4.3"
+
+
+def _places(res, width, numbers) -> list:
+    out = [section_heading("4", "Places")]
+    if not res.places:
         out.append(p("No places are declared in the station file: only the compliance distances above were "
                      "evaluated.", "body"))
         return out
@@ -383,6 +383,7 @@ def _every_limit(res, width) -> list:
     rows = []
     extra = []
     r = 0
+    plane_wave_note = False
     for pl in res.places:
         for j, x in enumerate(pl.exposures):
             r += 1
@@ -399,7 +400,6 @@ def _every_limit(res, width) -> list:
                          f"{x.gain_dbi:.2f} {x.gain_method}", s_text, num(x.e_field_v_m),
                          num(x.h_field_a_m), ratio_text(x.exposure_ratio), margin_text(x.margin_db),
                          _governing(x.governing), (method + " " + flag_ref).strip()])
-    plane_wave_note = False
             if j == 0 and r > 1:
                 extra.append(("LINEABOVE", (0, r), (-1, r), 0.9, styles()["cell"].textColor))
     out.append(data_table(["place", "configuration", "dist m", "gain dBi", "S W/m²", "E V/m", "H A/m", "ratio",
@@ -425,29 +425,29 @@ def _every_limit(res, width) -> list:
 def _exemption(ex, width, number) -> list:
     out = [section_heading(number, "Exemption from routine evaluation, 47 CFR 1.1307(b)(3)", level=1)]
     status = "EXEMPT from routine evaluation" if ex.exempt else "NOT EXEMPT: a routine evaluation is required"
-    out.append(p(f"Status: <b>{_esc(status)}</b>. Criterion: {_esc(ex.criterion)}. Sum of fractions: "
-                 f"{_esc(total_text)}.", "body", markup=True))
-    notes = _Notes("e")
-    rows = []
-    for s in ex.per_source:
-        ref = notes.ref(s.other_criteria) if s.other_criteria else ""
-        rows.append([s.label, f"{s.criterion} ({s.reference}) {ref}".strip(), f"{num(s.value_w)} ({s.value_kind})",
-                     num(s.threshold_w) if s.threshold_w is not None else "none applies", num(s.erp_w),
-                     num(s.fraction) if finite else "–", margin_text(s.margin_db) if finite else "–"])
-    if rows:
     total = ex.sum_of_fractions
     if total is None or not math.isfinite(float(total)):
         total_text = ("not a number: at least one source has no applicable threshold (see its row), so the "
                       "sources cannot be summed and exemption cannot be claimed")
     else:
         total_text = f"{num(total)} (exempt needs at most 1)"
+    out.append(p(f"Status: <b>{_esc(status)}</b>. Criterion: {_esc(ex.criterion)}. Sum of fractions: "
+                 f"{_esc(total_text)}.", "body", markup=True))
+    notes = _Notes("e")
+    rows = []
+    for s in ex.per_source:
+        ref = notes.ref(s.other_criteria) if s.other_criteria else ""
+        finite = s.fraction is not None and math.isfinite(float(s.fraction))
+        rows.append([s.label, f"{s.criterion} ({s.reference}) {ref}".strip(), f"{num(s.value_w)} ({s.value_kind})",
+                     num(s.threshold_w) if s.threshold_w is not None else "none applies", num(s.erp_w),
+                     num(s.fraction) if finite else "–", margin_text(s.margin_db) if finite else "–"])
+    if rows:
         out.append(data_table(["source", "criterion (paragraph)", "value compared W", "threshold W", "ERP W",
                                "fraction", "margin dB"], rows,
                               [22 * mm, 58 * mm, 34 * mm, 18 * mm, 16 * mm, 15 * mm, width - 163 * mm],
                               align="lllrrrr"))
     if notes.texts:
         out.append(p("Other criteria considered:", "small"))
-        finite = s.fraction is not None and math.isfinite(float(s.fraction))
         out.extend(notes.flowables())
     for a in ex.assumptions:
         out.append(Paragraph(_esc(a), styles()["small"], bulletText="·"))
@@ -596,6 +596,7 @@ def worksheet_story(result, *, extra_figures=()) -> list:
     numbers = {pl.label: f"P{i + 1}" for i, pl in enumerate(result.places)}
     story = []
     story += _identity(result, width)
+    story += _station(result, width, numbers)
     story += _method(result, width)
     story += _configurations(result, width)
     story += _places(result, width, numbers)
@@ -605,7 +606,6 @@ def worksheet_story(result, *, extra_figures=()) -> list:
     story.append(section_heading("7", "Cautions"))
     story += cautions_block(result.cautions, _all_flags(result))
     story.append(Spacer(1, 4 * mm))
-    story += _station(result, width, numbers)
     story.append(KeepTogether([section_heading("8", "Sign-off"),
                                p("Signed to confirm that the station file describes the station as operated "
                                  "and that the results, flags and cautions above were read.", "small"),
