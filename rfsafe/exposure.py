@@ -13,7 +13,7 @@ from rfsafe.units import C0_M_S
 __all__ = [
     "ETA_STANDARDS_OHM", "GROUND_FACTORS", "far_field_power_density_w_m2", "plane_wave_fields",
     "ratio_at", "compliance_distance_m", "near_field_distance_m", "aperture_far_field_distance_m",
-    "margin_db",
+    "margin_db", "ratio_at_horizontal_distance", "horizontal_compliance_distance_m",
 ]
 
 #: Wave impedance used by exposure standards to relate S, E and H [ohm] (OET 65: S = E^2/3770 in mW/cm^2).
@@ -98,6 +98,52 @@ def compliance_distance_m(eirp_w: float, ground_factor: float, limit) -> float:
     """
     s1 = far_field_power_density_w_m2(eirp_w, 1.0, ground_factor)
     return float(np.sqrt(ratio_at(limit, s1)))
+
+
+def ratio_at_horizontal_distance(compliance_dist_m, horizontal_dist_m, height_difference_m):
+    """Far-field exposure ratio at a horizontal distance from the antenna's foot, at another height.
+
+    Under the far-field prediction every ratio falls as 1/R^2, so with the 3-D compliance distance
+    d (ratio 1 at R = d) the ratio at horizontal distance rho and height difference dz is
+    ``d^2 / (rho^2 + dz^2)``.
+
+    Parameters
+    ----------
+    compliance_dist_m : float or array_like
+        3-D compliance distance (see :func:`compliance_distance_m`) [m].
+    horizontal_dist_m : float or array_like
+        Horizontal distance from the point below the antenna's centre of radiation [m].
+    height_difference_m : float
+        Height of the antenna's centre of radiation above the evaluation height [m].
+
+    Returns
+    -------
+    float or ndarray
+        Exposure ratio [1] (peak gain toward the point, as the compliance distance assumes).
+
+    References
+    ----------
+    .. [1] FCC OET Bulletin 65 (1997), section 2: far-field prediction S = EIRP F / (4 pi R^2),
+       with R the straight-line distance.
+    """
+    d = np.asarray(compliance_dist_m, dtype=float)
+    r2 = np.asarray(horizontal_dist_m, dtype=float) ** 2 + float(height_difference_m) ** 2
+    with np.errstate(divide="ignore"):
+        return d ** 2 / r2
+
+
+def horizontal_compliance_distance_m(compliance_dist_m, height_difference_m):
+    """Horizontal distance from the antenna's foot beyond which the far-field ratio is at most 1 [m].
+
+    ``sqrt(d^2 - dz^2)``, or 0 where the height difference alone exceeds the 3-D compliance
+    distance d (nobody at that height is above the limit).
+
+    References
+    ----------
+    .. [1] FCC OET Bulletin 65 (1997), section 2 (far-field prediction; R the straight-line distance).
+    """
+    d = np.asarray(compliance_dist_m, dtype=float)
+    return np.sqrt(np.maximum(d ** 2 - float(height_difference_m) ** 2, 0.0))
 
 
 def near_field_distance_m(freq_hz):

@@ -140,9 +140,9 @@ def _contour_label(quantity: str, env: str, field, max_ratio: float) -> str:
     return f"{name} (max ratio {num(max_ratio)})"
 
 
-def _place_labels(ax, marks, obstacle_xy, renderer):
+def _place_labels(ax, marks, obstacle_xy, renderer, colors=None):
     """Label each place marker on the side where the text stays in the axes and covers the fewest wire and
-    contour points, other markers and labels."""
+    contour points, other markers and labels (``colors``: one text colour per mark, default black)."""
     import numpy as np
 
     axbox = ax.get_window_extent(renderer)
@@ -151,11 +151,11 @@ def _place_labels(ax, marks, obstacle_xy, renderer):
     taken_boxes = []
     offsets = [(6, 5, "left", "bottom"), (6, -5, "left", "top"), (-6, 5, "right", "bottom"),
                (-6, -5, "right", "top"), (0, 8, "center", "bottom"), (0, -8, "center", "top")]
-    for x, y, text in marks:
+    for k, (x, y, text) in enumerate(marks):
         best = None
         for dx, dy, ha, va in offsets:
             t = ax.annotate(text, (x, y), xytext=(dx, dy), textcoords="offset points", ha=ha, va=va, fontsize=7.5,
-                            fontweight="bold",
+                            fontweight="bold", color=colors[k] if colors else "black",
                             zorder=12, bbox=dict(boxstyle="round,pad=0.18", facecolor="white", edgecolor="none",
                                                  alpha=0.85))
             box = t.get_window_extent(renderer).expanded(1.04, 1.1)
