@@ -341,7 +341,8 @@ def _far_field_at(em: Emitter, loaded: LoadedStation, place, z_m: float):
 #: body (all five, from memory: OET Bulletin 65 section 2 and its spatial-averaging discussion; ICNIRP 2020
 #: and 1998 whole-body reference levels; IEEE C95.1-2019 spatial averaging of exposure reference levels;
 #: Safety Code 6 (2015) spatially averaged reference levels).
-SPATIAL_AVERAGE_ALLOWED = {"fcc": True, "icnirp2020": True, "icnirp1998": True, "ieee2019": True, "sc6": True}
+SPATIAL_AVERAGE_ALLOWED = {"fcc": True, "icnirp2020": True, "icnirp1998": True, "ieee2019": True, "sc6": True,
+                           "eu1999": True}
 
 
 def _near_field_at(em: Emitter, solution, place, heights, field: str, average: bool = False):

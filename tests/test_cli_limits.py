@@ -87,8 +87,8 @@ def test_sc6_json_has_instantaneous_entry_below_10_mhz():
 
 def test_compare_lists_every_standard_and_both_environments():
     data = entries("--compare", "14.2")
-    assert sorted({e["standard"] for e in data}) == sorted(["fcc", "icnirp2020", "icnirp1998", "ieee2019", "sc6"])
-    assert len(data) == 10
+    assert sorted({e["standard"] for e in data}) == sorted(["fcc", "icnirp2020", "icnirp1998", "ieee2019", "sc6", "eu1999"])
+    assert len(data) == 12   # six standards, two environments each (eu1999 gives the public levels to both)
     assert all(e["freq_mhz"] == 14.2 for e in data)
 
 
@@ -112,7 +112,7 @@ def test_table_mode_shows_units_markers_and_sources():
 
 @pytest.mark.parametrize("args,line", [
     (["nist", "14.2"], 'Error: standard: "nist" is not a known standard (known: "fcc", "icnirp2020", '
-                       '"icnirp1998", "ieee2019", "sc6")'),
+                       '"icnirp1998", "ieee2019", "sc6", "eu1999")'),
     (["fcc", "0.1"], 'Error: freq_mhz: 0.1 is outside the range of standard "fcc" (0.3 to 100000 MHz)'),
     (["icnirp2020", "400000"], 'Error: freq_mhz: 400000 is outside the range of standard "icnirp2020" '
                                '(0.1 to 300000 MHz)'),
@@ -122,7 +122,7 @@ def test_table_mode_shows_units_markers_and_sources():
                                            "`rfsafe limits STANDARD FREQ_MHZ...` or `rfsafe limits --compare FREQ_MHZ`)"),
     (["--compare", "500000"], "Error: --compare: 500000 is outside the range of every standard (fcc (0.3 to "
                               "100000 MHz), icnirp2020 (0.1 to 300000 MHz), icnirp1998 (0.1 to 300000 MHz), "
-                              "ieee2019 (0.1 to 300000 MHz), sc6 (0.003 to 300000 MHz))"),
+                              "ieee2019 (0.1 to 300000 MHz), sc6 (0.003 to 300000 MHz), eu1999 (0.1 to 300000 MHz))"),
 ])
 def test_bad_input_gives_one_error_line_and_exit_2(args, line):
     result = run(*args)

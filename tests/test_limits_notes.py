@@ -18,6 +18,8 @@ from pathlib import Path
 
 import pytest
 
+from rfsafe.verification import state_of
+
 NOTES = Path(__file__).resolve().parent.parent / "standards_notes"
 MARK = re.compile(r"<!-- limits-table: (\w+) -->")
 NUM = r"(\d+(?:\.\d+)?(?:e-?\d+)?)"
@@ -87,7 +89,8 @@ TABLES = note_tables()
 
 def test_every_data_table_is_printed_in_a_note():
     assert set(TABLES) == set(SOURCES["tables"])
-    expected = {"fcc.md", "icnirp2020.md", "icnirp1998.md", "ieee2019.md", "sc6.md", "fcc_exemption.md"}
+    expected = {"fcc.md", "icnirp2020.md", "icnirp1998.md", "ieee2019.md", "sc6.md", "fcc_exemption.md",
+                "eu1999.md"}
     assert {p.name for p in NOTES.glob("*.md")} >= expected
 
 
@@ -127,6 +130,8 @@ def test_limit_table_in_note_matches_csv(name):
         avg = row["averaging (min)"]
         assert approx_law(parse_formula(avg), csv_law(rec, "averaging_minutes", "averaging_exp")), where
         assert (avg == "instantaneous") == (rec["basis"] == "instantaneous"), where
+        # the note's "checked" column states the row's verification as the CSV holds it
+        assert row["checked"] == state_of(rec["verification"]), where
 
 
 def test_exemption_erp_table_in_note_matches_csv():
@@ -140,6 +145,7 @@ def test_exemption_erp_table_in_note_matches_csv():
         assert "R^2" in cell
         formula = re.sub(r"\s+", " ", cell.replace("R^2", "")).replace(" /", "/").strip()
         assert approx_law(parse_formula(formula), (float(rec["erp_coef_w"]), float(rec["freq_exp"]))), cell
+        assert row["checked"] == state_of(rec["verification"]), cell
 
 
 def test_notes_say_what_could_not_be_verified():
@@ -147,3 +153,26 @@ def test_notes_say_what_could_not_be_verified():
         text = path.read_text(encoding="utf-8")
         assert "## What could not be verified" in text and "from memory" in text, path.name
         assert "## Source" in text and "## How rfsafe applies it" in text, path.name
+
+
+@pytest.mark.parametrize("name", sorted(SOURCES["tables"]))
+def test_verification_paragraph_agrees_with_the_data(name):
+    # Every note has a "## Verification" paragraph; a note whose tables hold a row read in the
+    # published text or a reproduction says where it was read, and one whose rows are all
+    # "not confirmed" says so. The row-by-row states are compared above ("checked" column).
+    note, _ = TABLES[name]
+    text = (NOTES / note).read_text(encoding="utf-8")
+    assert "## Verification" in text, note
+    para = text.split("## Verification", 1)[1].split("\n## ", 1)[0]
+    states = {state_of(r["verification"]) for r in csv_rows(SOURCES["tables"][name]["file"])}
+    if states & {"published text", "reproduction", "partly"}:
+        assert "Read in" in para or "read in" in para, note
+    if "not confirmed" in states:
+        assert "not confirmed" in text.split("## Verification", 1)[1], note
+    if states == {"not confirmed"}:
+        assert "not confirmed" in para, note
+
+
+def test_every_standard_has_a_note():
+    for sid in SOURCES["standards"]:
+        assert (NOTES / f"{sid}.md").is_file(), sid

@@ -40,7 +40,7 @@ CASES = [
     ("unknown environment", ('environment = "controlled"', 'environment = "staff"'),
      "places[1].environment: \"staff\" is not accepted (accepted: 'controlled' or 'uncontrolled')"),
     ("unknown standard", ('standard = "fcc"', 'standard = "fcc2"'),
-     "standard: \"fcc2\" is not accepted (accepted: 'fcc', 'icnirp2020', 'icnirp1998', 'ieee2019' or 'sc6')"),
+     "standard: \"fcc2\" is not accepted (accepted: 'fcc', 'icnirp2020', 'icnirp1998', 'ieee2019', 'sc6' or 'eu1999')"),
     ("unknown cable class", ('cable = "rg-213"', 'cable = "rg-999"'),
      None),  # message from rfsafe.feedline, checked to name the field below
     ("unknown mode", ('mode = "ssb"', 'mode = "olivia-x"'),

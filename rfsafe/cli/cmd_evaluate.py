@@ -90,7 +90,7 @@ def render_evaluation(res) -> str:
 
 def evaluate(file: Path = typer.Argument(..., help="Station file (.toml)."),
              standard: str = typer.Option(None, "--standard",
-                                          help="Override the file's standard: fcc, icnirp2020, icnirp1998, ieee2019, sc6."),
+                                          help="Override the file's standard: fcc, icnirp2020, icnirp1998, ieee2019, sc6, eu1999."),
              json_out: bool = typer.Option(False, "--json", help="Print one JSON document instead of tables.")) -> None:
     """Evaluate a station: exposure at every place, compliance distances, line stress.
 

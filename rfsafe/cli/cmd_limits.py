@@ -15,7 +15,7 @@ _HELP = """Show exposure limits (reference levels) at one or more frequencies.
   rfsafe limits STANDARD FREQ_MHZ... [--json]
   rfsafe limits --compare FREQ_MHZ [--json]
 
-STANDARD is one of fcc, icnirp2020, icnirp1998, ieee2019, sc6. Both environments
+STANDARD is one of fcc, icnirp2020, icnirp1998, ieee2019, sc6, eu1999. Both environments
 (controlled and uncontrolled) are shown, with power density in the standard's
 published unit and in W/m^2, E [V/m rms], H [A/m rms], the averaging time and the
 source of each row. Values marked '*' are derived (plane wave, 377 ohm), not tabulated.
@@ -120,7 +120,7 @@ def _cautions(entries: list[dict]) -> None:
 
 def limits_command(
     standard: Optional[str] = typer.Argument(None, metavar="STANDARD",
-                                             help="fcc, icnirp2020, icnirp1998, ieee2019 or sc6."),
+                                             help="fcc, icnirp2020, icnirp1998, ieee2019, sc6 or eu1999."),
     freqs_mhz: Optional[list[str]] = typer.Argument(None, metavar="FREQ_MHZ...",
                                                     help="Frequencies [MHz]."),
     compare: Optional[str] = typer.Option(None, "--compare", metavar="FREQ_MHZ",

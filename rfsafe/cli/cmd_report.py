@@ -18,7 +18,7 @@ def report(file: Path = typer.Argument(..., help="Station file (.toml)."),
            force: bool = typer.Option(False, "--force", help="Overwrite an existing PDF."),
            standard: str = typer.Option(None, "--standard",
                                         help="Override the file's standard: fcc, icnirp2020, icnirp1998, "
-                                             "ieee2019, sc6.")) -> None:
+                                             "ieee2019, sc6, eu1999.")) -> None:
     """Evaluate a station and write a reproducible PDF worksheet ready to sign.
 
     The worksheet holds the identity of the evaluation (with the SHA-256 of the station file),

@@ -4,10 +4,15 @@ A source (or a set of sources) that meets one of these tests is exempt from the
 duty to perform a *routine evaluation*. It is never exempt from the exposure
 limits of 47 CFR 1.1310 themselves: the station must comply either way.
 
-Implemented: the 1 mW test (b)(3)(i)(A); the SAR-based threshold P_th for
+Implemented: the 1 mW test (b)(3)(i)(A) (available power less than 1 mW); the SAR-based threshold P_th for
 0.5-40 cm and 0.3-6 GHz (b)(3)(i)(B); the MPE-based ERP thresholds of Table 1 to
 (b)(3)(i)(C), valid only for R >= lambda/2pi; and, for several sources, the
 total-power form of (b)(3)(ii)(A) and the sum of fractions (b)(3)(ii)(B).
+
+Verification: the 1 mW test, Table 1 of (i)(C) and the sum of fractions were read in the eCFR text of
+47 CFR 1.1307 after FCC 19-126; the constants of the SAR-based formula (i)(B) appear there only as an
+image and were not read (``not confirmed``). Each per-source result carries its criterion's state.
+At an exact band edge of Table 1 the smaller threshold of the two adjoining rows applies.
 """
 
 from __future__ import annotations
@@ -32,6 +37,15 @@ _C0_M_S = 299_792_458.0
 #: Gain of a half-wave dipole over isotropic [dB], as used for ERP (common practice: 1.64).
 _DIPOLE_DBI = 2.15
 _ONE_MW_W = 1e-3
+#: Verification state of each criterion (see rfsafe.verification).
+VERIFICATION = {
+    "1 mW": "read in 47 CFR 1.1307(b)(3)(i)(A) (eCFR text after FCC 19-126)",
+    "1 mW total": "read in 47 CFR 1.1307(b)(3)(ii)(A) (eCFR text after FCC 19-126)",
+    "SAR-based threshold": ("not confirmed (the constants of 47 CFR 1.1307(b)(3)(i)(B) appear in the eCFR "
+                            "only as an image and were not read)"),
+    "sum of fractions": "read in 47 CFR 1.1307(b)(3)(ii)(B) (eCFR text after FCC 19-126)",
+    "none applicable": "not confirmed",
+}
 _SAR_FREQ_GHZ = (0.3, 6.0)
 _SAR_SEPARATION_CM = (0.5, 40.0)
 
@@ -105,6 +119,9 @@ class SourceExemption:
     other_criteria : tuple[str, ...]
         Why the other criteria were not used for this source (not applicable, or a
         larger fraction).
+    threshold_verification : str
+        Whether the criterion's threshold was read in the published text (see
+        :mod:`rfsafe.verification`); for the MPE-based table, the state of the row used.
     """
 
     label: str
@@ -117,6 +134,7 @@ class SourceExemption:
     fraction: float
     margin_db: float | None
     other_criteria: tuple[str, ...]
+    threshold_verification: str = "not confirmed"
 
 
 @dataclass(frozen=True)
@@ -243,7 +261,7 @@ def sar_threshold_w(freq_hz: float, separation_m: float) -> float:
 
 
 @lru_cache(maxsize=1)
-def _mpe_table() -> tuple[tuple[float, float, float, float, str], ...]:
+def _mpe_table() -> tuple[tuple[float, float, float, float, str, str], ...]:
     text = resources.files("rfsafe.limits").joinpath("data", "fcc_1307_b3_erp_table1.csv").read_text(
         encoding="utf-8")
     lines = [ln for ln in text.splitlines() if not ln.startswith("#")]
@@ -252,7 +270,8 @@ def _mpe_table() -> tuple[tuple[float, float, float, float, str], ...]:
         if rec["freq_unit"] != "MHz":
             raise RuntimeError("fcc_1307_b3_erp_table1.csv: frequencies must be in MHz")
         rows.append((float(rec["freq_min"]) * 1e6, float(rec["freq_max"]) * 1e6,
-                     float(rec["erp_coef_w"]), float(rec["freq_exp"]), rec["source"]))
+                     float(rec["erp_coef_w"]), float(rec["freq_exp"]), rec["source"],
+                     rec.get("verification", "") or "not confirmed"))
     return tuple(rows)
 
 
@@ -299,10 +318,22 @@ def mpe_erp_threshold_w(freq_hz: float, separation_m: float) -> tuple[float, str
     InputError
         Outside 0.3 MHz-100 GHz, or R < lambda/2pi (the table does not apply).
 
+    Notes
+    -----
+    At an exact band edge (1.34, 30, 300, 1500 MHz) the smaller of the two rows' thresholds
+    applies: the text does not say to which row an edge belongs, and the smaller threshold
+    cannot grant an exemption the other row would refuse.
+
     References
     ----------
-    47 CFR 1.1307(b)(3)(i)(C), Table 1 (from memory).
+    47 CFR 1.1307(b)(3)(i)(C), Table 1 (read in the eCFR text after FCC 19-126).
     """
+    threshold, source, _ = _mpe_row(freq_hz, separation_m)
+    return threshold, source
+
+
+def _mpe_row(freq_hz: float, separation_m: float) -> tuple[float, str, str]:
+    """(threshold [W], source, verification) of Table 1 to (b)(3)(i)(C); see :func:`mpe_erp_threshold_w`."""
     rows = _mpe_table()
     f_mhz = freq_hz / 1e6
     if not rows[0][0] <= freq_hz <= rows[-1][1]:
@@ -313,9 +344,15 @@ def mpe_erp_threshold_w(freq_hz: float, separation_m: float) -> tuple[float, str
         raise bad_value("separation_m", separation_m,
                         f"is less than lambda/2pi = {r_min:.4g} m at {f_mhz:g} MHz, where Table 1 "
                         "to 47 CFR 1.1307(b)(3)(i)(C) does not apply")
-    for lo, hi, coef, exp, source in rows:
-        if lo <= freq_hz < hi or freq_hz == hi == rows[-1][1]:
-            return coef * separation_m ** 2 * f_mhz ** exp, source
+    hits = [(coef * separation_m ** 2 * f_mhz ** exp, source, ver)
+            for lo, hi, coef, exp, source, ver in rows
+            if lo <= freq_hz <= hi or math.isclose(freq_hz, lo, rel_tol=1e-12)
+            or math.isclose(freq_hz, hi, rel_tol=1e-12)]
+    if len(hits) > 1:   # an exact band edge: the stricter (smaller) threshold
+        threshold, source, ver = min(hits)
+        return threshold, f"band edge {f_mhz:g} MHz, the smaller threshold of two rows: {source}", ver
+    if hits:
+        return hits[0]
     raise RuntimeError(f"no row of Table 1 to 1.1307(b)(3)(i)(C) covers {freq_hz} Hz")  # data bug
 
 
@@ -344,14 +381,15 @@ def _validate(sources: Sequence[ExemptionSource]) -> None:
 
 
 def _entry(s: ExemptionSource, criterion: str, threshold_w: float | None, value_w: float,
-           value_kind: str, other_criteria: tuple[str, ...]) -> SourceExemption:
+           value_kind: str, other_criteria: tuple[str, ...], verification: str | None = None) -> SourceExemption:
     if threshold_w is None:
         fraction, margin = math.inf, None
     else:
         fraction = value_w / threshold_w
         margin = 10.0 * math.log10(threshold_w / value_w)
     return SourceExemption(s.label, criterion, _REF[criterion], threshold_w, value_w, value_kind,
-                           erp_w(s.avg_power_w, s.gain_dbi), fraction, margin, other_criteria)
+                           erp_w(s.avg_power_w, s.gain_dbi), fraction, margin, other_criteria,
+                           verification or VERIFICATION[criterion])
 
 
 def _best_threshold(s: ExemptionSource) -> SourceExemption:
@@ -359,6 +397,7 @@ def _best_threshold(s: ExemptionSource) -> SourceExemption:
     erp = erp_w(s.avg_power_w, s.gain_dbi)
     options: list[tuple[str, float, float, str]] = []
     why_not: list[str] = []
+    mpe_ver = None
     f_ghz, d_cm = s.freq_hz / 1e9, s.separation_m * 100.0
     if not _SAR_FREQ_GHZ[0] <= f_ghz <= _SAR_FREQ_GHZ[1]:
         why_not.append(f"SAR-based threshold: {f_ghz * 1e3:g} MHz is outside 300-6000 MHz")
@@ -375,12 +414,13 @@ def _best_threshold(s: ExemptionSource) -> SourceExemption:
         why_not.append(f"MPE-based ERP threshold: separation {s.separation_m:g} m is less than "
                        f"lambda/2pi = {r_min:.4g} m, where the table does not apply")
     else:
-        options.append(("MPE-based ERP threshold", mpe_erp_threshold_w(s.freq_hz, s.separation_m)[0],
-                        erp, "ERP"))
+        threshold, _, mpe_ver = _mpe_row(s.freq_hz, s.separation_m)
+        options.append(("MPE-based ERP threshold", threshold, erp, "ERP"))
     if not options:
         return _entry(s, "none applicable", None, float(max(s.avg_power_w, erp)),
                       "greater of available power and ERP", tuple(why_not))
-    entries = [_entry(s, c, t, v, k, ()) for c, t, v, k in options]
+    entries = [_entry(s, c, t, v, k, (), mpe_ver if c == "MPE-based ERP threshold" else None)
+               for c, t, v, k in options]
     best = min(entries, key=lambda e: e.fraction)
     others = tuple(f"{e.criterion}: fraction {e.fraction:.3g} (not the smaller)" for e in entries
                    if e is not best)
@@ -411,7 +451,8 @@ def fcc_exemption(sources: Sequence[ExemptionSource]) -> ExemptionResult:
 
     Notes
     -----
-    Single source: exempt if the available power is at most 1 mW ((i)(A)); otherwise if
+    Single source: exempt if the available power is less than 1 mW ((i)(A); 1.0 mW is not
+    exempt under it); otherwise if
     the fraction value/threshold is at most 1 under the SAR-based threshold ((i)(B),
     0.5-40 cm, 0.3-6 GHz, compared with the greater of power and ERP) or the MPE-based
     ERP threshold ((i)(C), R >= lambda/2pi, compared with ERP); where both apply the
@@ -437,7 +478,7 @@ def fcc_exemption(sources: Sequence[ExemptionSource]) -> ExemptionResult:
         assumptions.append("all sources transmit in the same time-averaging period (conservative)")
     total_w = sum(s.avg_power_w for s in sources)
 
-    if len(sources) == 1 and total_w <= _ONE_MW_W:
+    if len(sources) == 1 and total_w < _ONE_MW_W:   # (i)(A): "less than 1 mW"
         s = sources[0]
         entry = _entry(s, "1 mW", _ONE_MW_W, float(s.avg_power_w), "available power", ())
         return ExemptionResult(True, f"1 mW test ({_REF['1 mW']})", entry.fraction, (entry,),

@@ -21,6 +21,7 @@ from importlib import resources
 import numpy as np
 
 from rfsafe.errors import InputError, bad_value, format_value
+from rfsafe.verification import STATES, state_of
 
 __all__ = [
     "STANDARD_IDS", "ENVIRONMENTS", "BASES", "ETA_377_OHM",
@@ -28,7 +29,7 @@ __all__ = [
 ]
 
 #: Identifiers of the standards rfsafe knows, in display order.
-STANDARD_IDS = ("fcc", "icnirp2020", "icnirp1998", "ieee2019", "sc6")
+STANDARD_IDS = ("fcc", "icnirp2020", "icnirp1998", "ieee2019", "sc6", "eu1999")
 #: Exposure environments; each standard's own words are in ``environment_label``.
 ENVIRONMENTS = ("controlled", "uncontrolled")
 #: ``time-averaged``: compare with the average over ``averaging_minutes``;
@@ -62,6 +63,9 @@ class StandardInfo:
     references : tuple[str, ...]
         One line per published table: issuer, title, edition, table, where to read it,
         verification status.
+    public_only : bool
+        True when the standard has no occupational tier (``eu1999``): a controlled place is
+        evaluated against the general-public levels, and its limits say so.
     """
 
     id: str
@@ -73,6 +77,7 @@ class StandardInfo:
     environment_labels: dict[str, str]
     power_density_unit: str = "W/m^2"
     references: tuple[str, ...] = ()
+    public_only: bool = False
 
 
 @dataclass(frozen=True)
@@ -102,13 +107,17 @@ class Limit:
     derived : tuple[str, ...]
         Names of quantities not tabulated but derived (plane wave, 377 ohm).
     source : str
-        Published source of the row (document, table, band), with its verification status.
+        Published source of the row (document, table, band).
     power_density_e_w_m2, power_density_h_w_m2 : float or None
         Where a standard tabulates the E-based and H-based equivalent power densities
         separately (IEEE C95.1-2019 below 100 MHz) [W/m^2]; both must be met and
         ``power_density_w_m2`` is the smaller of the two. None elsewhere.
     notes : tuple[str, ...]
         How the limit is to be applied (plane-wave equivalents, quantities not defined, ...).
+    verification : str
+        Whether the row's values were read in the published text (see :mod:`rfsafe.verification`):
+        ``"read in ..."``, ``"read in a reproduction of ...: ..."``, ``"partly read in ..."`` or
+        ``"not confirmed"``. At an exact band edge, the weaker state of the two rows comes first.
     """
 
     standard: str
@@ -125,6 +134,7 @@ class Limit:
     power_density_e_w_m2: float | None = None
     power_density_h_w_m2: float | None = None
     notes: tuple[str, ...] = ()
+    verification: str = "not confirmed"
 
 
 @dataclass(frozen=True)
@@ -154,7 +164,7 @@ class _Row:
     basis: str
     power_density_note: str
     source: str
-    upper_inclusive: bool
+    verification: str
     derive_fields: bool
 
 
@@ -216,7 +226,7 @@ def _parse_table(name: str, meta: dict) -> tuple[_Row, ...]:
             basis=rec["basis"],
             power_density_note=rec.get("power_density_note", "").strip(),
             source=rec["source"],
-            upper_inclusive=meta["band_edges"] == "upper-inclusive",
+            verification=rec.get("verification", "").strip() or "not confirmed",
             derive_fields=bool(meta["derive_fields_from_power_density"]),
         ))
     return tuple(rows)
@@ -239,6 +249,7 @@ def _standard(standard: str) -> _Standard:
         environment_labels=dict(meta["environment_labels"]),
         power_density_unit=meta["power_density_unit"],
         references=tuple(_reference_line(t) for t in tables),
+        public_only=bool(meta.get("public_only", False)),
     )
     rows = tuple(r for name in meta["tables"] for r in _parse_table(name, src["tables"][name]))
     return _Standard(info, rows)
@@ -291,15 +302,15 @@ def standard_info(standard: str) -> StandardInfo:
     return StandardInfo(**{**info.__dict__, "environment_labels": dict(info.environment_labels)})
 
 
-def _covers(row: _Row, f: float, fmin: float, fmax: float) -> bool:
+def _covers(row: _Row, f: float) -> bool:
+    """Closed band: at an exact edge both adjoining rows cover ``f`` (the stricter then applies)."""
     lo, hi = row.freq_min_hz, row.freq_max_hz
-    at_lo = math.isclose(f, lo, rel_tol=1e-12)
-    at_hi = math.isclose(f, hi, rel_tol=1e-12)
-    if at_lo:
-        return not row.upper_inclusive or math.isclose(lo, fmin, rel_tol=1e-12)
-    if at_hi:
-        return row.upper_inclusive or math.isclose(hi, fmax, rel_tol=1e-12)
-    return lo < f < hi
+    return lo <= f <= hi or math.isclose(f, lo, rel_tol=1e-12) or math.isclose(f, hi, rel_tol=1e-12)
+
+
+_PLANE_WAVE_NOTE = "S is the plane-wave equivalent power density (in parentheses in the table)"
+_DERIVED_NOTE = ("the table gives S only; E and H are plane-wave equivalents (377 ohm), "
+                 "valid in the far field only")
 
 
 def _limit_from_row(std: _Standard, row: _Row, freq_hz: float) -> Limit:
@@ -313,23 +324,13 @@ def _limit_from_row(std: _Standard, row: _Row, freq_hz: float) -> Limit:
     derived: tuple[str, ...] = ()
     if s is None and s_e is not None and s_h is not None:
         s = min(s_e, s_h)
-        notes.append(f"S_E = {s_e:.4g} W/m^2 and S_H = {s_h:.4g} W/m^2 are both tabulated and "
-                     "both must be met; power_density_w_m2 is the smaller")
     if row.power_density_note == "plane-wave equivalent":
-        notes.append("S is the plane-wave equivalent power density (in parentheses in the table)")
+        notes.append(_PLANE_WAVE_NOTE)
     if row.derive_fields and s is not None and e is None and h is None:
         e = math.sqrt(s * ETA_377_OHM)
         h = math.sqrt(s / ETA_377_OHM)
         derived = ("e_field_v_m", "h_field_a_m")
-        notes.append("the table gives S only; E and H are plane-wave equivalents (377 ohm), "
-                     "valid in the far field only")
-    if s is None:
-        notes.append("no power-density limit is defined here: compare E and H, both must be met")
-    elif e is None and h is None:
-        notes.append("only the power density is defined here")
-    if row.basis == "instantaneous":
-        notes.append("instantaneous limit (not time-averaged): compare with the field at peak "
-                     "envelope power")
+        notes.append(_DERIVED_NOTE)
     info = std.info
     return Limit(
         standard=info.id, environment=row.environment,
@@ -338,15 +339,86 @@ def _limit_from_row(std: _Standard, row: _Row, freq_hz: float) -> Limit:
         averaging_minutes=row.averaging.at(f) if row.averaging else None,
         basis=row.basis, derived=derived, source=row.source,
         power_density_e_w_m2=s_e, power_density_h_w_m2=s_h, notes=tuple(notes),
+        verification=row.verification,
     )
+
+
+def _stricter(limits: list[Limit], freq_hz: float) -> Limit:
+    """The stricter of the rows that meet at an exact band edge, value by value.
+
+    Each quantity takes the smallest value any adjoining row gives (a quantity defined by one row
+    only is kept), and the averaging time the shortest: the exposure ratio against the result is
+    then the larger of the ratios against the rows, for any field. The published tables do not say
+    to which row an exact edge belongs (47 CFR 1.1310 Table 1 and the others), so rfsafe takes the
+    choice that cannot understate exposure.
+    """
+    def smallest(name):
+        vals = [(getattr(lim, name), name in lim.derived) for lim in limits if getattr(lim, name) is not None]
+        return min(vals, key=lambda v: (v[0], v[1])) if vals else (None, False)
+
+    e, e_derived = smallest("e_field_v_m")
+    h, h_derived = smallest("h_field_a_m")
+    s, _ = smallest("power_density_w_m2")
+    s_e, _ = smallest("power_density_e_w_m2")
+    s_h, _ = smallest("power_density_h_w_m2")
+    avg, _ = smallest("averaging_minutes")
+    derived = tuple(n for n, d in (("e_field_v_m", e_derived), ("h_field_a_m", h_derived)) if d)
+    notes = [n for lim in limits for n in lim.notes]
+    if not derived and _DERIVED_NOTE in notes:
+        notes.remove(_DERIVED_NOTE)
+    ordered = sorted(limits, key=lambda lim: -STATES.index(state_of(lim.verification)))
+    texts = list(dict.fromkeys(lim.verification for lim in ordered))
+    mhz = _mhz_for_message(freq_hz)
+    notes.append(f"exact band edge {mhz} MHz: the stricter of the {len(limits)} adjoining rows applies, value "
+                 "by value (the text does not say to which row the edge belongs, or that could not be "
+                 "confirmed; conservative)")
+    first = limits[0]
+    return Limit(
+        standard=first.standard, environment=first.environment, environment_label=first.environment_label,
+        freq_hz=freq_hz, power_density_w_m2=s, e_field_v_m=e, h_field_a_m=h, averaging_minutes=avg,
+        basis=first.basis, derived=derived,
+        source=f"band edge {mhz} MHz, stricter of: " + " | ".join(lim.source for lim in limits),
+        power_density_e_w_m2=s_e, power_density_h_w_m2=s_h, notes=tuple(dict.fromkeys(notes)),
+        verification="; at this band edge also: ".join(texts),
+    )
+
+
+def _finish(lim: Limit, info: StandardInfo, environment: str) -> Limit:
+    """Notes that depend on the final values, and the public-only mapping of ``controlled``."""
+    notes = list(lim.notes)
+    s, e, h = lim.power_density_w_m2, lim.e_field_v_m, lim.h_field_a_m
+    if lim.power_density_e_w_m2 is not None and lim.power_density_h_w_m2 is not None:
+        notes.append(f"S_E = {lim.power_density_e_w_m2:.4g} W/m^2 and S_H = {lim.power_density_h_w_m2:.4g} "
+                     "W/m^2 are both tabulated and both must be met; power_density_w_m2 is the smaller")
+    if s is None:
+        notes.append("no power-density limit is defined here: compare E and H, both must be met")
+    elif e is None and h is None:
+        notes.append("only the power density is defined here")
+    if lim.basis == "instantaneous":
+        notes.append("instantaneous limit (not time-averaged): compare with the field at peak "
+                     "envelope power")
+    changes: dict = {"notes": tuple(notes)}
+    if environment != lim.environment:
+        changes.update(environment=environment, environment_label=info.environment_labels[environment])
+        changes["notes"] += ("this standard has no occupational tier (general public only): the "
+                             "general-public reference levels are applied to this controlled place "
+                             "(conservative)",)
+    return Limit(**{**lim.__dict__, **changes})
 
 
 @lru_cache(maxsize=4096)
 def _limits_cached(standard: str, freq_hz: float, environment: str) -> tuple[Limit, ...]:
     std = _standard(standard)
-    fmin, fmax = std.info.freq_min_hz, std.info.freq_max_hz
-    rows = [r for r in std.rows if r.environment == environment and _covers(r, freq_hz, fmin, fmax)]
-    return tuple(_limit_from_row(std, r, freq_hz) for r in rows)
+    table_env = "uncontrolled" if std.info.public_only else environment
+    by_basis: dict[str, list[Limit]] = {}
+    for r in std.rows:
+        if r.environment == table_env and _covers(r, freq_hz):
+            by_basis.setdefault(r.basis, []).append(_limit_from_row(std, r, freq_hz))
+    out = []
+    for lims in by_basis.values():
+        lim = lims[0] if len(lims) == 1 else _stricter(lims, freq_hz)
+        out.append(_finish(lim, std.info, environment))
+    return tuple(out)
 
 
 def limits_at(standard: str, freq_hz: float, environment: str, *,
@@ -385,7 +457,11 @@ def limits_at(standard: str, freq_hz: float, environment: str, *,
     frequency column). Where a standard does not define a quantity it is None, never
     invented; the only derived values are the FCC plane-wave E and H above 300 MHz
     (:math:`E = \\sqrt{377 S}`, :math:`H = \\sqrt{S/377}`), listed in ``derived``.
-    At a band edge the row is chosen by the table's edge rule (``sources.toml``).
+    At an exact band edge the stricter of the adjoining rows applies, value by value (the
+    smallest E, H and S of the rows, the shortest averaging time): the tables do not say to
+    which row an edge belongs, and this choice cannot understate exposure. Each limit carries
+    its row's ``verification``. For a standard without an occupational tier (``eu1999``) a
+    controlled environment gets the general-public levels, with a note saying so.
 
     References
     ----------

@@ -67,7 +67,7 @@ class Site(_Strict):
     site: str = Field(default="", description="Site label shown on outputs.")
     evaluator: str = ""
     evaluation_date: dt.date | None = Field(default=None, description="Date of the evaluation (TOML date).")
-    standard: Literal["fcc", "icnirp2020", "icnirp1998", "ieee2019", "sc6"] = "fcc"
+    standard: Literal["fcc", "icnirp2020", "icnirp1998", "ieee2019", "sc6", "eu1999"] = "fcc"
     ground_reflection: Literal["none", "typical", "full"] = Field(
         default="full", description="Ground-reflection factor for every station: none (F=1), typical (F=2.56), "
                                     "full (F=4; default, conservative).")

@@ -154,7 +154,7 @@ class Station(_Strict):
     licence: str = Field(default="", description="Licence (number or class) under which the station operates.")
     address: str = Field(default="", description="Address of the station, shown on the worksheet.")
     evaluation_date: dt.date | None = Field(default=None, description="Date of the evaluation (TOML date).")
-    standard: Literal["fcc", "icnirp2020", "icnirp1998", "ieee2019", "sc6"] = "fcc"
+    standard: Literal["fcc", "icnirp2020", "icnirp1998", "ieee2019", "sc6", "eu1999"] = "fcc"
     ground_reflection: Literal["none", "typical", "full"] = Field(
         default="full", description="Ground-reflection factor: none (F=1), typical (F=2.56), full (F=4; default, conservative).")
     near_field_spatial_average: bool = Field(

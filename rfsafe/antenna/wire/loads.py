@@ -135,7 +135,10 @@ def load_stress(sol, input_power_w: float) -> tuple[LoadStress, ...]:
     """
     scale = sol.power_scale(input_power_w)
     out = []
+    slot = sol.shield.choke_load if sol.shield is not None and not sol.shield.choke_declared else None
     for n, label in enumerate(sol.load_labels):
+        if n == slot:   # the 0-ohm place kept for choke sweeps, not a declared load
+            continue
         i = sol.load_current_a[n] * scale
         z = sol.load_impedance_ohm[n]
         v = abs(z * i)

@@ -31,7 +31,7 @@ import numpy as np
 from rfsafe.errors import InputError, bad_value
 
 __all__ = ["ExpandedShield", "check_shield", "expand_shield", "TAPER_PIECE_RADII", "CommonModeCurrent",
-           "common_mode_current"]
+           "common_mode_current", "ChokeSweep", "required_choke_ohm", "CHOKE_SCAN_OHM"]
 
 #: Length of each radius-step piece between the antenna wire and the shield [its own radii].
 TAPER_PIECE_RADII = 10.0
@@ -51,6 +51,7 @@ class ExpandedShield:
     choke_load: int | None             # index of the choke in ``spec.loads``
     feed_point_m: tuple[float, float, float]
     far_end: str                       # "open" or "ground"
+    choke_declared: bool = True        # False: ``choke_load`` is a 0-ohm slot at the feed (for choke sweeps)
 
 
 def _arcs(points) -> np.ndarray:
@@ -219,8 +220,12 @@ def expand_shield(spec, feed_wires: tuple[int, ...], *, prefix: str = "") -> Exp
     wire_fields.append(f"{prefix}shield.route_m")
     route_len = float(np.linalg.norm(np.diff(route, axis=0), axis=1).sum())
 
-    choke_load = None
-    if sh.choke is not None:
+    # Without a declared choke a 0-ohm slot at the feed end of the route keeps a place for choke sweeps.
+    choke_load = len(loads)
+    if sh.choke is None:
+        loads.append(LoadSpec(label="feedline choke", wire=route_wires[0], position=0.0, resistance_ohm=0.0))
+        load_fields.append(f"{prefix}shield")
+    else:
         d = along_fraction(sh.choke, route_len, f"{prefix}shield.choke", "the shield route", default=0.0) * route_len
         if d <= _TOL_M:
             cw, cq = route_wires[0], 0.0
@@ -229,14 +234,14 @@ def expand_shield(spec, feed_wires: tuple[int, ...], *, prefix: str = "") -> Exp
             cw, cq = route_wires[-1], float(max(0.0, d - c0) / main_len)
         circuit = {k: getattr(sh.choke, k) for k in
                    ("circuit", "resistance_ohm", "reactance_ohm", "inductance_uh", "capacitance_pf", "coil_q")}
-        choke_load = len(loads)
         loads.append(LoadSpec(label="feedline choke", wire=cw, position=cq, **circuit))
         load_fields.append(f"{prefix}shield.choke")
 
     new = spec.model_copy(update={"wires": wires, "feeds": feeds, "loads": loads, "shield": None})
     return ExpandedShield(spec=new, feed_wires=new_feed_wires, wire_fields=tuple(wire_fields),
                           load_fields=tuple(load_fields), route_wires=tuple(route_wires), route_length_m=route_len,
-                          choke_load=choke_load, feed_point_m=tuple(float(x) for x in p_feed), far_end=sh.far_end)
+                          choke_load=choke_load, feed_point_m=tuple(float(x) for x in p_feed), far_end=sh.far_end,
+                          choke_declared=sh.choke is not None)
 
 
 @dataclass(frozen=True)
@@ -286,7 +291,7 @@ def common_mode_current(sol, input_power_w: float, *, feed: int = 0) -> CommonMo
             cur.append(abs(sol.segment_current_a[q, 1]) * scale / math.sqrt(2))
     j = int(np.argmax(cur))
     choke_z = choke_d = None
-    if ex.choke_load is not None:
+    if ex.choke_declared:
         choke_z = complex(sol.load_impedance_ohm[ex.choke_load])
         p = st.load_position_m[ex.choke_load]
         choke_d = dist[int(np.argmin([math.dist(p, x) for x in pos]))]
@@ -296,3 +301,109 @@ def common_mode_current(sol, input_power_w: float, *, feed: int = 0) -> CommonMo
         feed_current_a_rms=abs(sol.feed_current_a[feed]) * scale / math.sqrt(2), route_length_m=ex.route_length_m,
         choke_impedance_ohm=choke_z, choke_distance_m=choke_d,
         far_end=ex.far_end)
+
+
+class ChokeSweep:
+    """Fields and currents of a solution with the choke replaced by any impedance, without re-solving.
+
+    Changing the choke's impedance from z0 to z changes the loaded matrix by (z - z0) g g^T (rank one),
+    so the currents are c(z) = a - t b with a the solved currents, b = Z^-1 g and
+    t = (z - z0) (g . a) / (1 + (z - z0) (g . b)) (Sherman-Morrison). Fields are linear in the currents,
+    so two field evaluations serve every z. The power delivered to the antenna is recomputed for each z.
+
+    References
+    ----------
+    J. Sherman and W. J. Morrison, "Adjustment of an inverse matrix corresponding to a change in one
+    element of a given matrix," Ann. Math. Statist. 21 (1950) 124-127 (from memory).
+    """
+
+    def __init__(self, sol, points_m, *, field: str = "points_m"):
+        from rfsafe.antenna.wire.fields import check_points, near_fields
+
+        st = sol.structure
+        n = sol.shield.choke_load
+        self._sol = sol
+        self._g = st.load_coupling[n]
+        self._z0 = complex(sol.load_impedance_ohm[n])
+        self._a = sol.basis_current_a
+        self._b = np.linalg.solve(sol.impedance_matrix_ohm, self._g.astype(complex))
+        self._ga, self._gb = complex(self._g @ self._a), complex(self._g @ self._b)
+        pts = check_points(sol, points_m, field=field)
+        self._route = np.isin(st.wire, sol.shield.route_wires)
+        fields = []
+        for c in (self._a, self._b):
+            seg = (st.half_to_basis @ c).reshape(-1, 2)
+            fields.append(near_fields(st, sol.k, seg, pts) if len(pts) else (np.zeros((0, 3)), np.zeros((0, 3))))
+        (self._ea, self._ha), (self._eb, self._hb) = fields
+        g = st.feed_coupling
+        self._ia, self._ib = g @ self._a, g @ self._b
+
+    def _t(self, z_choke_ohm: complex) -> complex:
+        dz = complex(z_choke_ohm) - self._z0
+        return dz * self._ga / (1.0 + dz * self._gb)
+
+    def _scale(self, t: complex, input_power_w: float) -> float:
+        v = self._sol.structure.feed_voltage_v
+        p = 0.5 * float(np.real(np.sum(v * np.conj(self._ia - t * self._ib))))
+        return math.sqrt(input_power_w / p)
+
+    def fields_rms(self, z_choke_ohm: complex, input_power_w: float):
+        """E [V/m rms] and H [A/m rms] at the points for ``input_power_w`` [W] delivered, choke ``z_choke_ohm``."""
+        t = self._t(z_choke_ohm)
+        s = self._scale(t, input_power_w)
+        e, h = (self._ea - t * self._eb) * s, (self._ha - t * self._hb) * s
+        return np.sqrt(0.5 * np.sum(np.abs(e) ** 2, axis=-1)), np.sqrt(0.5 * np.sum(np.abs(h) ** 2, axis=-1))
+
+    def max_common_mode_a_rms(self, z_choke_ohm: complex, input_power_w: float) -> float:
+        """Largest current on the shield route [A rms] for ``input_power_w`` [W] delivered."""
+        t = self._t(z_choke_ohm)
+        c = self._a - t * self._b
+        seg = (self._sol.structure.half_to_basis @ c).reshape(-1, 2)[self._route]
+        return float(np.abs(seg).max()) * self._scale(t, input_power_w) / math.sqrt(2)
+
+
+#: Choke impedance magnitudes scanned by ``required_choke_ohm`` [ohm] (10 per decade, 1 ohm to 1 Mohm).
+CHOKE_SCAN_OHM = np.logspace(0.0, 6.0, 61)
+
+
+def required_choke_ohm(ratio_at, angle_rad: float = 0.0) -> tuple[float | None, str]:
+    """Smallest choke impedance magnitude [ohm] that brings an exposure ratio to 1 or below.
+
+    ``ratio_at(z)`` is the largest exposure ratio at the places of interest with a choke of impedance
+    z [ohm]. The ratio is not monotonic in |z| (a choke and the shield can resonate), so the whole scan
+    ``CHOKE_SCAN_OHM`` at the phase ``angle_rad`` is evaluated and the answer is the smallest |z| above
+    which every scanned value is at or below 1, refined by Brent's bracketing root finder between the
+    last scanned value above 1 and the next one.
+
+    Returns
+    -------
+    magnitude_ohm : float or None
+        The impedance magnitude, 0.0 when no choke is needed, None when no choke up to 1 Mohm suffices.
+    note : str
+        How the answer was reached, in words.
+
+    References
+    ----------
+    R. P. Brent, Algorithms for Minimization without Derivatives, Prentice-Hall, 1973, Ch. 4 (the
+    bracketing root finder, scipy.optimize.brentq).
+    """
+    from scipy.optimize import brentq
+
+    kind = "resistive" if abs(angle_rad) < 1e-12 else f"phase {math.degrees(angle_rad):.0f} deg"
+    r0 = ratio_at(0j)
+    r = np.array([ratio_at(m * complex(math.cos(angle_rad), math.sin(angle_rad))) for m in CHOKE_SCAN_OHM])
+    if r[-1] > 1:
+        return None, (f"no {kind} choke up to {CHOKE_SCAN_OHM[-1]:.0e} ohm brings the ratio to 1 (ratio "
+                      f"{r[-1]:.3g} with the largest): the antenna's own field or current induced on the "
+                      "feedline sets it; move the place or the route")
+    over = np.nonzero(r > 1)[0]
+    if not len(over):
+        if r0 <= 1:
+            return 0.0, f"no choke needed: ratio {r0:.3g} without one, and no {kind} choke raises it above 1"
+        return float(CHOKE_SCAN_OHM[0]), f"a {kind} choke of {CHOKE_SCAN_OHM[0]:g} ohm or more (ratio {r0:.3g} without one)"
+    i = int(over[-1])
+    lo, hi = math.log(CHOKE_SCAN_OHM[i]), math.log(CHOKE_SCAN_OHM[i + 1])
+    u = brentq(lambda x: ratio_at(math.exp(x) * complex(math.cos(angle_rad), math.sin(angle_rad))) - 1.0,
+               lo, hi, xtol=1e-4)
+    return float(math.exp(u)), (f"{kind} choke magnitude from a scan of 1 ohm to 1 Mohm (10 per decade) and "
+                                "Brent's root finder; smaller values leave some place above the limit")
