@@ -65,6 +65,13 @@ def near_fields(st, k: float, seg_i: np.ndarray, points_m: np.ndarray):
             r2 = np.where(axis, 1.0, rho2)
             ez1, ez2, er1, er2 = segment_e_terms(z, r2, d[None], k)
             h1, h2 = segment_h_terms(z, r2, d[None], k)
+            if np.any(axis):
+                # On a segment's axis (beyond its ends: check_points keeps points off the wire) the
+                # axial field takes the true rho = 0; radial E and H vanish there by symmetry (the
+                # dummy rho^2 = 1 above only keeps their 1/rho^2 coefficients finite; zeroed below).
+                n_ax, q_ax = np.nonzero(axis)
+                with np.errstate(divide="ignore", invalid="ignore"):   # the unused radial terms
+                    ez1[n_ax, q_ax], ez2[n_ax, q_ax], _, _ = segment_e_terms(z[n_ax, q_ax], 0.0, d[q_ax], k)
             ez = ez1 * i1 + ez2 * i2
             er = np.where(axis, 0.0, er1 * i1 + er2 * i2)
             hh = np.where(axis, 0.0, h1 * i1 + h2 * i2)
