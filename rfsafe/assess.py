@@ -564,9 +564,63 @@ def assess_with_emitters(loaded: LoadedStation, *, today: dt.date | None = None,
         environment_labels=dict(info.environment_labels), rfsafe_version=__version__,
         input_file=loaded.path.name, input_sha256=loaded.sha256, ground_reflection=st.ground_reflection,
         ground_factor=gf, loss_model="; ".join(loss_models), configurations=configs, places=tuple(places),
-        exemption=exemption, verdict="COMPLIES" if not exceeded else "EXCEEDS", exceeded=tuple(exceeded),
+        exemption=exemption, **_verdicts(configs, places), exceeded=tuple(exceeded),
         method_notes=notes, cautions=CAUTIONS, **_plan_fields(loaded, configs, ems, near_field_maps))
     return result, ems
+
+
+def _verdicts(configs, places) -> dict:
+    """The exposure verdict (people) and the equipment verdict (line, connectors, tuner), each with its reasons.
+
+    Exposure: EXCEEDS when some place's total ratio is above 1; NOT EVALUATED when no place is declared
+    (the compliance distances are still shown, but no person's exposure was judged); else COMPLIES.
+    Equipment: RATING EXCEEDED when any rated part is above its rating; NOT RATED when no part has a
+    rating to compare with; else WITHIN RATINGS.
+    """
+    if not places:
+        exposure = "NOT EVALUATED"
+        why = ["no place is declared ([[places]]): no person's exposure was evaluated, so compliance is not "
+               "claimed; the compliance distances show how far from each antenna the limits are met"]
+    else:
+        over = [p for p in places if p.verdict != "complies"]
+        worst = max(places, key=lambda p: p.total_ratio)
+        if over:
+            exposure = "EXCEEDS"
+            why = [f"place {p.label!r}: total exposure ratio {p.total_ratio:.3g} > 1 ({p.environment})" for p in over]
+        else:
+            exposure = "COMPLIES"
+            why = [f"all {len(places)} place{'s' if len(places) != 1 else ''} within the limits; highest total "
+                   f"exposure ratio {worst.total_ratio:.3g} at {worst.label!r}"]
+        estimated = sorted({p.label for p in places for x in p.exposures
+                            if x.inside_near_field and x.near_field_ratio is None})
+        if estimated:
+            why.append("far-field estimate inside the near field at " + ", ".join(repr(e) for e in estimated)
+                       + ": confirm by near-field analysis or measurement")
+    equipment, reasons = equipment_verdict([(f"configuration {c.id}", c.line) for c in configs])
+    return dict(exposure_verdict=exposure, exposure_reasons=tuple(why), equipment_verdict=equipment,
+                equipment_reasons=reasons)
+
+
+def equipment_verdict(lines) -> tuple[str, tuple[str, ...]]:
+    """Equipment verdict and reasons from ``(label, LineResult)`` pairs (stations and sites alike)."""
+    rated = [(who, ps) for who, ln in lines for ps in ln.part_stresses if ps.rating is not None]
+    unrated = [(who, ps) for who, ln in lines for ps in ln.part_stresses if ps.rating is None]
+    exceeded = [(who, ps) for who, ps in rated if ps.exceeded]
+    if exceeded:
+        verdict = "RATING EXCEEDED"
+        reasons = [f"{who}: {ps.part} {ps.stress:.4g} {ps.unit} exceeds its rating {ps.rating:.4g} {ps.unit}"
+                   for who, ps in exceeded]
+    elif rated:
+        verdict = "WITHIN RATINGS"
+        who, least = min(rated, key=lambda r: r[1].headroom)
+        reasons = [f"every rated part within its rating; least headroom {least.headroom:.3g}x: {least.part} "
+                   f"({who})"]
+    else:
+        verdict = "NOT RATED"
+        reasons = ["no line, connector or tuner rating is known: equipment stress was computed but not compared"]
+    if unrated and rated:
+        reasons.append("not compared (no rating): " + ", ".join(sorted({ps.part for _, ps in unrated})))
+    return verdict, tuple(reasons)
 
 
 def _plan_fields(loaded: LoadedStation, configs, ems, plan: bool) -> dict:

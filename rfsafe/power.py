@@ -25,12 +25,17 @@ __all__ = [
 
 @dataclass(frozen=True)
 class DutyFactor:
-    """A mode's duty factor relative to PEP and where the value came from."""
+    """A mode's duty factor relative to PEP, where the value came from, and whether it was read there.
+
+    ``verification`` is one of the forms of :mod:`rfsafe.verification` (``"read in a reproduction of
+    ...: ..."`` or ``"not confirmed"``).
+    """
 
     mode: str
     description: str
     duty_factor: float
     source: str
+    verification: str = "not confirmed"
 
 
 @lru_cache(maxsize=1)
@@ -39,11 +44,13 @@ def duty_factor_table() -> dict[str, DutyFactor]:
 
     References
     ----------
-    .. [1] FCC OET Bulletin 65 Supplement B (1997), Table 1.
+    .. [1] FCC OET Bulletin 65 Supplement B (1997), Table 2, p. 14 (read in two reproductions; the AM
+       rows were not in them and stay "not confirmed").
     """
     text = resources.files("rfsafe.data").joinpath("duty_factors.csv").read_text(encoding="utf-8")
     rows = csv.DictReader(io.StringIO("".join(l for l in text.splitlines(True) if not l.startswith("#"))))
-    return {r["mode"]: DutyFactor(r["mode"], r["description"], float(r["duty_factor"]), r["source"])
+    return {r["mode"]: DutyFactor(r["mode"], r["description"], float(r["duty_factor"]), r["source"],
+                                  (r.get("verification") or "").strip() or "not confirmed")
             for r in rows}
 
 

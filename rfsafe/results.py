@@ -13,6 +13,39 @@ __all__ = ["ComplianceDistance", "AntennaSummary", "PlanMap", "WireSummary", "Ne
            "PlaceResult", "EvaluationResult", "CAUTIONS", "Remedy", "PlaceRemedies", "ConfigurationRemedies",
            "GroundKeepOut"]
 
+#: Exposure verdicts: every evaluated place within its limits, some place above, or no place declared.
+EXPOSURE_VERDICTS = ("COMPLIES", "EXCEEDS", "NOT EVALUATED")
+#: Equipment verdicts: line, connector and tuner parts against their ratings.
+EQUIPMENT_VERDICTS = ("WITHIN RATINGS", "RATING EXCEEDED", "NOT RATED")
+
+#: Exit statuses of commands that give verdicts. The exposure verdict comes first: people before hardware.
+EXIT_COMPLIES = 0
+EXIT_EXPOSURE_EXCEEDED = 1
+EXIT_EQUIPMENT_EXCEEDED = 4
+EXIT_NOT_EVALUATED = 5
+#: How the exit status combines the two verdicts (printed by --help and in the README).
+EXIT_STATUS_HELP = ("Exit status: 0 exposure complies at every place and no rating is exceeded; 1 an exposure "
+                    "limit is exceeded at some place (whatever the equipment); 4 exposure complies but a line, "
+                    "connector or tuner rating is exceeded; 5 no place was evaluated (exposure not judged); "
+                    "2 bad input; 3 internal error. Both verdicts are always printed.")
+
+
+def exit_status(exposure_verdict: str, equipment_verdict: str) -> int:
+    """Exit status from the two verdicts: exposure first (1 or 5), then equipment (4), else 0."""
+    if exposure_verdict == "EXCEEDS":
+        return EXIT_EXPOSURE_EXCEEDED
+    if exposure_verdict == "NOT EVALUATED":
+        return EXIT_NOT_EVALUATED
+    if equipment_verdict == "RATING EXCEEDED":
+        return EXIT_EQUIPMENT_EXCEEDED
+    return EXIT_COMPLIES
+
+
+def verdict_headline(exposure_verdict: str, equipment_verdict: str) -> str:
+    """Both verdicts in one line, e.g. ``EXPOSURE COMPLIES · EQUIPMENT RATING EXCEEDED``."""
+    return f"EXPOSURE {exposure_verdict} · EQUIPMENT {equipment_verdict}"
+
+
 #: Cautions carried by every output (in rfsafe's own words).
 CAUTIONS = (
     "This is an estimate under the stated assumptions, not a measurement.",
@@ -42,6 +75,7 @@ class ComplianceDistance:
     power_density_limit_w_m2: float | None = None   # the governing limit's values (None: not defined)
     e_field_limit_v_m: float | None = None
     h_field_limit_a_m: float | None = None
+    distance_basis: str = ""   # from which part of the antenna dist_m is measured, and where its size comes from
 
 
 @dataclass(frozen=True)
@@ -179,6 +213,7 @@ class PlaceExposure:
     e_field_limit_v_m: float | None = None
     h_field_limit_a_m: float | None = None
     limit_source: str = ""
+    distance_basis: str = ""                 # which distance dist_m and the near-field decision use
 
 
 @dataclass(frozen=True)
@@ -283,8 +318,11 @@ class EvaluationResult:
     configurations: tuple[ConfigurationResult, ...]
     places: tuple[PlaceResult, ...]
     exemption: Any                          # rfsafe.limits.exemption.ExemptionResult or None
-    verdict: str                            # "COMPLIES" or "EXCEEDS"
-    exceeded: tuple[str, ...]               # one line per limit or rating exceeded
+    exposure_verdict: str                   # "COMPLIES", "EXCEEDS" or "NOT EVALUATED" (no place declared)
+    exposure_reasons: tuple[str, ...]       # why, one sentence each
+    equipment_verdict: str                  # "WITHIN RATINGS", "RATING EXCEEDED" or "NOT RATED"
+    equipment_reasons: tuple[str, ...]
+    exceeded: tuple[str, ...]               # one line per limit or rating exceeded (both verdicts)
     method_notes: tuple[str, ...]
     cautions: tuple[str, ...] = field(default=CAUTIONS)
     # filled by rfsafe.remedies.with_answers (empty unless asked for)
@@ -300,5 +338,11 @@ class EvaluationResult:
     plan: PlanMap | None = None
 
     @property
+    def verdict(self) -> str:
+        """Both verdicts in one headline (page headers; not a third verdict, not in the JSON)."""
+        return verdict_headline(self.exposure_verdict, self.equipment_verdict)
+
+    @property
     def exit_code(self) -> int:
-        return 0 if self.verdict == "COMPLIES" else 1
+        """Exit status of ``evaluate``/``report`` (see :data:`EXIT_STATUS_HELP`)."""
+        return exit_status(self.exposure_verdict, self.equipment_verdict)

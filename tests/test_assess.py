@@ -128,21 +128,26 @@ def test_exceeding_place_exits_1_and_json_says_so(tmp_path):
     result = CliRunner().invoke(app, ["evaluate", str(path), "--json"])
     assert result.exit_code == 1, result.stderr
     doc = json.loads(result.stdout)
-    assert doc["verdict"] == "EXCEEDS"
+    assert doc["exposure_verdict"] == "EXCEEDS"
     garden = next(p for p in doc["places"] if p["label"] == "Garden")
     assert garden["verdict"] == "exceeds" and garden["total_ratio"] > 1
     assert any("Garden" in line for line in doc["exceeded"])
 
 
-def test_line_rating_exceeded_exits_1(tmp_path):
+def test_line_rating_exceeded_exits_4_and_is_the_equipment_verdict(tmp_path):
+    """RG-174 at 1500 W and SWR 8 is far above its voltage rating (a fact of the trade) while every place is
+    below its limit: the exposure verdict stays COMPLIES, the equipment verdict says RATING EXCEEDED, exit 4."""
     text = BASE.replace('cable = "rg-213"', 'cable = "rg-174"').replace("pep_w = 100.0", "pep_w = 1500.0") \
         .replace("swr = 1.5", "swr = 8.0")
     path = tmp_path / "line.toml"
     path.write_text(text)
     result = CliRunner().invoke(app, ["evaluate", str(path), "--json"])
-    assert result.exit_code == 1
+    assert result.exit_code == 4
     doc = json.loads(result.stdout)
     assert doc["configurations"][0]["exceeded_parts"]
+    assert (doc["exposure_verdict"], doc["equipment_verdict"]) == ("COMPLIES", "RATING EXCEEDED")
+    assert all(p["total_ratio"] <= 1 for p in doc["places"])
+    assert any("exceeds its rating" in r for r in doc["equipment_reasons"])
     assert any("exceeds its rating" in line for line in doc["exceeded"])
 
 
@@ -165,7 +170,8 @@ def test_json_shape(tmp_path):
     result = CliRunner().invoke(app, ["evaluate", str(path), "--json"])
     assert result.exit_code == 0, result.stderr
     doc = json.loads(result.stdout)
-    for key in ("title", "standard", "input_sha256", "configurations", "places", "verdict", "cautions",
+    for key in ("title", "standard", "input_sha256", "configurations", "places", "exposure_verdict",
+                "exposure_reasons", "equipment_verdict", "equipment_reasons", "cautions",
                 "ground_factor", "exemption", "method_notes"):
         assert key in doc
     cfg = doc["configurations"][0]
@@ -183,7 +189,7 @@ def test_table_output_and_cautions_on_stderr(tmp_path):
     path.write_text(BASE)
     result = CliRunner().invoke(app, ["evaluate", str(path)])
     assert result.exit_code == 0
-    assert "VERDICT: COMPLIES" in result.stdout
+    assert "EXPOSURE VERDICT: COMPLIES" in result.stdout
     assert "Garden" in result.stdout and "Shack" in result.stdout
     assert "caution: Never touch an antenna or open a tuner while transmitting." in result.stderr
 
@@ -200,7 +206,7 @@ def test_tuner_in_a_configuration(tmp_path):
     assert parts and all(p.value_pf or p.value_uh for p in parts)
     # the deliberately low capacitor rating is exceeded, which makes the evaluation exceed
     assert any(p.startswith("tuner.") for p in res.configurations[0].exceeded_parts)
-    assert res.verdict == "EXCEEDS"
+    assert res.equipment_verdict == "RATING EXCEEDED"
 
 
 def test_tuner_needs_the_load_impedance(tmp_path):

@@ -38,10 +38,11 @@ def test_demo_json_shape(demo_json):
     d = demo_json
     for key in ("title", "site", "evaluator", "evaluation_date", "standard", "rfsafe_version", "input_file",
                 "input_sha256", "heights_m", "grid_spacing_m", "grid_info", "boundary", "areas", "stations",
-                "transmitters", "regions", "violations", "exceeded", "verdict", "method_notes", "flags", "cautions"):
+                "transmitters", "regions", "violations", "exceeded", "exposure_verdict", "exposure_reasons",
+                "equipment_verdict", "equipment_reasons", "method_notes", "flags", "cautions"):
         assert key in d
     assert "grid" not in d and "emitters" not in d   # bulky arrays stay out of JSON (see --csv)
-    assert d["verdict"] == "EXCEEDS"
+    assert d["exposure_verdict"] == "EXCEEDS"
     assert [v["region"] for v in d["violations"]] == ["Public footpath"]
     assert d["violations"][0]["dominant_transmitter"] == "HF CW"
     tx = {t["transmitter"]: t for t in d["transmitters"]}

@@ -7,6 +7,7 @@ from hypothesis import given, strategies as st
 
 from rfsafe import power
 from rfsafe.errors import InputError
+from rfsafe.verification import state_of
 
 
 def test_window_fill_oet65b_averaging_example():
@@ -41,16 +42,38 @@ def test_window_fill_monotone_in_on_time(on, extra, off, window):
     assert power.window_fill(on + extra, off, window) >= power.window_fill(on, off, window) - 1e-12
 
 
-def test_duty_factor_table_oet65b():
-    # OET Bulletin 65 Supplement B, Table 1 (values from memory, rows say so)
-    expected = {"cw": 0.4, "ssb": 0.2, "ssb-processed": 0.4, "fm": 1.0, "rtty": 1.0, "afsk": 1.0,
-                "carrier": 1.0}
+@pytest.mark.parametrize("mode,published", [
+    ("cw", 0.40),             # OET 65 Supplement B, Table 2, p. 14: conversational CW 40 % (READ-2)
+    ("ssb", 0.20),            # Table 2: conversational SSB, no speech processing 20 % (READ-2)
+    ("ssb-processed", 0.50),  # Table 2: conversational SSB, heavy speech processing 50 % (READ-2)
+    ("fm", 1.00),             # Table 2: voice FM 100 % (READ-2)
+    ("rtty", 1.00),           # Table 2: FSK or RTTY 100 % (READ-2)
+    ("afsk", 1.00),           # Table 2: AFSK SSB 100 % (READ-2)
+    ("carrier", 1.00),        # Table 2: carrier 100 % (READ-2)
+])
+def test_oet65_supplement_b_table2_duty_factor(mode, published):
+    # READ-2: two reproductions of FCC OET Bulletin 65 Supplement B (1997), Table 2, p. 14
+    row = power.duty_factor_table()[mode]
+    assert row.duty_factor == published
+    assert "Table 2, p. 14" in row.source
+    assert state_of(row.verification) == "reproduction"
+
+
+def test_rows_not_in_the_reproductions_stay_not_confirmed():
+    # The AM rows were in neither reproduction of Table 2; "digital" is common practice.
     table = power.duty_factor_table()
-    for mode, df in expected.items():
-        assert table[mode].duty_factor == df
+    for mode in ("am", "am-full", "digital"):
+        assert table[mode].verification == "not confirmed"
     for row in table.values():
         assert 0 < row.duty_factor <= 1
         assert row.source  # every row says where it came from
+
+
+def test_oet65_supplement_b_time_averaging_example():
+    # OET 65 Supplement B (READ-2): 500 W x 0.4 x (45 s of 360 s) = 25 W; 45 s on in a 6-min window
+    fill = power.window_fill(45 / 60, (360 - 45) / 60, 6)
+    assert fill == pytest.approx(45 / 360, rel=1e-12)
+    assert power.average_power_w(500, 0.4, fill) == pytest.approx(25.0, rel=1e-12)
 
 
 def test_unknown_mode_is_input_error():

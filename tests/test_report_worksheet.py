@@ -45,7 +45,7 @@ def test_identity_block(demo):
     for item in (res.station, res.evaluator, f"{res.evaluation_date} (from the station file)", res.standard_name,
                  f"rfsafe {res.rfsafe_version}", res.input_sha256, res.input_file):
         assert item in text, item
-    word = "✓ COMPLIES" if res.verdict == "COMPLIES" else "✗ EXCEEDS"
+    word = "Exposure: ✓ COMPLIES" if res.exposure_verdict == "COMPLIES" else "Exposure: ✗ EXCEEDS"
     assert word in text
     assert text.index(word) < text.index("2 Method and assumptions")    # verdict on the first page, up top
 
@@ -165,9 +165,9 @@ def test_exceeding_station_says_so(tmp_path):
     station.write_text(DEMO.read_text() + '\n[[places]]\nlabel = "Ladder at the tower"\nx_m = -5.3\n'
                        'y_m = 20.7\nheight_m = 15.0\nenvironment = "uncontrolled"\n')
     res = assess(load_station(station))
-    assert res.verdict == "EXCEEDS"
+    assert res.exposure_verdict == "EXCEEDS"
     text = text_of(build_worksheet_pdf(res))
-    assert "✗ EXCEEDS" in text
+    assert "Exposure: ✗ EXCEEDS" in text
     for line in res.exceeded:
         assert " ".join(line.split()) in text
     assert "Ladder at the tower" in text and "EXCEEDS" in text

@@ -81,10 +81,10 @@ def render_evaluation(res) -> str:
         out.append(f"47 CFR 1.1307(b)(3) exemption: {'EXEMPT' if ex.exempt else 'NOT EXEMPT'} ({ex.criterion})")
         out.append(f"  {ex.note}")
     out.append("")
-    if res.exceeded:
-        out.append("Exceeded:")
-        out.extend(f"  - {line}" for line in res.exceeded)
-    out.append(f"VERDICT: {res.verdict}")
+    out.append(f"EXPOSURE VERDICT: {res.exposure_verdict}")
+    out.extend(f"  - {line}" for line in res.exposure_reasons)
+    out.append(f"EQUIPMENT VERDICT: {res.equipment_verdict}")
+    out.extend(f"  - {line}" for line in res.equipment_reasons)
     return "\n".join(out)
 
 
@@ -94,7 +94,10 @@ def evaluate(file: Path = typer.Argument(..., help="Station file (.toml)."),
              json_out: bool = typer.Option(False, "--json", help="Print one JSON document instead of tables.")) -> None:
     """Evaluate a station: exposure at every place, compliance distances, line stress.
 
-    Exit status: 0 compliant, 1 a limit or rating is exceeded, 2 bad input.
+    Two verdicts are given: exposure (people, against the limits) and equipment (line, connectors,
+    tuner, against their ratings). Exit status: 0 exposure complies at every place and no rating is
+    exceeded; 1 an exposure limit is exceeded at some place (whatever the equipment); 4 exposure
+    complies but a rating is exceeded; 5 no place was evaluated; 2 bad input; 3 internal error.
     """
     from rfsafe.assess import assess
     from rfsafe.cli.output import print_json, warn

@@ -59,13 +59,11 @@ def render_site(res) -> str:
         ["area", "kind", "limit checked", "worst unc", "worst ctl", "points over", "mostly from",
          "near-field pts", "verdict"], rows, align="lllrrrlrl",
         title="Areas: worst total exposure ratio (1 = limit)"))
-    rated = [x for s in res.stations for x in s.exceeded_parts]
-    if rated:
-        out.append("")
-        out.append("Ratings exceeded:")
-        out.extend(f"  - {x}" for x in rated)
     out.append("")
-    out.append(f"VERDICT: {res.verdict}")
+    out.append(f"EXPOSURE VERDICT: {res.exposure_verdict}")
+    out.extend(f"  - {line}" for line in res.exposure_reasons)
+    out.append(f"EQUIPMENT VERDICT: {res.equipment_verdict}")
+    out.extend(f"  - {line}" for line in res.equipment_reasons)
     return "\n".join(out)
 
 
@@ -138,7 +136,10 @@ def site(file: Path = typer.Argument(..., help="Site file (.toml)."),
          force: bool = typer.Option(False, "--force", help="Overwrite existing output files.")) -> None:
     """Review an event site: keep-out zones of every station, areas, violations, rope-off radii.
 
-    Exit status: 0 no violation and no rating exceeded, 1 a violation or exceeded rating, 2 bad input.
+    Two verdicts are given: exposure (people in each area against their limits) and equipment (lines,
+    connectors, tuners against their ratings). Exit status: 0 no violation and no rating exceeded;
+    1 a violation (whatever the equipment); 4 no violation but a rating is exceeded; 2 bad input;
+    3 internal error.
     """
     from rfsafe.cli.output import print_json, warn
     from rfsafe.fileio import OutputSet

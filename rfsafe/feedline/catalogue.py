@@ -1,7 +1,8 @@
 """Feedline and connector catalogue: generic cable classes by designation, connector series.
 
 Every row of ``data/cables.csv`` and ``data/connectors.csv`` carries a ``source`` column saying where
-the figures come from ("from memory" or "common practice": no maker data, no brand names).
+the figures come from (no brand names) and a ``verification`` column saying which of them were read in a
+published text or a reproduction of one (see :mod:`rfsafe.verification`).
 """
 
 from __future__ import annotations
@@ -45,6 +46,7 @@ class CableClass:
     max_voltage_v_rms: float | None = None
     max_power_ref_freq_hz: float | None = None
     balanced: bool = False
+    verification: str = "not confirmed"
 
 
 @dataclass(frozen=True)
@@ -55,6 +57,7 @@ class ConnectorSeries:
     description: str
     max_voltage_v_peak: float
     source: str
+    verification: str = "not confirmed"
 
 
 def _opt_float(text: str) -> float | None:
@@ -79,6 +82,7 @@ def _cables() -> dict[str, CableClass]:
                 max_voltage_v_rms=v_rms,
                 max_power_ref_freq_hz=None if ref_mhz is None else ref_mhz * 1e6,
                 balanced=not row["id"].startswith("rg-"),
+                verification=(row.get("verification") or "").strip() or "not confirmed",
             )
     return out
 
@@ -89,7 +93,8 @@ def _connectors() -> dict[str, ConnectorSeries]:
     with resources.files("rfsafe.feedline").joinpath("data/connectors.csv").open(encoding="utf-8") as fh:
         for row in csv.DictReader(fh):
             out[row["id"]] = ConnectorSeries(row["id"], row["description"],
-                                             float(row["max_voltage_v_peak"]), row["source"])
+                                             float(row["max_voltage_v_peak"]), row["source"],
+                                             (row.get("verification") or "").strip() or "not confirmed")
     return out
 
 

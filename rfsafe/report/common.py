@@ -306,16 +306,47 @@ def verdict_box(verdict: str, detail: str, width: float) -> Table:
     return t
 
 
+#: Colour of a verdict that is neither good nor bad (not evaluated, not rated): dark grey.
+UNDECIDED_COLOR = colors.HexColor("#4d4d4d")
+
+
+def verdicts_box(entries, width: float) -> Table:
+    """Separate verdicts stacked in one box, each in its own colour.
+
+    ``entries`` are ``(label, word, ok, detail)``: ``ok`` True (green, ✓), False (red, ✗) or None
+    (grey, –: not evaluated or not rated). The word and the symbol carry the meaning; the colour only
+    repeats it.
+    """
+    base = styles()["verdict"]
+    rows, style = [], [("FONTNAME", (0, 0), (-1, -1), FONT), ("LEFTPADDING", (0, 0), (-1, -1), 6),
+                       ("RIGHTPADDING", (0, 0), (-1, -1), 6)]
+    for label, word, ok, detail in entries:
+        text = f"{label}: {'✓' if ok else ('✗' if ok is False else '–')} {word.upper()}"
+        size = min(base.fontSize, 16)
+        while size > 9 and stringWidth(text, FONT_BOLD, size) > width - 14:
+            size -= 1
+        big = ParagraphStyle("verdict_fit", parent=base, fontSize=size, leading=size * 1.2)
+        k = len(rows)
+        rows += [[Paragraph(escape(text), big)], [p(detail, "verdict_detail")]]
+        colour = COMPLIES_COLOR if ok else (EXCEEDS_COLOR if ok is False else UNDECIDED_COLOR)
+        style += [("BACKGROUND", (0, k), (-1, k + 1), colour), ("TOPPADDING", (0, k), (-1, k), 6),
+                  ("BOTTOMPADDING", (0, k), (-1, k), 2), ("BOTTOMPADDING", (0, k + 1), (-1, k + 1), 7),
+                  ("LINEBELOW", (0, k + 1), (-1, k + 1), 2, colors.white)]
+    t = Table(rows, colWidths=[width], hAlign="LEFT")
+    t.setStyle(TableStyle(style))
+    return t
+
+
 def identity_block(*, title: str, subtitle: str | None, rows, verdict: str, verdict_detail: str,
-                   width: float) -> list:
-    """Title, identity rows (label, value) beside the verdict box."""
+                   width: float, verdicts=None) -> list:
+    """Title, identity rows (label, value) beside the verdict box (``verdicts``: see :func:`verdicts_box`)."""
     out = [p(title, "title")]
     if subtitle:
         out.append(p(subtitle, "subtitle"))
     box_w = 62 * mm
     gap = 5 * mm
     ident = kv_table(rows, [36 * mm, width - box_w - gap - 36 * mm])
-    box = verdict_box(verdict, verdict_detail, box_w)
+    box = verdicts_box(verdicts, box_w) if verdicts else verdict_box(verdict, verdict_detail, box_w)
     outer = Table([[ident, "", box]], colWidths=[width - box_w - gap, gap, box_w], hAlign="LEFT")
     outer.setStyle(TableStyle([("FONTNAME", (0, 0), (-1, -1), FONT), ("VALIGN", (0, 0), (-1, -1), "TOP"),
                                ("LEFTPADDING", (0, 0), (-1, -1), 0), ("RIGHTPADDING", (0, 0), (-1, -1), 0),

@@ -69,19 +69,21 @@ def _identity(res, width) -> list:
     ]
     n_v = len(res.violations)
     rated = [x for s in res.stations for x in s.exceeded_parts]
-    if res.verdict == "COMPLIES":
+    if not n_v:
         rope = [t for t in res.transmitters if t.rope_off_radius_m]
         detail = (f"no area above its limit; {len(rope)} station{'s' if len(rope) != 1 else ''} "
                   "need a roped keep-out zone (section 2)" if rope else "no area above its limit; no keep-out zone")
     else:
-        parts = []
-        if n_v:
-            parts.append(f"{n_v} violation{'s' if n_v != 1 else ''}")
-        if rated:
-            parts.append(f"{len(rated)} rating{'s' if len(rated) != 1 else ''} exceeded")
-        detail = " and ".join(parts) + ": see the list below"
+        detail = f"{n_v} violation{'s' if n_v != 1 else ''}: see the list below"
+    equipment_detail = {"RATING EXCEEDED": f"{len(rated)} rating{'s' if len(rated) != 1 else ''} exceeded: see the "
+                                           "list below",
+                        "NOT RATED": "no rating known: stress computed, not compared"}.get(
+                            res.equipment_verdict, res.equipment_reasons[0] if res.equipment_reasons else "")
+    verdicts = [("Exposure", res.exposure_verdict, res.exposure_verdict == "COMPLIES", detail),
+                ("Equipment", res.equipment_verdict,
+                 {"WITHIN RATINGS": True, "RATING EXCEEDED": False}.get(res.equipment_verdict), equipment_detail)]
     out = identity_block(title=res.title or "Event site RF exposure review", subtitle="Event site RF exposure review",
-                         rows=rows, verdict=res.verdict, verdict_detail=detail, width=width)
+                         rows=rows, verdict=res.verdict, verdict_detail=detail, width=width, verdicts=verdicts)
     hashes = [("SHA-256 of the site file", res.input_sha256)]
     hashes += [(f"SHA-256 of {s.source}", s.source_sha256) for s in res.stations if s.source_sha256]
     out.insert(-1, kv_table(hashes, [46 * mm, width - 46 * mm]))

@@ -118,18 +118,27 @@ def _identity(res, width) -> list:
                                               else "NOT EXEMPT: a routine evaluation is required")
                      + f"; see section {_exemption_number(res)}"))
     n_places = len(res.places)
-    if res.verdict == "COMPLIES":
-        detail = (f"all {n_places} place{'s' if n_places != 1 else ''} within the limits; no rating exceeded"
-                  if n_places else "no places declared; no rating exceeded")
+    n_over = sum(pl.verdict != "complies" for pl in res.places)
+    if res.exposure_verdict == "NOT EVALUATED":
+        detail = "no place declared: compliance is not claimed; see the compliance distances"
+    elif n_over:
+        detail = f"{n_over} of {n_places} place{'s' if n_places != 1 else ''} above the limit: see the list below"
     else:
-        detail = f"{len(res.exceeded)} limit{'s' if len(res.exceeded) != 1 else ''} or rating" \
-                 f"{'s' if len(res.exceeded) != 1 else ''} exceeded: see the list below"
+        detail = f"all {n_places} place{'s' if n_places != 1 else ''} within the limits"
     if res.places:
         worst = max(res.places, key=lambda pl: pl.total_ratio)
         label = worst.label if len(worst.label) <= 36 else worst.label[:35].rstrip() + "…"
         detail += f"; highest place total {ratio_text(worst.total_ratio)} ({label})"
+    n_parts = sum(len(c.exceeded_parts) for c in res.configurations)
+    equipment_detail = {"RATING EXCEEDED": f"{n_parts} rating{'s' if n_parts != 1 else ''} exceeded: see the list below",
+                        "NOT RATED": "no rating known: stress computed, not compared"}.get(
+                            res.equipment_verdict, res.equipment_reasons[0] if res.equipment_reasons else "")
+    verdicts = [("Exposure", res.exposure_verdict, {"COMPLIES": True, "EXCEEDS": False}.get(res.exposure_verdict),
+                 detail),
+                ("Equipment", res.equipment_verdict,
+                 {"WITHIN RATINGS": True, "RATING EXCEEDED": False}.get(res.equipment_verdict), equipment_detail)]
     out = identity_block(title=res.title or "RF exposure evaluation", subtitle="RF exposure evaluation worksheet",
-                         rows=rows, verdict=res.verdict, verdict_detail=detail, width=width)
+                         rows=rows, verdict=res.verdict, verdict_detail=detail, width=width, verdicts=verdicts)
     out.insert(-1, kv_table([("SHA-256 of the station file", res.input_sha256)], [46 * mm, width - 46 * mm]))
     if res.exceeded:
         st = styles()["body"]

@@ -73,7 +73,10 @@ class SiteResult:
     violations: tuple[Violation, ...]
     keep_out_points: dict[str, int]
     exceeded: tuple[str, ...]          # violations, then line/tuner ratings exceeded
-    verdict: str                       # "COMPLIES" or "EXCEEDS"
+    exposure_verdict: str              # "COMPLIES" or "EXCEEDS" (people in the areas against their limits)
+    exposure_reasons: tuple[str, ...]
+    equipment_verdict: str             # "WITHIN RATINGS", "RATING EXCEEDED" or "NOT RATED"
+    equipment_reasons: tuple[str, ...]
     method_notes: tuple[str, ...]
     flags: tuple[str, ...]
     cautions: tuple[str, ...]
@@ -81,8 +84,18 @@ class SiteResult:
     grid: SiteGrid | None = field(default=None, repr=False)
 
     @property
+    def verdict(self) -> str:
+        """Both verdicts in one headline (page headers; not in the JSON)."""
+        from rfsafe.results import verdict_headline
+
+        return verdict_headline(self.exposure_verdict, self.equipment_verdict)
+
+    @property
     def exit_code(self) -> int:
-        return 0 if self.verdict == "COMPLIES" else 1
+        """Exit status of ``site``: as ``evaluate`` (rfsafe.results.EXIT_STATUS_HELP)."""
+        from rfsafe.results import exit_status
+
+        return exit_status(self.exposure_verdict, self.equipment_verdict)
 
 
 def limit_equivalent_w_m2(limits, power_w: float, pep_w: float) -> float:
@@ -158,6 +171,27 @@ def site_emitters(loaded_site) -> tuple[list[SiteEmitter], list[SiteStationResul
     return out, stations, flags
 
 
+def _site_verdicts(analysis, stations) -> dict:
+    """Exposure verdict from the areas' violations; equipment verdict from every station's line results."""
+    from rfsafe.assess import equipment_verdict
+
+    if analysis.violations:
+        exposure, why = "EXCEEDS", tuple(v.text for v in analysis.violations)
+    else:
+        rope = [t.transmitter for t in analysis.transmitters if t.rope_off_radius_m]
+        why = ("no area above the limit of the people allowed there"
+               + (f"; keep-out zones to rope off: {', '.join(rope)}" if rope else "; no keep-out zone"),)
+        exposure = "COMPLIES"
+    near = [r.label for r in analysis.regions if r.near_field_points and r.checked_environment]
+    if near:
+        why += ("far-field estimate inside some antenna's near field in " + ", ".join(repr(n) for n in near)
+                + ": confirm by near-field analysis or measurement",)
+    equipment, reasons = equipment_verdict([(f"station {s.name}, configuration {c.id}", c.line)
+                                            for s in stations for c in s.configurations])
+    return dict(exposure_verdict=exposure, exposure_reasons=why, equipment_verdict=equipment,
+                equipment_reasons=reasons)
+
+
 def assess_site(loaded_site, *, today=None, progress: Callable[[int, int], None] | None = None) -> SiteResult:
     """Evaluate a loaded site file (see :func:`rfsafe.site.load_site`).
 
@@ -227,6 +261,6 @@ def assess_site(loaded_site, *, today=None, progress: Callable[[int, int], None]
         boundary=loaded_site.boundary, areas=loaded_site.areas, stations=tuple(stations),
         transmitters=analysis.transmitters, regions=analysis.regions, violations=analysis.violations,
         keep_out_points=analysis.keep_out_points, exceeded=tuple(exceeded),
-        verdict="COMPLIES" if not exceeded else "EXCEEDS", method_notes=notes,
+        **_site_verdicts(analysis, stations), method_notes=notes,
         flags=tuple(dict.fromkeys(flags + list(analysis.flags))), cautions=tuple(CAUTIONS) + SITE_CAUTIONS,
         emitters=tuple(ems), grid=g)
