@@ -199,7 +199,7 @@ def test_a_set_killed_midway_never_mixes_old_and_new(tmp_path, after_renames):
 
 # ----------------------------------------------------------------------------- real interruptions
 
-KILLS = int(os.environ.get("RFSAFE_KILL_RUNS", "6"))   # per signal; RFSAFE_KILL_RUNS=100 for a long run
+KILLS = int(os.environ.get("RFSAFE_KILL_RUNS", "4"))   # per signal; RFSAFE_KILL_RUNS=100 for a long run
 
 
 def _run_site(site: Path, pdf: Path, csv: Path) -> subprocess.Popen:
