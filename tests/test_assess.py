@@ -249,3 +249,39 @@ def test_sc6_nerve_stimulation_uses_pep_not_average(tmp_path):
     assert x.exposure_ratio == pytest.approx(s_pep * 377.0 / 83.0 ** 2, rel=1e-9)
     s_avg = 4.0 * c.eirp_w["uncontrolled"] / (4 * math.pi * x.dist_m ** 2)
     assert x.exposure_ratio > s_avg * 377.0 / (87 / math.sqrt(3.6)) ** 2  # the averaged limit gives less
+
+
+def test_no_places_is_not_evaluated_never_complies(tmp_path):
+    """A station without [[places]] judges nobody: the exposure verdict says so (exit 5), never COMPLIES;
+    the compliance distances are still computed (OET Bulletin 65 section 2 prediction equation)."""
+    import re
+
+    text = re.sub(r"\[\[places\]\][^\[]*", "", BASE)
+    path = tmp_path / "noplaces.toml"
+    path.write_text(text)
+    result = CliRunner().invoke(app, ["evaluate", str(path), "--json"])
+    assert result.exit_code == 5, result.stderr
+    doc = json.loads(result.stdout)
+    assert doc["places"] == []
+    assert doc["exposure_verdict"] == "NOT EVALUATED"
+    assert "no place" in doc["exposure_reasons"][0]
+    assert all(d["dist_m"] > 0 for c in doc["configurations"] for d in c["compliance_distances"])
+    table = CliRunner().invoke(app, ["evaluate", str(path)])
+    assert "EXPOSURE VERDICT: NOT EVALUATED" in table.stdout and "COMPLIES" not in table.stdout.split(
+        "EXPOSURE VERDICT")[1].splitlines()[0]
+
+
+def test_exit_status_combines_the_two_verdicts_as_help_says():
+    """Exposure first (people before hardware), then equipment; the --help of each command says so."""
+    from rfsafe.results import exit_status
+
+    assert exit_status("COMPLIES", "WITHIN RATINGS") == 0
+    assert exit_status("COMPLIES", "NOT RATED") == 0
+    assert exit_status("EXCEEDS", "WITHIN RATINGS") == 1
+    assert exit_status("EXCEEDS", "RATING EXCEEDED") == 1
+    assert exit_status("COMPLIES", "RATING EXCEEDED") == 4
+    assert exit_status("NOT EVALUATED", "RATING EXCEEDED") == 5
+    for cmd in ("evaluate", "report", "site"):
+        out = " ".join(CliRunner().invoke(app, [cmd, "--help"]).stdout.split())
+        assert "1 an exposure limit is exceeded" in out or "1 a violation" in out, cmd
+        assert "4 " in out and "2 bad input" in out and "3 internal error" in out, cmd

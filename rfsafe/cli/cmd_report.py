@@ -26,8 +26,10 @@ def report(file: Path = typer.Argument(..., help="Station file (.toml)."),
     sign-off lines. Nothing is overwritten without --force; the PDF is written to a temporary
     file and renamed, so an interrupted run leaves no partial file.
 
-    Exit status: 0 compliant, 1 a limit or rating is exceeded (the PDF is written in both
-    cases), 2 bad input.
+    Exposure and equipment verdicts are shown separately. Exit status (the PDF is written in every
+    case but bad input): 0 exposure complies at every place and no rating is exceeded; 1 an exposure
+    limit is exceeded at some place; 4 exposure complies but a rating is exceeded; 5 no place was
+    evaluated; 2 bad input; 3 internal error.
     """
     from rfsafe.assess import assess
     from rfsafe.fileio import OutputSet
