@@ -89,6 +89,8 @@ def styles() -> dict[str, ParagraphStyle]:
         "h2": ParagraphStyle("h2", parent=base, fontName=FONT_BOLD, fontSize=10, leading=13,
                              textColor=ACCENT, spaceBefore=6, spaceAfter=3, keepWithNext=1),
         "small": ParagraphStyle("small", parent=base, fontSize=7.5, leading=9.5, spaceAfter=2),
+        # a small paragraph that introduces what follows: never left alone at a page foot
+        "lead": ParagraphStyle("lead", parent=base, fontSize=7.5, leading=9.5, spaceAfter=2, keepWithNext=1),
         "bullet": ParagraphStyle("bullet", parent=base, leftIndent=10, bulletIndent=2, spaceAfter=2),
         "cell": ParagraphStyle("cell", parent=base, fontSize=7.5, leading=9, spaceAfter=0),
         "cell_bold": ParagraphStyle("cell_bold", parent=base, fontName=FONT_BOLD, fontSize=7.5, leading=9,

@@ -19,7 +19,7 @@ from reportlab.platypus import Table, TableStyle
 from rfsafe.report.common import FONT, GRID
 from rfsafe.report.plots import PALETTE, Axes, linear_ticks, log_range, new_drawing
 
-__all__ = ["exposure_distance_figure", "exposure_plot_ranges", "exposure_legend", "line_profile_figure", "figure_grid",
+__all__ = ["exposure_distance_figure", "exposure_plot_ranges", "exposure_legend", "line_profile_figure", "figure_grid", "figure_rows",
            "ENV_DASH", "ENV_SHAPE"]
 
 ENV_DASH = {"controlled": (4, 2), "uncontrolled": None}
@@ -56,7 +56,12 @@ def exposure_plot_ranges(cfg, places) -> tuple[tuple[float, float], tuple[float,
     return xlim, ylim
 
 
-def exposure_distance_figure(cfg, places, *, width: float, height: float, place_numbers: dict):
+#: Horizontal-distance curves (uncontrolled limit): dash pattern per level.
+LEVEL_DASH = {"ground": (0.8, 1.6), "head": (5, 1.5, 1, 1.5)}
+
+
+def exposure_distance_figure(cfg, places, *, width: float, height: float, place_numbers: dict,
+                             antenna_height_m: float | None = None, head_heights_m=()):
     """Exposure ratio versus distance for one configuration (log-log).
 
     Parameters
@@ -69,6 +74,11 @@ def exposure_distance_figure(cfg, places, *, width: float, height: float, place_
         Drawing size [pt].
     place_numbers : dict
         Place label -> marker label (e.g. ``"P1"``), as used in the places table.
+    antenna_height_m : float, optional
+        Height of the antenna's centre of radiation [m]; when given, the uncontrolled ratio is also
+        drawn against the horizontal distance from the point below the antenna, at ground level
+        and at head height (worst of ``head_heights_m``), from
+        :func:`rfsafe.exposure.ratio_at_horizontal_distance`.
 
     Returns
     -------
@@ -97,6 +107,18 @@ def exposure_distance_figure(cfg, places, *, width: float, height: float, place_
             continue
         ax.segment(xlim[0], _curve(dist[env], xlim[0]), xlim[1], _curve(dist[env], xlim[1]),
                    color=PALETTE[env], width=1.1, dash=ENV_DASH[env])
+    if antenna_height_m is not None and dist.get("uncontrolled", 0) > 0:
+        import numpy as np
+
+        from rfsafe.exposure import ratio_at_horizontal_distance
+
+        rho = np.logspace(np.log10(xlim[0]), np.log10(xlim[1]), 60)
+        levels = {"ground": antenna_height_m}
+        if head_heights_m:
+            levels["head"] = min(abs(antenna_height_m - z) for z in head_heights_m)
+        for level, dz in levels.items():
+            r = np.clip(ratio_at_horizontal_distance(dist["uncontrolled"], rho, dz), ylim[0], ylim[1])
+            ax.polyline(rho, r, color=PALETTE["uncontrolled"], width=0.7, dash=LEVEL_DASH[level])
     # compliance distances: a dotted line down from the limit line (values in the caption)
     for env in ("controlled", "uncontrolled"):
         if env in dist and xlim[0] <= dist[env] <= xlim[1]:
@@ -120,19 +142,23 @@ def exposure_legend(width: float) -> Drawing:
     """One legend shared by the exposure-versus-distance figures."""
     fs = Axes.font_size
     entries = [
-        ("line", PALETTE["uncontrolled"], None, "uncontrolled: peak-gain far-field envelope (d/R)²"),
+        ("line", PALETTE["uncontrolled"], None, "uncontrolled: peak-gain far-field envelope (d/R)², R 3-D"),
         ("line", PALETTE["controlled"], ENV_DASH["controlled"], "controlled: the same with the controlled limit"),
         ("line", PALETTE["limit"], None, "limit: exposure ratio = 1 (each environment's own limit)"),
         ("band", PALETTE["near_field"], None, "inside λ/2π (or 2D²/λ): far-field estimate not valid"),
         ("circle", PALETTE["uncontrolled"], None, "place in an uncontrolled area (gain toward it)"),
         ("square", PALETTE["controlled"], None, "place in a controlled area (gain toward it)"),
     ]
-    col_w = width / 2
-    h = 36
+    entries += [
+        ("line", PALETTE["uncontrolled"], LEVEL_DASH["ground"],
+         "uncontrolled, horizontal distance from below the antenna at ground level"),
+        ("line", PALETTE["uncontrolled"], LEVEL_DASH["head"], "the same at head height (worst of the body heights)"),
+    ]
+    h = 9.5 * len(entries) + 2
     d = new_drawing(width, h)
-    for i, (kind, color, dash, label) in enumerate(entries):
-        x = (i % 2) * col_w
-        y = h - 8 - (i // 2) * 11
+    for i, (kind, color, dash, label) in enumerate(entries):   # one column: one legend, read top to bottom
+        x = 0
+        y = h - 8 - i * 9.5
         if kind == "line":
             d.add(Line(x + 2, y + 2, x + 16, y + 2, strokeColor=color, strokeWidth=1.2, strokeDashArray=dash))
         elif kind == "square":
@@ -227,6 +253,12 @@ def _max_label(ax, xv, yv, text, color):
     ax.label([(X + 4, Y + 3.5, "start"), (X - 4, Y + 3.5, "end"), (X + 4, Y - fs - 2, "start"),
               (X - 4, Y - fs - 2, "end"), (X, Y + 4, "middle"), (X, Y - fs - 3, "middle")],
              text, color=color, bold=True, backing=True)
+
+
+def figure_rows(drawings, width: float, *, columns: int = 2) -> list:
+    """Like :func:`figure_grid`, one table per row, so that a page can end between rows and a heading
+    is kept with the first row only."""
+    return [figure_grid(drawings[i:i + columns], width, columns=columns) for i in range(0, len(drawings), columns)]
 
 
 def figure_grid(drawings, width: float, *, columns: int = 2) -> Table:

@@ -23,6 +23,7 @@ from __future__ import annotations
 
 import io
 import math
+import re
 from pathlib import Path
 from xml.sax.saxutils import escape
 
@@ -32,7 +33,7 @@ from reportlab.platypus import CondPageBreak, Image, KeepTogether, PageBreak, Pa
 from rfsafe.report.common import (COMPLIES_COLOR, EXCEEDS_COLOR, FONT_BOLD, build_pdf, cautions_block, data_table,
                                   frame_width, grouped_flags, identity_block, kv_table, margin_text, num, p,
                                   ratio_text, section_heading, signoff_block, styles)
-from rfsafe.report.figures import exposure_distance_figure, exposure_legend, figure_grid, line_profile_figure
+from rfsafe.report.figures import exposure_distance_figure, exposure_legend, figure_rows, line_profile_figure
 from rfsafe.report.near_field import comparison_exposures, near_field_comparison_section, near_field_map_section
 from rfsafe.exposure import horizontal_compliance_distance_m
 from rfsafe.report.plan_map import plan_map_png
@@ -74,23 +75,49 @@ def _quantity(name: str) -> str:
     return _STRESS_QUANTITY.get(name, name.replace("_", " "))
 
 
+_NUMBER = re.compile(r"(?<![A-Za-z\[])[-+]?\d+(?:\.\d+)?(?:e[-+]?\d+)?")
+
+
 class _Notes:
     """Footnotes of one table: identical texts share one number."""
 
     def __init__(self, prefix: str = ""):
         self.prefix = prefix
-        self.texts: list[str] = []
+        self.keys: list[str] = []
+        self.texts: list[list[str]] = []
 
     def ref(self, texts) -> str:
+        """Reference marks of ``texts``; texts that differ only in their numbers share one note."""
         refs = []
         for t in texts:
-            if t not in self.texts:
-                self.texts.append(t)
-            refs.append(f"{self.prefix}{self.texts.index(t) + 1}")
-        return ", ".join(f"[{r}]" for r in refs)
+            key = _NUMBER.sub("#", t)
+            if key not in self.keys:
+                self.keys.append(key)
+                self.texts.append([])
+            k = self.keys.index(key)
+            if t not in self.texts[k]:
+                self.texts[k].append(t)
+            refs.append(f"{self.prefix}{k + 1}")
+        return ", ".join(f"[{r}]" for r in dict.fromkeys(refs))
+
+    def note_texts(self) -> list[str]:
+        """One text per note: a shared wording shows its numbers row by row, in the order first seen."""
+        out = []
+        for key, group in zip(self.keys, self.texts):
+            if len(group) == 1:
+                out.append(group[0])
+                continue
+            columns = list(zip(*(_NUMBER.findall(t) for t in group)))
+            pieces = key.split("#")
+            text = pieces[0]
+            for col, piece in zip(columns, pieces[1:]):
+                values = list(dict.fromkeys(col))
+                text += (values[0] if len(values) == 1 else " / ".join(values) + " (in order)") + piece
+            out.append(text)
+        return out
 
     def flowables(self) -> list:
-        return [p(f"[{self.prefix}{i + 1}] {t}", "small") for i, t in enumerate(self.texts)]
+        return [p(f"[{self.prefix}{i + 1}] {t}", "small") for i, t in enumerate(self.note_texts())]
 
 
 # ------------------------------------------------------------------ 1 identity
@@ -167,47 +194,62 @@ def _coloured(text: str, ok: bool, style: str = "cell") -> Paragraph:
 def _station(res, width, numbers) -> list:
     """Section 1: the plan, the antennas and the places, as declared."""
     out = [section_heading("1", "The station")]
+    out.append(section_heading("1.1", "Antennas", level=1))
+    rows = []
+    for a in res.antennas:
+        heading = _orientation(a)
+        size = "not declared" if a.size_m is None else f"{_dist(a.size_m)} m"
+        rows.append([a.id, a.kind, _xyz(a.x_m, a.y_m, a.height_m), heading,
+                     a.polarisation, f"{size}: {a.size_basis}", a.description or "–"])
+    out.append(data_table(["antenna", "kind", "x, y, height m", "orientation", "polarisation", "size (largest "
+                           "dimension) and its basis", "description"], rows,
+                          [24 * mm, 22 * mm, 20 * mm, 26 * mm, 17 * mm, 38 * mm, width - 147 * mm],
+                          align="lllllll"))
+    out.append(section_heading("1.2", "Places", level=1))
+    if not res.places:
+        out.append(p("No places are declared in the station file.", "body"))
+    rows = []
+    for pl in res.places:
+        rows.append([numbers[pl.label], pl.label, _xyz(pl.x_m, pl.y_m, pl.height_m),
+                     f"{pl.environment} ({res.environment_labels.get(pl.environment, pl.environment)})",
+                     pl.why or "not stated in the station file"])
+    if rows:
+        out.append(data_table(["#", "place", "x, y, height m", "environment", "why this environment"], rows,
+                              [8 * mm, 44 * mm, 22 * mm, 52 * mm, width - 126 * mm], align="lllll"))
     if res.plan is not None and res.antennas:
-        out.append(section_heading("1.1", "Plan", level=1))
         png, w_in, h_in = plan_map_png(res, place_numbers=numbers)
         scale = min(1.0, width / (w_in * 72.0))
         img = Image(io.BytesIO(png), width=w_in * 72.0 * scale, height=h_in * 72.0 * scale)
         plan = res.plan
         tops = "; ".join(f"{lvl} {env} {ratio_text(plan.max_ratio[f'{lvl} {env}'])}"
                          for lvl in ("ground", "head") for env in ENVIRONMENTS)
-        caption = ("Seen from above, x east and y north in metres. Antennas are drawn to the size in the table below; "
-                   "places are numbered as in section 4. Colour: total exposure ratio against the uncontrolled "
+        caption = ("Seen from above, x east and y north in metres. Antennas are drawn to the size in section 1.1; "
+                   "places are numbered as in section 1.2. Colour: total exposure ratio against the uncontrolled "
                    "limit at head height. Lines: where the total ratio reaches 1 at ground level (0 m, blue) and at "
                    f"head height (worst of {', '.join(f'{h:g}' for h in plan.heights_m['head'])} m, magenta), "
                    "solid for the uncontrolled limit (the public is kept out inside), dashed for the controlled "
                    f"limit (nobody inside). Largest ratio on the plan: {tops}. Method: {plan.method}. Inside an "
                    "antenna's near-field boundary this is a far-field estimate only (see the flags).")
-        out.append(KeepTogether([img, p(caption, "caption")]))
-    out.append(section_heading("1.2", "Antennas", level=1))
-    rows = []
-    for a in res.antennas:
-        heading = (f"{a.azimuth_deg:g}° from north, tilt {a.tilt_deg:g}°" if a.kind in ("beam", "table")
-                   else ("vertical" if a.polarisation == "vertical" or a.kind == "quarter-wave-vertical"
-                         else f"wire broadside to {a.azimuth_deg:g}°"))
-        size = "not declared" if a.size_m is None else f"{_dist(a.size_m)} m"
-        rows.append([a.id, a.kind, f"{_dist(a.x_m)}, {_dist(a.y_m)}, {_dist(a.height_m)}", heading,
-                     a.polarisation, f"{size}: {a.size_basis}", a.description or "–"])
-    out.append(data_table(["antenna", "kind", "x, y, height m", "orientation", "polarisation", "size (largest "
-                           "dimension) and its basis", "description"], rows,
-                          [24 * mm, 22 * mm, 20 * mm, 26 * mm, 17 * mm, 38 * mm, width - 147 * mm],
-                          align="lllllll"))
-    out.append(section_heading("1.3", "Places", level=1))
-    if not res.places:
-        out.append(p("No places are declared in the station file.", "body"))
-        return out
-    rows = []
-    for pl in res.places:
-        rows.append([numbers[pl.label], pl.label, f"{_dist(pl.x_m)}, {_dist(pl.y_m)}, {_dist(pl.height_m)}",
-                     f"{pl.environment} ({res.environment_labels.get(pl.environment, pl.environment)})",
-                     pl.why or "not stated in the station file"])
-    out.append(data_table(["#", "place", "x, y, height m", "environment", "why this environment"], rows,
-                          [8 * mm, 44 * mm, 22 * mm, 52 * mm, width - 126 * mm], align="lllll"))
+        out.append(KeepTogether([section_heading("1.3", "Plan", level=1), img, p(caption, "caption")]))
     return out
+
+
+def _orientation(a) -> str:
+    """How an antenna points, in words: beam heading, vertical, or the bearing its wire runs along."""
+    if a.kind in ("beam", "table"):
+        return f"beam heading {a.azimuth_deg % 360:g}° from north, tilt {a.tilt_deg:g}°"
+    if a.polarisation == "vertical" or a.kind == "quarter-wave-vertical":
+        return "vertical"
+    if a.kind == "wire" or len(a.segments_m) != 1:
+        return "as the wire geometry runs (see the plan)" if a.kind == "wire" else "–"
+    (x1, y1, _), (x2, y2, _) = a.segments_m[0]
+    bearing = math.degrees(math.atan2(x2 - x1, y2 - y1)) % 180.0
+    return f"runs {bearing:g}°–{bearing + 180:g}° from north (broadside to {a.azimuth_deg % 360:g}°)"
+
+
+def _xyz(*values) -> str:
+    """Coordinates [m] as declared, to the centimetre, without trailing zeros."""
+    return ", ".join(f"{round(float(v), 2):g}" for v in values)
 
 
 def _dist(x) -> str:
@@ -242,7 +284,7 @@ def _method(res, width) -> list:
                      _pair(c.transmit_fraction, lambda v: f"{v:.3g}"),
                      f"{c.gain_dbi:.2f} dBi, {c.gain_source}; toward places: "
                      f"{', '.join(gain_methods) if gain_methods else '–'}", nf])
-    out.append(p("Per configuration (controlled / uncontrolled where two values are given):", "small"))
+    out.append(p("Per configuration (controlled / uncontrolled where two values are given):", "lead"))
     out.append(data_table(["configuration", "duty factor and its source", "schedule", "averaging min",
                            "window fill", "gain", "near-field boundary m"], rows,
                           [22 * mm, 44 * mm, 20 * mm, 17 * mm, 16 * mm, 38 * mm, width - 157 * mm],
@@ -254,7 +296,7 @@ def _method(res, width) -> list:
             rows.append([c.id, cd.environment, cd.limit_basis,
                          "none" if cd.averaging_minutes is None else f"{cd.averaging_minutes:g}",
                          _QUANTITY.get(cd.governing, cd.governing), cd.limit_source])
-    out.append(p("Limits applied (the limit that sets each compliance distance):", "small"))
+    out.append(p("Limits applied (the limit that sets each compliance distance):", "lead"))
     out.append(data_table(["configuration", "environment", "basis", "averaging min", "governs", "limit source"],
                           rows, [22 * mm, 22 * mm, 22 * mm, 17 * mm, 15 * mm, width - 98 * mm],
                           align="lllrll"))
@@ -265,7 +307,7 @@ def _method(res, width) -> list:
 def _configurations(res, width) -> list:
     out = [section_heading("3", "Configurations")]
     out.append(p("Average powers after the mode duty factor and the averaging-window fill; values given "
-                 "as controlled / uncontrolled where the averaging time differs by environment.", "small"))
+                 "as controlled / uncontrolled where the averaging time differs by environment.", "lead"))
     cfgs = list(res.configurations)
     for k in range(0, len(cfgs), _CONFIGS_PER_TABLE):
         chunk = cfgs[k:k + _CONFIGS_PER_TABLE]
@@ -300,7 +342,7 @@ def _configurations(res, width) -> list:
                  "the far-field prediction: straight-line (3-D) distance from the antenna's centre of radiation, "
                  "and the horizontal distance from the point below it at ground level (0 m) and at head height "
                  f"(worst of {', '.join(f'{h:g}' for h in heads)} m). A distance inside the near-field boundary "
-                 "is flagged: the far-field estimate is not valid there.", "small"))
+                 "is flagged: the far-field estimate is not valid there.", "lead"))
     rows = []
     heights = {a.id: a.height_m for a in res.antennas}
     for c in res.configurations:
@@ -351,7 +393,7 @@ def _every_limit(res, width) -> list:
     title = "Nerve stimulation and time-averaged limits" if nerve else "Each limit on its own"
     return [section_heading("3.2", title, level=1),
             p("The standard sets more than one limit at these frequencies; each limit's own compliance distance "
-              "is shown, and the largest sets the distance in section 3.1.", "small"),
+              "is shown, and the largest sets the distance in section 3.1.", "lead"),
             data_table(["configuration", "environment", "limit", "governs", "distance m", "EIRP compared W",
                         "role", "limit source"], rows,
                        [22 * mm, 20 * mm, 34 * mm, 13 * mm, 24 * mm, 17 * mm, 22 * mm, width - 152 * mm],
@@ -376,7 +418,7 @@ def _places(res, width, numbers) -> list:
     for pl in res.places:
         shares = Paragraph(" +<br/>".join(_esc(f"{s.configuration} {ratio_text(s.exposure_ratio)}")
                                           for s in pl.contributions), styles()["cell"])
-        rows.append([numbers[pl.label], pl.label, f"{pl.x_m:g}, {pl.y_m:g}, {pl.height_m:g}",
+        rows.append([numbers[pl.label], pl.label, _xyz(pl.x_m, pl.y_m, pl.height_m),
                      pl.environment, ratio_text(pl.total_ratio),
                      margin_text(pl.total_margin_db), _coloured(pl.verdict.upper(), pl.verdict == "complies"),
                      shares])
@@ -456,7 +498,7 @@ def _exemption(ex, width, number) -> list:
                               [22 * mm, 58 * mm, 34 * mm, 18 * mm, 16 * mm, 15 * mm, width - 163 * mm],
                               align="lllrrrr"))
     if notes.texts:
-        out.append(p("Other criteria considered:", "small"))
+        out.append(p("Other criteria considered:", "lead"))
         out.extend(notes.flowables())
     for a in ex.assumptions:
         out.append(Paragraph(_esc(a), styles()["small"], bulletText="·"))
@@ -470,7 +512,7 @@ def _line_stress(res, width) -> list:
     out = [section_heading("5", "Line and tuner stress")]
     out.append(p("Voltages and currents are peak values of the RF sine at PEP; positions are measured from the "
                  "transmitter end of the line. Headroom = rating / stress (above 1 is within the rating).",
-                 "small"))
+                 "lead"))
     rows = []
     for c in res.configurations:
         ln = c.line
@@ -504,14 +546,14 @@ def _line_stress(res, width) -> list:
                          "–" if s.headroom is None else f"{s.headroom:.2f}", f"{tol} {ref}".strip(), status])
             if j == 0 and r > 1:
                 extra.append(("LINEABOVE", (0, r), (-1, r), 0.9, styles()["cell"].textColor))
-    out.append(p("Parts against their ratings:", "small"))
+    out.append(p("Parts against their ratings:", "lead"))
     out.append(data_table(["configuration", "part", "quantity [unit]", "stress", "rating [source]", "headroom",
                            "largest tolerable SWR", "status"], rows,
                           [22 * mm, 33 * mm, 34 * mm, 14 * mm, 20 * mm, 15 * mm, 20 * mm, width - 158 * mm],
                           align="lllrrrrl", extra_style=extra, zebra=False))
     out.extend(notes.flowables())
     if sources.texts:
-        out.append(p("Rating sources:", "small"))
+        out.append(p("Rating sources:", "lead"))
         out.extend(sources.flowables())
     tuned = [c for c in res.configurations if c.line.tuner_parts]
     for c in tuned:
@@ -535,13 +577,17 @@ def _line_stress(res, width) -> list:
             net = tuner.network
             out.append(p(f"Network: {net.topology} ({net.form}) at the {tuner.position}; loss {net.loss_db:.2f} dB "
                          f"({num(net.loss_w)} W at PEP). {tuner.method}", "small"))
-    out.append(p("Line method notes:", "small"))
+    out.append(p("Line method notes (one note for configurations that differ only in their numbers):", "lead"))
+    notes = _Notes()
+    who: dict[str, list[str]] = {}
     for c in res.configurations:
         ln = c.line
-        text = f"{c.id}: {ln.load_assumption}; profile: {ln.profile_kind}."
+        text = f"{ln.load_assumption}; profile: {ln.profile_kind}."
         if ln.notes:
             text += " " + "; ".join(ln.notes) + "."
-        out.append(Paragraph(_esc(text), styles()["small"], bulletText="·"))
+        who.setdefault(notes.ref([text]), []).append(c.id)
+    for (ref, ids), text in zip(who.items(), notes.note_texts()):
+        out.append(Paragraph(_esc(f"{', '.join(ids)}: {text}"), styles()["small"], bulletText="·"))
     return out
 
 
@@ -549,29 +595,30 @@ def _line_stress(res, width) -> list:
 def _figures(res, width, numbers, extra_figures) -> list:
     out = [CondPageBreak(120 * mm), section_heading("6", "Figures")]
     fig_w = width / 2 - 2 * mm
+    heights = {a.id: a.height_m for a in res.antennas}
     out.append(section_heading("6.1", "Exposure ratio versus distance", level=1))
     out.append(p("Lines: the far-field peak-gain envelope of each configuration, ratio = (d/R)² with d the "
                  "compliance distance of each environment from section 3.1 (the far-field prediction falls as "
                  "1/R²). Markers: the places of section 4 with their evaluated ratio (gain toward the place; "
                  "a place below its line is off the main beam). A marker on the frame edge lies off scale.",
-                 "small"))
+                 "lead"))
     cells = []
     for c in res.configurations:
-        drawing, caption = exposure_distance_figure(c, res.places, width=fig_w, height=60 * mm,
-                                                    place_numbers=numbers)
+        drawing, caption = exposure_distance_figure(c, res.places, width=fig_w, height=54 * mm,
+                                                    place_numbers=numbers, antenna_height_m=heights.get(c.antenna),
+                                                    head_heights_m=_head_heights(res))
         cells.append([drawing, p(caption, "caption")])
-    out.append(figure_grid(cells, width))
+    out.extend(figure_rows(cells, width))
     out.append(exposure_legend(width))
-    out.append(CondPageBreak(100 * mm))
     out.append(section_heading("6.2", "Standing wave along each feedline", level=1))
     out.append(p("|V| and |I| at PEP along the line (0 = transmitter end), from the line results. Dashed: the "
                  "voltage rating of the cable (along the whole line) and of each connector (over the end it sits "
-                 "at); tuner parts are rated in section 5.", "small"))
+                 "at); tuner parts are rated in section 5.", "lead"))
     cells = []
     for c in res.configurations:
-        drawing, caption = line_profile_figure(c, width=fig_w, height=66 * mm)
+        drawing, caption = line_profile_figure(c, width=fig_w, height=56 * mm)
         cells.append([drawing, p(caption, "caption")] if caption else drawing)
-    out.append(figure_grid(cells, width))
+    out.extend(figure_rows(cells, width))
     maps = near_field_map_section(res, width, numbers, "6.3")
     if maps:
         out.append(PageBreak())
