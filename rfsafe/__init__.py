@@ -10,7 +10,18 @@ The public API is small and explicit; the heavy parts are imported on first use,
 
 __version__ = "0.1.0"
 
-from rfsafe.errors import InputError
+import os as _os
+
+#: Environment variables that set the BLAS/OpenMP thread pools. rfsafe's matrices are small: extra
+#: threads buy nothing and cost a lot on a busy machine, so one thread is the default. A value the
+#: user set (or ``RFSAFE_THREADS=N``) wins. It takes effect only when numpy is imported after rfsafe.
+THREAD_VARIABLES = ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS", "BLIS_NUM_THREADS",
+                    "VECLIB_MAXIMUM_THREADS", "NUMEXPR_NUM_THREADS")
+for _var in THREAD_VARIABLES:
+    _os.environ.setdefault(_var, _os.environ.get("RFSAFE_THREADS", "1"))
+del _var
+
+from rfsafe.errors import InputError  # noqa: E402
 
 __all__ = ["InputError", "__version__", "load_station", "assess", "load_site", "assess_site"]
 

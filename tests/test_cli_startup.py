@@ -49,3 +49,22 @@ def test_unknown_command_is_one_error_line():
     result = CliRunner().invoke(app, ["frobnicate"])
     assert result.exit_code == 2
     assert result.stderr.strip().splitlines() == ["Error: No such command 'frobnicate'."]
+
+
+def test_one_blas_thread_by_default_and_the_user_wins():
+    # rfsafe's matrices are small: one BLAS thread by default (issue: 2.4-3.4x slower on a busy
+    # machine with one thread per core); a value the user set, or RFSAFE_THREADS, is kept.
+    import os
+    import subprocess
+    import sys
+
+    code = "import rfsafe, os; print(os.environ['OPENBLAS_NUM_THREADS'], os.environ['OMP_NUM_THREADS'])"
+    env = {k: v for k, v in os.environ.items() if not k.endswith("_THREADS")}
+    out = subprocess.run([sys.executable, "-c", code], env=env, capture_output=True, text=True).stdout
+    assert out.split() == ["1", "1"]
+    out = subprocess.run([sys.executable, "-c", code], env={**env, "OPENBLAS_NUM_THREADS": "2"},
+                         capture_output=True, text=True).stdout
+    assert out.split() == ["2", "1"]
+    out = subprocess.run([sys.executable, "-c", code], env={**env, "RFSAFE_THREADS": "3"},
+                         capture_output=True, text=True).stdout
+    assert out.split() == ["3", "3"]
