@@ -11,7 +11,7 @@ from typing import Any
 
 __all__ = ["ComplianceDistance", "AntennaSummary", "PlanMap", "WireSummary", "NearFieldMap", "ConfigurationResult", "PlaceExposure", "TransmitterShare",
            "PlaceResult", "EvaluationResult", "CAUTIONS", "Remedy", "PlaceRemedies", "ConfigurationRemedies",
-           "GroundKeepOut"]
+           "GroundKeepOut", "QuickAnswer"]
 
 #: Exposure verdicts: every evaluated place within its limits, some place above, or no place declared.
 EXPOSURE_VERDICTS = ("COMPLIES", "EXCEEDS", "NOT EVALUATED")
@@ -295,6 +295,37 @@ class GroundKeepOut:
     directions: int                # horizontal directions examined (1 where the gain is the same in all)
     method: str
     text: str
+
+
+@dataclass(frozen=True)
+class QuickAnswer:
+    """The answer to a question asked without a station file (``rfsafe ask``), one frequency and power.
+
+    Per-environment values are dicts keyed ``"controlled"`` / ``"uncontrolled"``; ``largest_pep_w`` holds
+    ``inf`` where the search found no power that exceeds (printed as null in JSON).
+    """
+
+    standard: str
+    standard_name: str
+    band: str | None
+    freq_mhz: float
+    pep_w: float
+    mode: str
+    duty_factor: float
+    gain_dbi: float
+    gain_source: str
+    line_loss_db: float
+    avg_power_at_antenna_w: dict[str, float]
+    eirp_w: dict[str, float]
+    compliance_dist_m: dict[str, float]
+    height_m: float | None
+    distance_m: float | None
+    ground_keep_out_m: dict[str, float] | None      # standing person 0.5-2 m, from the antenna's foot
+    ratio_at_distance: dict[str, float] | None
+    largest_pep_w: dict[str, float | None] | None
+    exemption: str
+    near_field_distance_m: float
+    flags: tuple[str, ...]
 
 
 @dataclass(frozen=True)

@@ -36,6 +36,7 @@ RECORDED_WARNINGS: list[str] = []
 #: Command modules, in the order their commands appear in ``--help``.
 _COMMAND_MODULES = (
     "rfsafe.cli.cmd_evaluate",
+    "rfsafe.cli.cmd_ask",
     "rfsafe.cli.cmd_station",
     "rfsafe.cli.cmd_limits",
     "rfsafe.cli.cmd_line",

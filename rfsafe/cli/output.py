@@ -15,14 +15,76 @@ import sys
 from collections.abc import Mapping, Sequence
 from typing import Any
 
-__all__ = ["to_jsonable", "dump_json", "print_json", "format_table", "compact_number", "warn"]
+__all__ = ["to_jsonable", "dump_json", "print_json", "format_table", "compact_number", "warn", "fit_text",
+           "set_wide", "TERMINAL_COLUMNS"]
+
+#: Width tables and text are fitted to unless ``--wide`` is given [columns].
+TERMINAL_COLUMNS = 100
+_width: int | None = TERMINAL_COLUMNS
+
+
+def set_wide(wide: bool) -> None:
+    """``--wide``: print tables and text at their full width instead of fitting them to 100 columns."""
+    global _width
+    _width = None if wide else TERMINAL_COLUMNS
+
+
+def fit_text(text: str, width: int | None = None) -> str:
+    """Wrap every line longer than the width, keeping its indent (and a list marker's hanging indent)."""
+    import re
+    import textwrap
+
+    width = width if width is not None else _width
+    if width is None:
+        return text
+    out = []
+    for line in text.split("\n"):
+        if len(line) <= width:
+            out.append(line)
+            continue
+        m = re.match(r"^(\s*(?:- |V\d+\. |caution: |note: )?)", line)
+        lead = m.group(1) if m else ""
+        out.append(textwrap.fill(line, width=width, initial_indent="", subsequent_indent=" " * len(lead),
+                                 break_long_words=False, break_on_hyphens=False))
+    return "\n".join(out)
+
+
+#: Note given beside an infinity whose result type declares no reason (a defect the fuzz tests catch).
+NO_REASON = "no reason recorded"
+
+
+def _nonfinite_note(obj: Any, name: str, value: float) -> str:
+    """Why field ``name`` of result ``obj`` has no finite value.
+
+    A result dataclass may declare ``NONFINITE_NOTES = {"field": "why it is infinite"}``; a NaN is
+    never meaningful and says so.
+    """
+    if math.isnan(value):
+        return "nan: could not be computed (a defect in rfsafe; please report it with the input)"
+    reason = (getattr(type(obj), "NONFINITE_NOTES", None) or {}).get(name)
+    sign = "inf" if value > 0 else "-inf"
+    return f"{sign}: {reason}" if reason else f"{sign}: no finite value ({NO_REASON}; please report it with the input)"
 
 
 def to_jsonable(obj: Any) -> Any:
-    """Convert result objects (dataclasses, numpy, complex) to JSON types."""
+    """Convert result objects (dataclasses, numpy, complex) to JSON types.
+
+    A non-finite number in a field of a result becomes ``null`` with a ``<field>_note`` beside it
+    that says why it has no value (never a silent ``null``, never a plausible number).
+    """
     if dataclasses.is_dataclass(obj) and not isinstance(obj, type):
-        return {f.name: to_jsonable(getattr(obj, f.name)) for f in dataclasses.fields(obj)
-                if f.repr}
+        out: dict[str, Any] = {}
+        for f in dataclasses.fields(obj):
+            if not f.repr:
+                continue
+            value = getattr(obj, f.name)
+            out[f.name] = to_jsonable(value)
+            if (isinstance(value, (float, int)) or (hasattr(value, "dtype") and getattr(value, "ndim", 1) == 0)) \
+                    and not isinstance(value, bool) and not math.isfinite(float(value)):
+                note = f"{f.name}_note"
+                if getattr(obj, note, None) is None:
+                    out[note] = _nonfinite_note(obj, f.name, float(value))
+        return out
     if isinstance(obj, enum.Enum):
         return obj.value
     if isinstance(obj, bool) or obj is None or isinstance(obj, (str, int)):
@@ -34,7 +96,12 @@ def to_jsonable(obj: Any) -> Any:
     if hasattr(obj, "tolist") and hasattr(obj, "dtype"):  # numpy array or scalar
         return to_jsonable(obj.tolist())
     if isinstance(obj, Mapping):
-        return {str(k): to_jsonable(v) for k, v in obj.items()}
+        out = {}
+        for k, v in obj.items():
+            out[str(k)] = to_jsonable(v)
+            if isinstance(v, float) and not math.isfinite(v) and f"{k}_note" not in obj:
+                out[f"{k}_note"] = _nonfinite_note(obj, str(k), v)
+        return out
     if isinstance(obj, (Sequence, set, frozenset)):
         return [to_jsonable(v) for v in obj]
     if hasattr(obj, "isoformat"):
@@ -52,29 +119,101 @@ def print_json(obj: Any) -> None:
     sys.stdout.write(dump_json(obj) + "\n")
 
 
-def format_table(headers: Sequence[str], rows: Sequence[Sequence[Any]], *,
-                 title: str | None = None, align: str | None = None) -> str:
-    """Plain-text table with a title line and a rule under the header.
+def _wrap_cell(text: str, width: int) -> list[str]:
+    import textwrap
 
-    ``align`` is a string of ``l``/``r`` per column (default: first column
-    left, the rest right).
+    if len(text) <= width:
+        return [text]
+    return textwrap.wrap(text, width=width, break_long_words=True, break_on_hyphens=False) or [""]
+
+
+def format_table(headers: Sequence[str], rows: Sequence[Sequence[Any]], *,
+                 title: str | None = None, align: str | None = None, width: int | None = None,
+                 keys: int = 1) -> str:
+    """Plain-text table with a title line and a rule under the header, fitted to the terminal width.
+
+    ``align`` is a string of ``l``/``r`` per column (default: first column left, the rest right).
+    A table wider than ``width`` (default: 100 columns unless ``--wide``) is fitted in three steps,
+    dropping nothing: headers wrap onto several lines (at spaces); then long text cells wrap inside
+    their column; then the columns are split into several blocks printed one under the other, each
+    repeating the first ``keys`` columns so that every row stays identifiable.
     """
-    cells = [[str(h) for h in headers]] + [["" if c is None else str(c) for c in r] for r in rows]
-    n = len(headers)
+    heads = [str(h) for h in headers]
+    body = [["" if c is None else str(c) for c in r] for r in rows]
+    n = len(heads)
     if align is None:
         align = "l" + "r" * (n - 1)
-    widths = [max(len(row[i]) for row in cells) for i in range(n)]
+    limit = width if width is not None else _width
+    head_w = [max(len(w) for w in h.split(" ")) if h else 0 for h in heads]
+    cell_w = [max([len(r[i]) for r in body] + [0]) for i in range(n)]
+    widths = [max(len(h), c) for h, c in zip(heads, cell_w)]
 
-    def fmt(row):
-        parts = [c.ljust(w) if a == "l" else c.rjust(w) for c, w, a in zip(row, widths, align)]
-        return "  ".join(parts).rstrip()
+    def total(ws):
+        return sum(ws) + 2 * (len(ws) - 1)
+
+    wrap_heads = False
+    if limit is not None and total(widths) > limit:
+        wrap_heads = True
+        # wrap the headers that are wider than their cells, largest saving first, only as far as needed
+        for i in sorted(range(n), key=lambda k: -(widths[k] - max(head_w[k], cell_w[k]))):
+            if total(widths) <= limit:
+                break
+            widths[i] = max(head_w[i], cell_w[i], widths[i] - (total(widths) - limit))
+        # long text cells wrap, widest first, down to 24 columns (or the longest header word)
+        while total(widths) > limit:
+            cand = [i for i in range(keys, n) if align[i] == "l" and widths[i] > max(24, head_w[i])]
+            if not cand:
+                break
+            i = max(cand, key=lambda k: widths[k])
+            widths[i] = max(24, head_w[i], widths[i] - (total(widths) - limit))
+    if limit is not None and total(widths) > limit and n > keys:
+        blocks, cur = [], []
+        base = total(widths[:keys]) + 2
+        for i in range(keys, n):
+            if cur and base + total([widths[k] for k in cur + [i]]) > limit:
+                blocks.append(cur)
+                cur = []
+            cur.append(i)
+        blocks.append(cur)
+        if len(blocks) > 1:
+            parts = []
+            for b, cols in enumerate(blocks):
+                idx = list(range(keys)) + cols
+                sub_title = title if b == 0 else f"  (continued, {b + 1} of {len(blocks)})"
+                if b == 0 and title:
+                    sub_title = f"{title}  (1 of {len(blocks)})"
+                parts.append(format_table([heads[k] for k in idx], [[r[k] for k in idx] for r in body],
+                                          title=sub_title, align="".join(align[k] for k in idx), width=limit,
+                                          keys=keys))
+            return "\n".join(parts)
+
+    def head_lines(h, w):
+        if not wrap_heads or len(h) <= w:
+            return [h]
+        return _wrap_cell(h, w)
+
+    def fmt(cells):
+        split = [_wrap_cell(c, w) for c, w in zip(cells, widths)]
+        height = max(len(s) for s in split)
+        out = []
+        for k in range(height):
+            parts = [(s[k] if k < len(s) else "") for s in split]
+            parts = [c.ljust(w) if a == "l" else c.rjust(w) for c, w, a in zip(parts, widths, align)]
+            out.append("  ".join(parts).rstrip())
+        return out
 
     lines = []
     if title:
-        lines.append(title)
-    lines.append(fmt(cells[0]))
+        lines.append(fit_text(title, limit))
+    hl = [head_lines(h, w) for h, w in zip(heads, widths)]
+    hh = max(len(x) for x in hl)
+    for k in range(hh):   # bottom-aligned header lines
+        parts = [(x[k - (hh - len(x))] if k >= hh - len(x) else "") for x in hl]
+        parts = [c.ljust(w) if a == "l" else c.rjust(w) for c, w, a in zip(parts, widths, align)]
+        lines.append("  ".join(parts).rstrip())
     lines.append("  ".join("-" * w for w in widths))
-    lines.extend(fmt(r) for r in cells[1:])
+    for r in body:
+        lines.extend(fmt(r))
     return "\n".join(lines)
 
 
@@ -95,5 +234,5 @@ def compact_number(x, digits: int = 3) -> str:
 
 
 def warn(message: str) -> None:
-    """A caution or method-limit message on stderr (table mode)."""
-    sys.stderr.write(message + "\n")
+    """A caution or method-limit message on stderr (table mode), wrapped to the terminal width."""
+    sys.stderr.write(fit_text(message) + "\n")
