@@ -22,7 +22,8 @@ from __future__ import annotations
 
 from collections.abc import Iterable
 
-__all__ = ["STATES", "MARKERS", "LEGEND", "NOT_CONFIRMED", "state_of", "marker", "weakest", "summary_line"]
+__all__ = ["STATES", "MARKERS", "LEGEND", "NOT_CONFIRMED", "state_of", "marker", "weakest", "summary_line",
+           "figure_checks"]
 
 #: Machine-readable states, strongest first.
 STATES = ("published text", "reproduction", "partly", "not confirmed")
@@ -80,3 +81,60 @@ def summary_line(state: str) -> str:
             "reproduction": "checked against a faithful reproduction of the published text",
             "partly": "partly checked (some values of the row not confirmed)",
             "not confirmed": "not confirmed against a published text (from memory or common practice)"}[state]
+
+
+def figure_checks(configurations, places=(), exemption=None) -> tuple:
+    """Every published figure an evaluation used, with its verification state, one entry per figure.
+
+    Parameters
+    ----------
+    configurations : sequence of rfsafe.results.ConfigurationResult
+        The evaluated configurations (duty factor, limits of the compliance distances, cable and
+        connector ratings of the line).
+    places : sequence of rfsafe.results.PlaceResult
+        The evaluated places (the limit that governed each exposure).
+    exemption : rfsafe.limits.exemption.ExemptionResult or None
+        The 47 CFR 1.1307(b)(3) result, whose thresholds are figures too.
+
+    Returns
+    -------
+    tuple of rfsafe.results.FigureCheck
+        In a stable order: limits, duty factors, cables, connectors, exemption thresholds; each with
+        the configurations (or places) that used it.
+    """
+    from rfsafe.results import FigureCheck
+
+    found: dict[tuple[str, str], dict] = {}
+
+    def add(kind, figure, user, source, verification):
+        entry = found.setdefault((kind, figure), {"used_by": [], "source": source, "verification": verification})
+        if user not in entry["used_by"]:
+            entry["used_by"].append(user)
+
+    for c in configurations:
+        for cd in tuple(c.compliance_distances) + tuple(getattr(c, "limit_distances", ()) or ()):
+            add("limit", cd.limit_source, c.id, cd.limit_source, cd.limit_verification)
+        add("duty factor", f"{c.mode}: {c.duty_factor:g}", c.id, c.duty_factor_source, c.duty_factor_verification)
+        line = c.line
+        if line is not None:
+            line_part = next((p for p in line.part_stresses if p.part == "line"), None)
+            add("cable", line.cable_id, c.id, line_part.rating_source if line_part else "", line.cable_verification)
+            for p in line.part_stresses:
+                if p.part.startswith("connector.") and p.rating is not None:
+                    series = getattr(line, "connector_at_" + p.part.split(".", 1)[1], None) or "connector"
+                    add("connector", f"{series}: {p.rating:g} {p.unit}", c.id, p.rating_source, p.rating_verification)
+    for pl in places:
+        for x in pl.exposures:
+            if x.limit_source:
+                add("limit", x.limit_source, f"place {pl.label}", x.limit_source, x.limit_verification)
+    if exemption is not None:
+        for s in exemption.per_source:
+            if s.threshold_w is not None:
+                add("exemption threshold", f"{s.criterion} ({s.reference})", s.label, s.reference,
+                    s.threshold_verification)
+    order = ("limit", "duty factor", "cable", "connector", "exemption threshold")
+    keys = sorted(found, key=lambda k: order.index(k[0]))
+    return tuple(FigureCheck(kind=k, figure=f, used_by=tuple(found[(k, f)]["used_by"]),
+                             source=found[(k, f)]["source"], verification=found[(k, f)]["verification"],
+                             state=state_of(found[(k, f)]["verification"]))
+                 for k, f in keys)
