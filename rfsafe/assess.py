@@ -21,6 +21,7 @@ from rfsafe.results import (CAUTIONS, ComplianceDistance, ConfigurationResult, E
 from rfsafe.station.load import INTRINSIC_GAIN_DBI, LoadedStation
 from rfsafe.station.schema import Antenna, Configuration, Feedline, Station
 from rfsafe.units import DIPOLE_GAIN_DBI, M_PER_FT
+from rfsafe.verification import figure_checks
 
 __all__ = ["assess", "assess_with_emitters", "Emitter", "emitters", "peak_gain_dbi", "NEAR_FIELD_FLAG"]
 
@@ -46,6 +47,7 @@ class Emitter:
     limits: dict[str, tuple]
     ground_factor: float
     solution: object = None       # moment-method solution for a wire antenna, else None
+    extent: object = None         # rfsafe.antenna.extent.Extent: the radiating structure taken
 
 
 def peak_gain_dbi(antenna: Antenna, wire_gain_dbi: float | None = None, table=None) -> tuple[float, str]:
@@ -105,7 +107,7 @@ def _near_field_map(cid, ant: Antenna, solution, limits, avg_ant, pep_ant, loade
     from rfsafe.limits import exposure_ratio
     from rfsafe.results import NearFieldMap
 
-    spec = loaded.wire_specs[ant.id]
+    spec = solution.geometry_spec or loaded.wire_specs[ant.id]   # with the feedline shield, if modelled
     pts = np.array([p for w in spec.wires for p in w.points_m], dtype=float)
     margin = max(float(ex.near_field_distance_m(solution.freq_hz)), 3.0)
     x = np.linspace(pts[:, 0].min() - margin, pts[:, 0].max() + margin, 61)
@@ -146,6 +148,73 @@ def _near_field_map(cid, ant: Antenna, solution, limits, avg_ant, pep_ant, loade
         e_ratio=e_ratio, h_ratio=h_ratio)
 
 
+def _wire_loads(solution, pep_ant: float) -> tuple:
+    """Lumped loads of a wire antenna at the PEP delivered to the antenna (peak voltage, current, power)."""
+    if solution is None or not solution.load_labels:
+        return ()
+    from rfsafe.antenna.wire.loads import load_stress
+
+    return load_stress(solution, pep_ant)
+
+
+def _route_distance_m(solution, place, heights) -> float:
+    """Distance [m] from a place (any body height) to the modelled feedline shield."""
+    from rfsafe.antenna.wire.geometry import point_segment_distances
+
+    st = solution.structure
+    on = np.isin(st.wire, solution.shield.route_wires)
+    pts = np.array([[place.x_m, place.y_m, z] for z in heights], dtype=float)
+    return float(point_segment_distances(pts[:, None, :], st.start_m[on][None], st.end_m[on][None]).min())
+
+
+def _feedline_shield(loaded: LoadedStation, ant: Antenna, solution, limits, avg_ant, pep_ant: float, near_m: float):
+    """Common-mode current of a modelled feedline shield and the choke that brings nearby places to the limit.
+
+    Places within lambda/2pi of the route are judged at their worst body height (this configuration
+    alone); the choke sits where the declared one is (else at the feed point), with its phase (else
+    resistive).
+    """
+    if solution is None or solution.shield is None:
+        return None
+    from rfsafe.antenna.wire.loads import circuit_impedance_ohm
+    from rfsafe.antenna.wire.shield import ChokeSweep, common_mode_current, required_choke_ohm
+    from rfsafe.limits import exposure_ratio
+    from rfsafe.results import FeedlineShieldResult
+
+    spec = loaded.wire_specs[ant.id]
+    cm = common_mode_current(solution, pep_ant, feed=spec.shield.feed)
+    sweeps = []
+    for pi_, place in enumerate(loaded.model.places):
+        heights = _heights(place)
+        if _route_distance_m(solution, place, heights) < near_m:
+            pts = [[place.x_m, place.y_m, z] for z in heights]
+            sweeps.append((place, ChokeSweep(solution, pts, field=f"places[{pi_}].body_heights_m")))
+
+    def ratio_at(z: complex) -> float:
+        worst = 0.0
+        for place, sw in sweeps:
+            e1, h1 = sw.fields_rms(z, 1.0)
+            for lim in limits[place.environment]:
+                scale = math.sqrt(_power_for(lim, avg_ant[place.environment], pep_ant))
+                r = np.asarray(exposure_ratio(lim, e_field_v_m=e1 * scale, h_field_a_m=h1 * scale), dtype=float)
+                worst = max(worst, float(np.max(r)))
+        return worst
+
+    declared = spec.shield.choke
+    z_now = circuit_impedance_ohm(declared, solution.freq_hz) if declared is not None else 0j
+    if sweeps:
+        need, note = required_choke_ohm(ratio_at, math.atan2(z_now.imag, z_now.real) if declared else 0.0)
+        worst = ratio_at(z_now)
+    else:
+        need, note, worst = 0.0, "no place lies within lambda/2pi of the feedline route", None
+    return FeedlineShieldResult(
+        route_length_m=cm.route_length_m, far_end=cm.far_end, choke_impedance_ohm=cm.choke_impedance_ohm,
+        choke_distance_m=cm.choke_distance_m, feed_current_a_rms=cm.feed_current_a_rms,
+        max_current_a_rms=cm.max_current_a_rms, max_at_distance_m=cm.max_at_distance_m,
+        places=tuple(p.label for p, _ in sweeps), worst_ratio=worst, required_choke_ohm=need,
+        required_choke_note=note + "; places judged at their worst body height, this configuration alone")
+
+
 def _schedule_text(c: Configuration) -> str:
     if c.schedule is None:
         return "continuous"
@@ -165,7 +234,9 @@ def _line_result(station: Station, index: int, c: Configuration, f: Feedline, pe
         cable = fl.cable_class(f.cable)
         if f.max_voltage_v_peak is not None:
             import dataclasses
-            cable = dataclasses.replace(cable, max_voltage_v_peak=f.max_voltage_v_peak)
+            cable = dataclasses.replace(cable, max_voltage_v_peak=f.max_voltage_v_peak,
+                                        verification=f"{cable.verification}; voltage rating declared in the "
+                                                     "station file (not confirmed)")
     load = None
     if c.load_r_ohm is not None:
         load = complex(c.load_r_ohm, c.load_x_ohm or 0.0)
@@ -192,6 +263,8 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
     mode = mode_duty_factor(c.mode, field=f"configurations[{i}].mode")
     duty = c.duty_factor if c.duty_factor is not None else mode.duty_factor
     duty_src = "declared in the station file" if c.duty_factor is not None else mode.source
+    duty_ver = ("not confirmed (declared in the station file, not a published figure)"
+                if c.duty_factor is not None else mode.verification)
     on = c.schedule.on_minutes if c.schedule else None
     off = c.schedule.off_minutes if c.schedule else None
 
@@ -233,6 +306,12 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
     nf = float(ex.near_field_distance_m(freq_hz))
     ap = float(ex.aperture_far_field_distance_m(ant.aperture_m, freq_hz)) if ant.aperture_m else None
     flag_dist = max(nf, ap or 0.0)
+    from rfsafe.antenna.extent import antenna_extent
+
+    extent = antenna_extent(ant, freq_hz, loaded.wire_specs.get(ant.id))
+    cd_basis = f"from the nearest part of the antenna: {extent.basis}"
+    if not extent.known:
+        flags.append(f"antenna {ant.id}: {extent.basis}")
 
     distances = []
     every_limit = []
@@ -245,7 +324,8 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
                 environment=env, environment_label=lim.environment_label, dist_m=d, dist_ft=d / M_PER_FT,
                 limit_basis=lim.basis, governing=_governing(lim, ex.far_field_power_density_w_m2(
                     p, max(d, 1e-9), ground_factor)), averaging_minutes=lim.averaging_minutes, eirp_w=p,
-                inside_near_field=d < flag_dist, limit_source=lim.source, **_limit_values(lim)))
+                inside_near_field=d < flag_dist, limit_source=lim.source, **_limit_values(lim),
+                distance_basis=cd_basis))
             if best is None or d > best[0]:
                 best = (d, lim, p)
         d, lim, p = best
@@ -254,14 +334,31 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
             environment=env, environment_label=lim.environment_label, dist_m=d, dist_ft=d / M_PER_FT,
             limit_basis=lim.basis, governing=gov, averaging_minutes=lim.averaging_minutes, eirp_w=p,
             inside_near_field=d < flag_dist, limit_source=lim.source,
-            **_limit_values(lim)))
+            **_limit_values(lim), distance_basis=cd_basis))
         if d < flag_dist:
-            flags.append(f"{env} compliance distance {d:.2f} m lies inside the near-field boundary "
+            flags.append(f"{env} compliance distance {d:.2f} m (from the nearest part of {ant.id}) lies inside the "
+                         f"near-field boundary "
                          f"{flag_dist:.2f} m: {NEAR_FIELD_FLAG}")
-    exceeded = tuple(line.exceeded_parts)
+    loads = _wire_loads(solution, pep_ant)
+    shield = _feedline_shield(loaded, ant, solution, limits, avg_ant, pep_ant, nf)
+    exceeded = tuple(line.exceeded_parts) + tuple(
+        f"lumped load {ld.label!r} on {ant.id} ({ld.voltage_v_peak:.4g} V peak at the PEP, rated "
+        f"{ld.voltage_rating_v_peak:g} V peak)" for ld in loads if ld.voltage_headroom is not None
+        and ld.voltage_headroom < 1)
+    if any(ld.voltage_rating_v_peak is None for ld in loads):
+        flags.append("lumped loads without voltage_rating_v_peak are not rated: their peak voltage at the PEP "
+                     "is shown but not compared")
+    if shield is not None:
+        flags.append(f"feedline shield modelled as a conductor: largest common-mode current "
+                     f"{shield.max_current_a_rms:.3g} A rms at the PEP ({shield.max_at_distance_m:.3g} m from the feed "
+                     f"point); choke needed near the route: " + (
+                         "none" if shield.required_choke_ohm == 0 else "not reachable by a choke"
+                         if shield.required_choke_ohm is None else f"|Z| >= {shield.required_choke_ohm:.3g} ohm"))
     result = ConfigurationResult(
+        loads=loads, feedline_shield=shield,
         id=c.id, description=c.description, freq_mhz=c.freq_mhz, transmitter=tx.id, feedline=fline.id,
         antenna=ant.id, mode=c.mode, pep_w=tx.pep_w, duty_factor=duty, duty_factor_source=duty_src,
+        duty_factor_verification=duty_ver,
         schedule=_schedule_text(c), transmit_fraction=fraction, averaging_minutes=averaging,
         avg_power_w=avg_tx, line_loss_db=float(line.total_loss_db), loss_fraction=loss_fraction,
         avg_power_at_antenna_w=avg_ant, pep_at_antenna_w=pep_ant, gain_dbi=gain, gain_source=gain_src,
@@ -275,7 +372,7 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
     emitter = Emitter(configuration=c.id, transmitter=tx.id, freq_hz=freq_hz, x_m=ant.x_m, y_m=ant.y_m,
                       height_m=ant.height_m, antenna=ant, peak_gain_dbi=gain, avg_power_at_antenna_w=avg_ant,
                       pep_at_antenna_w=pep_ant, eirp_w=eirp, eirp_pep_w=eirp_pep, limits=limits,
-                      ground_factor=ground_factor, solution=solution)
+                      ground_factor=ground_factor, solution=solution, extent=extent)
     return result, emitter
 
 
@@ -286,7 +383,7 @@ def _power_for(limit, avg_w: float, pep_w: float) -> float:
 
 def _limit_values(limit) -> dict:
     return {"power_density_limit_w_m2": limit.power_density_w_m2, "e_field_limit_v_m": limit.e_field_v_m,
-            "h_field_limit_a_m": limit.h_field_a_m}
+            "h_field_limit_a_m": limit.h_field_a_m, "limit_verification": limit.verification}
 
 
 def _governing(limit, s_w_m2) -> str:
@@ -322,11 +419,30 @@ def _heights(place) -> list[float]:
     return list(place.body_heights_m) if place.body_heights_m else [place.height_m]
 
 
-def _far_field_at(em: Emitter, loaded: LoadedStation, place, z_m: float):
-    """Worst far-field (ratio, limit, S, dist, gain, how) at one evaluation height."""
+#: Smallest distance used in the far-field formula [m]: a place on (or inside the assumed envelope of)
+#: an antenna gets a finite, very large ratio instead of a division by zero.
+MIN_FAR_FIELD_DIST_M = 0.01
+
+
+def _structure_distance_m(em: Emitter, place, z_m: float) -> float:
+    """Distance [m] from a point of a place to the nearest part of the emitter's radiating structure."""
+    from rfsafe.antenna.extent import nearest_distance_m
+
+    return float(nearest_distance_m(em.extent, np.array([place.x_m, place.y_m, z_m], dtype=float)))
+
+
+def _far_field_at(em: Emitter, loaded: LoadedStation, place, z_m: float, peak_only: bool = False):
+    """Worst far-field (ratio, limit, S, dist, gain, how) at one evaluation height.
+
+    R is the distance to the nearest part of the radiating structure (never more than the distance to
+    its centre, so never optimistic); the gain is taken toward the place from the declared position.
+    """
     dx, dy, dz = place.x_m - em.x_m, place.y_m - em.y_m, z_m - em.height_m
-    dist = math.sqrt(dx * dx + dy * dy + dz * dz)
-    gain, how = _gain_toward(em, loaded, dx, dy, dz)
+    dist = max(_structure_distance_m(em, place, z_m), MIN_FAR_FIELD_DIST_M)
+    if peak_only:
+        gain, how = em.peak_gain_dbi, "peak (pattern not used inside the near field)"
+    else:
+        gain, how = _gain_toward(em, loaded, dx, dy, dz)
     best = None
     for lim in em.limits[place.environment]:
         p_ant = _power_for(lim, em.avg_power_at_antenna_w[place.environment], em.pep_at_antenna_w)
@@ -377,8 +493,16 @@ def _place_exposure(em: Emitter, loaded: LoadedStation, p_index: int, place, cre
     r, lim, s, dist, gain, how = max((_far_field_at(em, loaded, place, z) for z in heights), key=lambda b: b[0])
     e, h = (float(v) for v in ex.plane_wave_fields(s))
     flag_dist = max(cres.near_field_distance_m, cres.aperture_far_field_m or 0.0)
-    dist_min = min(math.dist((place.x_m, place.y_m, z), (em.x_m, em.y_m, em.height_m)) for z in heights)
+    dist_min = min(_structure_distance_m(em, place, z) for z in heights)
+    if solution is not None and solution.shield is not None:  # the feedline shield radiates too
+        dist_min = min(dist_min, _route_distance_m(solution, place, heights))
     inside = dist_min < flag_dist
+    if inside and solution is None and em.antenna.use_pattern:
+        # a far-field pattern's nulls do not hold near the antenna: its peak gain is taken there
+        r, lim, s, dist, gain, how = max((_far_field_at(em, loaded, place, z, peak_only=True) for z in heights),
+                                         key=lambda b: b[0])
+        e, h = (float(v) for v in ex.plane_wave_fields(s))
+    basis = f"nearest part of {em.antenna.id}: {em.extent.basis}"
     governing = f"{_governing(lim, s)} ({lim.basis})"
     if inside and solution is not None:
         average = loaded.model.near_field_spatial_average and SPATIAL_AVERAGE_ALLOWED[loaded.model.standard]
@@ -400,14 +524,15 @@ def _place_exposure(em: Emitter, loaded: LoadedStation, p_index: int, place, cre
             e_field_v_m=en, h_field_a_m=hn, exposure_ratio=rn,
             governing=f"{'e_field' if e_part >= h_part else 'h_field'} ({limn.basis})",
             margin_db=float(ex.margin_db(rn)), method=how_nf, inside_near_field=True,
-            flags=flags, far_field_ratio=r, near_field_ratio=rn, limit_source=limn.source, **_limit_values(limn))
+            flags=flags, far_field_ratio=r, near_field_ratio=rn, limit_source=limn.source, **_limit_values(limn),
+            distance_basis=basis)
     flags = (f"{dist_min:.2f} m from {em.antenna.id} is inside the near-field boundary {flag_dist:.2f} m: "
              f"{NEAR_FIELD_FLAG}",) if inside else ()
     return PlaceExposure(
         configuration=em.configuration, transmitter=em.transmitter, dist_m=dist, gain_dbi=gain, gain_method=how,
         power_density_w_m2=s, e_field_v_m=e, h_field_a_m=h, exposure_ratio=r, governing=governing,
         margin_db=float(ex.margin_db(r)), method="far-field estimate", inside_near_field=inside, flags=flags,
-        far_field_ratio=r, limit_source=lim.source, **_limit_values(lim))
+        far_field_ratio=r, limit_source=lim.source, **_limit_values(lim), distance_basis=basis)
 
 
 def _totals(exposures, station: Station):
@@ -457,6 +582,10 @@ def _separation_m(loaded: LoadedStation, ant: Antenna, freq_hz: float, places) -
     pts = np.array([(p.x_m, p.y_m, z) for p in places for z in _heights(p)], dtype=float)
     if ant.kind == "wire":
         segs = [(a, b) for w in loaded.wire_specs[ant.id].wires for a, b in zip(w.points_m[:-1], w.points_m[1:])]
+        from rfsafe.antenna.wire.shield import route_polyline_m
+
+        route = route_polyline_m(loaded.wire_specs[ant.id])   # the feedline shield radiates too
+        segs += [] if route is None else list(zip(route[:-1], route[1:]))
         return _segments_distance_m(pts, segs), "nearest point of the wire geometry"
     centre = np.array([ant.x_m, ant.y_m, ant.height_m])
     lam = wavelength_m(freq_hz)
@@ -565,7 +694,8 @@ def assess_with_emitters(loaded: LoadedStation, *, today: dt.date | None = None,
         input_file=loaded.path.name, input_sha256=loaded.sha256, ground_reflection=st.ground_reflection,
         ground_factor=gf, loss_model="; ".join(loss_models), configurations=configs, places=tuple(places),
         exemption=exemption, **_verdicts(configs, places), exceeded=tuple(exceeded),
-        method_notes=notes, cautions=CAUTIONS, **_plan_fields(loaded, configs, ems, near_field_maps))
+        method_notes=notes, cautions=CAUTIONS, **_plan_fields(loaded, configs, ems, near_field_maps),
+        data_verification=figure_checks(configs, tuple(places), exemption))
     return result, ems
 
 

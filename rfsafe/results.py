@@ -9,7 +9,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import Any
 
-__all__ = ["ComplianceDistance", "AntennaSummary", "PlanMap", "WireSummary", "NearFieldMap", "ConfigurationResult", "PlaceExposure", "TransmitterShare",
+__all__ = ["FigureCheck", "ComplianceDistance", "AntennaSummary", "PlanMap", "WireSummary", "NearFieldMap", "FeedlineShieldResult", "ConfigurationResult", "PlaceExposure", "TransmitterShare",
            "PlaceResult", "EvaluationResult", "CAUTIONS", "Remedy", "PlaceRemedies", "ConfigurationRemedies",
            "GroundKeepOut", "QuickAnswer"]
 
@@ -59,6 +59,21 @@ CAUTIONS = (
 
 
 @dataclass(frozen=True)
+class FigureCheck:
+    """One published figure an evaluation used, and whether it was read in its published text.
+
+    ``state`` is one of :data:`rfsafe.verification.STATES`; ``verification`` is the data row's own text.
+    """
+
+    kind: str               # "limit", "duty factor", "cable", "connector", "exemption threshold"
+    figure: str             # what it is (row, mode, cable class ...)
+    used_by: tuple[str, ...]   # configurations (or places) that use it
+    source: str
+    verification: str
+    state: str
+
+
+@dataclass(frozen=True)
 class ComplianceDistance:
     """Distance beyond which one environment's limit is met (peak gain, far-field formula)."""
 
@@ -76,6 +91,7 @@ class ComplianceDistance:
     e_field_limit_v_m: float | None = None
     h_field_limit_a_m: float | None = None
     distance_basis: str = ""   # from which part of the antenna dist_m is measured, and where its size comes from
+    limit_verification: str = "not confirmed"   # was the limit's row read in its published text (rfsafe.verification)
 
 
 @dataclass(frozen=True)
@@ -151,6 +167,23 @@ class PlanMap:
 
 
 @dataclass(frozen=True)
+class FeedlineShieldResult:
+    """Common-mode current on a wire antenna's feedline shield and the choke it needs (moment method)."""
+
+    route_length_m: float
+    far_end: str                             # "open" or "ground"
+    choke_impedance_ohm: complex | None      # the declared choke (None: no choke)
+    choke_distance_m: float | None           # along the route from the feed point
+    feed_current_a_rms: float                # at the PEP at the antenna
+    max_current_a_rms: float                 # largest common-mode current on the route, at the PEP
+    max_at_distance_m: float
+    places: tuple[str, ...]                  # places within lambda/2pi of the route (judged for the choke)
+    worst_ratio: float | None                # this configuration's largest ratio there (worst body height)
+    required_choke_ohm: float | None         # smallest |Z| bringing those places to ratio 1 (0: none needed)
+    required_choke_note: str
+
+
+@dataclass(frozen=True)
 class ConfigurationResult:
     """One operating configuration: power chain, line, gain, compliance distances."""
 
@@ -187,6 +220,9 @@ class ConfigurationResult:
     wire: WireSummary | None = None          # wire antennas: solver summary
     near_field_map: NearFieldMap | None = None
     limit_distances: tuple[ComplianceDistance, ...] = ()   # every limit's own distance (e.g. SC6 nerve stimulation)
+    loads: tuple = ()                        # wire antennas: rfsafe.antenna.wire.loads.LoadStress at the PEP
+    feedline_shield: FeedlineShieldResult | None = None   # wire antennas with a modelled feedline shield
+    duty_factor_verification: str = "not confirmed"   # was the duty factor read in its published table
 
 
 @dataclass(frozen=True)
@@ -214,6 +250,15 @@ class PlaceExposure:
     h_field_limit_a_m: float | None = None
     limit_source: str = ""
     distance_basis: str = ""                 # which distance dist_m and the near-field decision use
+    limit_verification: str = "not confirmed"   # was the governing limit's row read in its published text
+    #: why near_field_ratio has (no) value: "computed" (moment method), "outside_near_field" (not needed),
+    #: "no_near_field_model" (inside the near field, far-field estimate only: flagged)
+    near_field_case: str = field(init=False, default="")
+
+    def __post_init__(self):
+        case = ("computed" if self.near_field_ratio is not None else
+                "no_near_field_model" if self.inside_near_field else "outside_near_field")
+        object.__setattr__(self, "near_field_case", case)
 
 
 @dataclass(frozen=True)
@@ -367,6 +412,16 @@ class EvaluationResult:
     address: str = ""
     antennas: tuple[AntennaSummary, ...] = ()
     plan: PlanMap | None = None
+    #: every published figure the evaluation used, with whether it was read in its text (rfsafe.verification)
+    data_verification: tuple[FigureCheck, ...] = ()
+    #: why ``exemption`` has (no) value: "evaluated", "not_fcc" (the test belongs to 47 CFR only) or
+    #: "no_places" (no separation to a person is known)
+    exemption_case: str = field(init=False, default="")
+
+    def __post_init__(self):
+        case = ("evaluated" if self.exemption is not None else
+                "not_fcc" if self.standard != "fcc" else "no_places")
+        object.__setattr__(self, "exemption_case", case)
 
     @property
     def verdict(self) -> str:

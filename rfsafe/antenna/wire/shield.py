@@ -31,7 +31,7 @@ import numpy as np
 from rfsafe.errors import InputError, bad_value
 
 __all__ = ["ExpandedShield", "check_shield", "expand_shield", "TAPER_PIECE_RADII", "CommonModeCurrent",
-           "common_mode_current", "ChokeSweep", "required_choke_ohm", "CHOKE_SCAN_OHM"]
+           "common_mode_current", "ChokeSweep", "required_choke_ohm", "CHOKE_SCAN_OHM", "route_polyline_m"]
 
 #: Length of each radius-step piece between the antenna wire and the shield [its own radii].
 TAPER_PIECE_RADII = 10.0
@@ -389,7 +389,7 @@ def required_choke_ohm(ratio_at, angle_rad: float = 0.0) -> tuple[float | None, 
     """
     from scipy.optimize import brentq
 
-    kind = "resistive" if abs(angle_rad) < 1e-12 else f"phase {math.degrees(angle_rad):.0f} deg"
+    kind = "resistive" if abs(math.degrees(angle_rad)) < 0.5 else f"phase {math.degrees(angle_rad):+.0f} deg"
     r0 = ratio_at(0j)
     r = np.array([ratio_at(m * complex(math.cos(angle_rad), math.sin(angle_rad))) for m in CHOKE_SCAN_OHM])
     if r[-1] > 1:
@@ -407,3 +407,12 @@ def required_choke_ohm(ratio_at, angle_rad: float = 0.0) -> tuple[float | None, 
                lo, hi, xtol=1e-4)
     return float(math.exp(u)), (f"{kind} choke magnitude from a scan of 1 ohm to 1 Mohm (10 per decade) and "
                                 "Brent's root finder; smaller values leave some place above the limit")
+
+
+def route_polyline_m(spec) -> np.ndarray | None:
+    """The shield route of a wire spec as points from the feed point [m], shape (N, 3); None without a shield."""
+    if getattr(spec, "shield", None) is None:
+        return None
+    from rfsafe.antenna.wire.model import check_wire_antenna
+
+    return _route_points(spec, check_wire_antenna(spec))[1]
