@@ -374,7 +374,8 @@ def _height_remedy(loaded, ant, ratio_of_loaded, r_now) -> Remedy:
     subject = f"antenna {ant.id}"
     if ant.kind == "wire" and (_wire_touches_ground(ant.wire) or getattr(ant.wire, "shield", None) is not None):
         return Remedy("antenna_height_m", subject, ant.height_m, None, "not applicable", None,
-                      f"{subject}: raising it does not apply (the wire antenna is connected to the ground)")
+                      f"{subject}: raising it is not solved here (the wire model touches the ground or "
+                      "includes the feedline shield, which would not move with it)")
 
     without = loaded
     for c in loaded.model.configurations:

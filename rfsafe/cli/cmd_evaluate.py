@@ -7,6 +7,7 @@ from pathlib import Path
 import typer
 
 from rfsafe.cli.output import compact_number
+from rfsafe.errors import bad_value
 
 
 def render_evaluation(res) -> str:
@@ -75,6 +76,9 @@ def render_evaluation(res) -> str:
                              "loss dB", "least headroom", "SWR limit", "ratings exceeded"], rows, align="lrrrrrlrl",
                             title="Feedline and tuner stress at PEP (headroom = rating / stress; SWR limit: "
                                   "largest tolerable SWR of that part at this power)"))
+    from rfsafe.cli.answers import answer_sections
+
+    out.extend(answer_sections(res))
     if res.exemption is not None:
         out.append("")
         ex = res.exemption
@@ -91,23 +95,51 @@ def render_evaluation(res) -> str:
 def evaluate(file: Path = typer.Argument(..., help="Station file (.toml)."),
              standard: str = typer.Option(None, "--standard",
                                           help="Override the file's standard: fcc, icnirp2020, icnirp1998, ieee2019, sc6, eu1999."),
-             json_out: bool = typer.Option(False, "--json", help="Print one JSON document instead of tables.")) -> None:
+             json_out: bool = typer.Option(False, "--json", help="Print one JSON document instead of tables."),
+             csv_table: str = typer.Option(None, "--csv", metavar="TABLE",
+                                           help="Print one table as CSV instead: places, exposures, configurations, "
+                                                "keep-out or remedies."),
+             remedies: bool = typer.Option(True, "--remedies/--no-remedies",
+                                           help="Solve what would make each exceeding place comply, and each "
+                                                "configuration's headroom (default on; re-runs the evaluation)."),
+             wide: bool = typer.Option(False, "--wide", help="Do not fit tables and text to 100 columns.")) -> None:
     """Evaluate a station: exposure at every place, compliance distances, line stress.
+
+    Also gives ground-level keep-out distances and remedies (largest power, schedule, antenna height,
+    distance). --standard all evaluates under every standard, side by side, and marks the governing one
+    (the largest ratio) at each place; its exit status is the worst of them.
 
     Two verdicts are given: exposure (people, against the limits) and equipment (line, connectors,
     tuner, against their ratings). Exit status: 0 exposure complies at every place and no rating is
     exceeded; 1 an exposure limit is exceeded at some place (whatever the equipment); 4 exposure
     complies but a rating is exceeded; 5 no place was evaluated; 2 bad input; 3 internal error.
     """
-    from rfsafe.assess import assess
+    from rfsafe.cli import answers, output
     from rfsafe.cli.output import print_json, warn
-    from rfsafe.station import load_station
+    from rfsafe.remedies import with_answers
 
-    res = assess(load_station(file, standard=standard))
+    output.set_wide(wide)
+    if json_out and csv_table:
+        raise bad_value("--csv", csv_table, "cannot be combined with --json (give one of them)")
+    if csv_table is not None and csv_table not in answers.CSV_TABLES:
+        raise bad_value("--csv", csv_table, f"is not a table (accepted: {', '.join(answers.CSV_TABLES)})")
+    if standard == "all":
+        results = answers.all_standards(file)
+        codes = [r.exit_code for r in results.values() if not isinstance(r, str)]
+        if json_out:
+            print_json({"standards": results, "governing": answers.governing(results)})
+        else:
+            typer.echo(answers.render_all_standards(results))
+        raise typer.Exit(max(codes, key=lambda c: (c == 1, c)) if codes else 2)
+    loaded = answers.load_station_file(file, standard)
+    res = with_answers(loaded, remedies=remedies)
+    if csv_table is not None:
+        typer.echo(answers.evaluation_frame(res, csv_table).to_csv(index=False), nl=False)
+        raise typer.Exit(res.exit_code)
     if json_out:
         print_json(res)
     else:
-        typer.echo(render_evaluation(res))
+        typer.echo(output.fit_text(render_evaluation(res)))
         flags = sorted({f for c in res.configurations for f in c.flags} |
                        {f for p in res.places for f in p.flags})
         for f in flags:
