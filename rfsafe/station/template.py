@@ -43,7 +43,8 @@ antenna = "dipole"
 mode = "ssb"                        # cw | ssb | ssb-processed | fm | am | am-full | rtty | afsk | digital | carrier
 swr = 1.5                           # SWR at the antenna, or load_r_ohm / load_x_ohm
 # duty_factor = 0.2                 # overrides the mode's duty factor
-schedule = { on_minutes = 10.0, off_minutes = 10.0 }   # absent: continuous (conservative)
+# A schedule lowers the average power: declare one only if you keep to it in every averaging window.
+# schedule = { on_minutes = 10.0, off_minutes = 10.0 }   # absent: continuous (conservative default)
 
 [[places]]
 label = "Back garden"
