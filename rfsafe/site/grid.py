@@ -20,7 +20,7 @@ from typing import Callable, Sequence
 
 import numpy as np
 
-from rfsafe.antenna.patterns import Pattern, beam_exponents, direction_in_antenna_frame
+from rfsafe.antenna.patterns import AntennaDirection, Pattern, beam_exponents
 from rfsafe.site.constants import _FOUR_PI
 
 __all__ = ["SiteEmitter", "RatioGrid", "ratio_grid", "transmitter_ratios"]
@@ -156,6 +156,54 @@ def _groups(emitters: Sequence[SiteEmitter]) -> tuple[list[str], list[_Group]]:
 _F32 = np.float32
 
 
+class _TableLookup:
+    """Single-precision bilinear lookup in a pattern table (the interpolation of patterns.table_gain)."""
+
+    def __init__(self, tab) -> None:
+        self.a_grid = tab.azimuth_deg
+        self.a_ext = np.append(self.a_grid, self.a_grid[0] + 360.0)
+        self.e_grid = tab.elevation_deg.astype(np.float64)
+        self.n_az, self.n_el = self.a_grid.size, self.e_grid.size
+        self.gflat = tab._gain_lin.astype(_F32).ravel()
+        e_steps, a_steps = np.diff(self.e_grid), np.diff(self.a_ext)
+        self.e_uniform = bool(np.allclose(e_steps, e_steps[0], rtol=1e-9, atol=0.0))
+        self.a_uniform = bool(np.allclose(a_steps, a_steps[0], rtol=1e-9, atol=0.0))
+        self.e0, self.de = _F32(self.e_grid[0]), _F32(e_steps[0])
+        self.a0, self.da = _F32(self.a_grid[0]), _F32(a_steps[0])
+
+    def azimuth_cells(self, az_deg):
+        """Cell indices and weight for bearings ``az_deg`` in (-180, 180] [deg]."""
+        if self.a_uniform:
+            xa = (az_deg - self.a0) / self.da
+            fl = np.floor(xa)
+            i = fl.astype(np.intp) % self.n_az
+            return i, (i + 1) % self.n_az, (xa - fl).astype(_F32)
+        az = np.mod(np.asarray(az_deg, dtype=np.float64), 360.0)
+        az = np.where(az < self.a_grid[0], az + 360.0, az)
+        i = np.clip(np.searchsorted(self.a_ext, az, side="right") - 1, 0, self.n_az - 1)
+        ta = ((az - self.a_ext[i]) / (self.a_ext[i + 1] - self.a_ext[i])).astype(_F32)
+        return i, (i + 1) % self.n_az, ta
+
+    def gain(self, i, i1, ta, el_deg):
+        """Linear gain at the azimuth cells (i, i1, ta) and elevations ``el_deg`` [deg]."""
+        if self.e_uniform:
+            xe = (el_deg - self.e0) / self.de
+            j = np.clip(np.floor(xe), 0, self.n_el - 2).astype(np.intp)
+            te = np.clip(xe - j, 0.0, 1.0).astype(_F32)
+        else:
+            e_grid = self.e_grid
+            j = np.clip(np.searchsorted(e_grid, el_deg, side="right") - 1, 0, self.n_el - 2)
+            te = np.clip((el_deg - e_grid[j]) / (e_grid[j + 1] - e_grid[j]), 0.0, 1.0).astype(_F32)
+        g, row = self.gflat, j * self.n_az
+        lo = np.take(g, row + i)
+        lo += (np.take(g, row + i1) - lo) * ta
+        row += self.n_az
+        hi = np.take(g, row + i)
+        hi += (np.take(g, row + i1) - hi) * ta
+        lo += (hi - lo) * te
+        return lo
+
+
 def _evaluator(g: _Group) -> tuple[Callable, Callable]:
     """Return ``prepare(px, py) -> state`` and ``at(state, dz, out)`` computing G/(4 pi R^2) [1/m^2].
 
@@ -268,16 +316,70 @@ def _evaluator(g: _Group) -> tuple[Callable, Callable]:
             fix_origin(rho2, dz, out)
         return prepare, at
 
+    if kind == "table":
+        # Bilinear on the linear gain, as patterns.table_gain, in single precision with the cells
+        # found by arithmetic on uniform grids. Untilted, the azimuth cell does not depend on the
+        # height and is found once per point; tilted, both cells are found per height.
+        look = _TableLookup(pat.table)
+        if untilted:
+            def prepare(px, py):
+                dx, dy, rho2 = base(px, py)
+                fwd = (dx * sa + dy * ca).astype(_F32)
+                rgt = (dx * ca - dy * sa).astype(_F32)
+                return (rho2, np.sqrt(rho2), *look.azimuth_cells(np.degrees(np.arctan2(rgt, fwd))))
+
+            def at(s, dz, out):
+                rho2, rho, i, i1, ta = s
+                g_lin = look.gain(i, i1, ta, np.degrees(np.arctan2(_F32(dz), rho)))
+                np.add(rho2, _F32(dz * dz), out=out)
+                out *= _F32(_FOUR_PI)
+                with np.errstate(divide="ignore"):
+                    np.divide(g_lin, out, out=out)
+            return prepare, at
+
+        a_t = math.radians(g.tilt_deg)
+        st32, ct32 = _F32(math.sin(a_t)), _F32(math.cos(a_t))
+
+        def prepare(px, py):
+            dx, dy, rho2 = base(px, py)
+            return rho2, (dx * sa + dy * ca).astype(_F32), (dx * ca - dy * sa).astype(_F32)
+
+        def at(s, dz, out):
+            rho2, hor, rgt = s
+            dz32 = _F32(dz)
+            fwd = hor * ct32 + dz32 * st32
+            up = dz32 * ct32 - hor * st32
+            i, i1, ta = look.azimuth_cells(np.degrees(np.arctan2(rgt, fwd)))
+            g_lin = look.gain(i, i1, ta, np.degrees(np.arctan2(up, np.hypot(fwd, rgt))))
+            np.add(rho2, dz32 * dz32, out=out)
+            out *= _F32(_FOUR_PI)
+            with np.errstate(divide="ignore"):
+                np.divide(g_lin, out, out=out)
+        return prepare, at
+
+    # General path (tilted antennas): the horizontal components of the direction are found once
+    # per point; per height only the vertical part, then the pattern's own gain. Double precision:
+    # the dipole shapes lose digits near the element axis in single precision.
+    a_t = math.radians(g.tilt_deg)
+    st, ct = math.sin(a_t), math.cos(a_t)
+
     def prepare(px, py):
-        return base(px, py)
+        dx, dy, rho2 = base(px, py)
+        return dx * dx + dy * dy, dx * sa + dy * ca, dx * ca - dy * sa
 
     def at(s, dz, out):
-        dx, dy, rho2 = s
-        d = direction_in_antenna_frame(dx, dy, dz, azimuth_deg=g.azimuth_deg, tilt_deg=g.tilt_deg,
-                                       polarisation=g.polarisation)
-        r2 = dx * dx + dy * dy + dz * dz
-        with np.errstate(divide="ignore"):
-            out[...] = pat.gain(d) / (_FOUR_PI * r2)
+        rho2, hor, rgt = s
+        r2 = rho2 + dz * dz
+        with np.errstate(divide="ignore", invalid="ignore"):
+            inv = 1.0 / np.sqrt(r2)
+            zero = ~np.isfinite(inv)
+            inv[zero] = 0.0
+            f = (hor * ct + dz * st) * inv
+            f[zero] = 1.0                      # no direction at R = 0: the main beam (flagged there)
+            rt = rgt * inv
+            u = (dz * ct - hor * st) * inv
+            d = AntennaDirection(f, rt, u, rt if g.polarisation == "horizontal" else u)
+            np.divide(pat.gain(d), _FOUR_PI * r2, out=out, casting="unsafe")
     return prepare, at
 
 
