@@ -602,3 +602,83 @@ def with_answers(loaded, *, remedies: bool = True) -> EvaluationResult:
         places = place_remedies(loaded, result)
         configs = configuration_remedies(loaded, result)
     return dataclasses.replace(result, ground_keep_out=keep, place_remedies=places, configuration_remedies=configs)
+
+
+# --------------------------------------------------------------------------------------------------
+# sites
+
+
+def _region_points(res, label: str):
+    """Grid points of a region plus its edge samples (as the site review checks them)."""
+    import numpy as np
+
+    from rfsafe.site.geometry import polygon_edge_points
+
+    g = res.grid
+    r = g.region_labels.index(label)
+    xx, yy = np.meshgrid(g.x_m, g.y_m)
+    mask = g.region == r
+    px, py = xx[mask], yy[mask]
+    area = next((a for a in res.areas if a.label == label), None)
+    if area is not None:
+        ex_, ey_ = polygon_edge_points(area.polygon, g.spacing_m / 2.0)
+        px, py = np.concatenate([px, ex_]), np.concatenate([py, ey_])
+    return px, py
+
+
+def site_remedies(res) -> tuple:
+    """For every violation of a site review and every transmitter: the power cut and the move that clear it.
+
+    Solved with the site review's own kernel (:func:`rfsafe.site.grid.ratio_grid`, every transmitter's
+    worst configuration summed, worst height) over the violated region's grid points and edge samples,
+    one transmitter changed at a time: all its configurations' power scaled by one factor, or its
+    antennas moved together straight away from the violation's worst point (scan, then refined).
+    """
+    import numpy as np
+
+    from rfsafe.results import SiteRemedy
+    from rfsafe.site.constants import ENVIRONMENTS
+    from rfsafe.site.grid import ratio_grid
+
+    if not res.violations or res.grid is None:
+        return ()
+    out = []
+    ems = list(res.emitters)
+    for v in res.violations:
+        px, py = _region_points(res, v.region)
+        e = ENVIRONMENTS.index(v.environment)
+
+        def worst(emitters, _px=px, _py=py, _e=e):
+            ratio = ratio_grid(emitters, _px, _py, res.heights_m).ratio[_e]
+            return float(np.max(ratio)) if ratio.size else 0.0
+
+        r_now = worst(ems)
+        for t in res.transmitters:
+            name = t.transmitter
+            mine = [k for k, em in enumerate(ems) if em.transmitter == name]
+
+            def scaled(f, _mine=mine):
+                return worst([dataclasses.replace(em, power_w=tuple(p * f for p in em.power_w)) if k in _mine else em
+                              for k, em in enumerate(ems)])
+
+            p_status, factor, r_pow = _power_like(scaled, 1.0, r_now, 1.0)
+            dx, dy = t.x_m - v.x_m, t.y_m - v.y_m
+            norm = math.hypot(dx, dy) or 1.0
+            ux, uy = dx / norm, dy / norm
+
+            def moved(d, _mine=mine, _ux=ux, _uy=uy):
+                return worst([dataclasses.replace(em, x_m=em.x_m + _ux * d, y_m=em.y_m + _uy * d) if k in _mine else em
+                              for k, em in enumerate(ems)])
+
+            m_status, move, r_move = _scan_out(moved, 0.0, DISTANCE_STEPS_M, r_now)
+            power_text = ("no power cut of this station alone clears it" if p_status != "solved" else
+                          f"cut its power to {factor:.3g} x today ({10 * math.log10(factor):.1f} dB)")
+            move_text = ("no move up to {:g} m clears it".format(DISTANCE_STEPS_M[-1]) if m_status != "solved" else
+                         f"or move its antennas {move:.1f} m straight away from ({v.x_m:.1f}, {v.y_m:.1f}) m")
+            out.append(SiteRemedy(
+                violation=v.region, environment=v.environment, transmitter=name,
+                power_factor=factor if p_status == "solved" else None, power_status=p_status,
+                move_m=move if m_status == "solved" else None, move_status=m_status,
+                ratio_after_power=r_pow, ratio_after_move=r_move,
+                text=f"{v.region!r}: {name}: {power_text}; {move_text}"))
+    return tuple(out)

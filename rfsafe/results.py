@@ -11,7 +11,7 @@ from typing import Any
 
 __all__ = ["FigureCheck", "ComplianceDistance", "AntennaSummary", "PlanMap", "WireSummary", "NearFieldMap", "FeedlineShieldResult", "ConfigurationResult", "PlaceExposure", "TransmitterShare",
            "PlaceResult", "EvaluationResult", "CAUTIONS", "Remedy", "PlaceRemedies", "ConfigurationRemedies",
-           "GroundKeepOut", "QuickAnswer"]
+           "GroundKeepOut", "QuickAnswer", "SiteRemedy"]
 
 #: Exposure verdicts: every evaluated place within its limits, some place above, or no place declared.
 EXPOSURE_VERDICTS = ("COMPLIES", "EXCEEDS", "NOT EVALUATED")
@@ -371,6 +371,22 @@ class QuickAnswer:
     exemption: str
     near_field_distance_m: float
     flags: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class SiteRemedy:
+    """For one site violation and one station (transmitter): the power cut or the move that clears it."""
+
+    violation: str                 # the region's label
+    environment: str
+    transmitter: str
+    power_factor: float | None     # largest fraction of today's power that clears it; None: none does
+    power_status: str              # "solved", "no value helps"
+    move_m: float | None           # smallest move straight away from the worst point that clears it
+    move_status: str               # "solved", "no value helps"
+    ratio_after_power: float | None
+    ratio_after_move: float | None
+    text: str
 
 
 @dataclass(frozen=True)

@@ -256,3 +256,29 @@ def test_ground_keep_out_lists_declared_upper_floors():
     levels = {k.level for k in R.ground_keep_out(loaded, res, ems)}
     assert any(re.search(r"4\.5 m", lv) for lv in levels)      # the upstairs bedroom
     assert any("standing person" in lv for lv in levels)
+
+
+def test_site_remedies_clear_the_violation_when_fed_back():
+    import dataclasses
+
+    from rfsafe.site import assess_site, load_site
+    from rfsafe.site.analysis import analyse_site
+
+    loaded = load_site(DEMO / "event_field_day.toml")
+    res = assess_site(loaded)
+    assert res.violations
+    rems = R.site_remedies(res)
+    assert len(rems) == len(res.violations) * len(res.transmitters)
+    solved = [r for r in rems if r.power_status == "solved"]
+    assert solved
+    m = loaded.model
+    for r in solved:
+        ems = [dataclasses.replace(em, power_w=tuple(p * r.power_factor for p in em.power_w))
+               if em.transmitter == r.transmitter else em for em in res.emitters]
+        again = analyse_site(ems, boundary=loaded.boundary, areas=loaded.areas, heights_m=m.heights_m,
+                             grid_spacing_m=m.grid_spacing_m)
+        region = next(g for g in again.regions if g.label == r.violation)
+        assert region.points_over == 0
+        assert region.worst_ratio[r.environment] >= 1.0 - R.RATIO_TOLERANCE
+        if r.move_status == "solved":
+            assert _at_limit(r.ratio_after_move)

@@ -34,6 +34,9 @@ def render_site(res) -> str:
     if res.violations:
         out.append(f"VIOLATIONS ({len(res.violations)}):")
         out.extend(f"  V{i + 1}. {v.text}" for i, v in enumerate(res.violations))
+        if res.remedies:
+            out.append("What would clear each violation (one station changed at a time, the others as they are):")
+            out.extend(f"  - {r.text}" for r in res.remedies)
     else:
         out.append("No violations: no public or operators' area, open ground or ground outside the site is "
                    "above its limit.")
@@ -151,6 +154,11 @@ def site(file: Path = typer.Argument(..., help="Site file (.toml)."),
     with OutputSet(wanted, inputs=loaded.input_paths(), force=force) as outputs:
         progress = _Progress() if (not json_out and sys.stderr.isatty()) else None
         res = assess_site(loaded, progress=progress)
+        import dataclasses
+
+        from rfsafe.remedies import site_remedies
+
+        res = dataclasses.replace(res, remedies=site_remedies(res))
         if csv_out is not None:
             with outputs.open("--csv", "w", encoding="utf-8", newline="") as fh:
                 write_grid_csv(res, fh)
@@ -161,7 +169,9 @@ def site(file: Path = typer.Argument(..., help="Site file (.toml)."),
     if json_out:
         print_json(res)
     else:
-        typer.echo(render_site(res))
+        from rfsafe.cli.output import fit_text
+
+        typer.echo(fit_text(render_site(res)))
         for f in res.flags:
             warn(f"caution: {f}")
         for c in res.cautions:

@@ -82,6 +82,7 @@ class SiteResult:
     cautions: tuple[str, ...]
     emitters: tuple = field(default=(), repr=False)
     grid: SiteGrid | None = field(default=None, repr=False)
+    remedies: tuple = ()               # rfsafe.results.SiteRemedy per violation and transmitter (rfsafe.remedies)
 
     @property
     def verdict(self) -> str:
