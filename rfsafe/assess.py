@@ -502,7 +502,7 @@ def _place_exposure(em: Emitter, loaded: LoadedStation, p_index: int, place, cre
         r, lim, s, dist, gain, how = max((_far_field_at(em, loaded, place, z, peak_only=True) for z in heights),
                                          key=lambda b: b[0])
         e, h = (float(v) for v in ex.plane_wave_fields(s))
-    basis = f"nearest part of {em.antenna.id}: {em.extent.basis}"
+    basis = f"{em.antenna.id}: {em.extent.basis}"
     governing = f"{_governing(lim, s)} ({lim.basis})"
     if inside and solution is not None:
         average = loaded.model.near_field_spatial_average and SPATIAL_AVERAGE_ALLOWED[loaded.model.standard]
@@ -571,11 +571,12 @@ def _segments_distance_m(points: np.ndarray, segments) -> float:
     return float(point_segment_distances(points[:, None, :], a, b).min())
 
 
-def _separation_m(loaded: LoadedStation, ant: Antenna, freq_hz: float, places) -> tuple[float, str]:
-    """Smallest distance from a person to the radiating structure, and how it was found.
+def _separation_m(loaded: LoadedStation, ant: Antenna, freq_hz: float, places) -> tuple[float, str, bool]:
+    """Smallest distance from a person to the radiating structure, how it was found, and whether it is known.
 
     47 CFR 1.1307(b)(3) measures R from any part of the radiating structure; the declared position is
-    the centre of radiation, so the structure's extent is used where it is known.
+    the centre of radiation, so the structure's extent is used (rfsafe.antenna.extent). The third value
+    is False when the antenna's size is an assumption: no exemption is claimed from such a distance.
     """
     from rfsafe.units import wavelength_m
 
@@ -586,44 +587,46 @@ def _separation_m(loaded: LoadedStation, ant: Antenna, freq_hz: float, places) -
 
         route = route_polyline_m(loaded.wire_specs[ant.id])   # the feedline shield radiates too
         segs += [] if route is None else list(zip(route[:-1], route[1:]))
-        return _segments_distance_m(pts, segs), "nearest point of the wire geometry"
-    centre = np.array([ant.x_m, ant.y_m, ant.height_m])
-    lam = wavelength_m(freq_hz)
-    half = {"half-wave-dipole": lam / 4, "quarter-wave-vertical": lam / 8, "short-dipole": lam / 20}.get(ant.kind)
-    if half is not None:
-        if ant.polarisation == "vertical" or ant.kind == "quarter-wave-vertical":
-            axis = np.array([0.0, 0.0, 1.0])
-        else:  # a horizontal dipole's wire runs broadside to its azimuth
-            az = math.radians(ant.azimuth_deg + 90.0)
-            axis = np.array([math.sin(az), math.cos(az), 0.0])
-        seg = (centre - half * axis, centre + half * axis)
-        return _segments_distance_m(pts, [seg]), f"nearest point of a {ant.kind} of textbook length"
-    r = float(np.linalg.norm(pts - centre, axis=1).min())
-    if ant.aperture_m is not None:
-        return max(r - ant.aperture_m / 2, 1e-3), "centre distance less half the declared aperture_m"
-    return r, ("distance to the declared antenna position: declare aperture_m (largest dimension) so that "
-               "the nearest part of the antenna is used, as the rule requires")
+        return _segments_distance_m(pts, segs), "nearest point of the wire geometry", True
+    from rfsafe.antenna.extent import antenna_extent, nearest_distance_m
+
+    extent = antenna_extent(ant, freq_hz)
+    return max(float(nearest_distance_m(extent, pts).min()), 1e-3), extent.basis, extent.known
 
 
 def _exemption(loaded: LoadedStation, configs, places):
     st = loaded.model
-    if st.standard != "fcc" or not places:
+    if st.standard != "fcc":
         return None
-    from rfsafe.limits.exemption import ExemptionSource, fcc_exemption
+    from rfsafe.limits.exemption import NOTE, ExemptionResult, ExemptionSource, fcc_exemption
 
+    if not places:
+        return ExemptionResult(False, "not claimed: no place is declared, so the separation between a person and "
+                               "the antennas is not known (47 CFR 1.1307(b)(3) needs it)", math.inf, (), NOTE, ())
     sources = []
     notes: list[str] = []
+    unknown = []
     for c in configs:
         ant = next(a for a in st.antennas if a.id == c.antenna)
-        sep, how = _separation_m(loaded, ant, c.freq_mhz * 1e6, places)
+        sep, how, known = _separation_m(loaded, ant, c.freq_mhz * 1e6, places)
         notes.append(f"{c.id}: separation {sep:.2f} m, {how}")
+        if not known:
+            unknown.append(ant.id)
         sources.append(ExemptionSource(label=c.id, freq_hz=c.freq_mhz * 1e6,
                                        avg_power_w=max(c.avg_power_at_antenna_w.values()),
                                        gain_dbi=c.gain_dbi, separation_m=sep))
     import dataclasses
 
     result = fcc_exemption(sources)
-    return dataclasses.replace(result, assumptions=tuple(result.assumptions) + tuple(notes))
+    result = dataclasses.replace(result, assumptions=tuple(result.assumptions) + tuple(notes))
+    if unknown and result.exempt:
+        names = ", ".join(sorted(set(unknown)))
+        result = dataclasses.replace(
+            result, exempt=False,
+            criterion=f"not claimed: the size of {names} is not declared, so the separation from its nearest part "
+                      f"is not known (declare aperture_m, or element_span_m and boom_length_m for a beam); the "
+                      f"test with an assumed size would give: {result.criterion}")
+    return result
 
 
 def assess(loaded: LoadedStation, *, today: dt.date | None = None) -> EvaluationResult:

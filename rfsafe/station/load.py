@@ -128,6 +128,9 @@ def _check_antenna(i: int, a: Antenna, base: Path, wire_specs: dict, tables: dic
     if a.kind in ("beam", "other") and not has_gain:
         raise InputError(f"{path}.gain_dbi: is required for an antenna of kind {format_value(a.kind)} "
                          "(give gain_dbi or gain_dbd)")
+    for key in ("element_span_m", "boom_length_m"):
+        if a.kind != "beam" and getattr(a, key) is not None:
+            raise bad_value(f"{path}.{key}", getattr(a, key), 'applies only to kind = "beam"')
     if a.kind == "beam" and a.use_pattern:
         for key in ("front_to_back_db", "beamwidth_h_deg", "beamwidth_v_deg"):
             if getattr(a, key) is None:

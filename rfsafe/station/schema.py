@@ -82,6 +82,10 @@ class Antenna(_Strict):
                                      description="Table: CSV of azimuth_deg, elevation_deg, gain_dbi (relative to this file).")
     aperture_m: float | None = Field(default=None, gt=0,
                                      description="Largest dimension D of an aperture antenna (far field beyond 2 D^2/lambda) [m].")
+    element_span_m: float | None = Field(
+        default=None, gt=0, description="Beam: length of its longest element [m] (default: a conservative size for the band).")
+    boom_length_m: float | None = Field(
+        default=None, gt=0, description="Beam: length of its boom, along the main beam [m] (default: a conservative size for the band).")
     wire: WireAntennaSpec | None = Field(
         default=None, description="Wire geometry (station frame, metres) for the moment-method near-field solver.")
 

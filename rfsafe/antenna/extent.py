@@ -1,0 +1,204 @@
+"""The radiating structure of an antenna in space, and the distance from points to its nearest part.
+
+Near-field decisions, far-field distances, compliance distances and the exemption separation are all
+measured from the nearest part of the radiating structure, never from a reference point. This module
+says what that structure is for each antenna kind:
+
+- ``wire``: the declared wire geometry;
+- ``half-wave-dipole``: a straight element of its textbook length lambda/2 along its axis (horizontal:
+  broadside to the azimuth; vertical: the antenna's up axis, tilted with it);
+- ``short-dipole``: an element of at most lambda/2 (a dipole shorter than a half wave; its real length
+  is not declared, so the longest it can be is taken);
+- ``quarter-wave-vertical``: a vertical element of lambda/4 centred on the declared centre of radiation
+  (standing on the ground if that puts its base below it), with a horizontal radial system (or
+  counterpoise) of radius lambda/4 at its base when the base is above the ground;
+- ``beam``: a flat rectangle in the plane of its boom and elements: the boom (``boom_length_m``)
+  along the main beam, the longest element (``element_span_m``) along the element axis; an undeclared
+  size is replaced by a conservative one for the band (stated);
+- any kind with ``aperture_m``: a sphere of diameter D around the declared position (its nearest part
+  cannot be farther than that);
+- ``isotropic``, ``table`` and ``other`` without ``aperture_m``: no size is known; a sphere of radius
+  lambda/4 (a half-wave element in any orientation) is assumed, and the size counts as unknown, so no
+  exemption is claimed from it.
+
+Larger assumed structures bring every part nearer to a person, which can only raise the estimate and
+widen the near-field flags: the choice that cannot understate exposure.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from rfsafe.units import C0_M_S
+
+__all__ = ["Extent", "antenna_extent", "nearest_distance_m", "BEAM_DEFAULT_SPAN_WAVELENGTHS",
+           "BEAM_DEFAULT_BOOM_WAVELENGTHS", "UNKNOWN_RADIUS_WAVELENGTHS"]
+
+#: Element span assumed for a beam that does not declare ``element_span_m`` [wavelengths]: a full-size
+#: half-wave reflector at the lowest frequency of a band reaching 17 % below the operating frequency
+#: (0.5 / 0.83 = 0.6; the widest HF amateur bands span about 13 %): common practice, conservative.
+BEAM_DEFAULT_SPAN_WAVELENGTHS = 0.6
+#: Boom length assumed for a beam that does not declare ``boom_length_m`` [wavelengths] (common HF
+#: beams of up to five or six elements have shorter booms; a longer boom must be declared).
+BEAM_DEFAULT_BOOM_WAVELENGTHS = 1.0
+#: Radius of the sphere assumed around an antenna of unknown size [wavelengths]: a half-wave element
+#: in any orientation.
+UNKNOWN_RADIUS_WAVELENGTHS = 0.25
+
+
+@dataclass(frozen=True)
+class Extent:
+    """The radiating structure of one antenna at one frequency (station frame, metres).
+
+    Attributes
+    ----------
+    segments_m : ndarray (n, 2, 3)
+        Straight pieces (start, end) [m].
+    discs : tuple
+        Horizontal discs ``(centre (3,), radius_m)`` (radial systems).
+    rectangles : tuple
+        Flat rectangles ``(centre (3,), u (3,), v (3,), half_u_m, half_v_m)`` with unit axes u, v.
+    spheres : tuple
+        Spheres ``(centre (3,), radius_m)``.
+    basis : str
+        What was taken and where its size comes from (shown in results as ``distance_basis``).
+    known : bool
+        True when the size is declared or fixed by the kind (or bounded from above); False when it is an
+        assumption, from which no exemption may be claimed.
+    size_m : float
+        Largest dimension of the structure taken [m].
+    """
+
+    segments_m: np.ndarray = field(default_factory=lambda: np.zeros((0, 2, 3)))
+    discs: tuple = ()
+    rectangles: tuple = ()
+    spheres: tuple = ()
+    basis: str = ""
+    known: bool = True
+    size_m: float = 0.0
+
+
+def _frame(azimuth_deg: float, tilt_deg: float):
+    """Forward, right and up unit vectors of the antenna frame (see rfsafe.antenna.patterns)."""
+    a, t = math.radians(azimuth_deg), math.radians(tilt_deg)
+    sa, ca, st, ct = math.sin(a), math.cos(a), math.sin(t), math.cos(t)
+    return (np.array([sa * ct, ca * ct, st]), np.array([ca, -sa, 0.0]), np.array([-sa * st, -ca * st, ct]))
+
+
+def antenna_extent(ant, freq_hz: float, wire_spec=None) -> Extent:
+    """The radiating structure of a declared antenna at ``freq_hz`` [Hz].
+
+    Parameters
+    ----------
+    ant : rfsafe.station.schema.Antenna
+        The antenna (position, kind, orientation, optional size keys).
+    freq_hz : float
+        Operating frequency [Hz]; textbook and assumed sizes scale with the wavelength.
+    wire_spec : WireAntennaSpec, optional
+        The validated wire geometry of a wire antenna.
+
+    References
+    ----------
+    Textbook element lengths: C. A. Balanis, *Antenna Theory*, 4th ed., sec. 4.6 (half-wave dipole) and
+    sec. 4.7 (quarter-wave monopole over a ground plane); a short dipole is shorter than a half wave.
+    47 CFR 1.1307(b)(3): the separation is measured from any part of the radiating structure.
+    """
+    lam = C0_M_S / float(freq_hz)
+    centre = np.array([ant.x_m, ant.y_m, ant.height_m], dtype=float)
+    fwd, right, up = _frame(ant.azimuth_deg, ant.tilt_deg)
+    vertical = ant.polarisation == "vertical"
+    if ant.kind == "wire" and wire_spec is not None:
+        segs = np.array([(a, b) for w in wire_spec.wires for a, b in zip(w.points_m[:-1], w.points_m[1:])],
+                        dtype=float)
+        pts = segs.reshape(-1, 3)
+        size = float(np.linalg.norm(pts[:, None, :] - pts[None, :, :], axis=2).max())
+        return Extent(segments_m=segs, basis="nearest point of the declared wire geometry", size_m=size)
+    beam_dims = (getattr(ant, "element_span_m", None), getattr(ant, "boom_length_m", None))
+    if ant.aperture_m is not None and not (ant.kind == "beam" and any(v is not None for v in beam_dims)):
+        r = ant.aperture_m / 2.0
+        return Extent(spheres=((centre, r),), size_m=float(ant.aperture_m),
+                      basis=f"nearest point of a sphere of the declared aperture_m {ant.aperture_m:g} m "
+                            "around the declared position")
+    if ant.kind in ("half-wave-dipole", "short-dipole"):
+        axis = up if vertical else right
+        half = lam / 4.0
+        seg = np.array([[centre - half * axis, centre + half * axis]])
+        what = ("a half-wave dipole of its textbook length" if ant.kind == "half-wave-dipole"
+                else "a short dipole taken as long as it can be (a half wave)")
+        orient = "vertical" if vertical else f"horizontal, broadside to azimuth {ant.azimuth_deg:g} deg"
+        return Extent(segments_m=seg, size_m=lam / 2,
+                      basis=f"nearest point of {what}, lambda/2 = {lam / 2:.3g} m ({orient})")
+    if ant.kind == "quarter-wave-vertical":
+        half = lam / 8.0
+        vup = np.array([0.0, 0.0, 1.0])
+        bottom = centre - half * vup
+        if bottom[2] < 0.0:                  # a vertical stands on the ground, never below it
+            bottom = bottom - bottom[2] * vup
+        top = bottom + 2 * half * vup
+        elevated = bottom[2] > 0.0           # radials on the ground belong to the ground system
+        return Extent(segments_m=np.array([[bottom, top]]), discs=((bottom, lam / 4.0),) if elevated else (),
+                      size_m=lam / 2 if elevated else lam / 4,
+                      basis=f"nearest point of a quarter-wave vertical of its textbook length lambda/4 = "
+                            f"{lam / 4:.3g} m centred on the declared height"
+                            + (" with radials of lambda/4 at its base" if elevated else ", base on the ground"))
+    if ant.kind == "beam":
+        span = getattr(ant, "element_span_m", None)
+        boom = getattr(ant, "boom_length_m", None)
+        notes = []
+        if span is None:
+            span = BEAM_DEFAULT_SPAN_WAVELENGTHS * lam
+            notes.append(f"element span not declared: {BEAM_DEFAULT_SPAN_WAVELENGTHS:g} lambda = {span:.3g} m assumed "
+                         "(a full-size element at the bottom of the band; declare element_span_m)")
+        if boom is None:
+            boom = BEAM_DEFAULT_BOOM_WAVELENGTHS * lam
+            notes.append(f"boom length not declared: {BEAM_DEFAULT_BOOM_WAVELENGTHS:g} lambda = {boom:.3g} m assumed "
+                         "(declare boom_length_m)")
+        axis = up if vertical else right
+        basis = (f"nearest point of the beam's elements and boom ({span:.3g} m x {boom:.3g} m, boom along the "
+                 f"main beam, centred on the declared position)")
+        if notes:
+            basis += "; " + "; ".join(notes)
+        return Extent(rectangles=((centre, fwd, axis, boom / 2.0, span / 2.0),), basis=basis,
+                      known=not notes, size_m=math.hypot(span, boom))
+    r = UNKNOWN_RADIUS_WAVELENGTHS * lam
+    return Extent(spheres=((centre, r),), known=False, size_m=2 * r,
+                  basis=f"no dimension declared for kind {ant.kind!r}: a half-wave element in any orientation "
+                        f"assumed (sphere of radius lambda/4 = {r:.3g} m around the declared position; declare "
+                        "aperture_m)")
+
+
+def nearest_distance_m(extent: Extent, points_m) -> np.ndarray:
+    """Distance [m] from each point (..., 3) to the nearest part of ``extent`` (0 on or inside it).
+
+    References
+    ----------
+    Point-segment, point-disc and point-rectangle distances by clamped projection (textbook vector
+    geometry, common practice).
+    """
+    p = np.asarray(points_m, dtype=float)
+    best = np.full(p.shape[:-1], np.inf)
+    segs = np.asarray(extent.segments_m, dtype=float).reshape(-1, 2, 3)
+    if len(segs):
+        a, b = segs[:, 0], segs[:, 1]
+        ab = b - a
+        ap = p[..., None, :] - a
+        denom = np.maximum(np.einsum("kj,kj->k", ab, ab), 1e-300)
+        t = np.clip(np.einsum("...kj,kj->...k", ap, ab) / denom, 0.0, 1.0)
+        d = np.linalg.norm(ap - t[..., None] * ab, axis=-1)
+        best = np.minimum(best, d.min(axis=-1))
+    for c, radius in extent.discs:
+        dz = p[..., 2] - c[2]
+        rho = np.hypot(p[..., 0] - c[0], p[..., 1] - c[1])
+        best = np.minimum(best, np.hypot(np.maximum(rho - radius, 0.0), dz))
+    for c, u, v, hu, hv in extent.rectangles:
+        q = p - c
+        su = np.einsum("...j,j->...", q, u)
+        sv = np.einsum("...j,j->...", q, v)
+        nearest = c + np.clip(su, -hu, hu)[..., None] * u + np.clip(sv, -hv, hv)[..., None] * v
+        best = np.minimum(best, np.linalg.norm(p - nearest, axis=-1))
+    for c, radius in extent.spheres:
+        best = np.minimum(best, np.maximum(np.linalg.norm(p - c, axis=-1) - radius, 0.0))
+    return best

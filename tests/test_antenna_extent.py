@@ -1,0 +1,99 @@
+"""The radiating structure of named antenna kinds and beams, and distances to its nearest part.
+
+Every expected distance is plane geometry written as an expression (textbook vector geometry, common
+practice); element lengths are the textbook ones (Balanis, Antenna Theory, 4th ed., sec. 4.6: half-wave
+dipole lambda/2; sec. 4.7: quarter-wave monopole lambda/4).
+"""
+
+import math
+
+import numpy as np
+import pytest
+
+from rfsafe.antenna.extent import (BEAM_DEFAULT_BOOM_WAVELENGTHS, BEAM_DEFAULT_SPAN_WAVELENGTHS,
+                                   UNKNOWN_RADIUS_WAVELENGTHS, antenna_extent, nearest_distance_m)
+from rfsafe.station.schema import Antenna
+
+C0 = 299_792_458.0
+F_HZ = 14.2e6
+LAM = C0 / F_HZ
+
+
+def _ant(**kw):
+    base = dict(id="a", height_m=10.0)
+    base.update(kw)
+    return Antenna(**base)
+
+
+def _d(extent, *pts):
+    return nearest_distance_m(extent, np.array(pts, dtype=float))
+
+
+def test_horizontal_half_wave_dipole_runs_broadside_to_its_azimuth():
+    ext = antenna_extent(_ant(kind="half-wave-dipole"), F_HZ)
+    # azimuth 0: main lobes north-south, so the wire runs east-west for lambda/4 each side
+    d = _d(ext, (LAM / 4 + 1.0, 0.0, 10.0), (0.0, 3.0, 10.0), (0.0, 0.0, 6.0), (-LAM / 4 - 0.7, 0.0, 10.0))
+    assert d == pytest.approx([1.0, 3.0, 4.0, 0.7], abs=1e-9)
+    assert ext.known and ext.size_m == pytest.approx(LAM / 2)
+    ext90 = antenna_extent(_ant(kind="half-wave-dipole", azimuth_deg=90.0), F_HZ)
+    assert _d(ext90, (0.0, LAM / 4 + 2.0, 10.0)) == pytest.approx([2.0], abs=1e-9)   # now north-south
+
+
+def test_vertical_dipole_and_a_place_below_its_lower_end():
+    ext = antenna_extent(_ant(kind="half-wave-dipole", polarisation="vertical", height_m=12.0), F_HZ)
+    assert _d(ext, (0.0, 0.0, 12.0 - LAM / 4 - 0.5), (2.0, 0.0, 12.0)) == pytest.approx([0.5, 2.0], abs=1e-9)
+
+
+def test_quarter_wave_vertical_radials_only_when_elevated():
+    up = antenna_extent(_ant(kind="quarter-wave-vertical", height_m=10.0), F_HZ)
+    base = 10.0 - LAM / 8
+    # 2 m beyond the tip of a radial, at the height of the radials
+    assert _d(up, (LAM / 4 + 2.0, 0.0, base)) == pytest.approx([2.0], abs=1e-9)
+    ground = antenna_extent(_ant(kind="quarter-wave-vertical", height_m=1.0), F_HZ)
+    # base clipped to the ground; element from 0 to lambda/4; no radial disc: a person 3 m away at 1.5 m
+    assert _d(ground, (3.0, 0.0, 1.5)) == pytest.approx([3.0], abs=1e-9)
+    assert "base on the ground" in ground.basis
+
+
+def test_beam_rectangle_of_declared_span_and_boom():
+    ant = _ant(kind="beam", gain_dbi=8.0, element_span_m=10.0, boom_length_m=6.0, height_m=12.0)
+    ext = antenna_extent(ant, F_HZ)
+    assert ext.known and "10 m x 6 m" in ext.basis
+    d = _d(ext, (8.0, 0.0, 12.0),          # 3 m beyond an element tip (elements run east-west)
+           (0.0, 4.0, 12.0),               # 1 m beyond the front end of the boom (north)
+           (4.0, -2.0, 3.0),               # straight below a point of the rectangle: the height difference
+           (8.0, 7.0, 12.0))               # beyond a corner: sqrt(3^2 + 4^2)
+    assert d == pytest.approx([3.0, 1.0, 9.0, 5.0], abs=1e-9)
+
+
+def test_beam_without_dimensions_takes_a_stated_conservative_size():
+    ext = antenna_extent(_ant(kind="beam", gain_dbi=8.0), F_HZ)
+    assert not ext.known
+    assert "element span not declared" in ext.basis and "boom length not declared" in ext.basis
+    span, boom = BEAM_DEFAULT_SPAN_WAVELENGTHS * LAM, BEAM_DEFAULT_BOOM_WAVELENGTHS * LAM
+    assert _d(ext, (span / 2 + 1.0, 0.0, 10.0), (0.0, boom / 2 + 1.0, 10.0)) == pytest.approx([1.0, 1.0])
+    # at least a full-size half-wave element: never smaller than the textbook dipole
+    assert span >= LAM / 2
+
+
+def test_unknown_size_and_declared_aperture():
+    other = antenna_extent(_ant(kind="other", gain_dbi=3.0), F_HZ)
+    assert not other.known and "declare aperture_m" in other.basis
+    r = UNKNOWN_RADIUS_WAVELENGTHS * LAM
+    assert _d(other, (r + 2.0, 0.0, 10.0)) == pytest.approx([2.0])
+    ap = antenna_extent(_ant(kind="other", gain_dbi=3.0, aperture_m=3.0), F_HZ)
+    assert ap.known and _d(ap, (0.0, 0.0, 4.0)) == pytest.approx([6.0 - 1.5])
+
+
+def test_nearest_part_is_never_farther_than_the_declared_position():
+    """The structure contains (or surrounds) the declared position, so the nearest-part distance can only
+    be the same or smaller: never optimistic against the old centre distance."""
+    rng = np.random.default_rng(1)
+    pts = rng.uniform(-30, 30, size=(200, 3)) + np.array([0.0, 0.0, 10.0])
+    for kw in (dict(kind="half-wave-dipole"), dict(kind="short-dipole", polarisation="vertical"),
+               dict(kind="quarter-wave-vertical"), dict(kind="beam", gain_dbi=7.0, azimuth_deg=33.0, tilt_deg=10.0),
+               dict(kind="isotropic"), dict(kind="other", gain_dbi=2.0, aperture_m=2.0)):
+        ext = antenna_extent(_ant(**kw), F_HZ)
+        centre = np.linalg.norm(pts - np.array([0.0, 0.0, 10.0]), axis=1)
+        assert np.all(nearest_distance_m(ext, pts) <= centre + 1e-9), kw
+        assert math.isfinite(ext.size_m) and ext.basis
