@@ -82,12 +82,32 @@ KNOWN = ('"rg-58", "rg-8x", "rg-213", "rg-174", "twinlead-300", "window-450", "o
      "--vf: missing; a custom line needs --z0-ohm, --loss-db-per-100m and --vf"),
     (["--z0-ohm", "50", "--loss-db-per-100m", "2", "--vf", "1.3", "--swr", "2"], "--vf: 1.3 must be > 0 and <= 1"),
     (["--cable", "rg-213", "--swr", "2", "--duty-factor", "1.5"], "--duty-factor: 1.5 must be > 0 and <= 1"),
-    (["--cable", "rg-213", "--load-ohm", "12-35j", "--tuner", "t"], '--tuner: "t" is not a known network (known: "l", "pi")'),
+    (["--cable", "rg-213", "--load-ohm", "12-35j", "--tuner", "x"],
+     '--tuner: "x" is not a known network (known: "l", "pi", "t")'),
+    (["--cable", "window-450", "--load-ohm", "600-j900", "--connector", "uhf"],
+     '--connector: "uhf" puts a coax connector at both ends of a balanced line, which usually has none: declare the '
+     'end that has one with connector_at_transmitter or connector_at_antenna (or "none")'),
+    (["--cable", "rg-213", "--load-ohm", "50", "--connector-ant", "sma"],
+     '--connector-ant: "sma" is not a known connector series (known: "uhf", "n", "bnc")'),
+    (["--cable", "rg-213", "--load-ohm", "50", "--tuner", "t", "--capacitor-range-pf", "500,10"],
+     '--capacitor-range-pf: "500,10" is not a range (accepted: MIN,MAX in pF with 0 < MIN < MAX)'),
+    (["--cable", "rg-213", "--load-ohm", "50", "--tuner", "pi", "--c1-pf", "100"], "--c1-pf: 100.0 applies to --tuner t only"),
+    (["--cable", "rg-213", "--load-ohm", "50", "--tuner", "t", "--c1-pf", "100"],
+     "--l-uh: is required but missing (give all three T settings c1_pf, l_uh, c2_pf, or none)"),
+    (["--cable", "rg-213", "--load-ohm", "10-300j", "--length-m", "0", "--tuner", "t", "--q", "20"],
+     "--q: 20.0 must be > 30, the least loaded Q at which a high-pass T (series C, shunt L, series C) matches "
+     "10-300j ohm to 50 ohm"),
+    (["--cable", "window-450", "--load-ohm", "600-j900", "--balun", "1:4"],
+     '--balun: "1:4" is not a balun ratio (accepted: "n:1" with the balanced side first, 1 <= n <= 64, e.g. "1:1", '
+     '"4:1", "9:1")'),
+    (["--cable", "window-450", "--load-ohm", "600-j900", "--balun-power-w", "1000"],
+     "--balun-power-w: 1000.0 describes a balun: give --balun"),
     (["--cable", "rg-213", "--swr", "2", "--tuner", "l"],
      '--tuner: "l" needs load_ohm: a network\'s parts depend on the complex impedance, which an SWR alone does not fix'),
-    # 32.86 ohm is the parallel-form resistance of the line input impedance; Q_min = sqrt(50/32.86 - 1)
+    # 33.02 ohm is the parallel-form resistance of the line input impedance (RG-213 losses as fitted in
+    # cables.csv); Q_min = sqrt(50/33.02 - 1)
     (["--cable", "rg-213", "--load-ohm", "12-35j", "--tuner", "pi", "--q", "0.5"],
-     "--q: 0.5 must be > 0.7221, the least loaded Q that matches 32.86 ohm (parallel form of the load) to 50 ohm"),
+     "--q: 0.5 must be > 0.717, the least loaded Q that matches 33.02 ohm (parallel form of the load) to 50 ohm"),
     (["--cable", "rg-213", "--swr", "2", "--connector", "sma"],
      '--connector: "sma" is not a known connector series (known: "uhf", "n", "bnc")'),
 ])
@@ -126,3 +146,46 @@ def test_j_first_and_j_last_give_the_same_result():
     a = json.loads(run(BASE + ["--cable", "rg-213", "--load-ohm", "600-j900", "--json"]).stdout)
     b = json.loads(run(BASE + ["--cable", "rg-213", "--load-ohm", "600-900j", "--json"]).stdout)
     assert a == b and a["load_ohm"] == {"re": 600.0, "im": -900.0}
+
+
+def test_t_tuner_ladder_line_case_table_and_json():
+    """The case an operator meets: a 600 - j900 ohm wire through 15 m of ladder line at 400 W, a T tuner and a
+    4:1 balun at the transmitter, no connectors. The table answers which part fails first; JSON carries it."""
+    args = ["line", "--pep-w", "400", "--freq-mhz", "3.6", "--length-m", "15", "--cable", "window-450",
+            "--load-ohm", "600-j900", "--tuner", "t", "--capacitor-v-peak", "3000", "--inductor-a-rms", "8",
+            "--balun", "4:1", "--balun-power-w", "1000"]
+    t = run(args)
+    assert t.exit_code == 0, t.stderr
+    assert "Fails first: balun (equivalent_power_w) fails first, at SWR" in t.stdout
+    assert "not rated: line, line.heating" in t.stdout
+    assert "transmitter end: none, antenna end: none" in t.stdout
+    assert "T network (high-pass) at the transmitter" in t.stdout
+    assert " ok" in t.stdout and "not rated" in t.stdout
+    doc = json.loads(run(args + ["--json"]).stdout)
+    assert doc["first_failure_part"] == "balun" and doc["first_failure"].startswith("balun (")
+    assert [p["name"] for p in doc["tuner_parts"]] == ["C1", "L1", "C2"]
+    assert {p["part"]: p["status"] for p in doc["part_stresses"]}["line"] == "not rated"
+    assert doc["balun"]["label"] == "4:1" and doc["balun"]["location"] == "transmitter"
+    assert doc["connector_at_transmitter"] is None and doc["connector_at_antenna"] is None
+
+
+def test_matchable_region_printed_and_in_json():
+    args = BASE + ["--cable", "rg-213", "--load-ohm", "12-35j", "--tuner", "t", "--capacitor-range-pf", "20,250",
+                   "--inductor-range-uh", "0.2,12", "--matchable-region"]
+    t = run(args)
+    assert t.exit_code == 0, t.stderr
+    assert "Loads a T network with C 20-250 pF and L 0.2-12 uH can match to 50 ohm at 14.2 MHz" in t.stdout
+    rows = [ln for ln in t.stdout.splitlines() if ln.startswith("  X ")]
+    assert len(rows) == 25 and sum(ln.count("@") for ln in rows) == 1 and "ranges: declared" in t.stdout
+    doc = json.loads(run(args + ["--json"]).stdout)
+    reg = doc["tuner"]["matchable_region"]
+    assert len(reg["matchable"]) == len(reg["x_ohm"]) and len(reg["matchable"][0]) == len(reg["r_ohm"])
+
+
+def test_t_tuner_as_set_and_range_flags():
+    """Part settings as read off the dials; a setting outside the declared range is flagged in a note."""
+    args = BASE + ["--cable", "rg-213", "--load-ohm", "12-35j", "--tuner", "t", "--c1-pf", "120", "--l-uh", "1.2",
+                   "--c2-pf", "300", "--capacitor-range-pf", "10,250", "--json"]
+    doc = json.loads(run(args).stdout)
+    assert doc["tuner"]["network"]["form"] == "high-pass, as set"
+    assert any("C2 = 300 pF is above this tuner's declared range 10-250 pF" in n for n in doc["notes"])

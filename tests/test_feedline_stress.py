@@ -235,3 +235,101 @@ def test_readme_states_the_same_connector_rule():
 
     readme = (Path(__file__).resolve().parents[1] / "README.md").read_text(encoding="utf-8")
     assert CONNECTOR_LOSS_RULE in " ".join(readme.split())   # line breaks in the README are not significant
+
+
+def test_connector_per_end_or_none():
+    """Ladder line is usually connected without a connector (common practice): one end, both, or none."""
+    c = cable_class("window-450")
+    kw = dict(pep_w=400.0, avg_power_w=400.0, freq_hz=3.6e6, cable=c, length_m=15.0, load_ohm=600 - 900j)
+    none = evaluate_line(**kw)
+    assert not any(p.part.startswith("connector") for p in none.part_stresses)
+    assert (none.connector_at_transmitter, none.connector_at_antenna) == (None, None)
+    tx = evaluate_line(connector_at_transmitter="uhf", connector_at_antenna="none", **kw)
+    assert [p.part for p in tx.part_stresses if p.part.startswith("connector")] == ["connector.transmitter"]
+    assert (tx.connector_at_transmitter, tx.connector_at_antenna) == ("uhf", None)
+    p = next(p for p in tx.part_stresses if p.part == "connector.transmitter")
+    assert p.stress == pytest.approx(tx.voltage_at_transmitter_v_peak, rel=1e-15) and p.rating == 500.0
+    with pytest.raises(InputError, match=r'^line.connector: "uhf" puts a coax connector at both ends of a balanced '
+                                         r'line, which usually has none'):
+        evaluate_line(connector="uhf", **kw)
+    with pytest.raises(InputError, match=r'^line.connector: "n" cannot be combined with connector_at_transmitter'):
+        evaluate_line(connector="n", connector_at_antenna="uhf", **kw)
+    with pytest.raises(InputError, match=r'^line.connector_at_antenna: "pl" is not a known connector series'):
+        evaluate_line(connector_at_antenna="pl", **kw)
+    with pytest.raises(InputError, match=r"^line.connector_v_peak_rating: 800 rates a connector, but no end has one"):
+        evaluate_line(connector_v_peak_rating=800, **kw)
+    # coax with different series at the two ends, and the user's rating applied to both
+    coax = dict(kw, cable=cable_class("rg-213"), load_ohm=12 - 35j)
+    mixed = evaluate_line(connector_at_transmitter="uhf", connector_at_antenna="n", **coax)
+    ratings = {p.part: p.rating for p in mixed.part_stresses if p.part.startswith("connector")}
+    assert ratings == {"connector.transmitter": 500.0, "connector.antenna": 1500.0}
+    rated = evaluate_line(connector_at_transmitter="uhf", connector_at_antenna="n", connector_v_peak_rating=900.0,
+                          **coax)
+    assert {p.rating for p in rated.part_stresses if p.part.startswith("connector")} == {900.0}
+
+
+def test_not_rated_is_never_ok():
+    """A line class without a voltage or power rating, and tuner parts without ratings, say "not rated"."""
+    r = evaluate_line(pep_w=100.0, avg_power_w=100.0, freq_hz=7.1e6, cable=cable_class("window-450"), length_m=20.0,
+                      load_ohm=300 + 100j, tuner=TunerSpec("t", capacitor_max_voltage_v_peak=4000.0))
+    status = {p.part: p.status for p in r.part_stresses}
+    assert status == {"line": "not rated", "line.heating": "not rated", "tuner.C1": "ok", "tuner.L1": "not rated",
+                      "tuner.C2": "ok"}
+    assert r.not_rated_parts == ("line", "line.heating", "tuner.L1")
+    assert r.first_failure.endswith("; not rated: line, line.heating, tuner.L1")
+
+
+def _tuner_part_worst_stress(kw, tuner, name, swr, n_phases=720):
+    """Largest stress of one tuner part over load phases at one SWR, with the line transformed by scikit-rf and
+    the network designed for each load (brute force, independent of rfsafe's search)."""
+    c, f, length = kw["cable"], kw["freq_hz"], kw["length_m"]
+    ref = evaluate_line(tuner=tuner, **kw)
+    gam = complex(np.log(10) / 20 * ref.matched_loss_db / length + 2j * np.pi * f / (c.velocity_factor * 299792458.0))
+    from rfsafe.feedline.matching import design_tuner
+    g = (swr - 1) / (swr + 1)
+    worst = 0.0
+    for ph in np.linspace(0, 2 * np.pi, n_phases, endpoint=False):
+        zl = c.z0_ohm * (1 + g * np.exp(1j * ph)) / (1 - g * np.exp(1j * ph))
+        zin = complex(np.squeeze(tf.zl_2_zin(c.z0_ohm, zl, gam * length)))
+        net = design_tuner(tuner, load_ohm=zin, freq_hz=f, input_power_w=kw["pep_w"], target_ohm=50.0).network
+        p = next(p for p in net.parts if p.name == name)
+        worst = max(worst, p.voltage_v_peak if p.kind == "capacitor" else p.current_a_rms)
+    return worst
+
+
+def test_tuner_part_tolerable_swr_and_first_failure():
+    """Each rated tuner part gets a largest tolerable SWR: just below it no load phase exceeds the rating,
+    just above it some phase does (brute force over 720 phases; a tolerance of 0.5 % in SWR covers the
+    brute force's phase step). The part with the lowest one is named in the one-line answer."""
+    kw = dict(pep_w=400.0, avg_power_w=400.0, freq_hz=3.6e6, cable=cable_class("window-450"), length_m=15.0,
+              load_ohm=600 - 900j)
+    tuner = TunerSpec("t", capacitor_max_voltage_v_peak=3000.0, inductor_max_current_a_rms=8.0)
+    r = evaluate_line(tuner=tuner, **kw)
+    tol = {p.part: p.largest_tolerable_swr for p in r.part_stresses if p.part.startswith("tuner.")}
+    assert all(v is not None for v in tol.values())
+    s_l = tol["tuner.L1"]
+    assert 1 < s_l < 100
+    rating = 8.0
+    assert _tuner_part_worst_stress(kw, tuner, "L1", s_l * 0.995) <= rating * (1 + 1e-9)
+    assert _tuner_part_worst_stress(kw, tuner, "L1", s_l * 1.005) > rating
+    first = min(tol, key=lambda k: tol[k])
+    assert r.first_failure_part == first and r.first_failure_swr == pytest.approx(tol[first], rel=1e-15)
+    assert r.first_failure.startswith(f"{first} (")
+    assert f"fails first, at SWR {tol[first]:.3g} at the antenna end" in r.first_failure
+
+
+def test_first_failure_when_exceeded_at_swr_1_and_when_never():
+    c = cable_class("rg-58")
+    hot = evaluate_line(pep_w=1500.0, avg_power_w=10.0, freq_hz=7.1e6, cable=c, length_m=20.0, swr=1.0,
+                        connector_v_peak_rating=300.0)
+    assert hot.first_failure_swr == 1.0
+    assert hot.first_failure.startswith("connector.transmitter (voltage_v_peak) exceeds its rating even with a "
+                                        "matched line (SWR 1) at 1500 W PEP")
+    cool = evaluate_line(pep_w=1.0, avg_power_w=1.0, freq_hz=7.1e6, cable=cable_class("rg-213"), length_m=20.0,
+                         swr=2.0, connector="n")
+    assert math.isinf(cool.first_failure_swr) and cool.first_failure_part is None
+    assert cool.first_failure.startswith("no rated part reaches its rating at any SWR at 1 W PEP")
+    bare = evaluate_line(pep_w=1.0, avg_power_w=1.0, freq_hz=7.1e6, cable=cable_class("open-wire-600"),
+                         length_m=20.0, swr=2.0)
+    assert bare.first_failure == ("no part has a rating: which part fails first cannot be said; not rated: line, "
+                                  "line.heating")

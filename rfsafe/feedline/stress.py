@@ -10,12 +10,14 @@ SWR meter calibrated for that impedance reads them.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from dataclasses import dataclass, field as dc_field
+from typing import ClassVar
 
 import numpy as np
 
-from rfsafe.errors import bad_value
+from rfsafe.errors import InputError, bad_value
 from rfsafe.feedline.catalogue import CableClass, connector_series, matched_loss_db_per_100m, power_rating_w
 from rfsafe.feedline.line import (
     low_loss_complex_z0, mismatch_total_loss_db, propagation_constant,
@@ -23,9 +25,10 @@ from rfsafe.feedline.line import (
     line_voltage_current,
 )
 from rfsafe.feedline.matching import MatchingPart, TunerResult, TunerSpec, design_tuner
+from rfsafe.feedline.balun import BalunSpec, BalunStress, balun_equivalent_power_w, balun_stress
 
 __all__ = ["PartStress", "LineResult", "evaluate_line", "THERMAL_RULE", "LOSS_MODEL_CLOSED",
-           "LOSS_MODEL_EXACT", "TRANSMITTER_TARGET_OHM"]
+           "LOSS_MODEL_EXACT", "TRANSMITTER_TARGET_OHM", "NO_CONNECTOR", "TUNER_SWR_SEARCH_TOP"]
 
 THERMAL_RULE = ("1/SWR rule (common practice): the cable's matched average-power rating is divided by "
                 "(I_max / I_matched)^2, the local heating at the current maximum relative to a matched "
@@ -38,6 +41,11 @@ LOSS_MODEL_EXACT = ("exact, complex Z0 = R0 (1 - j alpha/beta): P_in/P_load from
                     "(Pozar eq. 2.77-2.79, Table 4.1), " + CONNECTOR_LOSS_RULE)
 #: Resistance a transmitter-end network presents to the transmitter [ohm] (common practice: 50 ohm).
 TRANSMITTER_TARGET_OHM = 50.0
+#: Connector id meaning "no connector at this end" (ladder line is usually connected without one).
+NO_CONNECTOR = "none"
+#: Highest SWR at which the tolerable SWR of tuner parts is searched (their stress has no closed-form bound).
+TUNER_SWR_SEARCH_TOP = 100.0
+_TUNER_PHASES = 36
 _N_PHASES = 360
 
 
@@ -55,6 +63,12 @@ class PartStress:
     tolerable_swr_note: str
     exceeded: bool
     rating_source: str
+    status: str = "not rated"  # "ok" | "EXCEEDED" | "not rated" (no rating exists: never shown as "ok")
+
+    NONFINITE_NOTES: ClassVar[dict] = {
+        "headroom": "no stress at this power: any rating holds",
+        "largest_tolerable_swr": "the rating is not reached at any SWR searched (see tolerable_swr_note)",
+    }
 
 
 @dataclass(frozen=True)
@@ -106,6 +120,17 @@ class LineResult:
     swr_seen_by_transmitter: float
     exceeded_parts: tuple[str, ...]
     notes: tuple[str, ...] = dc_field(default=())
+    first_failure: str = ""               # one line: which rated part fails first, at what SWR
+    first_failure_part: str | None = None
+    first_failure_swr: float | None = None   # SWR at the antenna end; 1.0: exceeded even when matched
+    NONFINITE_NOTES: ClassVar[dict] = {
+        "first_failure_swr": "no rated part reaches its rating at any SWR searched (see first_failure)",
+        "return_loss_at_transmitter_db": "perfect match at the transmitter end: no reflection",
+    }
+    not_rated_parts: tuple[str, ...] = ()
+    balun: BalunStress | None = None
+    connector_at_transmitter: str | None = None   # connector series id, or None: no connector at that end
+    connector_at_antenna: str | None = None
     connector_loss_db: float = 0.0  # added to the cable's mismatched loss, never multiplied by the mismatch
 
 
@@ -190,14 +215,167 @@ def _stress(part, quantity, stress, rating, unit, tol, source) -> PartStress:
     swr, note = (None, "no rating") if (rating is None or tol is None) else _tolerable_swr(tol, rating)
     if rating is not None and tol is None:
         note = "not computed for this part (depends on the complex load, not on SWR alone)"
-    return PartStress(part, quantity, float(stress), rating, unit, headroom, swr, note,
-                      rating is not None and stress > rating, source)
+    exceeded = rating is not None and stress > rating
+    return PartStress(part, quantity, float(stress), rating, unit, headroom, swr, note, exceeded, source,
+                      "not rated" if rating is None else ("EXCEEDED" if exceeded else "ok"))
+
+
+def _connector_ends(field: str, connector, at_tx, at_ant, v_rating, balanced: bool):
+    """Per-end connector (series id or None) and its (rating [V peak], source)."""
+    if connector is not None and (at_tx is not None or at_ant is not None):
+        raise bad_value(f"{field}.connector", connector, "cannot be combined with connector_at_transmitter/"
+                        "connector_at_antenna (give the series for both ends, or one per end)")
+    if connector is not None and connector != NO_CONNECTOR and balanced:
+        raise bad_value(f"{field}.connector", connector, "puts a coax connector at both ends of a balanced line, "
+                        "which usually has none: declare the end that has one with connector_at_transmitter or "
+                        f'connector_at_antenna (or "{NO_CONNECTOR}")')
+    if connector is not None:
+        at_tx = at_ant = connector
+    ends = {}
+    for end, cid in (("transmitter", at_tx), ("antenna", at_ant)):
+        if cid is None or cid == NO_CONNECTOR:
+            ends[end] = None
+            continue
+        series = connector_series(cid, field=f"{field}.connector_at_{end}" if connector is None
+                                  else f"{field}.connector")
+        ends[end] = (cid, series.max_voltage_v_peak, series.source)
+    if v_rating is not None:
+        v = _positive(f"{field}.connector_v_peak_rating", v_rating, "V")
+        if all(e is None for e in ends.values()):
+            if balanced or at_tx == NO_CONNECTOR or at_ant == NO_CONNECTOR:
+                raise bad_value(f"{field}.connector_v_peak_rating", v_rating, "rates a connector, but no end has one "
+                                "(declare connector_at_transmitter or connector_at_antenna)")
+            ends = {e: ("rated by the user", v, "user rating") for e in ends}  # an unnamed series at both ends
+        else:
+            ends = {e: None if c is None else (c[0], v, "user rating") for e, c in ends.items()}
+    return ends
+
+
+def _tuner_tolerable_swrs(spec: TunerSpec, result: TunerResult, rated: dict, *, r0: float, z0: complex,
+                          gam: complex, length: float, freq: float, balun_ratio: float, target: float,
+                          gamma_now: complex | None, field: str) -> dict:
+    """Largest SWR at the antenna end at which each rated tuner part stays within its rating.
+
+    Worst case over the load phase (``_TUNER_PHASES`` phases plus the present one, each part's largest
+    sample refined by golden-section search): for each load of
+    that SWR the network is designed again as declared (same loaded Q or default rule; settings given
+    as part values are replaced by the loaded Q they give) at the same input power, and the part with
+    the same name and kind is compared with its rating. The SWR is stepped up to
+    ``TUNER_SWR_SEARCH_TOP``, then the first crossing is refined by bisection. Loads for which the
+    network has no such part, or cannot be built, are skipped.
+    """
+    net = result.network
+    if spec.c1_pf is not None:
+        spec = dataclasses.replace(spec, c1_pf=None, l_uh=None, c2_pf=None, loaded_q=net.loaded_q)
+    spec = dataclasses.replace(spec, matchable_region=False, capacitor_range_pf=None, inductor_range_uh=None)
+    phases = np.linspace(0.0, 2.0 * np.pi, _TUNER_PHASES, endpoint=False)
+    if gamma_now is not None and abs(gamma_now) > 0:
+        phases = np.append(phases, np.angle(gamma_now))
+    p_in = net.input_power_w
+    tanh_gl = np.tanh(gam * length)
+
+    def at(g: float, phase: float) -> dict:
+        """Stress of each rated part for the load of SWR (1+g)/(1-g) at ``phase`` (empty if not buildable)."""
+        gph = g * complex(math.cos(phase), math.sin(phase))
+        if abs(1 - gph) == 0:
+            return {}
+        z = r0 * (1 + gph) / (1 - gph)
+        if result.position == "transmitter":
+            z = complex(z0 * (z + z0 * tanh_gl) / (z0 + z * tanh_gl)) / balun_ratio
+        if not (math.isfinite(z.real) and math.isfinite(z.imag) and z.real > 0):
+            return {}
+        try:
+            n = design_tuner(spec, load_ohm=z, freq_hz=freq, input_power_w=p_in, target_ohm=target,
+                             field=field).network
+        except InputError:
+            return {}
+        return {p.name: (p.voltage_v_peak if p.kind == "capacitor" else p.current_a_rms)
+                for p in n.parts if rated.get(p.name) == p.kind}
+
+    def worst(g: float) -> dict:
+        """Largest stress over the load phase: sampled, then golden-section refined around each part's
+        sampled maximum (the samples alone could miss a peak between them)."""
+        samples = [at(g, float(ph)) for ph in phases]
+        out: dict = {}
+        step = 2.0 * math.pi / _TUNER_PHASES
+        for name in rated:
+            vals = [sm.get(name, -1.0) for sm in samples]
+            k = int(np.argmax(vals))
+            if vals[k] < 0:
+                continue
+            a, b = float(phases[k]) - step, float(phases[k]) + step
+            r = (math.sqrt(5.0) - 1.0) / 2.0
+            best = vals[k]
+            for _ in range(14):  # bracket shrinks to 0.6 % of 20 degrees
+                c1, c2 = b - r * (b - a), a + r * (b - a)
+                f1, f2 = at(g, c1).get(name, -1.0), at(g, c2).get(name, -1.0)
+                best = max(best, f1, f2)
+                if f1 >= f2:
+                    b = c2
+                else:
+                    a = c1
+            out[name] = best
+        return out
+
+    swr_grid = np.geomspace(1.0, TUNER_SWR_SEARCH_TOP, 25)
+    g_grid = (swr_grid - 1.0) / (swr_grid + 1.0)
+    curves = [worst(float(g)) for g in g_grid]
+    how = (f"worst case over the load phase ({_TUNER_PHASES} phases and the present one, maximum refined), "
+           "network redesigned "
+           "for each load as declared, at this power; SWR at the antenna end")
+    out = {}
+    for name, kind in rated.items():
+        rating = next(p.rating for p in net.parts if p.name == name)
+        k = next((k for k, c in enumerate(curves) if c.get(name, 0.0) > rating), None)
+        if k is None:
+            out[name] = (math.inf, f"rating not reached up to SWR {TUNER_SWR_SEARCH_TOP:g} (searched no further); "
+                         + how)
+        elif k == 0:
+            out[name] = (None, "rating exceeded even with a matched line (SWR 1) at this power")
+        else:
+            lo, hi = float(g_grid[k - 1]), float(g_grid[k])
+            for _ in range(24):  # |Gamma| to about 1e-8
+                mid = 0.5 * (lo + hi)
+                if worst(mid).get(name, 0.0) > rating:
+                    hi = mid
+                else:
+                    lo = mid
+            out[name] = (float(swr_from_reflection(lo)), how)
+    return out
+
+
+def _first_failure(parts, pep: float, swr_now: float):
+    """(text, part, swr): the rated part whose largest tolerable SWR is the lowest."""
+    not_rated = [p.part for p in parts if p.rating is None]
+    cands = []
+    for p in parts:
+        if p.rating is None:
+            continue
+        if p.largest_tolerable_swr is not None:
+            cands.append((p.largest_tolerable_swr, p))
+        elif p.tolerable_swr_note.startswith("rating exceeded even with a matched line"):
+            cands.append((1.0, p))
+    tail = f"; not rated: {', '.join(not_rated)}" if not_rated else ""
+    if not cands:
+        what = "no part has a rating" if not_rated else "no tolerable SWR could be computed"
+        return f"{what}: which part fails first cannot be said{tail}", None, None
+    swr, p = min(cands, key=lambda c: (c[0], c[1].headroom))  # a tie (e.g. at SWR 1): the least headroom
+    if swr == 1.0 and p.largest_tolerable_swr is None:
+        return (f"{p.part} ({p.quantity}) exceeds its rating even with a matched line (SWR 1) at {pep:g} W PEP"
+                + tail), p.part, 1.0
+    if math.isinf(swr):
+        return (f"no rated part reaches its rating at any SWR at {pep:g} W PEP (tuner parts searched to SWR "
+                f"{TUNER_SWR_SEARCH_TOP:g})" + tail), None, math.inf
+    return (f"{p.part} ({p.quantity}) fails first, at SWR {swr:.3g} at the antenna end (worst case over the load "
+            f"phase, {pep:g} W PEP; present SWR {swr_now:.3g})" + tail), p.part, float(swr)
 
 
 def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: CableClass, length_m: float,
                   swr: float | None = None, load_ohm: complex | None = None,
                   connector_loss_db: float = 0.0, connector: str | None = None,
                   connector_v_peak_rating: float | None = None,
+                  connector_at_transmitter: str | None = None, connector_at_antenna: str | None = None,
+                  balun: BalunSpec | None = None,
                   tuner: TunerSpec | None = None, exact_complex_z0: bool = False,
                   profile_points: int = 401, field: str = "line") -> LineResult:
     """Stress and loss of a feedline (and optional matching network) at PEP and average power.
@@ -225,9 +403,16 @@ def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: Ca
         its own: it is not scaled by the SWR, and it does not lower the voltages and currents on the
         line, which are computed for the cable alone: conservative for stress).
     connector : str, optional
-        Connector series at both ends (``connector_ids()``), rated by its common-practice figure.
+        Connector series at both ends (``connector_ids()``), rated by its common-practice figure;
+        refused on a balanced line (which usually has no connector: declare each end instead).
     connector_v_peak_rating : float, optional
-        Peak-voltage rating of the connectors [V]; overrides the series figure.
+        Peak-voltage rating of the connectors [V]; overrides the series figure at every end that has
+        one (with no end declared on a coax line: a connector of that rating at both ends).
+    connector_at_transmitter, connector_at_antenna : str, optional
+        Connector series at one end, or ``"none"``; an end left out has no connector.
+    balun : BalunSpec, optional
+        A balun at the transmitter end (feeding a balanced line) or at the antenna (see
+        :mod:`rfsafe.feedline.balun`).
     tuner : TunerSpec, optional
         Matching network at the transmitter end or at the antenna feedpoint (needs ``load_ohm``).
     exact_complex_z0 : bool
@@ -262,13 +447,15 @@ def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: Ca
     if tuner is not None and load_ohm is None:
         raise bad_value(f"{field}.tuner", tuner.topology, "needs load_ohm: a network's parts depend on the "
                         "complex impedance, which an SWR alone does not fix")
-    conn_rating, conn_source = None, ""
-    if connector is not None:
-        series = connector_series(connector, field=f"{field}.connector")
-        conn_rating, conn_source = series.max_voltage_v_peak, series.source
-    if connector_v_peak_rating is not None:
-        conn_rating = _positive(f"{field}.connector_v_peak_rating", connector_v_peak_rating, "V")
-        conn_source = "user rating"
+    ends = _connector_ends(field, connector, connector_at_transmitter, connector_at_antenna,
+                           connector_v_peak_rating, cable.balanced)
+    n_balun = 1.0
+    if balun is not None:
+        balun.check(f"{field}.balun")
+        n_balun = balun.ratio if balun.location == "transmitter" else 1.0
+        if tuner is not None and balun.location == "antenna" and tuner.position == "antenna":
+            raise bad_value(f"{field}.balun.location", balun.location, "with a tuner also at the antenna is not "
+                            "modelled (put the balun at the transmitter, or leave one of them out)")
     if not (isinstance(profile_points, int) and profile_points >= 2):
         raise bad_value(f"{field}.profile_points", profile_points, "must be an integer >= 2")
 
@@ -286,6 +473,8 @@ def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: Ca
     # the network at the antenna feedpoint: the line is loaded by the network's input impedance
     tuner_result: TunerResult | None = None
     antenna_load = None if load_ohm is None else complex(load_ohm)
+    if antenna_load is not None and balun is not None and balun.location == "antenna":
+        antenna_load = antenna_load / balun.ratio   # the line sees the antenna through the balun
     if tuner is not None and tuner.position == "antenna":
         # design at a nominal power; analysed again below at the power the line delivers
         pre = design_tuner(tuner, load_ohm=antenna_load, freq_hz=freq, input_power_w=1.0, target_ohm=r0,
@@ -321,7 +510,9 @@ def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: Ca
         i_ends = ifun(np.array([0.0, length]))
         prof_v, prof_i = vfun(d_prof), ifun(d_prof)
         profile_kind = "standing wave for the given load"
-        load_assumption = ("antenna impedance as given" if tuner is None or tuner.position != "antenna"
+        load_assumption = (("antenna impedance as given" if balun is None or balun.location != "antenna" else
+                            f"antenna impedance as given, divided by the balun ratio {balun.ratio:g}")
+                           if tuner is None or tuner.position != "antenna"
                            else "input impedance of the feedpoint network (antenna impedance as given)")
         gamma_ant = complex(reflection_coefficient(line_load, z0))
     else:
@@ -387,9 +578,11 @@ def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: Ca
 
     # tuner
     swr_seen = swr_tx
+    if n_balun != 1.0:  # the transmitter (or tuner) sees the line input through the balun
+        swr_seen = float(swr_from_reflection(abs(reflection_coefficient(z_in / n_balun, TRANSMITTER_TARGET_OHM))))
     if tuner is not None:
         if tuner.position == "transmitter":
-            tuner_result = design_tuner(tuner, load_ohm=z_in, freq_hz=freq, input_power_w=pep,
+            tuner_result = design_tuner(tuner, load_ohm=z_in / n_balun, freq_hz=freq, input_power_w=pep,
                                         target_ohm=TRANSMITTER_TARGET_OHM, field=f"{field}.tuner")
             tgt = tuner.target_resistance_ohm or TRANSMITTER_TARGET_OHM
             swr_seen = float(swr_from_reflection(reflection_coefficient(tuner_result.network.input_impedance_ohm, tgt)))
@@ -420,18 +613,47 @@ def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: Ca
 
     parts.append(_stress("line.heating", "equivalent_matched_power_w", equiv, p_rating, "W average",
                          env_heat if avg > 0 else None, line_src + "; " + THERMAL_RULE))
-    if conn_rating is not None:
-        parts.append(_stress("connector.transmitter", "voltage_v_peak", float(v_ends[1]), conn_rating, "V peak",
-                             lambda g: _envelope_ends(g, r0, a_amp, pep)[1], conn_source))
-        parts.append(_stress("connector.antenna", "voltage_v_peak", float(v_ends[0]), conn_rating, "V peak",
-                             lambda g: _envelope_ends(g, r0, a_amp, pep)[0], conn_source))
+    if ends["transmitter"] is not None:
+        parts.append(_stress("connector.transmitter", "voltage_v_peak", float(v_ends[1]), ends["transmitter"][1],
+                             "V peak", lambda g: _envelope_ends(g, r0, a_amp, pep)[1], ends["transmitter"][2]))
+    if ends["antenna"] is not None:
+        parts.append(_stress("connector.antenna", "voltage_v_peak", float(v_ends[0]), ends["antenna"][1], "V peak",
+                             lambda g: _envelope_ends(g, r0, a_amp, pep)[0], ends["antenna"][2]))
+    balun_result = None
+    if balun is not None:
+        k_end = 1 if balun.location == "transmitter" else 0
+        balun_result = balun_stress(balun, voltage_v_peak=float(v_ends[k_end]), current_a_peak=float(i_ends[k_end]),
+                                    pep_w=pep, avg_power_w=avg)
+        root_n = math.sqrt(n_balun)
+
+        def balun_eq(g, k=k_end):
+            e = _envelope_ends(g, r0, a_amp, pep)
+            return balun_equivalent_power_w(e[k] / root_n, e[2 + k] * root_n)
+
+        parts.append(_stress("balun", "equivalent_power_w", balun_result.equivalent_power_w, balun.power_rating_w,
+                             "W (PEP-equivalent)", balun_eq, "user rating; " + balun_result.rule))
+        if balun.location == "transmitter" and not cable.balanced:
+            notes.append("balun at the transmitter feeding an unbalanced (coax) line: check the declared location")
     if tuner_result is not None:
+        rated = {p.name: p.kind for p in tuner_result.network.parts if p.rating is not None}
+        tol = {}
+        if rated:
+            tol = _tuner_tolerable_swrs(
+                tuner, tuner_result, rated, r0=r0, z0=complex(z0), gam=complex(gam), length=length, freq=freq,
+                balun_ratio=n_balun, gamma_now=None if line_load is None else complex(reflection_coefficient(
+                    antenna_load if tuner.position == "antenna" else line_load, r0)),
+                target=TRANSMITTER_TARGET_OHM if tuner.position == "transmitter" else r0, field=f"{field}.tuner")
         for p in tuner_result.network.parts:
             stress = p.voltage_v_peak if p.kind == "capacitor" else p.current_a_rms
             qty = "voltage_v_peak" if p.kind == "capacitor" else "current_a_rms"
-            parts.append(_stress(f"tuner.{p.name}", qty, stress, p.rating, p.rating_unit, None, "user rating"))
+            ps = _stress(f"tuner.{p.name}", qty, stress, p.rating, p.rating_unit, None, "user rating")
+            if p.name in tol:
+                ps = dataclasses.replace(ps, largest_tolerable_swr=tol[p.name][0], tolerable_swr_note=tol[p.name][1])
+            parts.append(ps)
+        notes.extend(tuner_result.network.range_flags)
     if avg == 0:
         notes.append("average power 0 W: no heating")
+    first_text, first_part, first_swr = _first_failure(parts, pep, float(swr_from_reflection(g_mag)))
     if cable.max_voltage_v_peak is None:
         notes.append(f"cable class {cable.id!r} has no voltage rating: line voltage not compared")
     if p_rating is None:
@@ -458,5 +680,9 @@ def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: Ca
         profile_kind=profile_kind, profile_position_m=x_out, profile_voltage_v_peak=np.asarray(prof_v),
         profile_current_a_peak=np.asarray(prof_i), tuner=tuner_result,
         tuner_parts=() if tuner_result is None else tuner_result.network.parts, swr_seen_by_transmitter=swr_seen,
-        exceeded_parts=tuple(p.part for p in parts if p.exceeded), notes=tuple(notes), connector_loss_db=c_loss,
+        exceeded_parts=tuple(p.part for p in parts if p.exceeded), notes=tuple(notes),
+        first_failure=first_text, first_failure_part=first_part, first_failure_swr=first_swr,
+        not_rated_parts=tuple(p.part for p in parts if p.rating is None), balun=balun_result,
+        connector_at_transmitter=None if ends["transmitter"] is None else ends["transmitter"][0],
+        connector_at_antenna=None if ends["antenna"] is None else ends["antenna"][0], connector_loss_db=c_loss,
     )
