@@ -71,6 +71,31 @@ def test_demo_files_run():
         assert abs(json.loads(r.stdout)["radiated_over_input_power"] - 1) < 1e-3
 
 
+def test_trap_dipole_demo_reports_loads_shield_and_energy_balance():
+    # Energy balance (conservation of energy): radiated + dissipated in the loads = input, to the
+    # pattern quadrature; 1e-2 here because the shield's radius steps make the matrix slightly
+    # unsymmetric (see solver.impedance_matrix), 1e-4 on uniform wires (test_wire_loads).
+    r = CliRunner().invoke(app, ["wire", str(DEMO / "wire_trap_dipole_40m_20m.toml"), "--json"])
+    assert r.exit_code == 0, r.output
+    doc = json.loads(r.stdout)
+    assert abs(doc["radiated_over_input_power"] + doc["load_power_over_input_power"] - 1) < 1e-2
+    labels = [ld["label"] for ld in doc["loads"]]
+    assert labels == ["trap-west", "trap-east", "feedline choke"]
+    trap = doc["loads"][0]
+    z = complex(trap["impedance_ohm"]["re"], trap["impedance_ohm"]["im"])
+    # V = |Z| I (Ohm's law; I rms, V peak) and P = I^2 Re Z.
+    assert trap["voltage_v_peak"] == pytest.approx(abs(z) * trap["current_a_rms"] * math.sqrt(2), rel=1e-9)
+    assert trap["dissipated_w"] == pytest.approx(trap["current_a_rms"] ** 2 * z.real, rel=1e-9)
+    assert trap["voltage_headroom"] == pytest.approx(3000.0 / trap["voltage_v_peak"], rel=1e-9)
+    assert doc["loads"][2]["voltage_rating_v_peak"] is None
+    cm = doc["common_mode"]
+    assert cm["far_end"] == "open" and cm["current_a_rms"][-1] == 0.0   # free end: no current
+    assert cm["max_current_a_rms"] == max(cm["current_a_rms"])
+    r = CliRunner().invoke(app, ["wire", str(DEMO / "wire_trap_dipole_40m_20m.toml")])
+    assert "not rated" in r.stdout and "Common-mode current on the feedline shield" in r.stdout
+    assert "Feedline shield" in r.stderr
+
+
 @pytest.mark.parametrize("text,line", [
     ("freq_mhz = 14.2\n[[wires]\n", r"^Error: .*w\.toml: TOML syntax error: .*\(at line 2, column \d+\)$"),
     (DIPOLE.replace("radius_m = 0.001", "radius_m = 0.001\ncolour = \"red\""),
