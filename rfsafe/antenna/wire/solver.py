@@ -162,8 +162,22 @@ def _directions(theta, phi):
     return np.stack([st * np.cos(phi), st * np.sin(phi), np.cos(theta)], axis=-1)
 
 
+#: Below this |k^2 - alpha^2| / k^2 the radiation integrals switch to the sinc form (no cancellation).
+_NEAR_AXIS = 1e-3
+
+
 def _radiation_vector(st: Structure, k: float, seg_i: np.ndarray, rhat: np.ndarray) -> np.ndarray:
-    """N(r_hat) = sum_q s_q int I_q e^{jk r_hat . r'} dz' over segments and images, (ndir, 3) [A m]."""
+    """N(r_hat) = sum_q s_q int I_q e^{jk r_hat . r'} dz' over segments and images, (ndir, 3) [A m].
+
+    With the phases at both segment ends, P0 = e^{jk r.s0} and P1 = e^{jk r.s1}, and alpha = k r.s_hat,
+    the half-function integrals times P0 are (integrating e^{j alpha z} sin kz by parts)
+
+        int_0^d e^{j alpha z} sin k(d - z) dz * P0 = (k P1 - P0 (k cos kd + j alpha sin kd)) / (k^2 - alpha^2)
+        int_0^d e^{j alpha z} sin kz dz * P0       = (P1 (j alpha sin kd - k cos kd) + k P0) / (k^2 - alpha^2)
+
+    which costs two complex exponentials per segment and direction; within ``_NEAR_AXIS`` of
+    alpha = +-k (directions along a segment) the sinc form of :func:`radiation_integrals` is used.
+    """
     out = np.zeros(rhat.shape[:-1] + (3,), dtype=complex)
     flat = rhat.reshape(-1, 3)
     res = out.reshape(-1, 3)
@@ -171,13 +185,25 @@ def _radiation_vector(st: Structure, k: float, seg_i: np.ndarray, rhat: np.ndarr
         sd = s1 - s0
         d = np.linalg.norm(sd, axis=1)
         sdir = sd / d[:, None]
+        kc, ks = k * np.cos(k * d), np.sin(k * d)
+        i1, i2 = sign * seg_i[:, 0] / ks, sign * seg_i[:, 1] / ks   # sin kd of the PWS shapes folded in
         step = max(1, _CHUNK // len(s0))
         for i in range(0, len(flat), step):
             r = flat[i:i + step]
             alpha = k * (r @ sdir.T)
-            j1, j2 = radiation_integrals(alpha, d[None, :], k)
-            ph = np.exp(1j * k * (r @ s0.T))
-            amp = sign * ph * (seg_i[None, :, 0] * j1 + seg_i[None, :, 1] * j2)
+            p0 = np.exp(1j * k * (r @ s0.T))
+            p1 = np.exp(1j * k * (r @ s1.T))
+            den = k * k - alpha * alpha
+            jas = 1j * alpha * ks
+            amp = (i1 * (k * p1 - p0 * (kc + jas)) + i2 * (p1 * (jas - kc) + k * p0))
+            near = np.abs(den) < _NEAR_AXIS * k * k
+            with np.errstate(divide="ignore", invalid="ignore"):
+                amp /= den
+            if near.any():
+                a_n = alpha[near]
+                qn = np.nonzero(near)[1]
+                j1, j2 = radiation_integrals(a_n, d[qn], k)
+                amp[near] = sign * p0[near] * (seg_i[qn, 0] * j1 + seg_i[qn, 1] * j2)
             res[i:i + step] += amp @ sdir
     return out
 
