@@ -591,6 +591,56 @@ def _line_stress(res, width) -> list:
     return out
 
 
+def _wire_loads_and_shields(res, width) -> list:
+    """Lumped loads (traps, coils, chokes) and modelled feedline shields of wire antennas (minimal tables)."""
+    loaded = [c for c in res.configurations if getattr(c, "loads", ())]
+    shielded = [c for c in res.configurations if getattr(c, "feedline_shield", None) is not None]
+    if not loaded and not shielded:
+        return []
+    out = [section_heading("5.2", "Lumped loads and feedline shields (wire antennas)", level=1)]
+    if loaded:
+        out.append(p("Current through, peak voltage across and power dissipated in each lumped load at the PEP "
+                     "delivered to the antenna (moment method). Headroom = rating / voltage.", "lead"))
+        rows = []
+        for c in loaded:
+            for j, ld in enumerate(c.loads):
+                z = ld.impedance_ohm
+                rows.append([c.id if j == 0 else "", ld.label, f"{z.real:.4g} {'+' if z.imag >= 0 else '−'} "
+                             f"j{abs(z.imag):.4g}", num(ld.current_a_rms), num(ld.voltage_v_peak),
+                             num(ld.dissipated_w), "–" if ld.voltage_rating_v_peak is None
+                             else num(ld.voltage_rating_v_peak),
+                             "–" if ld.voltage_headroom is None else f"{ld.voltage_headroom:.2f}",
+                             "not rated" if ld.voltage_headroom is None else (
+                                 _coloured("EXCEEDED", False) if ld.voltage_headroom < 1 else "within rating")])
+        out.append(data_table(["configuration", "load", "Z Ω", "I A rms", "V peak", "loss W", "rating V peak",
+                               "headroom", "status"], rows,
+                              [22 * mm, 28 * mm, 30 * mm, 16 * mm, 16 * mm, 15 * mm, 20 * mm, 16 * mm,
+                               width - 163 * mm], align="lllrrrrrl"))
+    if shielded:
+        out.append(p("Feedline shield modelled as a conductor along its declared route: common-mode current at "
+                     "the PEP, and the smallest choke impedance that brings places within λ/2π of the route to "
+                     "the limit (this configuration alone, worst body height).", "lead"))
+        rows = []
+        notes = _Notes("c")
+        for c in shielded:
+            sh = c.feedline_shield
+            z = sh.choke_impedance_ohm
+            choke = "none" if z is None else (f"{z.real:.4g} {'+' if z.imag >= 0 else '−'} j{abs(z.imag):.4g} Ω "
+                                              f"at {sh.choke_distance_m:.2g} m")
+            need = ("none" if sh.required_choke_ohm == 0 else "not reachable" if sh.required_choke_ohm is None
+                    else f"|Z| ≥ {num(sh.required_choke_ohm)} Ω")
+            rows.append([c.id, f"{sh.route_length_m:.3g} m, {sh.far_end}", choke,
+                         f"{num(sh.max_current_a_rms)} at {sh.max_at_distance_m:.3g} m", num(sh.feed_current_a_rms),
+                         "–" if sh.worst_ratio is None else f"{sh.worst_ratio:.3g}",
+                         f"{need} {notes.ref([sh.required_choke_note])}".strip()])
+        out.append(data_table(["configuration", "route, far end", "choke", "common-mode A rms", "feed A rms",
+                               "ratio near route", "choke needed"], rows,
+                              [22 * mm, 22 * mm, 34 * mm, 28 * mm, 16 * mm, 18 * mm, width - 140 * mm],
+                              align="llllrrl"))
+        out.extend(notes.flowables())
+    return out
+
+
 # ------------------------------------------------------------------ 6 figures
 def _figures(res, width, numbers, extra_figures) -> list:
     out = [CondPageBreak(120 * mm), section_heading("6", "Figures")]
@@ -657,6 +707,7 @@ def worksheet_story(result, *, extra_figures=()) -> list:
     story += _configurations(result, width)
     story += _places(result, width, numbers)
     story += _line_stress(result, width)
+    story += _wire_loads_and_shields(result, width)
     story += _figures(result, width, numbers, list(extra_figures))
     story.append(CondPageBreak(70 * mm))
     story.append(section_heading("7", "Cautions"))
