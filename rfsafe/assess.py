@@ -245,12 +245,25 @@ def _line_result(station: Station, index: int, c: Configuration, f: Feedline, pe
         tuner = fl.TunerSpec(topology=c.tuner.kind, position=c.tuner.location, loaded_q=c.tuner.loaded_q,
                              inductor_q=c.tuner.inductor_q,
                              capacitor_max_voltage_v_peak=c.tuner.capacitor_v_peak_rating,
-                             inductor_max_current_a_rms=c.tuner.inductor_a_rms_rating)
+                             inductor_max_current_a_rms=c.tuner.inductor_a_rms_rating,
+                             c1_pf=c.tuner.c1_pf, l_uh=c.tuner.l_uh, c2_pf=c.tuner.c2_pf,
+                             capacitor_range_pf=None if c.tuner.capacitor_range_pf is None
+                             else tuple(c.tuner.capacitor_range_pf),
+                             inductor_range_uh=None if c.tuner.inductor_range_uh is None
+                             else tuple(c.tuner.inductor_range_uh))
+    balun = None
+    if f.balun is not None:
+        from rfsafe.feedline.balun import BalunSpec, parse_balun_ratio
+        balun = BalunSpec(ratio=parse_balun_ratio(f.balun.ratio, field=f"feedlines[{f.id}].balun.ratio"),
+                          location=f.balun.location, power_rating_w=f.balun.power_rating_w,
+                          loss_db=f.balun.loss_db, label=f.balun.ratio)
     swr = None if load is not None else (c.swr if c.swr is not None else 1.0)  # no SWR: matched (flagged)
     return fl.evaluate_line(pep_w=pep_w, avg_power_w=thermal_avg_w, freq_hz=freq_hz, cable=cable,
                             length_m=f.length_m, swr=swr, load_ohm=load,
                             connector_loss_db=f.connector_loss_db, connector=f.connector,
-                            connector_v_peak_rating=f.connector_v_peak_rating, tuner=tuner,
+                            connector_v_peak_rating=f.connector_v_peak_rating,
+                            connector_at_transmitter=f.connector_at_transmitter,
+                            connector_at_antenna=f.connector_at_antenna, balun=balun, tuner=tuner,
                             exact_complex_z0=station.exact_line_loss, field=f"configurations[{index}]")
 
 

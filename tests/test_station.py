@@ -67,6 +67,18 @@ CASES = [
     ("section that must be an array of tables", ('[[transmitters]]\nid = "tx"\npep_w = 100.0',
                                                   'transmitters = "tx"'),
      'transmitters: "tx" must be an array'),
+    ("coax connector at both ends of ladder line", ('cable = "rg-213"', 'cable = "window-450"\nconnector = "uhf"'),
+     'feedlines[0].connector: "uhf" puts a coax connector at both ends of a balanced line, which usually has none: '
+     'declare the end that has one with connector_at_transmitter or connector_at_antenna (or "none")'),
+    ("unknown connector at one end", ('length_m = 20.0', 'length_m = 20.0\nconnector_at_antenna = "pl"'),
+     'feedlines[0].connector_at_antenna: "pl" is not a known connector series (known: "uhf", "n", "bnc")'),
+    ("balun ratio written the wrong way round",
+     ('length_m = 20.0', 'length_m = 20.0\nbalun = { ratio = "1:4", location = "antenna" }'),
+     'feedlines[0].balun.ratio: "1:4" is not a balun ratio (accepted: "n:1" with the balanced side first, '
+     '1 <= n <= 64, e.g. "1:1", "4:1", "9:1")'),
+    ("T settings incomplete", ('swr = 1.5', 'load_r_ohm = 20.0\nload_x_ohm = -30.0\n'
+                                            'tuner = { kind = "t", c1_pf = 100.0 }'),
+     "configurations[0].tuner.l_uh: is required but missing (give all three T settings c1_pf, l_uh, c2_pf, or none)"),
 ]
 
 
@@ -193,3 +205,23 @@ def test_on_antenna_test_does_not_depend_on_where_the_station_sits(tmp_path, dy_
     outside = tmp_path / "outside.toml"
     outside.write_text(_wire_station(dy_m, 0.01))
     load_station(outside)
+
+
+def test_ladder_line_balun_and_t_tuner_in_a_station_file(tmp_path):
+    """Ladder line with no connectors, a 4:1 balun at the transmitter and a rated T tuner: the evaluation carries
+    the balun, the per-end connectors, "not rated" for the unrated line, and the part that fails first."""
+    text = BASE.replace('cable = "rg-213"', 'cable = "window-450"\nconnector_at_transmitter = "none"\n'
+                        'balun = { ratio = "4:1", location = "transmitter", power_rating_w = 1000.0, loss_db = 0.2 }')
+    text = text.replace("swr = 1.5", 'load_r_ohm = 600.0\nload_x_ohm = -900.0\ntuner = { kind = "t", '
+                        "capacitor_v_peak_rating = 3000.0, inductor_a_rms_rating = 8.0, "
+                        "capacitor_range_pf = [10.0, 500.0], inductor_range_uh = [0.1, 30.0] }")
+    path = tmp_path / "station.toml"
+    path.write_text(text)
+    from rfsafe.assess import assess
+    line = assess(load_station(path)).configurations[0].line
+    assert line.balun is not None and line.balun.label == "4:1" and line.balun.location == "transmitter"
+    assert (line.connector_at_transmitter, line.connector_at_antenna) == (None, None)
+    assert [p.name for p in line.tuner_parts] == ["C1", "L1", "C2"]
+    status = {p.part: p.status for p in line.part_stresses}
+    assert status["line"] == "not rated" and status["balun"] in ("ok", "EXCEEDED")
+    assert line.first_failure_part in status and line.first_failure

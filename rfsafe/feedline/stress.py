@@ -28,7 +28,7 @@ from rfsafe.feedline.matching import MatchingPart, TunerResult, TunerSpec, desig
 from rfsafe.feedline.balun import BalunSpec, BalunStress, balun_equivalent_power_w, balun_stress
 
 __all__ = ["PartStress", "LineResult", "evaluate_line", "THERMAL_RULE", "LOSS_MODEL_CLOSED",
-           "LOSS_MODEL_EXACT", "TRANSMITTER_TARGET_OHM", "NO_CONNECTOR", "TUNER_SWR_SEARCH_TOP"]
+           "LOSS_MODEL_EXACT", "TRANSMITTER_TARGET_OHM", "NO_CONNECTOR", "TUNER_SWR_SEARCH_TOP", "connector_ends"]
 
 THERMAL_RULE = ("1/SWR rule (common practice): the cable's matched average-power rating is divided by "
                 "(I_max / I_matched)^2, the local heating at the current maximum relative to a matched "
@@ -220,8 +220,13 @@ def _stress(part, quantity, stress, rating, unit, tol, source) -> PartStress:
                       "not rated" if rating is None else ("EXCEEDED" if exceeded else "ok"))
 
 
-def _connector_ends(field: str, connector, at_tx, at_ant, v_rating, balanced: bool):
-    """Per-end connector (series id or None) and its (rating [V peak], source)."""
+def connector_ends(field: str, connector, at_tx, at_ant, v_rating, balanced: bool):
+    """Per-end connector: ``{"transmitter": (series id, rating [V peak], source) or None, "antenna": ...}``.
+
+    ``connector`` puts one series at both ends (refused on a balanced line, which usually has none);
+    ``at_tx``/``at_ant`` declare each end (``"none"``: no connector); ``v_rating`` overrides the series
+    figure. InputError names the field under ``field``.
+    """
     if connector is not None and (at_tx is not None or at_ant is not None):
         raise bad_value(f"{field}.connector", connector, "cannot be combined with connector_at_transmitter/"
                         "connector_at_antenna (give the series for both ends, or one per end)")
@@ -447,7 +452,7 @@ def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: Ca
     if tuner is not None and load_ohm is None:
         raise bad_value(f"{field}.tuner", tuner.topology, "needs load_ohm: a network's parts depend on the "
                         "complex impedance, which an SWR alone does not fix")
-    ends = _connector_ends(field, connector, connector_at_transmitter, connector_at_antenna,
+    ends = connector_ends(field, connector, connector_at_transmitter, connector_at_antenna,
                            connector_v_peak_rating, cable.balanced)
     n_balun = 1.0
     if balun is not None:

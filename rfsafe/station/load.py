@@ -116,8 +116,14 @@ def _check_feedline(i: int, f: Feedline) -> None:
             if getattr(f, key) is not None:
                 raise bad_value(f"{path}.{key}", getattr(f, key),
                                 f'applies only to cable = "custom" (this feedline uses {format_value(f.cable)})')
-    if f.connector is not None:
-        fl.connector_series(f.connector, field=f"{path}.connector")
+    from rfsafe.feedline.balun import parse_balun_ratio
+    from rfsafe.feedline.stress import connector_ends
+
+    balanced = f.cable != "custom" and fl.cable_class(f.cable).balanced
+    connector_ends(path, f.connector, f.connector_at_transmitter, f.connector_at_antenna, f.connector_v_peak_rating,
+                   balanced)
+    if f.balun is not None:
+        parse_balun_ratio(f.balun.ratio, field=f"{path}.balun.ratio")
 
 
 def _check_antenna(i: int, a: Antenna, base: Path, wire_specs: dict, tables: dict) -> None:
@@ -182,7 +188,20 @@ def _check_configuration(i: int, c: Configuration, station: Station) -> None:
                          "load_x_ohm instead of swr)")
     if c.tuner is not None and c.tuner.kind == "l" and c.tuner.loaded_q is not None:
         raise bad_value(f"{path}.tuner.loaded_q", c.tuner.loaded_q,
-                        "applies only to a pi network (an L network's Q is set by the impedances)")
+                        "applies only to a pi or T network (an L network's Q is set by the impedances)")
+    if c.tuner is not None:
+        settings = {k: getattr(c.tuner, k) for k in ("c1_pf", "l_uh", "c2_pf")}
+        given = [k for k, v in settings.items() if v is not None]
+        if given and c.tuner.kind != "t":
+            raise bad_value(f"{path}.tuner.{given[0]}", settings[given[0]], "applies to a T network (kind = \"t\") only")
+        if given and len(given) != 3:
+            missing = next(k for k in settings if k not in given)
+            raise InputError(f"{path}.tuner.{missing}: is required but missing (give all three T settings c1_pf, "
+                             "l_uh, c2_pf, or none)")
+        for key in ("capacitor_range_pf", "inductor_range_uh"):
+            rng = getattr(c.tuner, key)
+            if rng is not None and not 0 < rng[0] < rng[1]:
+                raise bad_value(f"{path}.tuner.{key}", rng, "must be [min, max] with 0 < min < max")
     for env in ("controlled", "uncontrolled"):
         limits_at(station.standard, c.freq_mhz * 1e6, env, field=f"{path}.freq_mhz")
 

@@ -14,7 +14,7 @@ from pydantic import BaseModel, ConfigDict, Field
 from rfsafe.antenna.wire.model import WireAntennaSpec
 
 __all__ = [
-    "ANTENNA_KINDS", "GROUND_REFLECTION", "Transmitter", "Feedline", "Antenna", "Schedule",
+    "ANTENNA_KINDS", "GROUND_REFLECTION", "Transmitter", "Balun", "Feedline", "Antenna", "Schedule",
     "Tuner", "Configuration", "Place", "SimultaneousGroup", "Station",
 ]
 
@@ -37,6 +37,19 @@ class Transmitter(_Strict):
     pep_w: float = Field(gt=0, description="Peak envelope power delivered into the feedline [W].")
 
 
+class Balun(_Strict):
+    """A balun between the unbalanced and the balanced part of a feed system."""
+
+    ratio: str = Field(description='Impedance ratio, balanced side first: "1:1", "4:1", "9:1".')
+    location: Literal["transmitter", "antenna"] = Field(
+        description="transmitter: at the transmitter or tuner output, feeding a balanced line; antenna: at the "
+                    "feedpoint, fed by coax.")
+    power_rating_w: float | None = Field(default=None, gt=0,
+                                         description="Power rating at its design impedance [W]; absent: not rated.")
+    loss_db: float = Field(default=0.0, ge=0, le=10,
+                           description="Its own matched loss [dB] (default 0: nothing subtracted, conservative).")
+
+
 class Feedline(_Strict):
     """A feedline: a catalogue cable class or a custom line, its length and connectors."""
 
@@ -45,7 +58,14 @@ class Feedline(_Strict):
     cable: str = Field(description='Cable class from the catalogue (see "rfsafe line --help"), or "custom".')
     length_m: float = Field(ge=0, description="Length of the line [m].")
     connector_loss_db: float = Field(default=0.0, ge=0, description="Total loss of connectors/adapters [dB].")
-    connector: str | None = Field(default=None, description='Connector series: "uhf", "n" or "bnc".')
+    connector: str | None = Field(default=None,
+                                  description='Connector series at both ends of a coax line: "uhf", "n" or "bnc".')
+    connector_at_transmitter: str | None = Field(
+        default=None, description='Connector series at the transmitter end only, or "none" (ladder line usually '
+                                  'has no connector).')
+    connector_at_antenna: str | None = Field(default=None,
+                                             description='Connector series at the antenna end only, or "none".')
+    balun: Balun | None = Field(default=None, description="A balun in this feed system.")
     connector_v_peak_rating: float | None = Field(default=None, gt=0,
                                                   description="Override of the connector peak-voltage rating [V peak].")
     z0_ohm: float | None = Field(default=None, gt=0, description="Custom cable: characteristic impedance [ohm].")
@@ -100,9 +120,16 @@ class Schedule(_Strict):
 class Tuner(_Strict):
     """A matching network (tuner) in a configuration."""
 
-    kind: Literal["l", "pi"]
+    kind: Literal["l", "pi", "t"] = Field(description="l, pi, or t (series C, shunt L, series C).")
     location: Literal["transmitter", "antenna"] = "transmitter"
-    loaded_q: float | None = Field(default=None, gt=0, description="Pi network: loaded Q.")
+    loaded_q: float | None = Field(default=None, gt=0, description="Pi or T network: loaded Q.")
+    c1_pf: float | None = Field(default=None, gt=0, description="T network as set: source-side capacitor [pF].")
+    l_uh: float | None = Field(default=None, gt=0, description="T network as set: shunt inductor [uH].")
+    c2_pf: float | None = Field(default=None, gt=0, description="T network as set: load-side capacitor [pF].")
+    capacitor_range_pf: list[float] | None = Field(
+        default=None, min_length=2, max_length=2, description="The tuner's capacitor range [min, max] [pF].")
+    inductor_range_uh: list[float] | None = Field(
+        default=None, min_length=2, max_length=2, description="The tuner's inductor range [min, max] [uH]."),
     inductor_q: float = Field(default=100.0, gt=0, description="Unloaded Q of the inductor (loss).")
     capacitor_v_peak_rating: float | None = Field(default=None, gt=0, description="Capacitor rating [V peak].")
     inductor_a_rms_rating: float | None = Field(default=None, gt=0, description="Inductor rating [A rms].")
