@@ -425,6 +425,12 @@ def _gain_toward(em: Emitter, loaded: LoadedStation, dx, dy, dz) -> tuple[float,
                                   front_to_back_db=ant.front_to_back_db, beamwidth_h_deg=ant.beamwidth_h_deg,
                                   beamwidth_v_deg=ant.beamwidth_v_deg, table=loaded.pattern_tables.get(ant.id),
                                   field=f"antennas[{index}]")
+    if ant.kind == "beam":
+        lobe = patterns.beam_gain(direction, peak_gain_dbi=em.peak_gain_dbi, front_to_back_db=ant.front_to_back_db,
+                                  beamwidth_h_deg=ant.beamwidth_h_deg, beamwidth_v_deg=ant.beamwidth_v_deg,
+                                  downward_floor=False)
+        if 10.0 ** (float(np.asarray(g)) / 10.0) > float(lobe) * (1 + 1e-9):
+            return float(np.asarray(g)), "pattern, downward floor governs: " + patterns.DOWNWARD_FLOOR_TEXT
     return float(np.asarray(g)), "pattern"
 
 
@@ -697,7 +703,9 @@ def assess_with_emitters(loaded: LoadedStation, *, today: dt.date | None = None,
         "Average power = PEP x mode duty factor x transmit fraction; the transmit fraction is the largest "
         "share of the standard's averaging window that the declared schedule can fill.",
         f"Ground reflection: {st.ground_reflection} (power-density factor F = {gf:g}).",
-        "Gain: peak gain toward every place unless an antenna opts in to its pattern (use_pattern = true).",
+        "Gain: peak gain toward every place unless an antenna opts in to its pattern (use_pattern = true); "
+        "inside the near field the peak gain is used even then. Beam patterns below the antenna: at least 1/2 of "
+        "the peak gain x sin^2(depression) (-3 dB straight down), a conservative downward lobe.",
         "Compliance distances use peak gain and the far-field prediction, for each environment's limit.",
         "Places closer than lambda/2pi (or 2D^2/lambda for an aperture) are flagged: far-field estimate.",
         f"Line loss model: {'; '.join(loss_models)}.",

@@ -390,3 +390,28 @@ def test_pattern_null_is_not_trusted_inside_the_near_field(tmp_path):
     assert x.inside_near_field and x.dist_m == pytest.approx(1.0, abs=1e-9)
     assert x.gain_method.startswith("peak") and x.gain_dbi == pytest.approx(2.15, abs=0.01)
     assert x.exposure_ratio > 0
+
+
+def test_straight_below_a_beam_is_no_longer_the_front_to_back_floor(tmp_path):
+    """1 kW into a beam 9 m up (8 dBi, F/B 20 dB, use_pattern): a person straight below, head at 1.5 m, is
+    7.5 m under the boom. The smooth lobe alone puts the gain there at the F/B floor (8 - 20 = -12 dBi);
+    the stated downward floor gives half the peak gain (8 - 3.01 dBi), so the ratio is 50 times larger:
+    S = P G F / (4 pi R^2) (OET Bulletin 65, section 2) with G = 10^0.8 / 2."""
+    text = BEAM_STATION.replace("SIZE", "element_span_m = 10.0\nboom_length_m = 6.0\nuse_pattern = true\n"
+                                "front_to_back_db = 20.0\nbeamwidth_h_deg = 60.0\nbeamwidth_v_deg = 70.0") \
+        .replace("gain_dbi = 8.15", "gain_dbi = 8.0").replace("height_m = 10.0\nelement", "height_m = 9.0\nelement") \
+        .replace("pep_w = 1500.0", "pep_w = 1000.0").replace("duty_factor = 0.1", "duty_factor = 1.0") \
+        .replace("x_m = PLACE_X", "x_m = 0.0").replace("height_m = 10.0\nenvironment", "height_m = 1.5\nenvironment")
+    res = _station(tmp_path, text)
+    c = res.configurations[0]
+    x = res.places[0].exposures[0]
+    assert x.dist_m == pytest.approx(7.5, abs=1e-9)
+    assert x.gain_dbi == pytest.approx(8.0 + 10 * math.log10(0.5), abs=1e-9)
+    assert "downward floor" in x.gain_method
+    p_ant = c.avg_power_at_antenna_w["uncontrolled"]
+    s = p_ant * 10 ** 0.8 / 2 * 4.0 / (4 * math.pi * 7.5 ** 2)
+    f = 14.2   # 47 CFR 1.1310 Table 1, 3-30 MHz uncontrolled
+    assert x.exposure_ratio == pytest.approx(max(s / (180 / f ** 2 * 10), s * 377 / (824 / f) ** 2,
+                                                 s / 377 / (2.19 / f) ** 2), rel=1e-9)
+    fb_floor_ratio = x.exposure_ratio / (10 ** 0.8 / 2) * 10 ** (0.8 - 2.0)
+    assert x.exposure_ratio == pytest.approx(50 * fb_floor_ratio, rel=1e-9)

@@ -169,11 +169,16 @@ def test_beam_front_to_back_and_half_power_beamwidths_as_declared():
 
 
 def test_beam_integral_is_at_most_4_pi():
-    """Energy conservation: a declared gain is accepted only if G0 x integral <= 4 pi."""
+    """Energy conservation: a declared gain is accepted only if G0 x integral <= 4 pi, for the radiating
+    lobe; the downward floor is a stated overstatement on top of it (it raises the integral)."""
+    from types import SimpleNamespace
+
     pat = pt.make_pattern("beam", **BEAM)
-    assert own_sphere_integral(pat) <= 4 * math.pi
+    lobe = SimpleNamespace(gain=lambda d: pt.beam_gain(d, **BEAM, downward_floor=False))
+    assert own_sphere_integral(lobe) <= 4 * math.pi
     # the library's own figure agrees with the independent quadrature (kinks at the floor: 1e-3)
-    assert pat.sphere_integral_sr == pytest.approx(own_sphere_integral(pat), rel=1e-3)
+    assert pat.sphere_integral_sr == pytest.approx(own_sphere_integral(lobe), rel=1e-3)
+    assert own_sphere_integral(pat) > own_sphere_integral(lobe)
 
 
 def test_beam_with_more_gain_than_its_lobe_allows_is_rejected():
@@ -342,3 +347,39 @@ def test_direction_components_may_be_passed_unpacked():
     a = pt.pattern_gain_dbi("half-wave-dipole", d)
     b = pt.pattern_gain_dbi("half-wave-dipole", *d)
     assert a == b
+
+
+# ----------------------------------------------------------------- beam: the ground under it
+
+def test_beam_downward_floor_straight_down_and_its_taper():
+    """Straight down the beam model gives half its peak gain (-3 dB), not the front-to-back floor; the
+    floor tapers as sin^2 of the depression and never touches the upper hemisphere."""
+    pat = pt.make_pattern("beam", **BEAM)
+    g0 = 10 ** (8.0 / 10)
+    down = float(pat.gain(pt.direction_from_angles(0.0, -90.0)))
+    assert down == pytest.approx(g0 * pt.DOWNWARD_FLOOR_FRACTION, rel=1e-12)
+    assert down > g0 * 10 ** (-20.0 / 10)                                   # above the F/B floor
+    back_down = float(pat.gain(pt.direction_from_angles(180.0, -40.0)))
+    assert back_down == pytest.approx(g0 * 0.5 * math.sin(math.radians(40.0)) ** 2, rel=1e-12)
+    up = float(pat.gain(pt.direction_from_angles(180.0, 40.0)))
+    assert up == pytest.approx(g0 * 10 ** (-20.0 / 10), rel=1e-12)         # upper rear: F/B floor only
+    assert float(pat.gain(pt.direction_from_angles(180.0, 0.0))) == pytest.approx(g0 / 100, rel=1e-12)
+
+
+def test_beam_downward_floor_bounds_a_two_element_array():
+    """Closed form (Balanis, Antenna Theory, 4th ed., sec. 6.2 two-element array and pattern
+    multiplication, from memory; sec. 4.6 half-wave element): two horizontal half-wave elements lambda/4
+    apart along the boom, phased for endfire with a rear null, |AF|^2 normalised to its forward maximum
+    = cos^2((pi/4)(cos(theta) - 1)), theta from the boom axis. Below the horizon, outside the forward
+    quadrant, that array never exceeds the floor; straight down they are equal (1/2)."""
+    delta = np.radians(np.linspace(0.5, 90.0, 180))        # depression below the horizon
+    # vertical plane containing the boom (H-plane of the elements), toward the rear: theta = pi - delta
+    af_rear = np.cos(np.pi / 4 * (np.cos(np.pi - delta) - 1)) ** 2
+    floor = pt.beam_downward_floor(pt.direction_from_angles(180.0, -np.degrees(delta)))
+    assert np.all(floor >= af_rear - 1e-12)
+    # vertical plane across the boom (E-plane): AF^2 = 1/2 (theta = 90 deg), element factor of a half-wave
+    # element at angle delta from its axis
+    element = (np.cos(np.pi / 2 * np.cos(delta)) / np.sin(delta)) ** 2
+    floor_side = pt.beam_downward_floor(pt.direction_from_angles(90.0, -np.degrees(delta)))
+    assert np.all(floor_side >= 0.5 * element - 1e-12)
+    assert float(pt.beam_downward_floor(pt.direction_from_angles(0.0, -90.0))) == pytest.approx(0.5)

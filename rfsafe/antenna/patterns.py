@@ -238,9 +238,39 @@ def beam_exponents(beamwidth_h_deg: float, beamwidth_v_deg: float) -> tuple[floa
     return p, q
 
 
+#: Fraction of the peak gain a beam is taken to radiate straight down (toward the ground under it) [1]:
+#: 1/2 (-3 dB). A two-element endfire array of horizontal half-wave elements spaced lambda/4 and phased
+#: for a rear null radiates straight down (broadside to its boom, where each element radiates its
+#: maximum) exactly half its forward power density: |1 + e^{-j pi/2}|^2 / |1 + 1|^2 = 1/2 (array factor
+#: of two elements times the element pattern, pattern multiplication). Closer-spaced two-element beams
+#: and beams of more elements radiate less downward (from memory); the floor is rfsafe's conservative
+#: stand-in for the downward lobe that a smooth lobe model misses, not a measured value.
+DOWNWARD_FLOOR_FRACTION = 0.5
+#: How the downward floor is stated in results.
+DOWNWARD_FLOOR_TEXT = ("beam pattern below the antenna: at least 1/2 of the peak gain x sin^2(depression), i.e. "
+                       "-3 dB straight down (conservative downward lobe; a pattern table or a wire model "
+                       "replaces it)")
+
+
+def beam_downward_floor(direction: AntennaDirection) -> np.ndarray:
+    """The downward floor of the beam model relative to its peak [1]: 1/2 sin^2(depression) below the
+    antenna's horizontal plane, 0 above it (see :data:`DOWNWARD_FLOOR_FRACTION`).
+
+    The sin^2 taper is 1/2 straight down and 0 at the horizon; in both principal planes below the
+    horizon it is never below the two-element lambda/4 array named above outside its forward quadrant.
+
+    References
+    ----------
+    Two-element array factor and pattern multiplication: C. A. Balanis, *Antenna Theory*, 4th ed.,
+    sec. 6.2 (from memory); half-wave element pattern: sec. 4.6.
+    """
+    u = np.asarray(direction.up, dtype=float)
+    return np.where(u < 0.0, DOWNWARD_FLOOR_FRACTION * u * u, 0.0)
+
+
 def beam_gain(direction: AntennaDirection, *, peak_gain_dbi: float, front_to_back_db: float,
-              beamwidth_h_deg: float, beamwidth_v_deg: float) -> np.ndarray:
-    """Directional beam: a smooth main lobe with a back-lobe floor [1].
+              beamwidth_h_deg: float, beamwidth_v_deg: float, downward_floor: bool = True) -> np.ndarray:
+    """Directional beam: a smooth main lobe with a back-lobe floor and a downward floor [1].
 
     .. math::
 
@@ -253,9 +283,14 @@ def beam_gain(direction: AntennaDirection, *, peak_gain_dbi: float, front_to_bac
     in its vertical plane; the lobe falls smoothly to zero at the back and at
     the zenith, where the floor ``G0/FB`` takes over, so the front-to-back
     ratio is exactly FB. No side lobes are invented; the floor covers them
-    only to the level of the back lobe. The declared peak gain is taken as
-    given (never lowered): :func:`make_pattern` rejects a peak gain larger than
-    the lobe can have (``G0 * integral > 4 pi``).
+    only to the level of the back lobe. Below the antenna's horizontal plane the
+    gain is never less than :func:`beam_downward_floor` times G0 (1/2 straight
+    down), unless ``downward_floor`` is false: a smooth lobe would otherwise put
+    the ground under a beam at the back-lobe floor, far below what real beams
+    radiate there. The declared peak gain is taken as given (never lowered):
+    :func:`make_pattern` rejects a peak gain larger than the lobe can have
+    (``G0 * integral > 4 pi``, computed without the downward floor, which is a
+    conservative overstatement rather than radiated power).
 
     Parameters
     ----------
@@ -281,8 +316,10 @@ def beam_gain(direction: AntennaDirection, *, peak_gain_dbi: float, front_to_bac
     with np.errstate(invalid="ignore", divide="ignore"):
         cos_az = np.where(rho > 0.0, f / rho, 1.0)
     half = np.maximum(0.5 * (1.0 + cos_az), 0.0)
-    lobe = half ** p * rho ** q
-    return 10.0 ** (peak_gain_dbi / 10.0) * np.maximum(lobe, 10.0 ** (-front_to_back_db / 10.0))
+    lobe = np.maximum(half ** p * rho ** q, 10.0 ** (-front_to_back_db / 10.0))
+    if downward_floor:
+        lobe = np.maximum(lobe, beam_downward_floor(direction))
+    return 10.0 ** (peak_gain_dbi / 10.0) * lobe
 
 
 def sphere_integral(gain_function, n_el: int = 361, n_az: int = 720) -> float:
@@ -305,7 +342,7 @@ def beam_sphere_integral(front_to_back_db: float, beamwidth_h_deg: float, beamwi
     """Integral over the sphere of the beam model with 0 dBi peak [sr] (4 pi / this = its directivity)."""
     return sphere_integral(lambda d: beam_gain(d, peak_gain_dbi=0.0, front_to_back_db=front_to_back_db,
                                                beamwidth_h_deg=beamwidth_h_deg,
-                                               beamwidth_v_deg=beamwidth_v_deg),
+                                               beamwidth_v_deg=beamwidth_v_deg, downward_floor=False),
                            n_el=721, n_az=1440)
 
 
