@@ -3,12 +3,15 @@
 Public API: the input models (:class:`WireAntennaSpec`, :class:`WireFile`), :func:`solve` and its
 result :class:`WireSolution`. Method: Pocklington's equation with the reduced thin-wire kernel,
 Galerkin testing with piecewise-sinusoidal functions and closed-form filament fields (Richmond's
-reaction method); see :mod:`rfsafe.antenna.wire.solver`.
+reaction method); see :mod:`rfsafe.antenna.wire.solver`. Lumped loads (traps, loading coils,
+chokes) are in :mod:`rfsafe.antenna.wire.loads`; the coax shield's outer surface as a conductor in
+:mod:`rfsafe.antenna.wire.shield`.
 """
 
-from rfsafe.antenna.wire.model import (FeedSpec, PointSpec, WireAntennaSpec, WireFile, WireSpec,
-                                       check_wire_antenna, load_wire_file, validate_wire_antenna)
+from rfsafe.antenna.wire.model import (ChokeSpec, FeedSpec, LoadSpec, PointSpec, ShieldSpec, WireAntennaSpec,
+                                       WireFile, WireSpec, check_wire_antenna, load_wire_file, validate_wire_antenna)
 from rfsafe.antenna.wire.solver import WireSolution, solve
 
-__all__ = ["WireAntennaSpec", "WireSpec", "FeedSpec", "PointSpec", "WireFile", "WireSolution", "solve",
+__all__ = ["WireAntennaSpec", "WireSpec", "FeedSpec", "LoadSpec", "ShieldSpec", "ChokeSpec", "PointSpec", "WireFile",
+           "WireSolution", "solve",
            "check_wire_antenna", "validate_wire_antenna", "load_wire_file"]
