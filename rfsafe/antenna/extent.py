@@ -113,6 +113,11 @@ def antenna_extent(ant, freq_hz: float, wire_spec=None) -> Extent:
     if ant.kind == "wire" and wire_spec is not None:
         segs = np.array([(a, b) for w in wire_spec.wires for a, b in zip(w.points_m[:-1], w.points_m[1:])],
                         dtype=float)
+        from rfsafe.antenna.wire.shield import route_polyline_m
+
+        route = route_polyline_m(wire_spec)   # a modelled feedline shield radiates too
+        if route is not None:
+            segs = np.concatenate([segs, np.stack([route[:-1], route[1:]], axis=1)])
         pts = segs.reshape(-1, 3)
         size = float(np.linalg.norm(pts[:, None, :] - pts[None, :, :], axis=2).max())
         return Extent(segments_m=segs, basis="nearest point of the declared wire geometry", size_m=size)
