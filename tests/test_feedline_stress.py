@@ -333,3 +333,57 @@ def test_first_failure_when_exceeded_at_swr_1_and_when_never():
                          length_m=20.0, swr=2.0)
     assert bare.first_failure == ("no part has a rating: which part fails first cannot be said; not rated: line, "
                                   "line.heating")
+
+
+# --- why a null is a null: explicit case fields (JSON writes both None and inf as null) ----------
+def _line(**kw):
+    from rfsafe.feedline import cable_class, evaluate_line
+
+    base = dict(pep_w=100.0, avg_power_w=100.0, freq_hz=14.2e6, cable=cable_class("rg-213"), length_m=30.0, swr=2.0)
+    base.update(kw)
+    return evaluate_line(**base)
+
+
+def _case(res, part):
+    p = next(p for p in res.part_stresses if p.part == part)
+    return p.largest_tolerable_swr_case, p.largest_tolerable_swr
+
+
+def test_largest_tolerable_swr_case_never_reached_and_at():
+    # RG-213 at 100 W: 3700 V rms (MIL-C-17G) is not reached at any SWR (line loss bounds the voltage)
+    assert _case(_line(), "line") == ("never_reached", float("inf"))
+    # UHF connector (500 V peak) at 1500 W: reached at a finite SWR
+    case, swr = _case(_line(pep_w=1500.0, avg_power_w=100.0, connector="uhf"), "connector.transmitter")
+    assert case == "at" and 1 < swr < 10
+
+
+def test_largest_tolerable_swr_case_exceeded_at_swr_1_and_not_rated():
+    from rfsafe.feedline import cable_class
+
+    # 60 kW into RG-58 (1400 V rms = 1980 V peak, MIL-C-17G): matched voltage sqrt(2 P Z0) = 2449 V peak
+    res = _line(pep_w=60e3, avg_power_w=1.0, cable=cable_class("rg-58"))
+    assert _case(res, "line") == ("exceeded_at_swr_1", None)
+    # ladder line: no voltage or power figure is published for the class
+    res = _line(cable=cable_class("window-450"), swr=1.0)
+    assert _case(res, "line")[0] == "not_rated"
+    assert res.headroom_case["line"] == "not_rated" and res.first_failure_case == "none_rated"
+
+
+def test_headroom_case_zero_stress_and_not_computed():
+    # average power 0 W: no heating (headroom infinite) and no tolerable SWR for heating
+    res = _line(avg_power_w=0.0)
+    heat = next(p for p in res.part_stresses if p.part == "line.heating")
+    assert heat.headroom_case == "zero_stress"
+    assert heat.largest_tolerable_swr_case == "not_computed"
+    assert res.largest_tolerable_swr_case["line.heating"] == "not_computed"
+
+
+def test_case_fields_reach_the_json():
+    from rfsafe.cli.output import to_jsonable
+
+    data = to_jsonable(_line(connector="uhf"))
+    assert set(data["largest_tolerable_swr_case"]) == {p["part"] for p in data["part_stresses"]}
+    assert all(p["largest_tolerable_swr_case"] and p["headroom_case"] for p in data["part_stresses"])
+    assert data["first_failure_case"] in ("at", "never_reached", "exceeded_at_swr_1", "not_reached_in_search",
+                                          "none_rated", "not_computed")
+    assert data["part_stresses"][0]["rating_verification"].startswith("partly read")   # RG-213 row

@@ -26,7 +26,8 @@ def render_evaluation(res) -> str:
     rows = []
     for c in res.configurations:
         dist = {d.environment: d for d in c.compliance_distances}
-        rows.append([c.id, f"{c.freq_mhz:g}", c.mode, compact_number(c.pep_w), f"{c.duty_factor:g}",
+        rows.append([c.id, f"{c.freq_mhz:g}", c.mode, compact_number(c.pep_w),
+                     f"{c.duty_factor:g} {marker(c.duty_factor_verification)}",
                      f"{c.transmit_fraction['controlled']:.2f}/{c.transmit_fraction['uncontrolled']:.2f}",
                      compact_number(c.avg_power_w["uncontrolled"]), f"{c.line_loss_db:.2f}", f"{c.gain_dbi:.2f}",
                      compact_number(c.eirp_w["uncontrolled"]),
@@ -43,7 +44,8 @@ def render_evaluation(res) -> str:
             for x in p.exposures:
                 rows.append([p.label, p.environment, x.configuration, f"{x.dist_m:.2f}",
                              compact_number(x.power_density_w_m2), compact_number(x.e_field_v_m), compact_number(x.h_field_a_m),
-                             compact_number(x.exposure_ratio), f"{x.margin_db:+.1f}", x.method + (" [INSIDE NEAR FIELD]" if x.inside_near_field and x.near_field_ratio is None else "")])
+                             f"{compact_number(x.exposure_ratio)} {marker(x.limit_verification)}",
+                             f"{x.margin_db:+.1f}", x.method + (" [INSIDE NEAR FIELD]" if x.inside_near_field and x.near_field_ratio is None else "")])
         out.append(format_table(["place", "environment", "configuration", "dist m", "S W/m2", "E V/m",
                                  "H A/m", "ratio", "margin dB", "method"], rows, align="lllrrrrrrl",
                                 title="Exposure at each place from each configuration"))
@@ -65,7 +67,7 @@ def render_evaluation(res) -> str:
         if weakest is None:
             weak_text, swr_text = "no ratings", "-"
         else:
-            weak_text = f"{weakest.part} x{weakest.headroom:.2g}"
+            weak_text = f"{weakest.part} x{weakest.headroom:.2g} {marker(weakest.rating_verification)}"
             tol = weakest.largest_tolerable_swr
             swr_text = ("exceeded" if weakest.exceeded else "-") if tol is None else (
                 "any" if tol == float("inf") else compact_number(tol))
@@ -77,6 +79,9 @@ def render_evaluation(res) -> str:
                             title="Feedline and tuner stress at PEP (headroom = rating / stress; SWR limit: "
                                   "largest tolerable SWR of that part at this power)"))
     from rfsafe.cli.answers import answer_sections
+    out.extend(f"  fails first, {c.id}: {c.line.first_failure}" for c in res.configurations if c.line.first_failure)
+    out.append("")
+    out.append(_verification_lines(res))
 
     out.extend(answer_sections(res))
     if res.exemption is not None:
@@ -93,6 +98,18 @@ def render_evaluation(res) -> str:
 
 
 def evaluate(file: Path = typer.Argument(..., help="Station file (.toml)."),
+def _verification_lines(res) -> str:
+    """Legend of the check markers (duty, ratio: its limit, least headroom: its rating) and a count."""
+    from rfsafe.verification import LEGEND, STATES
+
+    counts = {s: sum(1 for f in res.data_verification if f.state == s) for s in STATES}
+    return ("markers after duty, ratio (its limit) and least headroom (its rating): "
+            f"{LEGEND.removeprefix('check: ')}\n"
+            f"published figures used: {counts['published text']} read in the text, {counts['reproduction']} in a "
+            f"reproduction, {counts['partly']} partly, {counts['not confirmed']} not confirmed "
+            "(--json: data_verification)")
+
+
              standard: str = typer.Option(None, "--standard",
                                           help="Override the file's standard: fcc, icnirp2020, icnirp1998, ieee2019, sc6, eu1999."),
              json_out: bool = typer.Option(False, "--json", help="Print one JSON document instead of tables."),

@@ -19,6 +19,8 @@ STANDARD is one of fcc, icnirp2020, icnirp1998, ieee2019, sc6, eu1999. Both envi
 (controlled and uncontrolled) are shown, with power density in the standard's
 published unit and in W/m^2, E [V/m rms], H [A/m rms], the averaging time and the
 source of each row. Values marked '*' are derived (plane wave, 377 ohm), not tabulated.
+The mark before each source says whether the row was read in the published text (T),
+in a faithful reproduction (R), partly (P), or not confirmed (?).
 """
 
 
@@ -72,12 +74,15 @@ def _entries(standard: str, freq_mhz: float) -> list[dict]:
                 "power_density_h_w_m2": lim.power_density_h_w_m2,
                 "notes": list(lim.notes),
                 "source": lim.source,
+                "limit_verification": lim.verification,
             })
     return entries
 
 
 def _table(entries: list[dict], title: str) -> str:
     from rfsafe.cli.output import format_table
+
+    from rfsafe.verification import LEGEND, marker
 
     refs: dict[tuple, int] = {}
     rows = []
@@ -101,9 +106,11 @@ def _table(entries: list[dict], title: str) -> str:
          "E [V/m]", "H [A/m]", "avg [min]", "src"],
         rows, title=title, align="rllllrrrrl")
     lines = [text, "", "'-' = not defined by the standard; '*' = derived (plane wave, 377 ohm, "
-             "far field only), not tabulated."]
+             "far field only), not tabulated.", "source " + LEGEND]
+    verif = {e["source"]: e["limit_verification"] for e in entries}
     for (source, notes), n in refs.items():
-        lines.append(f"[{n}] {source}")
+        lines.append(f"[{n}] {marker(verif[source])} {source}")
+        lines.append(f"    verification: {verif[source]}")
         lines.extend(f"    note: {note}" for note in notes)
     return "\n".join(lines)
 
@@ -113,9 +120,11 @@ def _cautions(entries: list[dict]) -> None:
 
     warn("Caution: these are reference levels as rfsafe holds them; the regulation that applies "
          "to you, the regulator's own guidance and licensed practice govern.")
-    if any("from memory" in e["source"] for e in entries):
-        warn("Caution: rows marked 'from memory' have not been checked against the published "
-             "text; check them there before relying on them.")
+    from rfsafe.verification import state_of
+
+    if any(state_of(e["limit_verification"]) in ("partly", "not confirmed") for e in entries):
+        warn("Caution: rows marked '?' (not confirmed) or 'P' (partly read) have not been checked "
+             "against the published text in full; check them there before relying on them.")
 
 
 def limits_command(

@@ -266,7 +266,11 @@ def line(
                 ("balun heat (average, est.)", f"{_fmt(b.dissipation_avg_w, 'W')} from {b.loss_db:g} dB matched loss"),
             ]
         typer.echo(output.format_table(["quantity", "value"], rows, title="Feedline", align="ll"))
-        prow = [(p.part, p.quantity, _fmt(p.stress), _fmt(p.rating), p.unit, _fmt(p.headroom, digits=3),
+        from rfsafe.verification import LEGEND, marker
+
+        prow = [(p.part, p.quantity, _fmt(p.stress),
+                 _fmt(p.rating) + ("" if p.rating is None else f" {marker(p.rating_verification)}"), p.unit,
+                 _fmt(p.headroom, digits=3),
                  _fmt(p.largest_tolerable_swr, digits=3), p.status)
                 for p in r.part_stresses]
         typer.echo("")
@@ -275,6 +279,7 @@ def line(
         typer.echo(f"Fails first: {r.first_failure}")
         if r.tuner is not None:
             n = r.tuner.network
+        typer.echo(f"rating {LEGEND}")
             trow = [(p.name, p.kind, p.placement, _fmt(p.value_pf, "pF") if p.value_pf else _fmt(p.value_uh, "uH"),
                      _fmt(p.voltage_v_peak), _fmt(p.voltage_v_rms), _fmt(p.current_a_rms), _fmt(p.loss_w))
                     for p in n.parts]

@@ -65,6 +65,28 @@ class PartStress:
     rating_source: str
     status: str = "not rated"  # "ok" | "EXCEEDED" | "not rated" (no rating exists: never shown as "ok")
 
+    rating_verification: str = "not confirmed"   # was the rating read in a published text (rfsafe.verification)
+    #: why largest_tolerable_swr is what it is (JSON writes both None and inf as null): "at" (a finite SWR),
+    #: "never_reached" (not reached at any SWR), "not_reached_in_search" (not reached up to the searched SWR),
+    #: "exceeded_at_swr_1" (exceeded even with a matched line), "not_rated" (no rating), "not_computed"
+    largest_tolerable_swr_case: str = dc_field(init=False, default="")
+    #: why headroom is what it is: "at" (finite), "zero_stress" (no stress: infinite), "not_rated"
+    headroom_case: str = dc_field(init=False, default="")
+
+    def __post_init__(self):
+        swr, note = self.largest_tolerable_swr, self.tolerable_swr_note or ""
+        if self.rating is None:
+            case = "not_rated"
+        elif swr is None:
+            case = "exceeded_at_swr_1" if note.startswith("rating exceeded even with a matched line") else "not_computed"
+        elif math.isinf(swr):
+            case = "never_reached" if note.startswith("rating not reached at any SWR") else "not_reached_in_search"
+        else:
+            case = "at"
+        object.__setattr__(self, "largest_tolerable_swr_case", case)
+        h = self.headroom
+        object.__setattr__(self, "headroom_case", "not_rated" if h is None else
+                           ("zero_stress" if math.isinf(h) else "at"))
     NONFINITE_NOTES: ClassVar[dict] = {
         "headroom": "no stress at this power: any rating holds",
         "largest_tolerable_swr": "the rating is not reached at any SWR searched (see tolerable_swr_note)",
@@ -135,6 +157,31 @@ class LineResult:
 
 
 def _positive(field: str, value, unit: str, *, allow_zero: bool = False) -> float:
+    cable_verification: str = "not confirmed"   # which of the cable's figures were read in a published text
+    #: per part, why largest_tolerable_swr / headroom has (no) value (see PartStress)
+    largest_tolerable_swr_case: dict = dc_field(init=False, default_factory=dict)
+    headroom_case: dict = dc_field(init=False, default_factory=dict)
+    #: why first_failure_swr is what it is: "at", "exceeded_at_swr_1", "never_reached",
+    #: "not_reached_in_search", "none_rated" (no part has a rating), "not_computed"
+    first_failure_case: str = dc_field(init=False, default="")
+
+    def __post_init__(self):
+        parts = self.part_stresses
+        object.__setattr__(self, "largest_tolerable_swr_case", {p.part: p.largest_tolerable_swr_case for p in parts})
+        object.__setattr__(self, "headroom_case", {p.part: p.headroom_case for p in parts})
+        swr = self.first_failure_swr
+        if not any(p.rating is not None for p in parts):
+            case = "none_rated"
+        elif swr is None:
+            case = "not_computed"
+        elif math.isinf(swr):
+            case = ("not_reached_in_search" if any(p.largest_tolerable_swr_case == "not_reached_in_search"
+                                                   for p in parts) else "never_reached")
+        elif swr == 1.0 and any(p.largest_tolerable_swr_case == "exceeded_at_swr_1" for p in parts):
+            case = "exceeded_at_swr_1"
+        else:
+            case = "at"
+        object.__setattr__(self, "first_failure_case", case)
     ok = isinstance(value, (int, float)) and not isinstance(value, bool) and math.isfinite(value)
     ok = ok and (value >= 0 if allow_zero else value > 0)
     if not ok:
@@ -259,6 +306,23 @@ def connector_ends(field: str, connector, at_tx, at_ant, v_rating, balanced: boo
 def _tuner_tolerable_swrs(spec: TunerSpec, result: TunerResult, rated: dict, *, r0: float, z0: complex,
                           gam: complex, length: float, freq: float, balun_ratio: float, target: float,
                           gamma_now: complex | None, field: str) -> dict:
+def _with_rating_verification(parts: list, cable: CableClass, ends: dict) -> list:
+    """Each part with whether its rating was read in a published text (see :mod:`rfsafe.verification`)."""
+    user = "user rating (not a published figure; not confirmed by rfsafe)"
+
+    def connector(end):
+        c = ends.get(end)
+        if c is None or c[2] == "user rating":
+            return user
+        return connector_series(c[0]).verification
+
+    by_part = {"line": cable.verification,
+               "line.heating": "not confirmed (cable power ratings are from memory)",
+               "connector.transmitter": connector("transmitter"), "connector.antenna": connector("antenna")}
+    return [dataclasses.replace(p, rating_verification="not rated" if p.rating is None else by_part.get(p.part, user))
+            for p in parts]
+
+
     """Largest SWR at the antenna end at which each rated tuner part stays within its rating.
 
     Worst case over the load phase (``_TUNER_PHASES`` phases plus the present one, each part's largest
@@ -677,6 +741,7 @@ def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: Ca
         line_voltage_max_position_m=length - v_at,
         line_current_a_peak=i_max, line_current_a_rms=i_max / math.sqrt(2.0),
         line_current_max_position_m=length - i_at,
+    parts = _with_rating_verification(parts, cable, ends)
         voltage_at_transmitter_v_peak=float(v_ends[1]), voltage_at_antenna_v_peak=float(v_ends[0]),
         current_at_transmitter_a_peak=float(i_ends[1]), current_at_antenna_a_peak=float(i_ends[0]),
         matched_line_voltage_v_peak=v_matched, thermal_rule=THERMAL_RULE, part_stresses=tuple(parts),
@@ -691,3 +756,4 @@ def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: Ca
         connector_at_transmitter=None if ends["transmitter"] is None else ends["transmitter"][0],
         connector_at_antenna=None if ends["antenna"] is None else ends["antenna"][0], connector_loss_db=c_loss,
     )
+        cable_verification=cable.verification,

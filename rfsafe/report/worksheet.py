@@ -300,6 +300,27 @@ def _method(res, width) -> list:
     out.append(data_table(["configuration", "environment", "basis", "averaging min", "governs", "limit source"],
                           rows, [22 * mm, 22 * mm, 22 * mm, 17 * mm, 15 * mm, width - 98 * mm],
                           align="lllrll"))
+    out.extend(_verification(res, width))
+    return out
+
+
+def _verification(res, width) -> list:
+    """Which published figures were checked against their texts, and which were not (from the result)."""
+    from rfsafe.verification import STATES, summary_line
+
+    checks = getattr(res, "data_verification", ())
+    if not checks:
+        return []
+    counts = {s: sum(1 for f in checks if f.state == s) for s in STATES}
+    out = [Spacer(1, 2 * mm), p("Published figures used, and whether they were checked against the published text:",
+                                "lead")]
+    out.append(p(f"{counts['published text']} read in the published text; {counts['reproduction']} read in a "
+                 f"faithful reproduction of it; {counts['partly']} partly read; {counts['not confirmed']} not "
+                 "confirmed (held from memory or common practice: check them against the published text before "
+                 "relying on a result that depends on them).", "small"))
+    rows = [[f.kind, f.figure, summary_line(f.state), f.verification] for f in checks]
+    out.append(data_table(["figure", "row, mode or part", "state", "where it was read (or why not)"], rows,
+                          [22 * mm, 52 * mm, 34 * mm, width - 108 * mm], align="llll"))
     return out
 
 
