@@ -576,6 +576,15 @@ def _line_stress(res, width) -> list:
     if sources.texts:
         out.append(p("Rating sources:", "lead"))
         out.extend(sources.flowables())
+    for c in res.configurations:   # which part fails first, and what a balun sees (tuners helper; layout: worksheet)
+        if c.line.first_failure:
+            out.append(p(f"Fails first, {c.id}: {c.line.first_failure}.", "small"))
+        b = c.line.balun
+        if b is not None:
+            out.append(p(f"Balun {b.label} at the {b.location}, {c.id}: {num(b.voltage_balanced_v_peak)} V peak and "
+                         f"{num(b.current_balanced_a_peak)} A peak on its balanced side; equivalent power "
+                         f"{num(b.equivalent_power_w)} W (by its {b.governing}); estimated heat "
+                         f"{num(b.dissipation_avg_w)} W average. {b.rule}.", "small"))
     tuned = [c for c in res.configurations if c.line.tuner_parts]
     for c in tuned:
         out.append(section_heading("5.1", f"Tuner parts, {c.id}", level=1))
