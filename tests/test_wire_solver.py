@@ -238,3 +238,18 @@ def test_phased_feeds_steer_the_beam():
     assert west.peak_azimuth_deg == pytest.approx(270.0, abs=2.0)
     assert east.front_to_back_db > 2 and west.front_to_back_db > 2
     assert east.gain_dbi == pytest.approx(west.gain_dbi, abs=1e-6)  # mirror images
+
+
+def test_sparse_projection_is_the_dense_product():
+    """Assert that the O(N^2) gather equals p.T @ s @ p (the Galerkin projection of half-function
+    reactions onto basis functions), for random sparse +-1 maps with 1 to 3 halves per basis."""
+    from rfsafe.antenna.wire.solver import _project
+
+    rng = np.random.default_rng(1)
+    ns, nb = 40, 33
+    s = rng.normal(size=(2 * ns, 2 * ns)) + 1j * rng.normal(size=(2 * ns, 2 * ns))
+    p = np.zeros((2 * ns, nb))
+    for n in range(nb):
+        idx = rng.choice(2 * ns, size=rng.integers(1, 4), replace=False)
+        p[idx, n] = rng.choice([-1.0, 1.0], size=len(idx))
+    assert np.allclose(_project(s, p), p.T @ s @ p, rtol=1e-13, atol=1e-12)

@@ -153,8 +153,33 @@ def impedance_matrix(st: Structure) -> np.ndarray:
     """
     k = 2.0 * math.pi * st.freq_hz / C0_M_S
     s = sum(_reaction(st, k, src) for src in st.sources())
-    p = st.half_to_basis
-    return p.T @ s @ p
+    return _project(s, st.half_to_basis)
+
+
+def _project(s: np.ndarray, p: np.ndarray) -> np.ndarray:
+    """``p.T @ s @ p`` for the sparse half-to-basis map ``p`` in O(N^2) instead of O(N^3).
+
+    Each basis function has a few halves (two, more at a junction): its column of ``p`` is gathered
+    as (row, weight) pairs, padded to the longest column with weight 0.
+    """
+    rows, cols = np.nonzero(p)
+    nb = p.shape[1]
+    order = np.argsort(cols, kind="stable")
+    rows, cols = rows[order], cols[order]
+    counts = np.bincount(cols, minlength=nb)
+    slot = np.arange(len(cols)) - np.concatenate([[0], np.cumsum(counts)[:-1]])[cols]
+    width = int(counts.max()) if nb else 0
+    r_idx = np.zeros((width, nb), dtype=np.intp)
+    wts = np.zeros((width, nb), dtype=p.dtype)
+    r_idx[slot, cols] = rows
+    wts[slot, cols] = p[rows, cols]
+    half = np.zeros((s.shape[0], nb), dtype=np.result_type(s, p))
+    for j in range(width):
+        half += s[:, r_idx[j]] * wts[j]
+    z = np.zeros((nb, nb), dtype=half.dtype)
+    for j in range(width):
+        z += wts[j][:, None] * half[r_idx[j], :]
+    return z
 
 
 def _directions(theta, phi):
