@@ -303,9 +303,6 @@ def connector_ends(field: str, connector, at_tx, at_ant, v_rating, balanced: boo
     return ends
 
 
-def _tuner_tolerable_swrs(spec: TunerSpec, result: TunerResult, rated: dict, *, r0: float, z0: complex,
-                          gam: complex, length: float, freq: float, balun_ratio: float, target: float,
-                          gamma_now: complex | None, field: str) -> dict:
 def _with_rating_verification(parts: list, cable: CableClass, ends: dict) -> list:
     """Each part with whether its rating was read in a published text (see :mod:`rfsafe.verification`)."""
     user = "user rating (not a published figure; not confirmed by rfsafe)"
@@ -323,6 +320,9 @@ def _with_rating_verification(parts: list, cable: CableClass, ends: dict) -> lis
             for p in parts]
 
 
+def _tuner_tolerable_swrs(spec: TunerSpec, result: TunerResult, rated: dict, *, r0: float, z0: complex,
+                          gam: complex, length: float, freq: float, balun_ratio: float, target: float,
+                          gamma_now: complex | None, field: str) -> dict:
     """Largest SWR at the antenna end at which each rated tuner part stays within its rating.
 
     Worst case over the load phase (``_TUNER_PHASES`` phases plus the present one, each part's largest
