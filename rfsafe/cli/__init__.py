@@ -30,7 +30,7 @@ __all__ = ["app", "main", "EXIT_INTERNAL"]
 
 #: Exit status of an unexpected internal error (a bug), distinct from 0, 1 and 2.
 EXIT_INTERNAL = 3
-#: Warnings raised during the last command (never shown to the user; see ``_Group.main``).
+#: Distinct warnings raised during the last command, at most 20 (never shown to the user; see ``_Group.main``).
 RECORDED_WARNINGS: list[str] = []
 
 #: Command modules, in the order their commands appear in ``--help``.
@@ -127,8 +127,10 @@ class _Group(TyperGroup):
                     rv = super().main(args=args, prog_name=prog_name or "rfsafe",
                                       complete_var=complete_var, standalone_mode=False, **extra)
                 finally:
-                    RECORDED_WARNINGS.extend(f"{w.category.__name__}: {w.message} ({w.filename}:{w.lineno})"
-                                             for w in caught)
+                    for w in caught:
+                        text = f"{w.category.__name__}: {w.message} ({w.filename}:{w.lineno})"
+                        if text not in RECORDED_WARNINGS and len(RECORDED_WARNINGS) < 20:
+                            RECORDED_WARNINGS.append(text)
         except InputError as err:
             typer.echo(f"Error: {err}", err=True)
             sys.exit(2)

@@ -53,20 +53,20 @@ def fit_text(text: str, width: int | None = None) -> str:
 NO_REASON = "no reason recorded"
 
 
-def _nonfinite_note(obj: Any, name: str, value: float) -> str:
+def _nonfinite_note(obj: Any, name: str, value: float, reason: str | None = None) -> str:
     """Why field ``name`` of result ``obj`` has no finite value.
 
-    A result dataclass may declare ``NONFINITE_NOTES = {"field": "why it is infinite"}``; a NaN is
-    never meaningful and says so.
+    A result dataclass may declare ``NONFINITE_NOTES = {"field": "why it is infinite"}`` (for a field
+    holding a mapping, the reason applies to each of its entries); a NaN is never meaningful and says so.
     """
     if math.isnan(value):
         return "nan: could not be computed (a defect in rfsafe; please report it with the input)"
-    reason = (getattr(type(obj), "NONFINITE_NOTES", None) or {}).get(name)
+    reason = reason or (getattr(type(obj), "NONFINITE_NOTES", None) or {}).get(name)
     sign = "inf" if value > 0 else "-inf"
     return f"{sign}: {reason}" if reason else f"{sign}: no finite value ({NO_REASON}; please report it with the input)"
 
 
-def to_jsonable(obj: Any) -> Any:
+def to_jsonable(obj: Any, _reason: str | None = None) -> Any:
     """Convert result objects (dataclasses, numpy, complex) to JSON types.
 
     A non-finite number in a field of a result becomes ``null`` with a ``<field>_note`` beside it
@@ -78,7 +78,7 @@ def to_jsonable(obj: Any) -> Any:
             if not f.repr:
                 continue
             value = getattr(obj, f.name)
-            out[f.name] = to_jsonable(value)
+            out[f.name] = to_jsonable(value, (getattr(type(obj), "NONFINITE_NOTES", None) or {}).get(f.name))
             if (isinstance(value, (float, int)) or (hasattr(value, "dtype") and getattr(value, "ndim", 1) == 0)) \
                     and not isinstance(value, bool) and not math.isfinite(float(value)):
                 note = f"{f.name}_note"
@@ -98,9 +98,9 @@ def to_jsonable(obj: Any) -> Any:
     if isinstance(obj, Mapping):
         out = {}
         for k, v in obj.items():
-            out[str(k)] = to_jsonable(v)
+            out[str(k)] = to_jsonable(v, _reason)
             if isinstance(v, float) and not math.isfinite(v) and f"{k}_note" not in obj:
-                out[f"{k}_note"] = _nonfinite_note(obj, str(k), v)
+                out[f"{k}_note"] = _nonfinite_note(obj, str(k), v, _reason)
         return out
     if isinstance(obj, (Sequence, set, frozenset)):
         return [to_jsonable(v) for v in obj]

@@ -23,6 +23,7 @@ from rfsafe.errors import bad_value
 from rfsafe.units import C0_M_S, ETA0_OHM
 
 __all__ = [
+    "swr_of_load",
     "NP_PER_DB",
     "reflection_coefficient", "reflection_from_swr", "reflection_from_powers", "swr_from_reflection",
     "return_loss_db", "mismatch_loss_db", "propagation_constant", "low_loss_complex_z0",
@@ -55,6 +56,28 @@ def reflection_coefficient(load_ohm, z0_ohm):
     z0 = np.asarray(z0_ohm, dtype=complex)
     out = (zl - z0) / (zl + z0)
     return complex(out) if out.ndim == 0 else out
+
+
+def swr_of_load(load_ohm: complex, z0_ohm: float) -> float:
+    """SWR of a passive load on a line of real characteristic impedance, accurate near |Gamma| = 1.
+
+    .. math:: 1 - |\\Gamma|^2 = \\frac{4 R_L Z_0}{|Z_L + Z_0|^2},\\quad
+              SWR = \\frac{(1 + |\\Gamma|)^2}{1 - |\\Gamma|^2}
+
+    (the same SWR as (1 + |Gamma|)/(1 - |Gamma|), without the cancellation of 1 - |Gamma| when the
+    load is nearly reactive); ``inf`` for a purely reactive load.
+
+    References
+    ----------
+    Pozar, *Microwave Engineering*, 4th ed., eq. (2.35) and (2.41).
+    """
+    zl = complex(load_ohm)
+    d = abs(zl + z0_ohm)  # hypot: no overflow for any finite load
+    one_minus_g2 = 4.0 * z0_ohm * (zl.real / d) / d if d > 0 else 0.0
+    if not one_minus_g2 > 0:
+        return math.inf
+    g = abs(zl - z0_ohm) / d
+    return (1.0 + g) ** 2 / one_minus_g2
 
 
 def reflection_from_swr(swr):
@@ -223,8 +246,9 @@ def mismatch_total_loss_db(matched_loss_db, gamma_load_mag):
         raise bad_value("matched_loss_db", matched_loss_db, "must be >= 0 dB")
     if np.any(~((g >= 0) & (g < 1))):
         raise bad_value("gamma_load_mag", gamma_load_mag, "must be >= 0 and < 1")
-    a = 10.0 ** (ml / 10.0)
-    out = 10.0 * np.log10((a * a - g * g) / (a * (1.0 - g * g)))
+    # the same expression as ML + 10 log10(1 - |G|^2 / a^2) - 10 log10(1 - |G|^2): no overflow of a^2
+    # on a very lossy line
+    out = ml + 10.0 * np.log10(1.0 - g * g * 10.0 ** (-ml / 5.0)) - 10.0 * np.log10(1.0 - g * g)
     return float(out) if out.ndim == 0 else out
 
 

@@ -17,12 +17,13 @@ from typing import ClassVar
 
 import numpy as np
 
+from rfsafe.bounds import MAX_LENGTH_M, MAX_LOSS_DB, MAX_POWER_W, MAX_SWR
 from rfsafe.errors import InputError, bad_value
 from rfsafe.feedline.catalogue import CableClass, connector_series, matched_loss_db_per_100m, power_rating_w
 from rfsafe.feedline.line import (
     low_loss_complex_z0, mismatch_total_loss_db, propagation_constant,
     reflection_coefficient, reflection_from_swr, swr_from_reflection, exact_total_loss_db,
-    line_voltage_current,
+    line_voltage_current, swr_of_load,
 )
 from rfsafe.feedline.matching import MatchingPart, TunerResult, TunerSpec, design_tuner
 from rfsafe.feedline.balun import BalunSpec, BalunStress, balun_equivalent_power_w, balun_stress
@@ -148,6 +149,8 @@ class LineResult:
     NONFINITE_NOTES: ClassVar[dict] = {
         "first_failure_swr": "no rated part reaches its rating at any SWR searched (see first_failure)",
         "return_loss_at_transmitter_db": "perfect match at the transmitter end: no reflection",
+        "largest_tolerable_swr": "the part's rating is not reached at any SWR searched (see part_stresses)",
+        "headroom": "no stress at this power: any rating holds",
     }
     not_rated_parts: tuple[str, ...] = ()
     balun: BalunStress | None = None
@@ -503,9 +506,13 @@ def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: Ca
     c_loss = _positive(f"{field}.connector_loss_db", connector_loss_db, "dB", allow_zero=True)
     if (swr is None) == (load_ohm is None):
         raise bad_value(f"{field}.swr", swr, "give exactly one of swr and load_ohm")
+    if pep > MAX_POWER_W:
+        raise bad_value(f"{field}.pep_w", pep_w, f"is out of range (accepted: <= {MAX_POWER_W:g} W)")
+    if length > MAX_LENGTH_M:
+        raise bad_value(f"{field}.length_m", length_m, f"is out of range (accepted: <= {MAX_LENGTH_M:g} m)")
     if swr is not None:
-        if not (isinstance(swr, (int, float)) and math.isfinite(swr) and swr >= 1):
-            raise bad_value(f"{field}.swr", swr, "must be a finite number >= 1")
+        if not (isinstance(swr, (int, float)) and math.isfinite(swr) and 1 <= swr <= MAX_SWR):
+            raise bad_value(f"{field}.swr", swr, f"must be a finite number >= 1 and <= {MAX_SWR:g}")
     else:
         try:
             load_c = complex(load_ohm)
@@ -513,6 +520,11 @@ def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: Ca
             raise bad_value(f"{field}.load_ohm", load_ohm, "must be a complex impedance in ohm") from None
         if not (math.isfinite(load_c.real) and math.isfinite(load_c.imag) and load_c.real > 0):
             raise bad_value(f"{field}.load_ohm", load_c, "must have a resistance > 0 ohm (a passive antenna)")
+        load_swr = swr_of_load(load_c, float(cable.z0_ohm))
+        if not load_swr <= MAX_SWR:
+            raise bad_value(f"{field}.load_ohm", load_c, f"gives an SWR of {load_swr:.3g} on this {cable.z0_ohm:g} ohm "
+                            f"line (accepted: loads with an SWR <= {MAX_SWR:g}; a short, an open or a pure "
+                            "reactance reflects everything and has no finite stress)")
     if tuner is not None and load_ohm is None:
         raise bad_value(f"{field}.tuner", tuner.topology, "needs load_ohm: a network's parts depend on the "
                         "complex impedance, which an SWR alone does not fix")
@@ -531,6 +543,9 @@ def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: Ca
     notes: list[str] = []
     r0 = float(cable.z0_ohm)
     ml_db = matched_loss_db_per_100m(cable, freq) * length / 100.0   # the cable alone
+    if not ml_db <= MAX_LOSS_DB:
+        raise bad_value(f"{field}.length_m", length_m, f"gives a matched loss of {ml_db:.4g} dB at {freq / 1e6:g} MHz "
+                        f"(accepted: lines with at most {MAX_LOSS_DB:g} dB: nothing measurable reaches the antenna)")
     loss_db_per_m = ml_db / length if length > 0 else 0.0
     gam = propagation_constant(loss_db_per_m, freq, cable.velocity_factor)
     z0 = low_loss_complex_z0(r0, gam) if exact_complex_z0 else complex(r0)
