@@ -27,6 +27,11 @@ __all__ = ["assess", "assess_with_emitters", "Emitter", "emitters", "peak_gain_d
 
 NEAR_FIELD_FLAG = "far-field estimate; near-field analysis or measurement recommended"
 
+#: Largest total line loss accepted for an exposure evaluation [dB]: beyond it 99 % of the power is lost
+#: in the line, which is far more likely a unit slip (kHz for MHz, feet for metres) than a real station,
+#: and would understate exposure by that much.
+MAX_LINE_LOSS_DB = 20.0
+
 
 @dataclass(frozen=True)
 class Emitter:
@@ -298,6 +303,11 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
         flags.append("no SWR or load declared: a matched load (SWR 1) is assumed, which gives the "
                      "largest power at the antenna but understates line stress")
     line = _line_result(st, i, c, fline, tx.pep_w, tx.pep_w * duty)
+    if line.total_loss_db > MAX_LINE_LOSS_DB:
+        raise bad_value(f"configurations[{i}]", c.id,
+                        f"loses {line.total_loss_db:.3g} dB in feedline {fline.id!r} (accepted: at most "
+                        f"{MAX_LINE_LOSS_DB:g} dB; beyond it the exposure would rest on an implausible loss): check "
+                        "freq_mhz (in MHz), the feedline's length_m (in metres) and its cable class")
     loss_fraction = float(line.loss_fraction)
     solution = _wire_solution(loaded, ant, freq_hz)
     gain, gain_src = peak_gain_dbi(ant, solution.gain_dbi if solution is not None else None,

@@ -158,8 +158,12 @@ def test_pattern_gain_is_opt_in(tmp_path):
     res = _station(tmp_path, text)
     garden = next(p for p in res.places if p.label == "Garden")  # due east, behind a beam facing west
     x = garden.exposures[0]
-    assert x.gain_method == "pattern"
-    assert x.gain_dbi < 8.0 - 10  # well down the back of the beam
+    assert x.gain_method.startswith("pattern")
+    # behind the beam and 46 deg below it: the stated downward floor governs, 1/2 sin^2(depression) of the
+    # peak (rfsafe.antenna.patterns.DOWNWARD_FLOOR_FRACTION), far above the 20 dB front-to-back floor
+    depression = math.atan2(12.0 - 1.5, 10.0)
+    assert x.gain_dbi == pytest.approx(8.0 + 10 * math.log10(0.5 * math.sin(depression) ** 2), abs=1e-9)
+    assert "downward floor" in x.gain_method and x.gain_dbi < 8.0 - 3
     peak = _station(tmp_path, BASE.replace('antenna = "dipole-80"', 'antenna = "beam"'), "peak.toml")
     assert next(p for p in peak.places if p.label == "Garden").exposures[0].gain_method == "peak"
 
@@ -415,3 +419,27 @@ def test_straight_below_a_beam_is_no_longer_the_front_to_back_floor(tmp_path):
                                                  s / 377 / (2.19 / f) ** 2), rel=1e-9)
     fb_floor_ratio = x.exposure_ratio / (10 ** 0.8 / 2) * 10 ** (0.8 - 2.0)
     assert x.exposure_ratio == pytest.approx(50 * fb_floor_ratio, rel=1e-9)
+
+
+def test_frequency_in_khz_is_refused_in_a_station_file(tmp_path):
+    """freq_mhz = 14200 (meant 14.2) on RG-213 would evaluate 14.2 GHz with tens of dB of loss and a
+    compliance distance near 0 m: refused (exit 2, one line, nothing evaluated) with the likely value."""
+    path = tmp_path / "slip.toml"
+    path.write_text(BASE.replace("freq_mhz = 14.2", "freq_mhz = 14200.0"))
+    r = CliRunner().invoke(app, ["evaluate", str(path)])
+    assert r.exit_code == 2 and r.stdout == ""
+    assert r.stderr.strip() == (
+        'Error: configurations[0].freq_mhz: 14200.0 is outside 0.1-3000 MHz, where the loss figures of cable class '
+        '"rg-213" hold; did you mean 14.2 MHz? (give the frequency in MHz); for another frequency use a custom '
+        "cable with its loss there")
+
+
+def test_line_loss_too_large_to_mean_anything_is_refused(tmp_path):
+    """600 m of RG-213 at 1296 MHz loses far more than 20 dB (99 % of the power): such an exposure would rest
+    on an implausible loss (most likely feet or kHz slips), so the evaluation is refused with what to check."""
+    path = tmp_path / "lossy.toml"
+    path.write_text(BASE.replace("freq_mhz = 14.2", "freq_mhz = 1296.0").replace("length_m = 20.0", "length_m = 600.0"))
+    r = CliRunner().invoke(app, ["evaluate", str(path)])
+    assert r.exit_code == 2 and r.stdout == ""
+    assert r.stderr.startswith('Error: configurations[0]: "hf" loses ')
+    assert "(accepted: at most 20 dB" in r.stderr and "check freq_mhz (in MHz)" in r.stderr

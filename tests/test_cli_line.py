@@ -189,3 +189,16 @@ def test_t_tuner_as_set_and_range_flags():
     doc = json.loads(run(args).stdout)
     assert doc["tuner"]["network"]["form"] == "high-pass, as set"
     assert any("C2 = 300 pF is above this tuner's declared range 10-250 pF" in n for n in doc["notes"])
+
+
+@pytest.mark.parametrize("freq, hint", [("3600", "did you mean 3.6 MHz?"), ("14200", "did you mean 14.2 MHz?"),
+                                        ("0.0142", "did you mean 14.2 MHz?")])
+def test_frequency_unit_slip_is_refused_with_a_hint(freq, hint):
+    """3600 typed for 3.6 MHz would evaluate 3.6 GHz on RG-58 (tens of dB of invented loss): refused, with the
+    MHz value it most likely meant (kHz or GHz for MHz: unit conversion, common practice)."""
+    args = ["line", "--pep-w", "100", "--freq-mhz", freq, "--length-m", "30", "--cable", "rg-58", "--swr", "1.5"]
+    r = run(args)
+    assert r.exit_code == 2 and r.stdout == ""
+    line = r.stderr.strip()
+    assert line.startswith(f"Error: --freq-mhz: {float(freq)!r} is outside 0.1-3000 MHz, where the loss figures "
+                           'of cable class "rg-58" hold') and hint in line

@@ -123,3 +123,12 @@ def test_missing_file_and_help():
     assert r.exit_code == 2 and r.stderr.startswith("Error: FILE:")
     h = CliRunner().invoke(app, ["wire", "--help"])
     assert h.exit_code == 0 and "--json" in h.stdout
+
+
+def test_wire_radius_in_millimetres_is_refused_with_a_hint(tmp_path):
+    """A 1 mm wire typed as radius_m = 1 would be a 2 m thick conductor: refused, with the metre value
+    it most likely meant (unit conversion, common practice)."""
+    r = run(tmp_path, DIPOLE.replace("radius_m = 0.001", "radius_m = 1.0"))
+    assert r.exit_code == 2 and r.stdout == ""
+    assert r.stderr.strip() == ("Error: wires[0].radius_m: 1.0 is thicker than any wire or tube of an antenna "
+                                "(at most 0.1 m); did you mean 0.001 m (1 mm)? (the radius is in metres)")

@@ -205,6 +205,9 @@ def line(
     try:
         if cable is not None:
             line_cable = cable_class(cable, field="--cable")
+            from rfsafe.feedline.catalogue import check_catalogue_frequency
+
+            check_catalogue_frequency(line_cable, freq_mhz, field="--freq-mhz")
         else:
             missing = [k for k, v in custom.items() if v is None]
             if missing:

@@ -13,12 +13,12 @@ import math
 from dataclasses import dataclass
 from importlib import resources
 
-from rfsafe.errors import bad_value
+from rfsafe.errors import bad_value, format_value
 
 __all__ = [
     "CableClass", "ConnectorSeries", "CUSTOM_CABLE_ID",
     "cable_ids", "cable_class", "custom_cable", "matched_loss_db_per_100m", "matched_loss_db",
-    "power_rating_w", "connector_ids", "connector_series",
+    "power_rating_w", "connector_ids", "connector_series", "check_catalogue_frequency", "CATALOGUE_FREQ_RANGE_MHZ",
 ]
 
 #: Pseudo-id naming a cable described by the user (see :func:`custom_cable`).
@@ -188,6 +188,30 @@ def matched_loss_db_per_100m(cable: CableClass, freq_hz: float, *, field: str = 
     _check_positive(field, freq_hz, "Hz")
     f_mhz = freq_hz / 1e6
     return cable.loss_sqrt_db_per_100m * math.sqrt(f_mhz) + cable.loss_lin_db_per_100m * f_mhz
+
+
+#: Frequencies [MHz] at which a catalogue class's loss figures are taken to hold: coax classes 0.1-3000 MHz,
+#: balanced lines 0.1-1000 MHz (the published loss figures they are fitted to lie within about 1-1000 MHz,
+#: from memory; the two-term model is not extrapolated further). Outside, a unit slip is the likely cause.
+CATALOGUE_FREQ_RANGE_MHZ = {False: (0.1, 3000.0), True: (0.1, 1000.0)}
+
+
+def check_catalogue_frequency(cable: CableClass, freq_mhz: float, *, field: str = "freq_mhz") -> None:
+    """Refuse a frequency [MHz] outside the range of a catalogue class's loss figures, with a unit hint.
+
+    A kHz value given as MHz (14200 for 14.2) would otherwise give tens of dB of invented line loss and an
+    exposure far too low; a GHz value (0.0142) the reverse.
+    """
+    lo, hi = CATALOGUE_FREQ_RANGE_MHZ[bool(cable.balanced)]
+    if lo <= freq_mhz <= hi:
+        return
+    if freq_mhz > hi:
+        guesses = [g for g in (freq_mhz / 1e3, freq_mhz / 1e6) if lo <= g <= hi]
+    else:
+        guesses = [g for g in (freq_mhz * 1e3,) if lo <= g <= hi]
+    hint = f"; did you mean {guesses[0]:g} MHz? (give the frequency in MHz)" if guesses else " (give the frequency in MHz)"
+    raise bad_value(field, freq_mhz, f"is outside {lo:g}-{hi:g} MHz, where the loss figures of cable class "
+                    f"{format_value(cable.id)} hold{hint}; for another frequency use a custom cable with its loss there")
 
 
 def matched_loss_db(cable: CableClass, freq_hz: float, length_m: float) -> float:

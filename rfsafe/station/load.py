@@ -204,6 +204,12 @@ def _check_configuration(i: int, c: Configuration, station: Station) -> None:
                 raise bad_value(f"{path}.tuner.{key}", rng, "must be [min, max] with 0 < min < max")
     for env in ("controlled", "uncontrolled"):
         limits_at(station.standard, c.freq_mhz * 1e6, env, field=f"{path}.freq_mhz")
+    fline = next((f for f in station.feedlines if f.id == c.feedline), None)
+    if fline is not None and fline.cable != "custom":
+        from rfsafe.feedline.catalogue import _cables, check_catalogue_frequency
+
+        if fline.cable in _cables():
+            check_catalogue_frequency(_cables()[fline.cable], c.freq_mhz, field=f"{path}.freq_mhz")
 
 
 def check_station(station: Station, base: Path) -> tuple[dict, dict]:

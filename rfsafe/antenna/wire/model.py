@@ -167,6 +167,11 @@ def _wire_index(spec: WireAntennaSpec, feed: FeedSpec, path: str) -> int:
     return labels.index(feed.wire)
 
 
+#: Largest conductor radius accepted [m]: thicker than the tubing of any wire antenna, so a larger value is
+#: most likely millimetres typed as metres (a 2 mm wire as radius_m = 2).
+MAX_WIRE_RADIUS_M = 0.1
+
+
 def check_wire_antenna(spec: WireAntennaSpec, *, prefix: str = "") -> tuple[int, ...]:
     """Consistency checks the schema cannot express; returns the wire index of each feed.
 
@@ -193,6 +198,10 @@ def check_wire_antenna(spec: WireAntennaSpec, *, prefix: str = "") -> tuple[int,
             seen[w.label] = i
         if w.segments is not None and w.max_segment_m is not None:
             raise InputError(f"{path}.max_segment_m: give either segments or max_segment_m, not both")
+        if w.radius_m > MAX_WIRE_RADIUS_M:
+            raise bad_value(f"{path}.radius_m", w.radius_m,
+                            f"is thicker than any wire or tube of an antenna (at most {MAX_WIRE_RADIUS_M:g} m); did you "
+                            f"mean {w.radius_m / 1000:g} m ({w.radius_m:g} mm)? (the radius is in metres)")
         for j in range(1, len(w.points_m)):
             a, b = w.points_m[j - 1], w.points_m[j]
             if math.dist(a, b) <= 1e-6:
