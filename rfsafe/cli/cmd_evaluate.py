@@ -13,6 +13,7 @@ from rfsafe.errors import bad_value
 def render_evaluation(res) -> str:
     """Human-readable tables of an EvaluationResult."""
     from rfsafe.cli.output import format_table
+    from rfsafe.verification import marker
 
     out = []
     out.append(f"{res.title}")
@@ -78,10 +79,10 @@ def render_evaluation(res) -> str:
                              "loss dB", "least headroom", "SWR limit", "ratings exceeded"], rows, align="lrrrrrlrl",
                             title="Feedline and tuner stress at PEP (headroom = rating / stress; SWR limit: "
                                   "largest tolerable SWR of that part at this power)"))
-    from rfsafe.cli.answers import answer_sections
     out.extend(f"  fails first, {c.id}: {c.line.first_failure}" for c in res.configurations if c.line.first_failure)
     out.append("")
     out.append(_verification_lines(res))
+    from rfsafe.cli.answers import answer_sections
 
     out.extend(answer_sections(res))
     if res.exemption is not None:
@@ -97,7 +98,6 @@ def render_evaluation(res) -> str:
     return "\n".join(out)
 
 
-def evaluate(file: Path = typer.Argument(..., help="Station file (.toml)."),
 def _verification_lines(res) -> str:
     """Legend of the check markers (duty, ratio: its limit, least headroom: its rating) and a count."""
     from rfsafe.verification import LEGEND, STATES
@@ -110,6 +110,7 @@ def _verification_lines(res) -> str:
             "(--json: data_verification)")
 
 
+def evaluate(file: Path = typer.Argument(..., help="Station file (.toml)."),
              standard: str = typer.Option(None, "--standard",
                                           help="Override the file's standard: fcc, icnirp2020, icnirp1998, ieee2019, sc6, eu1999."),
              json_out: bool = typer.Option(False, "--json", help="Print one JSON document instead of tables."),

@@ -279,10 +279,10 @@ def line(
         typer.echo("")
         typer.echo(output.format_table(["part", "quantity", "stress", "rating", "unit", "headroom",
                                         "largest SWR", "status"], prow, title="Ratings at this power"))
+        typer.echo(f"rating {LEGEND}")
         typer.echo(f"Fails first: {r.first_failure}")
         if r.tuner is not None:
             n = r.tuner.network
-        typer.echo(f"rating {LEGEND}")
             trow = [(p.name, p.kind, p.placement, _fmt(p.value_pf, "pF") if p.value_pf else _fmt(p.value_uh, "uH"),
                      _fmt(p.voltage_v_peak), _fmt(p.voltage_v_rms), _fmt(p.current_a_rms), _fmt(p.loss_w))
                     for p in n.parts]

@@ -65,7 +65,6 @@ class PartStress:
     exceeded: bool
     rating_source: str
     status: str = "not rated"  # "ok" | "EXCEEDED" | "not rated" (no rating exists: never shown as "ok")
-
     rating_verification: str = "not confirmed"   # was the rating read in a published text (rfsafe.verification)
     #: why largest_tolerable_swr is what it is (JSON writes both None and inf as null): "at" (a finite SWR),
     #: "never_reached" (not reached at any SWR), "not_reached_in_search" (not reached up to the searched SWR),
@@ -88,6 +87,7 @@ class PartStress:
         h = self.headroom
         object.__setattr__(self, "headroom_case", "not_rated" if h is None else
                            ("zero_stress" if math.isinf(h) else "at"))
+
     NONFINITE_NOTES: ClassVar[dict] = {
         "headroom": "no stress at this power: any rating holds",
         "largest_tolerable_swr": "the rating is not reached at any SWR searched (see tolerable_swr_note)",
@@ -157,9 +157,6 @@ class LineResult:
     connector_at_transmitter: str | None = None   # connector series id, or None: no connector at that end
     connector_at_antenna: str | None = None
     connector_loss_db: float = 0.0  # added to the cable's mismatched loss, never multiplied by the mismatch
-
-
-def _positive(field: str, value, unit: str, *, allow_zero: bool = False) -> float:
     cable_verification: str = "not confirmed"   # which of the cable's figures were read in a published text
     #: per part, why largest_tolerable_swr / headroom has (no) value (see PartStress)
     largest_tolerable_swr_case: dict = dc_field(init=False, default_factory=dict)
@@ -185,6 +182,9 @@ def _positive(field: str, value, unit: str, *, allow_zero: bool = False) -> floa
         else:
             case = "at"
         object.__setattr__(self, "first_failure_case", case)
+
+
+def _positive(field: str, value, unit: str, *, allow_zero: bool = False) -> float:
     ok = isinstance(value, (int, float)) and not isinstance(value, bool) and math.isfinite(value)
     ok = ok and (value >= 0 if allow_zero else value > 0)
     if not ok:
@@ -743,6 +743,7 @@ def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: Ca
     if p_rating is None:
         notes.append(f"cable class {cable.id!r} has no power rating: heating not compared")
 
+    parts = _with_rating_verification(parts, cable, ends)
     return LineResult(
         freq_hz=freq, pep_w=pep, avg_power_w=avg, length_m=length, cable_id=cable.id, z0_ohm=complex(z0),
         load_ohm=line_load, load_assumption=load_assumption, gamma_at_antenna=gamma_ant,
@@ -756,7 +757,6 @@ def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: Ca
         line_voltage_max_position_m=length - v_at,
         line_current_a_peak=i_max, line_current_a_rms=i_max / math.sqrt(2.0),
         line_current_max_position_m=length - i_at,
-    parts = _with_rating_verification(parts, cable, ends)
         voltage_at_transmitter_v_peak=float(v_ends[1]), voltage_at_antenna_v_peak=float(v_ends[0]),
         current_at_transmitter_a_peak=float(i_ends[1]), current_at_antenna_a_peak=float(i_ends[0]),
         matched_line_voltage_v_peak=v_matched, thermal_rule=THERMAL_RULE, part_stresses=tuple(parts),
@@ -770,5 +770,5 @@ def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: Ca
         not_rated_parts=tuple(p.part for p in parts if p.rating is None), balun=balun_result,
         connector_at_transmitter=None if ends["transmitter"] is None else ends["transmitter"][0],
         connector_at_antenna=None if ends["antenna"] is None else ends["antenna"][0], connector_loss_db=c_loss,
-    )
         cable_verification=cable.verification,
+    )
