@@ -53,6 +53,7 @@ class Emitter:
     ground_factor: float
     solution: object = None       # moment-method solution for a wire antenna, else None
     extent: object = None         # rfsafe.antenna.extent.Extent: the radiating structure taken
+    ground_bound_solution: object = None   # wire declared over free space: the same over a perfect ground (bound)
 
 
 def peak_gain_dbi(antenna: Antenna, wire_gain_dbi: float | None = None, table=None) -> tuple[float, str]:
@@ -105,8 +106,9 @@ def _near_wire(points: np.ndarray, spec) -> np.ndarray:
     return near
 
 
-def _near_field_map(cid, ant: Antenna, solution, limits, avg_ant, pep_ant, loaded: LoadedStation):
-    """Horizontal near-field map around a wire antenna: ratios worst over body heights."""
+def _near_field_map(cid, ant: Antenna, solution, limits, avg_ant, pep_ant, loaded: LoadedStation, twin=None):
+    """Horizontal near-field map around a wire antenna: ratios worst over body heights (and over the ground
+    bound ``twin``, the same antenna over a perfect ground, where given)."""
     if solution is None:
         return None
     from rfsafe.limits import exposure_ratio
@@ -127,6 +129,9 @@ def _near_field_map(cid, ant: Antenna, solution, limits, avg_ant, pep_ant, loade
     e1 = np.full(len(grid), np.nan)
     h1 = np.full(len(grid), np.nan)
     e1[~near], h1[~near] = solution.fields_rms(grid[~near], 1.0)
+    if twin is not None:
+        e2, h2 = twin.fields_rms(grid[~near], 1.0)
+        e1[~near], h1[~near] = np.maximum(e1[~near], e2), np.maximum(h1[~near], h2)
     keep = ~near.reshape(len(MAP_BODY_HEIGHTS_M), -1).any(axis=0)
     for env in ENVIRONMENTS:
         e_best = np.zeros(gx.size)
@@ -144,7 +149,8 @@ def _near_field_map(cid, ant: Antenna, solution, limits, avg_ant, pep_ant, loade
         e_ratio[env], h_ratio[env] = e_best.reshape(gx.shape), h_best.reshape(gx.shape)
     return NearFieldMap(
         configuration=cid, antenna=ant.id,
-        plane=f"horizontal, worst over heights {MAP_BODY_HEIGHTS_M[0]:g}-{MAP_BODY_HEIGHTS_M[-1]:g} m above ground",
+        plane=f"horizontal, worst over heights {MAP_BODY_HEIGHTS_M[0]:g}-{MAP_BODY_HEIGHTS_M[-1]:g} m above ground"
+              + (f"; {WIRE_GROUND_BOUND}" if twin is not None else ""),
         x_m=tuple(float(v) for v in x), y_m=tuple(float(v) for v in y), heights_m=MAP_BODY_HEIGHTS_M,
         wire_paths_m=tuple(tuple((float(p[0]), float(p[1])) for p in w.points_m) for w in spec.wires),
         max_e_ratio={env: float(np.nanmax(e_ratio[env])) for env in ENVIRONMENTS},
@@ -310,6 +316,7 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
                         "freq_mhz (in MHz), the feedline's length_m (in metres) and its cable class")
     loss_fraction = float(line.loss_fraction)
     solution = _wire_solution(loaded, ant, freq_hz)
+    twin = _ground_bound_solution(loaded, ant, solution, freq_hz)
     gain, gain_src = peak_gain_dbi(ant, solution.gain_dbi if solution is not None else None,
                                    loaded.pattern_tables.get(ant.id))
     if ant.kind == "quarter-wave-vertical" and ground_factor > 1:
@@ -321,6 +328,12 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
         ground_factor = 1.0
         flags.append("wire antenna over a perfect ground: the solver's gain includes the ground reflection, "
                      "so the far-field estimate uses F = 1 with it")
+    if twin is not None and gain_src == "moment-method solver":
+        # Far field of the bound: the larger of G F (free space) and G (over perfect ground, reflection included).
+        if twin.gain_dbi > gain + 10 * math.log10(ground_factor):
+            gain, gain_src, ground_factor = twin.gain_dbi, "moment-method solver over perfect ground (bound)", 1.0
+        flags.append(f"wire antenna declared over free space: solved over free space and over a perfect ground, "
+                     f"the worse governs at every place ({WIRE_GROUND_BOUND}; real soil lies between the two)")
     avg_ant = {env: avg_tx[env] * loss_fraction for env in ENVIRONMENTS}
     pep_ant = tx.pep_w * loss_fraction
     eirp = {env: float(eirp_w(avg_ant[env], gain)) for env in ENVIRONMENTS}
@@ -328,6 +341,8 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
     eirp_pep = float(eirp_w(pep_ant, gain))
     nf = float(ex.near_field_distance_m(freq_hz))
     ap = float(ex.aperture_far_field_distance_m(ant.aperture_m, freq_hz)) if ant.aperture_m else None
+    if solution is not None:   # 2 D^2 / lambda of the wire structure itself, from any part of it
+        ap = max(ap or 0.0, _wire_near_field_boundary_m(solution))
     flag_dist = max(nf, ap or 0.0)
     from rfsafe.antenna.extent import antenna_extent
 
@@ -358,10 +373,14 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
             limit_basis=lim.basis, governing=gov, averaging_minutes=lim.averaging_minutes, eirp_w=p,
             inside_near_field=d < flag_dist, limit_source=lim.source,
             **_limit_values(lim), distance_basis=cd_basis))
-        if d < flag_dist:
+        if d < flag_dist and solution is None:   # wire antennas: the solver decides (below)
             flags.append(f"{env} compliance distance {d:.2f} m (from the nearest part of {ant.id}) lies inside the "
                          f"near-field boundary "
                          f"{flag_dist:.2f} m: {NEAR_FIELD_FLAG}")
+    if solution is not None:
+        sols = [x for x in (solution, twin) if x is not None]
+        distances, wire_flags = _wire_compliance_distances(sols, limits, avg_ant, pep_ant, distances, flag_dist)
+        flags.extend(wire_flags)
     loads = _wire_loads(solution, pep_ant)
     shield = _feedline_shield(loaded, ant, solution, limits, avg_ant, pep_ant, nf)
     exceeded = tuple(line.exceeded_parts) + tuple(
@@ -388,14 +407,15 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
         eirp_w=eirp, erp_w=erp, eirp_pep_w=eirp_pep, near_field_distance_m=nf, aperture_far_field_m=ap,
         compliance_distances=tuple(distances), line=line, exceeded_parts=exceeded, flags=tuple(flags),
         method="far-field prediction S = EIRP F / (4 pi R^2), peak gain (OET Bulletin 65, section 2)"
-               + ("; near field of the wire antenna by the moment-method solver" if solution is not None else ""),
+               + ("; near field of the wire antenna by the moment-method solver" if solution is not None else "")
+               + (f" ({WIRE_GROUND_BOUND})" if twin is not None else ""),
         wire=_wire_summary(solution),
-        near_field_map=_near_field_map(c.id, ant, solution, limits, avg_ant, pep_ant, loaded) if maps else None,
+        near_field_map=_near_field_map(c.id, ant, solution, limits, avg_ant, pep_ant, loaded, twin) if maps else None,
         limit_distances=tuple(every_limit))
     emitter = Emitter(configuration=c.id, transmitter=tx.id, freq_hz=freq_hz, x_m=ant.x_m, y_m=ant.y_m,
                       height_m=ant.height_m, antenna=ant, peak_gain_dbi=gain, avg_power_at_antenna_w=avg_ant,
                       pep_at_antenna_w=pep_ant, eirp_w=eirp, eirp_pep_w=eirp_pep, limits=limits,
-                      ground_factor=ground_factor, solution=solution, extent=extent)
+                      ground_factor=ground_factor, solution=solution, extent=extent, ground_bound_solution=twin)
     return result, emitter
 
 
@@ -518,13 +538,13 @@ def _near_field_at(em: Emitter, solution, place, heights, field: str, average: b
 
 def _place_exposure(em: Emitter, loaded: LoadedStation, p_index: int, place, cres: ConfigurationResult,
                     solution=None):
+    if solution is not None:
+        return _wire_place_exposure(em, loaded, p_index, place, cres)
     heights = _heights(place)  # the loader has refused places on an antenna
     r, lim, s, dist, gain, how = max((_far_field_at(em, loaded, place, z) for z in heights), key=lambda b: b[0])
     e, h = (float(v) for v in ex.plane_wave_fields(s))
     flag_dist = max(cres.near_field_distance_m, cres.aperture_far_field_m or 0.0)
     dist_min = min(_structure_distance_m(em, place, z) for z in heights)
-    if solution is not None and solution.shield is not None:  # the feedline shield radiates too
-        dist_min = min(dist_min, _route_distance_m(solution, place, heights))
     inside = dist_min < flag_dist
     if inside and solution is None and em.antenna.use_pattern:
         # a far-field pattern's nulls do not hold near the antenna: its peak gain is taken there
@@ -533,28 +553,6 @@ def _place_exposure(em: Emitter, loaded: LoadedStation, p_index: int, place, cre
         e, h = (float(v) for v in ex.plane_wave_fields(s))
     basis = f"{em.antenna.id}: {em.extent.basis}"
     governing = f"{_governing(lim, s)} ({lim.basis})"
-    if inside and solution is not None:
-        average = loaded.model.near_field_spatial_average and SPATIAL_AVERAGE_ALLOWED[loaded.model.standard]
-        rn, limn, en, hn, zn = _near_field_at(em, solution, place, heights, f"places[{p_index}].body_heights_m",
-                                              average)
-        how_nf = ("near-field (moment method, spatial average over body heights)" if zn is None
-                  else "near-field (moment method)")
-        e_part = (en / limn.e_field_v_m) ** 2 if limn.e_field_v_m else 0.0
-        h_part = (hn / limn.h_field_a_m) ** 2 if limn.h_field_a_m else 0.0
-        diff_db = 10 * math.log10(rn / r) if rn > 0 and r > 0 else float("nan")
-        flags = (f"{dist_min:.2f} m from {em.antenna.id} is inside the near-field boundary {flag_dist:.2f} m: "
-                 f"evaluated with the moment-method solver (near field governs; far-field estimate "
-                 f"{r:.3g}, near-field {rn:.3g}, {diff_db:+.1f} dB)"
-                 + (f"; spatial average over body heights {', '.join(f'{z:g}' for z in heights)} m, as "
-                    "the standard allows (option near_field_spatial_average)" if zn is None else ""),)
-        return PlaceExposure(
-            configuration=em.configuration, transmitter=em.transmitter, dist_m=dist_min, gain_dbi=gain,
-            gain_method=how, power_density_w_m2=max(en ** 2 / ex.ETA_STANDARDS_OHM, ex.ETA_STANDARDS_OHM * hn ** 2),
-            e_field_v_m=en, h_field_a_m=hn, exposure_ratio=rn,
-            governing=f"{'e_field' if e_part >= h_part else 'h_field'} ({limn.basis})",
-            margin_db=float(ex.margin_db(rn)), method=how_nf, inside_near_field=True,
-            flags=flags, far_field_ratio=r, near_field_ratio=rn, limit_source=limn.source, **_limit_values(limn),
-            distance_basis=basis)
     flags = (f"{dist_min:.2f} m from {em.antenna.id} is inside the near-field boundary {flag_dist:.2f} m: "
              f"{NEAR_FIELD_FLAG}",) if inside else ()
     return PlaceExposure(
@@ -562,6 +560,214 @@ def _place_exposure(em: Emitter, loaded: LoadedStation, p_index: int, place, cre
         power_density_w_m2=s, e_field_v_m=e, h_field_a_m=h, exposure_ratio=r, governing=governing,
         margin_db=float(ex.margin_db(r)), method="far-field estimate", inside_near_field=inside, flags=flags,
         far_field_ratio=r, limit_source=lim.source, **_limit_values(lim), distance_basis=basis)
+
+
+# --- Wire antennas: nearest-point distances, the ground bound, solver near every part of the wire ---
+
+#: Short text for results: from where a wire antenna's distances are measured (the solved segments).
+WIRE_DISTANCE_BASIS = "nearest point of the solved wire geometry"
+#: Method label of a wire antenna declared over free space in a station file (see _ground_bound_solution).
+WIRE_GROUND_BOUND = "worse of free space and perfect ground (bound)"
+
+
+def _ground_bound_solution(loaded: LoadedStation, ant: Antenna, solution, freq_hz: float):
+    """The same wire antenna over a perfect ground, when it is declared over free space (else None).
+
+    Criterion (conservative, always): in a station file z is the height above the real ground, so every
+    wire antenna has the ground below it and every person stands on it. Real soil reflects between
+    nothing (free space) and everything (a perfect conductor, image theory: Balanis, Antenna Theory,
+    3rd ed., Sec. 4.7); until rfsafe models real soil, both are solved and at every place the worse
+    governs, labelled as a bound. A wire declared with ``ground = "perfect"`` is solved as declared.
+    """
+    if solution is None or loaded.wire_specs[ant.id].ground != "free-space":
+        return None
+    from rfsafe.antenna.wire import solve
+    from rfsafe.errors import InputError
+
+    index = next(k for k, a in enumerate(loaded.model.antennas) if a.id == ant.id)
+    spec = loaded.wire_specs[ant.id]
+    prefix = f"antennas[{index}].wire."
+    for j, w in enumerate(spec.wires):
+        for k, p in enumerate(w.points_m):
+            if p[2] < 0:
+                raise bad_value(f"{prefix}wires[{j}].points_m[{k}]", p,
+                                "is below ground: in a station file z is the height above ground (accepted: z >= 0 m)")
+    try:
+        return solve(spec.model_copy(update={"ground": "perfect"}), freq_hz, field_prefix=prefix)
+    except InputError as err:
+        raise InputError(f"{err} (a wire antenna declared over free space is also solved over a perfect ground, "
+                         f"the bound for real soil; declare {prefix}ground = \"perfect\" to model the ground "
+                         "directly)") from None
+
+
+def _wire_solutions(em: Emitter) -> list:
+    return [s for s in (em.solution, em.ground_bound_solution) if s is not None]
+
+
+def _wire_distance_m(solution, points: np.ndarray) -> np.ndarray:
+    """Distance [m] from each point (N, 3) to the nearest point of the solved wires (shield included)."""
+    from rfsafe.antenna.wire.geometry import point_segment_distances
+
+    st = solution.structure
+    return point_segment_distances(points[:, None, :], st.start_m[None], st.end_m[None]).min(axis=1)
+
+
+def _wire_size_m(solution) -> float:
+    """Largest dimension D [m] of the radiating wire structure (greatest distance between two nodes), with its
+    image over a perfect ground (the currents that radiate, Balanis Sec. 4.7)."""
+    st = solution.structure
+    nodes = np.unique(np.concatenate([st.start_m, st.end_m]), axis=0)
+    if st.ground:
+        nodes = np.concatenate([nodes, nodes * np.array([1.0, 1.0, -1.0])])
+    return float(max(np.linalg.norm(nodes[i:i + 256, None, :] - nodes[None], axis=-1).max()
+                     for i in range(0, len(nodes), 256)))
+
+
+def _wire_near_field_boundary_m(solution) -> float:
+    """2 D^2 / lambda of the wire structure [m] (Balanis Sec. 2.2.4); the boundary is its max with lambda/2pi."""
+    return float(ex.aperture_far_field_distance_m(_wire_size_m(solution), solution.freq_hz))
+
+
+def _wire_near_field_at(em: Emitter, place, heights, field: str, average: bool):
+    """Moment-method result at a place, worst over the solutions (declared and ground bound)."""
+    best, which = None, ""
+    for sol in _wire_solutions(em):
+        r = _near_field_at(em, sol, place, heights, field, average)
+        if best is None or r[0] > best[0]:
+            best, which = r, sol.ground
+    return best, which
+
+
+def _wire_place_exposure(em: Emitter, loaded: LoadedStation, p_index: int, place, cres: ConfigurationResult):
+    """Exposure at a place from a wire antenna, judged by its distance to the nearest point of the wires.
+
+    Within the near-field boundary max(lambda/2pi, 2D^2/lambda) of any part of the wires the moment-method
+    fields govern. Beyond it the far-field estimate (peak gain, ground factor, distance to the nearest point
+    of the wires) is used, but never below the solver's own value there.
+    """
+    heights = _heights(place)  # the loader has refused places on an antenna
+    pts = np.array([[place.x_m, place.y_m, z] for z in heights], dtype=float)
+    dist = float(_wire_distance_m(em.solution, pts).min())
+    boundary = max(cres.near_field_distance_m, cres.aperture_far_field_m or 0.0)
+    inside = dist < boundary
+    bound = em.ground_bound_solution is not None
+    env = place.environment
+    best_ff = None
+    for lim in em.limits[env]:
+        p_ant = _power_for(lim, em.avg_power_at_antenna_w[env], em.pep_at_antenna_w)
+        s = float(ex.far_field_power_density_w_m2(eirp_w(p_ant, em.peak_gain_dbi), max(dist, 1e-9), em.ground_factor))
+        r = float(ex.ratio_at(lim, s))
+        if best_ff is None or r > best_ff[0]:
+            best_ff = (r, lim, s)
+    r_ff, lim_ff, s_ff = best_ff
+    average = loaded.model.near_field_spatial_average and SPATIAL_AVERAGE_ALLOWED[loaded.model.standard]
+    (rn, limn, en, hn, zn), ground = _wire_near_field_at(em, place, heights, f"places[{p_index}].body_heights_m",
+                                                         average)
+    solver_how = "moment method" + (f", {WIRE_GROUND_BOUND}" if bound else "") + (
+        ", spatial average over body heights" if zn is None else "")
+    common = dict(configuration=em.configuration, transmitter=em.transmitter, dist_m=dist, gain_dbi=em.peak_gain_dbi,
+                  gain_method="peak", inside_near_field=inside, far_field_ratio=r_ff, near_field_ratio=rn,
+                  distance_basis=f"{em.antenna.id}: {WIRE_DISTANCE_BASIS}"
+                  + (" (feedline shield included)" if em.solution.shield is not None else ""))
+    where = f"{dist:.2f} m from the nearest point of {em.antenna.id}'s wires"
+    avg_note = (f"; spatial average over body heights {', '.join(f'{z:g}' for z in heights)} m, as the standard "
+                "allows (option near_field_spatial_average)" if zn is None else "")
+    bound_note = (f"; {WIRE_GROUND_BOUND}: the {ground} model governs here" if bound else "")
+    if inside or rn > r_ff:
+        e_part = (en / limn.e_field_v_m) ** 2 if limn.e_field_v_m else 0.0
+        h_part = (hn / limn.h_field_a_m) ** 2 if limn.h_field_a_m else 0.0
+        diff_db = 10 * math.log10(rn / r_ff) if rn > 0 and r_ff > 0 else float("nan")
+        why = ("inside the near-field boundary" if inside else
+               "outside the near-field boundary, but the moment-method value is above the far-field estimate")
+        flags = (f"{where} is {why} {boundary:.2f} m: evaluated with the moment-method solver (near field "
+                 f"governs; far-field estimate {r_ff:.3g}, near-field {rn:.3g}, {diff_db:+.1f} dB)"
+                 + bound_note + avg_note,)
+        return PlaceExposure(
+            **common, power_density_w_m2=max(en ** 2 / ex.ETA_STANDARDS_OHM, ex.ETA_STANDARDS_OHM * hn ** 2),
+            e_field_v_m=en, h_field_a_m=hn, exposure_ratio=rn,
+            governing=f"{'e_field' if e_part >= h_part else 'h_field'} ({limn.basis})",
+            margin_db=float(ex.margin_db(rn)), method=f"near-field ({solver_how})", flags=flags,
+            limit_source=limn.source, **_limit_values(limn))
+    e, h = (float(v) for v in ex.plane_wave_fields(s_ff))
+    return PlaceExposure(
+        **common, power_density_w_m2=s_ff, e_field_v_m=e, h_field_a_m=h, exposure_ratio=r_ff,
+        governing=f"{_governing(lim_ff, s_ff)} ({lim_ff.basis})", margin_db=float(ex.margin_db(r_ff)),
+        method="far-field estimate (>= moment method)", flags=(), limit_source=lim_ff.source,
+        **_limit_values(lim_ff))
+
+
+#: Directions sampled around each node of a wire when searching a compliance distance (cube faces,
+#: edges and corners).
+_SHELL_DIRECTIONS = np.array([(x, y, z) for x in (-1, 0, 1) for y in (-1, 0, 1) for z in (-1, 0, 1)
+                              if (x, y, z) != (0, 0, 0)], dtype=float)
+_SHELL_DIRECTIONS /= np.linalg.norm(_SHELL_DIRECTIONS, axis=1)[:, None]
+#: Nodes of the wires used as shell centres (evenly spread over the structure).
+_SHELL_NODES = 24
+
+
+def _wire_shell_ratio(sols, limits, avg_w: float, pep_w: float, r_m: float, nodes: np.ndarray) -> float:
+    """Largest near-field exposure ratio at points r_m from the wires (z >= 0), over the solutions."""
+    from rfsafe.limits import exposure_ratio
+
+    pts = (nodes[:, None, :] + r_m * _SHELL_DIRECTIONS[None]).reshape(-1, 3)
+    pts = pts[(pts[:, 2] >= 0) & (_wire_distance_m(sols[0], pts) >= 0.999 * r_m)]
+    if len(pts) == 0:
+        return 0.0
+    worst = 0.0
+    for sol in sols:
+        e1, h1 = sol.fields_rms(pts, 1.0, field="compliance distance search")
+        for lim in limits:
+            scale = math.sqrt(_power_for(lim, avg_w, pep_w))
+            r = np.asarray(exposure_ratio(lim, e_field_v_m=e1 * scale, h_field_a_m=h1 * scale), dtype=float)
+            worst = max(worst, float(np.max(r)))
+    return worst
+
+
+def _wire_compliance_distances(sols, limits, avg_ant, pep_ant: float, distances, boundary_m: float):
+    """Compliance distances of a wire antenna, from the nearest point of its wires, and their flags.
+
+    Where the far-field distance lies inside the near-field boundary, the moment-method fields are
+    searched on shells around the wires (``_SHELL_NODES`` nodes, 26 directions, above ground) between
+    max(5 cm, 5 radii) and the boundary: the distance beyond which every sampled ratio is at most 1.
+    The larger of the two distances is reported (the shells are a sample).
+    """
+    import dataclasses
+
+    st = sols[0].structure
+    nodes = np.unique(np.concatenate([st.start_m, st.end_m]), axis=0)
+    nodes = nodes[np.unique(np.linspace(0, len(nodes) - 1, min(_SHELL_NODES, len(nodes))).round().astype(int))]
+    r_min = max(0.05, 5 * float(st.radius_m.max()))
+    out, flags = [], []
+    for d in distances:
+        if d.dist_m >= boundary_m or r_min >= boundary_m:
+            out.append(d)
+            continue
+        grid = np.geomspace(r_min, boundary_m, 8)
+        env = d.environment
+
+        def over_limit(r_m: float) -> bool:
+            return _wire_shell_ratio(sols, limits[env], avg_ant[env], pep_ant, r_m, nodes) > 1.0
+
+        over = [r for r in grid if over_limit(r)]
+        if not over:
+            d_nf = r_min
+        elif over[-1] >= boundary_m:
+            d_nf = boundary_m
+        else:
+            lo, hi = over[-1], grid[int(np.searchsorted(grid, over[-1])) + 1]
+            for _ in range(5):
+                mid = math.sqrt(lo * hi)
+                lo, hi = (mid, hi) if over_limit(mid) else (lo, mid)
+            d_nf = hi
+        dist = max(d.dist_m, d_nf)
+        out.append(dataclasses.replace(d, dist_m=dist, dist_ft=dist / M_PER_FT, inside_near_field=dist < boundary_m))
+        what = ("the moment-method value governs" if d_nf > d.dist_m else
+                "the moment-method fields confirm the limit is met beyond it")
+        flags.append(f"{d.environment} compliance distance {dist:.2f} m (from the nearest point of the wires) lies "
+                     f"inside the near-field boundary {boundary_m:.2f} m: far-field estimate {d.dist_m:.2f} m, "
+                     f"moment method on shells around the wires {d_nf:.2f} m; {what}"
+                     + (f" ({WIRE_GROUND_BOUND})" if len(sols) > 1 else ""))
+    return tuple(out), flags
 
 
 def _totals(exposures, station: Station):
