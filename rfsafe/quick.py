@@ -54,6 +54,7 @@ class QuickQuestion:
     standard: str = "fcc"
     ground_reflection: str = "full"
     band: str | None = None
+    size_m: float | None = None         # largest dimension of the antenna (the station file's aperture_m)
 
 
 def band_edges(names: Sequence[str]) -> list[tuple[str, float, float]]:
@@ -106,6 +107,8 @@ def question_station(q: QuickQuestion):
         ant["gain_dbi"] = q.gain_dbi
     if q.gain_dbd is not None:
         ant["gain_dbd"] = q.gain_dbd
+    if q.size_m is not None:
+        ant["aperture_m"] = q.size_m
     cfg = {"id": "question", "freq_mhz": q.freq_mhz, "transmitter": "tx", "feedline": "line",
            "antenna": "antenna", "mode": q.mode}
     if q.swr is not None:
@@ -141,7 +144,8 @@ _OPTION_OF = {"transmitters[0].pep_w": "--power-w", "configurations[0].freq_mhz"
               "antennas[0].height_m": "--height-m", "feedlines[0].cable": "--cable",
               "feedlines[0].length_m": "--length-m", "antennas[0].gain_dbi": "--gain-dbi",
               "antennas[0].gain_dbd": "--gain-dbd", "standard": "--standard", "ground_reflection": "--ground",
-              "places[0]": "--distance-m", "places[0].x_m": "--distance-m"}
+              "places[0]": "--distance-m", "places[0].x_m": "--distance-m", "antennas[0].aperture_m": "--size-m",
+              "antennas[0]": "--antenna"}
 
 
 def _option_error(err: InputError) -> InputError:

@@ -179,18 +179,34 @@ def _move_place(loaded, label: str, x_m: float, y_m: float):
     return _with_model(loaded, places=_replace_item(loaded.model.places, "label", label, x_m=x_m, y_m=y_m))
 
 
+def _without_antenna(loaded, ant_id: str):
+    """The station with every configuration on an antenna left out (None when nothing else transmits)."""
+    st = loaded.model
+    keep = [c for c in st.configurations if c.antenna != ant_id]
+    if not keep:
+        return None
+    ids = {c.id for c in keep}
+    groups = [g.model_copy(update={"configurations": [c for c in g.configurations if c in ids]})
+              for g in st.simultaneous]
+    return _with_model(loaded, configurations=keep, simultaneous=[g for g in groups if g.configurations])
+
+
 def _only_place(loaded, label: str):
     return _with_model(loaded, places=[p for p in loaded.model.places if p.label == label])
 
 
 @contextlib.contextmanager
 def _reused_wire_solutions():
-    """Within the block, a wire antenna solved once at a frequency is not solved again.
+    """Within the block, repeated evaluations skip work whose result the remedies never read.
 
-    The remedies re-evaluate the same station many times with only a power, a schedule or a place
-    changed; the moment-method solution depends on the geometry and frequency alone.
+    The remedies re-evaluate the same station many times with only a power, a schedule, a height or a
+    place changed, and read only the places' total exposure ratios. So (1) a wire antenna solved once
+    at a frequency is not solved again (the moment-method solution depends on the geometry and the
+    frequency alone), and (2) the wire antennas' compliance-distance search (a configuration result,
+    not a place's exposure) is left out. Every place is still evaluated exactly as by ``evaluate``.
     """
     import rfsafe.antenna.wire as wire
+    import rfsafe.assess as assess_module
 
     original = wire.solve
     memo: dict = {}
@@ -202,10 +218,15 @@ def _reused_wire_solutions():
         return memo[key]
 
     wire.solve = solve
+    search = getattr(assess_module, "_wire_compliance_distances", None)
+    if search is not None:
+        assess_module._wire_compliance_distances = lambda sols, limits, avg, pep, distances, boundary: (distances, [])
     try:
         yield
     finally:
         wire.solve = original
+        if search is not None:
+            assess_module._wire_compliance_distances = search
 
 
 def total_ratio(loaded, label: str | None = None) -> float:
@@ -358,11 +379,19 @@ def _loss_remedy(loaded, cres, ratio_of_loaded, r_now) -> Remedy:
     def ratio_of(factor):
         return ratio_of_loaded(_add_loss(loaded, cres.id, -10.0 * math.log10(factor)))
 
-    floor = 10.0 ** (-_MAX_LOSS_DB / 10.0)
+    import rfsafe.assess as assess_module
+
+    # the evaluation refuses an implausible total line loss (a unit slip): search only below it
+    cap = min(getattr(assess_module, "MAX_LINE_LOSS_DB", _MAX_LOSS_DB), _MAX_LOSS_DB)
+    extra_max = cap - now - 0.1
+    if extra_max <= 0.0:
+        return Remedy("line_loss_db", subject, now, None, "not applicable", None,
+                      f"{subject}: the line loss is already near the largest the evaluation accepts ({cap:g} dB)")
+    floor = 10.0 ** (-extra_max / 10.0)
     r_floor = ratio_of(floor)
     if r_floor > 1.0:
         return Remedy("line_loss_db", subject, now, None, "no value helps", None,
-                      f"{subject}: no line loss up to {_MAX_LOSS_DB:g} dB more helps (the other sources alone exceed)")
+                      f"{subject}: no line loss up to {cap:g} dB in all helps (the largest the evaluation accepts)")
     factor, r = solve_crossing(ratio_of, floor, r_floor, 1.0, r_now)
     extra = -10.0 * math.log10(factor)
     return Remedy("line_loss_db", subject, now, now + extra, "solved", r,
@@ -377,11 +406,8 @@ def _height_remedy(loaded, ant, ratio_of_loaded, r_now) -> Remedy:
                       f"{subject}: raising it is not solved here (the wire model touches the ground or "
                       "includes the feedline shield, which would not move with it)")
 
-    without = loaded
-    for c in loaded.model.configurations:
-        if c.antenna == ant.id:
-            without = _add_loss(without, c.id, 200.0)
-    if ratio_of_loaded(without) > 1.0:
+    without = _without_antenna(loaded, ant.id)
+    if without is not None and ratio_of_loaded(without) > 1.0:
         return Remedy("antenna_height_m", subject, ant.height_m, None, "no value helps", None,
                       f"{subject}: no height helps (the other antennas alone exceed the limit)")
 
@@ -430,6 +456,11 @@ def place_remedies(loaded, result: EvaluationResult) -> tuple[PlaceRemedies, ...
     Each remedy changes one thing, everything else as in the station file, and is solved with the full
     evaluation of that place (all transmitters that count there, summed as ``evaluate`` sums them).
     """
+    with _reused_wire_solutions():
+        return _place_remedies(loaded, result)
+
+
+def _place_remedies(loaded, result: EvaluationResult) -> tuple[PlaceRemedies, ...]:
     st = loaded.model
     out = []
     for pr in result.places:
@@ -470,6 +501,11 @@ def configuration_remedies(loaded, result: EvaluationResult) -> tuple[Configurat
     """Per configuration: the largest PEP and average power, the schedule, the line loss and the antenna
     height with which every place complies (everything else unchanged). Where the station complies
     already, PEP and average power are the headroom. Empty without places."""
+    with _reused_wire_solutions():
+        return _configuration_remedies(loaded, result)
+
+
+def _configuration_remedies(loaded, result: EvaluationResult) -> tuple[ConfigurationRemedies, ...]:
     if not result.places:
         return ()
     st = loaded.model
@@ -598,9 +634,8 @@ def with_answers(loaded, *, remedies: bool = True) -> EvaluationResult:
     keep = ground_keep_out(loaded, result, ems)
     if not remedies:
         return dataclasses.replace(result, ground_keep_out=keep)
-    with _reused_wire_solutions():
-        places = place_remedies(loaded, result)
-        configs = configuration_remedies(loaded, result)
+    places = place_remedies(loaded, result)
+    configs = configuration_remedies(loaded, result)
     return dataclasses.replace(result, ground_keep_out=keep, place_remedies=places, configuration_remedies=configs)
 
 

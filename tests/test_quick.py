@@ -83,12 +83,16 @@ def test_largest_pep_at_the_distance_is_at_the_limit(tmp_path):
 
 
 def test_no_cable_means_no_line_loss_and_level_person():
-    a = answer(QuickQuestion(pep_w=100.0, freq_mhz=50.1, gain_dbi=0.0, distance_m=3.0))
+    a = answer(QuickQuestion(pep_w=100.0, freq_mhz=50.1, gain_dbi=0.0, distance_m=3.0, size_m=0.4))
     assert a.line_loss_db == 0.0
-    # OET Bulletin 65 section 2: S = P G F / (4 pi R^2), F = 4 (full reflection), carrier (duty 1);
+    # OET Bulletin 65 section 2: S = P G F / (4 pi R^2), F = 4 (full reflection), carrier (duty 1), R from the
+    # nearest part of the antenna (3 m less half its 0.4 m size);
     # 47 CFR 1.1310 Table 1, 30-300 MHz uncontrolled: 0.2 mW/cm^2 = 2 W/m^2.
-    s = 100.0 * 1.0 * 4.0 / (4 * math.pi * 3.0 ** 2)
+    s = 100.0 * 1.0 * 4.0 / (4 * math.pi * (3.0 - 0.2) ** 2)
     assert a.ratio_at_distance["uncontrolled"] == pytest.approx(s / 2.0, rel=1e-9)
+    # without a size the answer can only be larger (the nearest part is taken conservatively)
+    b = answer(QuickQuestion(pep_w=100.0, freq_mhz=50.1, gain_dbi=0.0, distance_m=3.0))
+    assert b.ratio_at_distance["uncontrolled"] >= a.ratio_at_distance["uncontrolled"]
 
 
 def test_sweep_rows_equal_single_answers():

@@ -151,6 +151,10 @@ def ask(power_w: str = typer.Option(..., "--power-w", metavar="W[,W...]",
         antenna: str = typer.Option(None, "--antenna", help=f"Antenna kind: {_KINDS}."),
         gain_dbi: str = typer.Option(None, "--gain-dbi", help="Peak antenna gain [dBi] (or --gain-dbd)."),
         gain_dbd: str = typer.Option(None, "--gain-dbd", help="Peak antenna gain over a half-wave dipole [dBd]."),
+        size_m: str = typer.Option(None, "--size-m",
+                                   help="Largest dimension of the antenna [m]; the person's distance is then taken "
+                                        "to its nearest part (default: rfsafe's conservative assumption, see "
+                                        "evaluate)."),
         cable: str = typer.Option(None, "--cable", help="Cable class (see `rfsafe line --help`); default: no "
                                                         "line loss (conservative)."),
         length_m: str = typer.Option(None, "--length-m", help="Cable length [m] (with --cable)."),
@@ -192,6 +196,7 @@ def ask(power_w: str = typer.Option(..., "--power-w", metavar="W[,W...]",
                          length_m=_one("--length-m", length_m, positive=False), swr=_one("--swr", swr),
                          height_m=_one("--height-m", height_m, positive=False),
                          distance_m=_one("--distance-m", distance_m, positive=False), standard=stds[0],
+                         size_m=_one("--size-m", size_m),
                          ground_reflection=ground)
     for opt, v in (("--length-m", base.length_m), ("--height-m", base.height_m), ("--distance-m", base.distance_m)):
         if v is not None and v < 0:
