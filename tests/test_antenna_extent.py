@@ -97,3 +97,33 @@ def test_nearest_part_is_never_farther_than_the_declared_position():
         centre = np.linalg.norm(pts - np.array([0.0, 0.0, 10.0]), axis=1)
         assert np.all(nearest_distance_m(ext, pts) <= centre + 1e-9), kw
         assert math.isfinite(ext.size_m) and ext.basis
+
+
+def test_farthest_part_from_the_declared_position():
+    """Reach of each structure from its declared position (plane geometry): a half-wave dipole lambda/4,
+    a beam rectangle half its diagonal, an elevated ground plane's radial tip sqrt((lambda/4)^2 +
+    (lambda/8)^2)."""
+    from rfsafe.antenna.extent import farthest_distance_m
+
+    c = (0.0, 0.0, 10.0)
+    assert farthest_distance_m(antenna_extent(_ant(kind="half-wave-dipole"), F_HZ), c) == pytest.approx(LAM / 4)
+    beam = antenna_extent(_ant(kind="beam", gain_dbi=7.0, element_span_m=10.0, boom_length_m=6.0), F_HZ)
+    assert farthest_distance_m(beam, c) == pytest.approx(math.hypot(5.0, 3.0))
+    gp = antenna_extent(_ant(kind="quarter-wave-vertical"), F_HZ)
+    assert farthest_distance_m(gp, c) == pytest.approx(math.hypot(LAM / 4, LAM / 8))
+
+
+def test_site_near_field_flags_reach_the_beam_elements():
+    """On a site grid (distances from the declared position) a beam's near-field reach is lambda/2pi plus
+    the reach of its structure, so every point within lambda/2pi of any element is flagged."""
+    from pathlib import Path
+
+    from rfsafe.site import load_site
+    from rfsafe.site.assess import site_emitters
+
+    demo = Path(__file__).resolve().parent.parent / "reports_demo" / "event_field_day.toml"
+    ems, _, _ = site_emitters(load_site(demo))
+    assert ems   # the demo site has no wire antenna (their flags come from the wire geometry)
+    for e in ems:
+        lam_2pi = C0 / e.freq_hz / (2 * math.pi)
+        assert e.near_field_m > lam_2pi      # never the bare lambda/2pi from the centre

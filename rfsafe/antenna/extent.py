@@ -34,7 +34,7 @@ import numpy as np
 
 from rfsafe.units import C0_M_S
 
-__all__ = ["Extent", "antenna_extent", "nearest_distance_m", "BEAM_DEFAULT_SPAN_WAVELENGTHS",
+__all__ = ["Extent", "antenna_extent", "nearest_distance_m", "farthest_distance_m", "BEAM_DEFAULT_SPAN_WAVELENGTHS",
            "BEAM_DEFAULT_BOOM_WAVELENGTHS", "UNKNOWN_RADIUS_WAVELENGTHS"]
 
 #: Element span assumed for a beam that does not declare ``element_span_m`` [wavelengths]: a full-size
@@ -207,3 +207,27 @@ def nearest_distance_m(extent: Extent, points_m) -> np.ndarray:
     for c, radius in extent.spheres:
         best = np.minimum(best, np.maximum(np.linalg.norm(p - c, axis=-1) - radius, 0.0))
     return best
+
+
+def farthest_distance_m(extent: Extent, point_m) -> float:
+    """Largest distance [m] from ``point_m`` (3,) to any part of ``extent``.
+
+    With the declared position as ``point_m``, every point within a distance d of the structure lies
+    within d + this of the position (triangle inequality): grids that measure from the position use it
+    to flag a superset of the points near any part of the antenna.
+    """
+    c = np.asarray(point_m, dtype=float)
+    far = 0.0
+    segs = np.asarray(extent.segments_m, dtype=float).reshape(-1, 2, 3)
+    if len(segs):
+        far = max(far, float(np.linalg.norm(segs.reshape(-1, 3) - c, axis=1).max()))
+    for centre, radius in extent.discs:
+        rho = math.hypot(centre[0] - c[0], centre[1] - c[1])
+        far = max(far, math.hypot(rho + radius, centre[2] - c[2]))
+    for centre, u, v, hu, hv in extent.rectangles:
+        for su in (-hu, hu):
+            for sv in (-hv, hv):
+                far = max(far, float(np.linalg.norm(centre + su * u + sv * v - c)))
+    for centre, radius in extent.spheres:
+        far = max(far, float(np.linalg.norm(centre - c)) + radius)
+    return far

@@ -149,6 +149,12 @@ def site_emitters(loaded_site) -> tuple[list[SiteEmitter], list[SiteStationResul
             used[em.antenna.id] = how
             cfg = next(c for c in evaluation.configurations if c.id == em.configuration)
             nf = max(cfg.near_field_distance_m, cfg.aperture_far_field_m or 0.0)
+            if em.antenna.kind != "wire" and em.extent is not None:
+                # the grid measures from the declared position: widen by the antenna's reach from it, so
+                # every point near any part of the antenna is flagged (a superset)
+                from rfsafe.antenna.extent import farthest_distance_m
+
+                nf += farthest_distance_m(em.extent, (em.x_m, em.y_m, em.height_m))
             power = tuple(em.avg_power_at_antenna_w[e] for e in ENVIRONMENTS)
             limit = tuple(limit_equivalent_w_m2(em.limits[e], em.avg_power_at_antenna_w[e], em.pep_at_antenna_w)
                           for e in ENVIRONMENTS)
@@ -247,7 +253,8 @@ def assess_site(loaded_site, *, today=None, progress: Callable[[int, int], None]
         "points and along their edges at half the grid spacing.",
         f"Suggested rope-off radius: the farthest keep-out point attributed to the station (largest own share) plus "
         f"one grid spacing, rounded up to the next {ROPE_STEP_M:g} m.",
-        "Points within lambda/2pi (or 2D^2/lambda for an aperture) of an antenna are in its near field, where the "
+        "Points within lambda/2pi (or 2D^2/lambda for an aperture) of any part of an antenna (its declared "
+        "position plus the reach of its elements, boom or assumed size) are in its near field, where the "
         "far-field estimate is not valid; they are flagged.",
         f"Standard: {info.name}; the site's standard and ground reflection apply to every station.",
     )

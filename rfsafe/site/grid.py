@@ -20,7 +20,7 @@ from typing import Callable, Sequence
 
 import numpy as np
 
-from rfsafe.antenna.patterns import AntennaDirection, Pattern, beam_exponents
+from rfsafe.antenna.patterns import DOWNWARD_FLOOR_FRACTION, AntennaDirection, Pattern, beam_exponents
 from rfsafe.site.constants import _FOUR_PI
 
 __all__ = ["SiteEmitter", "RatioGrid", "ratio_grid", "transmitter_ratios"]
@@ -311,6 +311,8 @@ def _evaluator(g: _Group) -> tuple[Callable, Callable]:
                 out += amp
                 np.exp(out, out=out)
                 np.maximum(out, floor, out=out)   # NaN (R = 0) propagates, fixed below
+                if dz < 0.0:                      # downward floor below the beam (patterns.beam_downward_floor)
+                    np.maximum(out, _F32(DOWNWARD_FLOOR_FRACTION * dz * dz) / r2, out=out)
                 out *= k
                 out /= r2
             fix_origin(rho2, dz, out)
