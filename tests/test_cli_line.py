@@ -60,7 +60,7 @@ KNOWN = ('"rg-58", "rg-8x", "rg-213", "rg-174", "twinlead-300", "window-450", "o
 
 
 @pytest.mark.parametrize("extra,message", [
-    (["--cable", "rg-213", "--swr", "0.8"], "--swr: 0.8 must be a finite number >= 1"),
+    (["--cable", "rg-213", "--swr", "0.8"], "--swr: 0.8 must be a finite number >= 1 and <= 1e+06"),
     (["--cable", "rg-213", "--swr", "2", "--load-ohm", "50"],
      "--swr/--load-ohm: both given; give exactly one (SWR at the antenna end, or the antenna-end impedance)"),
     (["--cable", "rg-213"],

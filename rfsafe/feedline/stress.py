@@ -340,6 +340,12 @@ def _tuner_tolerable_swrs(spec: TunerSpec, result: TunerResult, rated: dict, *, 
     if spec.c1_pf is not None:
         spec = dataclasses.replace(spec, c1_pf=None, l_uh=None, c2_pf=None, loaded_q=net.loaded_q)
     spec = dataclasses.replace(spec, matchable_region=False, capacitor_range_pf=None, inductor_range_uh=None)
+    # A T keeps its virtual resistance (its source-side capacitor stays where it is; L and the load-side
+    # capacitor are retuned): a fixed Q, defined at the lower-resistance end, would move that capacitor
+    # and give a near-matched load a far higher virtual resistance than the present one.
+    r_v0 = None
+    if spec.topology == "t" and net.loaded_q is not None:
+        r_v0 = min(net.target_resistance_ohm, net.load_ohm.real) * (1.0 + net.loaded_q ** 2)
     phases = np.linspace(0.0, 2.0 * np.pi, _TUNER_PHASES, endpoint=False)
     if gamma_now is not None and abs(gamma_now) > 0:
         phases = np.append(phases, np.angle(gamma_now))
@@ -356,8 +362,13 @@ def _tuner_tolerable_swrs(spec: TunerSpec, result: TunerResult, rated: dict, *, 
             z = complex(z0 * (z + z0 * tanh_gl) / (z0 + z * tanh_gl)) / balun_ratio
         if not (math.isfinite(z.real) and math.isfinite(z.imag) and z.real > 0):
             return {}
+        spec_z = spec
+        if r_v0 is not None:
+            r_low = min(net.target_resistance_ohm, z.real)
+            r_v = max(r_v0, 1.44 * max(net.target_resistance_ohm, abs(z) ** 2 / z.real))  # 1.2 x the least Q
+            spec_z = dataclasses.replace(spec, loaded_q=math.sqrt(r_v / r_low - 1.0))
         try:
-            n = design_tuner(spec, load_ohm=z, freq_hz=freq, input_power_w=p_in, target_ohm=target,
+            n = design_tuner(spec_z, load_ohm=z, freq_hz=freq, input_power_w=p_in, target_ohm=target,
                              field=field).network
         except InputError:
             return {}
@@ -393,8 +404,11 @@ def _tuner_tolerable_swrs(spec: TunerSpec, result: TunerResult, rated: dict, *, 
     g_grid = (swr_grid - 1.0) / (swr_grid + 1.0)
     curves = [worst(float(g)) for g in g_grid]
     how = (f"worst case over the load phase ({_TUNER_PHASES} phases and the present one, maximum refined), "
-           "network redesigned "
-           "for each load as declared, at this power; SWR at the antenna end")
+           + ("the T kept at its present virtual resistance (source-side capacitor unchanged; where that cannot "
+              "match, 1.2 x the least Q) with L and the load-side capacitor retuned for each load"
+              if r_v0 is not None else "the network redesigned for each load as declared")
+           + ", at this power; SWR at the antenna end"
+           + (" (the antenna's own SWR on the line's Z0)" if result.position == "antenna" else ""))
     out = {}
     for name, kind in rated.items():
         rating = next(p.rating for p in net.parts if p.name == name)
@@ -436,8 +450,9 @@ def _first_failure(parts, pep: float, swr_now: float):
         return (f"{p.part} ({p.quantity}) exceeds its rating even with a matched line (SWR 1) at {pep:g} W PEP"
                 + tail), p.part, 1.0
     if math.isinf(swr):
-        return (f"no rated part reaches its rating at any SWR at {pep:g} W PEP (tuner parts searched to SWR "
-                f"{TUNER_SWR_SEARCH_TOP:g})" + tail), None, math.inf
+        searched = (f" (tuner parts searched to SWR {TUNER_SWR_SEARCH_TOP:g})"
+                    if any(c[1].part.startswith("tuner.") for c in cands) else "")
+        return (f"no rated part reaches its rating at any SWR at {pep:g} W PEP{searched}" + tail), None, math.inf
     return (f"{p.part} ({p.quantity}) fails first, at SWR {swr:.3g} at the antenna end (worst case over the load "
             f"phase, {pep:g} W PEP; present SWR {swr_now:.3g})" + tail), p.part, float(swr)
 
@@ -737,7 +752,10 @@ def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: Ca
         notes.extend(tuner_result.network.range_flags)
     if avg == 0:
         notes.append("average power 0 W: no heating")
-    first_text, first_part, first_swr = _first_failure(parts, pep, float(swr_from_reflection(g_mag)))
+    swr_now = float(swr_from_reflection(g_mag))
+    if tuner is not None and tuner.position == "antenna":   # the line sees the tuner; its parts see the antenna
+        swr_now = float(swr_from_reflection(abs(reflection_coefficient(antenna_load, r0))))
+    first_text, first_part, first_swr = _first_failure(parts, pep, swr_now)
     if cable.max_voltage_v_peak is None:
         notes.append(f"cable class {cable.id!r} has no voltage rating: line voltage not compared")
     if p_rating is None:
