@@ -201,21 +201,22 @@ def _feedline_shield(loaded: LoadedStation, ant: Antenna, solution, limits, avg_
             pts = [[place.x_m, place.y_m, z] for z in heights]
             sweeps.append((place, ChokeSweep(solution, pts, field=f"places[{pi_}].body_heights_m")))
 
-    def ratio_at(z: complex) -> float:
-        worst = 0.0
+    def ratio_at(z: np.ndarray) -> np.ndarray:
+        """Largest ratio over the places, their heights and limits, for each choke impedance in ``z``."""
+        worst = np.zeros(np.shape(z))
         for place, sw in sweeps:
-            e1, h1 = sw.fields_rms(z, 1.0)
+            e1, h1 = sw.fields_rms(z, 1.0)     # (len(z), heights)
             for lim in limits[place.environment]:
                 scale = math.sqrt(_power_for(lim, avg_ant[place.environment], pep_ant))
                 r = np.asarray(exposure_ratio(lim, e_field_v_m=e1 * scale, h_field_a_m=h1 * scale), dtype=float)
-                worst = max(worst, float(np.max(r)))
+                worst = np.maximum(worst, r.max(axis=-1))
         return worst
 
     declared = spec.shield.choke
     z_now = circuit_impedance_ohm(declared, solution.freq_hz) if declared is not None else 0j
     if sweeps:
         need, note = required_choke_ohm(ratio_at, math.atan2(z_now.imag, z_now.real) if declared else 0.0)
-        worst = ratio_at(z_now)
+        worst = float(ratio_at(np.array([z_now]))[0])
     else:
         need, note, worst = 0.0, "no place lies within lambda/2pi of the feedline route", None
     return FeedlineShieldResult(
@@ -831,13 +832,10 @@ def _separation_m(loaded: LoadedStation, ant: Antenna, freq_hz: float, places) -
 
 def _exemption(loaded: LoadedStation, configs, places):
     st = loaded.model
-    if st.standard != "fcc":
+    if st.standard != "fcc" or not places:   # no place: no separation is known (exemption_case "no_places")
         return None
-    from rfsafe.limits.exemption import NOTE, ExemptionResult, ExemptionSource, fcc_exemption
+    from rfsafe.limits.exemption import ExemptionSource, fcc_exemption
 
-    if not places:
-        return ExemptionResult(False, "not claimed: no place is declared, so the separation between a person and "
-                               "the antennas is not known (47 CFR 1.1307(b)(3) needs it)", math.inf, (), NOTE, ())
     sources = []
     notes: list[str] = []
     unknown = []

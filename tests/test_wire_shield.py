@@ -79,6 +79,9 @@ def test_choke_sweep_equals_a_new_solution():
     # rounding of two dense solves).
     base = solve(spec(ROUTE_OPEN), F_HZ)
     sweep = ChokeSweep(base, PLACES)
+    zs = np.array([50.0, 400 + 900j, 2000 - 500j])
+    e_all, _ = sweep.fields_rms(zs, 100.0)          # vectorised over choke values
+    assert e_all.shape == (3, len(PLACES))
     for z in (50.0, 400 + 900j, 2000 - 500j):
         direct = solve(spec(dict(ROUTE_OPEN, choke={"resistance_ohm": z.real if isinstance(z, complex) else z,
                                                     "reactance_ohm": z.imag if isinstance(z, complex) else 0.0})),
@@ -86,6 +89,7 @@ def test_choke_sweep_equals_a_new_solution():
         e_s, h_s = sweep.fields_rms(z, 100.0)
         e_d, h_d = direct.fields_rms(PLACES, 100.0)
         np.testing.assert_allclose(e_s, e_d, rtol=1e-9)
+        np.testing.assert_allclose(e_all[list(zs).index(z)], e_d, rtol=1e-9)
         np.testing.assert_allclose(h_s, h_d, rtol=1e-9)
         assert sweep.max_common_mode_a_rms(z, 100.0) == pytest.approx(_max_cm(direct), rel=1e-9)
 
@@ -103,7 +107,7 @@ def test_open_far_end_carries_no_current_and_a_grounded_one_does():
 def test_required_choke_is_the_root_of_a_monotone_ratio():
     # ratio(z) = (100 / |z|)^2 reaches 1 at |z| = 100 ohm exactly (closed form); Brent's root finder
     # to xtol 1e-4 in ln|z|.
-    need, note = required_choke_ohm(lambda z: (100.0 / max(abs(z), 1e-9)) ** 2)
+    need, note = required_choke_ohm(lambda z: (100.0 / np.maximum(np.abs(z), 1e-9)) ** 2)
     assert need == pytest.approx(100.0, rel=2e-4)
     assert note.startswith("resistive choke")
 
@@ -112,19 +116,17 @@ def test_required_choke_takes_the_last_crossing_when_the_ratio_is_not_monotone()
     # A choke can resonate with the shield: the ratio dips below 1 near 10 ohm, rises above it near
     # 1 kohm and falls below again at 20 kohm. The answer must be the 20 kohm crossing (conservative).
     def ratio(z):
-        m = abs(z)
-        if m == 0:
-            return 3.0
-        return 3.0 / (1 + m / 5) + 2.0 * math.exp(-(math.log10(m) - 3) ** 2 / 0.1) + (20e3 / m) ** 0.5 * 0.5
+        m = np.maximum(np.abs(np.asarray(z)), 1e-300)
+        return 3.0 / (1 + m / 5) + 2.0 * np.exp(-(np.log10(m) - 3) ** 2 / 0.1) + (20e3 / m) ** 0.5 * 0.5
     need, _ = required_choke_ohm(ratio)
     assert ratio(need) == pytest.approx(1.0, abs=1e-6)
     assert need > 1e3
-    assert all(ratio(m) <= 1 + 1e-9 for m in CHOKE_SCAN_OHM if m >= need)
+    assert np.all(ratio(CHOKE_SCAN_OHM[CHOKE_SCAN_OHM >= need]) <= 1 + 1e-9)
 
 
 def test_required_choke_reports_none_needed_and_not_reachable():
-    assert required_choke_ohm(lambda z: 0.5)[0] == 0.0
-    need, note = required_choke_ohm(lambda z: 1.5)
+    assert required_choke_ohm(lambda z: np.full(np.shape(z), 0.5))[0] == 0.0
+    need, note = required_choke_ohm(lambda z: np.full(np.shape(z), 1.5))
     assert need is None and "no resistive choke up to 1e+06 ohm" in note
 
 

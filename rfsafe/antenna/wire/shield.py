@@ -338,28 +338,32 @@ class ChokeSweep:
         g = st.feed_coupling
         self._ia, self._ib = g @ self._a, g @ self._b
 
-    def _t(self, z_choke_ohm: complex) -> complex:
-        dz = complex(z_choke_ohm) - self._z0
+    def _t(self, z_choke_ohm) -> np.ndarray:
+        dz = np.asarray(z_choke_ohm, dtype=complex) - self._z0
         return dz * self._ga / (1.0 + dz * self._gb)
 
-    def _scale(self, t: complex, input_power_w: float) -> float:
+    def _scale(self, t: np.ndarray, input_power_w: float) -> np.ndarray:
         v = self._sol.structure.feed_voltage_v
-        p = 0.5 * float(np.real(np.sum(v * np.conj(self._ia - t * self._ib))))
-        return math.sqrt(input_power_w / p)
+        i = self._ia - t[..., None] * self._ib
+        return np.sqrt(input_power_w / (0.5 * np.real(np.sum(v * np.conj(i), axis=-1))))
 
-    def fields_rms(self, z_choke_ohm: complex, input_power_w: float):
-        """E [V/m rms] and H [A/m rms] at the points for ``input_power_w`` [W] delivered, choke ``z_choke_ohm``."""
+    def fields_rms(self, z_choke_ohm, input_power_w: float):
+        """E [V/m rms] and H [A/m rms] at the points for ``input_power_w`` [W] delivered.
+
+        ``z_choke_ohm`` [ohm] may be an array: the results then have its shape followed by (Npoints,).
+        """
         t = self._t(z_choke_ohm)
-        s = self._scale(t, input_power_w)
-        e, h = (self._ea - t * self._eb) * s, (self._ha - t * self._hb) * s
+        s = self._scale(t, input_power_w)[..., None, None]
+        e = (self._ea - t[..., None, None] * self._eb) * s
+        h = (self._ha - t[..., None, None] * self._hb) * s
         return np.sqrt(0.5 * np.sum(np.abs(e) ** 2, axis=-1)), np.sqrt(0.5 * np.sum(np.abs(h) ** 2, axis=-1))
 
     def max_common_mode_a_rms(self, z_choke_ohm: complex, input_power_w: float) -> float:
-        """Largest current on the shield route [A rms] for ``input_power_w`` [W] delivered."""
+        """Largest current on the shield route [A rms] for ``input_power_w`` [W] delivered (one choke value)."""
         t = self._t(z_choke_ohm)
-        c = self._a - t * self._b
+        c = self._a - complex(t) * self._b
         seg = (self._sol.structure.half_to_basis @ c).reshape(-1, 2)[self._route]
-        return float(np.abs(seg).max()) * self._scale(t, input_power_w) / math.sqrt(2)
+        return float(np.abs(seg).max()) * float(self._scale(t, input_power_w)) / math.sqrt(2)
 
 
 #: Choke impedance magnitudes scanned by ``required_choke_ohm`` [ohm] (10 per decade, 1 ohm to 1 Mohm).
@@ -370,7 +374,7 @@ def required_choke_ohm(ratio_at, angle_rad: float = 0.0) -> tuple[float | None, 
     """Smallest choke impedance magnitude [ohm] that brings an exposure ratio to 1 or below.
 
     ``ratio_at(z)`` is the largest exposure ratio at the places of interest with a choke of impedance
-    z [ohm]. The ratio is not monotonic in |z| (a choke and the shield can resonate), so the whole scan
+    z [ohm], evaluated for an array of z (complex ndarray, same-shaped result). The ratio is not monotonic in |z| (a choke and the shield can resonate), so the whole scan
     ``CHOKE_SCAN_OHM`` at the phase ``angle_rad`` is evaluated and the answer is the smallest |z| above
     which every scanned value is at or below 1, refined by Brent's bracketing root finder between the
     last scanned value above 1 and the next one.
@@ -387,11 +391,10 @@ def required_choke_ohm(ratio_at, angle_rad: float = 0.0) -> tuple[float | None, 
     R. P. Brent, Algorithms for Minimization without Derivatives, Prentice-Hall, 1973, Ch. 4 (the
     bracketing root finder, scipy.optimize.brentq).
     """
-    from scipy.optimize import brentq
-
     kind = "resistive" if abs(math.degrees(angle_rad)) < 0.5 else f"phase {math.degrees(angle_rad):+.0f} deg"
-    r0 = ratio_at(0j)
-    r = np.array([ratio_at(m * complex(math.cos(angle_rad), math.sin(angle_rad))) for m in CHOKE_SCAN_OHM])
+    phase = complex(math.cos(angle_rad), math.sin(angle_rad))
+    r0 = float(np.asarray(ratio_at(np.array([0j])))[0])
+    r = np.asarray(ratio_at(CHOKE_SCAN_OHM * phase), dtype=float)
     if r[-1] > 1:
         return None, (f"no {kind} choke up to {CHOKE_SCAN_OHM[-1]:.0e} ohm brings the ratio to 1 (ratio "
                       f"{r[-1]:.3g} with the largest): the antenna's own field or current induced on the "
@@ -401,10 +404,11 @@ def required_choke_ohm(ratio_at, angle_rad: float = 0.0) -> tuple[float | None, 
         if r0 <= 1:
             return 0.0, f"no choke needed: ratio {r0:.3g} without one, and no {kind} choke raises it above 1"
         return float(CHOKE_SCAN_OHM[0]), f"a {kind} choke of {CHOKE_SCAN_OHM[0]:g} ohm or more (ratio {r0:.3g} without one)"
+    from scipy.optimize import brentq   # imported only when a root is needed (slow import)
+
     i = int(over[-1])
     lo, hi = math.log(CHOKE_SCAN_OHM[i]), math.log(CHOKE_SCAN_OHM[i + 1])
-    u = brentq(lambda x: ratio_at(math.exp(x) * complex(math.cos(angle_rad), math.sin(angle_rad))) - 1.0,
-               lo, hi, xtol=1e-4)
+    u = brentq(lambda x: float(np.asarray(ratio_at(np.array([math.exp(x) * phase])))[0]) - 1.0, lo, hi, xtol=1e-4)
     return float(math.exp(u)), (f"{kind} choke magnitude from a scan of 1 ohm to 1 Mohm (10 per decade) and "
                                 "Brent's root finder; smaller values leave some place above the limit")
 
