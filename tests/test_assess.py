@@ -270,6 +270,7 @@ def test_no_places_is_not_evaluated_never_complies(tmp_path):
     assert doc["exposure_verdict"] == "NOT EVALUATED"
     assert "no place" in doc["exposure_reasons"][0]
     assert all(d["dist_m"] > 0 for c in doc["configurations"] for d in c["compliance_distances"])
+    assert doc["exemption"] is None and doc["exemption_case"] == "no_places"   # no separation is known
     table = CliRunner().invoke(app, ["evaluate", str(path)])
     assert "EXPOSURE VERDICT: NOT EVALUATED" in table.stdout and "COMPLIES" not in table.stdout.split(
         "EXPOSURE VERDICT")[1].splitlines()[0]
