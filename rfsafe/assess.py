@@ -920,8 +920,11 @@ def assess_with_emitters(loaded: LoadedStation, *, today: dt.date | None = None,
         "Gain: peak gain toward every place unless an antenna opts in to its pattern (use_pattern = true); "
         "inside the near field the peak gain is used even then. Beam patterns below the antenna: at least 1/2 of "
         "the peak gain x sin^2(depression) (-3 dB straight down), a conservative downward lobe.",
-        "Compliance distances use peak gain and the far-field prediction, for each environment's limit.",
-        "Places closer than lambda/2pi (or 2D^2/lambda for an aperture) are flagged: far-field estimate.",
+        "Compliance distances use peak gain and the far-field prediction, for each environment's limit, and are "
+        "measured from the nearest part of the antenna.",
+        "Distances are to the nearest part of each antenna's radiating structure (wire geometry, textbook element "
+        "sizes, a beam's elements and boom, or a stated assumed size; each result names it); places closer than "
+        "lambda/2pi (or 2D^2/lambda for an aperture) are flagged: far-field estimate.",
         f"Line loss model: {'; '.join(loss_models)}.",
         f"Limits: {info.name}; averaging times as the standard gives them per environment.",
     )
