@@ -23,7 +23,7 @@ from __future__ import annotations
 from collections.abc import Iterable
 
 __all__ = ["STATES", "MARKERS", "LEGEND", "NOT_CONFIRMED", "state_of", "marker", "weakest", "summary_line",
-           "figure_checks"]
+           "figure_checks", "count_line"]
 
 #: Machine-readable states, strongest first.
 STATES = ("published text", "reproduction", "partly", "not confirmed")
@@ -138,3 +138,11 @@ def figure_checks(configurations, places=(), exemption=None) -> tuple:
                              source=found[(k, f)]["source"], verification=found[(k, f)]["verification"],
                              state=state_of(found[(k, f)]["verification"]))
                  for k, f in keys)
+
+
+def count_line(checks) -> str:
+    """One line for terminals: how many of the published figures used were read, and where."""
+    counts = {s: sum(1 for f in checks if f.state == s) for s in STATES}
+    return (f"published figures used: {counts['published text']} read in the text, {counts['reproduction']} in a "
+            f"reproduction, {counts['partly']} partly, {counts['not confirmed']} not confirmed "
+            "(--json: data_verification)")

@@ -135,3 +135,14 @@ def test_progress_bar_draws_on_stderr_for_large_grids(capsys):
     err = capsys.readouterr().err
     assert f"\rgrid [############-------------]  50% of {n} points" in err
     assert err.endswith(f"\rgrid [#########################] 100% of {n} points\n")
+
+
+def test_demo_json_says_which_published_figures_were_checked(demo_json):
+    # every limit row, duty factor and cable figure the review used, with its verification state
+    # (rfsafe.verification); 47 CFR 1.1310 Table 1 was read in the eCFR text, the "digital" duty factor
+    # is common practice (not confirmed)
+    checks = demo_json["data_verification"]
+    states = {(f["kind"], f["figure"].split(":")[0]): f["state"] for f in checks}
+    assert all(f["state"] == "published text" for f in checks if f["kind"] == "limit")
+    assert states[("duty factor", "digital")] == "not confirmed"
+    assert states[("duty factor", "cw")] == "reproduction"

@@ -100,14 +100,10 @@ def render_evaluation(res) -> str:
 
 def _verification_lines(res) -> str:
     """Legend of the check markers (duty, ratio: its limit, least headroom: its rating) and a count."""
-    from rfsafe.verification import LEGEND, STATES
+    from rfsafe.verification import LEGEND, count_line
 
-    counts = {s: sum(1 for f in res.data_verification if f.state == s) for s in STATES}
     return ("markers after duty, ratio (its limit) and least headroom (its rating): "
-            f"{LEGEND.removeprefix('check: ')}\n"
-            f"published figures used: {counts['published text']} read in the text, {counts['reproduction']} in a "
-            f"reproduction, {counts['partly']} partly, {counts['not confirmed']} not confirmed "
-            "(--json: data_verification)")
+            f"{LEGEND.removeprefix('check: ')}\n{count_line(res.data_verification)}")
 
 
 def evaluate(file: Path = typer.Argument(..., help="Station file (.toml)."),

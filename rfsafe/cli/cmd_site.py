@@ -62,6 +62,9 @@ def render_site(res) -> str:
         ["area", "kind", "limit checked", "worst unc", "worst ctl", "points over", "mostly from",
          "near-field pts", "verdict"], rows, align="lllrrrlrl",
         title="Areas: worst total exposure ratio (1 = limit)"))
+    from rfsafe.verification import count_line
+
+    out.append(count_line(res.data_verification))
     out.append("")
     out.append(f"EXPOSURE VERDICT: {res.exposure_verdict}")
     out.extend(f"  - {line}" for line in res.exposure_reasons)

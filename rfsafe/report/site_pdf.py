@@ -226,6 +226,9 @@ def _method(res) -> list:
     out = [CondPageBreak(50 * mm), section_heading("6", "Method and assumptions")]
     for note in res.method_notes:
         out.append(Paragraph(escape(note), styles()["bullet"], bulletText="•"))
+    from rfsafe.report.worksheet import _verification   # the published figures used, checked or not
+
+    out.extend(_verification(res, frame_width()))
     return out
 
 

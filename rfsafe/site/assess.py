@@ -16,6 +16,7 @@ from rfsafe.site.analysis import (
 from rfsafe.site.constants import ENVIRONMENTS, ROPE_STEP_M
 from rfsafe.site.geometry import Area, points_in_polygon
 from rfsafe.site.grid import SiteEmitter
+from rfsafe.verification import figure_checks
 
 #: Cautions specific to event sites, printed after the general ones.
 SITE_CAUTIONS = (
@@ -83,6 +84,9 @@ class SiteResult:
     emitters: tuple = field(default=(), repr=False)
     grid: SiteGrid | None = field(default=None, repr=False)
     remedies: tuple = ()               # rfsafe.results.SiteRemedy per violation and transmitter (rfsafe.remedies)
+    #: every published figure the review used (limits, duty factors, cables ...), and whether it was read
+    #: in its published text (rfsafe.verification)
+    data_verification: tuple = ()
 
     @property
     def verdict(self) -> str:
@@ -271,4 +275,5 @@ def assess_site(loaded_site, *, today=None, progress: Callable[[int, int], None]
         keep_out_points=analysis.keep_out_points, exceeded=tuple(exceeded),
         **_site_verdicts(analysis, stations), method_notes=notes,
         flags=tuple(dict.fromkeys(flags + list(analysis.flags))), cautions=tuple(CAUTIONS) + SITE_CAUTIONS,
-        emitters=tuple(ems), grid=g)
+        emitters=tuple(ems), grid=g,
+        data_verification=figure_checks([c for s in stations for c in s.configurations]))
