@@ -129,7 +129,7 @@ class Tuner(_Strict):
     capacitor_range_pf: list[float] | None = Field(
         default=None, min_length=2, max_length=2, description="The tuner's capacitor range [min, max] [pF].")
     inductor_range_uh: list[float] | None = Field(
-        default=None, min_length=2, max_length=2, description="The tuner's inductor range [min, max] [uH]."),
+        default=None, min_length=2, max_length=2, description="The tuner's inductor range [min, max] [uH].")
     inductor_q: float = Field(default=100.0, gt=0, description="Unloaded Q of the inductor (loss).")
     capacitor_v_peak_rating: float | None = Field(default=None, gt=0, description="Capacitor rating [V peak].")
     inductor_a_rms_rating: float | None = Field(default=None, gt=0, description="Inductor rating [A rms].")
