@@ -31,8 +31,8 @@ def report(file: Path = typer.Argument(..., help="Station file (.toml)."),
     limit is exceeded at some place; 4 exposure complies but a rating is exceeded; 5 no place was
     evaluated; 2 bad input; 3 internal error.
     """
-    from rfsafe.assess import assess
     from rfsafe.fileio import OutputSet
+    from rfsafe.remedies import with_answers
     from rfsafe.report.worksheet import build_worksheet_pdf
     from rfsafe.station import load_station
 
@@ -40,7 +40,7 @@ def report(file: Path = typer.Argument(..., help="Station file (.toml)."),
     out = output if output is not None else default_output(file)
     # every output path is checked before the evaluation: a bad -o fails fast
     with OutputSet([("-o", out)], inputs=loaded.input_paths(), force=force) as outputs:
-        res = assess(loaded)
+        res = with_answers(loaded)
         outputs.write_bytes("-o", build_worksheet_pdf(res))
     typer.echo(f"{res.verdict}: worksheet written to {out}")
     raise typer.Exit(res.exit_code)

@@ -736,6 +736,9 @@ def worksheet_story(result, *, extra_figures=()) -> list:
     story += _method(result, width)
     story += _configurations(result, width)
     story += _places(result, width, numbers)
+    from rfsafe.report.answers import answers_section
+
+    story += answers_section(result, width)
     story += _line_stress(result, width)
     story += _wire_loads_and_shields(result, width)
     story += _figures(result, width, numbers, list(extra_figures))
