@@ -143,3 +143,15 @@ def test_help_and_module_imports_only_typer_and_stdlib():
             "print(any(m in sys.modules for m in ('numpy', 'pandas', 'rfsafe.limits')))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == "False"
+
+
+def test_each_row_says_whether_it_was_read_in_the_published_text():
+    # 47 CFR 1.1310 Table 1 was read in the eCFR text; IEEE C95.1-2019 could not be read at all
+    fcc = entries("fcc", "14.2")
+    assert all(e["limit_verification"].startswith("read in 47 CFR 1.1310(e)(1), Table 1") for e in fcc)
+    assert all(e["limit_verification"] == "not confirmed" for e in entries("ieee2019", "14.2"))
+    result = run("fcc", "14.2")
+    assert "[1] T 47 CFR 1.1310(e)(1) Table 1" in result.stdout
+    assert "T = read in the published text" in " ".join(result.stdout.split())
+    r = run("ieee2019", "14.2")
+    assert "rows marked '?' (not confirmed)" in " ".join(r.stderr.split())

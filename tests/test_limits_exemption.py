@@ -249,3 +249,13 @@ def test_bad_input_messages(bad, message):
     with pytest.raises(InputError) as err:
         fcc_exemption(bad)
     assert str(err.value) == message
+
+
+def test_fcc_1307_b3_ii_sum_of_fractions_exactly_one_is_exempt():
+    # 47 CFR 1.1307(b)(3)(ii)(B) (READ): exempt when the sum of fractions is <= 1. Two sources at
+    # 144.2 MHz, R = 2 m (threshold 3.83 R^2 = 15.32 W), each at half the threshold ERP: sum exactly 1.
+    half = 3.83 * 2.0**2 / 2
+    res = fcc_exemption([src(144.2, half, 2.15, 2.0, "a"), src(144.2, half, 2.15, 2.0, "b")])
+    assert res.sum_of_fractions == 1.0 and res.exempt
+    res = fcc_exemption([src(144.2, half * 1.001, 2.15, 2.0, "a"), src(144.2, half, 2.15, 2.0, "b")])
+    assert not res.exempt
