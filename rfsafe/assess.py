@@ -168,6 +168,22 @@ def _wire_loads(solution, pep_ant: float) -> tuple:
     return load_stress(solution, pep_ant)
 
 
+class _LoadParts:
+    """A wire antenna's lumped loads as rated parts (peak voltage at the PEP), for the equipment verdict."""
+
+    def __init__(self, loads):
+        from rfsafe.feedline.stress import PartStress
+
+        self.part_stresses = tuple(
+            PartStress(f"load {ld.label}", "voltage_v_peak", float(ld.voltage_v_peak), ld.voltage_rating_v_peak,
+                       "V peak", ld.voltage_headroom, None, "no SWR search for antenna loads",
+                       ld.voltage_headroom is not None and ld.voltage_headroom < 1,
+                       "declared voltage_rating_v_peak" if ld.voltage_rating_v_peak else "",
+                       "not rated" if ld.voltage_headroom is None else (
+                           "EXCEEDED" if ld.voltage_headroom < 1 else "ok"))
+            for ld in loads)
+
+
 def _route_distance_m(solution, place, heights) -> float:
     """Distance [m] from a place (any body height) to the modelled feedline shield."""
     from rfsafe.antenna.wire.geometry import point_segment_distances
@@ -967,7 +983,9 @@ def _verdicts(configs, places) -> dict:
         if estimated:
             why.append("far-field estimate inside the near field at " + ", ".join(repr(e) for e in estimated)
                        + ": confirm by near-field analysis or measurement")
-    equipment, reasons = equipment_verdict([(f"configuration {c.id}", c.line) for c in configs])
+    equipment, reasons = equipment_verdict([(f"configuration {c.id}", c.line) for c in configs]
+                                           + [(f"configuration {c.id}", _LoadParts(c.loads)) for c in configs
+                                              if c.loads])
     return dict(exposure_verdict=exposure, exposure_reasons=tuple(why), equipment_verdict=equipment,
                 equipment_reasons=reasons)
 
