@@ -2,6 +2,7 @@
 
 from pathlib import Path
 
+import pytest
 from pypdf import PdfReader
 from typer.testing import CliRunner
 
@@ -31,3 +32,26 @@ def test_site_without_wire_antennas_has_no_near_field_section(tmp_path):
     assert result.exit_code in (0, 1)
     text = "\n".join(page.extract_text() for page in PdfReader(str(out)).pages)
     assert "Near-field maps" not in text
+
+
+def test_site_grid_flags_points_near_any_part_of_a_wire_as_near_field(tmp_path):
+    # The site grid measures from the declared position; a wire antenna's near-field boundary holds from
+    # any part of its wires (issue 10: never from a reference point). A 20.1 m dipole declared at its
+    # centre, 7.1 MHz: boundary max(lambda/2pi, 2 D^2/lambda) = 2 x 20.1^2 / 42.2 = 19.1 m (Balanis,
+    # Antenna Theory, Sec. 2.2.4). A point 15 m beyond one end (25 m from the centre) must be flagged.
+    import numpy as np
+
+    from rfsafe.site import load_site, ratio_grid, site_emitters
+
+    text = SITE.read_text().replace(
+        "points_m = [[0.0, 0.0, 0.0], [0.0, 0.0, 5.0]]", "points_m = [[-10.05, 0.0, 8.0], [10.05, 0.0, 8.0]]"
+    ).replace("position = 0.0", "position = 0.5").replace('ground = "perfect"', 'ground = "free-space"').replace(
+        "height_m = 2.5", "height_m = 8.0").replace("freq_mhz = 14.1", "freq_mhz = 7.1")
+    path = tmp_path / "dipole_site.toml"
+    path.write_text(text, encoding="utf-8")
+    ems, _, _ = site_emitters(load_site(path))
+    (em,) = ems
+    boundary = 2 * 20.1 ** 2 / (299.792458 / 7.1)
+    assert em.near_field_m == pytest.approx(10.05 + boundary, rel=1e-3)
+    beyond_end = ratio_grid(ems, [20.0 + 10.05 + 15.0], [15.0], [8.0])
+    assert bool(beyond_end.near_field[0])

@@ -159,6 +159,13 @@ def site_emitters(loaded_site) -> tuple[list[SiteEmitter], list[SiteStationResul
                 from rfsafe.antenna.extent import farthest_distance_m
 
                 nf += farthest_distance_m(em.extent, (em.x_m, em.y_m, em.height_m))
+            elif em.solution is not None:
+                # a wire antenna's boundary holds from any part of its solved wires: widen it by their
+                # farthest point from the declared position, so every point near any wire is flagged
+                import numpy as np
+
+                nodes = np.concatenate([em.solution.structure.start_m, em.solution.structure.end_m])
+                nf += float(np.linalg.norm(nodes - np.array([em.x_m, em.y_m, em.height_m]), axis=1).max())
             power = tuple(em.avg_power_at_antenna_w[e] for e in ENVIRONMENTS)
             limit = tuple(limit_equivalent_w_m2(em.limits[e], em.avg_power_at_antenna_w[e], em.pep_at_antenna_w)
                           for e in ENVIRONMENTS)
