@@ -10,9 +10,15 @@ from rfsafe.cli.output import compact_number
 from rfsafe.errors import bad_value
 
 
+#: Methods as the 100-column exposure table names them (the full name is in --wide, JSON and CSV).
+_SHORT_METHOD = {"far-field estimate": "far field", "far-field estimate (>= moment method)": "far field (>= MoM)",
+                 "near-field (moment method)": "MoM near field",
+                 "near-field (moment method, spatial average over body heights)": "MoM, body average"}
+
+
 def render_evaluation(res) -> str:
     """Human-readable tables of an EvaluationResult."""
-    from rfsafe.cli.output import format_table
+    from rfsafe.cli.output import format_table, is_narrow
     from rfsafe.verification import marker
 
     out = []
@@ -24,6 +30,7 @@ def render_evaluation(res) -> str:
              f"input: {res.input_file} sha256 {res.input_sha256[:16]}..."]
     out.append("  " + "\n  ".join(ident))
     out.append("")
+    narrow = is_narrow()   # fitted to 100 columns: feet, E, H and the environment column only with --wide
     rows = []
     for c in res.configurations:
         dist = {d.environment: d for d in c.compliance_distances}
@@ -32,24 +39,35 @@ def render_evaluation(res) -> str:
                      f"{c.transmit_fraction['controlled']:.2f}/{c.transmit_fraction['uncontrolled']:.2f}",
                      compact_number(c.avg_power_w["uncontrolled"]), f"{c.line_loss_db:.2f}", f"{c.gain_dbi:.2f}",
                      compact_number(c.eirp_w["uncontrolled"]),
-                     f"{dist['controlled'].dist_m:.2f} ({dist['controlled'].dist_ft:.1f})",
-                     f"{dist['uncontrolled'].dist_m:.2f} ({dist['uncontrolled'].dist_ft:.1f})"])
+                     *((f"{dist['controlled'].dist_m:.2f}", f"{dist['uncontrolled'].dist_m:.2f}") if narrow else
+                       (f"{dist['controlled'].dist_m:.2f} ({dist['controlled'].dist_ft:.1f})",
+                        f"{dist['uncontrolled'].dist_m:.2f} ({dist['uncontrolled'].dist_ft:.1f})"))])
     out.append(format_table(
         ["configuration", "MHz", "mode", "PEP W", "duty", "fill ctl/unc", "avg W unc", "loss dB",
-         "gain dBi", "EIRP W unc", "ctl dist m (ft)", "unc dist m (ft)"], rows, align="lrlrrrrrrrrr",
+         "gain dBi", "EIRP W unc", *(("ctl dist m", "unc dist m") if narrow else
+                                     ("ctl dist m (ft)", "unc dist m (ft)"))], rows, align="lrlrrrrrrrrr",
         title="Configurations (average power after duty factor and averaging-window fill; peak gain)"))
     out.append("")
     if res.places:
         rows = []
         for p in res.places:
             for x in p.exposures:
-                rows.append([p.label, p.environment, x.configuration, f"{x.dist_m:.2f}",
-                             compact_number(x.power_density_w_m2), compact_number(x.e_field_v_m), compact_number(x.h_field_a_m),
-                             f"{compact_number(x.exposure_ratio)} {marker(x.limit_verification)}",
-                             f"{x.margin_db:+.1f}", x.method + (" [INSIDE NEAR FIELD]" if x.inside_near_field and x.near_field_ratio is None else "")])
-        out.append(format_table(["place", "environment", "configuration", "dist m", "S W/m2", "E V/m",
-                                 "H A/m", "ratio", "margin dB", "method"], rows, align="lllrrrrrrl",
-                                title="Exposure at each place from each configuration"))
+                unchecked = x.inside_near_field and x.near_field_ratio is None
+                row = [p.label, p.environment, x.configuration, f"{x.dist_m:.2f}",
+                       compact_number(x.power_density_w_m2), compact_number(x.e_field_v_m), compact_number(x.h_field_a_m),
+                       f"{compact_number(x.exposure_ratio)} {marker(x.limit_verification)}",
+                       f"{x.margin_db:+.1f}", x.method + (" [INSIDE NEAR FIELD]" if unchecked else "")]
+                if narrow:
+                    short = _SHORT_METHOD.get(x.method, x.method)
+                    row = row[:1] + row[2:5] + row[7:9] + [short + (" (!)" if unchecked else "")]
+                rows.append(row)
+        heads = ["place", "environment", "configuration", "dist m", "S W/m2", "E V/m", "H A/m", "ratio",
+                 "margin dB", "method"]
+        out.append(format_table(heads[:1] + heads[2:5] + heads[7:] if narrow else heads, rows,
+                                align="llrrrrl" if narrow else "lllrrrrrrl", keys=2 if narrow else 1,
+                                title="Exposure at each place from each configuration"
+                                      + (" (E, H and the environment: --wide; (!) inside the near field, "
+                                         "far-field estimate not valid there)" if narrow else "")))
         out.append("")
         rows = []
         for p in res.places:

@@ -16,7 +16,7 @@ from collections.abc import Mapping, Sequence
 from typing import Any
 
 __all__ = ["to_jsonable", "dump_json", "print_json", "format_table", "compact_number", "warn", "fit_text",
-           "set_wide", "TERMINAL_COLUMNS"]
+           "set_wide", "is_narrow", "TERMINAL_COLUMNS"]
 
 #: Width tables and text are fitted to unless ``--wide`` is given [columns].
 TERMINAL_COLUMNS = 100
@@ -27,6 +27,11 @@ def set_wide(wide: bool) -> None:
     """``--wide``: print tables and text at their full width instead of fitting them to 100 columns."""
     global _width
     _width = None if wide else TERMINAL_COLUMNS
+
+
+def is_narrow() -> bool:
+    """True when output is fitted to :data:`TERMINAL_COLUMNS` (no ``--wide``): renderers may leave out detail."""
+    return _width is not None
 
 
 def fit_text(text: str, width: int | None = None) -> str:
