@@ -389,6 +389,11 @@ class SiteRemedy:
     text: str
 
 
+#: Why a quick answer's largest PEP can be infinite (``rfsafe ask --json`` prints it beside the null).
+QuickAnswer.NONFINITE_NOTES = {"largest_pep_w": "no power up to a million times the asked PEP reaches the limit "
+                                                "at the distance"}
+
+
 @dataclass(frozen=True)
 class EvaluationResult:
     """The whole evaluation of one station file."""
