@@ -32,3 +32,18 @@ def test_worksheet_without_answers_has_no_such_section(tmp_path):
 
     text = _text(build_worksheet_pdf(assess(load_station(path))))
     assert "What would make it comply" not in text
+
+
+def test_site_pdf_lists_what_clears_each_violation():
+    import dataclasses
+    from pathlib import Path
+
+    from rfsafe.remedies import site_remedies
+    from rfsafe.report.site_pdf import build_site_pdf
+    from rfsafe.site import assess_site, load_site
+
+    res = assess_site(load_site(Path(__file__).parent.parent / "reports_demo" / "event_field_day.toml"))
+    res = dataclasses.replace(res, remedies=site_remedies(res))
+    text = " ".join(_text(build_site_pdf(res)).split())
+    assert "What would clear each violation" in text
+    assert any(r.transmitter in text for r in res.remedies)

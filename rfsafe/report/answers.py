@@ -10,7 +10,7 @@ from reportlab.platypus import Paragraph
 
 from rfsafe.report.common import data_table, num, p, section_heading, styles
 
-__all__ = ["answers_section"]
+__all__ = ["answers_section", "site_answers_section"]
 
 
 def _esc(text: str) -> str:
@@ -50,4 +50,15 @@ def answers_section(res, width: float) -> list:
                                                                                        "schedule_on_minutes"):
                         out.append(Paragraph(_esc(f"{cr.configuration}: {r.text}"), styles()["small"],
                                              bulletText="·"))
+    return out
+
+
+def site_answers_section(res) -> list:
+    """The site review's remedies: per violation and station, the power cut or the move that clears it."""
+    if not getattr(res, "remedies", ()):
+        return []
+    out = [p("What would clear each violation (one station changed at a time, the others as they are; solved with "
+             "the review's own grid evaluation):", "lead")]
+    for r in res.remedies:
+        out.append(Paragraph(_esc(r.text), styles()["small"], bulletText="·"))
     return out

@@ -237,6 +237,9 @@ def site_story(res) -> list:
     width = frame_width()
     story = []
     story += _identity(res, width)
+    from rfsafe.report.answers import site_answers_section
+
+    story += site_answers_section(res)
     story += _stations(res, width)
     story += _areas(res, width)
     story += _map(res)
