@@ -26,6 +26,12 @@ def text_of(data: bytes) -> str:
     return " ".join(" ".join(page.extract_text() for page in reader.pages).split())
 
 
+def dist2(x: float) -> str:
+    """The worksheet's printed precision of a distance, written independently: centimetres below 10 m,
+    decimetres below 100 m."""
+    return f"{x:.2f}" if x < 10 else (f"{x:.1f}" if x < 100 else f"{x:.0f}")
+
+
 def sig3(x: float) -> str:
     """The worksheet's printed precision, written independently: 3 significant digits, exponent form
     below 1e-3."""
@@ -52,7 +58,7 @@ def test_identity_block(demo):
 
 def test_sections_in_order(demo):
     _, _, text = demo
-    heads = ["2 Method and assumptions", "3 Configurations", "3.1 Compliance distances", "4 Places",
+    heads = ["1 The station", "1.1 Antennas", "1.2 Places", "1.3 Plan", "2 Method and assumptions", "3 Configurations", "3.1 Compliance distances", "4 Places",
              "5 Line and tuner stress", "6 Figures", "7 Cautions", "8 Sign-off"]
     positions = [text.index(h) for h in heads]
     assert positions == sorted(positions)
@@ -66,7 +72,9 @@ def test_every_place_with_its_total_and_each_configuration_ratio(demo):
                f"{sig3(pl.total_ratio)} {pl.total_margin_db:+.1f} {pl.verdict.upper()}")
         assert row in text, row
         for x in pl.exposures:
-            cells = f"{x.configuration} {x.dist_m:.2f} {x.gain_dbi:.2f} {x.gain_method} {sig3(x.power_density_w_m2)}"
+            # the gain's method in one word ("peak" or "pattern"); any detail goes to a numbered note
+            how = x.gain_method.split(",")[0]
+            cells = f"{x.configuration} {dist2(x.dist_m)} {x.gain_dbi:.2f} {how} {sig3(x.power_density_w_m2)}"
             assert cells in text, cells
             assert f"{sig3(x.exposure_ratio)} {x.margin_db:+.1f}" in text
 
@@ -75,7 +83,7 @@ def test_compliance_distances_in_m_and_ft(demo):
     res, _, text = demo
     for c in res.configurations:
         for d in c.compliance_distances:
-            row = f"{c.id} {d.environment} {d.dist_m:.2f} {d.dist_ft:.1f}"
+            row = f"{c.id} {d.environment} {dist2(d.dist_m)} ({d.dist_ft:.1f} ft)"
             assert row in text, row
 
 
@@ -87,7 +95,91 @@ def test_method_cautions_and_flags(demo):
         assert caution in text
     for c in res.configurations:
         for f in c.flags:
-            assert f"configuration {c.id}: {f}" in text
+            # each flag once, naming its configuration (the near-field distance flags of all configurations
+            # share one line that lists each configuration's distances)
+            m = re.match(r"(controlled|uncontrolled) compliance distance ([0-9.]+) m (\(from [^)]*\) )?lies inside", f)
+            if m:
+                assert f"Compliance distance inside the near-field boundary" in text
+                assert re.search(rf"{re.escape(c.id)}( \(from [^)]*\))?: [^;]*{m.group(1)} {m.group(2)} m", text), (c.id, f)
+            else:
+                assert f in text and c.id in text
+
+
+def test_each_flag_printed_once(demo):
+    res, _, text = demo
+    flags_part = text[text.index("Flags raised by this evaluation"):text.index("8 Sign-off")]
+    assert flags_part.count("near-field analysis or measurement recommended") <= 2   # one grouped line + places
+
+
+def test_station_section_antennas_places_and_plan(demo):
+    res, data, text = demo
+    for a in res.antennas:
+        assert f"{a.id} {a.kind}" in text
+        assert a.size_basis.split(":")[0] in text
+    # the dipole's extent is a textbook half wave at its lowest frequency, drawn broadside to its azimuth
+    dipole = next(a for a in res.antennas if a.id == "dipole-40m")
+    from rfsafe.units import wavelength_m
+    assert dipole.size_m == pytest.approx(wavelength_m(7.03e6) / 2)        # common practice: lambda/2 dipole
+    (x1, y1, _), (x2, y2, _) = dipole.segments_m[0]
+    assert y1 == y2 == dipole.y_m and x2 - x1 == pytest.approx(dipole.size_m)   # azimuth 0: wire runs east-west
+    for pl in res.places:
+        assert pl.why and " ".join(pl.why.split()) in text
+    assert "Call sign DEMO-1 (invented)" in text and "1 Example Lane, Demo Town (invented)" in text
+    # the plan is the one raster image of this worksheet (the other figures are vector graphics)
+    reader = pypdf.PdfReader(io.BytesIO(data))
+    assert sum(len(page.images) for page in reader.pages) == 1
+
+
+def test_place_without_why_says_so(tmp_path):
+    station = tmp_path / "nowhy.toml"
+    station.write_text(re.sub(r"(?m)^why = .*$", "", DEMO.read_text()))
+    text = text_of(build_worksheet_pdf(assess(load_station(station))))
+    assert "not stated in the station file" in text
+
+
+def test_standard_override_is_recorded():
+    res = assess(load_station(DEMO, standard="icnirp2020"))
+    assert res.standard_overridden and res.file_standard == "fcc"
+    text = text_of(build_worksheet_pdf(res))
+    assert "overriding the station file's own standard [fcc]" in text
+    own = assess(load_station(DEMO))
+    assert not own.standard_overridden
+    assert "overriding" not in text_of(build_worksheet_pdf(own))
+
+
+def test_icnirp_prints_no_power_density_where_it_defines_none():
+    # ICNIRP 2020 Table 5 sets E and H only below 30 MHz (from memory): no S is printed for those rows
+    res = assess(load_station(DEMO, standard="icnirp2020"))
+    text = text_of(build_worksheet_pdf(res))
+    undefined = [x for pl in res.places for x in pl.exposures if x.power_density_limit_w_m2 is None]
+    assert undefined
+    part = text[text.index("4.2 Exposure at each place"):]
+    for x in undefined:
+        how = x.gain_method.split(",")[0]
+        assert f"{x.configuration} {dist2(x.dist_m)} {x.gain_dbi:.2f} {how} not defined" in part
+
+
+def test_sc6_shows_nerve_stimulation_beside_the_time_averaged_limit():
+    res = assess(load_station(DEMO, standard="sc6"))
+    text = text_of(build_worksheet_pdf(res))
+    low = [c for c in res.configurations if c.freq_mhz < 10]      # SC6 nerve stimulation applies below 10 MHz
+    assert low and all(len(c.limit_distances) > len(c.compliance_distances) for c in low)
+    assert "3.2 Nerve stimulation and time-averaged limits" in text
+    for c in low:
+        for d in c.limit_distances:
+            if d.limit_basis == "instantaneous":
+                assert (f"{c.id} {d.environment} nerve stimulation (instantaneous, field at PEP)" in text)
+
+
+def test_horizontal_distances_follow_pythagoras(demo):
+    # far field, peak gain: ratio 1 at 3-D distance d, so along a level dz below the antenna the
+    # horizontal distance is sqrt(d^2 - dz^2) (closed form, OET Bulletin 65 section 2 geometry)
+    from rfsafe.exposure import horizontal_compliance_distance_m, ratio_at_horizontal_distance
+
+    assert float(horizontal_compliance_distance_m(5.0, 3.0)) == pytest.approx(4.0)
+    assert float(horizontal_compliance_distance_m(2.0, 3.0)) == 0.0
+    assert float(ratio_at_horizontal_distance(5.0, 4.0, 3.0)) == pytest.approx(1.0)
+    assert float(ratio_at_horizontal_distance(5.0, 0.0, 2.5)) == pytest.approx(4.0)
 
 
 def test_line_stress_numbers(demo):

@@ -389,8 +389,21 @@ def cautions_block(cautions, flags=()) -> list:
     return out
 
 
-_NEAR_DIST = re.compile(r"^(controlled|uncontrolled) compliance distance ([0-9.]+) m lies inside the "
-                        r"near-field boundary ([0-9.]+) m: (.*)$")
+_NEAR_DIST = re.compile(r"^(controlled|uncontrolled) compliance distance ([0-9.]+) m(?: \((from [^)]*)\))? lies "
+                        r"inside the near-field boundary ([0-9.]+) m: (.*)$")
+
+
+_NUMBER_IN = re.compile(r"\d")
+_NEAR_PLACE = re.compile(r"^([0-9.]+) m from (.+?) is inside the near-field boundary ([0-9.]+) m: (.*)$")
+
+
+def _subjects(subjects) -> str:
+    """``configuration a, configuration b`` -> ``configurations a, b`` (the kind said once)."""
+    kinds = {s.split(" ", 1)[0] for s in subjects}
+    if len(subjects) > 1 and len(kinds) == 1 and all(" " in s for s in subjects):
+        kind = kinds.pop()
+        return f"{kind}s " + ", ".join(s.split(" ", 1)[1] for s in subjects)
+    return ", ".join(subjects)
 
 
 def grouped_flags(items) -> list[str]:
@@ -400,17 +413,31 @@ def grouped_flags(items) -> list[str]:
     every subject; the per-environment "compliance distance inside the near-field boundary" flags
     of all configurations become one line that lists each configuration's distances.
     """
-    near: dict[str, list] = {}
-    near_tail = ""
+    near: dict[str, dict[str, list]] = {}
+    inside: dict[str, dict[str, list[str]]] = {}
     texts: dict[str, list[str]] = {}
     order: list[str] = []
     for subject, text in items:
         m = _NEAR_DIST.match(text)
+        if m and not _NUMBER_IN.search(m.group(5)):    # the same conclusion for every configuration: one line
+            env, d, basis, boundary, tail = m.groups()
+            if tail not in near:
+                near[tail] = {}
+                order.append("\0near" + tail)
+            who = f"{subject} ({basis})" if basis else subject
+            near[tail].setdefault(who, [boundary]).append(f"{env} {d} m")
+            continue
+        m = _NEAR_PLACE.match(text)
         if m:
-            env, d, boundary, near_tail = m.groups()
-            if not near:
-                order.append("\0near")
-            near.setdefault(subject, [boundary]).append(f"{env} {d} m")
+            d, antenna, boundary, how = m.groups()
+            how = "solved with the moment-method solver; the near-field result governs" if how.startswith(
+                "evaluated with the moment-method") else how
+            if how not in inside:
+                inside[how] = {}
+                order.append("\0inside" + how)
+            seen = inside[how].setdefault(subject, {})
+            old_d, old_b = seen.get(antenna, (d, boundary))
+            seen[antenna] = (old_d, max(old_b, boundary, key=float))   # one entry per antenna, widest boundary
             continue
         if text not in texts:
             texts[text] = []
@@ -419,12 +446,17 @@ def grouped_flags(items) -> list[str]:
             texts[text].append(subject)
     out = []
     for key in order:
-        if key == "\0near":
-            parts = "; ".join(f"{subj}: {', '.join(v[1:])} (boundary {v[0]} m)" for subj, v in near.items())
-            out.append(f"Compliance distance inside the near-field boundary ({near_tail}): {parts}.")
+        if key.startswith("\0near"):
+            tail = key[len("\0near"):]
+            parts = "; ".join(f"{subj}: {', '.join(v[1:])} (boundary {v[0]} m)" for subj, v in near[tail].items())
+            out.append(f"Compliance distance inside the near-field boundary ({tail}): {parts}.")
+        elif key.startswith("\0inside"):
+            how = key[len("\0inside"):]
+            parts = "; ".join(f"{subj}: " + ", ".join(f"{a} at {d} m (boundary {b} m)" for a, (d, b) in v.items())
+                              for subj, v in inside[how].items())
+            out.append(f"Inside an antenna's near-field boundary ({how}): {parts}.")
         else:
-            subjects = texts[key]
-            out.append(f"{', '.join(subjects)}: {key}")
+            out.append(f"{_subjects(texts[key])}: {key}")
     return out
 
 

@@ -42,6 +42,7 @@ _FIG_W_IN = 7.0               # 178 mm: the worksheet frame is 180 mm wide, so t
 _MAP_MAX_W_IN = 5.1
 _MAP_MAX_H_IN = 3.4
 _DPI = 160
+_MAP_MAX_PRINT_H = 98 * 2.8346   # printed height of a map with its legend [pt] (98 mm)
 
 
 def has_near_field_maps(res) -> bool:
@@ -78,7 +79,7 @@ def near_field_comparison_section(res, width: float, numbers: dict, number: str)
     pairs = comparison_exposures(res)
     if not pairs:
         return []
-    boundary = {c.id: c.near_field_distance_m for c in res.configurations}
+    boundary = {c.id: max(c.near_field_distance_m, c.aperture_far_field_m or 0.0) for c in res.configurations}
     rows = []
     for pl, x in pairs:
         rows.append([f"{numbers[pl.label]} {pl.label}", x.configuration, f"{x.dist_m:.2f}",
@@ -86,12 +87,13 @@ def near_field_comparison_section(res, width: float, numbers: dict, number: str)
                      ratio_text(x.near_field_ratio), _difference_db(x.near_field_ratio, x.far_field_ratio),
                      _governs(x), x.method])
     out = [section_heading(number, "Near-field result beside the far-field estimate", level=1),
-           p("Places inside λ/2π of a wire antenna: the far-field formula is not valid there, so rfsafe also "
+           p("Places inside the near-field boundary of a wire antenna (λ/2π, or 2D²/λ where the antenna is larger): "
+             "the far-field formula is not valid there, so rfsafe also "
              "solves the antenna with the method of moments and evaluates the fields at the place's body "
-             "heights (worst height). The near-field result governs inside λ/2π. Difference = "
+             "heights (worst height). The near-field result governs inside that boundary. Difference = "
              "10 log10(near-field ratio / far-field ratio): positive where the far-field estimate understated "
              "the exposure.", "small")]
-    out.append(data_table(["place", "configuration", "distance m", "λ/2π m", "far-field ratio",
+    out.append(data_table(["place", "configuration", "distance m", "boundary m", "far-field ratio",
                            "near-field ratio", "difference dB", "governs", "method"], rows,
                           [29 * mm, 22 * mm, 13 * mm, 11 * mm, 14 * mm, 15 * mm, 14 * mm, 25 * mm,
                            width - 143 * mm], align="llrrrrrll"))
@@ -330,10 +332,11 @@ def near_field_map_png(cfg, places, *, place_numbers: dict, dpi: int = _DPI) -> 
     return buf.getvalue(), width, height
 
 
-def near_field_map_section(res, width: float, numbers: dict, number: str) -> list:
+def near_field_map_section(res, width: float, numbers: dict, number: str, note=None) -> list:
     """Figure sub-section ``number``: one near-field map per configuration that carries one.
 
-    Empty when no configuration carries a near-field map.
+    The heading, its introduction (and ``note``, a flowable, when given) are kept on the page of the
+    first map. Empty when no configuration carries a near-field map.
     """
     cfgs = [c for c in res.configurations if c.near_field_map is not None]
     if not cfgs:
@@ -346,7 +349,7 @@ def near_field_map_section(res, width: float, numbers: dict, number: str) -> lis
     for c in cfgs:
         m = c.near_field_map
         png, w_in, h_in = near_field_map_png(c, res.places, place_numbers=numbers)
-        scale = min(1.0, width / (w_in * 72.0))
+        scale = min(1.0, width / (w_in * 72.0), _MAP_MAX_PRINT_H / (h_in * 72.0))   # two maps to a page
         img = Image(io.BytesIO(png), width=w_in * 72.0 * scale, height=h_in * 72.0 * scale)
         n_cells = len(m.x_m) * len(m.y_m)
         marked = [f"{numbers[pl.label]} {escape(pl.label)}" for pl in _places_in_map(m, res.places)]
@@ -360,5 +363,7 @@ def near_field_map_section(res, width: float, numbers: dict, number: str) -> lis
                    f"{m.excluded_points} of {n_cells} cells left out because they touch a conductor "
                    f"(grey; thin-wire fields do not hold there). "
                    + (f"Places marked: {'; '.join(marked)}." if marked else "No declared place lies in the map area."))
-        out.append(KeepTogether([img, p(caption, "caption", markup=True)]))
-    return out
+        out.append([img, p(caption, "caption", markup=True)])
+    head = out[:2] + ([note] if note is not None else [])
+    maps = out[2:]
+    return [KeepTogether(head + maps[0])] + [KeepTogether(m) for m in maps[1:]]

@@ -211,13 +211,12 @@ def _near_field_maps(res, width) -> list:
         if not any(c.near_field_map is not None for c in s.configurations):
             continue
         k += 1
-        section = near_field_map_section(SimpleNamespace(configurations=s.configurations, places=()), width, {},
-                                         f"5.{k}")
         note = p(f"Station {escape(s.name)}: coordinates in the station's own frame (its origin stands at "
                  f"x = {s.x_m:g} m, y = {s.y_m:g} m on the site). The site map above uses the far-field estimate "
                  "with the solver's peak gain for this station; these maps are its moment-method near field.",
                  "small", markup=True)
-        out += [CondPageBreak(90 * mm), section[0], note] + section[1:]
+        out += near_field_map_section(SimpleNamespace(configurations=s.configurations, places=()), width, {},
+                                      f"5.{k}", note=note)
     return out
 
 

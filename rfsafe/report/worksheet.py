@@ -459,8 +459,10 @@ def _places(res, width, numbers) -> list:
     for pl in res.places:
         for j, x in enumerate(pl.exposures):
             r += 1
-            flag_ref = notes.ref(x.flags) if x.flags else ""
-            method = x.method + (" · inside near field" if x.inside_near_field else "")
+            how, _, more = x.gain_method.partition(", ")
+            flag_ref = notes.ref(list(x.flags) + ([f"gain: {x.gain_method}"] if more else [])) \
+                if (x.flags or more) else ""
+            method = x.method + (" · inside near field" if x.inside_near_field and x.near_field_ratio is None else "")
             if x.power_density_limit_w_m2 is None:
                 s_text = "not defined"        # the standard sets no S limit here: S is not printed
             elif x.near_field_ratio is not None and x.exposure_ratio == x.near_field_ratio:
@@ -469,7 +471,7 @@ def _places(res, width, numbers) -> list:
             else:
                 s_text = num(x.power_density_w_m2)
             rows.append([f"{numbers[pl.label]} {pl.label}" if j == 0 else "", x.configuration, _dist(x.dist_m),
-                         f"{x.gain_dbi:.2f} {x.gain_method}", s_text, num(x.e_field_v_m),
+                         f"{x.gain_dbi:.2f} {how}", s_text, num(x.e_field_v_m),
                          num(x.h_field_a_m), ratio_text(x.exposure_ratio), margin_text(x.margin_db),
                          _governing(x.governing), (method + " " + flag_ref).strip()])
             if j == 0 and r > 1:
@@ -701,7 +703,6 @@ def _figures(res, width, numbers, extra_figures) -> list:
     out.extend(figure_rows(cells, width))
     maps = near_field_map_section(res, width, numbers, "6.3")
     if maps:
-        out.append(PageBreak())
         out.extend(maps)
     if extra_figures:
         out.append(section_heading("6.4" if maps else "6.3", "Further figures", level=1))
