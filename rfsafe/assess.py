@@ -722,17 +722,19 @@ _SHELL_DIRECTIONS /= np.linalg.norm(_SHELL_DIRECTIONS, axis=1)[:, None]
 _SHELL_NODES = 24
 
 
-def _wire_shell_ratio(sols, limits, avg_w: float, pep_w: float, r_m: float, nodes: np.ndarray) -> float:
-    """Largest near-field exposure ratio at points r_m from the wires (z >= 0), over the solutions."""
-    from rfsafe.limits import exposure_ratio
-
+def _wire_shell_fields(sols, r_m: float, nodes: np.ndarray) -> list:
+    """RMS E and H at 1 W [V/m, A/m] at points r_m from the wires (z >= 0), one pair per solution."""
     pts = (nodes[:, None, :] + r_m * _SHELL_DIRECTIONS[None]).reshape(-1, 3)
     pts = pts[(pts[:, 2] >= 0) & (_wire_distance_m(sols[0], pts) >= 0.999 * r_m)]
-    if len(pts) == 0:
-        return 0.0
+    return [sol.fields_rms(pts, 1.0, field="compliance distance search") for sol in sols] if len(pts) else []
+
+
+def _wire_shell_ratio(fields, limits, avg_w: float, pep_w: float) -> float:
+    """Largest exposure ratio over shell fields at 1 W (see _wire_shell_fields) for one environment's limits."""
+    from rfsafe.limits import exposure_ratio
+
     worst = 0.0
-    for sol in sols:
-        e1, h1 = sol.fields_rms(pts, 1.0, field="compliance distance search")
+    for e1, h1 in fields:
         for lim in limits:
             scale = math.sqrt(_power_for(lim, avg_w, pep_w))
             r = np.asarray(exposure_ratio(lim, e_field_v_m=e1 * scale, h_field_a_m=h1 * scale), dtype=float)
@@ -754,16 +756,19 @@ def _wire_compliance_distances(sols, limits, avg_ant, pep_ant: float, distances,
     nodes = np.unique(np.concatenate([st.start_m, st.end_m]), axis=0)
     nodes = nodes[np.unique(np.linspace(0, len(nodes) - 1, min(_SHELL_NODES, len(nodes))).round().astype(int))]
     r_min = max(0.05, 5 * float(st.radius_m.max()))
+    grid = np.geomspace(r_min, boundary_m, 8) if r_min < boundary_m else np.array([])
+    cache: dict = {}   # fields at 1 W per shell radius, shared by the environments
     out, flags = [], []
     for d in distances:
         if d.dist_m >= boundary_m or r_min >= boundary_m:
             out.append(d)
             continue
-        grid = np.geomspace(r_min, boundary_m, 8)
         env = d.environment
 
         def over_limit(r_m: float) -> bool:
-            return _wire_shell_ratio(sols, limits[env], avg_ant[env], pep_ant, r_m, nodes) > 1.0
+            if r_m not in cache:
+                cache[r_m] = _wire_shell_fields(sols, r_m, nodes)
+            return _wire_shell_ratio(cache[r_m], limits[env], avg_ant[env], pep_ant) > 1.0
 
         over = [r for r in grid if over_limit(r)]
         if not over:

@@ -18,7 +18,7 @@ import math
 import numpy as np
 
 from rfsafe.antenna.wire.geometry import point_segment_distances
-from rfsafe.antenna.wire.kernel import segment_e_terms, segment_h_terms
+from rfsafe.antenna.wire.kernel import ETA0_OHM
 from rfsafe.errors import bad_value
 
 __all__ = ["near_fields", "check_points", "point_cautions", "MIN_POINT_RADII",
@@ -44,39 +44,69 @@ def near_fields(st, k: float, seg_i: np.ndarray, points_m: np.ndarray):
         Current at the start and end of each segment, in the segment direction [A peak].
     points_m : ndarray (N, 3)
         Observation points [m].
+
+    Notes
+    -----
+    The two half functions of a segment are summed before the point loop: with currents i1, i2 at
+    its ends, A = j eta / (4 pi sin kd), c = cos kd, s = sin kd, g_i = E_i / R_i, D1 = -z, D2 = d - z
+    (``kernel.segment_e_terms`` and ``segment_h_terms`` weighted by i1 and i2)::
+
+        E_z     = a1 g1 + a2 g2                                  a1 = A (c i1 - i2), a2 = A (c i2 - i1)
+        E_rho   = [a1 g1 D1 + a2 g2 D2 + b1 E1 + b2 E2] / rho^2   b1 = -j s A i1,    b2 = j s A i2
+        H_phi   = [u1 g1 D1 + u2 g2 D2 + v1 E1 + v2 E2] / rho^2   u1 = -i1 / 4 pi,   u2 = i2 / 4 pi,
+                                                                  v1 = j (i2 - c i1) / (4 pi s),
+                                                                  v2 = j (i1 - c i2) / (4 pi s)
+
+    as coefficients of the radial vector and of s x (radial vector). On a segment's axis (beyond
+    its ends: ``check_points`` keeps points off the wire) E_z takes the true rho = 0 and the radial
+    E and H vanish by symmetry.
     """
     pts = np.asarray(points_m, dtype=float).reshape(-1, 3)
     e_out = np.zeros(pts.shape, dtype=complex)
     h_out = np.zeros(pts.shape, dtype=complex)
+    # Distances and phase factors are computed once per node (each is shared by two segments).
+    nodes, inv = np.unique(np.concatenate([st.node1, st.node2]), return_inverse=True)
+    n1, n2 = inv[:st.num_segments], inv[st.num_segments:]
     for s0, s1, _r, sign, _d in st.sources():
+        node_m = np.empty((len(nodes), 3))
+        node_m[n1], node_m[n2] = s0, s1
         sd = s1 - s0
         d = np.linalg.norm(sd, axis=1)
         sdir = sd / d[:, None]
+        sdir_c = sdir.astype(complex)
         i1, i2 = sign * seg_i[:, 0], sign * seg_i[:, 1]
+        c, s = np.cos(k * d), np.sin(k * d)
+        a = 1j * ETA0_OHM / (4.0 * math.pi * s)
+        a1, a2 = a * (c * i1 - i2), a * (c * i2 - i1)
+        b1, b2 = -1j * s * a * i1, 1j * s * a * i2
+        u1, u2 = -i1 / (4.0 * math.pi), i2 / (4.0 * math.pi)
+        v1, v2 = 1j * (i2 - c * i1) / (4.0 * math.pi * s), 1j * (i1 - c * i2) / (4.0 * math.pi * s)
         tiny = (1e-9 * d) ** 2
         step = max(1, _CHUNK // len(s0))
-        for a in range(0, len(pts), step):
-            p = pts[a:a + step, None, :]
-            v = p - s0[None]
-            z = np.einsum("nqi,qi->nq", v, sdir)
-            rv = v - z[..., None] * sdir[None]
-            rho2 = np.einsum("nqi,nqi->nq", rv, rv)
-            axis = rho2 <= tiny[None, :]
-            r2 = np.where(axis, 1.0, rho2)
-            ez1, ez2, er1, er2 = segment_e_terms(z, r2, d[None], k)
-            h1, h2 = segment_h_terms(z, r2, d[None], k)
-            if np.any(axis):
-                # On a segment's axis (beyond its ends: check_points keeps points off the wire) the
-                # axial field takes the true rho = 0; radial E and H vanish there by symmetry (the
-                # dummy rho^2 = 1 above only keeps their 1/rho^2 coefficients finite; zeroed below).
-                n_ax, q_ax = np.nonzero(axis)
-                with np.errstate(divide="ignore", invalid="ignore"):   # the unused radial terms
-                    ez1[n_ax, q_ax], ez2[n_ax, q_ax], _, _ = segment_e_terms(z[n_ax, q_ax], 0.0, d[q_ax], k)
-            ez = ez1 * i1 + ez2 * i2
-            er = np.where(axis, 0.0, er1 * i1 + er2 * i2)
-            hh = np.where(axis, 0.0, h1 * i1 + h2 * i2)
-            e_out[a:a + step] += np.einsum("nq,qi->ni", ez, sdir) + np.einsum("nq,nqi->ni", er, rv)
-            h_out[a:a + step] += np.einsum("nq,nqi->ni", hh, np.cross(sdir[None], rv))
+        for lo in range(0, len(pts), step):
+            p = pts[lo:lo + step]
+            dist = np.sqrt(sum((p[:, j, None] - node_m[None, :, j]) ** 2 for j in range(3)))
+            ph = np.exp(-1j * k * dist)
+            gn = ph / dist
+            e1, e2, g1, g2 = ph[:, n1], ph[:, n2], gn[:, n1], gn[:, n2]
+            vx, vy, vz = (p[:, j, None] - s0[None, :, j] for j in range(3))
+            z = vx * sdir[:, 0] + vy * sdir[:, 1] + vz * sdir[:, 2]
+            rx, ry, rz = vx - z * sdir[:, 0], vy - z * sdir[:, 1], vz - z * sdir[:, 2]
+            rho2 = rx * rx + ry * ry + rz * rz
+            g1d, g2d = g1 * -z, g2 * (d - z)
+            with np.errstate(divide="ignore"):
+                w = np.where(rho2 <= tiny, 0.0, 1.0 / rho2)
+            ez = a1 * g1 + a2 * g2
+            er = (a1 * g1d + a2 * g2d + b1 * e1 + b2 * e2) * w
+            hh = (u1 * g1d + u2 * g2d + v1 * e1 + v2 * e2) * w
+            e_out[lo:lo + step] += ez @ sdir_c
+            e_out[lo:lo + step, 0] += np.sum(er * rx, axis=1)
+            e_out[lo:lo + step, 1] += np.sum(er * ry, axis=1)
+            e_out[lo:lo + step, 2] += np.sum(er * rz, axis=1)
+            # H = hh (s x rho_vec), component by component
+            h_out[lo:lo + step, 0] += np.sum(hh * (sdir[:, 1] * rz - sdir[:, 2] * ry), axis=1)
+            h_out[lo:lo + step, 1] += np.sum(hh * (sdir[:, 2] * rx - sdir[:, 0] * rz), axis=1)
+            h_out[lo:lo + step, 2] += np.sum(hh * (sdir[:, 0] * ry - sdir[:, 1] * rx), axis=1)
     return e_out, h_out
 
 
