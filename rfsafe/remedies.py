@@ -265,18 +265,17 @@ def _power_like(ratio_of, now: float, r_now: float, upper: float | None) -> tupl
             if x >= top:
                 return "already complies", x, r
             x = min(top, x * 4.0)
-    x_bad, r_bad = now, r_now
-    x = now / r_now * 0.98
+    x = now / r_now * 0.98          # exact for a ratio proportional to x
+    r = ratio_of(x)
+    if r <= 1.0:
+        x_ok, r_ok = solve_crossing(ratio_of, x, r, now, r_now)
+        return "solved", x_ok, r_ok
     floor = now / _MAX_FACTOR
-    while True:
-        r = ratio_of(x)
-        if r <= 1.0:
-            x_ok, r_ok = solve_crossing(ratio_of, x, r, x_bad, r_bad)
-            return "solved", x_ok, r_ok
-        if x <= floor or r >= r_bad * (1 - 1e-9):   # other sources alone exceed: no value helps
-            return "no value helps", None, None
-        x_bad, r_bad = x, r
-        x = max(floor, x / 4.0)
+    r_floor = ratio_of(floor)
+    if r_floor > 1.0:                # other sources alone exceed: no value helps
+        return "no value helps", None, None
+    x_ok, r_ok = solve_crossing(ratio_of, floor, r_floor, x, r)
+    return "solved", x_ok, r_ok
 
 
 def _scan_out(ratio_of, now: float, steps, r_now: float) -> tuple[str, float | None, float | None]:
@@ -516,14 +515,20 @@ def _configuration_remedies(loaded, result: EvaluationResult) -> tuple[Configura
         return total_ratio(modified)
 
     out = []
+    pep: dict = {}       # a transmitter's PEP and an antenna's height are shared by its configurations
+    height: dict = {}
     for cres in result.configurations:
         tx = next(t for t in st.transmitters if t.id == cres.transmitter)
         ant = next(a for a in st.antennas if a.id == cres.antenna)
-        rem = [_pep_remedy(loaded, tx, ratio_of_loaded, worst),
+        if tx.id not in pep:
+            pep[tx.id] = _pep_remedy(loaded, tx, ratio_of_loaded, worst)
+        if ant.id not in height:
+            height[ant.id] = _height_remedy(loaded, ant, ratio_of_loaded, worst)
+        rem = [pep[tx.id],
                _duty_remedy(loaded, cres, worst_env, ratio_of_loaded, worst),
                _schedule_remedy(loaded, cres, worst_env, ratio_of_loaded, worst),
                _loss_remedy(loaded, cres, ratio_of_loaded, worst),
-               _height_remedy(loaded, ant, ratio_of_loaded, worst)]
+               height[ant.id]]
         out.append(ConfigurationRemedies(configuration=cres.id, transmitter=tx.id, antenna=ant.id,
                                          remedies=tuple(rem)))
     return tuple(out)
