@@ -41,6 +41,11 @@ def render_site(res) -> str:
         out.append("No violations: no public or operators' area, open ground or ground outside the site is "
                    "above its limit.")
     out.append("")
+    from rfsafe.report.site_text import exemption_lines, station_zone_lines
+
+    out.append("Keep-out zones, station by station:")
+    out.extend(f"  {'!' if state != 'none' else '-'} {line}" for _, state, line in station_zone_lines(res))
+    out.append("")
     rows = []
     for t in res.transmitters:
         rows.append([t.transmitter, f"({t.x_m:g}, {t.y_m:g})", f"{t.height_m:g}", ", ".join(t.configurations),
@@ -65,6 +70,11 @@ def render_site(res) -> str:
     from rfsafe.verification import count_line
 
     out.append(count_line(res.data_verification))
+    ex_lines = exemption_lines(getattr(res, "exemption", None))
+    if ex_lines:
+        out.append("")
+        out.append(ex_lines[0])
+        out.extend(f"  - {line}" for line in ex_lines[1:])
     out.append("")
     out.append(f"EXPOSURE VERDICT: {res.exposure_verdict}")
     out.extend(f"  - {line}" for line in res.exposure_reasons)

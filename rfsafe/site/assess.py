@@ -84,6 +84,8 @@ class SiteResult:
     emitters: tuple = field(default=(), repr=False)
     grid: SiteGrid | None = field(default=None, repr=False)
     remedies: tuple = ()               # rfsafe.results.SiteRemedy per violation and transmitter (rfsafe.remedies)
+    #: 47 CFR 1.1307(b)(3) over every configuration of every station (FCC sites only, else None)
+    exemption: object = None
     #: every published figure the review used (limits, duty factors, cables ...), and whether it was read
     #: in its published text (rfsafe.verification)
     data_verification: tuple = ()
@@ -210,6 +212,59 @@ def _site_verdicts(analysis, stations) -> dict:
                 equipment_reasons=reasons)
 
 
+#: Grid points nearest to each antenna used to find its separation from where people may be.
+_EXEMPTION_POINTS = 400
+
+
+def site_exemption(loaded_site, stations, grid, areas):
+    """The 47 CFR 1.1307(b)(3) test over all configurations of all stations of an FCC site, else None.
+
+    R of each source is the smallest distance from the radiating structure to a point where a person
+    may be: every grid point outside the no-access areas, at the site's evaluation heights (the same
+    rule as a station's declared places, measured to the nearest part of the antenna).
+    """
+    import dataclasses
+    from types import SimpleNamespace
+
+    import numpy as np
+
+    from rfsafe.assess import _separation_m
+    from rfsafe.limits.exemption import ExemptionSource, fcc_exemption
+
+    if loaded_site.model.standard != "fcc":
+        return None
+    barred = [2 + i for i, a in enumerate(areas) if a.kind == "no-access"]
+    xx, yy = np.meshgrid(grid.x_m, grid.y_m)
+    free = ~np.isin(grid.region, barred)
+    px, py = xx[free], yy[free]
+    heights = list(loaded_site.model.heights_m)
+    sources, notes, unknown = [], [], []
+    for s, loaded, st in zip(loaded_site.model.stations, loaded_site.stations, stations):
+        for c in st.configurations:
+            ant = next(a for a in loaded.model.antennas if a.id == c.antenna)
+            d = np.hypot(px - (s.x_m + ant.x_m), py - (s.y_m + ant.y_m))
+            near = np.argsort(d)[:_EXEMPTION_POINTS]
+            people = [SimpleNamespace(x_m=float(px[k] - s.x_m), y_m=float(py[k] - s.y_m), height_m=heights[0],
+                                      body_heights_m=heights) for k in near]
+            sep, how, known = _separation_m(loaded, ant, c.freq_mhz * 1e6, people)
+            label = f"{st.name} {c.id}"
+            notes.append(f"{label}: separation {sep:.2f} m from the nearest point outside the no-access areas, {how}")
+            if not known:
+                unknown.append(f"{st.name} {ant.id}")
+            sources.append(ExemptionSource(label=label, freq_hz=c.freq_mhz * 1e6,
+                                           avg_power_w=max(c.avg_power_at_antenna_w.values()),
+                                           gain_dbi=c.gain_dbi, separation_m=sep))
+    result = fcc_exemption(sources)
+    result = dataclasses.replace(result, assumptions=tuple(result.assumptions) + tuple(notes))
+    if unknown and result.exempt:
+        result = dataclasses.replace(
+            result, exempt=False,
+            criterion=f"not claimed: the size of {', '.join(sorted(set(unknown)))} is not declared, so the separation "
+                      f"from its nearest part is not known; the test with an assumed size would give: "
+                      f"{result.criterion}")
+    return result
+
+
 def assess_site(loaded_site, *, today=None, progress: Callable[[int, int], None] | None = None) -> SiteResult:
     """Evaluate a loaded site file (see :func:`rfsafe.site.load_site`).
 
@@ -282,5 +337,5 @@ def assess_site(loaded_site, *, today=None, progress: Callable[[int, int], None]
         keep_out_points=analysis.keep_out_points, exceeded=tuple(exceeded),
         **_site_verdicts(analysis, stations), method_notes=notes,
         flags=tuple(dict.fromkeys(flags + list(analysis.flags))), cautions=tuple(CAUTIONS) + SITE_CAUTIONS,
-        emitters=tuple(ems), grid=g,
+        emitters=tuple(ems), grid=g, exemption=site_exemption(loaded_site, stations, g, loaded_site.areas),
         data_verification=figure_checks([c for s in stations for c in s.configurations]))
