@@ -67,3 +67,15 @@ def test_site_file_is_pointed_to_site():
     assert r.exit_code == 2
     line = r.stderr.strip().splitlines()
     assert len(line) == 1 and "is a site file" in line[0] and "rfsafe site" in line[0]
+
+
+def test_standard_all_csv_has_a_ratio_column_per_standard():
+    from rfsafe.limits import STANDARD_IDS
+
+    r = CliRunner().invoke(app, ["evaluate", STATION, "--standard", "all", "--csv", "places"])
+    frame = pd.read_csv(io.StringIO(r.stdout))
+    assert {f"total_ratio_{s}" for s in STANDARD_IDS} <= set(frame.columns)
+    for _, row in frame.iterrows():
+        assert row[f"total_ratio_{row['governing']}"] == max(row[f"total_ratio_{s}"] for s in STANDARD_IDS)
+    bad = CliRunner().invoke(app, ["evaluate", STATION, "--standard", "all", "--csv", "keep-out"])
+    assert bad.exit_code == 2 and bad.stderr.startswith('Error: --csv: "keep-out" is not available')

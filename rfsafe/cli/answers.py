@@ -8,7 +8,7 @@ from __future__ import annotations
 from pathlib import Path
 
 __all__ = ["CSV_TABLES", "load_station_file", "answer_sections", "evaluation_frame", "render_all_standards",
-           "all_standards"]
+           "all_standards", "all_standards_frame", "governing"]
 
 #: Tables ``rfsafe evaluate --csv TABLE`` can print.
 CSV_TABLES = ("places", "exposures", "configurations", "keep-out", "remedies")
@@ -202,3 +202,33 @@ def render_all_standards(results: dict) -> str:
         if isinstance(r, str):
             out.append(f"  {s}: {r}")
     return "\n".join(out)
+
+
+def all_standards_frame(results: dict, table: str):
+    """``--standard all --csv``: places (total ratio per standard, governing) or configurations
+    (uncontrolled and controlled compliance distance per standard) as a pandas DataFrame."""
+    import pandas as pd
+
+    from rfsafe.errors import bad_value
+
+    ok = {s: r for s, r in results.items() if not isinstance(r, str)}
+    first = next(iter(ok.values()), None)
+    rows = []
+    if table == "places":
+        gov = governing(results)
+        for p in (first.places if first else ()):
+            row = {"place": p.label, "environment": p.environment, "governing": gov.get(p.label)}
+            for s, r in ok.items():
+                row[f"total_ratio_{s}"] = next((q.total_ratio for q in r.places if q.label == p.label), None)
+            rows.append(row)
+    elif table == "configurations":
+        for c in (first.configurations if first else ()):
+            row = {"configuration": c.id, "freq_mhz": c.freq_mhz}
+            for s, r in ok.items():
+                cr = next((q for q in r.configurations if q.id == c.id), None)
+                for d in (cr.compliance_distances if cr else ()):
+                    row[f"dist_{d.environment}_{s}_m"] = d.dist_m
+            rows.append(row)
+    else:
+        raise bad_value("--csv", table, "is not available with --standard all (accepted: places, configurations)")
+    return pd.DataFrame(rows)

@@ -158,7 +158,9 @@ def evaluate(file: Path = typer.Argument(..., help="Station file (.toml)."),
     if standard == "all":
         results = answers.all_standards(file)
         codes = [r.exit_code for r in results.values() if not isinstance(r, str)]
-        if json_out:
+        if csv_table is not None:
+            typer.echo(answers.all_standards_frame(results, csv_table).to_csv(index=False), nl=False)
+        elif json_out:
             print_json({"standards": results, "governing": answers.governing(results)})
         else:
             typer.echo(answers.render_all_standards(results))
