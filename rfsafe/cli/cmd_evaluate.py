@@ -156,6 +156,9 @@ def evaluate(file: Path = typer.Argument(..., help="Station file (.toml)."),
     if csv_table is not None and csv_table not in answers.CSV_TABLES:
         raise bad_value("--csv", csv_table, f"is not a table (accepted: {', '.join(answers.CSV_TABLES)})")
     if standard == "all":
+        if csv_table is not None and csv_table not in ("places", "configurations"):
+            raise bad_value("--csv", csv_table, "is not available with --standard all (accepted: places, "
+                                                "configurations)")
         results = answers.all_standards(file)
         codes = [r.exit_code for r in results.values() if not isinstance(r, str)]
         if csv_table is not None:
