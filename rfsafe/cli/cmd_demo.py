@@ -46,7 +46,9 @@ def demo() -> None:
         loaded = load_station(folder / name)
         res = assess(loaded)
         if k == 0:
-            typer.echo(render_evaluation(res))
+            from rfsafe.cli.output import fit_text
+
+            typer.echo(fit_text(render_evaluation(res)))
             typer.echo("")
         pdf = write_worksheet(res, folder / name.replace(".toml", ".pdf"), force=True,
                               inputs=loaded.input_paths())
@@ -58,7 +60,9 @@ def demo() -> None:
     summary.append(f"{DEMO_SITE}: {site.verdict} ({len(site.violations)} violation(s)) -> {pdf}")
     typer.echo("Demo worksheets written:")
     for line in summary:
-        typer.echo(f"  {line}")
+        from rfsafe.cli.output import fit_text
+
+        typer.echo(fit_text(f"  {line}"))
     for c in res.cautions:
         warn(f"caution: {c}")
     raise typer.Exit(0)

@@ -175,7 +175,9 @@ def limits_command(
     if json_out:
         print_json(entries)
     else:
-        typer.echo(_table(entries, title))
+        from rfsafe.cli.output import fit_text
+
+        typer.echo(fit_text(_table(entries, title)))
         _cautions(entries)
     raise typer.Exit(0)
 

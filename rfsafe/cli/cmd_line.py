@@ -279,8 +279,8 @@ def line(
         typer.echo("")
         typer.echo(output.format_table(["part", "quantity", "stress", "rating", "unit", "headroom",
                                         "largest SWR", "status"], prow, title="Ratings at this power"))
-        typer.echo(f"rating {LEGEND}")
-        typer.echo(f"Fails first: {r.first_failure}")
+        typer.echo(output.fit_text(f"rating {LEGEND}"))
+        typer.echo(output.fit_text(f"Fails first: {r.first_failure}"))
         if r.tuner is not None:
             n = r.tuner.network
             trow = [(p.name, p.kind, p.placement, _fmt(p.value_pf, "pF") if p.value_pf else _fmt(p.value_uh, "uH"),

@@ -141,9 +141,10 @@ def wire(
     if json_out:
         output.print_json(res)
         raise typer.Exit(0)
-    typer.echo(f"Wire antenna {res.file}: {res.freq_hz / 1e6:g} MHz (wavelength {res.wavelength_m:.4g} m), "
-               f"ground {res.ground}, {res.num_segments} segments, {res.num_unknowns} unknowns")
-    typer.echo(f"Method: {res.method}")
+    typer.echo(output.fit_text(f"Wire antenna {res.file}: {res.freq_hz / 1e6:g} MHz (wavelength "
+                               f"{res.wavelength_m:.4g} m), ground {res.ground}, {res.num_segments} segments, "
+                               f"{res.num_unknowns} unknowns"))
+    typer.echo(output.fit_text(f"Method: {res.method}"))
     typer.echo("")
     typer.echo(output.format_table(
         ["feed", "wire", "position", "impedance [ohm]", "V rms", "I rms [A]"],
