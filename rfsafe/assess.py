@@ -746,9 +746,11 @@ def _wire_compliance_distances(sols, limits, avg_ant, pep_ant: float, distances,
     """Compliance distances of a wire antenna, from the nearest point of its wires, and their flags.
 
     Where the far-field distance lies inside the near-field boundary, the moment-method fields are
-    searched on shells around the wires (``_SHELL_NODES`` nodes, 26 directions, above ground) between
-    max(5 cm, 5 radii) and the boundary: the distance beyond which every sampled ratio is at most 1.
-    The larger of the two distances is reported (the shells are a sample).
+    sampled on shells around the wires (``_SHELL_NODES`` nodes, 26 directions, above ground) from that
+    distance (at least max(5 cm, 5 radii)) out to the boundary. If every sampled ratio is at most 1 the
+    far-field distance stands, confirmed; else the distance beyond which the samples are within the
+    limit is found by bisection and reported. Never less than the far-field distance (the shells are
+    a sample).
     """
     import dataclasses
 
@@ -756,8 +758,9 @@ def _wire_compliance_distances(sols, limits, avg_ant, pep_ant: float, distances,
     nodes = np.unique(np.concatenate([st.start_m, st.end_m]), axis=0)
     nodes = nodes[np.unique(np.linspace(0, len(nodes) - 1, min(_SHELL_NODES, len(nodes))).round().astype(int))]
     r_min = max(0.05, 5 * float(st.radius_m.max()))
-    grid = np.geomspace(r_min, boundary_m, 8) if r_min < boundary_m else np.array([])
     cache: dict = {}   # fields at 1 W per shell radius, shared by the environments
+    need = [max(r_min, d.dist_m) for d in distances if d.dist_m < boundary_m]
+    common = np.geomspace(min(need), boundary_m, 6) if need and r_min < boundary_m else np.array([])
     out, flags = [], []
     for d in distances:
         if d.dist_m >= boundary_m or r_min >= boundary_m:
@@ -770,9 +773,10 @@ def _wire_compliance_distances(sols, limits, avg_ant, pep_ant: float, distances,
                 cache[r_m] = _wire_shell_fields(sols, r_m, nodes)
             return _wire_shell_ratio(cache[r_m], limits[env], avg_ant[env], pep_ant) > 1.0
 
+        grid = np.concatenate([[max(r_min, d.dist_m)], common[common > max(r_min, d.dist_m)]])
         over = [r for r in grid if over_limit(r)]
         if not over:
-            d_nf = r_min
+            d_nf = grid[0]
         elif over[-1] >= boundary_m:
             d_nf = boundary_m
         else:
@@ -783,11 +787,11 @@ def _wire_compliance_distances(sols, limits, avg_ant, pep_ant: float, distances,
             d_nf = hi
         dist = max(d.dist_m, d_nf)
         out.append(dataclasses.replace(d, dist_m=dist, dist_ft=dist / M_PER_FT, inside_near_field=dist < boundary_m))
-        what = ("the moment-method value governs" if d_nf > d.dist_m else
-                "the moment-method fields confirm the limit is met beyond it")
+        what = (f"the moment-method fields on shells around the wires exceed the limit out to {d_nf:.2f} m, which "
+                "governs" if d_nf > d.dist_m else
+                "the moment-method fields on shells around the wires confirm the limit is met beyond it")
         flags.append(f"{d.environment} compliance distance {dist:.2f} m (from the nearest point of the wires) lies "
-                     f"inside the near-field boundary {boundary_m:.2f} m: far-field estimate {d.dist_m:.2f} m, "
-                     f"moment method on shells around the wires {d_nf:.2f} m; {what}"
+                     f"inside the near-field boundary {boundary_m:.2f} m: far-field estimate {d.dist_m:.2f} m; {what}"
                      + (f" ({WIRE_GROUND_BOUND})" if len(sols) > 1 else ""))
     return tuple(out), flags
 
