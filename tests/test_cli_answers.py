@@ -79,3 +79,20 @@ def test_standard_all_csv_has_a_ratio_column_per_standard():
         assert row[f"total_ratio_{row['governing']}"] == max(row[f"total_ratio_{s}"] for s in STANDARD_IDS)
     bad = CliRunner().invoke(app, ["evaluate", STATION, "--standard", "all", "--csv", "keep-out"])
     assert bad.exit_code == 2 and bad.stderr.startswith('Error: --csv: "keep-out" is not available')
+
+
+def test_site_review_fits_100_columns_and_says_what_clears_a_violation():
+    r = CliRunner().invoke(app, ["site", str(DEMO / "event_field_day.toml")])
+    assert r.exit_code == 1
+    assert max(len(line) for line in r.stdout.splitlines()) <= 100
+    assert "What would clear each violation" in r.stdout
+    doc = json.loads(CliRunner().invoke(app, ["site", str(DEMO / "event_field_day.toml"), "--json"]).stdout)
+    assert {x["transmitter"] for x in doc["remedies"]} == {t["transmitter"] for t in doc["transmitters"]}
+
+
+def test_other_commands_fit_100_columns():
+    for args in (["limits", "--compare", "14.2"], ["limits", "fcc", "432"],
+                 ["line", "--pep-w", "1500", "--freq-mhz", "14.2", "--cable", "rg-213", "--length-m", "30",
+                  "--swr", "3"]):
+        r = CliRunner().invoke(app, args)
+        assert max(len(line) for line in r.stdout.splitlines()) <= 100, args

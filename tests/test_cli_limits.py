@@ -100,7 +100,7 @@ def test_compare_skips_standards_that_do_not_cover_the_frequency():
 
 
 def test_table_mode_shows_units_markers_and_sources():
-    result = run("fcc", "432")
+    result = run("fcc", "432", "--wide")   # --wide: headers and labels unwrapped (the default fits 100 columns)
     assert result.exit_code == 0
     out = result.stdout
     for text in ("S (as published)", "S [W/m^2]", "E [V/m]", "H [A/m]", "avg [min]",

@@ -135,8 +135,11 @@ def limits_command(
     compare: Optional[str] = typer.Option(None, "--compare", metavar="FREQ_MHZ",
                                           help="Show every standard side by side at this frequency [MHz]."),
     json_out: bool = typer.Option(False, "--json", help="Print JSON (a list of entries) instead of a table."),
+    wide: bool = typer.Option(False, "--wide", help="Do not fit the table to 100 columns."),
 ) -> None:
-    from rfsafe.cli.output import print_json, warn
+    from rfsafe.cli.output import print_json, set_wide, warn
+
+    set_wide(wide)
     from rfsafe.errors import InputError, bad_value
     from rfsafe.limits import STANDARD_IDS, standard_info
 

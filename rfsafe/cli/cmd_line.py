@@ -159,9 +159,12 @@ def line(
                                       help="Average / peak envelope power for heating (default 1.0, conservative)."),
     exact_z0: bool = typer.Option(False, "--exact-z0", help="Use the complex Z0 = R0(1 - j alpha/beta) model."),
     json_out: bool = typer.Option(False, "--json", help="Print the result as JSON."),
+    wide: bool = typer.Option(False, "--wide", help="Do not fit tables and text to 100 columns."),
 ) -> None:
     """Loss, SWR at both ends and the peak voltage/current on a feedline, its connectors and a tuner."""
     from rfsafe.cli import output
+
+    output.set_wide(wide)
     from rfsafe.feedline import cable_class, custom_cable, evaluate_line
     from rfsafe.feedline.balun import BalunSpec, parse_balun_ratio
     from rfsafe.feedline.matching import TunerSpec

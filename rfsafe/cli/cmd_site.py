@@ -149,7 +149,8 @@ def site(file: Path = typer.Argument(..., help="Site file (.toml)."),
                                       help="Also write the evaluated grid as CSV (one row per point)."),
          output: Path = typer.Option(None, "-o", "--output", metavar="SITE.pdf",
                                      help="Also write the site review as PDF (map, tables, cautions)."),
-         force: bool = typer.Option(False, "--force", help="Overwrite existing output files.")) -> None:
+         force: bool = typer.Option(False, "--force", help="Overwrite existing output files."),
+         wide: bool = typer.Option(False, "--wide", help="Do not fit tables and text to 100 columns.")) -> None:
     """Review an event site: keep-out zones of every station, areas, violations, rope-off radii.
 
     Two verdicts are given: exposure (people in each area against their limits) and equipment (lines,
@@ -157,9 +158,11 @@ def site(file: Path = typer.Argument(..., help="Site file (.toml)."),
     1 a violation (whatever the equipment); 4 no violation but a rating is exceeded; 2 bad input;
     3 internal error.
     """
-    from rfsafe.cli.output import print_json, warn
+    from rfsafe.cli.output import print_json, set_wide, warn
     from rfsafe.fileio import OutputSet
     from rfsafe.site import assess_site, load_site
+
+    set_wide(wide)
 
     loaded = load_site(file)
     wanted = [(field, path) for field, path in (("-o", output), ("--csv", csv_out)) if path is not None]

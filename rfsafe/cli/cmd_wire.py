@@ -126,9 +126,12 @@ def _z(z: complex) -> str:
 def wire(
     file: Path = typer.Argument(..., help="Wire antenna file (TOML): wires, feeds, ground, freq_mhz, points."),
     json_out: bool = typer.Option(False, "--json", help="Print the result as JSON."),
+    wide: bool = typer.Option(False, "--wide", help="Do not fit tables and text to 100 columns."),
 ) -> None:
     """Solve a wire antenna: feed impedance, gain and near-field E and H at listed points."""
     from rfsafe.cli import output
+
+    output.set_wide(wide)
 
     import re
 
