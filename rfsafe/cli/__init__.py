@@ -169,6 +169,9 @@ app = typer.Typer(
 @app.callback(invoke_without_command=True)
 def _root(ctx: typer.Context,
           version: bool = typer.Option(False, "--version", help="Print the rfsafe version and exit.")) -> None:
+    from rfsafe.cli.output import set_wide
+
+    set_wide(False)   # every run starts fitted to 100 columns; a command's --wide changes it for that run
     if version:
         from rfsafe import __version__
         typer.echo(f"rfsafe {__version__}")
