@@ -202,3 +202,27 @@ def test_frequency_unit_slip_is_refused_with_a_hint(freq, hint):
     line = r.stderr.strip()
     assert line.startswith(f"Error: --freq-mhz: {float(freq)!r} is outside 0.1-3000 MHz, where the loss figures "
                            'of cable class "rg-58" hold') and hint in line
+
+
+def test_t_rebuilt_from_the_printed_table():
+    """The part values as the terminal prints them (4 significant figures), rebuilt with scikit-rf's lumped
+    elements (ideal inductor: --inductor-q 1e12), match the line's input impedance to 50 ohm within the
+    rounding: |Gamma| < 0.01 (4 figures move each reactance by at most 5e-4 relative)."""
+    skrf = pytest.importorskip("skrf")
+    from skrf.media import DefinedGammaZ0
+    args = ["line", "--pep-w", "400", "--freq-mhz", "7.1", "--length-m", "12", "--cable", "rg-213",
+            "--load-ohm", "20-j60", "--tuner", "t", "--q", "6", "--inductor-q", "1e12"]
+    t = run(args)
+    assert t.exit_code == 0, t.stderr
+    values = {}
+    for ln in t.stdout.splitlines():
+        cells = ln.split()
+        if cells and cells[0] in ("C1", "L1", "C2") and len(cells) > 4:
+            values[cells[0]] = float(cells[-6])     # "value unit V peak V rms A rms loss W": value is 6th from end
+            assert cells[-5] == ("uH" if cells[0] == "L1" else "pF")
+    zin = complex(json.loads(run(args + ["--json"]).stdout)["tuner"]["network"]["load_ohm"]["re"],
+                  json.loads(run(args + ["--json"]).stdout)["tuner"]["network"]["load_ohm"]["im"])
+    media = DefinedGammaZ0(skrf.Frequency(7.1e6, 7.1e6, 1, unit="Hz"), z0=50.0)
+    ntw = (media.capacitor(values["C1"] * 1e-12) ** media.shunt_inductor(values["L1"] * 1e-6)
+           ** media.capacitor(values["C2"] * 1e-12) ** media.load((zin - 50) / (zin + 50)))
+    assert abs(complex(ntw.s[0, 0, 0])) < 0.01

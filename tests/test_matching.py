@@ -218,7 +218,8 @@ def test_t_presents_target(r, x, r0, extra_q):
     zl = complex(r, x)
     q = t_least_q(zl, r0) + extra_q
     form, _, ladder = t_network_ladder(zl, r0, q)
-    assert [kind < 0 for _, kind in ladder] == [True, False, True]  # C, L, C: the high-pass T
+    assert form == "high-pass"
+    assert [x < 0 for _, x in ladder] == [True, False, True]  # C, L, C: the high-pass T
     z = ladder_input_impedance(ladder, zl)
     # identity of the lossless design; 1e-9 relative allows for cancellation at high Q
     assert abs(z - r0) <= 1e-9 * max(r0, abs(zl)) * (1 + q)

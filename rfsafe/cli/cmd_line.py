@@ -91,7 +91,7 @@ def region_map(region, mark_ohm: complex | None = None) -> str:
     lines = [f"Loads a T network with C {region.capacitor_range_pf[0]:g}-{region.capacitor_range_pf[1]:g} pF and "
              f"L {region.inductor_range_uh[0]:g}-{region.inductor_range_uh[1]:g} uH can match to "
              f"{region.target_resistance_ohm:g} ohm at {region.freq_hz / 1e6:g} MHz "
-             f"(# matchable, . not{', @ the load it sees' if mark else ''}; ranges: {region.range_source})"]
+             f"(# matchable, . not{', @ the load it sees (nearest cell)' if mark else ''}; ranges: {region.range_source})"]
     for i in range(len(x) - 1, -1, -1):
         row = "".join("@" if mark == (i, k) else ("#" if region.matchable[i][k] else ".") for k in range(len(r)))
         lines.append(f"  X {x[i]:+8.0f} ohm |{row}|")

@@ -410,7 +410,7 @@ def _tuner_tolerable_swrs(spec: TunerSpec, result: TunerResult, rated: dict, *, 
            + ", at this power; SWR at the antenna end"
            + (" (the antenna's own SWR on the line's Z0)" if result.position == "antenna" else ""))
     out = {}
-    for name, kind in rated.items():
+    for name in rated:
         rating = next(p.rating for p in net.parts if p.name == name)
         k = next((k for k, c in enumerate(curves) if c.get(name, 0.0) > rating), None)
         if k is None:
