@@ -397,10 +397,24 @@ _NUMBER_IN = re.compile(r"\d")
 _NEAR_PLACE = re.compile(r"^([0-9.]+) m from (.+?) is inside the near-field boundary ([0-9.]+) m: (.*)$")
 
 
+_NUMBER = re.compile(r"(?<![A-Za-z\[_])[-+]?\d+(?:\.\d+)?(?:e[-+]?\d+)?")
+
+
+def merge_numbers(texts) -> str:
+    """Texts that differ only in their numbers as one text: each varying number becomes ``a / b (in order)``."""
+    pieces = _NUMBER.split(texts[0])
+    columns = list(zip(*(_NUMBER.findall(t) for t in texts)))
+    out = pieces[0]
+    for col, piece in zip(columns, pieces[1:]):
+        values = list(dict.fromkeys(col))
+        out += (values[0] if len(values) == 1 else " / ".join(col) + " (in order)") + piece
+    return out
+
+
 def _subjects(subjects) -> str:
     """``configuration a, configuration b`` -> ``configurations a, b`` (the kind said once)."""
     kinds = {s.split(" ", 1)[0] for s in subjects}
-    if len(subjects) > 1 and len(kinds) == 1 and all(" " in s for s in subjects):
+    if len(subjects) > 1 and kinds in ({"configuration"}, {"place"}):
         kind = kinds.pop()
         return f"{kind}s " + ", ".join(s.split(" ", 1)[1] for s in subjects)
     return ", ".join(subjects)
@@ -444,9 +458,21 @@ def grouped_flags(items) -> list[str]:
             order.append(text)
         if subject not in texts[text]:
             texts[text].append(subject)
+    # texts that differ only in their numbers, one subject each: one line, the numbers listed in order
+    masked: dict[str, list[str]] = {}
+    for key in order:
+        if not key.startswith("\0") and len(texts[key]) == 1:
+            masked.setdefault(_NUMBER.sub("#", key), []).append(key)
+    merged = {group[0]: group for group in masked.values() if len(group) > 1}
+    skip = {k for group in merged.values() for k in group[1:]}
     out = []
     for key in order:
-        if key.startswith("\0near"):
+        if key in skip:
+            continue
+        if key in merged:
+            group = merged[key]
+            out.append(f"{_subjects([texts[k][0] for k in group])}: {merge_numbers(group)}")
+        elif key.startswith("\0near"):
             tail = key[len("\0near"):]
             parts = "; ".join(f"{subj}: {', '.join(v[1:])} (boundary {v[0]} m)" for subj, v in near[tail].items())
             out.append(f"Compliance distance inside the near-field boundary ({tail}): {parts}.")

@@ -34,9 +34,19 @@ def text_boxes(fig, renderer) -> list[tuple[str, tuple[float, float, float, floa
     """
     from matplotlib.text import Text
 
+    ticks, drawn = set(), set()           # tick labels exist for ticks that are never drawn: keep the drawn ones
+    for ax in fig.axes:
+        for axis in (ax.xaxis, ax.yaxis):
+            for tick in axis.get_major_ticks() + axis.get_minor_ticks():
+                ticks.update((id(tick.label1), id(tick.label2)))
+            if ax.axison and axis.get_visible():
+                for tick in axis._update_ticks():
+                    drawn.update(id(lab) for lab in (tick.label1, tick.label2) if lab.get_visible())
+        if not ax.axison:
+            ticks.update((id(ax.xaxis.label), id(ax.yaxis.label)))
     out = []
     for t in fig.findobj(Text):
-        if not t.get_visible() or not str(t.get_text()).strip():
+        if not t.get_visible() or not str(t.get_text()).strip() or (id(t) in ticks and id(t) not in drawn):
             continue
         b = t.get_window_extent(renderer)
         out.append((str(t.get_text()), (b.x0, b.y0, b.x1, b.y1)))

@@ -21,6 +21,7 @@ KIND_STYLE = {
     "no-access": dict(edgecolor="#444444", hatch="xx", facecolor="none", linestyle="--"),
 }
 _RATIO_RANGE = (1e-2, 1e1)
+_ROPE = "#2e7d32"            # suggested rope-off circles: green, apart from the keep-out contours
 _KEEP_OUT = "#c0007a"        # keep-out contours: magenta, apart from the red-orange colour field  # colour scale limits (ratios outside are drawn at the ends)
 
 
@@ -55,15 +56,89 @@ def _label_point(polygon, inside_test, avoid=(), clearance: float = 0.0):
     return float(gx[k]), float(gy[k])
 
 
-def site_map_png(res, *, width_in: float = 10.2, height_in: float = 6.0, dpi: int = 200) -> bytes:
+def _labels(ax, renderer, res, markers_xy):
+    """Station names, violation numbers and area labels, each at the first candidate spot whose box stays
+    inside the map and clear of every marker and of the labels already placed."""
+    axbox = ax.get_window_extent(renderer)
+    marks = [ax.transData.transform([(x, y)])[0] for x, y in markers_xy]
+    taken = []
+
+    def clear(box):
+        inside = box.x0 >= axbox.x0 and box.x1 <= axbox.x1 and box.y0 >= axbox.y0 and box.y1 <= axbox.y1
+        return inside and not any(box.x0 - 5 <= mx <= box.x1 + 5 and box.y0 - 5 <= my <= box.y1 + 5
+                                  for mx, my in marks) and not any(box.overlaps(b) for b in taken)
+
+    def place(text, xy, offsets, **kw):
+        best = None
+        for dx, dy, ha, va in offsets:
+            t = ax.annotate(text, xy, xytext=(dx, dy), textcoords="offset points", ha=ha, va=va, **kw)
+            box = t.get_window_extent(renderer).expanded(1.06, 1.15)
+            if clear(box):
+                if best is not None:
+                    best[0].remove()
+                best = (t, box)
+                break
+            if best is None:
+                best = (t, box)
+            else:
+                t.remove()
+        taken.append(best[1])
+
+    around = [(8, 6, "left", "bottom"), (-8, 6, "right", "bottom"), (8, -8, "left", "top"), (-8, -8, "right", "top"),
+              (0, 10, "center", "bottom"), (0, -11, "center", "top"), (14, 0, "left", "center"),
+              (-14, 0, "right", "center"), (0, 22, "center", "bottom"), (0, -24, "center", "top")]
+    halo = dict(boxstyle="round,pad=0.15", facecolor="white", edgecolor="none", alpha=0.85)
+    for t in res.transmitters:
+        place(t.transmitter, (t.x_m, t.y_m), around, fontsize=7.5, fontweight="bold", color="#1f3a5f", zorder=12,
+              bbox=halo)
+    for i, v in enumerate(res.violations):
+        place(f"V{i + 1}", (v.x_m, v.y_m), around, fontsize=8, fontweight="bold", color="#b3122b", zorder=12,
+              bbox=halo)
+    for area in res.areas:
+        st = KIND_STYLE[area.kind]
+        spot = _label_point(area.polygon, _inside, markers_xy, 0.0) or area.polygon[0]
+        top = max(p[1] for p in area.polygon)
+        cx = float(np.mean([p[0] for p in area.polygon]))
+        box = dict(boxstyle="round,pad=0.2", facecolor="white", edgecolor=st["edgecolor"], linewidth=0.5, alpha=0.9)
+        cands = [(0, 0, "center", "center")] + [(dx, dy, ha, va) for dx, dy, ha, va in around]
+        best = None
+        for xy, offs in ((spot, cands), ((cx, top), [(0, 3, "center", "bottom"), (0, 14, "center", "bottom")])):
+            t = None
+            for dx, dy, ha, va in offs:
+                t = ax.annotate(area.label, xy, xytext=(dx, dy), textcoords="offset points", ha=ha, va=va,
+                                fontsize=7, zorder=6, color=st["edgecolor"], bbox=box)
+                b = t.get_window_extent(renderer).expanded(1.04, 1.1)
+                if clear(b):
+                    best = (t, b)
+                    break
+                t.remove()
+            if best is not None:
+                break
+        if best is None:   # nothing clear: the area's own point
+            t = ax.annotate(area.label, spot, ha="center", va="center", fontsize=7, zorder=6, color=st["edgecolor"],
+                            bbox=box)
+            best = (t, t.get_window_extent(renderer))
+        taken.append(best[1])
+
+
+def _inside(x, y, polygon):
+    from rfsafe.site import points_in_polygon
+
+    return points_in_polygon(x, y, polygon)
+
+
+def site_map_png(res, *, width_in: float = 10.2, height_in: float = 6.0, dpi: int = 200,
+                 boxes: list | None = None) -> bytes:
     """Draw the site map of ``res`` and return PNG bytes (reproducible).
 
     Drawn: the total exposure ratio against the uncontrolled (public) limit as a colour field on a
     log scale; the contour ratio = 1 of both environments (solid: uncontrolled, the public's
     keep-out line; dashed: controlled, nobody inside); the site boundary; the areas with their
     labels; the stations with their labels, beam headings (arrows) and dipole wires (bars); the
-    near-field reach on the ground (dotted circles); the worst point of each violation (V1, V2,
-    ...); a north arrow and a scale bar.
+    near-field reach on the ground (dotted circles); the suggested rope-off circles; the worst
+    point of each violation (V1, V2, ...; an open ring that leaves the antenna and the contours
+    visible); a north arrow and a scale bar. ``boxes``, when given, receives (text, box) of every
+    label drawn (for the tests that check that no two labels overlap).
     """
     import matplotlib
     import matplotlib.style
@@ -74,7 +149,6 @@ def site_map_png(res, *, width_in: float = 10.2, height_in: float = 6.0, dpi: in
     from matplotlib.patches import Circle, FancyArrow, Patch, Polygon
     from mpl_toolkits.axes_grid1.anchored_artists import AnchoredSizeBar
 
-    from rfsafe.site import points_in_polygon
 
     g = res.grid
     with matplotlib.style.context("default"), matplotlib.rc_context({
@@ -82,9 +156,10 @@ def site_map_png(res, *, width_in: float = 10.2, height_in: float = 6.0, dpi: in
             "axes.linewidth": 0.6, "path.simplify": True}):
         fig = Figure(figsize=(width_in, height_in), dpi=dpi)
         FigureCanvasAgg(fig)
-        ax = fig.add_axes((0.05, 0.08, 0.70, 0.86))
-        cax = fig.add_axes((0.77, 0.50, 0.015, 0.42))
-        lax = fig.add_axes((0.77, 0.02, 0.22, 0.40))
+        lw = min(1.95 / width_in, 0.3)          # legend column: about 2 in, whatever the map's size
+        ax = fig.add_axes((0.07, 0.09, 0.93 - lw - 0.07, 0.86))
+        cax = fig.add_axes((0.95 - lw, 0.66, 0.018, 0.28))
+        lax = fig.add_axes((0.95 - lw, 0.01, lw, 0.58))
         lax.axis("off")
 
         unc = np.nan_to_num(g.ratio[1], posinf=_RATIO_RANGE[1] * 10, nan=_RATIO_RANGE[1] * 10)
@@ -93,7 +168,7 @@ def site_map_png(res, *, width_in: float = 10.2, height_in: float = 6.0, dpi: in
         mesh = ax.pcolormesh(g.x_m, g.y_m, shown, cmap="OrRd", norm=LogNorm(*_RATIO_RANGE), shading="nearest",
                              rasterized=True)
         cb = fig.colorbar(mesh, cax=cax)
-        cb.set_label("total exposure ratio, uncontrolled (public) limit\n(worst height; 1 = limit)", fontsize=7)
+        cb.set_label("total exposure ratio,\nuncontrolled (public) limit\n(worst height; 1 = limit)", fontsize=7.5)
         cb.set_ticks([0.01, 0.1, 1, 10])
         cb.set_ticklabels(["≤ 0.01", "0.1", "1", "≥ 10"])
         if (unc > 1).any():
@@ -105,19 +180,7 @@ def site_map_png(res, *, width_in: float = 10.2, height_in: float = 6.0, dpi: in
         xr = g.extent_m[1] - g.extent_m[0]
         stations_xy = [(t.x_m, t.y_m) for t in res.transmitters] + [(v.x_m, v.y_m) for v in res.violations]
         for area in res.areas:
-            st = KIND_STYLE[area.kind]
-            ax.add_patch(Polygon(area.polygon, closed=True, linewidth=1.0, zorder=3, **st))
-            spot = _label_point(area.polygon, points_in_polygon, stations_xy, 0.08 * xr)
-            box = dict(boxstyle="round,pad=0.2", facecolor="white", edgecolor=st["edgecolor"], linewidth=0.5,
-                       alpha=0.9)
-            if spot is None:   # too small to hold the label clear of its station: label it just above
-                top = max(p[1] for p in area.polygon)
-                cx = float(np.mean([p[0] for p in area.polygon]))
-                ax.annotate(area.label, (cx, top), xytext=(0, 3), textcoords="offset points", ha="center",
-                            va="bottom", fontsize=6.5, zorder=6, color=st["edgecolor"], bbox=box)
-            else:
-                ax.text(spot[0], spot[1], area.label, ha="center", va="center", fontsize=6.5, zorder=6,
-                        color=st["edgecolor"], bbox=box)
+            ax.add_patch(Polygon(area.polygon, closed=True, linewidth=1.0, zorder=3, **KIND_STYLE[area.kind]))
 
         arrow_len = 0.09 * xr
         drawn = set()
@@ -143,17 +206,16 @@ def site_map_png(res, *, width_in: float = 10.2, height_in: float = 6.0, dpi: in
                 ax.add_patch(Circle((em.x_m, em.y_m), reach, fill=False, linestyle=":", linewidth=0.8,
                                     edgecolor="#555555", zorder=4))
         for t in res.transmitters:
+            if t.rope_off_radius_m:
+                ax.add_patch(Circle((t.x_m, t.y_m), t.rope_off_radius_m, fill=False, linestyle=(0, (6, 2)),
+                                    linewidth=1.1, edgecolor=_ROPE, zorder=5))
             ax.plot([t.x_m], [t.y_m], marker="^", markersize=7, color="#1f3a5f", markeredgecolor="white",
-                    markeredgewidth=0.8, zorder=8, linestyle="none")
-            ax.annotate(t.transmitter, (t.x_m, t.y_m), xytext=(-4, -12), textcoords="offset points", fontsize=7,
-                        ha="right",
-                        fontweight="bold", color="#1f3a5f", zorder=9,
-                        bbox=dict(boxstyle="round,pad=0.15", facecolor="white", edgecolor="none", alpha=0.8))
-        for i, v in enumerate(res.violations):
-            ax.plot([v.x_m], [v.y_m], marker="X", markersize=9, color="#b3122b", markeredgecolor="white",
-                    markeredgewidth=0.8, zorder=10, linestyle="none")
-            ax.annotate(f"V{i + 1}", (v.x_m, v.y_m), xytext=(6, -10), textcoords="offset points", fontsize=7.5,
-                        fontweight="bold", color="#b3122b", zorder=10)
+                    markeredgewidth=0.8, zorder=11, linestyle="none")
+        for v in res.violations:   # an open ring around the worst point: the antenna and contours stay visible
+            ax.plot([v.x_m], [v.y_m], marker="o", markersize=11, markerfacecolor="none", markeredgecolor="#b3122b",
+                    markeredgewidth=1.6, zorder=10, linestyle="none")
+        renderer = fig.canvas.get_renderer()
+        _labels(ax, renderer, res, stations_xy)
 
         ax.set_xlim(g.extent_m[0], g.extent_m[1])
         ax.set_ylim(g.extent_m[2], g.extent_m[3])
@@ -184,11 +246,17 @@ def site_map_png(res, *, width_in: float = 10.2, height_in: float = 6.0, dpi: in
             Line2D([], [], marker="^", color="#1f3a5f", linestyle="none", markersize=6, label="station (antenna)"),
             Line2D([], [], color="#1f3a5f", linewidth=2, label="beam heading (arrow) /\ndipole wire (bar)"),
             Line2D([], [], color="#555555", linestyle=":", label="near field on the ground\n(far field not valid)"),
-            Line2D([], [], marker="X", color="#b3122b", linestyle="none", markersize=7,
-                   label="violation, worst point"),
+            Line2D([], [], color=_ROPE, linestyle=(0, (6, 2)), linewidth=1.1, label="suggested rope-off circle"),
+            Line2D([], [], marker="o", markerfacecolor="none", markeredgecolor="#b3122b", markeredgewidth=1.4,
+                   linestyle="none", markersize=8, label="violation V1, V2 ...:\nworst point (ring)"),
         ]
-        lax.legend(handles=handles, loc="lower left", fontsize=6, frameon=False, borderaxespad=0.0,
-                   handlelength=2.2)
+        lax.legend(handles=handles, loc="lower left", fontsize=7.5, frameon=False, borderaxespad=0.0,
+                   handlelength=2.2, labelspacing=0.45)
+        fig.canvas.draw()
+        if boxes is not None:
+            from rfsafe.report.plan_map import text_boxes
+
+            boxes.extend(text_boxes(fig, fig.canvas.get_renderer()))
         buf = io.BytesIO()
         fig.savefig(buf, format="png", dpi=dpi, metadata={"Software": None})
     return buf.getvalue()

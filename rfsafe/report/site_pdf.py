@@ -2,11 +2,13 @@
 
 It renders a :class:`rfsafe.site.SiteResult` and computes nothing new. Sections, in order:
 
-1. identity (title, site, evaluator, date, standard, rfsafe version, SHA-256 of the site file
-   and of every station file it reads) and the overall verdict, with the violations listed first;
-2. stations and their keep-out zones (rope-off radii);
-3. areas and the worst exposure in each;
-4. the site map (landscape page);
+- (unnumbered) identity (title, site, evaluator, date, standard, rfsafe version, SHA-256 of the site
+  file and of every station file it reads) and the verdicts, with the violations and the keep-out
+  zones of every station listed first;
+1. stations and their keep-out zones (rope-off radii);
+2. areas and the worst exposure in each;
+3. the site map (landscape page);
+4. the 47 CFR 1.1307(b)(3) exemption (FCC sites);
 5. configurations (power chain from the core evaluation);
 6. method and assumptions;
 7. cautions and flags;
@@ -25,11 +27,11 @@ from pathlib import Path
 from xml.sax.saxutils import escape
 
 from reportlab.lib.units import mm
-from reportlab.platypus import CondPageBreak, Image, KeepTogether, NextPageTemplate, PageBreak, Paragraph, Spacer
+from reportlab.platypus import CondPageBreak, Image, KeepTogether, Paragraph, Spacer
 
-from rfsafe.report.common import (COMPLIES_COLOR, EXCEEDS_COLOR, FONT_BOLD, PAGE_LANDSCAPE, build_pdf,
-                                  cautions_block, data_table, frame_width, identity_block, kv_table, num, p,
-                                  ratio_text, section_heading, signoff_block, styles)
+from rfsafe.report.common import (COMPLIES_COLOR, EXCEEDS_COLOR, FONT_BOLD, build_pdf,
+                                  cautions_block, data_table, frame_width, grouped_flags, identity_block, kv_table,
+                                  num, p, ratio_text, section_heading, signoff_block, styles)
 
 __all__ = ["build_site_pdf", "write_site_pdf", "site_story"]
 
@@ -72,7 +74,7 @@ def _identity(res, width) -> list:
     if not n_v:
         rope = [t for t in res.transmitters if t.rope_off_radius_m]
         detail = (f"no area above its limit; {len(rope)} station{'s' if len(rope) != 1 else ''} "
-                  "need a roped keep-out zone (section 2)" if rope else "no area above its limit; no keep-out zone")
+                  "need a roped keep-out zone (section 1)" if rope else "no area above its limit; no keep-out zone")
     else:
         detail = f"{n_v} violation{'s' if n_v != 1 else ''}: see the list below"
     equipment_detail = {"RATING EXCEEDED": f"{len(rated)} rating{'s' if len(rated) != 1 else ''} exceeded: see the "
@@ -97,13 +99,49 @@ def _identity(res, width) -> list:
         out.append(p("Ratings exceeded:", "h2"))
         for line in rated:
             out.append(Paragraph(f'<font color="{_hex(EXCEEDS_COLOR)}">{escape(line)}</font>', st, bulletText="✗"))
-    rope = [t for t in res.transmitters if t.rope_off_radius_m]
-    if rope:
-        out.append(p("Keep-out zones to rope off before transmitting:", "h2"))
-        for t in rope:
-            out.append(Paragraph(escape(f"{t.transmitter}: rope at {t.rope_off_radius_m:g} m or more from the "
-                                        f"antenna at ({t.x_m:g}, {t.y_m:g}) m (keep-out zone reaches "
-                                        f"{t.keep_out_m['uncontrolled']:.2f} m on the ground)"), st, bulletText="•"))
+    from rfsafe.report.site_text import station_zone_lines
+
+    out.append(p("Keep-out zones, station by station (rope them off before transmitting):", "h2"))
+    for _, state, line in station_zone_lines(res):
+        if state == "violation":
+            out.append(Paragraph(f'<font color="{_hex(EXCEEDS_COLOR)}">{escape(line)}</font>', st, bulletText="✗"))
+        elif state == "zone":
+            out.append(Paragraph(f"<b>{escape(line)}</b>", st, bulletText="!"))
+        else:
+            out.append(Paragraph(escape(line), st, bulletText="–"))
+    return out
+
+
+# ------------------------------------------------------------------ 4 exemption
+def _exemption(res, width) -> list:
+    """Section 4: 47 CFR 1.1307(b)(3) over every station (FCC sites only)."""
+    ex = getattr(res, "exemption", None)
+    if ex is None:
+        return []
+    import math
+
+    from rfsafe.report.worksheet import EXEMPTION_STATEMENT
+
+    out = [section_heading("4", "Exemption from routine evaluation, 47 CFR 1.1307(b)(3)")]
+    status = "EXEMPT from routine evaluation" if ex.exempt else "NOT EXEMPT: a routine evaluation is required"
+    total = ex.sum_of_fractions
+    total_text = (f"{num(total)} (exempt needs at most 1)" if total is not None and math.isfinite(float(total))
+                  else "not a number: at least one source has no applicable threshold, so exemption cannot be claimed")
+    out.append(p(f"Status: <b>{escape(status)}</b>. Criterion: {escape(ex.criterion)}. Sum of fractions over every "
+                 f"station: {escape(total_text)}. R of each source: the smallest distance from its antenna's nearest "
+                 "part to a point outside the no-access areas, at the review's heights.", "body", markup=True))
+    rows = []
+    for s in ex.per_source:
+        finite = s.fraction is not None and math.isfinite(float(s.fraction))
+        rows.append([s.label, f"{s.criterion} ({s.reference})", f"{num(s.value_w)} ({s.value_kind})",
+                     num(s.threshold_w) if s.threshold_w is not None else "none applies", num(s.erp_w),
+                     num(s.fraction) if finite else "–"])
+    out.append(data_table(["source", "criterion (paragraph)", "value compared W", "threshold W", "ERP W", "fraction"],
+                          rows, [0.18 * width, 0.32 * width, 0.2 * width, 0.11 * width, 0.09 * width, 0.10 * width],
+                          align="lllrrr"))
+    for a in ex.assumptions:
+        out.append(Paragraph(escape(a), styles()["small"], bulletText="·"))
+    out.append(p(ex.note if "duty to comply" in (ex.note or "") else EXEMPTION_STATEMENT, "body"))
     return out
 
 
@@ -111,25 +149,26 @@ def _identity(res, width) -> list:
 def _map(res) -> list:
     from rfsafe.report.site_map import site_map_png
 
-    width = PAGE_LANDSCAPE[0] - 30 * mm
-    height = width * 6.0 / 10.2
-    png = site_map_png(res, width_in=10.2, height_in=6.0, dpi=200)
+    # drawn at its printed size (a portrait page's width), so its text prints at its own size
+    w_in, h_in = frame_width() / 72.0, 4.5
+    width, height = w_in * 72.0, h_in * 72.0
+    png = site_map_png(res, width_in=w_in, height_in=h_in, dpi=200)
     g = res.grid_info
     caption = (f"Colour: total exposure ratio against the uncontrolled (public) limit, worst of the heights "
                f"{', '.join(f'{h:g}' for h in res.heights_m)} m, summed over all stations (each its worst "
                f"configuration). Magenta contours: ratio = 1 against the uncontrolled limit (solid; the public "
                f"must be kept out inside) and the controlled limit (dashed; nobody inside). Grid "
                f"{res.grid_spacing_m:g} m, {g['nx']} x {g['ny']} points. Dotted circles: where the ground is in an "
-               f"antenna's near field (the far-field estimate is not valid there). Crosses V1, V2, ...: the worst "
-               f"point of each violation. x east, y north, metres.")
-    return [NextPageTemplate("landscape"), PageBreak(), section_heading("4", "Site map"),
-            Image(io.BytesIO(png), width=width, height=height), p(caption, "caption"),
-            NextPageTemplate("portrait"), PageBreak()]
+               f"antenna's near field (the far-field estimate is not valid there). Green dashed circles: the "
+               f"suggested rope-off radius of each station with a keep-out zone (section 1). Red rings V1, V2, ...: "
+               f"the worst point of each violation. x east, y north, metres.")
+    return [KeepTogether([section_heading("3", "Site map"), Image(io.BytesIO(png), width=width, height=height),
+                          p(caption, "caption")])]
 
 
 # ------------------------------------------------------------------ 3 stations
 def _stations(res, width) -> list:
-    out = [section_heading("2", "Stations and keep-out zones")]
+    out = [section_heading("1", "Stations and keep-out zones")]
     out.append(p("Keep-out distances are horizontal distances on the ground from the antenna to the farthest grid "
                  "point of the total keep-out zone where this station has the largest share (uncontrolled: the "
                  "public must be kept out; controlled: nobody). The peak-gain distance is the 3-D far-field "
@@ -158,7 +197,7 @@ def _stations(res, width) -> list:
 
 # ------------------------------------------------------------------ 4 areas
 def _areas(res, width) -> list:
-    out = [CondPageBreak(60 * mm), section_heading("3", "Areas")]
+    out = [CondPageBreak(60 * mm), section_heading("2", "Areas")]
     out.append(p("Worst total exposure ratio found at the area's grid points and along its edges (1 = limit). "
                  "Public areas, open ground (in no declared area) and ground outside the site are checked against "
                  "the uncontrolled limit, operators' areas against the controlled limit; no-access areas are not "
@@ -222,13 +261,24 @@ def _near_field_maps(res, width) -> list:
 
 # ------------------------------------------------------------------ 6-8
 def _method(res) -> list:
-    out = [CondPageBreak(50 * mm), section_heading("6", "Method and assumptions")]
+    out = [section_heading("6", "Method and assumptions")]
     for note in res.method_notes:
         out.append(Paragraph(escape(note), styles()["bullet"], bulletText="•"))
     from rfsafe.report.worksheet import _verification   # the published figures used, checked or not
 
     out.extend(_verification(res, frame_width()))
     return out
+
+
+def _grouped_site_flags(flags) -> list[str]:
+    """Each flag once, with the stations and configurations it applies to."""
+    import re
+
+    items = []
+    for f in flags:
+        m = re.match(r"^(.+?, configuration [^:]+): (.*)$", f)
+        items.append((m.group(1), m.group(2)) if m else ("", f))
+    return [g[2:] if g.startswith(": ") else g for g in grouped_flags(items)]
 
 
 def site_story(res) -> list:
@@ -242,11 +292,12 @@ def site_story(res) -> list:
     story += _stations(res, width)
     story += _areas(res, width)
     story += _map(res)
+    story += _exemption(res, width)
     story += _configurations(res, width)
     story += _method(res)
     story.append(CondPageBreak(70 * mm))
     story.append(section_heading("7", "Cautions"))
-    story += cautions_block(res.cautions, res.flags)
+    story += cautions_block(res.cautions, _grouped_site_flags(res.flags))
     story.append(Spacer(1, 4 * mm))
     story.append(KeepTogether([section_heading("8", "Sign-off"),
                                p("I have reviewed the inputs and results of this site review, and the keep-out zones "

@@ -28,7 +28,7 @@ from pathlib import Path
 from xml.sax.saxutils import escape
 
 from reportlab.lib.units import mm
-from reportlab.platypus import CondPageBreak, Image, KeepTogether, PageBreak, Paragraph, Spacer
+from reportlab.platypus import CondPageBreak, Image, KeepTogether, Paragraph, Spacer
 
 from rfsafe.report.common import (COMPLIES_COLOR, EXCEEDS_COLOR, FONT_BOLD, build_pdf, cautions_block, data_table,
                                   frame_width, grouped_flags, identity_block, kv_table, margin_text, num, p,

@@ -214,6 +214,8 @@ def _site_verdicts(analysis, stations) -> dict:
 
 #: Grid points nearest to each antenna used to find its separation from where people may be.
 _EXEMPTION_POINTS = 400
+#: Separation taken where a person can reach the antenna itself [m] (smaller is never less conservative).
+_TOUCH_M = 1e-3
 
 
 def site_exemption(loaded_site, stations, grid, areas):
@@ -247,6 +249,8 @@ def site_exemption(loaded_site, stations, grid, areas):
             people = [SimpleNamespace(x_m=float(px[k] - s.x_m), y_m=float(py[k] - s.y_m), height_m=heights[0],
                                       body_heights_m=heights) for k in near]
             sep, how, known = _separation_m(loaded, ant, c.freq_mhz * 1e6, people)
+            if sep < _TOUCH_M:   # people can reach the antenna itself: the smallest separation the test takes
+                sep, how = _TOUCH_M, f"{how}; people can reach the antenna, separation taken as {_TOUCH_M * 1e3:g} mm"
             label = f"{st.name} {c.id}"
             notes.append(f"{label}: separation {sep:.2f} m from the nearest point outside the no-access areas, {how}")
             if not known:
