@@ -950,6 +950,11 @@ def assess_with_emitters(loaded: LoadedStation, *, today: dt.date | None = None,
         "Distances are to the nearest part of each antenna's radiating structure (wire geometry, textbook element "
         "sizes, a beam's elements and boom, or a stated assumed size; each result names it); places closer than "
         "lambda/2pi (or 2D^2/lambda for an aperture) are flagged: far-field estimate.",
+        *(("Wire antennas: places within max(lambda/2pi, 2D^2/lambda) of any part of the wires are evaluated "
+           "with the moment-method solver; beyond it the far-field estimate from the nearest wire point is never "
+           "below the solver's value; a wire declared over free space is also solved over a perfect ground and "
+           "the worse governs (a bound: real soil lies between the two).",)
+          if any(c.wire is not None for c in configs) else ()),
         f"Line loss model: {'; '.join(loss_models)}.",
         f"Limits: {info.name}; averaging times as the standard gives them per environment.",
     )
