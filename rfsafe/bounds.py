@@ -19,7 +19,7 @@ __all__ = [
     "MAX_GRID_POINTS", "MAX_WIRE_SEGMENTS", "MAX_WIRE_POINTS", "MAX_PATTERN_ROWS", "MAX_POWER_W",
     "MAX_DISTANCE_M", "MAX_LENGTH_M", "MAX_SWR", "MIN_RESISTANCE_OHM", "MAX_IMPEDANCE_OHM",
     "MAX_TEXT_CHARS", "MAX_GAIN_DBI", "MIN_GAIN_DBI", "MAX_LOSS_DB", "MAX_Q", "check_nesting", "nesting_error",
-    "nesting_depth", "finite_in_range",
+    "nesting_depth", "finite_in_range", "field_bound_problem", "MAX_ANY_NUMBER",
     "check_file_size", "BOUNDS_TABLE",
 ]
 
@@ -147,3 +147,73 @@ def finite_in_range(field: str, value: float, lo: float | None, hi: float | None
         raise bad_value(field, value, f"is out of range (accepted: a finite number {' and '.join(parts)})"
                         if parts else "must be a finite number")
     return float(value)
+
+
+#: Upper bounds on a number by the unit suffix of its field name (rfsafe names every field with its
+#: unit, so one table covers every file): suffix -> (largest magnitude, unit shown).
+_BY_SUFFIX = (
+    ("_rating", 1e9, ""),
+    ("_w", MAX_POWER_W, "W"),
+    ("_m", MAX_DISTANCE_M, "m"),
+    ("_ohm", MAX_IMPEDANCE_OHM, "ohm"),
+    ("_mhz", 3e5, "MHz"),
+    ("_dbi", MAX_GAIN_DBI, "dBi"),
+    ("_dbd", MAX_GAIN_DBI, "dBd"),
+    ("_db", MAX_LOSS_DB, "dB"),
+    ("_deg", 360.0, "deg"),
+    ("_minutes", 1e6, "minutes"),
+    ("_q", MAX_Q, ""),
+    ("_v_peak", 1e9, "V peak"),
+    ("swr", MAX_SWR, ""),
+)
+#: Any other number: a magnitude no input of rfsafe needs.
+MAX_ANY_NUMBER = 1e12
+#: Longest lists by field name; any other list holds at most MAX_LIST_ITEMS.
+_LIST_BOUNDS = {
+    "places": MAX_PLACES, "points": MAX_PLACES, "configurations": MAX_CONFIGURATIONS,
+    "body_heights_m": MAX_BODY_HEIGHTS, "heights_m": MAX_BODY_HEIGHTS, "stations": MAX_SITE_STATIONS,
+    "boundary": MAX_POLYGON_VERTICES, "polygon": MAX_POLYGON_VERTICES, "points_m": MAX_WIRE_POINTS,
+}
+
+
+def _number_bound(name: str) -> tuple[float, str]:
+    for suffix, hi, unit in _BY_SUFFIX:
+        if name.endswith(suffix):
+            return hi, unit
+    return MAX_ANY_NUMBER, ""
+
+
+def _numbers(value, where=""):
+    """(index text, number) for every number in a value (nested lists included)."""
+    if isinstance(value, bool):
+        return
+    if isinstance(value, (int, float)):
+        yield where, value
+    elif isinstance(value, (list, tuple)):
+        for i, v in enumerate(value):
+            yield from _numbers(v, f"{where}[{i}]")
+
+
+def field_bound_problem(name: str, value: Any) -> str | None:
+    """What is wrong with ``value`` of field ``name`` under the bounds above, or None.
+
+    Numbers (also inside lists) are checked by the unit suffix of the field name; lists by their
+    length; ``segments`` against :data:`MAX_WIRE_SEGMENTS`.
+    """
+    if isinstance(value, (list, tuple)):
+        most = _LIST_BOUNDS.get(name, MAX_LIST_ITEMS)
+        if len(value) > most:
+            return f"has {len(value)} items (accepted: at most {most})"
+    if name == "segments" and isinstance(value, int) and not isinstance(value, bool):
+        if value > MAX_WIRE_SEGMENTS:
+            return f"is out of range (accepted: at most {MAX_WIRE_SEGMENTS} segments per wire antenna)"
+        return None
+    hi, unit = _number_bound(name)
+    for where, x in _numbers(value):
+        if isinstance(x, float) and not math.isfinite(x):
+            return f"{where + ' ' if where else ''}must be a finite number".lstrip()
+        if abs(x) > hi:
+            shown = f"{x:g}" if isinstance(x, float) else str(x)
+            lead = f"has {shown} at {where}, " if where else "is "
+            return f"{lead}out of range (accepted: magnitude at most {hi:g}{' ' + unit if unit else ''})"
+    return None

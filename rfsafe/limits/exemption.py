@@ -23,6 +23,7 @@ import math
 from collections.abc import Sequence
 from dataclasses import dataclass
 from functools import lru_cache
+from typing import ClassVar
 from importlib import resources
 
 from rfsafe.errors import bad_value
@@ -136,6 +137,11 @@ class SourceExemption:
     other_criteria: tuple[str, ...]
     threshold_verification: str = "not confirmed"
 
+    #: Why a field has no finite value (the JSON writer puts it in ``<field>_note``).
+    NONFINITE_NOTES: ClassVar[dict] = {
+        "fraction": "no exemption criterion applies to this source (see other_criteria): no threshold to divide by",
+    }
+
 
 @dataclass(frozen=True)
 class ExemptionResult:
@@ -164,6 +170,11 @@ class ExemptionResult:
     per_source: tuple[SourceExemption, ...]
     note: str
     assumptions: tuple[str, ...]
+
+    #: Why a field has no finite value (the JSON writer puts it in ``<field>_note``).
+    NONFINITE_NOTES: ClassVar[dict] = {
+        "sum_of_fractions": "no exemption criterion applies to some source (see per_source): not exempt",
+    }
 
 
 def erp_w(avg_power_w, gain_dbi):

@@ -15,9 +15,10 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Literal
 
-from pydantic import BaseModel, ConfigDict, Field
+from pydantic import Field
 
 from rfsafe.station.schema import Antenna, Configuration, Feedline, Transmitter
+from rfsafe.station.validation import StrictModel
 
 __all__ = ["SiteStation", "SiteArea", "Site", "LoadedSite", "DEFAULT_HEIGHTS_M", "DEFAULT_GRID_SPACING_M"]
 
@@ -30,8 +31,8 @@ DEFAULT_GRID_SPACING_M = 0.25
 _STATION_TABLES = ("transmitters", "feedlines", "antennas", "configurations")
 
 
-class _Strict(BaseModel):
-    model_config = ConfigDict(strict=True, extra="forbid", frozen=True, allow_inf_nan=False)
+class _Strict(StrictModel):
+    """Strict, unknown keys refused, finite and bounded numbers (see rfsafe.bounds)."""
 
 
 class SiteStation(_Strict):

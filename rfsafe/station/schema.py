@@ -9,9 +9,10 @@ from __future__ import annotations
 import datetime as dt
 from typing import Literal
 
-from pydantic import BaseModel, ConfigDict, Field
+from pydantic import Field
 
 from rfsafe.antenna.wire.model import WireAntennaSpec
+from rfsafe.station.validation import StrictModel
 
 __all__ = [
     "ANTENNA_KINDS", "GROUND_REFLECTION", "Transmitter", "Balun", "Feedline", "Antenna", "Schedule",
@@ -25,8 +26,8 @@ ANTENNA_KINDS = ("isotropic", "short-dipole", "half-wave-dipole", "quarter-wave-
                  "beam", "table", "wire", "other")
 
 
-class _Strict(BaseModel):
-    model_config = ConfigDict(strict=True, extra="forbid", frozen=True, allow_inf_nan=False)
+class _Strict(StrictModel):
+    """Strict, unknown keys refused, finite and bounded numbers (see rfsafe.bounds)."""
 
 
 class Transmitter(_Strict):

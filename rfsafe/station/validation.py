@@ -6,11 +6,11 @@ import tomllib
 from pathlib import Path
 from typing import Any
 
-from pydantic import BaseModel, ValidationError
+from pydantic import BaseModel, ConfigDict, ValidationError, ValidationInfo, field_validator
 
 from rfsafe.errors import InputError, bad_value, format_value
 
-__all__ = ["field_path", "validation_to_input_error", "read_toml", "validate_model",
+__all__ = ["StrictModel", "field_path", "validation_to_input_error", "read_toml", "validate_model",
            "validate_with_standard"]
 
 _TYPE_WORDS = {
@@ -26,6 +26,25 @@ _TYPE_WORDS = {
     "date_type": "must be a TOML date (YYYY-MM-DD, no quotes)",
     "finite_number": "must be a finite number",
 }
+
+
+class StrictModel(BaseModel):
+    """Base of every file model: strict types, unknown keys refused, finite numbers, and the bounds of
+    :mod:`rfsafe.bounds` (numbers by the unit suffix of their field name, list lengths, text length)."""
+
+    model_config = ConfigDict(strict=True, extra="forbid", frozen=True, allow_inf_nan=False)
+
+    @field_validator("*", mode="after")
+    @classmethod
+    def _within_bounds(cls, value: Any, info: ValidationInfo) -> Any:
+        from rfsafe.bounds import MAX_TEXT_CHARS, field_bound_problem
+
+        if isinstance(value, str) and len(value) > MAX_TEXT_CHARS:
+            raise ValueError(f"is {len(value)} characters long (accepted: at most {MAX_TEXT_CHARS})")
+        problem = field_bound_problem(info.field_name, value)
+        if problem:
+            raise ValueError(problem)
+        return value
 
 
 def field_path(loc: tuple[Any, ...]) -> str:
@@ -91,6 +110,8 @@ def validation_to_input_error(err: ValidationError, model: type[BaseModel], *, p
         return bad_value(path, value, f"has the wrong length ({first['msg'].lower()})")
     if kind in _TYPE_WORDS:
         return bad_value(path, value, _TYPE_WORDS[kind])
+    if kind == "value_error":  # a bound of rfsafe.bounds (StrictModel) or a model's own check
+        return bad_value(path, value, str(ctx.get("error", first["msg"])).removeprefix("Value error, "))
     return bad_value(path, value, f"is not accepted ({first['msg']})")
 
 

@@ -13,9 +13,10 @@ import math
 from pathlib import Path
 from typing import Annotated, Literal
 
-from pydantic import BaseModel, ConfigDict, Field
+from pydantic import Field
 
 from rfsafe.errors import InputError, bad_value, format_value
+from rfsafe.station.validation import StrictModel
 
 __all__ = [
     "WireSpec", "FeedSpec", "CircuitSpec", "LoadSpec", "ChokeSpec", "ShieldSpec", "WireAntennaSpec", "PointSpec", "WireFile",
@@ -27,8 +28,8 @@ __all__ = [
 Vec3 = Annotated[list[float], Field(min_length=3, max_length=3)]
 
 
-class _Strict(BaseModel):
-    model_config = ConfigDict(strict=True, extra="forbid", frozen=True, allow_inf_nan=False)
+class _Strict(StrictModel):
+    """Strict, unknown keys refused, finite and bounded numbers (see rfsafe.bounds)."""
 
 
 class WireSpec(_Strict):
