@@ -123,3 +123,116 @@ def test_line_profile_draws_every_sample_and_places_ratings():
     # the 500 V rating is within 10x of the maximum: drawn; the 7071 V one is named in the caption
     assert any(getattr(s, "text", "") == "connector.antenna 500 V peak" for s in drawing.contents)
     assert "line rated 7071 V peak (headroom 47.1×)" in caption
+
+
+# ------------------------------------------------------------------ labels never collide (every demo figure)
+import itertools  # noqa: E402
+from pathlib import Path  # noqa: E402
+
+from reportlab.graphics.shapes import Group, String  # noqa: E402
+from reportlab.lib.units import mm  # noqa: E402
+from reportlab.pdfbase.pdfmetrics import stringWidth  # noqa: E402
+
+_DEMOS = Path(__file__).resolve().parent.parent / "reports_demo"
+
+
+def _mul(a, b):
+    """Product of two 2-D affine transforms (a, b, c, d, e, f) as reportlab writes them."""
+    return (a[0] * b[0] + a[2] * b[1], a[1] * b[0] + a[3] * b[1], a[0] * b[2] + a[2] * b[3],
+            a[1] * b[2] + a[3] * b[3], a[0] * b[4] + a[2] * b[5] + a[4], a[1] * b[4] + a[3] * b[5] + a[5])
+
+
+def drawing_text_boxes(node, t=(1, 0, 0, 1, 0, 0)):
+    """(text, box) of every String of a reportlab drawing, in drawing coordinates (rotations applied).
+
+    The box spans the glyphs' descent (0.2 em below the baseline) to cap height (0.72 em above),
+    DejaVu Sans metrics rounded (from the font's own figures).
+    """
+    out = []
+    if isinstance(node, Group):
+        t2 = _mul(t, tuple(node.transform)) if getattr(node, "transform", None) else t
+        for c in node.contents:
+            out += drawing_text_boxes(c, t2)
+    elif isinstance(node, String):
+        w = stringWidth(node.text, node.fontName, node.fontSize)
+        x0 = node.x - {"end": w, "middle": w / 2}.get(node.textAnchor, 0.0)
+        y0, y1 = node.y - 0.2 * node.fontSize, node.y + 0.72 * node.fontSize
+        pts = [(t[0] * x + t[2] * y + t[4], t[1] * x + t[3] * y + t[5]) for x in (x0, x0 + w) for y in (y0, y1)]
+        out.append((node.text, (min(p[0] for p in pts), min(p[1] for p in pts),
+                                max(p[0] for p in pts), max(p[1] for p in pts))))
+    elif hasattr(node, "contents"):
+        for c in node.contents:
+            out += drawing_text_boxes(c, t)
+    return out
+
+
+def colliding(boxes, tol=0.3):
+    """Pairs of texts whose boxes overlap by more than ``tol`` in both directions."""
+    return [(ta, tb) for (ta, a), (tb, b) in itertools.combinations(boxes, 2)
+            if min(a[2], b[2]) - max(a[0], b[0]) > tol and min(a[3], b[3]) - max(a[1], b[1]) > tol]
+
+
+@pytest.fixture(scope="module")
+def demo_results():
+    from rfsafe.remedies import with_answers
+    from rfsafe.station import load_station
+
+    return [with_answers(load_station(_DEMOS / name)) for name in ("demo_station.toml", "demo_wire_station.toml")]
+
+
+def test_no_two_labels_overlap_on_any_vector_figure(demo_results):
+    from rfsafe.report.figures import exposure_legend
+
+    checked = 0
+    for res in demo_results:
+        numbers = {pl.label: f"P{i + 1}" for i, pl in enumerate(res.places)}
+        heights = {a.id: a.height_m for a in res.antennas}
+        for c in res.configurations:
+            figures = [exposure_distance_figure(c, res.places, width=88 * mm, height=54 * mm, place_numbers=numbers,
+                                                antenna_height_m=heights.get(c.antenna),
+                                                head_heights_m=(0.5, 1.0, 1.5, 2.0))[0],
+                       line_profile_figure(c, width=88 * mm, height=56 * mm)[0]]
+            for d in figures:
+                boxes = drawing_text_boxes(d)
+                assert colliding(boxes) == [], (c.id, colliding(boxes))
+                for text, (x0, y0, x1, y1) in boxes:          # nothing drawn off the figure
+                    assert x0 >= -0.5 and y0 >= -0.5 and x1 <= d.width + 0.5 and y1 <= d.height + 0.5, text
+                checked += 1
+    assert colliding(drawing_text_boxes(exposure_legend(180 * mm))) == []
+    assert checked >= 12
+
+
+def _inside(boxes, w_px, h_px):
+    return [t for t, (x0, y0, x1, y1) in boxes if x0 < -1 or y0 < -1 or x1 > w_px + 1 or y1 > h_px + 1]
+
+
+def test_no_two_labels_overlap_on_any_map(demo_results):
+    from rfsafe.report.near_field import near_field_map_png
+    from rfsafe.report.plan_map import plan_map_png
+
+    for res in demo_results:
+        numbers = {pl.label: f"P{i + 1}" for i, pl in enumerate(res.places)}
+        boxes = []
+        _, w, h = plan_map_png(res, place_numbers=numbers, dpi=100, boxes=boxes)
+        assert boxes and colliding(boxes) == [], colliding(boxes)
+        assert _inside(boxes, w * 100, h * 100) == []
+        for c in res.configurations:
+            if c.near_field_map is None:
+                continue
+            boxes = []
+            _, w, h = near_field_map_png(c, res.places, place_numbers=numbers, dpi=100, boxes=boxes)
+            assert boxes and colliding(boxes) == [], (c.id, colliding(boxes))
+            assert _inside(boxes, w * 100, h * 100) == []
+
+
+def test_no_two_labels_overlap_on_the_site_map():
+    from rfsafe.report.site_map import site_map_png
+    from rfsafe.site import assess_site, load_site
+
+    res = assess_site(load_site(_DEMOS / "event_field_day.toml"))
+    boxes = []
+    site_map_png(res, width_in=7.09, height_in=4.5, dpi=100, boxes=boxes)
+    labels = {t for t, _ in boxes}
+    assert {t.transmitter for t in res.transmitters} <= labels and {a.label for a in res.areas} <= labels
+    assert colliding(boxes) == [], colliding(boxes)
+    assert _inside(boxes, 709, 450) == []

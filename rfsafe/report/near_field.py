@@ -151,8 +151,10 @@ def _place_labels(ax, marks, obstacle_xy, renderer, colors=None):
     obstacles = ax.transData.transform(np.asarray(obstacle_xy)) if obstacle_xy else np.empty((0, 2))
     taken = [ax.transData.transform([(x, y)])[0] for x, y, _ in marks]
     taken_boxes = []
-    offsets = [(6, 5, "left", "bottom"), (6, -5, "left", "top"), (-6, 5, "right", "bottom"),
-               (-6, -5, "right", "top"), (0, 8, "center", "bottom"), (0, -8, "center", "top")]
+    near = [(6, 5, "left", "bottom"), (6, -5, "left", "top"), (-6, 5, "right", "bottom"),
+            (-6, -5, "right", "top"), (0, 8, "center", "bottom"), (0, -8, "center", "top")]
+    # then farther out, so that a crowded marker still finds a free spot close by
+    offsets = near + [(dx * k, dy * k, ha, va) for k in (2, 3) for dx, dy, ha, va in near]
     for k, (x, y, text) in enumerate(marks):
         best = None
         for dx, dy, ha, va in offsets:
@@ -180,7 +182,8 @@ def _place_labels(ax, marks, obstacle_xy, renderer, colors=None):
         taken_boxes.append(best[2])
 
 
-def near_field_map_png(cfg, places, *, place_numbers: dict, dpi: int = _DPI) -> tuple[bytes, float, float]:
+def near_field_map_png(cfg, places, *, place_numbers: dict, dpi: int = _DPI,
+                       boxes: list | None = None) -> tuple[bytes, float, float]:
     """Draw the near-field map of one wire-antenna configuration; PNG bytes and its size [in].
 
     Drawn: the larger of the E and H exposure ratios against the uncontrolled limit as a colour
@@ -200,6 +203,8 @@ def near_field_map_png(cfg, places, *, place_numbers: dict, dpi: int = _DPI) -> 
         Place label -> marker number (``"P1"``...), as in the worksheet's tables.
     dpi : int
         Resolution of the PNG [1/in].
+    boxes : list, optional
+        When given, receives (text, box) of every label drawn (see :func:`rfsafe.report.plan_map.text_boxes`).
 
     Returns
     -------
@@ -324,6 +329,10 @@ def near_field_map_png(cfg, places, *, place_numbers: dict, dpi: int = _DPI) -> 
         fig.legend(handles=handles, loc="lower left", bbox_to_anchor=(0.01, 0.005), ncol=2,
                    fontsize=6.5, frameon=False, handlelength=3.2, columnspacing=1.6, borderaxespad=0.2)
         canvas.draw()
+        if boxes is not None:
+            from rfsafe.report.plan_map import text_boxes
+
+            boxes.extend(text_boxes(fig, canvas.get_renderer()))
         rgb = np.ascontiguousarray(np.asarray(canvas.buffer_rgba())[..., :3])
     # an opaque RGB PNG written by PIL without text chunks: no transparency mask for the PDF to carry
     # (a third of the build time), and no time stamp or version, so the bytes depend on the drawing only

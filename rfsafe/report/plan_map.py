@@ -99,7 +99,7 @@ def plan_map_png(res, *, place_numbers: dict, width_in: float = 7.0, dpi: int = 
     span_x, span_y = x[-1] - x[0], y[-1] - y[0]
     # a tall plan keeps its legend at the right; a wide one gets the width and the legend below it
     side = span_y / span_x > 0.75
-    map_w = 4.2 if side else 5.5
+    map_w = 4.2 if side else 5.0
     map_h = map_w * span_y / span_x
     if map_h > 3.7:
         map_h = 3.7

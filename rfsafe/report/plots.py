@@ -179,8 +179,11 @@ class Axes:
         grp = Group(g)
         grp.transform = (0, 1, -1, 0, self.x0 - self._ylabel_offset(), self.y0 + self.h / 2)
         self.d.add(grp)
-        if title:
-            self.d.add(String(self.x0, self.y0 + self.h + 4, title, fontName=FONT_BOLD, fontSize=fs + 1.5))
+        if title:   # as large as fits the drawing's width (never runs off the figure)
+            size = fs + 1.5
+            while size > 5 and self.x0 + stringWidth(title, FONT_BOLD, size) > self.d.width:
+                size -= 0.25
+            self.d.add(String(self.x0, self.y0 + self.h + 4, title, fontName=FONT_BOLD, fontSize=size))
 
     def _ylabel_offset(self) -> float:
         """Distance of the rotated y label from the frame: clear of the widest tick label."""
