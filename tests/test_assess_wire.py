@@ -453,3 +453,13 @@ def test_load_over_its_rating_sets_the_equipment_verdict(tmp_path):
     assert bad.equipment_verdict == "RATING EXCEEDED"
     assert any("load coil" in r for r in bad.equipment_reasons)
     assert ok.equipment_verdict != "RATING EXCEEDED"
+
+
+def test_exemption_separation_of_a_wire_is_the_distance_to_its_nearest_point(tmp_path):
+    # 47 CFR 1.1307(b)(3): R is measured from any part of the radiating structure. A place 1.1 m beyond
+    # the end of a 19.6 m-wide inverted V (its centre 10.4 m away): the separation used is 1.1 m.
+    wires, feeds = _inverted_v(10.0, 3.0, 9.8)
+    loaded = _station(tmp_path, wires, feeds, freqs_mhz=[7.1], places=[(9.8 + 1.1, 0.0, 3.0)], pep_w=100.0)
+    res, _ = assess_with_emitters(loaded, near_field_maps=False)
+    note = next(a for a in res.exemption.assumptions if a.startswith("c0: separation"))
+    assert note.startswith("c0: separation 1.10 m") and "wire geometry" in note
