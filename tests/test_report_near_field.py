@@ -219,3 +219,34 @@ def test_extra_figures_follow_the_near_field_maps():
     i = text.index("Hook figure after the near-field maps")
     assert text.index("6.3 Near-field maps of the wire antennas") < text.index("6.4 Further figures") < i
     assert i < text.index("7 Cautions")
+
+
+def test_a_contour_a_few_millimetres_wide_gets_a_zoomed_inset():
+    # rendering check on a constructed map (not physics): one hot spot of 3 x 3 cells on a 61 x 61 grid
+    # of 60 m, whose ratio = 1 contour is about 1.5 m across, a few millimetres on paper
+    import numpy as np
+    from types import SimpleNamespace
+
+    from rfsafe.report.near_field import INSET_BELOW_MM
+    from rfsafe.results import NearFieldMap
+
+    x = np.linspace(-30, 30, 61)
+    gx, gy = np.meshgrid(x, x)
+    hot = 4.0 * np.exp(-(gx ** 2 + gy ** 2) / 0.8)
+    ratios = {env: hot + 1e-3 for env in ("uncontrolled", "controlled")}
+    m = NearFieldMap(configuration="c", antenna="a", plane="horizontal", x_m=tuple(x), y_m=tuple(x),
+                     heights_m=(1.0,), wire_paths_m=(((0.0, 0.0), (0.0, 0.0)),),
+                     max_e_ratio={"uncontrolled": 4.0, "controlled": 4.0},
+                     max_h_ratio={"uncontrolled": 4.0, "controlled": 4.0}, excluded_points=0,
+                     e_ratio=ratios, h_ratio=ratios)
+    cfg = SimpleNamespace(id="c", freq_mhz=145.0, mode="fm", near_field_map=m)
+    boxes = []
+    near_field_map_png(cfg, (), place_numbers={}, dpi=60, boxes=boxes)
+    assert any(t.startswith("zoom ×") for t, _ in boxes)
+    assert INSET_BELOW_MM >= 3.0          # "a few millimetres"
+    # a wide contour draws no inset
+    wide = {env: 4.0 * np.exp(-(gx ** 2 + gy ** 2) / 300.0) + 1e-3 for env in ("uncontrolled", "controlled")}
+    cfg.near_field_map = NearFieldMap(**{**m.__dict__, "e_ratio": wide, "h_ratio": wide})
+    boxes = []
+    near_field_map_png(cfg, (), place_numbers={}, dpi=60, boxes=boxes)
+    assert not any(t.startswith("zoom ×") for t, _ in boxes)

@@ -23,7 +23,8 @@ from rfsafe.report.common import data_table, margin_text, num, p, ratio_text, se
 from rfsafe.report.plots import decade_label
 
 __all__ = ["NEAR_FIELD_METHOD", "has_near_field_maps", "comparison_exposures", "near_field_map_png",
-           "near_field_map_section", "near_field_comparison_section", "CONTOUR_STYLE", "MAX_DECADES"]
+           "near_field_map_section", "near_field_comparison_section", "CONTOUR_STYLE", "MAX_DECADES",
+           "INSET_BELOW_MM"]
 
 NEAR_FIELD_METHOD = "near-field (moment method)"
 ENVIRONMENTS = ("uncontrolled", "controlled")
@@ -43,6 +44,9 @@ _MAP_MAX_W_IN = 5.1
 _MAP_MAX_H_IN = 3.4
 _DPI = 160
 _MAP_MAX_PRINT_H = 98 * 2.8346   # printed height of a map with its legend [pt] (98 mm)
+_FRAME_W_PT = 180 * 2.8346       # the worksheet frame's width [pt]
+#: A limit contour smaller than this on paper [mm] gets a zoomed inset.
+INSET_BELOW_MM = 6.0
 
 
 def has_near_field_maps(res) -> bool:
@@ -182,6 +186,56 @@ def _place_labels(ax, marks, obstacle_xy, renderer, colors=None):
         taken_boxes.append(best[2])
 
 
+def _inset(ax, small, x, y, xe, ye, field, cmap, norm, fields, wire_xy, m, places, span_x, obstacles):
+    """A zoomed view of the small contours in the corner of the map that hides the fewest features."""
+    import numpy as np
+
+    x0 = min(e[0] for e in small)
+    y0 = min(e[1] for e in small)
+    x1 = max(e[2] for e in small)
+    y1 = max(e[3] for e in small)
+    cell = float(np.median(np.diff(x))) if len(x) > 1 else 1.0
+    half = max(x1 - x0, y1 - y0, 4 * cell) * 0.8
+    cx, cy = (x0 + x1) / 2, (y0 + y1) / 2
+    size = 0.34
+    top = 1 - size - 0.07          # room for the inset's title inside the map
+    corners = {(1 - size - 0.02, top): "upper right", (0.02, top): "upper left",
+               (1 - size - 0.02, 0.06): "lower right", (0.1, 0.06): "lower left"}
+    obs = np.asarray(obstacles, dtype=float) if obstacles else np.empty((0, 2))
+    u = (obs[:, 0] - xe[0]) / (xe[-1] - xe[0]) if obs.size else obs
+    v = (obs[:, 1] - ye[0]) / (ye[-1] - ye[0]) if obs.size else obs
+
+    def hidden(corner):
+        if not obs.size:
+            return 0
+        return int(np.count_nonzero((u >= corner[0]) & (u <= corner[0] + size) & (v >= corner[1])
+                                    & (v <= corner[1] + size)))
+
+    corner = min(corners, key=hidden)
+    ins = ax.inset_axes((corner[0], corner[1], size, size))
+    ins.pcolormesh(xe, ye, field, cmap=cmap, norm=norm, shading="flat", rasterized=True)
+    for (q, env), style in CONTOUR_STYLE.items():
+        f = fields[(q, env)]
+        fin = f[np.isfinite(f)]
+        if fin.size and float(fin.min()) < 1.0 < float(fin.max()):
+            ins.contour(x, y, np.ma.masked_invalid(f), levels=[1.0], colors=style["color"],
+                        linewidths=style["linewidth"], linestyles=[style["linestyle"]], zorder=6)
+    for path in m.wire_paths_m:
+        xs = [pt[0] for pt in path]
+        ys = [pt[1] for pt in path]
+        ins.plot(xs, ys, color=_WIRE_COLOR, linewidth=2.0, marker="o" if len(set(zip(xs, ys))) == 1 else None,
+                 markersize=5, zorder=8)
+    for pl in places:
+        ins.plot([pl.x_m], [pl.y_m], marker="s" if pl.environment == "controlled" else "o", markersize=5,
+                 markerfacecolor="white", markeredgecolor="black", linestyle="none", zorder=9)
+    ins.set_xlim(cx - half, cx + half)
+    ins.set_ylim(cy - half, cy + half)
+    ins.set_aspect("equal", adjustable="box")
+    ins.tick_params(labelsize=5.5, length=2, pad=1)
+    ins.set_title(f"zoom ×{span_x / (2 * half):.0f}", fontsize=6, pad=2)
+    ax.indicate_inset_zoom(ins, edgecolor="black", linewidth=0.8)
+
+
 def near_field_map_png(cfg, places, *, place_numbers: dict, dpi: int = _DPI,
                        boxes: list | None = None) -> tuple[bytes, float, float]:
     """Draw the near-field map of one wire-antenna configuration; PNG bytes and its size [in].
@@ -273,6 +327,7 @@ def near_field_map_png(cfg, places, *, place_numbers: dict, dpi: int = _DPI,
 
         handles = []
         contour_xy = []
+        extents = []             # each drawn contour's (x0, y0, x1, y1) [m]
         for (q, env), style in CONTOUR_STYLE.items():
             f = fields[(q, env)]
             fin = f[np.isfinite(f)]
@@ -281,7 +336,11 @@ def near_field_map_png(cfg, places, *, place_numbers: dict, dpi: int = _DPI,
                                 linewidths=style["linewidth"], linestyles=[style["linestyle"]], zorder=6)
                 cs.set_path_effects([patheffects.withStroke(linewidth=style["linewidth"] + 1.8,
                                                             foreground="white")])
-                contour_xy += [tuple(v) for path in cs.get_paths() for v in path.vertices]
+                pts = [tuple(v) for path in cs.get_paths() for v in path.vertices]
+                contour_xy += pts
+                if pts:
+                    a = np.asarray(pts)
+                    extents.append((a[:, 0].min(), a[:, 1].min(), a[:, 0].max(), a[:, 1].max()))
             max_ratio = (m.max_e_ratio if q == "e" else m.max_h_ratio)[env]
             handles.append(Line2D([], [], label=_contour_label(q, env, f, max_ratio), **style))
 
@@ -317,6 +376,12 @@ def near_field_map_png(cfg, places, *, place_numbers: dict, dpi: int = _DPI,
         ax.tick_params(labelsize=6.5, length=2.5)
         ax.set_title(f"{cfg.id}  ·  {m.antenna}  ·  {cfg.freq_mhz:g} MHz  ·  {cfg.mode}\n{m.plane}",
                      fontsize=8, loc="left", pad=4)
+        # a limit contour smaller than a few millimetres on paper gets a zoomed inset
+        printed_in_per_m = map_w / span_x * min(1.0, _FRAME_W_PT / (width * 72.0), _MAP_MAX_PRINT_H / (height * 72.0))
+        small = [e for e in extents if max(e[2] - e[0], e[3] - e[1]) * printed_in_per_m * 25.4 < INSET_BELOW_MM]
+        if small:
+            _inset(ax, small, x, y, xe, ye, field, cmap, LogNorm(lo, hi), fields, wire_xy, m, places, span_x,
+                   obstacles=wire_xy + contour_xy + [(mk[0], mk[1]) for mk in marks])
         _place_labels(ax, marks, wire_xy + contour_xy, canvas.get_renderer())
 
         handles.append(Line2D([], [], color=_WIRE_COLOR, linewidth=2.2,
