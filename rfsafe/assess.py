@@ -128,9 +128,10 @@ def _near_field_map(cid, ant: Antenna, solution, limits, avg_ant, pep_ant, loade
     near = _near_wire(grid, spec)
     e1 = np.full(len(grid), np.nan)
     h1 = np.full(len(grid), np.nan)
-    e1[~near], h1[~near] = solution.fields_rms(grid[~near], 1.0)
+    field = f"near-field map of configuration {cid!r}, point"
+    e1[~near], h1[~near] = solution.fields_rms(grid[~near], 1.0, field=field)
     if twin is not None:
-        e2, h2 = twin.fields_rms(grid[~near], 1.0)
+        e2, h2 = twin.fields_rms(grid[~near], 1.0, field=field)
         e1[~near], h1[~near] = np.maximum(e1[~near], e2), np.maximum(h1[~near], h2)
     keep = ~near.reshape(len(MAP_BODY_HEIGHTS_M), -1).any(axis=0)
     for env in ENVIRONMENTS:
@@ -754,7 +755,14 @@ def _wire_compliance_distances(sols, limits, avg_ant, pep_ant: float, distances,
     """
     import dataclasses
 
+    from rfsafe.antenna.wire.fields import NEAR_SEGMENT_WAVELENGTHS
+
     st = sols[0].structure
+    if st.length_m.max() > NEAR_SEGMENT_WAVELENGTHS * st.wavelength_m * (1 + 1e-9):
+        # the near fields next to segments longer than lambda/20 are not trusted (fields.check_points)
+        return distances, [f"{d.environment} compliance distance {d.dist_m:.2f} m lies inside the near-field "
+                           f"boundary {boundary_m:.2f} m: {NEAR_FIELD_FLAG} (the solver check needs segments of at "
+                           "most lambda/20 on every wire)" for d in distances if d.dist_m < boundary_m]
     nodes = np.unique(np.concatenate([st.start_m, st.end_m]), axis=0)
     nodes = nodes[np.unique(np.linspace(0, len(nodes) - 1, min(_SHELL_NODES, len(nodes))).round().astype(int))]
     r_min = max(0.05, 5 * float(st.radius_m.max()))

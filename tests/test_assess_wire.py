@@ -463,3 +463,16 @@ def test_exemption_separation_of_a_wire_is_the_distance_to_its_nearest_point(tmp
     res, _ = assess_with_emitters(loaded, near_field_maps=False)
     note = next(a for a in res.exemption.assumptions if a.startswith("c0: separation"))
     assert note.startswith("c0: separation 1.10 m") and "wire geometry" in note
+
+
+def test_coarse_segments_keep_the_far_field_compliance_distance_flagged(tmp_path):
+    # Segments of lambda/12 are accepted for impedance and gain, but near fields next to them are not
+    # trusted (common practice: lambda/20 near points of interest): the compliance distance keeps its
+    # far-field value with the usual near-field flag instead of a solver check.
+    wires = [{"label": "d", "points_m": [[-10.05, 0.0, 8.0], [10.05, 0.0, 8.0]], "radius_m": 0.001, "segments": 6}]
+    loaded = _station(tmp_path, wires, [{"wire": "d"}], freqs_mhz=[7.1], places=[(0.0, 60.0, 1.5)])
+    res, _ = assess_with_emitters(loaded, near_field_maps=False)
+    cfg = res.configurations[0]
+    d = next(x for x in cfg.compliance_distances if x.environment == "uncontrolled")
+    assert d.inside_near_field
+    assert any("the solver check needs segments of at most lambda/20" in f for f in cfg.flags)
