@@ -146,3 +146,37 @@ def test_demo_json_says_which_published_figures_were_checked(demo_json):
     assert all(f["state"] == "published text" for f in checks if f["kind"] == "limit")
     assert states[("duty factor", "digital")] == "not confirmed"
     assert states[("duty factor", "cw")] == "reproduction"
+
+
+def test_exemption_in_the_json_and_the_terminal(demo_json):
+    ex = demo_json["exemption"]
+    # 47 CFR 1.1307(b)(3): every configuration of every station is a source; the sum of fractions needs every
+    # source to have a criterion, and a source without one (a 40 m dipole 6 m from people) is never exempt
+    labels = [s["label"] for s in ex["per_source"]]
+    assert labels == [f"{s['name']} {c['id']}" for s in demo_json["stations"] for c in s["configurations"]]
+    assert ex["exempt"] is False
+    out = CliRunner().invoke(app, ["site", str(DEMO)]).stdout
+    assert "47 CFR 1.1307(b)(3): NOT EXEMPT" in " ".join(out.split())
+
+
+def test_every_station_zone_listed_and_a_zone_without_violation_said_plainly():
+    out = " ".join(CliRunner().invoke(app, ["site", str(DEMO)]).stdout.split())
+    assert "HF CW: KEEP-OUT ZONE and VIOLATION V1" in out
+    # the ground-mounted vertical's zone lies inside its roped no-access area: a zone, but no violation
+    assert "Digital: KEEP-OUT ZONE, no violation" in out
+    assert "HF phone: no keep-out zone on the ground." in out
+
+
+def test_site_pdf_sections_numbered_from_one_with_exemption_and_zones(tmp_path):
+    from pypdf import PdfReader
+
+    pdf = tmp_path / "site.pdf"
+    r = CliRunner().invoke(app, ["site", str(DEMO), "-o", str(pdf)])
+    assert r.exit_code == 1, r.stderr
+    text = " ".join(" ".join(p.extract_text() for p in PdfReader(str(pdf)).pages).split())
+    heads = ["1 Stations and keep-out zones", "2 Areas", "3 Site map", "4 Exemption from routine evaluation",
+             "5 Configurations", "6 Method and assumptions", "7 Cautions", "8 Sign-off"]
+    positions = [text.index(h) for h in heads]
+    assert positions == sorted(positions)
+    assert "Digital: KEEP-OUT ZONE, no violation" in text
+    assert "rope-off" in text.lower()
