@@ -38,13 +38,14 @@ from reportlab.pdfbase import pdfmetrics
 from reportlab.pdfbase.pdfmetrics import stringWidth
 from reportlab.pdfbase.ttfonts import TTFont
 from reportlab.pdfgen.canvas import Canvas
-from reportlab.platypus import (BaseDocTemplate, Frame, PageTemplate, Paragraph, Spacer, Table,
+from reportlab.platypus import (BaseDocTemplate, CondPageBreak, Frame, PageTemplate, Paragraph, Spacer, Table,
                                 TableStyle)
 
 __all__ = [
     "FONT", "FONT_BOLD", "PAGE", "PAGE_LANDSCAPE", "MARGIN", "COMPLIES_COLOR", "EXCEEDS_COLOR",
     "ACCENT", "GRID", "register_fonts", "styles", "p", "table_style", "data_table", "kv_table",
-    "verdict_box", "identity_block", "section_heading", "cautions_block", "signoff_block", "grouped_flags",
+    "verdict_box", "identity_block", "section_heading", "heading_before_table", "cautions_block", "signoff_block",
+    "grouped_flags", "merge_numbers",
     "build_pdf", "frame_width", "fit_widths", "num", "ratio_text", "margin_text", "dist_text",
 ]
 
@@ -375,6 +376,19 @@ def section_heading(number: str, text: str, *, level: int = 0) -> Paragraph:
     """Numbered heading ``"<number>  <text>"``; level 0 uses ``h1``, level 1 ``h2``."""
     label = f"{number}  {text}" if number else text
     return _Heading(label, styles()["h1" if level == 0 else "h2"], f"sec-{number or text}", level)
+
+
+def heading_before_table(number: str, text: str, *, level: int = 0, room: float = 35 * mm) -> list:
+    """A numbered heading that starts a long table: a new page only when less than ``room`` is left,
+    else the table starts under the heading and continues on the next page (its header row repeated).
+
+    A heading kept with a whole long table would move the table to the next page and leave the rest
+    of this one empty.
+    """
+    style = ParagraphStyle(f"{'h1' if level == 0 else 'h2'}_table", parent=styles()["h1" if level == 0 else "h2"],
+                           keepWithNext=0)
+    label = f"{number}  {text}" if number else text
+    return [CondPageBreak(room), _Heading(label, style, f"sec-{number or text}", level)]
 
 
 def cautions_block(cautions, flags=()) -> list:

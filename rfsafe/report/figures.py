@@ -19,8 +19,8 @@ from reportlab.platypus import Table, TableStyle
 from rfsafe.report.common import FONT, GRID
 from rfsafe.report.plots import PALETTE, Axes, linear_ticks, log_range, new_drawing
 
-__all__ = ["exposure_distance_figure", "exposure_plot_ranges", "exposure_legend", "line_profile_figure", "figure_grid", "figure_rows",
-           "ENV_DASH", "ENV_SHAPE"]
+__all__ = ["exposure_distance_figure", "exposure_plot_ranges", "exposure_legend", "line_profile_figure", "figure_grid",
+           "figure_rows", "ENV_DASH", "ENV_SHAPE", "LEVEL_DASH"]
 
 ENV_DASH = {"controlled": (4, 2), "uncontrolled": None}
 ENV_SHAPE = {"controlled": "square", "uncontrolled": "circle"}

@@ -31,8 +31,8 @@ from reportlab.lib.units import mm
 from reportlab.platypus import CondPageBreak, Image, KeepTogether, Paragraph, Spacer
 
 from rfsafe.report.common import (COMPLIES_COLOR, EXCEEDS_COLOR, FONT_BOLD, build_pdf, cautions_block, data_table,
-                                  frame_width, grouped_flags, identity_block, kv_table, margin_text, num, p,
-                                  ratio_text, section_heading, signoff_block, styles)
+                                  frame_width, grouped_flags, heading_before_table, identity_block, kv_table,
+                                  margin_text, num, p, ratio_text, section_heading, signoff_block, styles)
 from rfsafe.report.figures import exposure_distance_figure, exposure_legend, figure_rows, line_profile_figure
 from rfsafe.report.near_field import comparison_exposures, near_field_comparison_section, near_field_map_section
 from rfsafe.exposure import horizontal_compliance_distance_m
@@ -326,9 +326,9 @@ def _verification(res, width) -> list:
 
 # ------------------------------------------------------------------ 3 configurations
 def _configurations(res, width) -> list:
-    out = [section_heading("3", "Configurations")]
+    out = heading_before_table("3", "Configurations")
     out.append(p("Average powers after the mode duty factor and the averaging-window fill; values given "
-                 "as controlled / uncontrolled where the averaging time differs by environment.", "lead"))
+                 "as controlled / uncontrolled where the averaging time differs by environment.", "small"))
     cfgs = list(res.configurations)
     for k in range(0, len(cfgs), _CONFIGS_PER_TABLE):
         chunk = cfgs[k:k + _CONFIGS_PER_TABLE]
@@ -450,7 +450,7 @@ def _places(res, width, numbers) -> list:
     for r in rules:
         out.append(p(f"Summation rule: {r}. A place complies when the sum of exposure ratios is at most 1; "
                      "margin = -10 log10(ratio).", "small"))
-    out.append(section_heading("4.2", "Exposure at each place from each configuration", level=1))
+    out.extend(heading_before_table("4.2", "Exposure at each place from each configuration", level=1))
     notes = _Notes()
     rows = []
     extra = []
@@ -569,7 +569,8 @@ def _line_stress(res, width) -> list:
                          "–" if s.headroom is None else f"{s.headroom:.2f}", f"{tol} {ref}".strip(), status])
             if j == 0 and r > 1:
                 extra.append(("LINEABOVE", (0, r), (-1, r), 0.9, styles()["cell"].textColor))
-    out.append(p("Parts against their ratings:", "lead"))
+    out.append(CondPageBreak(35 * mm))
+    out.append(p("Parts against their ratings:", "small"))
     out.append(data_table(["configuration", "part", "quantity [unit]", "stress", "rating [source]", "headroom",
                            "largest tolerable SWR", "status"], rows,
                           [22 * mm, 33 * mm, 34 * mm, 14 * mm, 20 * mm, 15 * mm, 20 * mm, width - 158 * mm],
