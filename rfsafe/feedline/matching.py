@@ -415,19 +415,22 @@ def t_matchable_region(freq_hz: float, capacitor_range_pf: tuple[float, float],
         raise bad_value(f"{field}.r_ohm", r.tolist(), "must be finite resistances > 0 ohm with finite reactances")
     c2 = np.geomspace(cmin, cmax, samples) * 1e-12
     x2 = -1.0 / (omega * c2)
-    zl = r[None, :, None] + 1j * x[:, None, None]
-    x1, x_sh, r_pa, valid = _t_settings_for_c2(zl, float(target_ohm), x2[None, None, :])
-    with np.errstate(divide="ignore", invalid="ignore"):
-        c1_pf = 1e12 / (omega * -x1)
-        l_uh = 1e6 * x_sh / omega
     tol = 1e-9  # the ends of a range count as inside (rounding of the pF/uH conversion)
-    inside = (valid & (c1_pf >= cmin * (1 - tol)) & (c1_pf <= cmax * (1 + tol))
-              & (l_uh >= lmin * (1 - tol)) & (l_uh <= lmax * (1 + tol)))
-    r_low = np.minimum(float(target_ohm), zl.real)
-    with np.errstate(invalid="ignore"):
-        q = np.where(inside, np.sqrt(np.maximum(r_pa / r_low - 1.0, 0.0)), np.inf)
-    q_best = q.min(axis=2)
-    ok = inside.any(axis=2)
+    q_best = np.full((x.size, r.size), np.inf)
+    ok = np.zeros((x.size, r.size), dtype=bool)
+    for i, xv in enumerate(x):  # one reactance row at a time: memory stays at (resistances x samples)
+        zl = r[:, None] + 1j * xv
+        x1, x_sh, r_pa, valid = _t_settings_for_c2(zl, float(target_ohm), x2[None, :])
+        with np.errstate(divide="ignore", invalid="ignore"):
+            c1_pf = 1e12 / (omega * -x1)
+            l_uh = 1e6 * x_sh / omega
+        inside = (valid & (c1_pf >= cmin * (1 - tol)) & (c1_pf <= cmax * (1 + tol))
+                  & (l_uh >= lmin * (1 - tol)) & (l_uh <= lmax * (1 + tol)))
+        r_low = np.minimum(float(target_ohm), zl.real)
+        with np.errstate(invalid="ignore"):
+            q = np.where(inside, np.sqrt(np.maximum(r_pa / r_low - 1.0, 0.0)), np.inf)
+        q_best[i] = q.min(axis=1)
+        ok[i] = inside.any(axis=1)
     return MatchableRegion(
         freq_hz=float(freq_hz), target_resistance_ohm=float(target_ohm), capacitor_range_pf=(cmin, cmax),
         inductor_range_uh=(lmin, lmax), range_source=range_source, r_ohm=tuple(float(v) for v in r),
