@@ -83,7 +83,7 @@ def bench_wire_verdict(repeats: int) -> None:
         out = Path(tmp) / "variant.pdf"
         floor_best, _ = _best(lambda: build_pdf_floor(), repeats)
         full_best, full_med = _best(lambda: write_worksheet(A.assess(load_station(variant)), out, force=True), repeats)
-    print(f"== dipoles declared over free space (bound: two solutions each)")
+    print("== dipoles declared over free space (bound: two solutions each)")
     print(f"report path (load + assess + render + write): {full_best * 1e3:8.1f} ms best, {full_med * 1e3:.1f} ms median")
     print(f"ratio report path / floor:                {full_best / floor_best:8.1f}x; target {TARGET_S:.1f} s: "
           f"{'met' if full_best < TARGET_S else 'NOT met'}")

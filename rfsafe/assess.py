@@ -776,7 +776,7 @@ def _wire_compliance_distances(sols, limits, avg_ant, pep_ant: float, distances,
             continue
         env = d.environment
 
-        def over_limit(r_m: float) -> bool:
+        def over_limit(r_m: float, env: str = env) -> bool:
             if r_m not in cache:
                 cache[r_m] = _wire_shell_fields(sols, r_m, nodes)
             return _wire_shell_ratio(cache[r_m], limits[env], avg_ant[env], pep_ant) > 1.0

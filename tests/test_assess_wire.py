@@ -196,11 +196,11 @@ def test_load_over_its_rating_is_an_exceeded_part(tmp_path):
 
 # --- Issue 10, wire half: nearest-point distances, the solver near every part of the wire, the ground bound ---
 
-import json  # noqa: E402
+import json
 
-from rfsafe.antenna.wire import WireAntennaSpec, solve  # noqa: E402
-from rfsafe.assess import assess_with_emitters  # noqa: E402
-from rfsafe.limits import exposure_ratio, limits_at  # noqa: E402
+from rfsafe.antenna.wire import WireAntennaSpec, solve
+from rfsafe.assess import assess_with_emitters
+from rfsafe.limits import exposure_ratio, limits_at
 
 
 def _station(tmp_path, wires, feeds, *, freqs_mhz, places, ground="free-space", pep_w=1500.0, mode="cw",
@@ -380,8 +380,8 @@ def test_compliance_distance_of_a_wire_is_far_field_beyond_the_boundary_and_solv
 
 # --- Property: the evaluation is never below the solver's own value at a place, over either ground model ---
 
-from hypothesis import HealthCheck, assume, given, settings  # noqa: E402
-from hypothesis import strategies as st  # noqa: E402
+from hypothesis import HealthCheck, assume, given, settings
+from hypothesis import strategies as st
 
 
 @st.composite

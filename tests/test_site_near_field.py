@@ -39,8 +39,6 @@ def test_site_grid_flags_points_near_any_part_of_a_wire_as_near_field(tmp_path):
     # any part of its wires (issue 10: never from a reference point). A 20.1 m dipole declared at its
     # centre, 7.1 MHz: boundary max(lambda/2pi, 2 D^2/lambda) = 2 x 20.1^2 / 42.2 = 19.1 m (Balanis,
     # Antenna Theory, Sec. 2.2.4). A point 15 m beyond one end (25 m from the centre) must be flagged.
-    import numpy as np
-
     from rfsafe.site import load_site, ratio_grid, site_emitters
 
     text = SITE.read_text().replace(

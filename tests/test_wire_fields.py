@@ -160,8 +160,8 @@ def test_points_below_a_perfect_ground_are_refused_and_close_points_get_a_cautio
 def _sinusoidal_dipole_ez_on_axis(i0, h, z):
     # Balanis, Antenna Theory, 3rd ed., Sec. 8.5 (E_z of the dipole with current I0 sin k(h - |z'|)),
     # on the axis rho = 0 beyond the end (z > h): R1 = z - h, R2 = z + h, r = z. The same expression
-    # is Jordan and Balmain, Electromagnetic Waves and Radiating Systems, 2nd ed., Sec. 14.? (exact
-    # fields of a linear antenna with sinusoidal current; section number from memory).
+    # is in Jordan and Balmain, Electromagnetic Waves and Radiating Systems, 2nd ed. (exact
+    # fields of a linear antenna with sinusoidal current; from memory, section not checked).
     terms = ((z - h, 1.0), (z + h, 1.0), (z, -2.0 * math.cos(K * h)))
     return -1j * ETA0_OHM * i0 / (4 * math.pi) * sum(c * np.exp(-1j * K * r) / r for r, c in terms)
 

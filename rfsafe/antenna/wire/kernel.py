@@ -126,7 +126,7 @@ def _ends(z, rho2, d, k):
     return r1, r2, e1, e2, -z, dz2
 
 
-def segment_e_terms(z, rho2, d, k, *, with_charges: bool = False):
+def segment_e_terms(z, rho2, d, k):
     """Electric field of the two PWS half functions of a segment, in local components.
 
     Parameters
@@ -139,11 +139,6 @@ def segment_e_terms(z, rho2, d, k, *, with_charges: bool = False):
         Segment length [m] (broadcasts with z).
     k : float
         Wavenumber [rad/m].
-    with_charges : bool
-        Add the fields of the end point charges -1/(j omega) (shape 1, at P1) and +1/(j omega)
-        (shape 2, at P2). They cancel between segments sharing a node when all are seen through one
-        kernel (near fields); the matrix fill keeps them because its reduced kernel depends on the
-        radii of the pair (see ``solver.impedance_matrix``).
 
     Returns
     -------
@@ -176,12 +171,6 @@ def segment_e_terms(z, rho2, d, k, *, with_charges: bool = False):
     ar = a / rho2
     er1 = ar * (c * g1 * d1 - g2 * d2 - 1j * s * e1)
     er2 = ar * (c * g2 * d2 - g1 * d1 + 1j * s * e2)
-    if with_charges:
-        b = 1j * ETA0_OHM / (4.0 * np.pi * k)
-        q1 = b * (1 + 1j * k * r1) * e1 / (r1 * r1 * r1)
-        q2 = b * (1 + 1j * k * r2) * e2 / (r2 * r2 * r2)
-        ez1, er1 = ez1 - q1 * d1, er1 + q1
-        ez2, er2 = ez2 + q2 * d2, er2 - q2
     return ez1, ez2, er1, er2
 
 
