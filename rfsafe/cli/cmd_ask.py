@@ -166,7 +166,7 @@ def ask(power_w: str = typer.Option(..., "--power-w", metavar="W[,W...]",
                                        help="Horizontal distance from the antenna's foot to the person [m] "
                                             "(without --height-m: level with the antenna)."),
         standard: str = typer.Option("fcc", "--standard",
-                                     help="fcc, icnirp2020, icnirp1998, ieee2019, sc6, or all (side by side)."),
+                                     help="fcc, icnirp2020, icnirp1998, ieee2019, sc6, eu1999, or all (side by side)."),
         ground: str = typer.Option("full", "--ground", help="Ground reflection: none, typical, full (default)."),
         json_out: bool = typer.Option(False, "--json", help="Print one JSON document instead of the table."),
         csv_out: bool = typer.Option(False, "--csv", help="Print the table as CSV (full precision)."),

@@ -9,7 +9,7 @@ title = "Station RF exposure evaluation"
 station = "My station"
 evaluator = "Your name"
 # evaluation_date = 2026-01-31      # TOML date; today's date is printed when absent
-standard = "fcc"                    # fcc | icnirp2020 | icnirp1998 | ieee2019 | sc6
+standard = "fcc"                    # fcc | icnirp2020 | icnirp1998 | ieee2019 | sc6 | eu1999
 ground_reflection = "full"          # none (F=1) | typical (F=2.56) | full (F=4, conservative default)
 
 [[transmitters]]
