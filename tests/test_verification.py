@@ -99,6 +99,7 @@ def test_terminal_shows_markers_and_the_legend(tmp_path):
     assert "0.2 R" in result.stdout                # duty factor read in a reproduction
     assert LEGEND.removeprefix("check: ") in " ".join(result.stdout.split())
     assert "published figures used:" in result.stdout
+    assert "[thresholds: T]" in result.stdout      # 47 CFR 1.1307(b)(3)(i)(C) Table 1, read in the eCFR
 
 
 def test_exemption_case_says_why_there_is_no_exemption(tmp_path):

@@ -19,7 +19,7 @@ _SHORT_METHOD = {"far-field estimate": "far field", "far-field estimate (>= mome
 def render_evaluation(res) -> str:
     """Human-readable tables of an EvaluationResult."""
     from rfsafe.cli.output import format_table, is_narrow
-    from rfsafe.verification import marker
+    from rfsafe.verification import MARKERS, marker, weakest as weakest_state
 
     out = []
     out.append(f"{res.title}")
@@ -106,7 +106,10 @@ def render_evaluation(res) -> str:
     if res.exemption is not None:
         out.append("")
         ex = res.exemption
-        out.append(f"47 CFR 1.1307(b)(3) exemption: {'EXEMPT' if ex.exempt else 'NOT EXEMPT'} ({ex.criterion})")
+        thresholds = [s.threshold_verification for s in ex.per_source if s.threshold_w is not None]
+        check = f" [thresholds: {MARKERS[weakest_state(thresholds)]}]" if thresholds else ""   # the weakest state
+        out.append(f"47 CFR 1.1307(b)(3) exemption: {'EXEMPT' if ex.exempt else 'NOT EXEMPT'} ({ex.criterion})"
+                   + check)
         out.append(f"  {ex.note}")
     out.append("")
     out.append(f"EXPOSURE VERDICT: {res.exposure_verdict}")
