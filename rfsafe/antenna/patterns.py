@@ -438,8 +438,14 @@ def load_pattern_table(path, *, field: str = "pattern_file") -> PatternTable:
     def err(msg: str) -> InputError:
         return bad_value(field, where, msg)
 
+    from rfsafe.bounds import MAX_GAIN_DBI, MAX_PATTERN_FILE_BYTES, MAX_PATTERN_ROWS, MIN_GAIN_DBI
+
     try:
-        text = p.read_text(encoding="utf-8")
+        with p.open("rb") as fh:  # one byte past the bound: a huge or endless file stops there
+            data = fh.read(MAX_PATTERN_FILE_BYTES + 1)
+        if len(data) > MAX_PATTERN_FILE_BYTES:
+            raise err(f"is larger than {MAX_PATTERN_FILE_BYTES:,} bytes (accepted: at most that)")
+        text = data.decode("utf-8")
     except FileNotFoundError:
         raise err("does not exist") from None
     except IsADirectoryError:
@@ -451,6 +457,8 @@ def load_pattern_table(path, *, field: str = "pattern_file") -> PatternTable:
 
     lines = [(n, line) for n, line in enumerate(text.splitlines(), start=1)
              if line.strip() and not line.lstrip().startswith("#")]
+    if len(lines) - 1 > MAX_PATTERN_ROWS:
+        raise err(f"has {len(lines) - 1} data lines (accepted: at most {MAX_PATTERN_ROWS})")
     if not lines:
         raise err("is empty (accepted: a CSV with columns azimuth_deg, elevation_deg, gain_dbi)")
     header_no, header_line = lines[0]
@@ -486,6 +494,9 @@ def load_pattern_table(path, *, field: str = "pattern_file") -> PatternTable:
                       "(accepted: >= 0 and < 360; 360 is the same bearing as 0)")
         if not -90.0 <= el <= 90.0:
             raise err(f"line {n}: elevation_deg {format_value(el)} is out of range (accepted: -90 to 90)")
+        if not MIN_GAIN_DBI <= g <= MAX_GAIN_DBI:
+            raise err(f"line {n}: gain_dbi {format_value(g)} is out of range "
+                      f"(accepted: {MIN_GAIN_DBI:g} to {MAX_GAIN_DBI:g} dBi)")
         if (az, el) in seen:
             raise err(f"line {n}: azimuth_deg {format_value(az)}, elevation_deg {format_value(el)} "
                       f"repeats line {seen[(az, el)]} (each direction once)")
