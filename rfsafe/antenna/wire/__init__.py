@@ -8,6 +8,9 @@ chokes) are in :mod:`rfsafe.antenna.wire.loads`; the coax shield's outer surface
 :mod:`rfsafe.antenna.wire.shield`.
 """
 
+# The station schema embeds this package's model, whose base class lives in rfsafe.station.validation:
+# load the station package first so that importing this package alone does not meet a half-built module.
+import rfsafe.station  # noqa: F401,E402
 from rfsafe.antenna.wire.model import (ChokeSpec, FeedSpec, LoadSpec, PointSpec, ShieldSpec, WireAntennaSpec,
                                        WireFile, WireSpec, check_wire_antenna, load_wire_file, validate_wire_antenna)
 from rfsafe.antenna.wire.solver import WireSolution, solve
