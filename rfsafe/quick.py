@@ -191,7 +191,9 @@ def answer(q: QuickQuestion) -> QuickAnswer:
         line_loss_db=cfg.line_loss_db, avg_power_at_antenna_w=dict(cfg.avg_power_at_antenna_w),
         eirp_w=dict(cfg.eirp_w), compliance_dist_m=dist, height_m=q.height_m, distance_m=q.distance_m,
         ground_keep_out_m=keep, ratio_at_distance=ratio, largest_pep_w=largest, exemption=exemption,
-        near_field_distance_m=cfg.near_field_distance_m, flags=flags)
+        near_field_distance_m=cfg.near_field_distance_m, flags=flags,
+        limit_verification={cd.environment: cd.limit_verification for cd in cfg.compliance_distances},
+        duty_factor_verification=cfg.duty_factor_verification)
 
 
 def _worse(a: QuickAnswer, b: QuickAnswer) -> QuickAnswer:

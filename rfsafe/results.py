@@ -371,6 +371,9 @@ class QuickAnswer:
     exemption: str
     near_field_distance_m: float
     flags: tuple[str, ...]
+    #: whether the limit rows and the duty factor were read in their published texts (rfsafe.verification)
+    limit_verification: dict[str, str] = field(default_factory=dict)
+    duty_factor_verification: str = "not confirmed"
 
 
 @dataclass(frozen=True)

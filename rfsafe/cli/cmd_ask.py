@@ -217,9 +217,13 @@ def ask(power_w: str = typer.Option(..., "--power-w", metavar="W[,W...]",
         raise typer.Exit(1 if exceeded else 0)
     output.set_wide(wide)
     a0 = answers[0]
+    from rfsafe.verification import LEGEND, marker
+
     lines = ["Quick question (evaluated as a one-transmitter station file)",
              f"  antenna: {a0.gain_source}, {a0.gain_dbi:.2f} dBi peak gain; mode {a0.mode} "
-             f"(duty factor {a0.duty_factor:g}); ground reflection {ground}",
+             f"(duty factor {a0.duty_factor:g} {marker(a0.duty_factor_verification)}); ground reflection {ground}",
+             "  limits: " + ", ".join(f"{env} {marker(v)}" for env, v in a0.limit_verification.items())
+             + "  (" + LEGEND + ")",
              "  " + ("person: " + (f"{a0.distance_m:g} m from the antenna's foot, standing (0.5-2 m)"
                                    if a0.height_m is not None else f"{a0.distance_m:g} m away, level with the antenna")
                      if a0.distance_m is not None else "no --distance-m: compliance distances only"),
