@@ -138,3 +138,15 @@ def test_near_field_case_computed_for_a_wire_antenna():
     for pl in res.places:
         for x in pl.exposures:
             assert (x.near_field_case == "computed") == (x.near_field_ratio is not None)
+
+
+def test_ask_answers_carry_the_verification_of_their_limits_and_duty_factor():
+    r = CliRunner().invoke(app, ["ask", "--power-w", "100", "--mode", "ssb", "--freq-mhz", "14.2",
+                                 "--gain-dbi", "2.15", "--json"])
+    (a,) = json.loads(r.stdout)["answers"]
+    # 47 CFR 1.1310 Table 1 (eCFR text) and OET 65 Supplement B Table 2 (two reproductions)
+    assert all(v.startswith("read in 47 CFR 1.1310(e)(1)") for v in a["limit_verification"].values())
+    assert state_of(a["duty_factor_verification"]) == "reproduction"
+    r = CliRunner().invoke(app, ["ask", "--power-w", "100", "--freq-mhz", "14.2", "--gain-dbi", "2.15",
+                                 "--standard", "ieee2019", "--wide"])
+    assert "limits: controlled ?, uncontrolled ?" in r.stdout    # IEEE C95.1-2019: nothing could be read
