@@ -230,40 +230,40 @@ def test_ieee2019_whole_body_erl_rows(env, f_mhz, want, pair):
         assert any("both must be met" in n for n in lim.notes)
 
 
-# --- Safety Code 6 (2015) (from memory) -----------------------------------------------------
+# --- Safety Code 6 (2015) (from memory; the E values read are checked again below) -----------------------------------------------------
 SC6_ROWS = [
-    # SC6 2015 Table 4, uncontrolled, 0.1-10 MHz: E 87/f^0.5, H 0.73/f, 6 min
+    # SC6 2015 Table 5 (uncontrolled; numbered so in the reproduction read), 0.1-10 MHz: E 87/f^0.5, H 0.73/f, 6 min
     ("uncontrolled", 3.6, dict(e=87 / 3.6**0.5, h=0.73 / 3.6, s=None, avg=6)),
-    # SC6 2015 Table 4, uncontrolled, 10-20 MHz: 27.46, 0.0728, 2
+    # SC6 2015 Table 5 (uncontrolled; numbered so in the reproduction read), 10-20 MHz: 27.46, 0.0728, 2
     ("uncontrolled", 14.2, dict(e=27.46, h=0.0728, s=2, avg=6)),
-    # SC6 2015 Table 4, uncontrolled, 20-48 MHz: 58.07/f^0.25, 0.1540/f^0.25, 8.944/f^0.5
+    # SC6 2015 Table 5 (uncontrolled; numbered so in the reproduction read), 20-48 MHz: 58.07/f^0.25, 0.1540/f^0.25, 8.944/f^0.5
     ("uncontrolled", 28.5, dict(e=58.07 / 28.5**0.25, h=0.1540 / 28.5**0.25, s=8.944 / 28.5**0.5, avg=6)),
-    # SC6 2015 Table 4, uncontrolled, 48-300 MHz: 22.06, 0.05852, 1.291
+    # SC6 2015 Table 5 (uncontrolled; numbered so in the reproduction read), 48-300 MHz: 22.06, 0.05852, 1.291
     ("uncontrolled", 144.2, dict(e=22.06, h=0.05852, s=1.291, avg=6)),
-    # SC6 2015 Table 4, uncontrolled, 300-6000 MHz: 3.142 f^0.3417, 0.008335 f^0.3417, 0.02619 f^0.6834
+    # SC6 2015 Table 5 (uncontrolled; numbered so in the reproduction read), 300-6000 MHz: 3.142 f^0.3417, 0.008335 f^0.3417, 0.02619 f^0.6834
     ("uncontrolled", 432, dict(e=3.142 * 432**0.3417, h=0.008335 * 432**0.3417, s=0.02619 * 432**0.6834, avg=6)),
-    # SC6 2015 Table 4, uncontrolled, 6000-15000 MHz: 61.4, 0.163, 10, 6 min
+    # SC6 2015 Table 5 (uncontrolled; numbered so in the reproduction read), 6000-15000 MHz: 61.4, 0.163, 10, 6 min
     ("uncontrolled", 10368, dict(e=61.4, h=0.163, s=10, avg=6)),
-    # SC6 2015 Table 4, uncontrolled, 15000-150000 MHz: reference period 616000/f^1.2 min
+    # SC6 2015 Table 5 (uncontrolled; numbered so in the reproduction read), 15000-150000 MHz: reference period 616000/f^1.2 min
     ("uncontrolled", 24048, dict(e=61.4, h=0.163, s=10, avg=616000 / 24048**1.2)),
-    # SC6 2015 Table 4, uncontrolled, 150000-300000 MHz: 0.158 f^0.5, 4.21e-4 f^0.5, 6.67e-5 f
+    # SC6 2015 Table 5 (uncontrolled; numbered so in the reproduction read), 150000-300000 MHz: 0.158 f^0.5, 4.21e-4 f^0.5, 6.67e-5 f
     ("uncontrolled", 241000, dict(e=0.158 * 241000**0.5, h=4.21e-4 * 241000**0.5, s=6.67e-5 * 241000,
                                   avg=616000 / 241000**1.2)),
-    # SC6 2015 Table 5, controlled, 0.1-10 MHz: E 193/f^0.5, H 1.6/f
+    # SC6 2015 controlled table (number not confirmed), 0.1-10 MHz: E 193/f^0.5, H 1.6/f
     ("controlled", 3.6, dict(e=193 / 3.6**0.5, h=1.6 / 3.6, s=None, avg=6)),
-    # SC6 2015 Table 5, controlled, 10-20 MHz: 61.4, 0.163, 10
+    # SC6 2015 controlled table (number not confirmed), 10-20 MHz: 61.4, 0.163, 10
     ("controlled", 14.2, dict(e=61.4, h=0.163, s=10, avg=6)),
-    # SC6 2015 Table 5, controlled, 20-48 MHz: 129.8/f^0.25, 0.3444/f^0.25, 44.72/f^0.5
+    # SC6 2015 controlled table (number not confirmed), 20-48 MHz: 129.8/f^0.25, 0.3444/f^0.25, 44.72/f^0.5
     ("controlled", 28.5, dict(e=129.8 / 28.5**0.25, h=0.3444 / 28.5**0.25, s=44.72 / 28.5**0.5, avg=6)),
-    # SC6 2015 Table 5, controlled, 48-100 MHz: 49.33, 0.1309, 6.455
+    # SC6 2015 controlled table (number not confirmed), 48-100 MHz: 49.33, 0.1309, 6.455
     ("controlled", 50.1, dict(e=49.33, h=0.1309, s=6.455, avg=6)),
-    # SC6 2015 Table 5, controlled, 100-6000 MHz: 15.60 f^0.25, 0.04138 f^0.25, 0.6455 f^0.5
+    # SC6 2015 controlled table (number not confirmed), 100-6000 MHz: 15.60 f^0.25, 0.04138 f^0.25, 0.6455 f^0.5
     ("controlled", 432, dict(e=15.60 * 432**0.25, h=0.04138 * 432**0.25, s=0.6455 * 432**0.5, avg=6)),
-    # SC6 2015 Table 5, controlled, 6000-15000 MHz: 137, 0.364, 50
+    # SC6 2015 controlled table (number not confirmed), 6000-15000 MHz: 137, 0.364, 50
     ("controlled", 10368, dict(e=137, h=0.364, s=50, avg=6)),
-    # SC6 2015 Table 5, controlled, 15000-150000 MHz: 137, 0.364, 50, 616000/f^1.2 min
+    # SC6 2015 controlled table (number not confirmed), 15000-150000 MHz: 137, 0.364, 50, 616000/f^1.2 min
     ("controlled", 24048, dict(e=137, h=0.364, s=50, avg=616000 / 24048**1.2)),
-    # SC6 2015 Table 5, controlled, 150000-300000 MHz: 0.354 f^0.5, 9.40e-4 f^0.5, 3.33e-4 f
+    # SC6 2015 controlled table (number not confirmed), 150000-300000 MHz: 0.354 f^0.5, 9.40e-4 f^0.5, 3.33e-4 f
     ("controlled", 241000, dict(e=0.354 * 241000**0.5, h=9.40e-4 * 241000**0.5, s=3.33e-4 * 241000,
                                 avg=616000 / 241000**1.2)),
 ]
@@ -278,8 +278,8 @@ def test_sc6_time_averaged_rows(env, f_mhz, want):
 
 
 @pytest.mark.parametrize("env,e,h", [
-    ("uncontrolled", 83, 90),   # SC6 2015 Table 3, nerve stimulation, uncontrolled: 83 V/m, 90 A/m (from memory)
-    ("controlled", 170, 180),   # SC6 2015 Table 3, nerve stimulation, controlled: 170 V/m, 180 A/m (from memory)
+    ("uncontrolled", 83, 90),   # SC6 2015 nerve-stimulation table (number not confirmed), uncontrolled: 83 V/m, 90 A/m (from memory)
+    ("controlled", 170, 180),   # SC6 2015 nerve-stimulation table, controlled: 170 V/m, 180 A/m (from memory)
 ])
 def test_sc6_nerve_stimulation_is_a_separate_instantaneous_limit(env, e, h):
     # SC6 2015: from 100 kHz to 10 MHz both the nerve-stimulation (instantaneous) and the
