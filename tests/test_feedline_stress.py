@@ -333,6 +333,14 @@ def test_first_failure_when_exceeded_at_swr_1_and_when_never():
     assert hot.first_failure_swr == 1.0
     assert hot.first_failure.startswith("connector.transmitter (voltage_v_peak) exceeds its rating even with a "
                                         "matched line (SWR 1) at 1500 W PEP")
+    # 450 ohm line at 400 W: matched, the line carries sqrt(2 P Z0) = 600 V peak everywhere, above a UHF
+    # connector's 500 V (common practice); this load's phase puts only about 277 V at the transmitter end
+    lucky = evaluate_line(pep_w=400.0, avg_power_w=400.0, freq_hz=3.6e6, cable=cable_class("window-450"),
+                          length_m=15.0, load_ohm=600 - 900j, connector_at_transmitter="uhf")
+    conn = next(p for p in lucky.part_stresses if p.part == "connector.transmitter")
+    assert conn.status == "ok" and math.sqrt(2 * 400 * 450) > 500
+    assert lucky.first_failure.startswith("connector.transmitter (voltage_v_peak) is within its rating only at this "
+                                          "load's phase: it would exceed it even with a matched line (SWR 1)")
     cool = evaluate_line(pep_w=1.0, avg_power_w=1.0, freq_hz=7.1e6, cable=cable_class("rg-213"), length_m=20.0,
                          swr=2.0, connector="n")
     assert math.isinf(cool.first_failure_swr) and cool.first_failure_part is None

@@ -447,8 +447,11 @@ def _first_failure(parts, pep: float, swr_now: float):
         return f"{what}: which part fails first cannot be said{tail}", None, None
     swr, p = min(cands, key=lambda c: (c[0], c[1].headroom))  # a tie (e.g. at SWR 1): the least headroom
     if swr == 1.0 and p.largest_tolerable_swr is None:
-        return (f"{p.part} ({p.quantity}) exceeds its rating even with a matched line (SWR 1) at {pep:g} W PEP"
-                + tail), p.part, 1.0
+        if p.exceeded:
+            return (f"{p.part} ({p.quantity}) exceeds its rating even with a matched line (SWR 1) at {pep:g} W PEP"
+                    + tail), p.part, 1.0
+        return (f"{p.part} ({p.quantity}) is within its rating only at this load's phase: it would exceed it even "
+                f"with a matched line (SWR 1) at {pep:g} W PEP" + tail), p.part, 1.0
     if math.isinf(swr):
         searched = (f" (tuner parts searched to SWR {TUNER_SWR_SEARCH_TOP:g})"
                     if any(c[1].part.startswith("tuner.") for c in cands) else "")
