@@ -277,7 +277,9 @@ def line(
         prow = [(p.part, p.quantity, _fmt(p.stress),
                  _fmt(p.rating) + ("" if p.rating is None else f" {marker(p.rating_verification)}"), p.unit,
                  _fmt(p.headroom, digits=3),
-                 _fmt(p.largest_tolerable_swr, digits=3), p.status)
+                 ("none (SWR 1 exceeds)" if p.largest_tolerable_swr is None
+                  and p.tolerable_swr_note.startswith("rating exceeded even with a matched line")
+                  else _fmt(p.largest_tolerable_swr, digits=3)), p.status)
                 for p in r.part_stresses]
         typer.echo("")
         typer.echo(output.format_table(["part", "quantity", "stress", "rating", "unit", "headroom",
