@@ -176,7 +176,13 @@ _LIST_BOUNDS = {
 }
 
 
+#: Fields in metres whose name has no unit suffix (polygons of [x_m, y_m] vertices).
+_METRE_FIELDS = ("polygon", "boundary")
+
+
 def _number_bound(name: str) -> tuple[float, str]:
+    if name in _METRE_FIELDS:
+        return MAX_DISTANCE_M, "m"
     for suffix, hi, unit in _BY_SUFFIX:
         if name.endswith(suffix):
             return hi, unit

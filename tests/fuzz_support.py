@@ -40,6 +40,11 @@ PROFILE = os.environ.get("RFSAFE_FUZZ", "ci")
 #: The settings every fuzz test uses (a decorator; other test modules keep hypothesis's defaults).
 FUZZ = settings.get_profile(PROFILE)
 
+
+def fuzz_settings(ci_examples: int) -> settings:
+    """FUZZ with fewer examples in the "ci" profile, for inputs that take long to evaluate (sites, wires)."""
+    return settings(FUZZ, max_examples=ci_examples if PROFILE == "ci" else FUZZ.max_examples)
+
 #: Longest wall time one in-process run may take [s] (generous for the 2-core CI machine; the slowest
 #: valid inputs here, the demo site and wire stations, take well under 2 s).
 RUN_DEADLINE_S = 20.0

@@ -4,10 +4,11 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from typing import Callable, Sequence
+from typing import Callable, ClassVar, Sequence
 
 import numpy as np
 
+from rfsafe.bounds import MAX_GRID_POINTS
 from rfsafe.errors import bad_value
 from rfsafe.site.constants import _FOUR_PI, ENVIRONMENTS
 from rfsafe.site.geometry import (
@@ -21,8 +22,6 @@ from rfsafe.site.grid import SiteEmitter, _groups, ratio_grid, transmitter_ratio
 __all__ = ["summed_reach_m", "analyse_site", "SiteGrid", "TransmitterSite", "RegionSite", "Violation", "SiteAnalysis", "CHECKED_ENVIRONMENT", "MAX_GRID_POINTS"]
 
 
-#: Largest grid accepted (points); about 40 bytes of results per point are kept.
-MAX_GRID_POINTS = 4_000_000
 #: Region kinds in order of precedence where areas overlap (most restrictive first).
 _PRECEDENCE = ("no-access", "operators", "public")
 #: Which environment's limit applies to the people allowed in each region kind.
@@ -86,6 +85,12 @@ class RegionSite:
     near_field_points: int             # points inside some emitter's near field (estimate not valid)
     verdict: str                       # "complies", "VIOLATION", "not checked" (no-access)
 
+    #: Why a field has no finite value (the JSON writer puts it in ``<field>_note``).
+    NONFINITE_NOTES: ClassVar[dict] = {
+        "worst_ratio": "a grid point lies at an antenna's centre of radiation, where the far-field estimate "
+                       "has no finite value: nobody may stand there (near-field analysis needed)",
+    }
+
 
 @dataclass(frozen=True)
 class Violation:
@@ -97,6 +102,12 @@ class Violation:
     worst_ratio: float
     x_m: float
     y_m: float
+
+    #: Why a field has no finite value (the JSON writer puts it in ``<field>_note``).
+    NONFINITE_NOTES: ClassVar[dict] = {
+        "worst_ratio": "a grid point lies at an antenna's centre of radiation, where the far-field estimate "
+                       "has no finite value: nobody may stand there (near-field analysis needed)",
+    }
     points_over: int
     dominant_transmitter: str
     text: str
@@ -115,9 +126,13 @@ class SiteAnalysis:
     grid: SiteGrid
 
 
+def _axis_range(lo: float, hi: float, spacing: float) -> tuple[int, int]:
+    """First and last grid index (multiples of ``spacing``) covering [lo, hi], without allocating."""
+    return math.floor(lo / spacing + 1e-9), math.ceil(hi / spacing - 1e-9)
+
+
 def _axis(lo: float, hi: float, spacing: float) -> np.ndarray:
-    i0 = math.floor(lo / spacing + 1e-9)
-    i1 = math.ceil(hi / spacing - 1e-9)
+    i0, i1 = _axis_range(lo, hi, spacing)
     return np.arange(i0, i1 + 1) * spacing
 
 
@@ -181,13 +196,24 @@ def analyse_site(emitters: Sequence[SiteEmitter], *, boundary, areas: Sequence[A
     margin = max(2.0 * grid_spacing_m, math.ceil(reach / grid_spacing_m) * grid_spacing_m)
     bx = [p[0] for p in boundary] + [g.x_m for g in groups]
     by = [p[1] for p in boundary] + [g.y_m for g in groups]
+    # count the points before allocating them: a tiny spacing or a huge margin must be refused, not
+    # attempted (math on Python floats: no overflow, no allocation)
+    nx = (lambda r: r[1] - r[0] + 1)(_axis_range(min(bx) - margin, max(bx) + margin, grid_spacing_m))
+    ny = (lambda r: r[1] - r[0] + 1)(_axis_range(min(by) - margin, max(by) + margin, grid_spacing_m))
+    if nx * ny > MAX_GRID_POINTS:
+        raise bad_value(f"{field_prefix}grid_spacing_m", grid_spacing_m,
+                        f"gives {nx} x {ny} = {nx * ny} grid points over the site and the "
+                        f"{margin:g} m margin its stations need (accepted: at most {MAX_GRID_POINTS:,}; "
+                        "use a larger spacing)")
+    for i, a in enumerate(areas):  # edges are sampled at half the spacing: count those points too
+        n_edge = sum(math.ceil(math.dist(a.polygon[j - 1], a.polygon[j]) / (grid_spacing_m / 2.0))
+                     for j in range(len(a.polygon)))
+        if n_edge > MAX_GRID_POINTS:
+            raise bad_value(f"{field_prefix}areas[{i}].polygon", [list(p) for p in a.polygon],
+                            f"has edges {n_edge:,} half grid spacings long (accepted: at most "
+                            f"{MAX_GRID_POINTS:,}; use a larger grid_spacing_m or a smaller area)")
     gx = _axis(min(bx) - margin, max(bx) + margin, grid_spacing_m)
     gy = _axis(min(by) - margin, max(by) + margin, grid_spacing_m)
-    if gx.size * gy.size > MAX_GRID_POINTS:
-        raise bad_value(f"{field_prefix}grid_spacing_m", grid_spacing_m,
-                        f"gives {gx.size} x {gy.size} = {gx.size * gy.size} grid points over the site and the "
-                        f"{margin:g} m margin its stations need (accepted: at most {MAX_GRID_POINTS}; "
-                        "use a larger spacing)")
     xx, yy = np.meshgrid(gx, gy)
     res = ratio_grid(emitters, xx, yy, heights, progress=progress)
     ratio = res.ratio.reshape(2, gy.size, gx.size)
