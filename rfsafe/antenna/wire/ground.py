@@ -1,0 +1,325 @@
+"""Lossy (real) ground below a wire antenna: soil classes and the Sommerfeld reflected field.
+
+The ground is the homogeneous half-space z < 0 with complex relative permittivity
+``eps_c = eps_r - j sigma / (omega eps0)`` (time convention e^{j omega t}, fields e^{-jkR}). The field
+that the ground sends back to the air from a Hertzian dipole of moment p [A m] at height z' is the
+Sommerfeld integral over the plane-wave spectrum of the dipole (Weyl's identity)::
+
+    e^{-jkR}/R = (-j / 2 pi) int int e^{-j (kx x + ky y)} e^{-j kz |z - z'|} / kz dkx dky,
+    kz = sqrt(k0^2 - krho^2), Im kz <= 0,
+
+each down-going plane wave being reflected with the Fresnel coefficients of the TE wave (E parallel
+to the ground) and of the TM wave (H parallel to the ground)::
+
+    Gamma_TE = (kz - kz1) / (kz + kz1),     Gamma_TM = (eps_c kz - kz1) / (eps_c kz + kz1),
+    kz1 = sqrt(k1^2 - krho^2),  k1 = k0 sqrt(eps_c).
+
+The spectral fields of the dipole are E = -j omega [A - k (k.A) / k0^2], H = -j k x A / mu0. Written in
+polar spectral coordinates (krho, alpha) each Cartesian component of the reflected spectral field is a
+trigonometric polynomial of degree 2 in alpha; it is sampled at five alpha and the alpha integral done
+exactly: (1/2 pi) int e^{j n alpha} e^{-j krho rho cos(alpha - phi)} d alpha = e^{j n phi} (-j)^|n|
+J_|n|(krho rho). The remaining krho integral runs on a path above the real axis from 0 to beyond k0 and
+k1 (around the branch points and the surface-wave pole), then along the real axis.
+
+The quasi-static part is taken out: ``K = (eps_c - 1) / (eps_c + 1)`` times the perfect-ground image
+(Gamma_TM -> K, Gamma_TE -> -K) is subtracted in the spectrum and added back in closed form, so the
+integrand decays as e^{-krho (z + z')} and the remainder is smooth where the image field is singular.
+At sigma -> infinity (K -> 1, remainder -> 0) the perfect-ground image is recovered, and at
+eps_c -> 1 the reflected field vanishes.
+
+References
+----------
+A. Sommerfeld, "Ueber die Ausbreitung der Wellen in der drahtlosen Telegraphie," Ann. Phys. 28, 1909
+(the half-space problem); A. Banos, Dipole Radiation in the Presence of a Conducting Half-Space,
+Pergamon, 1966; W. C. Chew, Waves and Fields in Inhomogeneous Media, Van Nostrand, 1990, Ch. 2
+(Weyl identity, Sec. 2.2; reflection of the TE and TM spectra, Sommerfeld integrals of the vertical
+and horizontal dipoles, Sec. 2.3-2.4). K. A. Michalski, "Extrapolation methods for Sommerfeld integral
+tails," IEEE Trans. AP-46, 1998 (the path above the real axis for the e^{j omega t} convention; from
+memory). ITU-R Recommendation P.527-3 (1992), Fig. 1 (ground classes; values from memory, see
+``soil_classes.csv``).
+"""
+
+from __future__ import annotations
+
+import csv
+import math
+from dataclasses import dataclass
+from functools import lru_cache
+from importlib import resources
+
+import numpy as np
+
+from rfsafe.antenna.wire.kernel import ETA0_OHM, gauss_legendre_01
+
+__all__ = ["Soil", "soil_classes", "soil_from_class", "complex_permittivity", "image_factor",
+           "reflected_dipole_fields", "hertz_dipole_fields", "fresnel_coefficients", "ReflectionTable",
+           "MIN_HEIGHT_SUM_WAVELENGTHS"]
+
+C0_M_S = 299_792_458.0
+#: Vacuum permittivity [F/m] (CODATA 2018).
+EPS0_F_M = 8.8541878128e-12
+#: Smallest height sum z + z' accepted for the Sommerfeld tables, in wavelengths (see ReflectionTable).
+MIN_HEIGHT_SUM_WAVELENGTHS = 1e-3
+
+
+@dataclass(frozen=True)
+class Soil:
+    """A homogeneous ground: relative permittivity, conductivity and where the values come from."""
+
+    relative_permittivity: float
+    conductivity_s_m: float
+    name: str = "declared soil"
+    source: str = "declared in the input file"
+    verification: str = "user value"
+
+    def complex_permittivity(self, freq_hz: float) -> complex:
+        """eps_c = eps_r - j sigma / (omega eps0) at ``freq_hz`` [Hz] (e^{j omega t})."""
+        return complex_permittivity(self.relative_permittivity, self.conductivity_s_m, freq_hz)
+
+    def text(self) -> str:
+        """One line for results: the class or values and their source."""
+        return (f"{self.name}: relative permittivity {self.relative_permittivity:g}, conductivity "
+                f"{self.conductivity_s_m:g} S/m ({self.source}; {self.verification})")
+
+
+def complex_permittivity(relative_permittivity: float, conductivity_s_m: float, freq_hz: float) -> complex:
+    """Complex relative permittivity eps_r - j sigma / (omega eps0) [1] (e^{j omega t} convention)."""
+    return complex(relative_permittivity, -conductivity_s_m / (2.0 * math.pi * freq_hz * EPS0_F_M))
+
+
+def image_factor(eps_c: complex) -> complex:
+    """Quasi-static image coefficient K = (eps_c - 1) / (eps_c + 1) [1] (1 for a perfect conductor)."""
+    return (eps_c - 1.0) / (eps_c + 1.0)
+
+
+@lru_cache(maxsize=1)
+def soil_classes() -> dict[str, Soil]:
+    """The named ground classes of ``soil_classes.csv`` (ITU-R P.527-3 Fig. 1, values from memory)."""
+    text = resources.files("rfsafe.antenna.wire").joinpath("soil_classes.csv").read_text(encoding="utf-8")
+    rows = csv.DictReader(line for line in text.splitlines() if not line.startswith("#"))
+    return {r["name"]: Soil(float(r["relative_permittivity"]), float(r["conductivity_s_m"]), r["name"],
+                            r["source"], r["verification"]) for r in rows}
+
+
+def soil_from_class(name: str) -> Soil:
+    """The named ground class; KeyError if unknown."""
+    return soil_classes()[name]
+
+
+def fresnel_coefficients(cos_incidence, eps_c: complex):
+    """Plane-wave reflection coefficients of the ground for incidence angle theta from the vertical.
+
+    Returns
+    -------
+    gamma_v, gamma_h : ndarray complex
+        Gamma_TM (ratio of reflected to incident H parallel to the ground; +1 over a perfect conductor)
+        and Gamma_TE (ratio of E parallel to the ground; -1 over a perfect conductor).
+
+    References
+    ----------
+    C. A. Balanis, Advanced Engineering Electromagnetics, Wiley, 1989, Sec. 5.3 (oblique incidence
+    on a lossy interface); Chew (1990), Sec. 2.1.
+    """
+    c = np.asarray(cos_incidence, dtype=complex)
+    root = np.sqrt(eps_c - (1.0 - c * c))
+    return (eps_c * c - root) / (eps_c * c + root), (c - root) / (c + root)
+
+
+def hertz_dipole_fields(moment_am, src_m, obs_m, k: float):
+    """E [V/m] and H [A/m] of Hertzian dipoles (moments (M, 3) [A m] at (M, 3)) at points (N, 3), summed.
+
+    References
+    ----------
+    C. A. Balanis, Antenna Theory, 3rd ed., Wiley, 2005, Sec. 4.2 (infinitesimal dipole, all zones),
+    written for an arbitrary orientation.
+    """
+    p = np.asarray(moment_am, dtype=complex)
+    d = np.asarray(obs_m, dtype=float)[:, None, :] - np.asarray(src_m, dtype=float)[None, :, :]
+    r = np.sqrt(np.sum(d * d, axis=-1))
+    rh = d / r[..., None]
+    g = np.exp(-1j * k * r) / (4.0 * math.pi * r)
+    kr = k * r
+    rp = np.sum(rh * p[None], axis=-1)
+    omega_mu0 = k * ETA0_OHM
+    a = (1.0 - 1j / kr - 1.0 / kr ** 2)
+    b = (-1.0 + 3j / kr + 3.0 / kr ** 2)
+    e = -1j * omega_mu0 * g[..., None] * (a[..., None] * p[None] + (b * rp)[..., None] * rh)
+    h = ((1j * k + 1.0 / r) * g)[..., None] * np.cross(p[None], rh)
+    return e.sum(axis=1), h.sum(axis=1)
+
+
+# --- spectral machinery -------------------------------------------------------------------------------
+
+def _kz(kk, krho):
+    """sqrt(kk^2 - krho^2) on the proper sheet (Im <= 0) for krho on or above the real axis."""
+    return -1j * np.sqrt(krho * krho - kk * kk)
+
+
+_ALPHAS = 2.0 * math.pi * np.arange(5) / 5.0
+_NS = np.arange(-2, 3)
+
+
+def _spectral_coefficients(krho, k0: float, eps_c: complex, k_img: complex):
+    """Fourier coefficients in alpha of the reflected spectral fields, minus K times the image.
+
+    Returns C[o, n, c, K]: o = source orientation (0 x, 1 z), n = -2..2, c = Ex Ey Ez Hx Hy Hz, per unit
+    moment [A m]; the field at (rho, phi, h = z + z') is
+    int krho dkrho 2 pi sum_n C_n e^{j n phi} (-j)^|n| J_|n|(krho rho) e^{-j kz h}.
+    """
+    krho = np.asarray(krho, dtype=complex)
+    k1 = k0 * np.sqrt(eps_c)
+    kz = _kz(k0, krho)
+    kz1 = _kz(k1, krho)
+    g_te = (kz - kz1) / (kz + kz1) + k_img
+    g_tm = (eps_c * kz - kz1) / (eps_c * kz + kz1) - k_img
+    omega_mu0 = k0 * ETA0_OHM
+    omega_eps0 = k0 / ETA0_OHM
+    ca, sa = np.cos(_ALPHAS)[:, None], np.sin(_ALPHAS)[:, None]
+    # down-going wavevector and TE unit vector, shapes (5, K)
+    kdx, kdy, kdz = krho * ca, krho * sa, -kz * np.ones_like(ca)
+    krz = kz * np.ones_like(ca)
+    ex, ey = -sa * np.ones_like(krho), ca * np.ones_like(krho)
+    out = np.empty((2, 5, 6, len(krho)), dtype=complex)
+    pre_e = -omega_mu0 / (8.0 * math.pi ** 2 * kz)
+    pre_h = -1.0 / (8.0 * math.pi ** 2 * kz)
+    for o, u in enumerate(((1.0, 0.0, 0.0), (0.0, 0.0, 1.0))):
+        kdu = kdx * u[0] + kdy * u[1] + kdz * u[2]
+        # incident E.e_te (kd . e_te = 0) and H.e_te
+        ei = pre_e * (u[0] * ex + u[1] * ey - 0.0 * kdu)
+        # (kd x u) . e_te
+        cx = kdy * u[2] - kdz * u[1]
+        cy = kdz * u[0] - kdx * u[2]
+        hi = pre_h * (cx * ex + cy * ey)
+        s = g_te * ei          # TE reflected E amplitude along e_te
+        t = g_tm * hi          # TM reflected H amplitude along e_te
+        # E_r = s e + (-kr x (t e)) / (omega eps0);  kr x e = (-kz cos a, -kz sin a, krho)
+        kxe_x, kxe_y, kxe_z = -krz * ca, -krz * sa, krho * np.ones_like(ca)
+        e_r = (s * ex - t * kxe_x / omega_eps0, s * ey - t * kxe_y / omega_eps0, -t * kxe_z / omega_eps0)
+        # H_r = kr x (s e) / (omega mu0) + t e
+        h_r = (s * kxe_x / omega_mu0 + t * ex, s * kxe_y / omega_mu0 + t * ey, s * kxe_z / omega_mu0)
+        comps = np.stack(e_r + h_r)                       # (6, 5, K)
+        phase = np.exp(-1j * np.outer(_NS, _ALPHAS)) / 5.0  # (n, alpha)
+        out[o] = np.einsum("na,cak->nck", phase, comps)
+    return out
+
+
+def _path(k0: float, eps_c: complex, b: float, kmax: float, panel: float):
+    """Nodes and weights of the krho path: 0 -> jb -> a + jb -> a, then the real axis to kmax."""
+    k1 = k0 * np.sqrt(eps_c)
+    a = 2.0 * k0
+    if -k1.imag < 2.0 * b or abs(k1.imag) < 0.2 * abs(k1.real):
+        a = max(a, k1.real + k0)
+    xg, wg = gauss_legendre_01(8)
+    nodes, weights = [], []
+
+    def seg(z0, z1, n_panels):
+        for i in range(n_panels):
+            za = z0 + (z1 - z0) * i / n_panels
+            zb = z0 + (z1 - z0) * (i + 1) / n_panels
+            nodes.append(za + (zb - za) * xg)
+            weights.append((zb - za) * wg)
+
+    seg(0.0, 1j * b, 2)
+    seg(1j * b, a + 1j * b, max(4, int(math.ceil(a / (0.5 * b)))))
+    seg(a + 1j * b, a, 2)
+    if kmax > a:
+        seg(a, kmax, max(1, int(math.ceil((kmax - a) / panel))))
+    return np.concatenate(nodes).astype(complex), np.concatenate(weights).astype(complex)
+
+
+def _integrate(k0, eps_c, rho, phi, h, kmax_factor: float = 40.0, k_img=None):
+    """Reflected field remainder (without the K image) at (rho, phi, h) for unit x and z dipoles.
+
+    Direct evaluation, one path per call (rho, phi, h arrays of one shape). Returns (2, 6, N).
+    """
+    rho = np.atleast_1d(np.asarray(rho, dtype=float))
+    phi = np.atleast_1d(np.asarray(phi, dtype=float))
+    h = np.atleast_1d(np.asarray(h, dtype=float))
+    rmax = float(max(np.max(rho), np.max(h), 1e-3 / k0))
+    b = min(0.5 * k0, 2.0 / rmax)
+    kmax = 2.0 * k0 + kmax_factor / float(np.min(h))
+    k1 = k0 * np.sqrt(eps_c)
+    kmax = max(kmax, abs(k1) + k0) if abs(k1) < 10 * kmax else kmax
+    panel = min(0.5 * k0, math.pi / max(float(np.max(rho)), 1e-9), 1.0 / float(np.min(h)))
+    kr, w = _path(k0, eps_c, b, kmax, panel)
+    from scipy.special import jv
+
+    coef = _spectral_coefficients(kr, k0, eps_c, image_factor(eps_c) if k_img is None else k_img)
+    kz = _kz(k0, kr)
+    out = np.zeros((2, 6, len(rho)), dtype=complex)
+    step = max(1, 4_000_000 // len(kr))
+    for lo in range(0, len(rho), step):
+        sl = slice(lo, lo + step)
+        arg = np.outer(rho[sl], kr)
+        ph = np.exp(-1j * np.outer(h[sl], kz)) * (2.0 * math.pi * kr * w)[None, :]
+        for n in range(-2, 3):
+            jn = jv(abs(n), arg) * ((-1j) ** abs(n))
+            ker = jn * ph * np.exp(1j * n * phi[sl])[:, None]
+            out[:, :, sl] += np.einsum("ock,pk->ocp", coef[:, n + 2], ker)
+    return out
+
+
+def _image_fields(k0, eps_c, src_m, moment_am, obs_m, factor):
+    """factor x the perfect-ground image field of dipoles at src_m with moments (M, 3)."""
+    img_src = np.asarray(src_m, dtype=float) * np.array([1.0, 1.0, -1.0])
+    img_mom = np.asarray(moment_am, dtype=complex) * np.array([-1.0, -1.0, 1.0])
+    e, h = hertz_dipole_fields(img_mom * factor, img_src, obs_m, k0)
+    return e, h
+
+
+def reflected_dipole_fields(k0: float, eps_c: complex, src_m, moment_am, obs_m):
+    """Field reflected by the ground at points obs_m (N, 3) from one Hertzian dipole (exact Sommerfeld).
+
+    Parameters
+    ----------
+    k0 : float
+        Free-space wavenumber [rad/m].
+    eps_c : complex
+        Complex relative permittivity of the ground (``complex_permittivity``).
+    src_m : array_like (3,)
+        Dipole position, z' > 0 [m].
+    moment_am : array_like (3,)
+        Dipole moment I l [A m] (complex).
+    obs_m : array_like (N, 3)
+        Observation points, z >= 0 [m], with z + z' > 0.
+
+    Returns
+    -------
+    e_v_m, h_a_m : ndarray (N, 3) complex
+        Reflected E [V/m] and H [A/m] (add the direct field for the total).
+
+    References
+    ----------
+    Sommerfeld (1909); Chew (1990), Sec. 2.3-2.4; see the module docstring for the formulation.
+    """
+    src = np.asarray(src_m, dtype=float)
+    p = np.asarray(moment_am, dtype=complex)
+    obs = np.atleast_2d(np.asarray(obs_m, dtype=float))
+    d = obs - src
+    rho = np.hypot(d[:, 0], d[:, 1])
+    phi = np.arctan2(d[:, 1], d[:, 0])
+    h = obs[:, 2] + src[2]
+    e = np.zeros(obs.shape, dtype=complex)
+    hh = np.zeros(obs.shape, dtype=complex)
+    ph_h = math.atan2(p[1].real if abs(p[1].real) + abs(p[0].real) > 0 else 0.0, p[0].real) \
+        if abs(p[0]) + abs(p[1]) > 0 else 0.0
+    # horizontal part: rotate the x-dipole result by the moment's azimuth (complex moments along one line)
+    ph_dir = np.array([math.cos(ph_h), math.sin(ph_h)])
+    amp_h = p[0] * ph_dir[0] + p[1] * ph_dir[1]
+    res_h = _integrate(k0, eps_c, rho, phi - ph_h, h)[0] if abs(amp_h) > 0 else None
+    res_v = _integrate(k0, eps_c, rho, phi, h)[1] if abs(p[2]) > 0 else None
+    c, s = math.cos(ph_h), math.sin(ph_h)
+    if res_h is not None:
+        ex, ey = res_h[0], res_h[1]
+        hx, hy = res_h[3], res_h[4]
+        e[:, 0] += amp_h * (c * ex - s * ey)
+        e[:, 1] += amp_h * (s * ex + c * ey)
+        e[:, 2] += amp_h * res_h[2]
+        hh[:, 0] += amp_h * (c * hx - s * hy)
+        hh[:, 1] += amp_h * (s * hx + c * hy)
+        hh[:, 2] += amp_h * res_h[5]
+    if res_v is not None:
+        e += p[2] * res_v[:3].T
+        hh += p[2] * res_v[3:].T
+    ei, hi = _image_fields(k0, eps_c, src[None], p[None], obs, image_factor(eps_c))
+    return e + ei, hh + hi
