@@ -346,6 +346,11 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
         ground_factor = 1.0
         flags.append("wire antenna over a perfect ground: the solver's gain includes the ground reflection, "
                      "so the far-field estimate uses F = 1 with it")
+        if not solution.structure.ground_nodes:
+            flags.append("wire antenna declared over a perfect ground without touching it: real soil lies between "
+                         "free space and a perfect conductor, and near the ground a perfect conductor can understate "
+                         "the field (it cancels the horizontal E there); declare ground = \"free-space\" to have both "
+                         f"solved and the worse taken ({WIRE_GROUND_BOUND})")
     if twin is not None and gain_src == "moment-method solver":
         # Far field of the bound: the larger of G F (free space) and G (over perfect ground, reflection included).
         if twin.gain_dbi > gain + 10 * math.log10(ground_factor):

@@ -476,3 +476,14 @@ def test_coarse_segments_keep_the_far_field_compliance_distance_flagged(tmp_path
     d = next(x for x in cfg.compliance_distances if x.environment == "uncontrolled")
     assert d.inside_near_field
     assert any("the solver check needs segments of at most lambda/20" in f for f in cfg.flags)
+
+
+def test_an_elevated_wire_declared_over_perfect_ground_carries_the_soil_caution(result):
+    # Image theory (Balanis Sec. 4.7): on a perfect conductor the tangential E vanishes, so near the
+    # ground the perfect model can understate a horizontal wire's E; real soil lies between. The
+    # elevated dipole is told how to get the bound; the ground-mounted vertical (which needs the
+    # ground as its return) is not.
+    dip = next(c for c in result.configurations if c.id == "40m-ssb")
+    vert = next(c for c in result.configurations if c.id == "20m-cw-amp")
+    assert any("without touching it" in f and 'ground = "free-space"' in f for f in dip.flags)
+    assert not any("without touching it" in f for f in vert.flags)
