@@ -31,12 +31,15 @@ __all__ = ["RATIO_TOLERANCE", "HEIGHT_STEPS_M", "DISTANCE_STEPS_M", "BODY_HEIGHT
 #: jumps there (a change of method at a near-field boundary), which the remedy's text then says.
 RATIO_TOLERANCE = 0.002
 #: Antenna raised by these amounts above its declared height [m] (scan; the first compliant step is refined).
-HEIGHT_STEPS_M = (0.25, 0.5, 1, 1.5, 2, 3, 4, 5, 6, 8, 10, 12, 15, 20, 25, 30, 40, 50, 60)
+HEIGHT_STEPS_M = (0.5, 1, 2, 3, 5, 8, 12, 20, 30, 45, 60)
 #: A place moved straight away from the antenna's foot by these amounts [m] (scan, then refined).
-DISTANCE_STEPS_M = (0.25, 0.5, 1, 1.5, 2, 3, 4, 5, 6, 8, 10, 12, 15, 20, 25, 30, 40, 50, 75, 100, 150, 200)
+DISTANCE_STEPS_M = (0.5, 1, 2, 4, 8, 15, 25, 50, 100, 200)
 #: Body heights of a person standing on the ground, feet to head, worst taken [m] (common practice; the
 #: same heights as the site review's default and the near-field maps).
 BODY_HEIGHTS_M = (0.5, 1.0, 1.5, 2.0)
+#: Re-evaluations one run may spend on remedies (deterministic, so a worksheet is reproducible); answers
+#: left when it is spent are marked "not solved" and say so.
+EVALUATION_BUDGET = 250
 #: Largest power factor searched above today's value (a headroom answer beyond it reads "more than").
 _MAX_FACTOR = 1e6
 _MAX_LOSS_DB = 60.0
@@ -229,6 +232,13 @@ def _reused_wire_solutions():
             assess_module._wire_compliance_distances = search
 
 
+class _BudgetSpent(Exception):
+    """The run's :data:`EVALUATION_BUDGET` is spent (caught per remedy, never reaches the user)."""
+
+
+_budget: list[int] = []   # evaluations left in the current with_answers run (empty: no budget)
+
+
 def total_ratio(loaded, label: str | None = None) -> float:
     """Total exposure ratio at one place (or the worst over all places) by the full evaluation.
 
@@ -236,6 +246,10 @@ def total_ratio(loaded, label: str | None = None) -> float:
     """
     from rfsafe.assess import assess_with_emitters
 
+    if _budget:
+        if _budget[0] <= 0:
+            raise _BudgetSpent
+        _budget[0] -= 1
     try:
         res, _ = assess_with_emitters(loaded, near_field_maps=False)
     except InputError:
@@ -251,6 +265,8 @@ def total_ratio(loaded, label: str | None = None) -> float:
 def _power_like(ratio_of, now: float, r_now: float, upper: float | None) -> tuple[str, float | None, float | None]:
     """Largest x (scaling a power, ratio increasing with x) with ratio <= 1, searched in (0, upper]."""
     top = upper if upper is not None else now * _MAX_FACTOR
+    if not math.isfinite(r_now):     # unbounded (a place at an antenna): no power helps
+        return "no value helps", None, None
     if r_now <= 1.0:
         if upper is not None and now >= upper:
             return "already complies", now, r_now
@@ -459,6 +475,16 @@ def place_remedies(loaded, result: EvaluationResult) -> tuple[PlaceRemedies, ...
         return _place_remedies(loaded, result)
 
 
+def _guarded(fn, parameter: str, subject: str, current, *args) -> Remedy:
+    """One remedy, or a "not solved" entry when the run's evaluation budget is spent."""
+    try:
+        return fn(*args)
+    except _BudgetSpent:
+        return Remedy(parameter, subject, current, None, "not solved", None,
+                      f"{subject}: not solved here (this run's {EVALUATION_BUDGET} re-evaluations were spent on the "
+                      "answers above; change one thing and evaluate again)")
+
+
 def _place_remedies(loaded, result: EvaluationResult) -> tuple[PlaceRemedies, ...]:
     st = loaded.model
     out = []
@@ -477,20 +503,27 @@ def _place_remedies(loaded, result: EvaluationResult) -> tuple[PlaceRemedies, ..
         remedies: list[Remedy] = []
         for s in shares:
             tx = next(t for t in st.transmitters if t.id == s.transmitter)
-            remedies.append(_pep_remedy(base, tx, ratio_of_loaded, r_now))
+            remedies.append(_guarded(_pep_remedy, "pep_w", f"transmitter {tx.id}", tx.pep_w,
+                                     base, tx, ratio_of_loaded, r_now))
         for s in shares:
             cres = cres_by_id[s.configuration]
-            remedies.append(_duty_remedy(base, cres, pr.environment, ratio_of_loaded, r_now))
-            remedies.append(_schedule_remedy(base, cres, pr.environment, ratio_of_loaded, r_now))
-            remedies.append(_loss_remedy(base, cres, ratio_of_loaded, r_now))
+            subject = f"configuration {cres.id}"
+            remedies.append(_guarded(_duty_remedy, "avg_power_w", subject, cres.avg_power_w[pr.environment],
+                                     base, cres, pr.environment, ratio_of_loaded, r_now))
+            remedies.append(_guarded(_schedule_remedy, "schedule_on_minutes", subject, None,
+                                     base, cres, pr.environment, ratio_of_loaded, r_now))
+            remedies.append(_guarded(_loss_remedy, "line_loss_db", subject, cres.line_loss_db,
+                                     base, cres, ratio_of_loaded, r_now))
         seen = []
         for s in shares:
             ant = next(a for a in st.antennas if a.id == cres_by_id[s.configuration].antenna)
             if ant.id not in seen:
                 seen.append(ant.id)
-                remedies.append(_height_remedy(base, ant, ratio_of_loaded, r_now))
+                remedies.append(_guarded(_height_remedy, "antenna_height_m", f"antenna {ant.id}", ant.height_m,
+                                         base, ant, ratio_of_loaded, r_now))
         dominant = next(a for a in st.antennas if a.id == cres_by_id[shares[0].configuration].antenna)
-        remedies.append(_distance_remedy(base, place, dominant, ratio_of_loaded, r_now))
+        remedies.append(_guarded(_distance_remedy, "distance_m", f"place {place.label}", None,
+                                 base, place, dominant, ratio_of_loaded, r_now))
         out.append(PlaceRemedies(place=pr.label, environment=pr.environment, total_ratio=r_now,
                                  remedies=tuple(remedies)))
     return tuple(out)
@@ -520,14 +553,19 @@ def _configuration_remedies(loaded, result: EvaluationResult) -> tuple[Configura
     for cres in result.configurations:
         tx = next(t for t in st.transmitters if t.id == cres.transmitter)
         ant = next(a for a in st.antennas if a.id == cres.antenna)
+        subject = f"configuration {cres.id}"
         if tx.id not in pep:
-            pep[tx.id] = _pep_remedy(loaded, tx, ratio_of_loaded, worst)
+            pep[tx.id] = _guarded(_pep_remedy, "pep_w", f"transmitter {tx.id}", tx.pep_w,
+                                  loaded, tx, ratio_of_loaded, worst)
         if ant.id not in height:
-            height[ant.id] = _height_remedy(loaded, ant, ratio_of_loaded, worst)
+            height[ant.id] = _guarded(_height_remedy, "antenna_height_m", f"antenna {ant.id}", ant.height_m,
+                                      loaded, ant, ratio_of_loaded, worst)
         rem = [pep[tx.id],
-               _duty_remedy(loaded, cres, worst_env, ratio_of_loaded, worst),
-               _schedule_remedy(loaded, cres, worst_env, ratio_of_loaded, worst),
-               _loss_remedy(loaded, cres, ratio_of_loaded, worst),
+               _guarded(_duty_remedy, "avg_power_w", subject, cres.avg_power_w[worst_env],
+                        loaded, cres, worst_env, ratio_of_loaded, worst),
+               _guarded(_schedule_remedy, "schedule_on_minutes", subject, None,
+                        loaded, cres, worst_env, ratio_of_loaded, worst),
+               _guarded(_loss_remedy, "line_loss_db", subject, cres.line_loss_db, loaded, cres, ratio_of_loaded, worst),
                height[ant.id]]
         out.append(ConfigurationRemedies(configuration=cres.id, transmitter=tx.id, antenna=ant.id,
                                          remedies=tuple(rem)))
@@ -591,8 +629,9 @@ def ground_keep_out(loaded, result: EvaluationResult, emitters) -> tuple[GroundK
 
                 def ratio_at(r, bearing, _env=env, _heights=heights):
                     b = math.radians(bearing)
-                    place = Place(label="keep-out", x_m=em.x_m + r * math.sin(b), y_m=em.y_m + r * math.cos(b),
-                                  height_m=_heights[0], body_heights_m=list(_heights), environment=_env)
+                    place = Place.model_construct(label="keep-out", x_m=em.x_m + r * math.sin(b),
+                                                  y_m=em.y_m + r * math.cos(b), height_m=_heights[0],
+                                                  body_heights_m=list(_heights), environment=_env)
                     if any(math.dist((place.x_m, place.y_m, z), (em.x_m, em.y_m, em.height_m)) < 1e-3
                            for z in _heights):
                         return math.inf
@@ -603,6 +642,13 @@ def ground_keep_out(loaded, result: EvaluationResult, emitters) -> tuple[GroundK
 
                 keep = 0.0
                 method = "far-field estimate"
+                if not math.isfinite(reach):
+                    out.append(GroundKeepOut(configuration=em.configuration, antenna=ant.id, environment=env,
+                                             level=level, heights_m=tuple(heights), keep_out_m=math.inf,
+                                             compliance_dist_m=d.dist_m, directions=0, method=method,
+                                             text=f"{em.configuration} ({env}), {level}: no keep-out distance "
+                                                  "(the compliance distance is not finite)"))
+                    continue
                 for bearing in bearings:
                     n = _KEEP_OUT_STEPS
                     rs = [reach * k / n for k in range(n + 1)]
@@ -639,8 +685,12 @@ def with_answers(loaded, *, remedies: bool = True) -> EvaluationResult:
     keep = ground_keep_out(loaded, result, ems)
     if not remedies:
         return dataclasses.replace(result, ground_keep_out=keep)
-    places = place_remedies(loaded, result)
-    configs = configuration_remedies(loaded, result)
+    _budget[:] = [EVALUATION_BUDGET]
+    try:
+        places = place_remedies(loaded, result)
+        configs = configuration_remedies(loaded, result)
+    finally:
+        _budget.clear()
     return dataclasses.replace(result, ground_keep_out=keep, place_remedies=places, configuration_remedies=configs)
 
 

@@ -301,7 +301,7 @@ class Remedy:
     applies_to: str                # e.g. "transmitter hf-amp", "configuration 20m-cw", "antenna beam", "place Garden"
     current: float | None          # today's value (None where it has none)
     value: float | None            # the answer; None when no value of the parameter helps (see status)
-    status: str                    # "solved", "already complies", "no value helps", "not applicable"
+    status: str                    # "solved", "already complies", "no value helps", "not applicable", "not solved"
     ratio_at_value: float | None   # the total exposure ratio re-evaluated with ``value``
     text: str                      # one sentence for tables and the worksheet
 
@@ -392,6 +392,10 @@ class SiteRemedy:
     text: str
 
 
+#: Why a keep-out distance can be infinite (printed beside the null in JSON).
+GroundKeepOut.NONFINITE_NOTES = {"keep_out_m": "the configuration's compliance distance is not finite (see its flags)",
+                                 "compliance_dist_m": "the configuration's compliance distance is not finite "
+                                                      "(see its flags)"}
 #: Why a quick answer's largest PEP can be infinite (``rfsafe ask --json`` prints it beside the null).
 QuickAnswer.NONFINITE_NOTES = {"largest_pep_w": "no power up to a million times the asked PEP reaches the limit "
                                                 "at the distance"}
