@@ -51,15 +51,16 @@ import numpy as np
 
 from rfsafe.antenna.wire.kernel import ETA0_OHM, gauss_legendre_01
 
-__all__ = ["Soil", "soil_classes", "soil_from_class", "complex_permittivity", "image_factor",
-           "reflected_dipole_fields", "hertz_dipole_fields", "fresnel_coefficients", "ReflectionTable",
-           "MIN_HEIGHT_SUM_WAVELENGTHS"]
+__all__ = ["MIN_HEIGHT_WAVELENGTHS", "ReflectionTable", "Soil", "complex_permittivity", "fresnel_coefficients",
+           "hertz_dipole_fields", "image_factor", "reflected_dipole_fields", "reflection_table",
+           "remainder_fields", "soil_classes", "soil_from_class"]
 
 C0_M_S = 299_792_458.0
 #: Vacuum permittivity [F/m] (CODATA 2018).
 EPS0_F_M = 8.8541878128e-12
-#: Smallest height sum z + z' accepted for the Sommerfeld tables, in wavelengths (see ReflectionTable).
-MIN_HEIGHT_SUM_WAVELENGTHS = 1e-3
+#: Lowest wire height accepted over real ground [wavelengths]: closer wires (ground rods, radials lying on or
+#: in the soil) need the field inside the soil, which is not modelled.
+MIN_HEIGHT_WAVELENGTHS = 1e-3
 
 
 @dataclass(frozen=True)
@@ -220,10 +221,10 @@ def _path(k0: float, eps_c: complex, b: float, kmax: float, panel: float):
             weights.append((zb - za) * wg)
 
     seg(0.0, 1j * b, 2)
-    seg(1j * b, a + 1j * b, max(4, int(math.ceil(a / (0.5 * b)))))
+    seg(1j * b, a + 1j * b, max(4, math.ceil(a / (0.5 * b))))
     seg(a + 1j * b, a, 2)
     if kmax > a:
-        seg(a, kmax, max(1, int(math.ceil((kmax - a) / panel))))
+        seg(a, kmax, max(1, math.ceil((kmax - a) / panel)))
     return np.concatenate(nodes).astype(complex), np.concatenate(weights).astype(complex)
 
 
@@ -323,3 +324,159 @@ def reflected_dipole_fields(k0: float, eps_c: complex, src_m, moment_am, obs_m):
         hh += p[2] * res_v[3:].T
     ei, hi = _image_fields(k0, eps_c, src[None], p[None], obs, image_factor(eps_c))
     return e + ei, hh + hi
+
+
+# --- interpolation tables over horizontal distance and height sum ---------------------------------------
+
+#: Table quantities (per unit moment [A m], remainder without the K image), in cylindrical components about
+#: the source: vertical dipole E_rho, E_z, H_phi; horizontal dipole (along x, at azimuth phi from it)
+#: E_rho / cos, E_z / cos, H_phi / cos, E_phi / sin, H_rho / sin, H_z / sin.
+_QUANT = (  # (orientation, component, phi, sign)
+    (1, 0, 0.0, 1.0), (1, 2, 0.0, 1.0), (1, 4, 0.0, 1.0),
+    (0, 0, 0.0, 1.0), (0, 2, 0.0, 1.0), (0, 4, 0.0, 1.0),
+    (0, 0, 0.5 * math.pi, -1.0), (0, 4, 0.5 * math.pi, 1.0), (0, 5, 0.5 * math.pi, 1.0))
+#: Grid steps: u = asinh(rho / h_min) and ln h.
+_DU, _DLH = 0.1, 0.1
+#: Tail length in units of 1/h: the integrand decays as e^{-krho h}.
+_TAIL = 30.0
+
+
+class ReflectionTable:
+    """Sommerfeld remainder fields of unit vertical and horizontal dipoles on a (rho, z + z') grid.
+
+    Built once per (frequency, soil, range). The remainder (reflected field minus K times the image)
+    times R e^{jk0 R} (R = sqrt(rho^2 + h^2), the image distance) is smooth and is interpolated
+    bilinearly in (asinh(rho / h_min), ln h).
+
+    Parameters
+    ----------
+    k0 : float
+        Free-space wavenumber [rad/m].
+    eps_c : complex
+        Complex relative permittivity of the soil.
+    rho_max_m, h_min_m, h_max_m : float
+        Largest horizontal distance, smallest and largest height sum z + z' to cover [m].
+    """
+
+    def __init__(self, k0: float, eps_c: complex, rho_max_m: float, h_min_m: float, h_max_m: float):
+        from scipy.special import j0, j1, jv
+
+        self.k0, self.eps_c, self.h_min = float(k0), complex(eps_c), float(h_min_m)
+        self.k_img = image_factor(self.eps_c)
+        rho_max = max(float(rho_max_m), self.h_min)
+        h_max = max(float(h_max_m), self.h_min * 1.001)
+        nu = math.ceil(math.asinh(rho_max / self.h_min) / _DU) + 2
+        nh = math.ceil(math.log(h_max / self.h_min) / _DLH) + 2
+        self.u = np.arange(nu) * _DU
+        self.lh = math.log(self.h_min) + np.arange(nh) * _DLH
+        rho = self.h_min * np.sinh(self.u)
+        hs = np.exp(self.lh)
+        rmax = float(max(rho[-1], hs[-1], 1e-3 / k0))
+        b = min(0.5 * k0, 2.0 / rmax)
+        kmax = 2.0 * k0 + _TAIL / self.h_min
+        panel = min(0.5 * k0, 2.0 * math.pi / max(rho[-1], 1e-9), 2.0 / self.h_min)   # 8 nodes per J period
+        kr, w = _path(k0, self.eps_c, b, kmax, panel)
+        coef = _spectral_coefficients(kr, k0, self.eps_c, self.k_img)       # (2, 5, 6, K)
+        kz = _kz(k0, kr)
+        # a[q, m, k]: weight of J_m in quantity q
+        a = np.zeros((len(_QUANT), 3, len(kr)), dtype=complex)
+        for q, (o, c, phi, sign) in enumerate(_QUANT):
+            for n in range(-2, 3):
+                m = abs(n)
+                a[q, m] += sign * coef[o, n + 2, c] * np.exp(1j * n * phi) * (-1j) ** m
+        a *= 2.0 * math.pi * kr * w
+        cplx = np.abs(kr.imag) > 0
+        n_top = int(np.max(np.nonzero(cplx)[0])) + 1 if np.any(cplx) else 0
+        # J_m(krho rho) as (K, nu) blocks, contiguous in the krho prefix used by each row
+        jm = np.empty((3, len(kr), nu), dtype=complex)
+        x_top, x_tail = np.outer(kr[:n_top], rho), np.outer(kr[n_top:].real, rho)
+        for m in range(3):
+            jm[m, :n_top] = jv(m, x_top)
+        jm[0, n_top:], jm[1, n_top:] = j0(x_tail), j1(x_tail)
+        with np.errstate(divide="ignore", invalid="ignore"):   # J2 = 2 J1 / x - J0 (recurrence)
+            j2 = np.where(x_tail > 1e-2, 2.0 * jm[1, n_top:].real / x_tail - jm[0, n_top:].real, x_tail ** 2 / 8.0)
+        jm[2, n_top:] = j2
+        vals = np.zeros((nh, len(_QUANT), nu), dtype=complex)
+        a_end = kr[n_top - 1].real if n_top else 0.0
+        for j, h in enumerate(hs):
+            kend = np.searchsorted(kr.real[n_top:], a_end + _TAIL / h) + n_top
+            e = np.exp(-1j * kz[:kend] * h)
+            for m in range(3):
+                vals[j] += (a[:, m, :kend] * e) @ jm[m, :kend]
+        vals = vals.transpose(2, 0, 1)
+        r = np.sqrt(rho[:, None] ** 2 + hs[None, :] ** 2)
+        self.values = vals * (r * np.exp(1j * k0 * r))[..., None]
+        self.rho_max, self.h_max = float(rho[-1]), float(hs[-1])
+
+    def covers(self, rho_max_m: float, h_min_m: float, h_max_m: float) -> bool:
+        return rho_max_m <= self.rho_max and h_min_m >= self.h_min * (1 - 1e-12) and h_max_m <= self.h_max
+
+    def lookup(self, rho, h):
+        """Interpolated quantities (..., 9) at horizontal distances rho and height sums h [m]."""
+        u = np.arcsinh(rho / self.h_min) / _DU
+        v = (np.log(h) - self.lh[0]) / _DLH
+        i = np.clip(u.astype(np.intp), 0, len(self.u) - 2)
+        j = np.clip(v.astype(np.intp), 0, len(self.lh) - 2)
+        fu, fv = (u - i)[..., None], (v - j)[..., None]
+        t = self.values
+        val = ((t[i, j] * (1 - fv) + t[i, j + 1] * fv) * (1 - fu) + (t[i + 1, j] * (1 - fv) + t[i + 1, j + 1] * fv) * fu)
+        r = np.sqrt(rho * rho + h * h)
+        return val * (np.exp(-1j * self.k0 * r) / r)[..., None]
+
+
+_TABLES: dict = {}
+
+
+def reflection_table(k0: float, eps_c: complex, rho_max_m: float, h_min_m: float, h_max_m: float) -> ReflectionTable:
+    """A table covering the range, reused across calls with the same (k0, soil) when it covers it."""
+    key = (round(k0, 12), complex(eps_c))
+    tab = _TABLES.get(key)
+    if tab is not None and tab.covers(rho_max_m, h_min_m, h_max_m):
+        return tab
+    if tab is not None:   # grow to cover both
+        rho_max_m, h_min_m, h_max_m = (max(rho_max_m, tab.rho_max), min(h_min_m, tab.h_min), max(h_max_m, tab.h_max))
+    tab = ReflectionTable(k0, eps_c, rho_max_m * 1.05, h_min_m, h_max_m * 1.05)
+    if len(_TABLES) > 8:
+        _TABLES.clear()
+    _TABLES[key] = tab
+    return tab
+
+
+def remainder_fields(tab: ReflectionTable, src_m, mom_am, obs_m, *, want_h: bool = True):
+    """Sommerfeld remainder E [V/m] (and H [A/m]) at obs (N, 3) of dipoles (M, 3) with moments (M, 3).
+
+    Add the K-weighted image field (exact, elsewhere) for the whole reflected field.
+    """
+    src = np.asarray(src_m, dtype=float)
+    mom = np.asarray(mom_am, dtype=complex)
+    obs = np.asarray(obs_m, dtype=float)
+    e_out = np.zeros(obs.shape, dtype=complex)
+    h_out = np.zeros(obs.shape, dtype=complex) if want_h else None
+    step = max(1, 200_000 // max(1, len(src)))
+    for lo in range(0, len(obs), step):
+        o = obs[lo:lo + step]
+        dx = o[:, None, 0] - src[None, :, 0]
+        dy = o[:, None, 1] - src[None, :, 1]
+        rho = np.hypot(dx, dy)
+        h = o[:, None, 2] + src[None, :, 2]
+        with np.errstate(invalid="ignore", divide="ignore"):
+            cph = np.where(rho > 0, dx / rho, 1.0)
+            sph = np.where(rho > 0, dy / rho, 0.0)
+        q = tab.lookup(rho, h)
+        px, py, pz = mom[None, :, 0], mom[None, :, 1], mom[None, :, 2]
+        ca = px * cph + py * sph
+        sb = px * sph - py * cph
+        e_rho = ca * q[..., 3] + pz * q[..., 0]
+        e_phi = sb * q[..., 6]
+        e_z = ca * q[..., 4] + pz * q[..., 1]
+        e_out[lo:lo + step, 0] = np.sum(e_rho * cph - e_phi * sph, axis=1)
+        e_out[lo:lo + step, 1] = np.sum(e_rho * sph + e_phi * cph, axis=1)
+        e_out[lo:lo + step, 2] = np.sum(e_z, axis=1)
+        if want_h:
+            h_rho = sb * q[..., 7]
+            h_phi = ca * q[..., 5] + pz * q[..., 2]
+            h_z = sb * q[..., 8]
+            h_out[lo:lo + step, 0] = np.sum(h_rho * cph - h_phi * sph, axis=1)
+            h_out[lo:lo + step, 1] = np.sum(h_rho * sph + h_phi * cph, axis=1)
+            h_out[lo:lo + step, 2] = np.sum(h_z, axis=1)
+    return e_out, h_out
