@@ -187,7 +187,8 @@ def test_t_stresses_closed_form_and_nodal():
 def test_t_rebuilt_from_printed_values(zl, freq_hz, q, inductor_q):
     """Rebuild the ladder from the part values rfsafe prints (pF, uH) with scikit-rf's lumped elements
     (lossy inductor: series resistance X/Q_u) and check the input impedance; check every part's voltage
-    and current, and the power balance, by nodal analysis of the same circuit."""
+    and current, and the power balance, by nodal analysis of the same circuit and by scikit-rf's ABCD
+    parameters of each section."""
     res = design_tuner(TunerSpec("t", loaded_q=q, inductor_q=inductor_q), load_ohm=zl, freq_hz=freq_hz,
                        input_power_w=400.0, target_ohm=50.0)
     net = res.network
@@ -209,6 +210,31 @@ def test_t_rebuilt_from_printed_values(zl, freq_hz, q, inductor_q):
         assert part.current_a_peak == pytest.approx(abs(i), rel=1e-9)
     assert net.output_power_w == pytest.approx(p_load, rel=1e-9)
     assert net.loss_w == pytest.approx(400.0 - p_load, rel=1e-6, abs=1e-9)
+    # the same part stresses from scikit-rf's ABCD matrices of the three sections, walked from the load
+    for part, (v, i) in zip(net.parts, _skrf_t_part_stress(freq_hz, c1.value_pf, l1.value_uh, c2.value_pf, zl,
+                                                           inductor_q, 400.0)):
+        assert part.voltage_v_peak == pytest.approx(v, rel=1e-8)
+        assert part.current_a_peak == pytest.approx(i, rel=1e-8)
+
+
+def _skrf_t_part_stress(freq_hz, c1_pf, l_uh, c2_pf, zl, inductor_q, power_w):
+    """Peak voltage across and current through each T part at ``power_w`` into the input, from scikit-rf's ABCD
+    (a) parameters of each two-port section: [V, I] at a section's input = A [V, I] at its output."""
+    skrf = pytest.importorskip("skrf")
+    from skrf.media import DefinedGammaZ0
+    media = DefinedGammaZ0(skrf.Frequency(freq_hz, freq_hz, 1, unit="Hz"), z0=50.0)
+    shunt = media.inductor(l_uh * 1e-6)
+    if math.isfinite(inductor_q):
+        shunt = media.resistor(2 * math.pi * freq_hz * l_uh * 1e-6 / inductor_q) ** shunt
+    sections = [media.capacitor(c1_pf * 1e-12), media.shunt(shunt ** media.short()), media.capacitor(c2_pf * 1e-12)]
+    vi = [np.array([zl, 1.0], dtype=complex)]          # at the load: unit current
+    for sec in reversed(sections):
+        vi.insert(0, sec.a[0] @ vi[0])
+    v_in, i_in = vi[0]
+    scale = math.sqrt(power_w / (0.5 * (v_in * np.conj(i_in)).real))
+    # input; after C1 (shunt node, current into the shunt section); after the shunt section; the load
+    (v1, i1), (v2, i2), (_, i3), (v_l, i_l) = [tuple(x * scale) for x in vi]
+    return [(abs(v1 - v2), abs(i1)), (abs(v2), abs(i2 - i3)), (abs(v2 - v_l), abs(i_l))]
 
 
 @settings(max_examples=200, deadline=None)
