@@ -790,10 +790,13 @@ def _wire_compliance_distances(sols, limits, avg_ant, pep_ant: float, distances,
         over = [r for r in grid if over_limit(r)]
         if not over:
             d_nf = grid[0]
-        elif over[-1] >= boundary_m:
-            d_nf = boundary_m
         else:
-            lo, hi = over[-1], grid[int(np.searchsorted(grid, over[-1])) + 1]
+            if over[-1] >= boundary_m:   # still above the limit at the boundary: search outward
+                lo, hi = boundary_m, 2.0 * boundary_m
+                while over_limit(hi) and hi < 64.0 * boundary_m:
+                    lo, hi = hi, 2.0 * hi
+            else:
+                lo, hi = over[-1], grid[int(np.searchsorted(grid, over[-1])) + 1]
             for _ in range(5):
                 mid = math.sqrt(lo * hi)
                 lo, hi = (mid, hi) if over_limit(mid) else (lo, mid)
