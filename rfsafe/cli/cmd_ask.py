@@ -146,28 +146,28 @@ def ask(power_w: str = typer.Option(..., "--power-w", metavar="W[,W...]",
         bands: str = typer.Option(None, "--bands", metavar="BAND[,BAND...]",
                                   help="Amateur bands instead of frequencies (160m ... 23cm, or hf, vhf, uhf, "
                                        "all); each band is answered at its worse edge."),
-        mode: str = typer.Option("carrier", "--mode",
+        mode: str = typer.Option("carrier", "--mode", metavar="MODE",
                                  help="Mode whose duty factor applies (default carrier: duty 1, conservative)."),
-        antenna: str = typer.Option(None, "--antenna", help=f"Antenna kind: {_KINDS}."),
-        gain_dbi: str = typer.Option(None, "--gain-dbi", help="Peak antenna gain [dBi] (or --gain-dbd)."),
-        gain_dbd: str = typer.Option(None, "--gain-dbd", help="Peak antenna gain over a half-wave dipole [dBd]."),
-        size_m: str = typer.Option(None, "--size-m",
+        antenna: str = typer.Option(None, "--antenna", metavar="KIND", help=f"Antenna kind: {_KINDS}."),
+        gain_dbi: str = typer.Option(None, "--gain-dbi", metavar="DBI", help="Peak antenna gain [dBi] (or --gain-dbd)."),
+        gain_dbd: str = typer.Option(None, "--gain-dbd", metavar="DBD", help="Peak antenna gain over a half-wave dipole [dBd]."),
+        size_m: str = typer.Option(None, "--size-m", metavar="M",
                                    help="Largest dimension of the antenna [m]; the person's distance is then taken "
                                         "to its nearest part (default: rfsafe's conservative assumption, see "
                                         "evaluate)."),
-        cable: str = typer.Option(None, "--cable", help="Cable class (see `rfsafe line --help`); default: no "
+        cable: str = typer.Option(None, "--cable", metavar="CLASS", help="Cable class (see `rfsafe line --help`); default: no "
                                                         "line loss (conservative)."),
-        length_m: str = typer.Option(None, "--length-m", help="Cable length [m] (with --cable)."),
-        swr: str = typer.Option(None, "--swr", help="SWR at the antenna (mismatch loss on the cable)."),
-        height_m: str = typer.Option(None, "--height-m",
+        length_m: str = typer.Option(None, "--length-m", metavar="M", help="Cable length [m] (with --cable)."),
+        swr: str = typer.Option(None, "--swr", metavar="SWR", help="SWR at the antenna (mismatch loss on the cable)."),
+        height_m: str = typer.Option(None, "--height-m", metavar="M",
                                      help="Antenna height above ground [m]; the person is then a standing body "
                                           "(0.5-2 m, worst taken) and ground-level keep-out is given."),
-        distance_m: str = typer.Option(None, "--distance-m",
+        distance_m: str = typer.Option(None, "--distance-m", metavar="M",
                                        help="Horizontal distance from the antenna's foot to the person [m] "
                                             "(without --height-m: level with the antenna)."),
-        standard: str = typer.Option("fcc", "--standard",
+        standard: str = typer.Option("fcc", "--standard", metavar="ID",
                                      help="fcc, icnirp2020, icnirp1998, ieee2019, sc6, eu1999, or all (side by side)."),
-        ground: str = typer.Option("full", "--ground", help="Ground reflection: none, typical, full (default)."),
+        ground: str = typer.Option("full", "--ground", metavar="KIND", help="Ground reflection: none, typical, full (default)."),
         json_out: bool = typer.Option(False, "--json", help="Print one JSON document instead of the table."),
         csv_out: bool = typer.Option(False, "--csv", help="Print the table as CSV (full precision)."),
         wide: bool = typer.Option(False, "--wide", help="Do not fit the table to 100 columns.")) -> None:
