@@ -129,7 +129,8 @@ def _verification_lines(res) -> str:
 
 def evaluate(file: Path = typer.Argument(..., help="Station file (.toml)."),
              standard: str = typer.Option(None, "--standard",
-                                          help="Override the file's standard: fcc, icnirp2020, icnirp1998, ieee2019, sc6, eu1999."),
+                                          help="Override the file's standard: fcc, icnirp2020, icnirp1998, ieee2019, sc6, eu1999; "
+                                               "or all (every standard side by side)."),
              json_out: bool = typer.Option(False, "--json", help="Print one JSON document instead of tables."),
              csv_table: str = typer.Option(None, "--csv", metavar="TABLE",
                                            help="Print one table as CSV instead: places, exposures, configurations, "
