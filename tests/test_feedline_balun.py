@@ -112,3 +112,11 @@ def test_balun_errors():
     with pytest.raises(InputError, match=r'^line.balun.location: "antenna" with a tuner also at the antenna is not '
                                          r'modelled'):
         evaluate_line(balun=BalunSpec(4.0, "antenna"), tuner=TunerSpec("l", position="antenna"), **base)
+
+
+def test_missing_balun_on_ladder_line_is_noted():
+    kw = dict(pep_w=100.0, avg_power_w=100.0, freq_hz=3.6e6, cable=cable_class("window-450"), length_m=15.0,
+              load_ohm=600 - 900j, tuner=TunerSpec("t"))
+    assert any(n.startswith("no balun declared between the tuner and the balanced line") for n in evaluate_line(**kw).notes)
+    with_balun = evaluate_line(balun=BalunSpec(4.0, "transmitter"), **kw)
+    assert not any(n.startswith("no balun declared") for n in with_balun.notes)

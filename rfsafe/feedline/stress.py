@@ -736,6 +736,10 @@ def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: Ca
                              "W (PEP-equivalent)", balun_eq, "user rating; " + balun_result.rule))
         if balun.location == "transmitter" and not cable.balanced:
             notes.append("balun at the transmitter feeding an unbalanced (coax) line: check the declared location")
+    elif tuner is not None and tuner.position == "transmitter" and cable.balanced:
+        notes.append("no balun declared between the tuner and the balanced line (common practice: an unbalanced "
+                     "tuner feeds ladder line through a balun, which then carries the line's input voltage and "
+                     "current; declare it to have it rated)")
     if tuner_result is not None:
         rated = {p.name: p.kind for p in tuner_result.network.parts if p.rating is not None}
         tol = {}
