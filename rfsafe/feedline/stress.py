@@ -331,10 +331,11 @@ def _tuner_tolerable_swrs(spec: TunerSpec, result: TunerResult, rated: dict, *, 
     Worst case over the load phase (``_TUNER_PHASES`` phases plus the present one, each part's largest
     sample refined by golden-section search): for each load of
     that SWR the network is designed again as declared (same loaded Q or default rule; settings given
-    as part values are replaced by the loaded Q they give) at the same input power, and the part with
-    the same name and kind is compared with its rating. The SWR is stepped up to
-    ``TUNER_SWR_SEARCH_TOP``, then the first crossing is refined by bisection. Loads for which the
-    network has no such part, or cannot be built, are skipped.
+    as part values are replaced by the loaded Q they give; a T keeps its virtual resistance) at the
+    same input power, and the part with the same name, kind and placement (the same role) is compared
+    with its rating. The SWR is stepped up to ``TUNER_SWR_SEARCH_TOP``, then the first crossing is
+    refined by bisection. Loads for which the network has no part in that role, or cannot be built,
+    are skipped (said in the note).
     """
     net = result.network
     if spec.c1_pf is not None:
@@ -373,7 +374,7 @@ def _tuner_tolerable_swrs(spec: TunerSpec, result: TunerResult, rated: dict, *, 
         except InputError:
             return {}
         return {p.name: (p.voltage_v_peak if p.kind == "capacitor" else p.current_a_rms)
-                for p in n.parts if rated.get(p.name) == p.kind}
+                for p in n.parts if rated.get(p.name) == (p.kind, p.placement)}
 
     def worst(g: float) -> dict:
         """Largest stress over the load phase: sampled, then golden-section refined around each part's
@@ -407,7 +408,8 @@ def _tuner_tolerable_swrs(spec: TunerSpec, result: TunerResult, rated: dict, *, 
            + ("the T kept at its present virtual resistance (source-side capacitor unchanged; where that cannot "
               "match, 1.2 x the least Q) with L and the load-side capacitor retuned for each load"
               if r_v0 is not None else "the network redesigned for each load as declared")
-           + ", at this power; SWR at the antenna end"
+           + ", at this power (loads where it has no part in this role, or cannot be built, skipped); SWR at the "
+           "antenna end"
            + (" (the antenna's own SWR on the line's Z0)" if result.position == "antenna" else ""))
     out = {}
     for name in rated:
@@ -741,7 +743,7 @@ def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: Ca
                      "tuner feeds ladder line through a balun, which then carries the line's input voltage and "
                      "current; declare it to have it rated)")
     if tuner_result is not None:
-        rated = {p.name: p.kind for p in tuner_result.network.parts if p.rating is not None}
+        rated = {p.name: (p.kind, p.placement) for p in tuner_result.network.parts if p.rating is not None}
         tol = {}
         if rated:
             tol = _tuner_tolerable_swrs(
