@@ -226,3 +226,14 @@ def test_t_rebuilt_from_the_printed_table():
     ntw = (media.capacitor(values["C1"] * 1e-12) ** media.shunt_inductor(values["L1"] * 1e-6)
            ** media.capacitor(values["C2"] * 1e-12) ** media.load((zin - 50) / (zin + 50)))
     assert abs(complex(ntw.s[0, 0, 0])) < 0.01
+
+
+def test_part_beyond_usual_range_marked_in_the_table():
+    """A pi network for a 5 ohm load on 160 m needs several nF at its input: marked ! and explained (common
+    practice: tuner variable capacitors about 10-500 pF)."""
+    t = run(["line", "--pep-w", "100", "--freq-mhz", "1.85", "--length-m", "10", "--cable", "rg-213", "--load-ohm", "5",
+             "--tuner", "pi"])
+    assert t.exit_code == 0, t.stderr
+    c1 = next(ln for ln in t.stdout.splitlines() if ln.startswith("C1 "))
+    assert " pF !" in c1
+    assert "  ! C1 = " in t.stdout and "is above the usual 10-500 pF of tuner variable capacitors (common practice)" in t.stdout

@@ -288,7 +288,8 @@ def line(
         typer.echo(output.fit_text(f"Fails first: {r.first_failure}"))
         if r.tuner is not None:
             n = r.tuner.network
-            trow = [(p.name, p.kind, p.placement, _fmt(p.value_pf, "pF") if p.value_pf else _fmt(p.value_uh, "uH"),
+            trow = [(p.name, p.kind, p.placement,
+                     (_fmt(p.value_pf, "pF") if p.value_pf else _fmt(p.value_uh, "uH")) + (" !" if p.range_flag else ""),
                      _fmt(p.voltage_v_peak), _fmt(p.voltage_v_rms), _fmt(p.current_a_rms), _fmt(p.loss_w))
                     for p in n.parts]
             typer.echo("")
@@ -298,6 +299,8 @@ def line(
                                                  f"loss {n.loss_db:.3g} dB", align="llllrrrr"))
             if n.loaded_q is not None:
                 typer.echo(f"  loaded Q {n.loaded_q:.3g}: {n.q_definition}")
+            for flag in n.range_flags:
+                typer.echo(f"  ! {flag}")
             zt = n.input_impedance_ohm
             typer.echo(f"  input impedance {zt.real:.4g} {'+' if zt.imag >= 0 else '-'} j{abs(zt.imag):.4g} ohm; "
                        f"SWR seen by the transmitter {r.swr_seen_by_transmitter:.3g}")
