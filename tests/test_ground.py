@@ -7,6 +7,9 @@ import pytest
 from scipy.special import wofz
 
 from rfsafe.antenna.wire import ground as g
+from rfsafe.antenna.wire.model import WireAntennaSpec
+from rfsafe.antenna.wire.solver import solve
+from rfsafe.errors import InputError
 
 F_HZ = 14e6
 K0 = 2 * math.pi * F_HZ / g.C0_M_S
@@ -136,3 +139,109 @@ def test_interpolation_table_matches_the_direct_integral(soil):
         er, hr = g.reflected_dipole_fields(K0, eps, src[0], p, obs)
         assert np.max(np.linalg.norm(e + ei - er, axis=1) / np.linalg.norm(er, axis=1)) < 0.01
         assert np.max(np.linalg.norm(h + hi - hr, axis=1) / np.linalg.norm(hr, axis=1)) < 0.01
+
+
+# --- the solver over real ground ---------------------------------------------------------------------
+
+
+F_DIPOLE_HZ = 14.2e6
+
+
+def _dipole(ground, height_m=3.0, **kw):
+    return WireAntennaSpec.model_validate(dict(
+        ground=ground, wires=[dict(points_m=[[-5.05, 0, height_m], [5.05, 0, height_m]], radius_m=0.001, segments=21)],
+        feeds=[dict(wire=0)], **kw))
+
+
+PLACES = np.array([[0, 2.0, 1.5], [6, 1, 1.0], [3, -4, 0.0], [0, 0, 0.2], [10, 10, 2]])
+
+
+@pytest.mark.parametrize("limit,ground", [((1.0, 0.0), "free-space"), ((1.0, 1e3), "perfect")])
+def test_solver_limits_reproduce_free_space_and_perfect_ground(limit, ground):
+    # eps_r -> 1, sigma -> 0 is free space; sigma -> infinity is the perfect ground (image theory,
+    # Balanis, Antenna Theory, 3rd ed., Sec. 4.7): impedance, gain and near fields must follow.
+    real = solve(_dipole("real", soil_relative_permittivity=limit[0], soil_conductivity_s_m=limit[1]), F_DIPOLE_HZ)
+    ref = solve(_dipole(ground), F_DIPOLE_HZ)
+    # 1000 S/m still has a surface resistance (skin depth 4 mm at 14 MHz): 0.1 ohm of loss is real
+    assert real.feed_impedance_ohm[0] == pytest.approx(ref.feed_impedance_ohm[0], rel=5e-3)
+    assert real.gain_dbi == pytest.approx(ref.gain_dbi, abs=0.03)   # the same 0.3 % loss: 0.012 dB
+    e, h = real.fields_rms(PLACES, 100.0)
+    e0, h0 = ref.fields_rms(PLACES, 100.0)
+    # atol: 0.2 m above 1000 S/m the tangential E is not zero (surface impedance 0.24 (1 + j) ohm at 14 MHz)
+    assert np.allclose(e, e0, rtol=5e-3, atol=5e-3 * e0.max()) and np.allclose(h, h0, rtol=5e-3)
+    assert "real ground" in real.ground_method and "Sommerfeld" in real.ground_method
+
+
+def test_solver_near_fields_equal_the_direct_sommerfeld_sum():
+    # The solver's near field over soil (closed-form -K image + tabulated remainder with 3 nodes per
+    # segment) against the direct Sommerfeld integral of 6 dipoles per segment (checked above).
+    s = solve(_dipole("real", soil="medium-dry-ground"), F_DIPOLE_HZ)
+    st, k = s.structure, s.k
+    e1, _ = g.remainder_near_fields(st, k, s.segment_current_a, PLACES)
+    xg, wg = g.gauss_legendre_01(6)
+    src, mom = [], []
+    for q in range(st.num_segments):
+        d, sd = st.length_m[q], st.direction[q]
+        for x, w in zip(xg, wg):
+            cur = (s.segment_current_a[q, 0] * np.sin(k * d * (1 - x)) + s.segment_current_a[q, 1] * np.sin(k * d * x)) \
+                / np.sin(k * d)
+            src.append(st.start_m[q] + x * d * sd)
+            mom.append(cur * w * d * sd)
+    src, mom = np.array(src), np.array(mom)
+    er = sum(g.reflected_dipole_fields(k, st.soil_eps_c, p0, m0, PLACES)[0] for p0, m0 in zip(src, mom))
+    ei, _ = g._image_fields(k, st.soil_eps_c, src, mom, PLACES, g.image_factor(st.soil_eps_c))
+    assert np.max(np.linalg.norm(e1 + ei - er, axis=1) / np.linalg.norm(er, axis=1)) < 5e-3
+
+
+def test_impedance_matrix_is_symmetric_over_soil():
+    # Reciprocity (Harrington 1968, Sec. 4: Galerkin's method gives a symmetric matrix in a reciprocal
+    # medium; the lossy half-space is reciprocal): an L of a vertical and a sloping wire over wet ground.
+    spec = WireAntennaSpec.model_validate(dict(
+        ground="real", soil="wet-ground",
+        wires=[dict(points_m=[[0, 0, 0.5], [0, 0, 5.5]], radius_m=0.002, segments=12),
+               dict(points_m=[[0, 0, 5.5], [4, 2, 3.0]], radius_m=0.002, segments=10)],
+        feeds=[dict(wire=0, position=0.1)]))
+    z = solve(spec, F_DIPOLE_HZ).impedance_matrix_ohm
+    assert np.max(np.abs(z - z.T)) < 2e-3 * np.max(np.abs(z))
+
+
+def test_horizontal_dipole_feed_resistance_versus_height():
+    # Known trend of a horizontal half-wave dipole over real ground (e.g. the resistance-versus-height
+    # curves of the ARRL Antenna Book, ch. 3; from memory, not read): close to the ground its resistance
+    # rises far above the perfect-ground value (ground loss), and with height it oscillates about the
+    # free-space value with a smaller swing than over a perfect ground.
+    f = 7.1e6
+    lam = g.C0_M_S / f
+    half = 0.2375 * lam
+
+    def r(ground, h, **kw):
+        spec = WireAntennaSpec.model_validate(dict(
+            ground=ground, wires=[dict(points_m=[[-half, 0, h * lam], [half, 0, h * lam]], radius_m=0.001,
+                                       segments=21)], feeds=[dict(wire=0)], **kw))
+        return solve(spec, f).feed_impedance_ohm[0].real
+
+    r_free = r("free-space", 0.5)
+    low_real, low_pec = r("real", 0.05, soil="medium-dry-ground"), r("perfect", 0.05)
+    assert low_pec < 0.3 * r_free and low_real > 2 * low_pec
+    for h in (0.35, 0.6):
+        dr_real = r("real", h, soil="medium-dry-ground") - r_free
+        dr_pec = r("perfect", h) - r_free
+        assert np.sign(dr_real) == np.sign(dr_pec) and abs(dr_real) < abs(dr_pec)
+
+
+def test_wires_touching_real_ground_and_bad_soil_keys_are_refused():
+    with pytest.raises(InputError, match=r"wires\[0\]\.points_m\[0\].*on or below the real ground"):
+        _dipole_spec = WireAntennaSpec.model_validate(dict(
+            ground="real", soil="wet-ground", wires=[dict(points_m=[[0, 0, 0.0], [0, 0, 5]], radius_m=0.001)],
+            feeds=[dict(wire=0)]))
+        solve(_dipole_spec, F_DIPOLE_HZ)
+    with pytest.raises(InputError, match=r"lambda/1000"):
+        solve(_dipole("real", height_m=0.005, soil="wet-ground"), F_DIPOLE_HZ)
+    with pytest.raises(InputError, match=r'^soil: "clay" is not a ground class'):
+        solve(_dipole("real", soil="clay"), F_DIPOLE_HZ)
+    with pytest.raises(InputError, match=r"^soil_conductivity_s_m: is required"):
+        solve(_dipole("real", soil_relative_permittivity=10.0), F_DIPOLE_HZ)
+    with pytest.raises(InputError, match=r'^soil: .* applies only to ground = "real"'):
+        solve(_dipole("perfect", soil="wet-ground"), F_DIPOLE_HZ)
+    with pytest.raises(InputError, match=r"not both"):
+        solve(_dipole("real", soil="wet-ground", soil_conductivity_s_m=0.01), F_DIPOLE_HZ)

@@ -95,7 +95,7 @@ def test_geometry_that_would_give_a_wrong_answer_is_refused(wires, feeds, ground
 
 @pytest.mark.parametrize("data,message", [
     ({"wires": [wire((0, 0, 0), (0, 0, 1))], "feeds": [{"wire": 0}], "grund": "perfect"},
-     r"^grund: is not a known key \(accepted keys: ground, wires, feeds, loads, shield\)$"),
+     r"^grund: is not a known key \(accepted keys: ground, soil, soil_relative_permittivity, soil_conductivity_s_m, wires, feeds, loads, shield\)$"),
     ({"wires": [wire((0, 0, 0), (0, 0, 1), radius=-1.0)], "feeds": [{"wire": 0}]},
      r"^wires\[0\]\.radius_m: -1\.0 is out of range \(accepted: > 0\)$"),
     ({"wires": [wire((0, 0, 0), (0, 0, 1), radius="1mm")], "feeds": [{"wire": 0}]},

@@ -107,6 +107,12 @@ def near_fields(st, k: float, seg_i: np.ndarray, points_m: np.ndarray):
             h_out[lo:lo + step, 0] += np.sum(hh * (sdir[:, 1] * rz - sdir[:, 2] * ry), axis=1)
             h_out[lo:lo + step, 1] += np.sum(hh * (sdir[:, 2] * rx - sdir[:, 0] * rz), axis=1)
             h_out[lo:lo + step, 2] += np.sum(hh * (sdir[:, 0] * ry - sdir[:, 1] * rx), axis=1)
+    if st.soil_eps_c is not None and len(pts):   # real ground: images above carry -K; add the remainder
+        from rfsafe.antenna.wire.ground import remainder_near_fields
+
+        e_r, h_r = remainder_near_fields(st, k, seg_i, pts)
+        e_out += e_r
+        h_out += h_r
     return e_out, h_out
 
 
@@ -147,7 +153,8 @@ def check_points(sol, points_m, *, field: str = "points_m") -> np.ndarray:
     pts = _as_points(points_m, field)
     if st.ground and np.any(pts[:, 2] < 0):
         i = int(np.argmax(pts[:, 2] < 0))
-        raise bad_value(f"{field}[{i}]", pts[i].tolist(), "is below the perfect ground (accepted: z >= 0 m)")
+        raise bad_value(f"{field}[{i}]", pts[i].tolist(),
+                        f"is below the {'real' if st.soil_eps_c is not None else 'perfect'} ground (accepted: z >= 0 m)")
     if len(pts) == 0:
         return pts
     lam = sol.wavelength_m

@@ -62,6 +62,9 @@ class Structure:
     image_distance_m: np.ndarray | None = field(repr=False, default=None)  # (Ns, Ns) real-image
     load_coupling: np.ndarray | None = field(repr=False, default=None)  # (Nl, Nb), like feed_coupling
     load_position_m: np.ndarray | None = field(repr=False, default=None)  # (Nl, 3)
+    #: Real ground: complex relative permittivity of the soil (None otherwise); the images then carry
+    #: -K = -(eps_c - 1) / (eps_c + 1) instead of -1 and the Sommerfeld remainder is added (``ground``).
+    soil_eps_c: complex | None = None
 
     @property
     def length_m(self) -> np.ndarray:
@@ -70,6 +73,13 @@ class Structure:
     @property
     def direction(self) -> np.ndarray:
         return (self.end_m - self.start_m) / self.length_m[:, None]
+
+    @property
+    def image_sign(self) -> complex:
+        """Current factor of the images: -1 over a perfect ground, -K over real soil."""
+        if self.soil_eps_c is None:
+            return -1.0
+        return -(self.soil_eps_c - 1.0) / (self.soil_eps_c + 1.0)
 
     @property
     def num_segments(self) -> int:
@@ -88,7 +98,7 @@ class Structure:
         yield self.start_m, self.end_m, self.radius_m, 1.0, self.distance_m
         if self.ground:
             m = np.array([1.0, 1.0, -1.0])
-            yield self.start_m * m, self.end_m * m, self.radius_m, -1.0, self.image_distance_m
+            yield self.start_m * m, self.end_m * m, self.radius_m, self.image_sign, self.image_distance_m
 
 
 def point_segment_distances(points, a0, a1):
@@ -218,7 +228,7 @@ def build_structure(spec, freq_hz: float, feed_wires: tuple[int, ...], *, prefix
     from rfsafe.antenna.wire.model import wire_label
 
     lam = 299_792_458.0 / freq_hz
-    ground = spec.ground == "perfect"
+    ground = spec.ground in ("perfect", "real")   # real: images weighted by -K, see Structure.soil_eps_c
     labels = tuple(wire_label(spec, i) for i in range(len(spec.wires)))
     fields = wire_fields or tuple(f"{prefix}wires[{i}]" for i in range(len(spec.wires)))
 

@@ -480,3 +480,161 @@ def remainder_fields(tab: ReflectionTable, src_m, mom_am, obs_m, *, want_h: bool
             h_out[lo:lo + step, 1] = np.sum(h_rho * sph + h_phi * cph, axis=1)
             h_out[lo:lo + step, 2] = np.sum(h_z, axis=1)
     return e_out, h_out
+
+
+# --- use by the solver: PWS segments as a few Hertzian dipoles each -------------------------------------
+
+#: Most Gauss-Legendre nodes per segment for the remainder (see ``remainder_nodes``).
+MAX_REMAINDER_NODES = 8
+
+
+def remainder_nodes(st) -> int:
+    """Gauss-Legendre nodes per segment for the Sommerfeld remainder of a structure.
+
+    The remainder varies on the scale of the height sum z + z' (the subtracted image carries the
+    singular part), so segments get about 1.5 nodes per height sum of the lowest wire (3 to 8).
+    """
+    z_low = float(min(st.start_m[:, 2].min(), st.end_m[:, 2].min()))
+    return int(min(MAX_REMAINDER_NODES, max(3, math.ceil(1.5 * float(st.length_m.max()) / (2.0 * z_low)))))
+
+
+def _segment_nodes(st, k: float, nq: int):
+    """Node points (Ns, Q, 3), weights d w (Ns, Q) [m] and half-function shapes f1, f2 (Ns, Q)."""
+    xg, wg = gauss_legendre_01(nq)
+    d = st.length_m
+    s = d[:, None] * xg[None, :]
+    pts = st.start_m[:, None, :] + s[..., None] * st.direction[:, None, :]
+    sk = np.sin(k * d)[:, None]
+    return pts, d[:, None] * wg[None, :], np.sin(k * (d[:, None] - s)) / sk, np.sin(k * s) / sk
+
+
+def _horizontal_span(a, b) -> float:
+    lo = np.minimum(a[:, :2].min(0), b[:, :2].min(0))
+    hi = np.maximum(a[:, :2].max(0), b[:, :2].max(0))
+    return float(np.hypot(*(hi - lo)))
+
+
+def structure_table(st, k: float, obs_m=None) -> ReflectionTable:
+    """Interpolation table covering the structure (and points ``obs_m``, if given) over its soil."""
+    pts = np.concatenate([st.start_m, st.end_m])
+    z_lo, z_hi = float(pts[:, 2].min()), float(pts[:, 2].max())
+    if obs_m is None or len(obs_m) == 0:
+        return reflection_table(k, st.soil_eps_c, _horizontal_span(pts, pts), 2.0 * z_lo, 2.0 * z_hi)
+    obs = np.asarray(obs_m, dtype=float)
+    return reflection_table(k, st.soil_eps_c, _horizontal_span(pts, obs), z_lo + max(0.0, float(obs[:, 2].min())),
+                            z_hi + float(obs[:, 2].max()))
+
+
+def remainder_near_fields(st, k: float, seg_i: np.ndarray, points_m: np.ndarray):
+    """Sommerfeld remainder of E [V/m] and H [A/m] at points (N, 3) from the segment currents (Ns, 2).
+
+    The PWS current of each segment is integrated with ``remainder_nodes`` Gauss-Legendre nodes as
+    Hertzian dipoles I(s) w ds along the segment; the image part (-K times the image currents) is
+    summed exactly by the caller with the other closed-form segment fields.
+    """
+    tab = structure_table(st, k, points_m)
+    nq = remainder_nodes(st)
+    pts, w, f1, f2 = _segment_nodes(st, k, nq)
+    cur = seg_i[:, 0, None] * f1 + seg_i[:, 1, None] * f2            # (Ns, Q) [A]
+    mom = (cur * w)[..., None] * st.direction[:, None, :]
+    return remainder_fields(tab, pts.reshape(-1, 3), mom.reshape(-1, 3), points_m)
+
+
+def remainder_reaction(st, k: float) -> np.ndarray:
+    """Half-function reaction matrix S[2p+e', 2q+e] of the Sommerfeld remainder, -int f_p t_p . E_q.
+
+    Low-order Gauss-Legendre quadrature on both segments (the remainder is smooth on the scale of the
+    segment for wires above ground; ``remainder_nodes``).
+    """
+    tab = structure_table(st, k)
+    nq = remainder_nodes(st)
+    pts, w, f1, f2 = _segment_nodes(st, k, nq)
+    ns = st.num_segments
+    p = pts.reshape(-1, 3)
+    sdir = np.repeat(st.direction, nq, axis=0)
+    n = len(p)
+    g = np.empty((n, n), dtype=complex)
+    step = max(1, 400_000 // n)
+    for lo in range(0, n, step):
+        o = p[lo:lo + step]
+        dx = o[:, None, 0] - p[None, :, 0]
+        dy = o[:, None, 1] - p[None, :, 1]
+        rho = np.hypot(dx, dy)
+        h = o[:, None, 2] + p[None, :, 2]
+        with np.errstate(invalid="ignore", divide="ignore"):
+            cph = np.where(rho > 0, dx / rho, 1.0)
+            sph = np.where(rho > 0, dy / rho, 0.0)
+        q = tab.lookup(rho, h)
+        sx, sy, sz = sdir[None, :, 0], sdir[None, :, 1], sdir[None, :, 2]
+        ca = sx * cph + sy * sph
+        sb = sx * sph - sy * cph
+        e_rho = ca * q[..., 3] + sz * q[..., 0]
+        e_phi = sb * q[..., 6]
+        e_z = ca * q[..., 4] + sz * q[..., 1]
+        t = sdir[lo:lo + step]
+        g[lo:lo + step] = ((e_rho * cph - e_phi * sph) * t[:, 0, None] + (e_rho * sph + e_phi * cph) * t[:, 1, None]
+                           + e_z * t[:, 2, None])
+    g = g.reshape(ns, nq, ns, nq)
+    fw = np.stack([f1 * w, f2 * w], axis=1)               # (Ns, 2, Q)
+    s = -np.einsum("pea,paqb,qfb->peqf", fw, g, fw)
+    return s.reshape(2 * ns, 2 * ns)
+
+
+def with_soil(st, spec, *, prefix: str = ""):
+    """The structure with its soil set (``Structure.soil_eps_c``); refuses wires too close to the soil."""
+    from dataclasses import replace
+
+    from rfsafe.antenna.wire.model import soil_of
+    from rfsafe.errors import bad_value
+
+    soil = soil_of(spec, prefix=prefix)
+    z_min = MIN_HEIGHT_WAVELENGTHS * st.wavelength_m
+    low = np.minimum(st.start_m[:, 2], st.end_m[:, 2])
+    if np.any(low < z_min):
+        q = int(np.argmin(low))
+        w = int(st.wire[q])
+        raise bad_value(st.wire_fields[w], st.wire_labels[w],
+                        f"comes within {low[q]:.3g} m of the real ground (accepted: every part at least "
+                        f"{z_min:.3g} m = lambda/{1 / MIN_HEIGHT_WAVELENGTHS:g} above it; wires on or in the "
+                        "soil are not modelled)")
+    return replace(st, soil_eps_c=soil.complex_permittivity(st.freq_hz))
+
+
+def method_text(spec, st) -> str:
+    """What the real-ground model did, for results."""
+    from rfsafe.antenna.wire.model import soil_of
+
+    soil = soil_of(spec)
+    eps = st.soil_eps_c
+    return (f"real ground, {soil.text()}, complex permittivity {eps.real:.4g}{eps.imag:+.4g}j at "
+            f"{st.freq_hz / 1e6:.6g} MHz: near fields and feed impedance from the exact Sommerfeld integrals "
+            "(quasi-static image plus interpolated remainder; Sommerfeld 1909, Chew 1990 Sec. 2.3-2.4), gain "
+            "and pattern from the space wave with Fresnel reflection coefficients (far zone; the surface "
+            "wave, which decays along the ground, is not in the pattern). Not modelled: wires on or in the soil, "
+            "buried radials, layered or sloping ground.")
+
+
+def space_wave_intensity(st, k: float, seg_i, rhat, radiation_vector):
+    """Far-zone radiation intensity [W/sr] over real ground: direct plus Fresnel-reflected space wave.
+
+    E_theta ~ (N_d + Gamma_TM N_i) . theta_hat and E_phi ~ (N_d - Gamma_TE N_i) . phi_hat, with N_i the
+    radiation vector of the perfect-ground image currents (both coefficients give the image back over a
+    perfect conductor). Valid in the far zone above the horizon (Balanis, Antenna Theory, 3rd ed.,
+    Sec. 4.8, dipoles above a flat lossy earth).
+    """
+    from dataclasses import replace
+
+    m = np.array([1.0, 1.0, -1.0])
+    n_d = radiation_vector(replace(st, ground=False), k, seg_i, rhat)
+    n_i = -radiation_vector(replace(st, ground=False, start_m=st.start_m * m, end_m=st.end_m * m), k, seg_i, rhat)
+    r = np.asarray(rhat, dtype=float)
+    gv, gh = fresnel_coefficients(np.clip(r[..., 2], 0.0, 1.0), st.soil_eps_c)
+    rxy = np.hypot(r[..., 0], r[..., 1])
+    safe = rxy > 1e-12
+    ph = np.stack([np.where(safe, -r[..., 1] / np.where(safe, rxy, 1.0), 0.0),
+                   np.where(safe, r[..., 0] / np.where(safe, rxy, 1.0), 1.0), np.zeros_like(rxy)], axis=-1)
+    th = np.cross(ph, r)
+    n_t = np.einsum("...i,...i->...", n_d + gv[..., None] * n_i, th)
+    n_p = np.einsum("...i,...i->...", n_d - gh[..., None] * n_i, ph)
+    u = ETA0_OHM * k * k / (32.0 * math.pi ** 2) * (np.abs(n_t) ** 2 + np.abs(n_p) ** 2)
+    return np.where(r[..., 2] >= 0, u, 0.0)

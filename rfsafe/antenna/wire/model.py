@@ -21,7 +21,7 @@ from rfsafe.station.validation import StrictModel
 __all__ = [
     "WireSpec", "FeedSpec", "CircuitSpec", "LoadSpec", "ChokeSpec", "ShieldSpec", "WireAntennaSpec", "PointSpec", "WireFile",
     "check_wire_antenna", "validate_wire_antenna", "load_wire_file", "wire_label",
-    "check_circuit", "along_fraction", "load_places", "load_label",
+    "check_circuit", "along_fraction", "load_places", "load_label", "soil_of",
 ]
 
 #: Three coordinates (x east, y north, z up) [m].
@@ -124,8 +124,17 @@ class ShieldSpec(_Strict):
 class WireAntennaSpec(_Strict):
     """Wire antenna geometry for the moment-method solver (no frequency; see ``solve``)."""
 
-    ground: Literal["free-space", "perfect"] = Field(
-        default="free-space", description='"free-space" or "perfect" (perfectly conducting plane z = 0).')
+    ground: Literal["free-space", "perfect", "real"] = Field(
+        default="free-space",
+        description='"free-space", "perfect" (perfectly conducting plane z = 0) or "real" (lossy soil below '
+                    'z = 0, given by soil or by soil_relative_permittivity and soil_conductivity_s_m).')
+    soil: str | None = Field(
+        default=None, description='Ground class for ground = "real": sea-water, fresh-water, wet-ground, '
+                                  'medium-dry-ground, very-dry-ground (ITU-R P.527-3 Fig. 1 values, from memory).')
+    soil_relative_permittivity: float | None = Field(
+        default=None, ge=1, description='Relative permittivity of the soil for ground = "real" (instead of soil).')
+    soil_conductivity_s_m: float | None = Field(
+        default=None, ge=0, description='Conductivity of the soil [S/m] for ground = "real" (instead of soil).')
     wires: list[WireSpec] = Field(min_length=1)
     feeds: list[FeedSpec] = Field(min_length=1)
     loads: list[LoadSpec] = Field(default_factory=list,
@@ -208,6 +217,13 @@ def check_wire_antenna(spec: WireAntennaSpec, *, prefix: str = "") -> tuple[int,
             if math.dist(a, b) <= 1e-6:
                 raise bad_value(f"{path}.points_m[{j}]", b,
                                 "repeats the previous point (pieces must be longer than 1e-6 m)")
+        if spec.ground == "real":
+            for j, p in enumerate(w.points_m):
+                if p[2] <= 0:
+                    raise bad_value(f"{path}.points_m[{j}]", p,
+                                    "is on or below the real ground (accepted: z > 0 m; wires touching or buried "
+                                    "in the soil, ground rods and buried radials are not modelled: use elevated "
+                                    'radials, or ground = "perfect" for a ground screen)')
         if spec.ground == "perfect":
             for j, p in enumerate(w.points_m):
                 if p[2] < 0:
@@ -216,6 +232,7 @@ def check_wire_antenna(spec: WireAntennaSpec, *, prefix: str = "") -> tuple[int,
                 if 0 < j < len(w.points_m) - 1 and p[2] <= 1e-6:
                     raise bad_value(f"{path}.points_m[{j}]", p,
                                     "touches the ground at an interior point (only wire ends may touch z = 0)")
+    soil_of(spec, prefix=prefix)
     where: dict[tuple[int, float], int] = {}
     out = []
     for f, feed in enumerate(spec.feeds):
@@ -233,6 +250,43 @@ def check_wire_antenna(spec: WireAntennaSpec, *, prefix: str = "") -> tuple[int,
 
         check_shield(spec, tuple(out), prefix=prefix)
     return tuple(out)
+
+
+def soil_of(spec: WireAntennaSpec, *, prefix: str = ""):
+    """The soil of a ``ground = "real"`` antenna (``ground.Soil``), or None for the other grounds.
+
+    Raises
+    ------
+    InputError
+        Soil keys with another ground, an unknown class, a class and values both given, one value missing.
+    """
+    from rfsafe.antenna.wire.ground import Soil, soil_classes
+
+    keys = {"soil": spec.soil, "soil_relative_permittivity": spec.soil_relative_permittivity,
+            "soil_conductivity_s_m": spec.soil_conductivity_s_m}
+    given = {k: v for k, v in keys.items() if v is not None}
+    if spec.ground != "real":
+        if given:
+            k, v = next(iter(given.items()))
+            raise bad_value(f"{prefix}{k}", v, f'applies only to ground = "real" (ground is "{spec.ground}")')
+        return None
+    classes = soil_classes()
+    if spec.soil is not None:
+        if len(given) > 1:
+            k = next(k for k in given if k != "soil")
+            raise bad_value(f"{prefix}{k}", given[k], "give either soil (a class) or the soil's values, not both")
+        if spec.soil not in classes:
+            raise bad_value(f"{prefix}soil", spec.soil, f"is not a ground class (accepted: {', '.join(classes)})")
+        return classes[spec.soil]
+    if spec.soil_relative_permittivity is None or spec.soil_conductivity_s_m is None:
+        missing = "soil_relative_permittivity" if spec.soil_relative_permittivity is None else "soil_conductivity_s_m"
+        raise InputError(f'{prefix}{missing}: is required with ground = "real" (or give soil = one of '
+                         f"{', '.join(classes)})")
+    if spec.soil_conductivity_s_m > 1e3:
+        raise bad_value(f"{prefix}soil_conductivity_s_m", spec.soil_conductivity_s_m,
+                        'is a metal, not soil (accepted: 0 to 1000 S/m; sea water is about 5; use ground = "perfect")')
+    return Soil(spec.soil_relative_permittivity, spec.soil_conductivity_s_m, "declared soil",
+                "declared in the input file", "user value")
 
 
 def _wire_length_m(w: WireSpec) -> float:

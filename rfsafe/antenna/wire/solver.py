@@ -153,6 +153,10 @@ def impedance_matrix(st: Structure) -> np.ndarray:
     """
     k = 2.0 * math.pi * st.freq_hz / C0_M_S
     s = sum(_reaction(st, k, src) for src in st.sources())
+    if st.soil_eps_c is not None:   # real ground: the images carry -K; add the Sommerfeld remainder
+        from rfsafe.antenna.wire.ground import remainder_reaction
+
+        s = s + remainder_reaction(st, k)
     return _project(s, st.half_to_basis)
 
 
@@ -235,6 +239,10 @@ def _radiation_vector(st: Structure, k: float, seg_i: np.ndarray, rhat: np.ndarr
 
 def _intensity(st, k, seg_i, rhat):
     """Radiation intensity U(r_hat) [W/sr] for the solved currents (peak phasors)."""
+    if st.soil_eps_c is not None:   # real ground: space wave with Fresnel coefficients
+        from rfsafe.antenna.wire.ground import space_wave_intensity
+
+        return space_wave_intensity(st, k, seg_i, rhat, _radiation_vector)
     n = _radiation_vector(st, k, seg_i, rhat)
     n_perp = n - rhat * np.einsum("...i,...i->...", rhat, n)[..., None]
     return ETA0_OHM * k * k / (32.0 * math.pi ** 2) * np.einsum("...i,...i->...", n_perp, n_perp.conj()).real
@@ -273,6 +281,7 @@ class WireSolution:
     load_power_w: float = 0.0                             # dissipated in the loads, unit excitation [W]
     geometry_spec: object = field(repr=False, default=None)   # the solved geometry (shield as wires)
     shield: object = field(repr=False, default=None)          # shield.ExpandedShield or None
+    ground_method: str = ""                                   # how the ground was modelled (method text)
 
     @property
     def wavelength_m(self) -> float:
@@ -309,7 +318,7 @@ class WireSolution:
         u = _intensity(self.structure, self.k, self.segment_current_a, _directions(theta, phi))
         with np.errstate(divide="ignore"):
             g = 10.0 * np.log10(4.0 * math.pi * u / self.input_power_w)
-        if self.ground == "perfect":
+        if self.ground in ("perfect", "real"):
             g = np.where(el < 0, -np.inf, g)
         return g
 
@@ -415,6 +424,10 @@ def solve(spec, freq_hz: float, *, field_prefix: str = "", enforce_limits: bool 
     geo = loaded_geometry(spec, feed_wires, prefix=field_prefix)
     st = build_structure(geo.spec, float(freq_hz), geo.feed_wires, prefix=field_prefix,
                          enforce_limits=enforce_limits, load_places=geo.load_places, wire_fields=geo.wire_fields)
+    if spec.ground == "real":
+        from rfsafe.antenna.wire.ground import with_soil
+
+        st = with_soil(st, spec, prefix=field_prefix)
     k = 2.0 * math.pi * st.freq_hz / C0_M_S
     z = impedance_matrix(st)
     # Lumped loads (Harrington 1968, Sec. 4.5): Z_L in series with the gap at a node adds Z_L g^T g.
@@ -479,4 +492,14 @@ def solve(spec, freq_hz: float, *, field_prefix: str = "", enforce_limits: bool 
         basis_current_a=c, segment_current_a=seg_i, structure=st, impedance_matrix_ohm=z,
         load_labels=geo.load_labels, load_impedance_ohm=tuple(complex(x) for x in z_load),
         load_current_a=tuple(complex(x) for x in i_load), load_power_w=p_load, geometry_spec=geo.spec,
-        shield=geo.shield)
+        shield=geo.shield, ground_method=_ground_method(spec, st))
+
+
+def _ground_method(spec, st) -> str:
+    if spec.ground == "free-space":
+        return "free space (no ground)"
+    if spec.ground == "perfect":
+        return "perfectly conducting ground z = 0 (image theory, Balanis Sec. 4.7)"
+    from rfsafe.antenna.wire.ground import method_text
+
+    return method_text(spec, st)
