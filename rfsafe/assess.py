@@ -578,6 +578,9 @@ def _place_exposure(em: Emitter, loaded: LoadedStation, p_index: int, place, cre
     governing = f"{_governing(lim, s)} ({lim.basis})"
     flags = (f"{dist_min:.2f} m from {em.antenna.id} is inside the near-field boundary {flag_dist:.2f} m: "
              f"{NEAR_FIELD_FLAG}",) if inside else ()
+    if "downward floor" in how:
+        flags += (f"place {place.label!r} lies below beam {em.antenna.id}: gain {gain:.2f} dBi from the stated "
+                  "downward floor (1/2 of the peak gain x sin^2 of the depression), not the front-to-back floor",)
     return PlaceExposure(
         configuration=em.configuration, transmitter=em.transmitter, dist_m=dist, gain_dbi=gain, gain_method=how,
         power_density_w_m2=s, e_field_v_m=e, h_field_a_m=h, exposure_ratio=r, governing=governing,
