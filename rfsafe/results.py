@@ -11,7 +11,9 @@ from typing import Any
 
 __all__ = ["FigureCheck", "ComplianceDistance", "AntennaSummary", "PlanMap", "WireSummary", "NearFieldMap", "FeedlineShieldResult", "ConfigurationResult", "PlaceExposure", "TransmitterShare",
            "PlaceResult", "EvaluationResult", "CAUTIONS", "Remedy", "PlaceRemedies", "ConfigurationRemedies",
-           "GroundKeepOut", "QuickAnswer", "SiteRemedy"]
+           "GroundKeepOut", "QuickAnswer", "SiteRemedy", "EXPOSURE_VERDICTS", "EQUIPMENT_VERDICTS", "EXIT_COMPLIES",
+           "EXIT_EXPOSURE_EXCEEDED", "EXIT_EQUIPMENT_EXCEEDED", "EXIT_NOT_EVALUATED", "EXIT_STATUS_HELP", "exit_status",
+           "verdict_headline"]
 
 #: Exposure verdicts: every evaluated place within its limits, some place above, or no place declared.
 EXPOSURE_VERDICTS = ("COMPLIES", "EXCEEDS", "NOT EVALUATED")
