@@ -43,6 +43,9 @@ def test_demo_json_shape(demo_json):
         assert key in d
     assert "grid" not in d and "emitters" not in d   # bulky arrays stay out of JSON (see --csv)
     assert d["exposure_verdict"] == "EXCEEDS"
+    # the footpath violation is exposure; the demo's lines and connectors are within their ratings (exit 1)
+    assert d["equipment_verdict"] == "WITHIN RATINGS"
+    assert any("Public footpath" in r for r in d["exposure_reasons"]) and d["equipment_reasons"]
     assert [v["region"] for v in d["violations"]] == ["Public footpath"]
     assert d["violations"][0]["dominant_transmitter"] == "HF CW"
     tx = {t["transmitter"]: t for t in d["transmitters"]}
