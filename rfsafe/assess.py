@@ -349,8 +349,16 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
         if not solution.structure.ground_nodes:
             flags.append("wire antenna declared over a perfect ground without touching it: real soil lies between "
                          "free space and a perfect conductor, and near the ground a perfect conductor can understate "
-                         "the field (it cancels the horizontal E there); declare ground = \"free-space\" to have both "
-                         f"solved and the worse taken ({WIRE_GROUND_BOUND})")
+                         "the field (it cancels the horizontal E there); declare ground = \"real\" with the soil "
+                         "(soil = a class, or its permittivity and conductivity) to model it, or ground = "
+                         f"\"free-space\" to have both solved and the worse taken ({WIRE_GROUND_BOUND})")
+    if solution is not None and solution.ground == "real" and gain_src == "moment-method solver":
+        # The solver's gain over real soil holds the Fresnel-reflected space wave: F would count it twice.
+        ground_factor = 1.0
+        soil = solution.ground_method.split(": near fields")[0]
+        flags.append(f"wire antenna over {soil}: near fields from the Sommerfeld integrals and gain from the "
+                     "space wave with Fresnel coefficients (ground reflection included, F = 1); this replaces "
+                     "the bound of free space and perfect ground")
     if twin is not None and gain_src == "moment-method solver":
         # Far field of the bound: the larger of G F (free space) and G (over perfect ground, reflection included).
         if twin.gain_dbi > gain + 10 * math.log10(ground_factor):
@@ -431,7 +439,9 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
         compliance_distances=tuple(distances), line=line, exceeded_parts=exceeded, flags=tuple(flags),
         method="far-field prediction S = EIRP F / (4 pi R^2), peak gain (OET Bulletin 65, section 2)"
                + ("; near field of the wire antenna by the moment-method solver" if solution is not None else "")
-               + (f" ({WIRE_GROUND_BOUND})" if twin is not None else ""),
+               + (f" ({WIRE_GROUND_BOUND})" if twin is not None else "")
+               + (" over real ground (Sommerfeld integrals, soil as declared; replaces the bound of free space "
+                  "and perfect ground)" if solution is not None and solution.ground == "real" else ""),
         wire=_wire_summary(solution),
         near_field_map=_near_field_map(c.id, ant, solution, limits, avg_ant, pep_ant, loaded, twin) if maps else None,
         limit_distances=tuple(every_limit))
@@ -602,8 +612,9 @@ def _ground_bound_solution(loaded: LoadedStation, ant: Antenna, solution, freq_h
     Criterion (conservative, always): in a station file z is the height above the real ground, so every
     wire antenna has the ground below it and every person stands on it. Real soil reflects between
     nothing (free space) and everything (a perfect conductor, image theory: Balanis, Antenna Theory,
-    3rd ed., Sec. 4.7); until rfsafe models real soil, both are solved and at every place the worse
-    governs, labelled as a bound. A wire declared with ``ground = "perfect"`` is solved as declared.
+    3rd ed., Sec. 4.7); unless the soil is declared, both are solved and at every place the worse
+    governs, labelled as a bound. A wire declared with ``ground = "perfect"`` or ``ground = "real"`` (with
+    its soil: Sommerfeld integrals, ``rfsafe.antenna.wire.ground``) is solved as declared, without the bound.
     """
     if solution is None or loaded.wire_specs[ant.id].ground != "free-space":
         return None
@@ -690,6 +701,7 @@ def _wire_place_exposure(em: Emitter, loaded: LoadedStation, p_index: int, place
     (rn, limn, en, hn, zn), ground = _wire_near_field_at(em, place, heights, f"places[{p_index}].body_heights_m",
                                                          average)
     solver_how = "moment method" + (f", {WIRE_GROUND_BOUND}" if bound else "") + (
+        ", over real ground (Sommerfeld integrals)" if em.solution.ground == "real" else "") + (
         ", spatial average over body heights" if zn is None else "")
     common = dict(configuration=em.configuration, transmitter=em.transmitter, dist_m=dist, gain_dbi=em.peak_gain_dbi,
                   gain_method="peak", inside_near_field=inside, far_field_ratio=r_ff, near_field_ratio=rn,
@@ -972,7 +984,9 @@ def assess_with_emitters(loaded: LoadedStation, *, today: dt.date | None = None,
         *(("Wire antennas: places within max(lambda/2pi, 2D^2/lambda) of any part of the wires are evaluated "
            "with the moment-method solver; beyond it the far-field estimate from the nearest wire point is never "
            "below the solver's value; a wire declared over free space is also solved over a perfect ground and "
-           "the worse governs (a bound: real soil lies between the two).",)
+           "the worse governs (a bound: real soil lies between the two); a wire declared over real ground "
+           "(ground = \"real\" with its soil) is solved over that soil instead (Sommerfeld integrals), without the "
+           "bound.",)
           if any(c.wire is not None for c in configs) else ()),
         f"Line loss model: {'; '.join(loss_models)}.",
         f"Limits: {info.name}; averaging times as the standard gives them per environment.",

@@ -204,14 +204,14 @@ from rfsafe.limits import exposure_ratio, limits_at
 
 
 def _station(tmp_path, wires, feeds, *, freqs_mhz, places, ground="free-space", pep_w=1500.0, mode="cw",
-             ground_reflection="none", name="w.toml"):
+             ground_reflection="none", name="w.toml", soil=None):
     """A one-antenna station file (wire geometry in the station frame) with lossless zero-length feedline."""
     lines = ['title = "wire test"', f'ground_reflection = "{ground_reflection}"',
              "[[transmitters]]", 'id = "tx"', f"pep_w = {pep_w}",
              "[[feedlines]]", 'id = "line"', 'cable = "custom"', "z0_ohm = 50.0", "loss_db_per_100m = 0.0",
              "velocity_factor = 0.66", "length_m = 0.0",
              "[[antennas]]", 'id = "ant"', 'kind = "wire"', f"height_m = {max(p[2] for w in wires for p in w['points_m'])}",
-             "[antennas.wire]", f'ground = "{ground}"']
+             "[antennas.wire]", f'ground = "{ground}"'] + ([f'soil = "{soil}"'] if soil else [])
     for w in wires:
         lines += ["[[antennas.wire.wires]]"] + [f"{k} = {json.dumps(v)}" for k, v in w.items()]
     for f in feeds:
@@ -227,9 +227,9 @@ def _station(tmp_path, wires, feeds, *, freqs_mhz, places, ground="free-space", 
     return load_station(path)
 
 
-def _solver_ratio(wires, feeds, ground, freq_mhz, point, power_w):
+def _solver_ratio(wires, feeds, ground, freq_mhz, point, power_w, **soil):
     """The moment-method exposure ratio at one point, computed here directly (FCC uncontrolled limits)."""
-    spec = WireAntennaSpec.model_validate({"ground": ground, "wires": wires, "feeds": feeds})
+    spec = WireAntennaSpec.model_validate({"ground": ground, "wires": wires, "feeds": feeds, **soil})
     sol = solve(spec, freq_mhz * 1e6)
     e, h = sol.fields_rms(np.array([point], dtype=float), power_w)
     return max(float(np.max(exposure_ratio(lim, e_field_v_m=e, h_field_a_m=h)))
@@ -313,6 +313,26 @@ def test_a_dipole_declared_over_free_space_near_the_ground_is_bounded_by_both_gr
     assert "bound" in x.method and "worse of free space and perfect ground" in x.method
     assert "(worse of free space and perfect ground (bound))" in res.configurations[0].method
     assert ems[0].ground_bound_solution is not None and ems[0].ground_bound_solution.ground == "perfect"
+
+
+def test_a_dipole_declared_over_real_ground_is_solved_over_that_soil_without_the_bound(tmp_path):
+    # Issue 17: with the soil declared (ITU-R P.527 class, values from memory) the Sommerfeld solution
+    # replaces the bound of free space and perfect ground, and the results say so.
+    wires = [{"label": "d", "points_m": [[-5.0, 0.0, 3.0], [5.0, 0.0, 3.0]], "radius_m": 0.001}]
+    feeds = [{"wire": "d"}]
+    place = (4.0, 1.0, 1.5)
+    loaded = _station(tmp_path, wires, feeds, freqs_mhz=[14.2], places=[place], ground="real",
+                      soil="medium-dry-ground")
+    res, ems = assess_with_emitters(loaded, near_field_maps=False)
+    x = res.places[0].exposures[0]
+    p_ant = res.configurations[0].avg_power_at_antenna_w["uncontrolled"]
+    rg = _solver_ratio(wires, feeds, "real", 14.2, place, p_ant, soil="medium-dry-ground")
+    assert x.exposure_ratio == pytest.approx(rg, rel=1e-6)   # tables of other ranges share their grid nodes
+    assert ems[0].ground_bound_solution is None and ems[0].ground_factor == 1.0
+    assert "real ground (Sommerfeld integrals)" in x.method and "bound" not in x.method
+    cfg = res.configurations[0]
+    assert "over real ground" in cfg.method and "replaces the bound of free space and perfect ground" in cfg.method
+    assert any("P.527" in f and "F = 1" in f for f in cfg.flags)
 
 
 def test_far_field_gain_of_the_bound_is_the_larger_of_free_space_g_f_and_the_perfect_ground_gain(tmp_path):

@@ -346,7 +346,7 @@ class ReflectionTable:
 
     Built once per (frequency, soil, range). The remainder (reflected field minus K times the image)
     times R e^{jk0 R} (R = sqrt(rho^2 + h^2), the image distance) is smooth and is interpolated
-    bilinearly in (asinh(rho / h_min), ln h).
+    bilinearly in (asinh(rho / s), ln h), s = lambda / 500 (grids anchored there, whatever the range).
 
     Parameters
     ----------
@@ -361,15 +361,22 @@ class ReflectionTable:
     def __init__(self, k0: float, eps_c: complex, rho_max_m: float, h_min_m: float, h_max_m: float):
         from scipy.special import j0, j1, jv
 
-        self.k0, self.eps_c, self.h_min = float(k0), complex(eps_c), float(h_min_m)
+        self.k0, self.eps_c = float(k0), complex(eps_c)
         self.k_img = image_factor(self.eps_c)
-        rho_max = max(float(rho_max_m), self.h_min)
-        h_max = max(float(h_max_m), self.h_min * 1.001)
-        nu = math.ceil(math.asinh(rho_max / self.h_min) / _DU) + 2
-        nh = math.ceil(math.log(h_max / self.h_min) / _DLH) + 2
+        # Grid anchored at a fixed scale (twice the lowest wire height accepted), so that tables built for
+        # different ranges share their nodes and give the same values where both apply.
+        self.scale = 2.0 * MIN_HEIGHT_WAVELENGTHS * 2.0 * math.pi / self.k0
+        h_min_m = max(float(h_min_m), self.scale)
+        rho_max = max(float(rho_max_m), h_min_m)
+        h_max = max(float(h_max_m), h_min_m * 1.001)
+        nu = math.ceil(math.asinh(rho_max / self.scale) / _DU) + 2
+        n0 = math.floor(math.log(h_min_m / self.scale) / _DLH)
+        n1 = math.ceil(math.log(h_max / self.scale) / _DLH) + 1
         self.u = np.arange(nu) * _DU
-        self.lh = math.log(self.h_min) + np.arange(nh) * _DLH
-        rho = self.h_min * np.sinh(self.u)
+        self.lh = math.log(self.scale) + np.arange(n0, n1 + 1) * _DLH
+        nh = len(self.lh)
+        self.h_min = float(math.exp(self.lh[0]))
+        rho = self.scale * np.sinh(self.u)
         hs = np.exp(self.lh)
         rmax = float(max(rho[-1], hs[-1], 1e-3 / k0))
         b = min(0.5 * k0, 2.0 / rmax)
@@ -413,7 +420,7 @@ class ReflectionTable:
 
     def lookup(self, rho, h):
         """Interpolated quantities (..., 9) at horizontal distances rho and height sums h [m]."""
-        u = np.arcsinh(rho / self.h_min) / _DU
+        u = np.arcsinh(rho / self.scale) / _DU
         v = (np.log(h) - self.lh[0]) / _DLH
         i = np.clip(u.astype(np.intp), 0, len(self.u) - 2)
         j = np.clip(v.astype(np.intp), 0, len(self.lh) - 2)
