@@ -132,3 +132,23 @@ def test_wire_radius_in_millimetres_is_refused_with_a_hint(tmp_path):
     assert r.exit_code == 2 and r.stdout == ""
     assert r.stderr.strip() == ("Error: wires[0].radius_m: 1.0 is thicker than any wire or tube of an antenna "
                                 "(at most 0.1 m); did you mean 0.001 m (1 mm)? (the radius is in metres)")
+
+
+def test_real_ground_names_the_soil_and_the_method(tmp_path):
+    # ground = "real" with an ITU-R P.527 class (values from memory): the method line names the soil,
+    # its source and the Sommerfeld integrals; a caution says the power ratio is the space wave only.
+    r = run(tmp_path, 'ground = "real"\nsoil = "wet-ground"\n' + DIPOLE)
+    assert r.exit_code == 0, r.output
+    assert "real ground, wet-ground" in r.stdout and "P.527-3" in r.stdout and "Sommerfeld" in r.stdout
+    assert "space wave into the air only" in r.stderr
+
+
+@pytest.mark.parametrize("keys,line", [
+    ('ground = "real"\nsoil = "clay"\n', r'^Error: soil: "clay" is not a ground class \(accepted: sea-water'),
+    ('ground = "real"\n', r"^Error: soil_relative_permittivity: is required with ground = \"real\""),
+    ('ground = "perfect"\nsoil_conductivity_s_m = 0.01\n', r'^Error: soil_conductivity_s_m: 0.01 applies only to'),
+])
+def test_bad_soil_keys_give_one_error_line(tmp_path, keys, line):
+    r = run(tmp_path, keys + DIPOLE)
+    assert r.exit_code == 2
+    assert re.match(line, r.stderr.strip()) and len(r.stderr.strip().splitlines()) == 1

@@ -13,7 +13,8 @@ _CAUTIONS = (
     "feeds). It assumes perfectly conducting wires much thinner than a wavelength and segments "
     "between 4 radii and lambda/10 long; feed impedances drift slowly as segments are refined.",
     "A \"perfect\" ground is a lossless mirror at z = 0: real soil absorbs and reflects less, so "
-    "fields and gain over real ground differ (often lower far away, and different near the base).",
+    "fields and gain over real ground differ (often lower far away, and different near the base); "
+    "ground = \"real\" with the soil models it (Sommerfeld integrals).",
     "Fields are for the stated power delivered to the antenna (after feedline loss) and a "
     "continuous carrier; this command does not compare them with exposure limits. Local regulation, "
     "the regulator's own guidance and licensed practice govern.",
@@ -108,9 +109,14 @@ def build_result(path: Path) -> WireResult:
                         "(jacket, equipment, mains and ground leads beyond the route are not modelled); the "
                         "common-mode current depends strongly on the route length and what the far end "
                         "connects to.")
+    if sol.ground == "real":
+        cautions.append("Real ground: 'radiated / input power' counts the space wave into the air only; the rest "
+                        "is lost in the soil or carried along it by the surface wave. Soil values of the named "
+                        "classes are typical, not measured: the field near the ground depends on them.")
     return WireResult(
         load_power_over_input_power=sol.load_power_w / sol.input_power_w, loads=loads, common_mode=cm,
-        file=str(path), method="thin-wire moment method (PWS Galerkin, reduced kernel)",
+        file=str(path), method="thin-wire moment method (PWS Galerkin, reduced kernel)"
+        + (f"; {sol.ground_method}" if sol.ground == "real" else ""),
         freq_hz=sol.freq_hz, wavelength_m=sol.wavelength_m, ground=sol.ground,
         input_power_w=spec.input_power_w, num_segments=sol.num_segments, num_unknowns=sol.num_unknowns,
         feed_impedance_ohm=sol.feed_impedance_ohm, feeds=tuple(feeds), gain_dbi=sol.gain_dbi,
