@@ -58,7 +58,9 @@ def test_default_output_beside_the_file_and_numbers_equal_evaluate_json(station)
             assert f"{sig3(x['exposure_ratio'])} {x['margin_db']:+.1f}" in text
     for c in doc["configurations"]:
         for d in c["compliance_distances"]:
-            assert f"{c['id']} {d['environment']} {d['dist_m']:.2f} {d['dist_ft']:.1f}" in text
+            # the worksheet prints centimetres below 10 m, decimetres below 100 m, and feet in brackets
+            dist = f"{d['dist_m']:.2f}" if d["dist_m"] < 10 else f"{d['dist_m']:.1f}"
+            assert f"{c['id']} {d['environment']} {dist} ({d['dist_ft']:.1f} ft)" in text
 
 
 def test_exit_1_when_exceeded_and_the_pdf_is_still_written(station):
