@@ -417,7 +417,7 @@ def _every_limit(res, width) -> list:
               "is shown, and the largest sets the distance in section 3.1.", "lead"),
             data_table(["configuration", "environment", "limit", "governs", "distance m", "EIRP compared W",
                         "role", "limit source"], rows,
-                       [22 * mm, 20 * mm, 34 * mm, 13 * mm, 24 * mm, 17 * mm, 22 * mm, width - 152 * mm],
+                       [22 * mm, 20 * mm, 30 * mm, 13 * mm, 22 * mm, 15 * mm, 20 * mm, width - 142 * mm],
                        align="lllrrrll")]
 
 
