@@ -3,7 +3,8 @@
 Aim (issue 17): the real-ground solve and a 10,000-point near-field map within 3 times their free-space
 cost, measured in the same run. Printed: best-of times and the ratios; "cold" builds the Sommerfeld
 interpolation table in the timed call (the first solve at a frequency and soil), "warm" reuses it
-(every further configuration, place and map at that frequency and soil).
+(every further configuration, place and map at that frequency and soil). Times are CPU times of this
+process (the shared machine's load swells wall time); pin BLAS to one thread so they measure the work.
 
 Run: OMP_NUM_THREADS=1 OPENBLAS_NUM_THREADS=1 python benchmarks/bench_real_ground.py
 """
@@ -25,9 +26,9 @@ def best_of(fn, repeat=5, before=None):
     for _ in range(repeat):
         if before is not None:
             before()
-        t = time.perf_counter()
+        t = time.process_time()
         out = fn()
-        times.append(time.perf_counter() - t)
+        times.append(time.process_time() - t)
     return min(times), out
 
 
@@ -54,7 +55,7 @@ def main() -> None:
     xs = np.linspace(-20, 20, 100)
     gx, gy = np.meshgrid(xs, xs)
     grid = np.c_[gx.ravel(), gy.ravel(), np.full(gx.size, 1.5)]
-    print("rfsafe real-ground benchmark (best of 5; 2 shared cores); ratios to free space in this run")
+    print("rfsafe real-ground benchmark (best of 5, CPU seconds); ratios to free space in this run")
     print(f"{'case':<28} {'free space [s]':>14} {'real cold [s]':>13} {'real warm [s]':>13} "
           f"{'cold/free':>9} {'warm/free':>9}")
     worst = 0.0

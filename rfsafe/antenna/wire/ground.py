@@ -420,31 +420,36 @@ class ReflectionTable:
         return rho_max_m <= self.rho_max and h_min_m >= self.h_min * (1 - 1e-12) and h_max_m <= self.h_max
 
     def lookup(self, rho, h):
-        """Interpolated quantities (..., 9) at horizontal distances rho and height sums h [m].
+        """Interpolated quantities (9, ...) at horizontal distances rho and height sums h [m].
 
         Single precision inside the interpolation (its own error is about 1e-3; complex64 keeps 1e-7)
         halves the memory traffic of the four corner gathers.
         """
-        if self._flat is None:
-            self._flat = np.ascontiguousarray(self.values.reshape(-1, self.values.shape[-1]), dtype=np.complex64)
+        if self._flat is None:   # (9, nu * nh): each quantity gathered contiguously
+            self._flat = np.ascontiguousarray(self.values.reshape(-1, self.values.shape[-1]).T, dtype=np.complex64)
         nh = len(self.lh)
-        u = np.arcsinh(rho * (1.0 / self.scale)) * (1.0 / _DU)
-        v = (np.log(h) - self.lh[0]) * (1.0 / _DLH)
+        rho = np.asarray(rho, dtype=np.float32)
+        h = np.asarray(h, dtype=np.float32)
+        u = np.arcsinh(rho * np.float32(1.0 / self.scale)) * np.float32(1.0 / _DU)
+        v = (np.log(h) - np.float32(self.lh[0])) * np.float32(1.0 / _DLH)
         i = np.clip(u.astype(np.intp), 0, len(self.u) - 2)
         j = np.clip(v.astype(np.intp), 0, nh - 2)
-        fu, fv = u - i, v - j
+        fu, fv32 = u - i, v - j
         r = np.sqrt(rho * rho + h * h)
-        ph = (np.exp(-1j * self.k0 * r) / r).astype(np.complex64)
-        a = ph * (1.0 - fu).astype(np.float32)
-        b = ph * fu.astype(np.float32)
-        fv32 = fv.astype(np.float32)
+        kr = np.float32(self.k0) * r
+        inv = np.float32(1.0) / r
+        ph = np.empty(r.shape, dtype=np.complex64)
+        ph.real = np.cos(kr) * inv
+        ph.imag = -np.sin(kr) * inv
+        a = ph * (np.float32(1.0) - fu)
+        b = ph * fu
         idx = i * nh + j
         t = self._flat
-        out = t[idx] * (a * (1.0 - fv32))[..., None]
-        out += t[idx + 1] * (a * fv32)[..., None]
+        out = t[:, idx] * (a * (1.0 - fv32))
+        out += t[:, idx + 1] * (a * fv32)
         idx += nh
-        out += t[idx] * (b * (1.0 - fv32))[..., None]
-        out += t[idx + 1] * (b * fv32)[..., None]
+        out += t[:, idx] * (b * (1.0 - fv32))
+        out += t[:, idx + 1] * (b * fv32)
         return out
 
 
@@ -476,7 +481,10 @@ def remainder_fields(tab: ReflectionTable, src_m, mom_am, obs_m, *, want_h: bool
     obs = np.asarray(obs_m, dtype=float)
     e_out = np.zeros(obs.shape, dtype=complex)
     h_out = np.zeros(obs.shape, dtype=complex) if want_h else None
-    step = max(1, 200_000 // max(1, len(src)))
+    # single precision for the per-pair sums (the table's own error is about 1e-3), moments scaled to O(1)
+    m_scale = float(np.max(np.abs(mom))) or 1.0
+    px, py, pz = (np.ascontiguousarray(mom[:, c] / m_scale, dtype=np.complex64) for c in range(3))
+    step = max(1, 4_000 // max(1, len(src)))   # small blocks stay in cache (measured 1.7x faster than 200k)
     for lo in range(0, len(obs), step):
         o = obs[lo:lo + step]
         dx = o[:, None, 0] - src[None, :, 0]
@@ -484,25 +492,25 @@ def remainder_fields(tab: ReflectionTable, src_m, mom_am, obs_m, *, want_h: bool
         rho = np.hypot(dx, dy)
         h = o[:, None, 2] + src[None, :, 2]
         with np.errstate(invalid="ignore", divide="ignore"):
-            cph = np.where(rho > 0, dx / rho, 1.0)
-            sph = np.where(rho > 0, dy / rho, 0.0)
+            cph = np.where(rho > 0, dx / rho, 1.0).astype(np.float32)
+            sph = np.where(rho > 0, dy / rho, 0.0).astype(np.float32)
         q = tab.lookup(rho, h)
-        px, py, pz = mom[None, :, 0], mom[None, :, 1], mom[None, :, 2]
         ca = px * cph + py * sph
         sb = px * sph - py * cph
-        e_rho = ca * q[..., 3] + pz * q[..., 0]
-        e_phi = sb * q[..., 6]
-        e_z = ca * q[..., 4] + pz * q[..., 1]
+        e_rho = ca * q[3] + pz * q[0]
+        e_phi = sb * q[6]
         e_out[lo:lo + step, 0] = np.sum(e_rho * cph - e_phi * sph, axis=1)
         e_out[lo:lo + step, 1] = np.sum(e_rho * sph + e_phi * cph, axis=1)
-        e_out[lo:lo + step, 2] = np.sum(e_z, axis=1)
+        e_out[lo:lo + step, 2] = np.sum(ca * q[4] + pz * q[1], axis=1)
         if want_h:
-            h_rho = sb * q[..., 7]
-            h_phi = ca * q[..., 5] + pz * q[..., 2]
-            h_z = sb * q[..., 8]
+            h_rho = sb * q[7]
+            h_phi = ca * q[5] + pz * q[2]
             h_out[lo:lo + step, 0] = np.sum(h_rho * cph - h_phi * sph, axis=1)
             h_out[lo:lo + step, 1] = np.sum(h_rho * sph + h_phi * cph, axis=1)
-            h_out[lo:lo + step, 2] = np.sum(h_z, axis=1)
+            h_out[lo:lo + step, 2] = np.sum(sb * q[8], axis=1)
+    e_out *= m_scale
+    if want_h:
+        h_out *= m_scale
     return e_out, h_out
 
 
@@ -606,13 +614,13 @@ def remainder_reaction(st, k: float) -> np.ndarray:
         with np.errstate(invalid="ignore", divide="ignore"):
             cph = np.where(rho > 0, dx / rho, 1.0)
             sph = np.where(rho > 0, dy / rho, 0.0)
-        q = tab.lookup(rho, h)
+        q = tab.lookup(rho, h).astype(complex)
         sx, sy, sz = sdir[None, :, 0], sdir[None, :, 1], sdir[None, :, 2]
         ca = sx * cph + sy * sph
         sb = sx * sph - sy * cph
-        e_rho = ca * q[..., 3] + sz * q[..., 0]
-        e_phi = sb * q[..., 6]
-        e_z = ca * q[..., 4] + sz * q[..., 1]
+        e_rho = ca * q[3] + sz * q[0]
+        e_phi = sb * q[6]
+        e_z = ca * q[4] + sz * q[1]
         t = sdir[lo:lo + step]
         g[lo:lo + step] = ((e_rho * cph - e_phi * sph) * t[:, 0, None] + (e_rho * sph + e_phi * cph) * t[:, 1, None]
                            + e_z * t[:, 2, None])
