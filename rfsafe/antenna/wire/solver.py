@@ -439,22 +439,38 @@ class WireSolution:
         return point_cautions(self, points_m, labels)
 
 
-def _peak_search(st, k, seg_i, theta0, phi0, dth, dph, tmax):
-    th, ph = theta0, phi0
-    best = _intensity(st, k, seg_i, _directions(np.array(th), np.array(ph)))
-    for _ in range(40):
-        tt = np.clip(th + dth * np.array([-1, -1, -1, 0, 0, 1, 1, 1]), 0.0, tmax)
-        pp = ph + dph * np.array([-1, 0, 1, -1, 1, -1, 0, 1])
-        u = _intensity(st, k, seg_i, _directions(tt, pp))
-        j = int(np.argmax(u))
-        if u[j] > best * (1 + 1e-12):
-            best, th, ph = u[j], tt[j], pp[j]
-        else:
-            dth, dph = 0.5 * dth, 0.5 * dph
-            if dth < 1e-5:
-                break
-    return float(best), float(th), float(ph)
+def _peak_search(st, k, seg_i, starts, dth, dph, tmax):
+    """Shrinking pattern searches for the largest intensity from each start (theta, phi) [rad].
 
+    The searches run in lockstep (one intensity evaluation per step for all of them); each one moves
+    to its best of 8 neighbours when that is larger, else halves its steps, until the theta step is
+    below 1e-5 rad (or 40 steps). Returns (u, theta, phi) of each search.
+    """
+    m = len(starts)
+    th = np.array([s[0] for s in starts], dtype=float)
+    ph = np.array([s[1] for s in starts], dtype=float)
+    best = np.array([float(_intensity(st, k, seg_i, _directions(np.array(t), np.array(p)))) for t, p in starts])
+    dt = np.full(m, float(dth))
+    dp = np.full(m, float(dph))
+    active = np.ones(m, dtype=bool)
+    ot = np.array([-1, -1, -1, 0, 0, 1, 1, 1])
+    op = np.array([-1, 0, 1, -1, 1, -1, 0, 1])
+    for _ in range(40):
+        idx = np.flatnonzero(active)
+        if not len(idx):
+            break
+        tt = np.clip(th[idx, None] + dt[idx, None] * ot, 0.0, tmax)
+        pp = ph[idx, None] + dp[idx, None] * op
+        u = _intensity(st, k, seg_i, _directions(tt, pp)).reshape(len(idx), 8)
+        for row, i in enumerate(idx):
+            j = int(np.argmax(u[row]))
+            if u[row, j] > best[i] * (1 + 1e-12):
+                best[i], th[i], ph[i] = u[row, j], tt[row, j], pp[row, j]
+            else:
+                dt[i], dp[i] = 0.5 * dt[i], 0.5 * dp[i]
+                if dt[i] < 1e-5:
+                    active[i] = False
+    return [(float(best[i]), float(th[i]), float(ph[i])) for i in range(m)]
 
 #: Local maxima of the direction grid from which the peak search starts.
 PEAK_STARTS = 4
@@ -562,8 +578,9 @@ def solve(spec, freq_hz: float, *, field_prefix: str = "", enforce_limits: bool 
     dth, dph = math.pi / n_t, 2 * math.pi / n_p
     best = (-1.0, 0.0, 0.0)
     top = [np.unravel_index(int(f), u.shape) for f in np.argsort(u, axis=None)[::-1][:3]]
-    for n, (it, ip) in enumerate(top + [m for m in _grid_maxima(u, PEAK_STARTS) if m not in top]):
-        cand = _peak_search(st, k, seg_i, th[it, ip], ph[it, ip], dth, dph, tmax)
+    more = [m for m in _grid_maxima(u, PEAK_STARTS) if m not in top] if k * size > 24 else []   # coarser grid
+    found = _peak_search(st, k, seg_i, [(th[it, ip], ph[it, ip]) for it, ip in top + more], dth, dph, tmax)
+    for n, cand in enumerate(found):
         if cand[0] > best[0] * (1.0 if n < 3 else 1.0 + 1e-9):   # a tie keeps the earlier lobe
             best = cand
     u_max, t_best, p_best = best
