@@ -17,10 +17,10 @@ __all__ = [
     "MAX_FILE_BYTES", "MAX_PATTERN_FILE_BYTES", "MAX_TOML_NESTING", "MAX_LIST_ITEMS", "MAX_PLACES",
     "MAX_CONFIGURATIONS", "MAX_BODY_HEIGHTS", "MAX_SITE_STATIONS", "MAX_POLYGON_VERTICES",
     "MAX_GRID_POINTS", "MAX_WIRE_SEGMENTS", "MAX_WIRE_POINTS", "MAX_PATTERN_ROWS", "MAX_POWER_W",
-    "MAX_DISTANCE_M", "MAX_LENGTH_M", "MAX_SWR", "MIN_RESISTANCE_OHM", "MAX_IMPEDANCE_OHM",
+    "MAX_DISTANCE_M", "MAX_LENGTH_M", "MAX_SWR", "MAX_IMPEDANCE_OHM",
     "MAX_TEXT_CHARS", "MAX_GAIN_DBI", "MIN_GAIN_DBI", "MAX_LOSS_DB", "MAX_Q", "check_nesting", "nesting_error",
     "nesting_depth", "finite_in_range", "field_bound_problem", "MAX_ANY_NUMBER",
-    "check_file_size", "BOUNDS_TABLE",
+    "check_file_size", "bounds_table",
 ]
 
 #: Largest station, site or wire file [bytes].
@@ -58,8 +58,7 @@ MAX_DISTANCE_M = 1e5
 MAX_LENGTH_M = 1e5
 #: Largest SWR accepted as a number (a short or open load is given as load_r_ohm/load_x_ohm).
 MAX_SWR = 1e6
-#: Smallest load resistance [ohm] and largest |R| or |X| [ohm] of a load.
-MIN_RESISTANCE_OHM = 1e-6
+#: Largest |R| or |X| of a load, and of any impedance in a file [ohm].
 MAX_IMPEDANCE_OHM = 1e9
 #: Longest text value (labels, titles, descriptions) [characters].
 MAX_TEXT_CHARS = 2000
@@ -70,31 +69,6 @@ MIN_GAIN_DBI = -60.0
 MAX_LOSS_DB = 1000.0
 #: Largest quality factor (loaded or unloaded) of a tuner part.
 MAX_Q = 1e6
-
-#: (what, bound, unit) for the README table and the messages.
-BOUNDS_TABLE = (
-    ("station, site or wire file", MAX_FILE_BYTES, "bytes"),
-    ("pattern-table CSV", MAX_PATTERN_FILE_BYTES, "bytes"),
-    ("nesting of tables and arrays in a TOML file", MAX_TOML_NESTING, "levels"),
-    ("data rows of a pattern table", MAX_PATTERN_ROWS, "rows"),
-    ("places of a station, points of a wire file", MAX_PLACES, "items"),
-    ("configurations of a station", MAX_CONFIGURATIONS, "items"),
-    ("transmitters, feedlines, antennas, groups, wires, feeds, areas", MAX_LIST_ITEMS, "items each"),
-    ("body heights of a place, evaluation heights of a site", MAX_BODY_HEIGHTS, "items"),
-    ("stations on a site", MAX_SITE_STATIONS, "items"),
-    ("vertices of a site boundary or area", MAX_POLYGON_VERTICES, "items"),
-    ("points of a site's evaluation grid", MAX_GRID_POINTS, "points"),
-    ("segments of one wire antenna", MAX_WIRE_SEGMENTS, "segments"),
-    ("vertices of one wire", MAX_WIRE_POINTS, "items"),
-    ("peak envelope power", MAX_POWER_W, "W"),
-    ("coordinates, heights and distances", MAX_DISTANCE_M, "m"),
-    ("feedline length", MAX_LENGTH_M, "m"),
-    ("SWR given as a number", MAX_SWR, ""),
-    ("load resistance", MIN_RESISTANCE_OHM, "ohm (smallest)"),
-    ("load resistance or reactance magnitude", MAX_IMPEDANCE_OHM, "ohm"),
-    ("text values", MAX_TEXT_CHARS, "characters"),
-)
-
 
 def nesting_depth(value: Any) -> int:
     """Depth of nested dicts/lists (a scalar is 0), without recursion."""
@@ -223,3 +197,32 @@ def field_bound_problem(name: str, value: Any) -> str | None:
             lead = f"has {shown} at {where}, " if where else "is "
             return f"{lead}out of range (accepted: magnitude at most {hi:g}{' ' + unit if unit else ''})"
     return None
+
+
+def bounds_table() -> tuple[tuple[str, str], ...]:
+    """(what, bound) rows of the README's "Limits of the input" table, made from the values above."""
+    rows = [
+        ("station, site or wire file", f"{MAX_FILE_BYTES:,} bytes"),
+        ("pattern-table CSV", f"{MAX_PATTERN_FILE_BYTES:,} bytes, {MAX_PATTERN_ROWS:,} data rows"),
+        ("nesting of tables and arrays in a TOML file", f"{MAX_TOML_NESTING} levels"),
+        ("places of a station, points of a wire file", f"{MAX_PLACES:,}"),
+        ("configurations of a station", f"{MAX_CONFIGURATIONS}"),
+        ("body heights of a place, evaluation heights of a site", f"{MAX_BODY_HEIGHTS}"),
+        ("stations on a site", f"{MAX_SITE_STATIONS}"),
+        ("vertices of a site boundary or area, of one wire", f"{MAX_POLYGON_VERTICES:,}"),
+        ("any other list (transmitters, feedlines, antennas, wires, feeds, areas, ...)", f"{MAX_LIST_ITEMS}"),
+        ("points of a site's evaluation grid (boundary plus keep-out margin)", f"{MAX_GRID_POINTS:,}"),
+        ("segments of one wire antenna", f"{MAX_WIRE_SEGMENTS:,}"),
+        ("text values", f"{MAX_TEXT_CHARS:,} characters"),
+        ("SWR (given, or of a load impedance on its line)", f"{MAX_SWR:g}"),
+        ("matched loss of a whole feedline", f"{MAX_LOSS_DB:g} dB"),
+    ]
+    names = {"_rating": "ratings (`*_rating`)", "_w": "powers (`*_w`)", "_m": "coordinates, heights, lengths (`*_m`)",
+             "_ohm": "impedances (`*_ohm`)", "_mhz": "frequencies (`*_mhz`)", "_dbi": "gains (`*_dbi`)",
+             "_dbd": "gains (`*_dbd`)", "_db": "losses and ratios in dB (`*_db`)", "_deg": "angles (`*_deg`)",
+             "_minutes": "times (`*_minutes`)", "_q": "quality factors (`*_q`)", "_v_peak": "voltages (`*_v_peak`)"}
+    for suffix, hi, unit in _BY_SUFFIX:
+        if suffix in names:
+            rows.append((names[suffix], f"magnitude <= {hi:g}{' ' + unit if unit else ''}"))
+    rows.append(("any other number", f"magnitude <= {MAX_ANY_NUMBER:g}"))
+    return tuple(rows)

@@ -153,6 +153,18 @@ def _allocate(total: int, lengths: list[float]) -> list[int]:
     return n
 
 
+def _check_segment_budget(n: int, path: str, w) -> None:
+    """Refuse more segments than :data:`rfsafe.bounds.MAX_WIRE_SEGMENTS` before allocating them."""
+    from rfsafe.bounds import MAX_WIRE_SEGMENTS
+
+    if n > MAX_WIRE_SEGMENTS:
+        key, value = (("segments", w.segments) if w.segments is not None else
+                      ("max_segment_m", w.max_segment_m) if w.max_segment_m is not None else
+                      ("segments", "default (wavelength/40)"))
+        raise bad_value(f"{path}.{key}", value, f"gives {n:,} segments (accepted: at most {MAX_WIRE_SEGMENTS} "
+                        "segments per wire antenna; use longer segments, a lower frequency or shorter wires)")
+
+
 def _segment_wire(w, path, feeds_here, wavelength_m):
     """Node coordinates of one wire and the node index of each feed on it."""
     pts = np.asarray(w.points_m, dtype=float)
@@ -178,6 +190,7 @@ def _segment_wire(w, path, feeds_here, wavelength_m):
     else:
         max_seg = w.max_segment_m if w.max_segment_m is not None else wavelength_m / DEFAULT_SEGMENTS_PER_WAVELENGTH
         counts = [max(1, math.ceil(x / max_seg - 1e-9)) for x in sub]
+    _check_segment_budget(sum(counts), path, w)
 
     def at(arc):
         j = min(int(np.searchsorted(cum, arc, side="right")) - 1, len(piece) - 1)
@@ -238,6 +251,7 @@ def build_structure(spec, freq_hz: float, feed_wires: tuple[int, ...], *, prefix
         loads_here = [(n, p) for n, (iw, p) in enumerate(load_places) if iw == i]
         nodes, fn = _segment_wire(w, fields[i], [p for _, p in here] + [p for _, p in loads_here], lam)
         wire_nodes.append(nodes)
+        _check_segment_budget(sum(len(x) - 1 for x in wire_nodes), fields[i], w)
         feed_nodes_by_wire.append(dict(zip([f for f, _ in here], fn)))
         load_nodes.update({n: (i, j) for (n, _), j in zip(loads_here, fn[len(here):])})
 

@@ -1,0 +1,41 @@
+"""rfsafe/bounds.py: the stated input bounds, the README's table of them, and their checks."""
+
+from pathlib import Path
+
+import pytest
+
+from rfsafe import bounds
+from rfsafe.errors import InputError
+
+README = (Path(__file__).resolve().parent.parent / "README.md").read_text(encoding="utf-8")
+
+
+def test_readme_states_every_bound():
+    """The README's "Limits of the input" table is the one in the code (common practice: one source)."""
+    for what, bound in bounds.bounds_table():
+        assert f"| {what} | {bound} |" in README, (what, bound)
+
+
+@pytest.mark.parametrize("name, value, problem", [
+    ("pep_w", 1e300, "is out of range (accepted: magnitude at most 1e+08 W)"),
+    ("x_m", -2e5, "is out of range (accepted: magnitude at most 100000 m)"),
+    ("points_m", [[0.0, 0.0, 1e9]], "has 1e+09 at [0][2], out of range (accepted: magnitude at most 100000 m)"),
+    ("polygon", [[0.0, 0.0], [2e10, 0.0]], "has 2e+10 at [1][0], out of range (accepted: magnitude at most 100000 m)"),
+    ("places", [{}] * (bounds.MAX_PLACES + 1), f"has {bounds.MAX_PLACES + 1} items (accepted: at most 2000)"),
+    ("segments", 10**6, "is out of range (accepted: at most 1500 segments per wire antenna)"),
+    ("gain_dbi", 61.0, "is out of range (accepted: magnitude at most 60 dBi)"),
+    ("freq_mhz", 14.2, None),
+    ("id", "x", None),
+])
+def test_field_bounds_by_unit_suffix(name, value, problem):
+    assert bounds.field_bound_problem(name, value) == problem
+
+
+def test_nesting_depth_without_recursion():
+    deep = 1
+    for _ in range(100_000):
+        deep = [deep]
+    assert bounds.nesting_depth(deep) == 100_000
+    with pytest.raises(InputError, match=r'^FILE: "f.toml" nests tables and arrays more than 16 levels deep'):
+        bounds.check_nesting(deep, field="FILE", path="f.toml")
+    bounds.check_nesting({"a": [[1]]}, field="FILE", path="f.toml")
