@@ -53,7 +53,7 @@ class Emitter:
     ground_factor: float
     solution: object = None       # moment-method solution for a wire antenna, else None
     extent: object = None         # rfsafe.antenna.extent.Extent: the radiating structure taken
-    ground_bound_solution: object = None   # wire declared over free space: the same over a perfect ground (bound)
+    ground_bound_solution: object = None   # the same wire over the other idealised ground (bound; see _ground_bound_solution)
 
 
 def peak_gain_dbi(antenna: Antenna, wire_gain_dbi: float | None = None, table=None) -> tuple[float, str]:
@@ -195,12 +195,13 @@ def _route_distance_m(solution, place, heights) -> float:
     return float(point_segment_distances(pts[:, None, :], st.start_m[on][None], st.end_m[on][None]).min())
 
 
-def _feedline_shield(loaded: LoadedStation, ant: Antenna, solution, limits, avg_ant, pep_ant: float, near_m: float):
+def _feedline_shield(loaded: LoadedStation, ant: Antenna, solution, limits, avg_ant, pep_ant: float, near_m: float,
+                     twin=None):
     """Common-mode current of a modelled feedline shield and the choke that brings nearby places to the limit.
 
     Places within lambda/2pi of the route are judged at their worst body height (this configuration
-    alone); the choke sits where the declared one is (else at the feed point), with its phase (else
-    resistive).
+    alone) and, where the ground is bounded, over the worse of both ground models (``twin``); the choke
+    sits where the declared one is (else at the feed point), with its phase (else resistive).
     """
     if solution is None or solution.shield is None:
         return None
@@ -212,11 +213,15 @@ def _feedline_shield(loaded: LoadedStation, ant: Antenna, solution, limits, avg_
     spec = loaded.wire_specs[ant.id]
     cm = common_mode_current(solution, pep_ant, feed=spec.shield.feed)
     sweeps = []
+    near_places = []
     for pi_, place in enumerate(loaded.model.places):
         heights = _heights(place)
         if _route_distance_m(solution, place, heights) < near_m:
             pts = [[place.x_m, place.y_m, z] for z in heights]
-            sweeps.append((place, ChokeSweep(solution, pts, field=f"places[{pi_}].body_heights_m")))
+            near_places.append(place.label)
+            for sol in (solution, twin):
+                if sol is not None:
+                    sweeps.append((place, ChokeSweep(sol, pts, field=f"places[{pi_}].body_heights_m")))
 
     def ratio_at(z: np.ndarray) -> np.ndarray:
         """Largest ratio over the places, their heights and limits, for each choke impedance in ``z``."""
@@ -240,7 +245,7 @@ def _feedline_shield(loaded: LoadedStation, ant: Antenna, solution, limits, avg_
         route_length_m=cm.route_length_m, far_end=cm.far_end, choke_impedance_ohm=cm.choke_impedance_ohm,
         choke_distance_m=cm.choke_distance_m, feed_current_a_rms=cm.feed_current_a_rms,
         max_current_a_rms=cm.max_current_a_rms, max_at_distance_m=cm.max_at_distance_m,
-        places=tuple(p.label for p, _ in sweeps), worst_ratio=worst, required_choke_ohm=need,
+        places=tuple(near_places), worst_ratio=worst, required_choke_ohm=need,
         required_choke_note=note + "; places judged at their worst body height, this configuration alone")
 
 
@@ -340,18 +345,13 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
     if ant.kind == "quarter-wave-vertical" and ground_factor > 1:
         flags.append("quarter-wave vertical: its 5.16 dBi model gain already holds a perfect ground image, so "
                      f"applying F = {ground_factor:g} as well overstates the far field (conservative, up to 6 dB)")
+    declared_factor = ground_factor
     if solution is not None and solution.ground == "perfect" and gain_src == "moment-method solver":
         # The solver's gain over a perfect ground already holds the reflected wave (image):
         # applying F again would count the ground twice.
         ground_factor = 1.0
         flags.append("wire antenna over a perfect ground: the solver's gain includes the ground reflection, "
                      "so the far-field estimate uses F = 1 with it")
-        if not solution.structure.ground_nodes:
-            flags.append("wire antenna declared over a perfect ground without touching it: real soil lies between "
-                         "free space and a perfect conductor, and near the ground a perfect conductor can understate "
-                         "the field (it cancels the horizontal E there); declare ground = \"real\" with the soil "
-                         "(soil = a class, or its permittivity and conductivity) to model it, or ground = "
-                         f"\"free-space\" to have both solved and the worse taken ({WIRE_GROUND_BOUND})")
     if solution is not None and solution.ground == "real" and gain_src == "moment-method solver":
         # The solver's gain over real soil holds the Fresnel-reflected space wave: F would count it twice.
         ground_factor = 1.0
@@ -361,10 +361,15 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
                      "the bound of free space and perfect ground")
     if twin is not None and gain_src == "moment-method solver":
         # Far field of the bound: the larger of G F (free space) and G (over perfect ground, reflection included).
-        if twin.gain_dbi > gain + 10 * math.log10(ground_factor):
-            gain, gain_src, ground_factor = twin.gain_dbi, "moment-method solver over perfect ground (bound)", 1.0
-        flags.append(f"wire antenna declared over free space: solved over free space and over a perfect ground, "
-                     f"the worse governs at every place ({WIRE_GROUND_BOUND}; real soil lies between the two)")
+        if twin.ground == "perfect":
+            if twin.gain_dbi > gain + 10 * math.log10(ground_factor):
+                gain, gain_src, ground_factor = twin.gain_dbi, "moment-method solver over perfect ground (bound)", 1.0
+        elif twin.gain_dbi + 10 * math.log10(declared_factor) > gain:
+            gain, gain_src = twin.gain_dbi, "moment-method solver in free space with F (bound)"
+            ground_factor = declared_factor
+        flags.append(f"wire antenna declared over {solution.ground}: solved over free space and over a perfect "
+                     f"ground, the worse governs at every place ({WIRE_GROUND_BOUND}; real soil lies between the "
+                     "two; declare ground = \"real\" with its soil to model it instead)")
     avg_ant = {env: avg_tx[env] * loss_fraction for env in ENVIRONMENTS}
     pep_ant = tx.pep_w * loss_fraction
     eirp = {env: float(eirp_w(avg_ant[env], gain)) for env in ENVIRONMENTS}
@@ -413,7 +418,7 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
         distances, wire_flags = _wire_compliance_distances(sols, limits, avg_ant, pep_ant, distances, flag_dist)
         flags.extend(wire_flags)
     loads = _wire_loads(solution, pep_ant)
-    shield = _feedline_shield(loaded, ant, solution, limits, avg_ant, pep_ant, nf)
+    shield = _feedline_shield(loaded, ant, solution, limits, avg_ant, pep_ant, nf, twin=twin)
     exceeded = tuple(line.exceeded_parts) + tuple(
         f"lumped load {ld.label!r} on {ant.id} ({ld.voltage_v_peak:.4g} V peak at the PEP, rated "
         f"{ld.voltage_rating_v_peak:g} V peak)" for ld in loads if ld.voltage_headroom is not None
@@ -607,17 +612,26 @@ WIRE_GROUND_BOUND = "worse of free space and perfect ground (bound)"
 
 
 def _ground_bound_solution(loaded: LoadedStation, ant: Antenna, solution, freq_hz: float):
-    """The same wire antenna over a perfect ground, when it is declared over free space (else None).
+    """The same wire antenna over the other idealised ground: a perfect ground when it is declared over
+    free space, free space when it is declared over a perfect ground without touching it (else None).
 
     Criterion (conservative, always): in a station file z is the height above the real ground, so every
     wire antenna has the ground below it and every person stands on it. Real soil reflects between
     nothing (free space) and everything (a perfect conductor, image theory: Balanis, Antenna Theory,
     3rd ed., Sec. 4.7); unless the soil is declared, both are solved and at every place the worse
-    governs, labelled as a bound. A wire declared with ``ground = "perfect"`` or ``ground = "real"`` (with
-    its soil: Sommerfeld integrals, ``rfsafe.antenna.wire.ground``) is solved as declared, without the bound.
+    governs, labelled as a bound. A wire declared over a perfect ground gets the same bound unless it
+    touches the ground (a ground-fed antenna, whose ground is part of it); a wire declared with
+    ``ground = "real"`` (with its soil: Sommerfeld integrals, ``rfsafe.antenna.wire.ground``) is solved as
+    declared, without the bound.
     """
-    if solution is None or loaded.wire_specs[ant.id].ground != "free-space":
+    if solution is None:
         return None
+    declared = loaded.wire_specs[ant.id].ground
+    if declared == "perfect" and solution.structure.ground_nodes:
+        return None   # fed against the ground: the ground is part of the antenna; free space is no bound
+    if declared not in ("free-space", "perfect"):
+        return None
+    other = "perfect" if declared == "free-space" else "free-space"
     from rfsafe.antenna.wire import solve
     from rfsafe.errors import InputError
 
@@ -630,11 +644,11 @@ def _ground_bound_solution(loaded: LoadedStation, ant: Antenna, solution, freq_h
                 raise bad_value(f"{prefix}wires[{j}].points_m[{k}]", p,
                                 "is below ground: in a station file z is the height above ground (accepted: z >= 0 m)")
     try:
-        return solve(spec.model_copy(update={"ground": "perfect"}), freq_hz, field_prefix=prefix)
+        return solve(spec.model_copy(update={"ground": other}), freq_hz, field_prefix=prefix)
     except InputError as err:
-        raise InputError(f"{err} (a wire antenna declared over free space is also solved over a perfect ground, "
-                         f"the bound for real soil; declare {prefix}ground = \"perfect\" to model the ground "
-                         "directly)") from None
+        raise InputError(f"{err} (a wire antenna declared over {declared} is also solved over {other}, "
+                         f"the bound for real soil; declare {prefix}ground = \"real\" with its soil to model the "
+                         "ground directly)") from None
 
 
 def _wire_solutions(em: Emitter) -> list:
@@ -701,7 +715,7 @@ def _wire_place_exposure(em: Emitter, loaded: LoadedStation, p_index: int, place
     (rn, limn, en, hn, zn), ground = _wire_near_field_at(em, place, heights, f"places[{p_index}].body_heights_m",
                                                          average)
     solver_how = "moment method" + (f", {WIRE_GROUND_BOUND}" if bound else "") + (
-        ", over real ground (Sommerfeld integrals)" if em.solution.ground == "real" else "") + (
+        ", real ground (Sommerfeld)" if em.solution.ground == "real" else "") + (
         ", spatial average over body heights" if zn is None else "")
     common = dict(configuration=em.configuration, transmitter=em.transmitter, dist_m=dist, gain_dbi=em.peak_gain_dbi,
                   gain_method="peak", inside_near_field=inside, far_field_ratio=r_ff, near_field_ratio=rn,
