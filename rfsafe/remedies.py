@@ -677,11 +677,15 @@ def ground_keep_out(loaded, result: EvaluationResult, emitters) -> tuple[GroundK
     return tuple(out)
 
 
-def with_answers(loaded, *, remedies: bool = True) -> EvaluationResult:
-    """Evaluate a station and add its ground-level keep-out distances and (optionally) remedies."""
+def with_answers(loaded, *, remedies: bool = True, near_field_maps: bool = True) -> EvaluationResult:
+    """Evaluate a station and add its ground-level keep-out distances and (optionally) remedies.
+
+    ``near_field_maps=False`` leaves out the plot data (wire near-field maps, the keep-out plan) for
+    output that draws none; every exposure, distance and verdict is the same.
+    """
     from rfsafe.assess import assess_with_emitters
 
-    result, ems = assess_with_emitters(loaded)
+    result, ems = assess_with_emitters(loaded, near_field_maps=near_field_maps)
     keep = ground_keep_out(loaded, result, ems)
     if not remedies:
         return dataclasses.replace(result, ground_keep_out=keep)

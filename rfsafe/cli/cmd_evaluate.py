@@ -173,7 +173,8 @@ def evaluate(file: Path = typer.Argument(..., help="Station file (.toml)."),
             typer.echo(answers.render_all_standards(results))
         raise typer.Exit(max(codes, key=lambda c: (c == 1, c)) if codes else 2)
     loaded = answers.load_station_file(file, standard)
-    res = with_answers(loaded, remedies=remedies)
+    # Tables and CSV draw no maps: the near-field maps and the plan (plot data) are computed for JSON only.
+    res = with_answers(loaded, remedies=remedies, near_field_maps=json_out)
     if csv_table is not None:
         typer.echo(answers.evaluation_frame(res, csv_table).to_csv(index=False), nl=False)
         raise typer.Exit(res.exit_code)
