@@ -45,9 +45,10 @@ def fuzz_settings(ci_examples: int) -> settings:
     """FUZZ with fewer examples in the "ci" profile, for inputs that take long to evaluate (sites, wires)."""
     return settings(FUZZ, max_examples=ci_examples if PROFILE == "ci" else FUZZ.max_examples)
 
-#: Longest wall time one in-process run may take [s] (generous for the 2-core CI machine; the slowest
-#: valid inputs here, the demo site and wire stations, take well under 2 s).
-RUN_DEADLINE_S = 20.0
+#: Longest wall time one in-process run may take [s]: the hang threshold of the fuzz campaign that
+#: found the defects (generous for a shared 2-core machine; the slowest valid inputs here, the demo
+#: site and the largest accepted wire antennas, take a few seconds alone).
+RUN_DEADLINE_S = 30.0
 
 
 # ------------------------------------------------------------------ TOML writer

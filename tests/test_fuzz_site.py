@@ -93,6 +93,21 @@ def test_grid_spacing_boundary_and_power_extremes(spacing, span, pep_w):
     _run(doc)
 
 
+@pytest.mark.parametrize("key", ["transmitters", "feedlines", "antennas", "configurations"])
+def test_empty_inline_station_table(key):
+    """Found by the fuzz: an empty inline table escaped as a pydantic ValidationError (exit 3)."""
+    station = {**WIRE_SITE["stations"][0], key: []}
+    code, _, err = _run({**WIRE_SITE, "stations": [station]})
+    assert code == 2 and err.startswith(f"Error: stations[0].{key}: [] has too few items"), err
+
+
+def test_area_far_outside_the_site():
+    """Found by the fuzz: a 2e10 m area vertex asked for a 447 GiB array of edge points."""
+    area = {"label": "Lawn", "kind": "public", "polygon": [[0.0, 0.0], [20.0, 0.0], [2e10, 20.0]]}
+    code, _, err = _run({**FILE_SITE, "areas": [area]})
+    assert code == 2 and err.startswith("Error: areas[0].polygon: "), err
+
+
 def test_pdf_and_csv_not_written_on_bad_input():
     doc = {**FILE_SITE, "grid_spacing_m": -1.0}
     code, _, _ = _run(doc, extra=("-o", "X", "--csv", "Y"))

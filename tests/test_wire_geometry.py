@@ -101,7 +101,7 @@ def test_geometry_that_would_give_a_wrong_answer_is_refused(wires, feeds, ground
     ({"wires": [wire((0, 0, 0), (0, 0, 1), radius="1mm")], "feeds": [{"wire": 0}]},
      r"^wires\[0\]\.radius_m: \"1mm\" must be a number$"),
     ({"wires": [{"points_m": [[0, 0, 0], [0, 0]], "radius_m": 0.001}], "feeds": [{"wire": 0}]},
-     r"^wires\[0\]\.points_m\[1\]: \[0, 0\] has the wrong length"),
+     r"^wires\[0\]\.points_m\[1\]: \[0, 0\] has too few items \(accepted: at least 3\)"),
     ({"wires": [wire((0, 0, 0), (0, 0, 1))], "feeds": [{"wire": "driven"}]},
      r"^feeds\[0\]\.wire: \"driven\" is not a wire label \(declared labels: none; or give the index from 0\)$"),
     ({"wires": [wire((0, 0, 0), (0, 0, 1))], "feeds": [{"wire": 3}]},

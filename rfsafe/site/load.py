@@ -24,10 +24,13 @@ def _station_from_tables(i: int, s: SiteStation, site: Site, base: Path):
         if getattr(s, key) is None:
             raise InputError(f"stations[{i}].{key}: is required (give the station's tables inline, "
                              'or file = "<station file>")')
-    station = Station(transmitters=s.transmitters, feedlines=s.feedlines, antennas=s.antennas,
-                      configurations=s.configurations, standard=site.standard,
-                      ground_reflection=site.ground_reflection, exact_line_loss=s.exact_line_loss,
-                      station=s.name, title=site.title)
+    from rfsafe.station.validation import validate_model
+
+    # validated like a station file (an empty table is refused here, never a pydantic traceback)
+    station = validate_model(Station, dict(
+        transmitters=s.transmitters, feedlines=s.feedlines, antennas=s.antennas,
+        configurations=s.configurations, standard=site.standard, ground_reflection=site.ground_reflection,
+        exact_line_loss=s.exact_line_loss, station=s.name, title=site.title), prefix=f"stations[{i}].")
     try:
         wire_specs, tables = check_station(station, base)
     except InputError as err:

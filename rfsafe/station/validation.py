@@ -106,6 +106,10 @@ def validation_to_input_error(err: ValidationError, model: type[BaseModel], *, p
         bound = next(iter(ctx.values()))
         shown = f"{bound:g}" if isinstance(bound, (int, float)) else format_value(bound)
         return bad_value(path, value, f"is out of range (accepted: {op} {shown})")
+    if kind == "too_short" and "min_length" in ctx:
+        return bad_value(path, value, f"has too few items (accepted: at least {ctx['min_length']})")
+    if kind == "too_long" and "max_length" in ctx:
+        return bad_value(path, value, f"has too many items (accepted: at most {ctx['max_length']})")
     if kind in ("too_short", "too_long"):
         return bad_value(path, value, f"has the wrong length ({first['msg'].lower()})")
     if kind in _TYPE_WORDS:
