@@ -111,13 +111,13 @@ def test_table_mode_shows_units_markers_and_sources():
 
 
 @pytest.mark.parametrize("args,line", [
-    (["nist", "14.2"], 'Error: standard: "nist" is not a known standard (known: "fcc", "icnirp2020", '
+    (["nist", "14.2"], 'Error: STANDARD: "nist" is not a known standard (known: "fcc", "icnirp2020", '
                        '"icnirp1998", "ieee2019", "sc6", "eu1999")'),
-    (["fcc", "0.1"], 'Error: freq_mhz: 0.1 is outside the range of standard "fcc" (0.3 to 100000 MHz)'),
-    (["icnirp2020", "400000"], 'Error: freq_mhz: 400000 is outside the range of standard "icnirp2020" '
+    (["fcc", "0.1"], 'Error: FREQ_MHZ: 0.1 is outside the range of standard "fcc" (0.3 to 100000 MHz)'),
+    (["icnirp2020", "400000"], 'Error: FREQ_MHZ: 400000 is outside the range of standard "icnirp2020" '
                                '(0.1 to 300000 MHz)'),
-    (["fcc", "14.2", "abc"], 'Error: freq_mhz: "abc" is not a number (give the frequency in MHz, e.g. 14.2)'),
-    (["fcc"], "Error: freq_mhz: missing; give one or more frequencies in MHz, e.g. rfsafe limits fcc 14.2 144.2"),
+    (["fcc", "14.2", "abc"], 'Error: FREQ_MHZ: "abc" is not a number (give the frequency in MHz, e.g. 14.2)'),
+    (["fcc"], "Error: FREQ_MHZ: missing; give one or more frequencies in MHz, e.g. rfsafe limits fcc 14.2 144.2"),
     (["fcc", "14.2", "--compare", "14.2"], "Error: --compare: takes one frequency and no STANDARD (use either "
                                            "`rfsafe limits STANDARD FREQ_MHZ...` or `rfsafe limits --compare FREQ_MHZ`)"),
     (["--compare", "500000"], "Error: --compare: 500000 is outside the range of every standard (fcc (0.3 to "
@@ -134,7 +134,7 @@ def test_bad_input_gives_one_error_line_and_exit_2(args, line):
 def test_json_error_is_still_one_line():
     result = run("fcc", "0.1", "--json")
     assert result.exit_code == 2 and result.stdout == ""
-    assert result.stderr.startswith("Error: freq_mhz: 0.1 is outside")
+    assert result.stderr.startswith("Error: FREQ_MHZ: 0.1 is outside")
 
 
 def test_help_and_module_imports_only_typer_and_stdlib():

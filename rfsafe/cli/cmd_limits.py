@@ -127,7 +127,20 @@ def _cautions(entries: list[dict]) -> None:
              "against the published text in full; check them there before relying on them.")
 
 
-def limits_command(
+def limits_command(*args, **kwargs) -> None:
+    """Errors name what the user typed: STANDARD, FREQ_MHZ (the arguments) or --compare."""
+    from rfsafe.errors import InputError
+
+    try:
+        _limits_command(*args, **kwargs)
+    except InputError as err:
+        head, sep, rest = str(err).partition(": ")
+        user = {"standard": "STANDARD",
+                "freq_mhz": "--compare" if kwargs.get("compare") is not None else "FREQ_MHZ"}.get(head)
+        raise (InputError(f"{user}: {rest}") if sep and user else err) from None
+
+
+def _limits_command(
     standard: Optional[str] = typer.Argument(None, metavar="STANDARD",
                                              help="fcc, icnirp2020, icnirp1998, ieee2019, sc6 or eu1999."),
     freqs_mhz: Optional[list[str]] = typer.Argument(None, metavar="FREQ_MHZ...",
@@ -187,4 +200,6 @@ def limits_command(
 
 def register(app: typer.Typer) -> None:
     """Add the ``limits`` command to the rfsafe app."""
-    app.command("limits", help=_HELP)(limits_command)
+    import functools
+
+    app.command("limits", help=_HELP)(functools.wraps(_limits_command)(limits_command))
