@@ -31,9 +31,9 @@ def demo() -> None:
     when everything was evaluated and written, whatever the verdicts (the wire-station and event
     demos exceed a limit on purpose, to show what that looks like).
     """
-    from rfsafe.assess import assess
     from rfsafe.cli.cmd_evaluate import render_evaluation
     from rfsafe.cli.output import warn
+    from rfsafe.remedies import with_answers
     from rfsafe.report.site_pdf import write_site_pdf
     from rfsafe.report.worksheet import write_worksheet
     from rfsafe.site import assess_site
@@ -44,7 +44,7 @@ def demo() -> None:
     summary = []
     for k, name in enumerate(DEMO_STATIONS):
         loaded = load_station(folder / name)
-        res = assess(loaded)
+        res = with_answers(loaded)   # the same evaluation as rfsafe report (keep-out, remedies)
         if k == 0:
             from rfsafe.cli.output import fit_text
 
