@@ -359,6 +359,13 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
         flags.append(f"wire antenna over {soil}: near fields from the Sommerfeld integrals and gain from the "
                      "space wave with Fresnel coefficients (ground reflection included, F = 1); this replaces "
                      "the bound of free space and perfect ground")
+        gw = solution.ground_wave_bound_gain_dbi
+        if gw is not None and gw > gain:
+            # Along the ground the far field is Norton's ground wave, which the space-wave gain leaves out;
+            # the same currents with a perfect-ground image bound it (|F(w)| <= 1).
+            flags.append(f"far-field gain {gw:.2f} dBi instead of the space-wave peak {gain:.2f} dBi: the ground "
+                         "wave along the soil is bounded by the same currents over a perfect ground")
+            gain, gain_src = gw, "moment-method solver over real ground, ground-wave bound"
     if twin is not None and gain_src == "moment-method solver":
         # Far field of the bound: the larger of G F (free space) and G (over perfect ground, reflection included).
         if twin.ground == "perfect":

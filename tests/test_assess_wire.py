@@ -339,6 +339,22 @@ def test_a_dipole_declared_over_real_ground_is_solved_over_that_soil_without_the
     assert any("P.527" in f and "F = 1" in f for f in cfg.flags)
 
 
+def test_a_vertical_over_real_ground_takes_the_ground_wave_bound_for_its_far_field_gain(tmp_path):
+    # Along lossy soil the space wave vanishes at the horizon but Norton's ground wave does not (Norton
+    # 1937): the far-field gain is raised to the perfect-ground image gain of the same currents, flagged.
+    wires = [{"label": "v", "points_m": [[0.0, 0.0, 0.3], [0.0, 0.0, 10.6]], "radius_m": 0.002}] + [
+        {"points_m": [[0.0, 0.0, 0.3], [x, y, 0.3]], "radius_m": 0.002}
+        for x, y in ((10.3, 0.0), (0.0, 10.3), (-10.3, 0.0), (0.0, -10.3))]
+    loaded = _station(tmp_path, wires, [{"wire": "v", "position": 0.0}], freqs_mhz=[7.1], places=[(60.0, 0.0, 1.5)],
+                      ground="real", soil="medium-dry-ground")
+    res, ems = assess_with_emitters(loaded, near_field_maps=False)
+    cfg = res.configurations[0]
+    assert cfg.gain_source == "moment-method solver over real ground, ground-wave bound"
+    assert cfg.gain_dbi == pytest.approx(ems[0].solution.ground_wave_bound_gain_dbi)
+    assert cfg.gain_dbi > ems[0].solution.gain_dbi + 3
+    assert any("ground wave" in f for f in cfg.flags)
+
+
 def test_far_field_gain_of_the_bound_is_the_larger_of_free_space_g_f_and_the_perfect_ground_gain(tmp_path):
     # OET Bulletin 65 (section 2): S = EIRP F / (4 pi R^2). Over a perfect ground the solver's gain
     # already holds the reflection (F = 1 with it); over free space F comes from the station. The bound

@@ -245,3 +245,23 @@ def test_wires_touching_real_ground_and_bad_soil_keys_are_refused():
         solve(_dipole("perfect", soil="wet-ground"), F_DIPOLE_HZ)
     with pytest.raises(InputError, match=r"not both"):
         solve(_dipole("real", soil="wet-ground", soil_conductivity_s_m=0.01), F_DIPOLE_HZ)
+
+
+def test_ground_wave_bound_gain_covers_the_space_wave_and_is_near_the_perfect_ground_gain():
+    # Along the soil the far field is Norton's ground wave, E_direct (1 + R_v + (1 - R_v) F(w)), |F| <= 1
+    # (Norton 1937; checked against the exact integral above): the same currents over a perfect ground bound
+    # it. For a vertical with elevated radials the bound is at least the space-wave gain and close to the
+    # perfect-ground solution's gain (the currents differ little).
+    f = 7.1e6
+    wires = [{"label": "v", "points_m": [[0, 0, 0.3], [0, 0, 10.6]], "radius_m": 0.002}] + [
+        {"points_m": [[0, 0, 0.3], [10.3 * math.cos(a), 10.3 * math.sin(a), 0.3]], "radius_m": 0.002}
+        for a in np.arange(4) * math.pi / 2]
+
+    def sol(**kw):
+        return solve(WireAntennaSpec.model_validate({**kw, "wires": wires, "feeds": [{"wire": "v", "position": 0.0}]}), f)
+
+    real = sol(ground="real", soil="medium-dry-ground")
+    pec = sol(ground="perfect")
+    assert real.ground_wave_bound_gain_dbi > real.gain_dbi + 3      # the space wave dies along lossy soil
+    assert real.ground_wave_bound_gain_dbi == pytest.approx(pec.gain_dbi, abs=1.0)
+    assert real.radiated_over_input_power < 0.6 and pec.radiated_over_input_power == pytest.approx(1, abs=0.02)

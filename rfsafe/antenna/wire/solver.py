@@ -350,6 +350,9 @@ class WireSolution:
     geometry_spec: object = field(repr=False, default=None)   # the solved geometry (shield as wires)
     shield: object = field(repr=False, default=None)          # shield.ExpandedShield or None
     ground_method: str = ""                                   # how the ground was modelled (method text)
+    #: Real ground only: peak gain [dBi] of the same currents with a perfect-ground image, an upper bound of
+    #: the ground-level (Norton surface-wave) far field, which the space-wave gain leaves out (see solve).
+    ground_wave_bound_gain_dbi: float | None = None
 
     @property
     def wavelength_m(self) -> float:
@@ -589,6 +592,18 @@ def solve(spec, freq_hz: float, *, field_prefix: str = "", enforce_limits: bool 
     az = round(90.0 - math.degrees(p_best), 6) % 360.0 if abs(el) < 89.999 else 0.0  # undefined at zenith
     u_back = _intensity(st, k, seg_i, _directions(np.array(t_best), np.array(p_best + math.pi)))
     fb = 10 * math.log10(u_max / float(u_back)) if u_back > 0 else math.inf
+    gw_gain = None
+    if st.soil_eps_c is not None:
+        # Over real soil the far field along the ground is Norton's ground wave, E ~ E_direct (1 + R_v +
+        # (1 - R_v) F(w)) with |F| <= 1 (Norton 1937): at most the perfect-ground value (R_v -> 1) of the
+        # same currents. That image gain, over the grid and the horizon, bounds it (conservative).
+        from dataclasses import replace as _replace
+
+        st_pec = _replace(st, soil_eps_c=None)
+        ring = _directions(np.full(n_p, 0.5 * math.pi), phi)
+        u_gw = max(float(_intensity(st_pec, k, seg_i, _directions(th, ph)).max()),
+                   float(_intensity(st_pec, k, seg_i, ring).max()))
+        gw_gain = 10 * math.log10(4 * math.pi * u_gw / p_in)
 
     return WireSolution(
         freq_hz=st.freq_hz, ground=spec.ground, num_segments=st.num_segments, num_unknowns=st.num_unknowns,
@@ -601,7 +616,7 @@ def solve(spec, freq_hz: float, *, field_prefix: str = "", enforce_limits: bool 
         basis_current_a=c, segment_current_a=seg_i, structure=st, impedance_matrix_ohm=z,
         load_labels=geo.load_labels, load_impedance_ohm=tuple(complex(x) for x in z_load),
         load_current_a=tuple(complex(x) for x in i_load), load_power_w=p_load, geometry_spec=geo.spec,
-        shield=geo.shield, ground_method=_ground_method(spec, st))
+        shield=geo.shield, ground_method=_ground_method(spec, st), ground_wave_bound_gain_dbi=gw_gain)
 
 
 def _ground_method(spec, st) -> str:
