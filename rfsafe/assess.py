@@ -75,10 +75,12 @@ def _wire_solution(loaded: LoadedStation, ant: Antenna, freq_hz: float):
     """Moment-method solution of a wire antenna at one frequency (None for other kinds)."""
     if ant.kind != "wire":
         return None
-    from rfsafe.antenna.wire import solve
+    from rfsafe.antenna.wire.solver import solve_shared
 
+    # One solve (and one set of unit-power near fields) per antenna and frequency, shared by the
+    # configurations that use them and scaled to each one's power.
     index = next(k for k, a in enumerate(loaded.model.antennas) if a.id == ant.id)
-    return solve(loaded.wire_specs[ant.id], freq_hz, field_prefix=f"antennas[{index}].wire.")
+    return solve_shared(loaded.wire_specs[ant.id], freq_hz, field_prefix=f"antennas[{index}].wire.")
 
 
 def _wire_summary(solution):
@@ -639,7 +641,7 @@ def _ground_bound_solution(loaded: LoadedStation, ant: Antenna, solution, freq_h
     if declared not in ("free-space", "perfect"):
         return None
     other = "perfect" if declared == "free-space" else "free-space"
-    from rfsafe.antenna.wire import solve
+    from rfsafe.antenna.wire.solver import solve_shared as solve   # shared per antenna and frequency
     from rfsafe.errors import InputError
 
     index = next(k for k, a in enumerate(loaded.model.antennas) if a.id == ant.id)

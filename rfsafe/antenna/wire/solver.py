@@ -42,7 +42,7 @@ from rfsafe.antenna.wire.kernel import (ETA0_OHM, gauss_legendre_01, radiation_i
 from rfsafe.antenna.wire.loads import load_impedances_ohm, loaded_geometry
 from rfsafe.errors import bad_value
 
-__all__ = ["WireSolution", "solve", "impedance_matrix"]
+__all__ = ["WireSolution", "solve", "solve_shared", "impedance_matrix"]
 
 C0_M_S = 299_792_458.0
 #: Gauss-Legendre nodes along a test segment for well-separated pairs.
@@ -353,6 +353,8 @@ class WireSolution:
     #: Real ground only: peak gain [dBi] of the same currents with a perfect-ground image, an upper bound of
     #: the ground-level (Norton surface-wave) far field, which the space-wave gain leaves out (see solve).
     ground_wave_bound_gain_dbi: float | None = None
+    #: Unit-excitation near fields already computed, by point set (see fields_phasor); not part of the result.
+    _unit_fields: dict = field(default_factory=dict, repr=False, compare=False)
 
     @property
     def wavelength_m(self) -> float:
@@ -419,7 +421,17 @@ class WireSolution:
         from rfsafe.antenna.wire.fields import check_points, near_fields
 
         pts = check_points(self, points_m, field=field)
-        e, h = near_fields(self.structure, self.k, self.segment_current_a, pts)
+        key = (pts.shape, pts.tobytes()) if pts.size <= 3 * _FIELD_CACHE_POINTS else None
+        if key is not None and key in self._unit_fields:
+            e, h = self._unit_fields[key]
+        else:
+            e, h = near_fields(self.structure, self.k, self.segment_current_a, pts)
+            if key is not None:
+                if len(self._unit_fields) >= _FIELD_CACHE_ENTRIES:
+                    self._unit_fields.pop(next(iter(self._unit_fields)))
+                for a in (e, h):
+                    a.setflags(write=False)
+                self._unit_fields[key] = (e, h)
         scale = self.power_scale(input_power_w)
         return e * scale, h * scale
 
@@ -617,6 +629,42 @@ def solve(spec, freq_hz: float, *, field_prefix: str = "", enforce_limits: bool 
         load_labels=geo.load_labels, load_impedance_ohm=tuple(complex(x) for x in z_load),
         load_current_a=tuple(complex(x) for x in i_load), load_power_w=p_load, geometry_spec=geo.spec,
         shield=geo.shield, ground_method=_ground_method(spec, st), ground_wave_bound_gain_dbi=gw_gain)
+
+
+#: Near fields kept per solution for point sets up to this size, and at most this many sets.
+_FIELD_CACHE_POINTS = 20_000
+_FIELD_CACHE_ENTRIES = 64
+#: Solutions kept by solve_shared (least recently used dropped), only up to this many unknowns.
+_SHARED_ENTRIES = 8
+_SHARED_MAX_UNKNOWNS = 600
+_shared: dict = {}
+
+
+def solve_shared(spec, freq_hz: float, *, field_prefix: str = "", enforce_limits: bool = True) -> WireSolution:
+    """:func:`solve`, with the solution reused for the same geometry, frequency and field prefix.
+
+    Configurations sharing an antenna and a frequency (several modes or powers on one band) then
+    share one solve and, through :meth:`WireSolution.fields_phasor`, one set of unit-excitation near
+    fields, each scaled to its own power. The solution is the same object for every caller; its
+    arrays are read-only. Small solutions only (up to ``_SHARED_MAX_UNKNOWNS`` unknowns, the last
+    ``_SHARED_ENTRIES``), so memory stays bounded.
+    """
+    try:
+        key = (type(spec).__name__, spec.model_dump_json(), float(freq_hz), field_prefix, bool(enforce_limits))
+    except (AttributeError, TypeError, ValueError):
+        key = None
+    if key is not None and key in _shared:
+        sol = _shared.pop(key)
+        _shared[key] = sol   # most recently used last
+        return sol
+    sol = solve(spec, freq_hz, field_prefix=field_prefix, enforce_limits=enforce_limits)
+    if key is not None and sol.num_unknowns <= _SHARED_MAX_UNKNOWNS:
+        for a in (sol.basis_current_a, sol.segment_current_a, sol.impedance_matrix_ohm):
+            a.setflags(write=False)
+        _shared[key] = sol
+        while len(_shared) > _SHARED_ENTRIES:
+            _shared.pop(next(iter(_shared)))
+    return sol
 
 
 def _ground_method(spec, st) -> str:
