@@ -115,6 +115,9 @@ class Axes:
                 raise ValueError(f"bad {name} range {lim} for a {'log' if is_log else 'linear'} axis")
         self._boxes: list[tuple] = []        # markers and labels already placed [pt]
         self._segments: list[tuple] = []     # drawn curves labels must not cover [pt]
+        # bucket indexes of both, so that placing P labels costs about P, not P^2, box tests
+        self._box_index = _BucketIndex()
+        self._segment_index = _BucketIndex()
 
     # ---- mapping
     def _u(self, v, lim, is_log):
@@ -201,7 +204,10 @@ class Axes:
 
     def _keep_clear(self, *segments):
         """Register drawn page-coordinate segments that labels must not cover."""
-        self._segments.extend(segments)
+        for seg in segments:
+            self._segment_index.add(len(self._segments), min(seg[0], seg[2]), min(seg[1], seg[3]),
+                                    max(seg[0], seg[2]), max(seg[1], seg[3]))
+            self._segments.append(seg)
 
     def _box_in_frame(self, box) -> bool:
         x1, y1, x2, y2 = box
@@ -209,8 +215,14 @@ class Axes:
 
     def _conflicts(self, box) -> int:
         x1, y1, x2, y2 = box
-        n = sum(1 for b in self._boxes if not (x2 <= b[0] or x1 >= b[2] or y2 <= b[1] or y1 >= b[3]))
-        return n + sum(1 for seg in self._segments if _segment_hits_box(seg, box))
+        boxes, segments = self._boxes, self._segments
+        n = sum(1 for i in self._box_index.near(x1, y1, x2, y2)
+                if not (x2 <= boxes[i][0] or x1 >= boxes[i][2] or y2 <= boxes[i][1] or y1 >= boxes[i][3]))
+        return n + sum(1 for i in self._segment_index.near(x1, y1, x2, y2) if _segment_hits_box(segments[i], box))
+
+    def _add_box(self, box) -> None:
+        self._box_index.add(len(self._boxes), *box)
+        self._boxes.append(box)
 
     def _box_is_free(self, box) -> bool:
         return self._box_in_frame(box) and self._conflicts(box) == 0
@@ -273,7 +285,7 @@ class Axes:
             down = yv < self.ylim[0]
             pts = [X - s, Y + (s if down else -s), X + s, Y + (s if down else -s), X, Y]
             self.d.add(Polygon(pts, fillColor=color, strokeColor=None))
-        self._boxes.append((X - size, Y - size, X + size, Y + size))
+        self._add_box((X - size, Y - size, X + size, Y + size))
         return X, Y
 
     def label(self, candidates, text, *, color=None, bold=False, backing=False):
@@ -299,7 +311,7 @@ class Axes:
                             fillColor=colors.white, strokeColor=None))
         self.d.add(String(box[0], box[1] + fs * 0.25, text, fontName=font, fontSize=fs,
                           fillColor=color or PALETTE["text"]))
-        self._boxes.append(box)
+        self._add_box(box)
         return box
 
     def point_labels(self, items, *, size=2.6):
@@ -322,6 +334,48 @@ class Axes:
         """Text at page coordinates of the drawing (not checked for overlap)."""
         self.d.add(String(X, Y, s, fontName=FONT_BOLD if bold else FONT, fontSize=size or self.font_size,
                           fillColor=color or PALETTE["text"], textAnchor=anchor))
+
+
+class _BucketIndex:
+    """Items with a bounding box [pt] in square buckets of a uniform grid.
+
+    :meth:`near` returns every item whose box shares a bucket with the query box, which includes every
+    item whose box meets it (edges included); callers apply their exact test to these only.
+    """
+
+    cell = 24.0
+
+    def __init__(self):
+        self._cells: dict[tuple[int, int], list[int]] = {}
+        self._everywhere: list[int] = []      # boxes with a non-finite or very large extent
+        self._count = 0
+
+    def _span(self, x1, y1, x2, y2):
+        c = self.cell
+        if not all(math.isfinite(v) for v in (x1, y1, x2, y2)) or max(x2 - x1, y2 - y1) > 1e4:
+            return None
+        return (range(math.floor(x1 / c), math.floor(x2 / c) + 1), range(math.floor(y1 / c), math.floor(y2 / c) + 1))
+
+    def add(self, item: int, x1: float, y1: float, x2: float, y2: float) -> None:
+        self._count = max(self._count, item + 1)
+        span = self._span(x1, y1, x2, y2)
+        if span is None:
+            self._everywhere.append(item)
+            return
+        for i in span[0]:
+            for j in span[1]:
+                self._cells.setdefault((i, j), []).append(item)
+
+    def near(self, x1: float, y1: float, x2: float, y2: float) -> set[int]:
+        span = self._span(x1, y1, x2, y2)
+        if span is None:
+            return set(range(self._count))
+        xs, ys = span
+        found: set[int] = set(self._everywhere)
+        for i in xs:
+            for j in ys:
+                found.update(self._cells.get((i, j), ()))
+        return found
 
 
 def _clip_span(constraints):
