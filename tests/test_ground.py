@@ -265,3 +265,16 @@ def test_ground_wave_bound_gain_covers_the_space_wave_and_is_near_the_perfect_gr
     assert real.ground_wave_bound_gain_dbi > real.gain_dbi + 3      # the space wave dies along lossy soil
     assert real.ground_wave_bound_gain_dbi == pytest.approx(pec.gain_dbi, abs=1.0)
     assert real.radiated_over_input_power < 0.6 and pec.radiated_over_input_power == pytest.approx(1, abs=0.02)
+
+
+def test_complex_horizontal_moment_along_y_is_the_x_result_turned():
+    # Symmetry of the half-space about the vertical axis: a y-directed moment j (A m) at the origin gives
+    # at (x, y) the field of an x-directed moment j at (y, -x), turned by 90 degrees.
+    eps = g.soil_from_class("wet-ground").complex_permittivity(F_HZ)
+    src = np.array([0.0, 0.0, 2.0])
+    pts = np.array([[3.0, 1.0, 1.0], [-2.0, 4.0, 0.5]])
+    ey, hy = g.reflected_dipole_fields(K0, eps, src, np.array([0, 1j, 0]), pts)
+    turned = np.c_[pts[:, 1], -pts[:, 0], pts[:, 2]]
+    ex, hx = g.reflected_dipole_fields(K0, eps, src, np.array([1j, 0, 0]), turned)
+    rot = np.array([[0.0, -1.0, 0.0], [1.0, 0.0, 0.0], [0.0, 0.0, 1.0]])
+    assert np.allclose(ey, ex @ rot.T, rtol=1e-9, atol=1e-12) and np.allclose(hy, hx @ rot.T, rtol=1e-9, atol=1e-12)

@@ -302,23 +302,19 @@ def reflected_dipole_fields(k0: float, eps_c: complex, src_m, moment_am, obs_m):
     h = obs[:, 2] + src[2]
     e = np.zeros(obs.shape, dtype=complex)
     hh = np.zeros(obs.shape, dtype=complex)
-    ph_h = math.atan2(p[1].real if abs(p[1].real) + abs(p[0].real) > 0 else 0.0, p[0].real) \
-        if abs(p[0]) + abs(p[1]) > 0 else 0.0
-    # horizontal part: rotate the x-dipole result by the moment's azimuth (complex moments along one line)
-    ph_dir = np.array([math.cos(ph_h), math.sin(ph_h)])
-    amp_h = p[0] * ph_dir[0] + p[1] * ph_dir[1]
-    res_h = _integrate(k0, eps_c, rho, phi - ph_h, h)[0] if abs(amp_h) > 0 else None
+    # horizontal moments by linearity: the x dipole, and the y dipole as the x dipole turned by 90 deg
+    for amp, turn in ((p[0], 0.0), (p[1], 0.5 * math.pi)):
+        if abs(amp) == 0:
+            continue
+        res = _integrate(k0, eps_c, rho, phi - turn, h)[0]
+        c, s_ = math.cos(turn), math.sin(turn)
+        e[:, 0] += amp * (c * res[0] - s_ * res[1])
+        e[:, 1] += amp * (s_ * res[0] + c * res[1])
+        e[:, 2] += amp * res[2]
+        hh[:, 0] += amp * (c * res[3] - s_ * res[4])
+        hh[:, 1] += amp * (s_ * res[3] + c * res[4])
+        hh[:, 2] += amp * res[5]
     res_v = _integrate(k0, eps_c, rho, phi, h)[1] if abs(p[2]) > 0 else None
-    c, s = math.cos(ph_h), math.sin(ph_h)
-    if res_h is not None:
-        ex, ey = res_h[0], res_h[1]
-        hx, hy = res_h[3], res_h[4]
-        e[:, 0] += amp_h * (c * ex - s * ey)
-        e[:, 1] += amp_h * (s * ex + c * ey)
-        e[:, 2] += amp_h * res_h[2]
-        hh[:, 0] += amp_h * (c * hx - s * hy)
-        hh[:, 1] += amp_h * (s * hx + c * hy)
-        hh[:, 2] += amp_h * res_h[5]
     if res_v is not None:
         e += p[2] * res_v[:3].T
         hh += p[2] * res_v[3:].T
