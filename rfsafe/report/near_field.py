@@ -153,8 +153,15 @@ def _place_labels(ax, marks, obstacle_xy, renderer, colors=None):
 
     axbox = ax.get_window_extent(renderer)
     obstacles = ax.transData.transform(np.asarray(obstacle_xy)) if obstacle_xy else np.empty((0, 2))
-    taken = [ax.transData.transform([(x, y)])[0] for x, y, _ in marks]
-    taken_boxes = []
+    from rfsafe.report.plots import _BucketIndex
+
+    # markers sorted by x (a box finds its markers by two binary searches) and placed labels in a
+    # bucket index: P labels cost about P box tests, not P^2
+    taken = ax.transData.transform(np.array([(x, y) for x, y, _ in marks], dtype=float).reshape(-1, 2))
+    order = np.argsort(taken[:, 0], kind="stable")
+    taken_x, taken_y = taken[order, 0], taken[order, 1]
+    taken_boxes: list[tuple[float, float, float, float]] = []
+    box_index = _BucketIndex()
     near = [(6, 5, "left", "bottom"), (6, -5, "left", "top"), (-6, 5, "right", "bottom"),
             (-6, -5, "right", "top"), (0, 8, "center", "bottom"), (0, -8, "center", "top")]
     # then farther out, so that a crowded marker still finds a free spot close by
@@ -172,8 +179,13 @@ def _place_labels(ax, marks, obstacle_xy, renderer, colors=None):
                       and box.y1 <= axbox.y1 - pad)
             hits = int(np.count_nonzero((obstacles[:, 0] >= box.x0) & (obstacles[:, 0] <= box.x1)
                                         & (obstacles[:, 1] >= box.y0) & (obstacles[:, 1] <= box.y1)))
-            hits += sum(1 for ox, oy in taken if box.contains(ox, oy))
-            hits += sum(1 for b in taken_boxes if box.overlaps(b))
+            bx0, by0, bx1, by1 = box.extents
+            lo, hi = np.searchsorted(taken_x, bx0, "left"), np.searchsorted(taken_x, bx1, "right")
+            ys = taken_y[lo:hi]
+            hits += int(np.count_nonzero((ys >= by0) & (ys <= by1)))
+            hits += sum(1 for i in box_index.near(bx0, by0, bx1, by1)
+                        if bx0 <= taken_boxes[i][2] and taken_boxes[i][0] <= bx1
+                        and by0 <= taken_boxes[i][3] and taken_boxes[i][1] <= by1)
             score = (0 if inside else 1, hits)
             if best is None or score < best[0]:
                 if best is not None:
@@ -183,7 +195,8 @@ def _place_labels(ax, marks, obstacle_xy, renderer, colors=None):
                 t.remove()
             if score == (0, 0):
                 break
-        taken_boxes.append(best[2])
+        box_index.add(len(taken_boxes), *best[2].extents)
+        taken_boxes.append(tuple(best[2].extents))
 
 
 def _inset(ax, small, x, y, xe, ye, field, cmap, norm, fields, wire_xy, m, places, span_x, obstacles):
