@@ -4,12 +4,18 @@ Aims (floors stated in the task): a 3-element beam at ~60 unknowns solved in und
 10,000-point near-field map in under 1 s. Also: fill and solve time against the number of
 unknowns (20 to 200) and the ratio of fill time to numpy's dense solve of the same matrix.
 
+Scaling (issue 18): fill, numpy's dense LU and the whole solve() against floors measured in the
+same run (the LU and an ideal vectorised kernel fill of N^2 entries), in CPU time, with the
+exponents between sizes, for a compact array of dipoles and a long wire; N up to 800, or 2000 with
+``--large``.
+
 Run: OMP_NUM_THREADS=1 /work/venv/bin/python benchmarks/bench_wire.py  (pinning BLAS threads keeps
 the timings stable on the shared 2-core machine)
 """
 
 from __future__ import annotations
 
+import math
 import time
 
 import numpy as np
@@ -73,5 +79,74 @@ def main() -> None:
           f"(floor {MAP_FLOOR_S} s, ratio {t_map / MAP_FLOOR_S:.2f} of the floor); max E {e.max():.1f} V/m rms at 1 kW")
 
 
+def cpu_wall(fn):
+    """(CPU seconds of this process, wall seconds, result) of one call: CPU time is what the ratios use,
+    since the shared machine's load swells wall time several-fold (one BLAS thread pinned)."""
+    c, t = time.process_time(), time.perf_counter()
+    out = fn()
+    return time.process_time() - c, time.perf_counter() - t, out
+
+
+def ideal_fill(st, k):
+    """Floor: e^{-jkR}/R between all N^2 pairs of segment midpoints, vectorised in the solver's chunks."""
+    mid = 0.5 * (st.start_m + st.end_m)
+    n = len(mid)
+    out = np.empty((n, n), dtype=complex)
+    step = max(1, 250_000 // n)
+    for i in range(0, n, step):
+        r = np.linalg.norm(mid[i:i + step, None, :] - mid[None, :, :], axis=-1) + 1e-3
+        out[i:i + step] = np.exp(-1j * k * r) / r
+    return out
+
+
+def array_of_dipoles(unknowns):
+    """A compact structure: parallel half-wave dipoles (20 unknowns each) 0.3 lambda apart on a square
+    grid, one fed (a parasitic array some wavelengths across)."""
+    count = max(1, unknowns // 20)
+    side = math.ceil(math.sqrt(count))
+    wires = [{"points_m": [[0.3 * (i % side), 0.3 * (i // side), -0.25], [0.3 * (i % side), 0.3 * (i // side), 0.25]],
+              "radius_m": 0.002, "segments": 21} for i in range(count)]
+    return WireAntennaSpec.model_validate({"wires": wires, "feeds": [{"wire": 0}]})
+
+
+def scaling(sizes, make, name):
+    """Fill, dense LU and whole solve() against the floors, CPU time, one run each (the load varies)."""
+    from rfsafe.antenna.wire.solver import _radiated_power
+
+    print(f"\n{name}: CPU seconds (wall in brackets); floors measured in this run: numpy's dense LU of our "
+          "matrix and an ideal vectorised kernel fill of N^2 entries")
+    print(f"{'N':>6} {'fill':>14} {'ideal fill':>11} {'LU':>8} {'solve()':>15} {'power chk':>10} "
+          f"{'fill/ideal':>10} {'power/fill':>10} {'solve/(LU+ideal)':>16}")
+    rows = []
+    for n in sizes:
+        s = make(n)
+        st = build_structure(s, F_HZ, check_wire_antenna(s))
+        k = 2 * math.pi * F_HZ / 299_792_458.0
+        t_fill, w_fill, z = cpu_wall(lambda: impedance_matrix(st))
+        t_ideal, _, _ = cpu_wall(lambda: ideal_fill(st, k))
+        rhs = np.ones(z.shape[0], dtype=complex)
+        t_lu, _, _ = cpu_wall(lambda: np.linalg.solve(z, rhs))
+        del z
+        t_all, w_all, sol = cpu_wall(lambda: solve(s, F_HZ))
+        t_pow, _, _ = cpu_wall(lambda: _radiated_power(sol.structure, sol.k, sol.segment_current_a))
+        rows.append((sol.num_unknowns, t_fill, t_all))
+        print(f"{sol.num_unknowns:6d} {t_fill:7.3f} [{w_fill:5.2f}] {t_ideal:11.3f} {t_lu:8.3f} {t_all:7.3f} [{w_all:5.2f}] "
+              f"{t_pow:10.3f} {t_fill / t_ideal:10.1f} {t_pow / t_fill:10.2f} {t_all / (t_lu + t_ideal):16.1f}")
+        del sol
+    for (n0, f0, a0), (n1, f1, a1) in zip(rows, rows[1:]):
+        e_f = math.log(f1 / f0) / math.log(n1 / n0)
+        e_a = math.log(a1 / a0) / math.log(n1 / n0)
+        print(f"  exponent N = {n0} -> {n1}: fill {e_f:.2f}, whole solve {e_a:.2f}")
+
+
 if __name__ == "__main__":
+    import sys
+
+    import rfsafe.bounds
+
     main()
+    # Scaling beyond the input bound of one wire antenna (rfsafe.bounds.MAX_WIRE_SEGMENTS), raised here only.
+    rfsafe.bounds.MAX_WIRE_SEGMENTS = 10_000
+    sizes = (100, 200, 400, 800, 1600, 2000) if "--large" in sys.argv else (100, 200, 400, 800)
+    scaling(sizes, array_of_dipoles, "array of parallel dipoles (compact)")
+    scaling(sizes, long_wire, "long straight wire (electrically largest for its N: the pattern grid grows fastest)")
