@@ -335,6 +335,8 @@ _QUANT = (  # (orientation, component, phi, sign)
 _DU, _DLH = 0.1, 0.1
 #: Tail length in units of 1/h: the integrand decays as e^{-krho h}.
 _TAIL = 30.0
+#: krho nodes per block while building a table (bounds its memory to a few tens of MB).
+_BLOCK = 8192
 
 
 class ReflectionTable:
@@ -379,33 +381,44 @@ class ReflectionTable:
         kmax = 2.0 * k0 + _TAIL / self.h_min
         panel = min(0.5 * k0, 2.0 * math.pi / max(rho[-1], 1e-9), 2.0 / self.h_min)   # 8 nodes per J period
         kr, w = _path(k0, self.eps_c, b, kmax, panel)
-        coef = _spectral_coefficients(kr, k0, self.eps_c, self.k_img)       # (2, 5, 6, K)
         kz = _kz(k0, kr)
-        # a[q, m, k]: weight of J_m in quantity q
-        a = np.zeros((len(_QUANT), 3, len(kr)), dtype=complex)
-        for q, (o, c, phi, sign) in enumerate(_QUANT):
-            for n in range(-2, 3):
-                m = abs(n)
-                a[q, m] += sign * coef[o, n + 2, c] * np.exp(1j * n * phi) * (-1j) ** m
-        a *= 2.0 * math.pi * kr * w
         cplx = np.abs(kr.imag) > 0
         n_top = int(np.max(np.nonzero(cplx)[0])) + 1 if np.any(cplx) else 0
-        # J_m(krho rho) as (K, nu) blocks, contiguous in the krho prefix used by each row
-        jm = np.empty((3, len(kr), nu), dtype=complex)
-        x_top, x_tail = np.outer(kr[:n_top], rho), np.outer(kr[n_top:].real, rho)
-        for m in range(3):
-            jm[m, :n_top] = jv(m, x_top)
-        jm[0, n_top:], jm[1, n_top:] = j0(x_tail), j1(x_tail)
-        with np.errstate(divide="ignore", invalid="ignore"):   # J2 = 2 J1 / x - J0 (recurrence)
-            j2 = np.where(x_tail > 1e-2, 2.0 * jm[1, n_top:].real / x_tail - jm[0, n_top:].real, x_tail ** 2 / 8.0)
-        jm[2, n_top:] = j2
-        vals = np.zeros((nh, len(_QUANT), nu), dtype=complex)
         a_end = kr[n_top - 1].real if n_top else 0.0
-        for j, h in enumerate(hs):
-            kend = np.searchsorted(kr.real[n_top:], a_end + _TAIL / h) + n_top
-            e = np.exp(-1j * kz[:kend] * h)
-            for m in range(3):
-                vals[j] += (a[:, m, :kend] * e) @ jm[m, :kend]
+        kend = [int(np.searchsorted(kr.real[n_top:], a_end + _TAIL / h)) + n_top for h in hs]
+        vals = np.zeros((nh, len(_QUANT), nu), dtype=complex)
+        # krho nodes in blocks (memory stays bounded however many nodes the tail needs)
+        for c0 in range(0, len(kr), _BLOCK):
+            c1 = min(len(kr), c0 + _BLOCK)
+            kb, wb = kr[c0:c1], w[c0:c1]
+            coef = _spectral_coefficients(kb, k0, self.eps_c, self.k_img)       # (2, 5, 6, B)
+            # a[q, m, k]: weight of J_m in quantity q
+            a = np.zeros((len(_QUANT), 3, len(kb)), dtype=complex)
+            for q, (o, c, phi, sign) in enumerate(_QUANT):
+                for n in range(-2, 3):
+                    m = abs(n)
+                    a[q, m] += sign * coef[o, n + 2, c] * np.exp(1j * n * phi) * (-1j) ** m
+            a *= 2.0 * math.pi * kb * wb
+            # J_m(krho rho) as (B, nu) blocks
+            jm = np.empty((3, len(kb), nu), dtype=complex)
+            top = max(0, min(n_top, c1) - c0)
+            if top:
+                x_top = np.outer(kb[:top], rho)
+                for m in range(3):
+                    jm[m, :top] = jv(m, x_top)
+            if top < len(kb):
+                x_tail = np.outer(kb[top:].real, rho)
+                jm[0, top:], jm[1, top:] = j0(x_tail), j1(x_tail)
+                with np.errstate(divide="ignore", invalid="ignore"):   # J2 = 2 J1 / x - J0 (recurrence)
+                    jm[2, top:] = np.where(x_tail > 1e-2, 2.0 * jm[1, top:].real / x_tail - jm[0, top:].real,
+                                           x_tail ** 2 / 8.0)
+            for j, h in enumerate(hs):
+                ke = min(kend[j], c1) - c0
+                if ke <= 0:
+                    continue
+                e = np.exp(-1j * kz[c0:c0 + ke] * h)
+                for m in range(3):
+                    vals[j] += (a[:, m, :ke] * e) @ jm[m, :ke]
         vals = vals.transpose(2, 0, 1)
         r = np.sqrt(rho[:, None] ** 2 + hs[None, :] ** 2)
         self.values = vals * (r * np.exp(1j * k0 * r))[..., None]
