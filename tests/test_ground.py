@@ -278,3 +278,13 @@ def test_complex_horizontal_moment_along_y_is_the_x_result_turned():
     ex, hx = g.reflected_dipole_fields(K0, eps, src, np.array([1j, 0, 0]), turned)
     rot = np.array([[0.0, -1.0, 0.0], [1.0, 0.0, 0.0], [0.0, 0.0, 1.0]])
     assert np.allclose(ey, ex @ rot.T, rtol=1e-9, atol=1e-12) and np.allclose(hy, hx @ rot.T, rtol=1e-9, atol=1e-12)
+
+
+def test_a_feedline_shield_into_real_soil_is_refused():
+    spec = WireAntennaSpec.model_validate({
+        "ground": "real", "soil": "wet-ground",
+        "wires": [{"label": "d", "points_m": [[-5.0, 0, 8.0], [5.0, 0, 8.0]], "radius_m": 0.001}],
+        "feeds": [{"wire": "d"}],
+        "shield": {"joins": "start-side", "route_m": [[0, 0, 1.0], [2.0, 0, 0.0]], "radius_m": 0.004, "far_end": "ground"}})
+    with pytest.raises(InputError, match=r"^shield\.route_m\[1\]: .* is on or below the real ground"):
+        solve(spec, F_DIPOLE_HZ)

@@ -112,6 +112,11 @@ def check_shield(spec, feed_wires: tuple[int, ...], *, prefix: str = "") -> None
             j = int(np.argmax(z[:-1] <= _TOL_M))
             raise bad_value(f"{path}.route_m[{j}]", sh.route_m[j],
                             "touches the ground at an interior point of the route (only its far end may)")
+    if spec.ground == "real" and np.any(z <= 0):
+        j = int(np.argmax(z <= 0))
+        raise bad_value(f"{path}.route_m[{j}]", sh.route_m[j],
+                        "is on or below the real ground (accepted: z > 0 m; a connection into the soil is not "
+                        "modelled: end the route above it with far_end = \"open\", or use ground = \"perfect\")")
     on_ground = spec.ground == "perfect" and z[-1] <= _TOL_M
     if sh.far_end == "ground" and not on_ground:
         raise bad_value(f"{path}.far_end", sh.far_end,
