@@ -13,7 +13,20 @@ chokes) are in :mod:`rfsafe.antenna.wire.loads`; the coax shield's outer surface
 import rfsafe.station  # noqa: F401,E402
 from rfsafe.antenna.wire.model import (ChokeSpec, FeedSpec, LoadSpec, PointSpec, ShieldSpec, WireAntennaSpec,
                                        WireFile, WireSpec, check_wire_antenna, load_wire_file, validate_wire_antenna)
-from rfsafe.antenna.wire.solver import WireSolution, solve
+
+# The solver (and with it the kernels, loads and geometry) loads on first use: a station file without
+# wire antennas, and ``rfsafe --help``, never pay for it.
+_LAZY = {"WireSolution": "rfsafe.antenna.wire.solver", "solve": "rfsafe.antenna.wire.solver"}
+
+
+def __getattr__(name):
+    if name in _LAZY:
+        import importlib
+
+        value = getattr(importlib.import_module(_LAZY[name]), name)
+        globals()[name] = value
+        return value
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 __all__ = ["WireAntennaSpec", "WireSpec", "FeedSpec", "LoadSpec", "ShieldSpec", "ChokeSpec", "PointSpec", "WireFile",
            "WireSolution", "solve",
