@@ -427,8 +427,11 @@ class WireSolution:
         else:
             e, h = near_fields(self.structure, self.k, self.segment_current_a, pts)
             if key is not None:
-                if len(self._unit_fields) >= _FIELD_CACHE_ENTRIES:
-                    self._unit_fields.pop(next(iter(self._unit_fields)))
+                kept = self._unit_fields
+                kept["points"] = kept.get("points", 0) + len(pts)
+                while kept["points"] > _FIELD_CACHE_POINTS and len(kept) > 1:   # oldest first
+                    old = next(k for k in kept if k != "points")
+                    kept["points"] -= len(kept.pop(old)[0])
                 for a in (e, h):
                     a.setflags(write=False)
                 self._unit_fields[key] = (e, h)
@@ -631,9 +634,8 @@ def solve(spec, freq_hz: float, *, field_prefix: str = "", enforce_limits: bool 
         shield=geo.shield, ground_method=_ground_method(spec, st), ground_wave_bound_gain_dbi=gw_gain)
 
 
-#: Near fields kept per solution for point sets up to this size, and at most this many sets.
-_FIELD_CACHE_POINTS = 20_000
-_FIELD_CACHE_ENTRIES = 64
+#: Unit-excitation near fields kept per solution: at most this many points in all (about 100 bytes each).
+_FIELD_CACHE_POINTS = 200_000
 #: Solutions kept by solve_shared (least recently used dropped), only up to this many unknowns.
 _SHARED_ENTRIES = 8
 _SHARED_MAX_UNKNOWNS = 600
