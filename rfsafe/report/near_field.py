@@ -166,14 +166,25 @@ def _place_labels(ax, marks, obstacle_xy, renderer, colors=None):
             (-6, -5, "right", "top"), (0, 8, "center", "bottom"), (0, -8, "center", "top")]
     # then farther out, so that a crowded marker still finds a free spot close by
     offsets = near + [(dx * k, dy * k, ha, va) for k in (2, 3) for dx, dy, ha, va in near]
+    px_per_pt = ax.figure.dpi / 72.0
+
+    def annotate(k, x, y, text, dx, dy, ha, va):
+        return ax.annotate(text, (x, y), xytext=(dx, dy), textcoords="offset points", ha=ha, va=va, fontsize=7.5,
+                           fontweight="bold", color=colors[k] if colors else "black",
+                           zorder=12, bbox=dict(boxstyle="round,pad=0.18", facecolor="white", edgecolor="none",
+                                                alpha=0.85))
+
     for k, (x, y, text) in enumerate(marks):
         best = None
+        made = {}     # (ha, va) -> (annotation, dx, dy, box): farther offsets of one alignment are translations
         for dx, dy, ha, va in offsets:
-            t = ax.annotate(text, (x, y), xytext=(dx, dy), textcoords="offset points", ha=ha, va=va, fontsize=7.5,
-                            fontweight="bold", color=colors[k] if colors else "black",
-                            zorder=12, bbox=dict(boxstyle="round,pad=0.18", facecolor="white", edgecolor="none",
-                                                 alpha=0.85))
-            box = t.get_window_extent(renderer).expanded(1.04, 1.1)
+            if (ha, va) not in made:
+                t = annotate(k, x, y, text, dx, dy, ha, va)
+                made[(ha, va)] = (t, dx, dy, t.get_window_extent(renderer).expanded(1.04, 1.1))
+                box = made[(ha, va)][3]
+            else:
+                _, dx0, dy0, box0 = made[(ha, va)]
+                box = box0.translated((dx - dx0) * px_per_pt, (dy - dy0) * px_per_pt)
             pad = 3
             inside = (box.x0 >= axbox.x0 + pad and box.x1 <= axbox.x1 - pad and box.y0 >= axbox.y0 + pad
                       and box.y1 <= axbox.y1 - pad)
@@ -188,13 +199,16 @@ def _place_labels(ax, marks, obstacle_xy, renderer, colors=None):
                         and by0 <= taken_boxes[i][3] and taken_boxes[i][1] <= by1)
             score = (0 if inside else 1, hits)
             if best is None or score < best[0]:
-                if best is not None:
-                    best[1].remove()
-                best = (score, t, box)
-            else:
-                t.remove()
+                best = (score, (dx, dy, ha, va), box)
             if score == (0, 0):
                 break
+        dx, dy, ha, va = best[1]
+        keep = made[(ha, va)][0] if made[(ha, va)][1:3] == (dx, dy) else None
+        for t, *_ in made.values():
+            if t is not keep:
+                t.remove()
+        if keep is None:
+            annotate(k, x, y, text, dx, dy, ha, va)
         box_index.add(len(taken_boxes), *best[2].extents)
         taken_boxes.append(tuple(best[2].extents))
 
