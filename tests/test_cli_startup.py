@@ -48,7 +48,8 @@ def test_version():
 def test_unknown_command_is_one_error_line():
     result = CliRunner().invoke(app, ["frobnicate"])
     assert result.exit_code == 2
-    assert result.stderr.strip().splitlines() == ["Error: No such command 'frobnicate'."]
+    # the field form of every input error: the word the user typed, what is accepted
+    assert result.stderr.strip().splitlines() == ['Error: COMMAND: "frobnicate" is not an rfsafe command (see rfsafe --help)']
 
 
 def test_one_blas_thread_by_default_and_the_user_wins():
