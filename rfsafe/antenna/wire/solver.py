@@ -420,11 +420,15 @@ class WireSolution:
         """
         from rfsafe.antenna.wire.fields import check_points, near_fields
 
-        pts = check_points(self, points_m, field=field)
-        key = (pts.shape, pts.tobytes()) if pts.size <= 3 * _FIELD_CACHE_POINTS else None
-        if key is not None and key in self._unit_fields:
+        try:
+            raw = np.asarray(points_m, dtype=float)
+            key = (raw.shape, raw.tobytes()) if raw.size <= 3 * _FIELD_CACHE_POINTS else None
+        except (TypeError, ValueError):
+            key = None
+        if key is not None and key in self._unit_fields:   # these points passed check_points before
             e, h = self._unit_fields[key]
         else:
+            pts = check_points(self, points_m, field=field)
             e, h = near_fields(self.structure, self.k, self.segment_current_a, pts)
             if key is not None:
                 kept = self._unit_fields
