@@ -213,19 +213,40 @@ class Axes:
         x1, y1, x2, y2 = box
         return x1 >= self.x0 and x2 <= self.x0 + self.w and y1 >= self.y0 and y2 <= self.y0 + self.h
 
-    def _conflicts(self, box) -> int:
+    def _conflicts(self, box, stop_at: float = math.inf) -> int:
+        """Markers, labels and curves the box meets; counting stops once it reaches ``stop_at``."""
         x1, y1, x2, y2 = box
         boxes, segments = self._boxes, self._segments
-        n = sum(1 for i in self._box_index.near(x1, y1, x2, y2)
-                if not (x2 <= boxes[i][0] or x1 >= boxes[i][2] or y2 <= boxes[i][1] or y1 >= boxes[i][3]))
-        return n + sum(1 for i in self._segment_index.near(x1, y1, x2, y2) if _segment_hits_box(segments[i], box))
+        n = 0
+        for i in self._box_index.near(x1, y1, x2, y2):
+            if not (x2 <= boxes[i][0] or x1 >= boxes[i][2] or y2 <= boxes[i][1] or y1 >= boxes[i][3]):
+                n += 1
+                if n >= stop_at:
+                    return n
+        for i in self._segment_index.near(x1, y1, x2, y2):
+            if _segment_hits_box(segments[i], box):
+                n += 1
+                if n >= stop_at:
+                    return n
+        return n
+
+    def _fewest_conflicts(self, boxes):
+        """The first box with the fewest conflicts (later boxes are counted only up to the best so far)."""
+        best, best_n = None, math.inf
+        for b in boxes:
+            n = self._conflicts(b, stop_at=best_n)
+            if n < best_n:
+                best, best_n = b, n
+                if n == 0:
+                    break
+        return best
 
     def _add_box(self, box) -> None:
         self._box_index.add(len(self._boxes), *box)
         self._boxes.append(box)
 
     def _box_is_free(self, box) -> bool:
-        return self._box_in_frame(box) and self._conflicts(box) == 0
+        return self._box_in_frame(box) and self._conflicts(box, stop_at=1) == 0
 
     def segment(self, x1, y1, x2, y2, *, color, width=1.0, dash=None):
         """A straight segment in scale space (straight on the page), clipped to the plot area."""
@@ -305,7 +326,7 @@ class Axes:
         box = next((b for b in boxes if self._box_is_free(b)), None)
         if box is None:          # nothing clear: the in-frame candidate with the fewest conflicts
             inside = [b for b in boxes if self._box_in_frame(b)] or boxes
-            box = min(inside, key=self._conflicts)
+            box = self._fewest_conflicts(inside)
         if backing:
             self.d.add(Rect(box[0] - 0.8, box[1], box[2] - box[0] + 1.6, box[3] - box[1],
                             fillColor=colors.white, strokeColor=None))
