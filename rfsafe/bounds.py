@@ -142,6 +142,9 @@ _BY_SUFFIX = (
 )
 #: Any other number: a magnitude no input of rfsafe needs.
 MAX_ANY_NUMBER = 1e12
+#: Lowest frequency [MHz]: 3 kHz, the lower end of the radio spectrum (ITU Radio Regulations, common
+#: practice). Below it nothing here applies, and a wire antenna would be a vanishing fraction of a wavelength.
+MIN_FREQ_MHZ = 0.003
 #: Longest lists by field name; any other list holds at most MAX_LIST_ITEMS.
 _LIST_BOUNDS = {
     "places": MAX_PLACES, "points": MAX_PLACES, "configurations": MAX_CONFIGURATIONS,
@@ -196,6 +199,10 @@ def field_bound_problem(name: str, value: Any) -> str | None:
             shown = f"{x:g}" if isinstance(x, float) else str(x)
             lead = f"has {shown} at {where}, " if where else "is "
             return f"{lead}out of range (accepted: magnitude at most {hi:g}{' ' + unit if unit else ''})"
+        if name.endswith("_mhz") and 0 < abs(x) < MIN_FREQ_MHZ:
+            shown = f"{x:g}" if isinstance(x, float) else str(x)
+            lead = f"has {shown} at {where}, " if where else "is "
+            return f"{lead}out of range (accepted: frequencies of at least {MIN_FREQ_MHZ:g} MHz)"
     return None
 
 
@@ -223,6 +230,7 @@ def bounds_table() -> tuple[tuple[str, str], ...]:
              "_minutes": "times (`*_minutes`)", "_q": "quality factors (`*_q`)", "_v_peak": "voltages (`*_v_peak`)"}
     for suffix, hi, unit in _BY_SUFFIX:
         if suffix in names:
-            rows.append((names[suffix], f"magnitude <= {hi:g}{' ' + unit if unit else ''}"))
+            low = f"{MIN_FREQ_MHZ:g} MHz <= " if suffix == "_mhz" else ""
+            rows.append((names[suffix], f"{low}magnitude <= {hi:g}{' ' + unit if unit else ''}"))
     rows.append(("any other number", f"magnitude <= {MAX_ANY_NUMBER:g}"))
     return tuple(rows)

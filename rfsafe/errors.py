@@ -37,6 +37,10 @@ def format_value(value: object) -> str:
         text = json.dumps(value, ensure_ascii=False, default=str)
     except (TypeError, ValueError, RecursionError):
         text = repr(value) if not isinstance(value, (list, dict)) else f"<{type(value).__name__}>"
+    # Line and paragraph separators and other control characters are shown escaped, so that an error
+    # stays one line whatever the user typed (json.dumps keeps U+0085, U+2028 and U+2029 raw).
+    text = "".join(ch if ch.isprintable() or ch == " " else ch.encode("unicode_escape").decode("ascii")
+                   for ch in text)
     if len(text) > MAX_SHOWN_CHARS:
         text = text[:MAX_SHOWN_CHARS - 3] + "..."
     return text

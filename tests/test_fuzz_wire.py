@@ -40,6 +40,8 @@ def test_valid_bases_solve():
 
 @fuzz_settings(120)
 @given(mutated(INVERTED_V) | mutated(GROUND_PLANE))
+@example({**INVERTED_V, "freq_mhz": 1e-300})   # found by the fuzz: overflow warnings in the kernel
+@example({**INVERTED_V, "freq_mhz": "\x85"})   # found by the fuzz: a Unicode line break split the Error line
 def test_wire_file_mutations(doc):
     _run(doc)
 
