@@ -253,3 +253,38 @@ def test_sparse_projection_is_the_dense_product():
         idx = rng.choice(2 * ns, size=rng.integers(1, 4), replace=False)
         p[idx, n] = rng.choice([-1.0, 1.0], size=len(idx))
     assert np.allclose(_project(s, p), p.T @ s @ p, rtol=1e-13, atol=1e-12)
+
+
+def _prescribed_sinusoid(s, ground=False):
+    """Structure of ``s`` and segment-end currents I0 sin k(h - |z - z_feed|) (I0 = 1 A), h the arm length."""
+    from rfsafe.antenna.wire.geometry import build_structure
+    from rfsafe.antenna.wire.model import check_wire_antenna
+
+    st = build_structure(s, F_HZ, check_wire_antenna(s))
+    z0 = 0.0 if ground else 0.5 * (st.start_m[:, 2].min() + st.end_m[:, 2].max())
+    h = st.end_m[:, 2].max() - z0
+
+    def cur(z):
+        return np.sin(K * (h - np.abs(z - z0)))
+
+    return st, np.column_stack([cur(st.start_m[:, 2]), cur(st.end_m[:, 2])]).astype(complex)
+
+
+def test_radiated_power_check_of_a_sinusoidal_half_wave_dipole_is_the_induced_emf_resistance():
+    # Balanis, Antenna Theory, 3rd ed., Sec. 4.6: a sinusoidal current of 1 A peak on a thin half-wave
+    # dipole radiates R/2 with R = eta/(4 pi) Cin(2 pi) = 73.1 ohm (the induced-EMF radiation resistance).
+    from rfsafe.antenna.wire.solver import _radiated_power
+
+    st, seg_i = _prescribed_sinusoid(spec([dipole(0.5, 1e-5, 21)], [{"wire": 0}]))
+    assert _radiated_power(st, K, seg_i) == pytest.approx(0.5 * Z_HALF_WAVE_EMF.real, rel=1e-6)
+
+
+def test_radiated_power_check_of_a_sinusoidal_monopole_over_perfect_ground_is_half_the_dipole():
+    # Image theory (Balanis Sec. 4.7): a quarter-wave monopole on a perfect ground radiates half what the
+    # half-wave dipole of the same current radiates (R = 36.6 ohm).
+    from rfsafe.antenna.wire.solver import _radiated_power
+
+    s = spec([{"points_m": [[0.0, 0.0, 0.0], [0.0, 0.0, 0.25]], "radius_m": 1e-5, "segments": 11}],
+             [{"wire": 0, "position": 0.0}], ground="perfect")
+    st, seg_i = _prescribed_sinusoid(s, ground=True)
+    assert _radiated_power(st, K, seg_i) == pytest.approx(0.25 * Z_HALF_WAVE_EMF.real, rel=1e-6)
