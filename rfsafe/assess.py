@@ -153,7 +153,7 @@ def _near_field_map(cid, ant: Antenna, solution, limits, avg_ant, pep_ant, loade
     return NearFieldMap(
         configuration=cid, antenna=ant.id,
         plane=f"horizontal, worst over heights {MAP_BODY_HEIGHTS_M[0]:g}-{MAP_BODY_HEIGHTS_M[-1]:g} m above ground"
-              + (f"; {WIRE_GROUND_BOUND}" if twin is not None else ""),
+              + ("; worse of free space/perfect ground" if twin is not None else ""),
         x_m=tuple(float(v) for v in x), y_m=tuple(float(v) for v in y), heights_m=MAP_BODY_HEIGHTS_M,
         wire_paths_m=tuple(tuple((float(p[0]), float(p[1])) for p in w.points_m) for w in spec.wires),
         max_e_ratio={env: float(np.nanmax(e_ratio[env])) for env in ENVIRONMENTS},
