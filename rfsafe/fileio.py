@@ -224,7 +224,18 @@ class OutputSet:
         except BaseException:
             if journal is None:
                 self.discard()
-            raise  # with a journal, the next run finishes the renames
+                raise
+            # Interrupted between the journal and the last rename (Ctrl-C, SIGTERM): every temporary is
+            # complete, so finish the renames now; if that fails too, the journal lets the next run do it.
+            try:
+                for tmp, final in pairs:
+                    if os.path.exists(tmp):
+                        os.replace(tmp, final)
+                journal.unlink()
+                self._temps.clear()
+            except OSError:
+                pass
+            raise
         self._temps.clear()
         if journal is not None:
             with contextlib.suppress(OSError):
