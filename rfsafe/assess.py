@@ -1006,8 +1006,8 @@ def assess_with_emitters(loaded: LoadedStation, *, today: dt.date | None = None,
         "lambda/2pi (or 2D^2/lambda for an aperture) are flagged: far-field estimate.",
         *(("Wire antennas: places within max(lambda/2pi, 2D^2/lambda) of any part of the wires are evaluated "
            "with the moment-method solver; beyond it the far-field estimate from the nearest wire point is never "
-           "below the solver's value; a wire declared over free space is also solved over a perfect ground and "
-           "the worse governs (a bound: real soil lies between the two); a wire declared over real ground "
+           "below the solver's value; a wire declared over free space, or over a perfect ground without touching "
+           "it, is solved over both and the worse governs (a bound: real soil lies between the two); a wire declared over real ground "
            "(ground = \"real\" with its soil) is solved over that soil instead (Sommerfeld integrals), without the "
            "bound.",)
           if any(c.wire is not None for c in configs) else ()),
