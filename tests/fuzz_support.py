@@ -41,6 +41,17 @@ PROFILE = os.environ.get("RFSAFE_FUZZ", "ci")
 FUZZ = settings.get_profile(PROFILE)
 
 
+def work_dir(prefix: str) -> Path:
+    """A temporary folder for one fuzz module, removed when the test process exits."""
+    import atexit
+    import shutil
+    import tempfile
+
+    folder = Path(tempfile.mkdtemp(prefix=prefix))
+    atexit.register(shutil.rmtree, folder, True)
+    return folder
+
+
 def fuzz_settings(ci_examples: int) -> settings:
     """FUZZ with fewer examples in the "ci" profile, for inputs that take long to evaluate (sites, wires)."""
     return settings(FUZZ, max_examples=ci_examples if PROFILE == "ci" else FUZZ.max_examples)

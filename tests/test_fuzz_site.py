@@ -8,18 +8,26 @@ failure the fuzz ever found is kept below as an explicit case.
 from __future__ import annotations
 
 import shutil
-import tempfile
-from pathlib import Path
 
 import pytest
+from fuzz_support import (
+    DATA,
+    DEMO,
+    damaged_text,
+    fuzz_settings,
+    mutated,
+    read,
+    run_file,
+    to_toml,
+    work_dir,
+)
 from hypothesis import given
 from hypothesis import strategies as st
 
-from fuzz_support import DATA, DEMO, damaged_text, fuzz_settings, mutated, read, run_file, to_toml
 from rfsafe.site.schema import Site
 
 FIELDS = tuple(Site.model_fields) + ("--standard", "-o", "--csv")
-WORK = Path(tempfile.mkdtemp(prefix="rfsafe-fuzz-site-"))
+WORK = work_dir("rfsafe-fuzz-site-")
 for _name in ("demo_station.toml", "event_field_day_vhf.toml"):
     shutil.copy(DEMO / _name, WORK / _name)
 

@@ -8,18 +8,25 @@ the fuzz ever found is kept below as an explicit case.
 
 from __future__ import annotations
 
-import tempfile
-from pathlib import Path
-
 import pytest
-from hypothesis import example, given
+from fuzz_support import (
+    DATA,
+    DEMO,
+    FUZZ,
+    damaged_text,
+    mutated,
+    read,
+    run_file,
+    to_toml,
+    work_dir,
+)
+from hypothesis import given
 from hypothesis import strategies as st
 
-from fuzz_support import DATA, DEMO, FUZZ, damaged_text, mutated, read, run_file, to_toml
 from rfsafe.station.schema import Station
 
 FIELDS = tuple(Station.model_fields) + ("--standard",)
-WORK = Path(tempfile.mkdtemp(prefix="rfsafe-fuzz-station-"))
+WORK = work_dir("rfsafe-fuzz-station-")
 
 MINIMAL = read(DATA / "station_minimal.toml")
 DEMO_STATION = read(DEMO / "demo_station.toml")

@@ -7,19 +7,25 @@ Every failure the fuzz ever found is kept below as an explicit case.
 
 from __future__ import annotations
 
-import tempfile
-from pathlib import Path
-
 import pytest
+from fuzz_support import (
+    DEMO,
+    damaged_text,
+    fuzz_settings,
+    mutated,
+    read,
+    run_file,
+    to_toml,
+    work_dir,
+)
 from hypothesis import example, given
 from hypothesis import strategies as st
 
-from fuzz_support import DEMO, damaged_text, fuzz_settings, mutated, read, run_file, to_toml
 from rfsafe.antenna.wire.model import WireFile
 from rfsafe.station.schema import Station
 
 FIELDS = tuple(WireFile.model_fields)
-WORK = Path(tempfile.mkdtemp(prefix="rfsafe-fuzz-wire-"))
+WORK = work_dir("rfsafe-fuzz-wire-")
 
 INVERTED_V = read(DEMO / "wire_inverted_v_40m.toml")
 GROUND_PLANE = read(DEMO / "wire_ground_plane_20m.toml")
