@@ -9,7 +9,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import Any
 
-__all__ = ["FigureCheck", "ComplianceDistance", "AntennaSummary", "PlanMap", "WireSummary", "NearFieldMap", "FeedlineShieldResult", "ConfigurationResult", "PlaceExposure", "TransmitterShare",
+__all__ = ["VerdictPair", "FigureCheck", "ComplianceDistance", "AntennaSummary", "PlanMap", "WireSummary", "NearFieldMap", "FeedlineShieldResult", "ConfigurationResult", "PlaceExposure", "TransmitterShare",
            "PlaceResult", "EvaluationResult", "CAUTIONS", "Remedy", "PlaceRemedies", "ConfigurationRemedies",
            "GroundKeepOut", "QuickAnswer", "SiteRemedy", "EXPOSURE_VERDICTS", "EQUIPMENT_VERDICTS", "EXIT_COMPLIES",
            "EXIT_EXPOSURE_EXCEEDED", "EXIT_EQUIPMENT_EXCEEDED", "EXIT_NOT_EVALUATED", "EXIT_STATUS_HELP", "exit_status",
@@ -46,6 +46,21 @@ def exit_status(exposure_verdict: str, equipment_verdict: str) -> int:
 def verdict_headline(exposure_verdict: str, equipment_verdict: str) -> str:
     """Both verdicts in one line, e.g. ``EXPOSURE COMPLIES · EQUIPMENT RATING EXCEEDED``."""
     return f"EXPOSURE {exposure_verdict} · EQUIPMENT {equipment_verdict}"
+
+
+class VerdictPair:
+    """The headline and exit status of a result with ``exposure_verdict`` and ``equipment_verdict``
+    (station evaluations and site reviews alike)."""
+
+    @property
+    def verdict(self) -> str:
+        """Both verdicts in one headline (page headers; not a third verdict, not in the JSON)."""
+        return verdict_headline(self.exposure_verdict, self.equipment_verdict)
+
+    @property
+    def exit_code(self) -> int:
+        """Exit status of ``evaluate``/``report``/``site`` (see :data:`EXIT_STATUS_HELP`)."""
+        return exit_status(self.exposure_verdict, self.equipment_verdict)
 
 
 #: Cautions carried by every output (in rfsafe's own words).
@@ -404,7 +419,7 @@ QuickAnswer.NONFINITE_NOTES = {"largest_pep_w": "no power up to a million times 
 
 
 @dataclass(frozen=True)
-class EvaluationResult:
+class EvaluationResult(VerdictPair):
     """The whole evaluation of one station file."""
 
     title: str
@@ -453,12 +468,4 @@ class EvaluationResult:
                 "not_fcc" if self.standard != "fcc" else "no_places")
         object.__setattr__(self, "exemption_case", case)
 
-    @property
-    def verdict(self) -> str:
-        """Both verdicts in one headline (page headers; not a third verdict, not in the JSON)."""
-        return verdict_headline(self.exposure_verdict, self.equipment_verdict)
 
-    @property
-    def exit_code(self) -> int:
-        """Exit status of ``evaluate``/``report`` (see :data:`EXIT_STATUS_HELP`)."""
-        return exit_status(self.exposure_verdict, self.equipment_verdict)

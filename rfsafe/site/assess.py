@@ -17,6 +17,7 @@ from rfsafe.site.constants import ENVIRONMENTS, ROPE_STEP_M
 from rfsafe.site.geometry import Area, points_in_polygon
 from rfsafe.site.grid import SiteEmitter
 from rfsafe.verification import figure_checks
+from rfsafe.results import VerdictPair
 
 #: Cautions specific to event sites, printed after the general ones.
 SITE_CAUTIONS = (
@@ -47,7 +48,7 @@ class SiteStationResult:
 
 
 @dataclass(frozen=True)
-class SiteResult:
+class SiteResult(VerdictPair):
     """The whole review of one site file (no I/O, no formatting)."""
 
     title: str
@@ -89,20 +90,6 @@ class SiteResult:
     #: every published figure the review used (limits, duty factors, cables ...), and whether it was read
     #: in its published text (rfsafe.verification)
     data_verification: tuple = ()
-
-    @property
-    def verdict(self) -> str:
-        """Both verdicts in one headline (page headers; not in the JSON)."""
-        from rfsafe.results import verdict_headline
-
-        return verdict_headline(self.exposure_verdict, self.equipment_verdict)
-
-    @property
-    def exit_code(self) -> int:
-        """Exit status of ``site``: as ``evaluate`` (rfsafe.results.EXIT_STATUS_HELP)."""
-        from rfsafe.results import exit_status
-
-        return exit_status(self.exposure_verdict, self.equipment_verdict)
 
 
 def limit_equivalent_w_m2(limits, power_w: float, pep_w: float) -> float:

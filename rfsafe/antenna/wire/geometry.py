@@ -360,6 +360,22 @@ def build_structure(spec, freq_hz: float, feed_wires: tuple[int, ...], *, prefix
         for h, sgn in entries:
             p_mat[h, m] += sgn
 
+    def gap_row(row: np.ndarray, i: int, j: int, field: str, value) -> None:
+        """Current through a gap at node j of wire i per basis amplitude (feeds and lumped loads)."""
+        if 0 < j < len(wire_nodes[i]) - 1:
+            row[interior_basis[(i, j)]] = 1.0
+            return
+        a = 2 * i + (0 if j == 0 else 1)
+        if not end_bases[a]:
+            raise bad_value(field, value, f"is a free end of wire {labels[i]!r}, where no current flows (accepted: "
+                                          "0 < position < 1, or an end joined to other wires or touching a perfect "
+                                          "ground)")
+        h_end, _ = end_half(a, True)
+        for m in end_bases[a]:
+            for h, sgn in bases[m]:
+                if h == h_end:
+                    row[m] = sgn
+
     nf = len(spec.feeds)
     g = np.zeros((nf, nb))
     volts = np.zeros(nf, dtype=complex)
@@ -367,40 +383,15 @@ def build_structure(spec, freq_hz: float, feed_wires: tuple[int, ...], *, prefix
     for f, feed in enumerate(spec.feeds):
         i = feed_wires[f]
         j = feed_nodes_by_wire[i][f]
-        last = len(wire_nodes[i]) - 1
         fpos[f] = wire_nodes[i][j]
         volts[f] = feed.amplitude * np.exp(1j * math.radians(feed.phase_deg))
-        if 0 < j < last:
-            g[f, interior_basis[(i, j)]] = 1.0
-            continue
-        a = 2 * i + (0 if j == 0 else 1)
-        if not end_bases[a]:
-            raise bad_value(f"{prefix}feeds[{f}].position", feed.position,
-                            f"is a free end of wire {labels[i]!r}, where no current flows (accepted: "
-                            "0 < position < 1, or an end joined to other wires or touching a perfect ground)")
-        h_end, _ = end_half(a, True)
-        for m in end_bases[a]:
-            for h, sgn in bases[m]:
-                if h == h_end:
-                    g[f, m] = sgn
+        gap_row(g[f], i, j, f"{prefix}feeds[{f}].position", feed.position)
     # Lumped loads: the current through a gap at a node, built as for a feed.
     gl = np.zeros((len(load_places), nb))
     lpos = np.zeros((len(load_places), 3))
     for n, (i, j) in sorted(load_nodes.items()):
         lpos[n] = wire_nodes[i][j]
-        if 0 < j < len(wire_nodes[i]) - 1:
-            gl[n, interior_basis[(i, j)]] = 1.0
-            continue
-        a = 2 * i + (0 if j == 0 else 1)
-        if not end_bases[a]:
-            raise bad_value(f"{prefix}loads[{n}].position", load_places[n][1],
-                            f"is a free end of wire {labels[i]!r}, where no current flows (accepted: "
-                            "0 < position < 1, or an end joined to other wires or touching a perfect ground)")
-        h_end, _ = end_half(a, True)
-        for m in end_bases[a]:
-            for h, sgn in bases[m]:
-                if h == h_end:
-                    gl[n, m] = sgn
+        gap_row(gl[n], i, j, f"{prefix}loads[{n}].position", load_places[n][1])
     if nb == 0:
         raise InputError(f"{prefix}wires: the structure carries no current (every wire end is free and "
                          "no wire has an interior node)")
