@@ -13,7 +13,7 @@ import numpy as np
 
 from rfsafe import __version__
 from rfsafe import exposure as ex
-from rfsafe.errors import bad_value
+from rfsafe.errors import InputError, bad_value
 from rfsafe.limits import ENVIRONMENTS, limits_at, standard_info
 from rfsafe.power import average_power_w, eirp_w, erp_w, mode_duty_factor, window_fill
 from rfsafe.results import (CAUTIONS, ComplianceDistance, ConfigurationResult, EvaluationResult,
@@ -23,7 +23,7 @@ from rfsafe.station.schema import Antenna, Configuration, Feedline, Station
 from rfsafe.units import DIPOLE_GAIN_DBI, M_PER_FT
 from rfsafe.verification import figure_checks
 
-__all__ = ["assess", "assess_with_emitters", "Emitter", "emitters", "peak_gain_dbi", "NEAR_FIELD_FLAG"]
+__all__ = ["assess", "assess_with_emitters", "place_totals", "Emitter", "emitters", "peak_gain_dbi", "NEAR_FIELD_FLAG"]
 
 NEAR_FIELD_FLAG = "far-field estimate; near-field analysis or measurement recommended"
 
@@ -303,7 +303,13 @@ def _line_result(station: Station, index: int, c: Configuration, f: Feedline, pe
                             exact_complex_z0=station.exact_line_loss, field=f"configurations[{index}]")
 
 
-def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_factor: float, maps: bool = True):
+def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_factor: float, maps: bool = True,
+                   lean: bool = False):
+    """One configuration's result and :class:`Emitter`.
+
+    ``lean`` leaves out what no place's exposure reads (a wire antenna's shell search for its compliance
+    distances, its lumped loads and its feedline-shield choke search): for :func:`place_totals`.
+    """
     st = loaded.model
     tx = next(t for t in st.transmitters if t.id == c.transmitter)
     fline = next(f for f in st.feedlines if f.id == c.feedline)
@@ -422,12 +428,12 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
             flags.append(f"{env} compliance distance {d:.2f} m (from the nearest part of {ant.id}) lies inside the "
                          f"near-field boundary "
                          f"{flag_dist:.2f} m: {NEAR_FIELD_FLAG}")
-    if solution is not None:
+    if solution is not None and not lean:
         sols = [x for x in (solution, twin) if x is not None]
         distances, wire_flags = _wire_compliance_distances(sols, limits, avg_ant, pep_ant, distances, flag_dist)
         flags.extend(wire_flags)
-    loads = _wire_loads(solution, pep_ant)
-    shield = _feedline_shield(loaded, ant, solution, limits, avg_ant, pep_ant, nf, twin=twin)
+    loads = () if lean else _wire_loads(solution, pep_ant)
+    shield = None if lean else _feedline_shield(loaded, ant, solution, limits, avg_ant, pep_ant, nf, twin=twin)
     exceeded = tuple(line.exceeded_parts) + tuple(
         f"lumped load {ld.label!r} on {ant.id} ({ld.voltage_v_peak:.4g} V peak at the PEP, rated "
         f"{ld.voltage_rating_v_peak:g} V peak)" for ld in loads if ld.voltage_headroom is not None
@@ -642,7 +648,6 @@ def _ground_bound_solution(loaded: LoadedStation, ant: Antenna, solution, freq_h
         return None
     other = "perfect" if declared == "free-space" else "free-space"
     from rfsafe.antenna.wire.solver import solve_shared as solve   # shared per antenna and frequency
-    from rfsafe.errors import InputError
 
     index = next(k for k, a in enumerate(loaded.model.antennas) if a.id == ant.id)
     spec = loaded.wire_specs[ant.id]
@@ -954,12 +959,13 @@ def assess(loaded: LoadedStation, *, today: dt.date | None = None) -> Evaluation
     return assess_with_emitters(loaded, today=today)[0]
 
 
-def assess_with_emitters(loaded: LoadedStation, *, today: dt.date | None = None, near_field_maps: bool = True
-                         ) -> tuple[EvaluationResult, list[Emitter]]:
+def assess_with_emitters(loaded: LoadedStation, *, today: dt.date | None = None, near_field_maps: bool = True,
+                         memo: dict | None = None) -> tuple[EvaluationResult, list[Emitter]]:
     """:func:`assess` and the configurations' :class:`Emitter` objects from the same computation.
 
     ``near_field_maps=False`` leaves out the wire antennas' near-field maps (plot data only; the
-    exposure at every place is the same), for the repeated evaluations of :mod:`rfsafe.remedies`.
+    exposure at every place is the same). A ``memo`` dict receives every configuration's emitter and
+    every place's exposures under their inputs, for later :func:`place_totals` calls on modified copies.
     """
     st = loaded.model
     info = standard_info(st.standard)
@@ -967,6 +973,10 @@ def assess_with_emitters(loaded: LoadedStation, *, today: dt.date | None = None,
     pairs = [_configuration(loaded, i, c, gf, near_field_maps) for i, c in enumerate(st.configurations)]
     configs = tuple(p[0] for p in pairs)
     ems = [p[1] for p in pairs]
+    keys = [_configuration_key(loaded, c) for c in st.configurations] if memo is not None else None
+    if keys is not None:
+        for k, pair in zip(keys, pairs):
+            memo[k] = (True, pair)
     by_id = {c.id: c for c in configs}
     places = []
     exceeded = []
@@ -976,6 +986,10 @@ def assess_with_emitters(loaded: LoadedStation, *, today: dt.date | None = None,
     for pi_, place in enumerate(st.places):
         exposures = tuple(_place_exposure(em, loaded, pi_, place, by_id[em.configuration], em.solution)
                           for em in ems)
+        if keys is not None:
+            pk = place.model_dump_json()
+            for k, x in zip(keys, exposures):
+                memo[(k, pk)] = (True, x)
         total, shares, rule = _totals(exposures, st)
         verdict = "complies" if total <= 1.0 else "exceeds"
         if verdict == "exceeds":
@@ -1024,6 +1038,63 @@ def assess_with_emitters(loaded: LoadedStation, *, today: dt.date | None = None,
         method_notes=notes, cautions=CAUTIONS, **_plan_fields(loaded, configs, ems, near_field_maps),
         data_verification=figure_checks(configs, tuple(places), exemption))
     return result, ems
+
+
+def _configuration_key(loaded: LoadedStation, c: Configuration) -> tuple:
+    """Everything a configuration's emitter and its exposure at a place depend on (for :func:`place_totals`)."""
+    st = loaded.model
+    tx = next(t for t in st.transmitters if t.id == c.transmitter)
+    fline = next(f for f in st.feedlines if f.id == c.feedline)
+    ant = next(a for a in st.antennas if a.id == c.antenna)
+    spec = loaded.wire_specs.get(ant.id)
+    return (st.standard, st.ground_reflection, st.exact_line_loss, st.near_field_spatial_average,
+            c.model_dump_json(), tx.model_dump_json(), fline.model_dump_json(), ant.model_dump_json(),
+            None if spec is None else spec.model_dump_json(), id(loaded.pattern_tables.get(ant.id)))
+
+
+def _memoised(memo: dict | None, key, compute):
+    """``compute()``, kept in ``memo`` under ``key`` (an input error is kept and raised again)."""
+    if memo is None:
+        return compute()
+    if key not in memo:
+        try:
+            memo[key] = (True, compute())
+        except InputError as err:
+            memo[key] = (False, err)
+    ok, value = memo[key]
+    if not ok:
+        raise value
+    return value
+
+
+def place_totals(loaded: LoadedStation, memo: dict | None = None) -> list[tuple[str, float]]:
+    """(label, total exposure ratio [1]) of every place, computed exactly as :func:`assess` computes it.
+
+    Nothing else is evaluated (no compliance-distance shells, loads, feedline-shield choke search,
+    exemption or plot data). With a ``memo`` dict (kept by the caller across calls, see
+    :func:`assess_with_emitters`), a configuration whose inputs are unchanged, and its exposure at an
+    unchanged place, are taken from it: the repeated evaluations of :mod:`rfsafe.remedies`, which change
+    one parameter at a time, then compute only what that parameter changes. The values are the same
+    numbers as a fresh evaluation gives (the same functions on the same inputs).
+
+    Raises
+    ------
+    InputError
+        Where :func:`assess` raises one (a place on a conductor, an implausible line loss).
+    """
+    st = loaded.model
+    gf = ex.GROUND_FACTORS[st.ground_reflection]
+    keys = [_configuration_key(loaded, c) for c in st.configurations] if memo is not None else [None] * len(
+        st.configurations)
+    pairs = [_memoised(memo, k, lambda i=i, c=c: _configuration(loaded, i, c, gf, False, lean=True))
+             for (i, c), k in zip(enumerate(st.configurations), keys)]
+    out = []
+    for pi_, place in enumerate(st.places):
+        pk = place.model_dump_json() if memo is not None else None
+        exposures = tuple(_memoised(memo, (k, pk), lambda cres=cres, em=em: _place_exposure(
+            em, loaded, pi_, place, cres, em.solution)) for k, (cres, em) in zip(keys, pairs))
+        out.append((place.label, _totals(exposures, st)[0]))
+    return out
 
 
 def _verdicts(configs, places) -> dict:

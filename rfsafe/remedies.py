@@ -198,38 +198,26 @@ def _only_place(loaded, label: str):
     return _with_model(loaded, places=[p for p in loaded.model.places if p.label == label])
 
 
+#: Emitters and place exposures of the station being answered, under their inputs (see
+#: :func:`rfsafe.assess.place_totals`); empty outside :func:`_reused_evaluations`.
+_memo: list[dict] = []
+
+
 @contextlib.contextmanager
-def _reused_wire_solutions():
-    """Within the block, repeated evaluations skip work whose result the remedies never read.
+def _reused_evaluations(memo: dict | None = None):
+    """Within the block, repeated evaluations reuse what the changed parameter leaves unchanged.
 
     The remedies re-evaluate the same station many times with only a power, a schedule, a height or a
-    place changed, and read only the places' total exposure ratios. So (1) a wire antenna solved once
-    at a frequency is not solved again (the moment-method solution depends on the geometry and the
-    frequency alone), and (2) the wire antennas' compliance-distance search (a configuration result,
-    not a place's exposure) is left out. Every place is still evaluated exactly as by ``evaluate``.
+    place changed, and read only the places' total exposure ratios (:func:`rfsafe.assess.place_totals`):
+    a configuration and a place the change leaves alone are not evaluated again. ``memo`` may come
+    filled from the first evaluation (:func:`rfsafe.assess.assess_with_emitters`).
     """
-    import rfsafe.antenna.wire as wire
-    import rfsafe.assess as assess_module
-
-    original = wire.solve
-    memo: dict = {}
-
-    def solve(spec, freq_hz, **kw):
-        key = (spec.model_dump_json(), float(freq_hz), tuple(sorted(kw.items())))
-        if key not in memo:
-            memo[key] = original(spec, freq_hz, **kw)
-        return memo[key]
-
-    wire.solve = solve
-    search = getattr(assess_module, "_wire_compliance_distances", None)
-    if search is not None:
-        assess_module._wire_compliance_distances = lambda sols, limits, avg, pep, distances, boundary: (distances, [])
+    outer = list(_memo)
+    _memo[:] = [memo if memo is not None else (outer[0] if outer else {})]
     try:
         yield
     finally:
-        wire.solve = original
-        if search is not None:
-            assess_module._wire_compliance_distances = search
+        _memo[:] = outer
 
 
 class _BudgetSpent(Exception):
@@ -244,17 +232,17 @@ def total_ratio(loaded, label: str | None = None) -> float:
 
     A station the change makes impossible to evaluate (a place on a conductor) counts as exceeding.
     """
-    from rfsafe.assess import assess_with_emitters
+    from rfsafe.assess import place_totals
 
     if _budget:
         if _budget[0] <= 0:
             raise _BudgetSpent
         _budget[0] -= 1
     try:
-        res, _ = assess_with_emitters(loaded, near_field_maps=False)
+        totals = place_totals(loaded, _memo[0] if _memo else None)
     except InputError:
         return math.inf
-    totals = [p.total_ratio for p in res.places if label is None or p.label == label]
+    totals = [t for name, t in totals if label is None or name == label]
     return max(totals) if totals else 0.0
 
 
@@ -471,7 +459,7 @@ def place_remedies(loaded, result: EvaluationResult) -> tuple[PlaceRemedies, ...
     Each remedy changes one thing, everything else as in the station file, and is solved with the full
     evaluation of that place (all transmitters that count there, summed as ``evaluate`` sums them).
     """
-    with _reused_wire_solutions():
+    with _reused_evaluations():
         return _place_remedies(loaded, result)
 
 
@@ -533,7 +521,7 @@ def configuration_remedies(loaded, result: EvaluationResult) -> tuple[Configurat
     """Per configuration: the largest PEP and average power, the schedule, the line loss and the antenna
     height with which every place complies (everything else unchanged). Where the station complies
     already, PEP and average power are the headroom. Empty without places."""
-    with _reused_wire_solutions():
+    with _reused_evaluations():
         return _configuration_remedies(loaded, result)
 
 
@@ -685,14 +673,16 @@ def with_answers(loaded, *, remedies: bool = True, near_field_maps: bool = True)
     """
     from rfsafe.assess import assess_with_emitters
 
-    result, ems = assess_with_emitters(loaded, near_field_maps=near_field_maps)
+    memo: dict = {}
+    result, ems = assess_with_emitters(loaded, near_field_maps=near_field_maps, memo=memo if remedies else None)
     keep = ground_keep_out(loaded, result, ems)
     if not remedies:
         return dataclasses.replace(result, ground_keep_out=keep)
     _budget[:] = [EVALUATION_BUDGET]
     try:
-        places = place_remedies(loaded, result)
-        configs = configuration_remedies(loaded, result)
+        with _reused_evaluations(memo):
+            places = place_remedies(loaded, result)
+            configs = configuration_remedies(loaded, result)
     finally:
         _budget.clear()
     return dataclasses.replace(result, ground_keep_out=keep, place_remedies=places, configuration_remedies=configs)
