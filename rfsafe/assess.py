@@ -23,7 +23,7 @@ from rfsafe.station.schema import Antenna, Configuration, Feedline, Station
 from rfsafe.units import DIPOLE_GAIN_DBI, M_PER_FT
 from rfsafe.verification import figure_checks
 
-__all__ = ["assess", "assess_with_emitters", "place_totals", "Emitter", "emitters", "peak_gain_dbi", "NEAR_FIELD_FLAG"]
+__all__ = ["assess", "assess_with_emitters", "place_totals", "place_ratios", "Emitter", "emitters", "peak_gain_dbi", "NEAR_FIELD_FLAG"]
 
 NEAR_FIELD_FLAG = "far-field estimate; near-field analysis or measurement recommended"
 
@@ -616,6 +616,105 @@ def _place_exposure(em: Emitter, loaded: LoadedStation, p_index: int, place, cre
         power_density_w_m2=s, e_field_v_m=e, h_field_a_m=h, exposure_ratio=r, governing=governing,
         margin_db=float(ex.margin_db(r)), method="far-field estimate", inside_near_field=inside, flags=flags,
         far_field_ratio=r, limit_source=lim.source, **_limit_values(lim), distance_basis=basis)
+
+
+def place_ratios(em: Emitter, loaded: LoadedStation, cres: ConfigurationResult, environment: str, xs, ys,
+                 heights) -> np.ndarray:
+    """Exposure ratio [1] of one configuration at many places (x, y) with the same heights and environment.
+
+    Each value is the ``exposure_ratio`` that :func:`_place_exposure` gives for that place (the same
+    functions on the same numbers, elementwise), computed for all places together: one nearest-part
+    distance and one pattern evaluation for every point, and for a wire antenna one near-field
+    computation per solution. ``inf`` where a place lies on or inside a conductor (the evaluation
+    refuses such a place). Used by the ground-level keep-out search (:mod:`rfsafe.remedies`).
+    """
+    xs = np.asarray(xs, dtype=float).ravel()
+    ys = np.asarray(ys, dtype=float).ravel()
+    hz = np.asarray(heights, dtype=float)
+    n, nh = len(xs), len(hz)
+    pts = np.column_stack([np.repeat(xs, nh), np.repeat(ys, nh), np.tile(hz, n)])
+    if em.solution is not None:
+        return _wire_place_ratios(em, loaded, cres, environment, pts, list(heights))
+    from rfsafe.antenna.extent import nearest_distance_m
+
+    limits = em.limits[environment]
+    dist_raw = nearest_distance_m(em.extent, pts)
+    dist = np.maximum(dist_raw, MIN_FAR_FIELD_DIST_M)
+    ant = em.antenna
+
+    def ratios(gains) -> np.ndarray:
+        best = np.full(len(pts), -np.inf)
+        for lim in limits:
+            p_ant = _power_for(lim, em.avg_power_at_antenna_w[environment], em.pep_at_antenna_w)
+            eirp = np.array([eirp_w(p_ant, g) for g in gains.tolist()])   # Python floats, as per place
+            r = np.asarray(ex.ratio_at(lim, ex.far_field_power_density_w_m2(eirp, dist, em.ground_factor)), dtype=float)
+            best = np.where(r > best, r, best)
+        return best.reshape(n, nh).max(axis=1)
+
+    if not ant.use_pattern:
+        return ratios(np.full(len(pts), em.peak_gain_dbi))
+    from rfsafe.antenna import patterns
+
+    index = next(k for k, a in enumerate(loaded.model.antennas) if a.id == ant.id)
+    direction = patterns.direction_in_antenna_frame(pts[:, 0] - em.x_m, pts[:, 1] - em.y_m, pts[:, 2] - em.height_m,
+                                                    azimuth_deg=ant.azimuth_deg, tilt_deg=ant.tilt_deg,
+                                                    polarisation=ant.polarisation)
+    g = patterns.pattern_gain_dbi(ant.kind, *direction, peak_gain_dbi=em.peak_gain_dbi,
+                                  front_to_back_db=ant.front_to_back_db, beamwidth_h_deg=ant.beamwidth_h_deg,
+                                  beamwidth_v_deg=ant.beamwidth_v_deg, table=loaded.pattern_tables.get(ant.id),
+                                  field=f"antennas[{index}]")
+    out = ratios(np.broadcast_to(np.asarray(g, dtype=float), (len(pts),)))
+    # a far-field pattern's nulls do not hold near the antenna: its peak gain is taken there
+    inside = dist_raw.reshape(n, nh).min(axis=1) < max(cres.near_field_distance_m, cres.aperture_far_field_m or 0.0)
+    if np.any(inside):
+        out = np.where(inside, ratios(np.full(len(pts), em.peak_gain_dbi)), out)
+    return out
+
+
+def _wire_place_ratios(em: Emitter, loaded: LoadedStation, cres: ConfigurationResult, env: str, pts: np.ndarray,
+                       heights: list[float]) -> np.ndarray:
+    """:func:`place_ratios` for a wire antenna (see :func:`_wire_place_exposure`, whose arithmetic it repeats)."""
+    from rfsafe.limits import exposure_ratio
+    from rfsafe.station.schema import Place
+
+    nh = len(heights)
+    n = len(pts) // nh
+    field = "keep-out search point"
+    sols = _wire_solutions(em)
+    try:
+        for sol in sols:   # the unit-power fields, kept by the solution; points on a conductor are refused
+            sol.fields_rms(pts, 1.0, field=field)
+    except InputError:   # some place on or next to a conductor: place by place, those count as exceeding
+        out = np.empty(n)
+        for i in range(n):
+            place = Place.model_construct(label="keep-out", x_m=float(pts[i * nh, 0]), y_m=float(pts[i * nh, 1]),
+                                          height_m=heights[0], body_heights_m=list(heights), environment=env)
+            try:
+                out[i] = _place_exposure(em, loaded, 0, place, cres, em.solution).exposure_ratio
+            except InputError:
+                out[i] = math.inf
+        return out
+    dist = _wire_distance_m(em.solution, pts).reshape(n, nh).min(axis=1)
+    inside = dist < max(cres.near_field_distance_m, cres.aperture_far_field_m or 0.0)
+    r_ff = np.full(n, -np.inf)
+    for lim in em.limits[env]:
+        p_ant = _power_for(lim, em.avg_power_at_antenna_w[env], em.pep_at_antenna_w)
+        s = ex.far_field_power_density_w_m2(eirp_w(p_ant, em.peak_gain_dbi), np.maximum(dist, 1e-9), em.ground_factor)
+        r = np.asarray(ex.ratio_at(lim, s), dtype=float)
+        r_ff = np.where(r > r_ff, r, r_ff)
+    average = loaded.model.near_field_spatial_average and SPATIAL_AVERAGE_ALLOWED[loaded.model.standard]
+    rn = np.full(n, -np.inf)
+    for sol in sols:
+        for lim in em.limits[env]:
+            p_ant = _power_for(lim, em.avg_power_at_antenna_w[env], em.pep_at_antenna_w)
+            e, h = (v.reshape(n, nh) for v in sol.fields_rms(pts, p_ant, field=field))
+            if average and lim.basis != "instantaneous":
+                e, h = np.sqrt(np.mean(e ** 2, axis=1)), np.sqrt(np.mean(h ** 2, axis=1))
+                r = np.asarray(exposure_ratio(lim, e_field_v_m=e, h_field_a_m=h), dtype=float)
+            else:
+                r = np.asarray(exposure_ratio(lim, e_field_v_m=e, h_field_a_m=h), dtype=float).max(axis=1)
+            rn = np.where(r > rn, r, rn)
+    return np.where(inside | (rn > r_ff), rn, r_ff)
 
 
 # --- Wire antennas: nearest-point distances, the ground bound, solver near every part of the wire ---

@@ -600,8 +600,7 @@ def ground_keep_out(loaded, result: EvaluationResult, emitters) -> tuple[GroundK
     far-field estimate or moment-method near field) on :data:`_KEEP_OUT_STEPS` steps out to a distance beyond which the
     peak-gain far-field estimate is below the limit, and the last step above the limit is refined.
     """
-    from rfsafe.assess import _place_exposure
-    from rfsafe.station.schema import Place
+    from rfsafe.assess import place_ratios
 
     out = []
     by_id = {c.id: c for c in result.configurations}
@@ -615,18 +614,16 @@ def ground_keep_out(loaded, result: EvaluationResult, emitters) -> tuple[GroundK
             reach = max(d.dist_m, nf if em.solution is not None else 0.0) * 1.05 + 0.05
             for level, heights in _levels(loaded):
 
-                def ratio_at(r, bearing, _env=env, _heights=heights):
+                def ratios_at(rs, bearing, _env=env, _heights=heights):
+                    """Ratios at horizontal distances ``rs`` along a bearing, all evaluated together."""
                     b = math.radians(bearing)
-                    place = Place.model_construct(label="keep-out", x_m=em.x_m + r * math.sin(b),
-                                                  y_m=em.y_m + r * math.cos(b), height_m=_heights[0],
-                                                  body_heights_m=list(_heights), environment=_env)
-                    if any(math.dist((place.x_m, place.y_m, z), (em.x_m, em.y_m, em.height_m)) < 1e-3
-                           for z in _heights):
-                        return math.inf
-                    try:
-                        return _place_exposure(em, loaded, 0, place, cres, em.solution).exposure_ratio
-                    except InputError:      # on or inside a conductor: counts as exceeding
-                        return math.inf
+                    xs = [em.x_m + r * math.sin(b) for r in rs]
+                    ys = [em.y_m + r * math.cos(b) for r in rs]
+                    vals = [float(q) for q in place_ratios(em, loaded, cres, _env, xs, ys, _heights)]
+                    for k, (x, y) in enumerate(zip(xs, ys)):   # at the antenna's centre: unbounded
+                        if any(math.dist((x, y, z), (em.x_m, em.y_m, em.height_m)) < 1e-3 for z in _heights):
+                            vals[k] = math.inf
+                    return vals
 
                 keep = 0.0
                 method = "far-field estimate"
@@ -640,7 +637,7 @@ def ground_keep_out(loaded, result: EvaluationResult, emitters) -> tuple[GroundK
                 for bearing in bearings:
                     n = _KEEP_OUT_STEPS
                     rs = [reach * k / n for k in range(n + 1)]
-                    ratios = [ratio_at(r, bearing) for r in rs]
+                    ratios = ratios_at(rs, bearing)
                     over = [k for k, q in enumerate(ratios) if q > 1.0]
                     if not over:
                         continue
@@ -648,7 +645,7 @@ def ground_keep_out(loaded, result: EvaluationResult, emitters) -> tuple[GroundK
                     if k == n:   # cannot happen beyond the peak-gain far-field reach; keep the bound
                         keep = max(keep, reach)
                         continue
-                    r_ok, _ = solve_crossing(lambda r, b=bearing: ratio_at(r, b), rs[k + 1], ratios[k + 1],
+                    r_ok, _ = solve_crossing(lambda r, b=bearing: ratios_at([r], b)[0], rs[k + 1], ratios[k + 1],
                                              max(rs[k], 1e-6), ratios[k], log_x=False)
                     keep = max(keep, r_ok)
                 if em.solution is not None and keep < nf:
