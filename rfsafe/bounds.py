@@ -15,7 +15,8 @@ from rfsafe.errors import InputError, bad_value
 
 __all__ = [
     "MAX_FILE_BYTES", "MAX_PATTERN_FILE_BYTES", "MAX_TOML_NESTING", "MAX_LIST_ITEMS", "MAX_PLACES",
-    "MAX_CONFIGURATIONS", "MAX_BODY_HEIGHTS", "MAX_SITE_STATIONS", "MAX_POLYGON_VERTICES",
+    "MAX_CONFIGURATIONS", "MAX_PLACE_CONFIGURATIONS", "check_place_configurations", "MAX_BODY_HEIGHTS",
+    "MAX_SITE_STATIONS", "MAX_POLYGON_VERTICES",
     "MAX_GRID_POINTS", "MAX_WIRE_SEGMENTS", "MAX_WIRE_POINTS", "MAX_PATTERN_ROWS", "MAX_POWER_W",
     "MAX_DISTANCE_M", "MAX_LENGTH_M", "MAX_SWR", "MAX_IMPEDANCE_OHM",
     "MAX_TEXT_CHARS", "MAX_GAIN_DBI", "MIN_GAIN_DBI", "MAX_LOSS_DB", "MAX_Q", "check_nesting", "nesting_error",
@@ -23,8 +24,9 @@ __all__ = [
     "check_file_size", "bounds_table",
 ]
 
-#: Largest station, site or wire file [bytes].
-MAX_FILE_BYTES = 1_000_000
+#: Largest station, site or wire file [bytes] (a station with 10,000 places, each a table with a label,
+#: coordinates, an environment and a short reason, is about 2 MB).
+MAX_FILE_BYTES = 4_000_000
 #: Largest pattern-table CSV [bytes] (a 0.5-degree table of the whole sphere is about 2.6 MB).
 MAX_PATTERN_FILE_BYTES = 5_000_000
 #: Deepest nesting of tables and arrays in a TOML file (a station file needs 5).
@@ -33,7 +35,11 @@ MAX_TOML_NESTING = 16
 #: simultaneous groups, wires, feeds, areas).
 MAX_LIST_ITEMS = 200
 #: Most places in a station file, and observation points in a wire file.
-MAX_PLACES = 2000
+MAX_PLACES = 10_000
+#: Most place-configuration pairs of a station (places x configurations): each pair is one exposure
+#: evaluated, tabulated and drawn, and this keeps a worksheet or an evaluation within seconds and a few
+#: hundred MB (10,000 places x 50 configurations).
+MAX_PLACE_CONFIGURATIONS = 500_000
 #: Most configurations in a station (or per site station).
 MAX_CONFIGURATIONS = 200
 #: Most evaluation heights of a place or a site.
@@ -101,6 +107,14 @@ def check_file_size(size_bytes: int, *, field: str, path: str, limit: int = MAX_
     """Refuse a file larger than ``limit`` bytes before reading it."""
     if size_bytes > limit:
         raise bad_value(field, path, f"is larger than {limit:,} bytes (accepted: at most {limit:,} bytes)")
+
+
+def check_place_configurations(n_places: int, n_configurations: int) -> None:
+    """Refuse a station whose places x configurations exceed :data:`MAX_PLACE_CONFIGURATIONS`."""
+    pairs = n_places * n_configurations
+    if pairs > MAX_PLACE_CONFIGURATIONS:
+        raise bad_value("places", n_places, f"places with {n_configurations} configurations make {pairs:,} "
+                        f"place-configuration pairs (accepted: at most {MAX_PLACE_CONFIGURATIONS:,})")
 
 
 def finite_in_range(field: str, value: float, lo: float | None, hi: float | None, unit: str = "", *,
@@ -214,6 +228,7 @@ def bounds_table() -> tuple[tuple[str, str], ...]:
         ("nesting of tables and arrays in a TOML file", f"{MAX_TOML_NESTING} levels"),
         ("places of a station, points of a wire file", f"{MAX_PLACES:,}"),
         ("configurations of a station", f"{MAX_CONFIGURATIONS}"),
+        ("places x configurations of a station", f"{MAX_PLACE_CONFIGURATIONS:,} pairs"),
         ("body heights of a place, evaluation heights of a site", f"{MAX_BODY_HEIGHTS}"),
         ("stations on a site", f"{MAX_SITE_STATIONS}"),
         ("vertices of a site boundary or area, of one wire", f"{MAX_POLYGON_VERTICES:,}"),

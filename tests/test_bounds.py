@@ -21,7 +21,7 @@ def test_readme_states_every_bound():
     ("x_m", -2e5, "is out of range (accepted: magnitude at most 100000 m)"),
     ("points_m", [[0.0, 0.0, 1e9]], "has 1e+09 at [0][2], out of range (accepted: magnitude at most 100000 m)"),
     ("polygon", [[0.0, 0.0], [2e10, 0.0]], "has 2e+10 at [1][0], out of range (accepted: magnitude at most 100000 m)"),
-    ("places", [{}] * (bounds.MAX_PLACES + 1), f"has {bounds.MAX_PLACES + 1} items (accepted: at most 2000)"),
+    ("places", [{}] * (bounds.MAX_PLACES + 1), f"has {bounds.MAX_PLACES + 1} items (accepted: at most 10000)"),
     ("segments", 10**6, "is out of range (accepted: at most 400 segments per wire antenna)"),
     ("gain_dbi", 61.0, "is out of range (accepted: magnitude at most 60 dBi)"),
     ("freq_mhz", 14.2, None),
@@ -39,3 +39,22 @@ def test_nesting_depth_without_recursion():
     with pytest.raises(InputError, match=r'^FILE: "f.toml" nests tables and arrays more than 16 levels deep'):
         bounds.check_nesting(deep, field="FILE", path="f.toml")
     bounds.check_nesting({"a": [[1]]}, field="FILE", path="f.toml")
+
+
+def test_place_configuration_pairs_bounded():
+    """places x configurations is bounded on its own: 10,000 places with 50 configurations pass, one more does not."""
+    bounds.check_place_configurations(bounds.MAX_PLACES, bounds.MAX_PLACE_CONFIGURATIONS // bounds.MAX_PLACES)
+    with pytest.raises(InputError, match=r"^places: 10000 places with 51 configurations make 510,000 "
+                                         r"place-configuration pairs \(accepted: at most 500,000\)$"):
+        bounds.check_place_configurations(10_000, 51)
+
+
+def test_station_loader_applies_the_pair_bound(monkeypatch):
+    """The loader refuses a station beyond the pair bound (lowered here to below the demo's 5 x 4) as bad input."""
+    from rfsafe.station import load_station
+
+    demo = Path(__file__).resolve().parent.parent / "reports_demo" / "demo_station.toml"
+    load_station(demo)
+    monkeypatch.setattr(bounds, "MAX_PLACE_CONFIGURATIONS", 19)
+    with pytest.raises(InputError, match=r"^places: 5 places with 4 configurations make 20 place-configuration pairs"):
+        load_station(demo)

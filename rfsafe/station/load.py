@@ -219,6 +219,9 @@ def check_station(station: Station, base: Path) -> tuple[dict, dict]:
     _unique(station.antennas, "id", "antennas")
     _unique(station.configurations, "id", "configurations")
     _unique(station.places, "label", "places")
+    from rfsafe.bounds import check_place_configurations
+
+    check_place_configurations(len(station.places), len(station.configurations))
     for i, f in enumerate(station.feedlines):
         _check_feedline(i, f)
     wire_specs: dict = {}
