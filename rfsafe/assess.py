@@ -23,7 +23,8 @@ from rfsafe.station.schema import Antenna, Configuration, Feedline, Station
 from rfsafe.units import DIPOLE_GAIN_DBI, M_PER_FT
 from rfsafe.verification import figure_checks
 
-__all__ = ["assess", "assess_with_emitters", "place_totals", "place_ratios", "Emitter", "emitters", "peak_gain_dbi", "NEAR_FIELD_FLAG"]
+__all__ = ["assess", "assess_with_emitters", "place_totals", "place_ratios", "Emitter", "emitters", "peak_gain_dbi",
+           "antenna_outline", "NEAR_FIELD_FLAG"]
 
 NEAR_FIELD_FLAG = "far-field estimate; near-field analysis or measurement recommended"
 
@@ -675,7 +676,6 @@ def _wire_place_ratios(em: Emitter, loaded: LoadedStation, cres: ConfigurationRe
                        heights: list[float]) -> np.ndarray:
     """:func:`place_ratios` for a wire antenna (see :func:`_wire_place_exposure`, whose arithmetic it repeats)."""
     from rfsafe.limits import exposure_ratio
-    from rfsafe.station.schema import Place
 
     nh = len(heights)
     n = len(pts) // nh
@@ -684,16 +684,12 @@ def _wire_place_ratios(em: Emitter, loaded: LoadedStation, cres: ConfigurationRe
     try:
         for sol in sols:   # the unit-power fields, kept by the solution; points on a conductor are refused
             sol.fields_rms(pts, 1.0, field=field)
-    except InputError:   # some place on or next to a conductor: place by place, those count as exceeding
-        out = np.empty(n)
-        for i in range(n):
-            place = Place.model_construct(label="keep-out", x_m=float(pts[i * nh, 0]), y_m=float(pts[i * nh, 1]),
-                                          height_m=heights[0], body_heights_m=list(heights), environment=env)
-            try:
-                out[i] = _place_exposure(em, loaded, 0, place, cres, em.solution).exposure_ratio
-            except InputError:
-                out[i] = math.inf
-        return out
+    except InputError:   # some place on or next to a conductor (refused: counts as exceeding); halve and retry
+        if n == 1:
+            return np.array([math.inf])
+        half = (n // 2) * nh
+        return np.concatenate([_wire_place_ratios(em, loaded, cres, env, pts[:half], heights),
+                               _wire_place_ratios(em, loaded, cres, env, pts[half:], heights)])
     dist = _wire_distance_m(em.solution, pts).reshape(n, nh).min(axis=1)
     inside = dist < max(cres.near_field_distance_m, cres.aperture_far_field_m or 0.0)
     r_ff = np.full(n, -np.inf)
@@ -1252,11 +1248,66 @@ def equipment_verdict(lines) -> tuple[str, tuple[str, ...]]:
     return verdict, tuple(reasons)
 
 
+def antenna_outline(ant, freqs_hz, wire_spec=None):
+    """Straight pieces of an antenna's radiating structure in the station frame, its size and basis.
+
+    Parameters
+    ----------
+    ant : rfsafe.station.schema.Antenna
+        The declared antenna.
+    freqs_hz : sequence of float
+        Frequencies at which it is used [Hz]; the lowest gives the longest textbook length.
+    wire_spec : WireAntennaSpec, optional
+        Validated wire geometry of a wire antenna.
+
+    Returns
+    -------
+    (tuple, float or None, str)
+        Segments ((x, y, z), (x, y, z)) [m], the largest dimension [m] (None when not known) and
+        where it comes from.
+
+    Notes
+    -----
+    Textbook lengths (common practice): a half-wave dipole lambda/2, a quarter-wave vertical
+    lambda/4 (centred on the declared centre of radiation), a short dipole lambda/10; a horizontal
+    dipole runs broadside to its azimuth. A declared ``aperture_m`` is drawn broadside to the beam
+    heading for a horizontally polarised antenna and vertical for a vertically polarised one.
+    """
+    from rfsafe.units import wavelength_m
+
+    centre = np.array([ant.x_m, ant.y_m, ant.height_m], dtype=float)
+    if wire_spec is not None:
+        segs = tuple((tuple(map(float, a)), tuple(map(float, b)))
+                     for w in wire_spec.wires for a, b in zip(w.points_m[:-1], w.points_m[1:]))
+        pts = np.array([p for s in segs for p in s])
+        size = float(max(np.linalg.norm(pts[:, None, :] - pts[None, :, :], axis=2).max(), 0.0))
+        return segs, size, "wire geometry as declared"
+    lam = wavelength_m(min(freqs_hz)) if freqs_hz else None
+    fraction = {"half-wave-dipole": (0.5, "λ/2"), "quarter-wave-vertical": (0.25, "λ/4"),
+                "short-dipole": (0.1, "λ/10")}.get(ant.kind)
+    vertical = ant.polarisation == "vertical" or ant.kind == "quarter-wave-vertical"
+    az = math.radians(ant.azimuth_deg + 90.0)
+    broadside = np.array([math.sin(az), math.cos(az), 0.0])
+    up = np.array([0.0, 0.0, 1.0])
+    if fraction is not None and lam is not None:
+        size = fraction[0] * lam
+        basis = f"textbook length {fraction[1]} at {min(freqs_hz) / 1e6:g} MHz"
+    elif ant.aperture_m is not None:
+        size = float(ant.aperture_m)
+        basis = "declared aperture_m, " + ("vertical" if vertical else "broadside to the heading")
+    else:
+        return (), None, "no dimension declared: drawn as a point at the declared position"
+    axis = up if vertical else broadside
+    a, b = centre - size / 2 * axis, centre + size / 2 * axis
+    if vertical and a[2] < 0:        # a vertical structure stands on the ground, never below it
+        a, b = a - a[2] * up, b - a[2] * up
+    return ((tuple(map(float, a)), tuple(map(float, b))),), float(size), basis
+
+
 def _plan_fields(loaded: LoadedStation, configs, ems, plan: bool) -> dict:
     """Identity extras, the override record, the antennas' extent and the keep-out plan of the worksheet
     (the plan is plot data: left out with the near-field maps)."""
     from rfsafe.results import AntennaSummary
-    from rfsafe.site.plan import antenna_outline, station_plan
 
     st = loaded.model
     outlines = {a.id: antenna_outline(a, [c.freq_mhz * 1e6 for c in configs if c.antenna == a.id],
@@ -1268,4 +1319,10 @@ def _plan_fields(loaded: LoadedStation, configs, ems, plan: bool) -> dict:
     own = loaded.file_standard or st.standard
     return dict(file_standard=own, standard_overridden=own != st.standard, call_sign=st.call_sign,
                 licence=st.licence, address=st.address, antennas=antennas,
-                plan=station_plan(loaded, ems, configs, outlines) if plan else None)
+                plan=_station_plan(loaded, ems, configs, outlines) if plan else None)
+
+
+def _station_plan(loaded: LoadedStation, ems, configs, outlines):
+    from rfsafe.site.plan import station_plan   # the site package is loaded only where a plan is wanted
+
+    return station_plan(loaded, ems, configs, outlines)

@@ -9,9 +9,9 @@ the physics is the kernel's and the power chain is :mod:`rfsafe.assess`'s.
 
 from __future__ import annotations
 
-import math
-
 import numpy as np
+
+from rfsafe.assess import antenna_outline
 
 __all__ = ["antenna_outline", "station_plan", "PLAN_LEVELS", "PLAN_POINTS"]
 
@@ -20,62 +20,6 @@ __all__ = ["antenna_outline", "station_plan", "PLAN_LEVELS", "PLAN_POINTS"]
 PLAN_LEVELS = {"ground": (0.0,), "head": (0.5, 1.0, 1.5, 2.0)}
 #: Grid points along the longer side of the plan.
 PLAN_POINTS = 161
-
-
-def antenna_outline(ant, freqs_hz, wire_spec=None):
-    """Straight pieces of an antenna's radiating structure in the station frame, its size and basis.
-
-    Parameters
-    ----------
-    ant : rfsafe.station.schema.Antenna
-        The declared antenna.
-    freqs_hz : sequence of float
-        Frequencies at which it is used [Hz]; the lowest gives the longest textbook length.
-    wire_spec : WireAntennaSpec, optional
-        Validated wire geometry of a wire antenna.
-
-    Returns
-    -------
-    (tuple, float or None, str)
-        Segments ((x, y, z), (x, y, z)) [m], the largest dimension [m] (None when not known) and
-        where it comes from.
-
-    Notes
-    -----
-    Textbook lengths (common practice): a half-wave dipole lambda/2, a quarter-wave vertical
-    lambda/4 (centred on the declared centre of radiation), a short dipole lambda/10; a horizontal
-    dipole runs broadside to its azimuth. A declared ``aperture_m`` is drawn broadside to the beam
-    heading for a horizontally polarised antenna and vertical for a vertically polarised one.
-    """
-    from rfsafe.units import wavelength_m
-
-    centre = np.array([ant.x_m, ant.y_m, ant.height_m], dtype=float)
-    if wire_spec is not None:
-        segs = tuple((tuple(map(float, a)), tuple(map(float, b)))
-                     for w in wire_spec.wires for a, b in zip(w.points_m[:-1], w.points_m[1:]))
-        pts = np.array([p for s in segs for p in s])
-        size = float(max(np.linalg.norm(pts[:, None, :] - pts[None, :, :], axis=2).max(), 0.0))
-        return segs, size, "wire geometry as declared"
-    lam = wavelength_m(min(freqs_hz)) if freqs_hz else None
-    fraction = {"half-wave-dipole": (0.5, "λ/2"), "quarter-wave-vertical": (0.25, "λ/4"),
-                "short-dipole": (0.1, "λ/10")}.get(ant.kind)
-    vertical = ant.polarisation == "vertical" or ant.kind == "quarter-wave-vertical"
-    az = math.radians(ant.azimuth_deg + 90.0)
-    broadside = np.array([math.sin(az), math.cos(az), 0.0])
-    up = np.array([0.0, 0.0, 1.0])
-    if fraction is not None and lam is not None:
-        size = fraction[0] * lam
-        basis = f"textbook length {fraction[1]} at {min(freqs_hz) / 1e6:g} MHz"
-    elif ant.aperture_m is not None:
-        size = float(ant.aperture_m)
-        basis = "declared aperture_m, " + ("vertical" if vertical else "broadside to the heading")
-    else:
-        return (), None, "no dimension declared: drawn as a point at the declared position"
-    axis = up if vertical else broadside
-    a, b = centre - size / 2 * axis, centre + size / 2 * axis
-    if vertical and a[2] < 0:        # a vertical structure stands on the ground, never below it
-        a, b = a - a[2] * up, b - a[2] * up
-    return ((tuple(map(float, a)), tuple(map(float, b))),), float(size), basis
 
 
 def _extent(loaded, configs, outlines):
