@@ -59,7 +59,7 @@ def main() -> None:
     print("rfsafe real-ground benchmark (best of 5, CPU seconds); ratios to free space in this run")
     print(f"{'case':<28} {'free space [s]':>14} {'real cold [s]':>13} {'real warm [s]':>13} "
           f"{'cold/free':>9} {'warm/free':>9}")
-    worst = 0.0
+    worst = worst_cold = 0.0
     for name, make in (("dipole 8 m, solve", dipole), ("vertical + radials, solve", vertical_with_radials)):
         t_fs, sol_fs = best_of(lambda m=make: solve(m("free-space"), f_hz))
         t_cold, _ = best_of(lambda m=make: solve(m("real", **soil), f_hz), before=G._TABLES.clear)
@@ -76,7 +76,11 @@ def main() -> None:
         print(f"{label:<28} {t_mfs:14.4f} {t_mcold:13.4f} {t_mwarm:13.4f} {t_mcold / t_mfs:9.2f} "
               f"{t_mwarm / t_mfs:9.2f}")
         worst = max(worst, t_warm / t_fs, t_mwarm / t_mfs)
-    print(f"worst warm ratio {worst:.2f} (aim: within {AIM:g}x free space)")
+        worst_cold = max(worst_cold, t_cold / t_fs, t_mcold / t_mfs)
+    print(f"worst warm ratio {worst:.2f}, worst cold ratio {worst_cold:.2f} (aim: within {AIM:g}x free space; "
+          f"{'met' if max(worst, worst_cold) <= AIM else 'NOT met'}). The real-ground solve also fills the image "
+          "matrix and the map sums the image fields (about 2x free space, as over a perfect ground) before the "
+          "Sommerfeld remainder is added.")
 
 
 if __name__ == "__main__":
