@@ -681,6 +681,15 @@ def _wire_place_ratios(em: Emitter, loaded: LoadedStation, cres: ConfigurationRe
     n = len(pts) // nh
     field = "keep-out search point"
     sols = _wire_solutions(em)
+    point_dist = _wire_distance_m(em.solution, pts)
+    if n > 1:   # places next to a wire, which the solver may refuse, apart (only a shortcut: any refusal is handled)
+        near = (point_dist < 3.0 * (1 + 1e-6) * float(em.solution.structure.radius_m.max())).reshape(n, nh).any(axis=1)
+        if np.any(near) and not np.all(near):
+            out = np.empty(n)
+            for part in (np.flatnonzero(~near), *np.flatnonzero(near)[:, None]):
+                sel = (part[:, None] * nh + np.arange(nh)).ravel()
+                out[part] = _wire_place_ratios(em, loaded, cres, env, pts[sel], heights)
+            return out
     try:
         for sol in sols:   # the unit-power fields, kept by the solution; points on a conductor are refused
             sol.fields_rms(pts, 1.0, field=field)
@@ -690,7 +699,7 @@ def _wire_place_ratios(em: Emitter, loaded: LoadedStation, cres: ConfigurationRe
         half = (n // 2) * nh
         return np.concatenate([_wire_place_ratios(em, loaded, cres, env, pts[:half], heights),
                                _wire_place_ratios(em, loaded, cres, env, pts[half:], heights)])
-    dist = _wire_distance_m(em.solution, pts).reshape(n, nh).min(axis=1)
+    dist = point_dist.reshape(n, nh).min(axis=1)
     inside = dist < max(cres.near_field_distance_m, cres.aperture_far_field_m or 0.0)
     r_ff = np.full(n, -np.inf)
     for lim in em.limits[env]:

@@ -614,11 +614,10 @@ def ground_keep_out(loaded, result: EvaluationResult, emitters) -> tuple[GroundK
             reach = max(d.dist_m, nf if em.solution is not None else 0.0) * 1.05 + 0.05
             for level, heights in _levels(loaded):
 
-                def ratios_at(rs, bearing, _env=env, _heights=heights):
-                    """Ratios at horizontal distances ``rs`` along a bearing, all evaluated together."""
-                    b = math.radians(bearing)
-                    xs = [em.x_m + r * math.sin(b) for r in rs]
-                    ys = [em.y_m + r * math.cos(b) for r in rs]
+                def ratios_at(rs, bearings, _env=env, _heights=heights):
+                    """Ratios at horizontal distances ``rs`` along each bearing (bearing-major), evaluated together."""
+                    xs = [em.x_m + r * math.sin(math.radians(b)) for b in bearings for r in rs]
+                    ys = [em.y_m + r * math.cos(math.radians(b)) for b in bearings for r in rs]
                     vals = [float(q) for q in place_ratios(em, loaded, cres, _env, xs, ys, _heights)]
                     for k, (x, y) in enumerate(zip(xs, ys)):   # at the antenna's centre: unbounded
                         if any(math.dist((x, y, z), (em.x_m, em.y_m, em.height_m)) < 1e-3 for z in _heights):
@@ -634,10 +633,11 @@ def ground_keep_out(loaded, result: EvaluationResult, emitters) -> tuple[GroundK
                                              text=f"{em.configuration} ({env}), {level}: no keep-out distance "
                                                   "(the compliance distance is not finite)"))
                     continue
-                for bearing in bearings:
-                    n = _KEEP_OUT_STEPS
-                    rs = [reach * k / n for k in range(n + 1)]
-                    ratios = ratios_at(rs, bearing)
+                n = _KEEP_OUT_STEPS
+                rs = [reach * k / n for k in range(n + 1)]
+                scan = ratios_at(rs, bearings)
+                for j, bearing in enumerate(bearings):
+                    ratios = scan[j * (n + 1):(j + 1) * (n + 1)]
                     over = [k for k, q in enumerate(ratios) if q > 1.0]
                     if not over:
                         continue
@@ -645,7 +645,7 @@ def ground_keep_out(loaded, result: EvaluationResult, emitters) -> tuple[GroundK
                     if k == n:   # cannot happen beyond the peak-gain far-field reach; keep the bound
                         keep = max(keep, reach)
                         continue
-                    r_ok, _ = solve_crossing(lambda r, b=bearing: ratios_at([r], b)[0], rs[k + 1], ratios[k + 1],
+                    r_ok, _ = solve_crossing(lambda r, b=bearing: ratios_at([r], [b])[0], rs[k + 1], ratios[k + 1],
                                              max(rs[k], 1e-6), ratios[k], log_x=False)
                     keep = max(keep, r_ok)
                 if em.solution is not None and keep < nf:

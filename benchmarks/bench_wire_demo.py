@@ -1,0 +1,61 @@
+"""Benchmark: whole-process CPU time of everyday commands on the wire demo (issue 18, item 3).
+
+Each command runs as a new process (start-up, imports, evaluation and output, as a user sees it);
+its CPU time (user + system, ``resource.getrusage(RUSAGE_CHILDREN)``) is the measure, because the
+machine is shared and wall time swells with other work. Medians of paired, interleaved runs.
+
+Floor, measured in the same run: ``python -c "import typer"`` (the least a typer command costs).
+Targets (absolute, on this machine): ``rfsafe evaluate`` of the wire demo under 0.5 s, ``rfsafe report``
+of it (the worksheet) under 1.2 s. Not a test: it prints, it asserts nothing.
+
+Run: ``python benchmarks/bench_wire_demo.py [repeats]``
+"""
+
+from __future__ import annotations
+
+import os
+import resource
+import statistics
+import subprocess
+import sys
+import tempfile
+from pathlib import Path
+
+DEMO = Path(__file__).resolve().parent.parent / "reports_demo" / "demo_wire_station.toml"
+TARGETS_S = {"evaluate (tables)": 0.5, "report (worksheet)": 1.2}
+
+
+def _cpu(cmd: list[str]) -> float:
+    """CPU time [s] of one child process (user + system)."""
+    before = resource.getrusage(resource.RUSAGE_CHILDREN)
+    subprocess.run(cmd, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, check=False,
+                   env={**os.environ, "OPENBLAS_NUM_THREADS": os.environ.get("OPENBLAS_NUM_THREADS", "1")})
+    after = resource.getrusage(resource.RUSAGE_CHILDREN)
+    return (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime)
+
+
+def main(repeats: int = 5) -> None:
+    py = sys.executable
+    with tempfile.TemporaryDirectory() as tmp:
+        pdf = Path(tmp) / "w.pdf"
+        commands = {
+            "floor: import typer": [py, "-c", "import typer"],
+            "evaluate (tables)": [py, "-m", "rfsafe", "evaluate", str(DEMO)],
+            "evaluate --json": [py, "-m", "rfsafe", "evaluate", str(DEMO), "--json"],
+            "report (worksheet)": [py, "-m", "rfsafe", "report", str(DEMO), "-o", str(pdf), "--force"],
+        }
+        times: dict[str, list[float]] = {k: [] for k in commands}
+        for _ in range(repeats):
+            for name, cmd in commands.items():
+                times[name].append(_cpu(cmd))
+    med = {k: statistics.median(v) for k, v in times.items()}
+    floor = med["floor: import typer"]
+    print(f"{DEMO.name}: process CPU time, median of {repeats} (shared 2-core machine)")
+    for name, t in med.items():
+        target = TARGETS_S.get(name)
+        verdict = "" if target is None else f"   target {target:g} s: {'met' if t <= target else 'NOT met'}"
+        print(f"  {name:22s} {t:6.3f} s   ratio to floor {t / floor:6.1f}{verdict}")
+
+
+if __name__ == "__main__":
+    main(int(sys.argv[1]) if len(sys.argv) > 1 else 5)
