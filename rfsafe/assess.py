@@ -534,14 +534,18 @@ def _structure_distance_m(em: Emitter, place, z_m: float) -> float:
     return float(nearest_distance_m(em.extent, np.array([place.x_m, place.y_m, z_m], dtype=float)))
 
 
-def _far_field_at(em: Emitter, loaded: LoadedStation, place, z_m: float, peak_only: bool = False):
+def _far_field_at(em: Emitter, loaded: LoadedStation, place, z_m: float, peak_only: bool = False,
+                  structure_dist_m: float | None = None):
     """Worst far-field (ratio, limit, S, dist, gain, how) at one evaluation height.
 
     R is the distance to the nearest part of the radiating structure (never more than the distance to
-    its centre, so never optimistic); the gain is taken toward the place from the declared position.
+    its centre, so never optimistic; ``structure_dist_m`` when already known); the gain is taken toward
+    the place from the declared position.
     """
     dx, dy, dz = place.x_m - em.x_m, place.y_m - em.y_m, z_m - em.height_m
-    dist = max(_structure_distance_m(em, place, z_m), MIN_FAR_FIELD_DIST_M)
+    if structure_dist_m is None:
+        structure_dist_m = _structure_distance_m(em, place, z_m)
+    dist = max(structure_dist_m, MIN_FAR_FIELD_DIST_M)
     if peak_only:
         gain, how = em.peak_gain_dbi, "peak (pattern not used inside the near field)"
     else:
@@ -594,16 +598,22 @@ def _place_exposure(em: Emitter, loaded: LoadedStation, p_index: int, place, cre
                     solution=None):
     if solution is not None:
         return _wire_place_exposure(em, loaded, p_index, place, cres)
+    from rfsafe.antenna.extent import nearest_distance_m
+
     heights = _heights(place)  # the loader has refused places on an antenna
-    r, lim, s, dist, gain, how = max((_far_field_at(em, loaded, place, z) for z in heights), key=lambda b: b[0])
+    # distances to the nearest part of the structure, every height at once (the same numbers one by one)
+    raw = [float(d) for d in nearest_distance_m(em.extent, np.array([[place.x_m, place.y_m, z] for z in heights],
+                                                                    dtype=float))]
+    r, lim, s, dist, gain, how = max((_far_field_at(em, loaded, place, z, structure_dist_m=d)
+                                      for z, d in zip(heights, raw)), key=lambda b: b[0])
     e, h = (float(v) for v in ex.plane_wave_fields(s))
     flag_dist = max(cres.near_field_distance_m, cres.aperture_far_field_m or 0.0)
-    dist_min = min(_structure_distance_m(em, place, z) for z in heights)
+    dist_min = min(raw)
     inside = dist_min < flag_dist
     if inside and solution is None and em.antenna.use_pattern:
         # a far-field pattern's nulls do not hold near the antenna: its peak gain is taken there
-        r, lim, s, dist, gain, how = max((_far_field_at(em, loaded, place, z, peak_only=True) for z in heights),
-                                         key=lambda b: b[0])
+        r, lim, s, dist, gain, how = max((_far_field_at(em, loaded, place, z, peak_only=True, structure_dist_m=d)
+                                          for z, d in zip(heights, raw)), key=lambda b: b[0])
         e, h = (float(v) for v in ex.plane_wave_fields(s))
     basis = f"{em.antenna.id}: {em.extent.basis}"
     governing = f"{_governing(lim, s)} ({lim.basis})"
