@@ -58,8 +58,8 @@ class Structure:
     feed_position_m: np.ndarray  # (Nf, 3)
     wire_labels: tuple[str, ...]
     wire_fields: tuple[str, ...]
-    distance_m: np.ndarray = field(repr=False)        # (Ns, Ns) real-real segment distances
-    image_distance_m: np.ndarray | None = field(repr=False, default=None)  # (Ns, Ns) real-image
+    distance_m: np.ndarray = field(repr=False)        # (Ns, Ns) real-real, exact below a segment length
+    image_distance_m: np.ndarray | None = field(repr=False, default=None)  # (Ns, Ns) real-image, likewise
     load_coupling: np.ndarray | None = field(repr=False, default=None)  # (Nl, Nb), like feed_coupling
     load_position_m: np.ndarray | None = field(repr=False, default=None)  # (Nl, 3)
     #: Real ground: complex relative permittivity of the soil (None otherwise); the images then carry
@@ -110,14 +110,28 @@ def point_segment_distances(points, a0, a1):
     return np.linalg.norm(w - t[..., None] * u, axis=-1)
 
 
-def segment_distances(a0, a1, b0, b1) -> np.ndarray:
+def segment_distances(a0, a1, b0, b1, exact_below: float | None = None) -> np.ndarray:
     """Shortest distances between segments a (N) and segments b (M) [m], shape (N, M).
 
     The minimum is reached at an end of one segment or at interior points of both (common
-    perpendicular); all five candidates are evaluated.
+    perpendicular); all five candidates are evaluated. With ``exact_below`` [m], only pairs that
+    may be closer than that are evaluated so; the others get the lower bound "midpoint distance
+    minus the half lengths", which is at least ``exact_below`` (every comparison with a threshold
+    up to ``exact_below`` comes out the same, in O(N M) cheap operations).
     """
-    A0, A1 = a0[:, None, :], a1[:, None, :]
-    B0, B1 = b0[None, :, :], b1[None, :, :]
+    if exact_below is not None:
+        la, lb = np.linalg.norm(a1 - a0, axis=1), np.linalg.norm(b1 - b0, axis=1)
+        ma, mb = 0.5 * (a0 + a1), 0.5 * (b0 + b1)
+        d = np.sqrt(sum((ma[:, None, j] - mb[None, :, j]) ** 2 for j in range(3)))
+        d -= 0.5 * (la[:, None] + lb[None, :])
+        i, j = np.nonzero(d < exact_below)
+        d[i, j] = _pair_distances(a0[i], a1[i], b0[j], b1[j])
+        return d
+    return _pair_distances(a0[:, None, :], a1[:, None, :], b0[None, :, :], b1[None, :, :])
+
+
+def _pair_distances(A0, A1, B0, B1) -> np.ndarray:
+    """Shortest distances between segments A0-A1 and B0-B1 (broadcasting (..., 3)) [m]."""
     d = np.minimum.reduce([
         point_segment_distances(A0, B0, B1), point_segment_distances(A1, B0, B1),
         point_segment_distances(B0, A0, A1), point_segment_distances(B1, A0, A1)])
@@ -397,7 +411,9 @@ def build_structure(spec, freq_hz: float, feed_wires: tuple[int, ...], *, prefix
                          "no wire has an interior node)")
 
     # Wires that touch or cross without a junction, and wires touching their ground image.
-    dist = segment_distances(start, end, start, end)
+    # Exact where a pair may touch or be a near pair of the matrix fill (closer than a segment length).
+    exact_below = 1.01 * max(float(length.max()), 2.0 * float(radius.max()))
+    dist = segment_distances(start, end, start, end, exact_below)
     share = (n1[:, None] == n1[None, :]) | (n1[:, None] == n2[None, :]) | \
             (n2[:, None] == n1[None, :]) | (n2[:, None] == n2[None, :])
     touch = (dist <= radius[:, None] + radius[None, :]) & ~share
@@ -405,7 +421,7 @@ def build_structure(spec, freq_hz: float, feed_wires: tuple[int, ...], *, prefix
     img_dist = None
     if ground:
         m3 = np.array([1.0, 1.0, -1.0])
-        img_dist = segment_distances(start, end, start * m3, end * m3)
+        img_dist = segment_distances(start, end, start * m3, end * m3, exact_below)
         on_g = np.array([[x in ground_nodes for x in (a, b)] for a, b in zip(n1, n2)])
         gnode = np.where(on_g[:, 0], n1, np.where(on_g[:, 1], n2, -1))
         share_img = (gnode[:, None] == gnode[None, :]) & (gnode[:, None] >= 0)

@@ -10,7 +10,9 @@ where E_n is the *closed-form* field of the sinusoidal filament currents of basi
 ``kernel``), evaluated with the reduced thin-wire kernel (source on the axis, test point on the
 surface, distances sqrt(rho^2 + a^2)). Only a one-dimensional Gauss-Legendre quadrature along the
 test segment remains, vectorised over all segment pairs; pairs closer than one test-segment length
-use a sinh-mapped rule clustered at the segment ends, where the reduced kernel peaks. A perfectly
+use a sinh-mapped rule clustered at the segment ends, where the reduced kernel peaks. Kernel values
+are shared between the two segments of a node, parallel pairs need only them, and the symmetric
+matrix is computed as one triangle and mirrored (``impedance_matrix``). A perfectly
 conducting ground at z = 0 is represented by images. Delta-gap sources at nodes give the voltage
 vector V_m = sum_f g_fm V_f, and Z I = V is solved densely.
 
@@ -78,53 +80,159 @@ def _test_shapes(s, d, k):
     return np.sin(k * (d - s)) / sk, np.sin(k * s) / sk
 
 
-def _reaction(st: Structure, k: float, src) -> np.ndarray:
-    """Half-function reaction matrix S[2p+e', 2q+e] for one set of source segments."""
-    s0, s1, srad, sign, dist = src
-    t0, t1 = st.start_m, st.end_m
-    td = t1 - t0
-    tl = np.linalg.norm(td, axis=1)
-    tdir = td / tl[:, None]
-    sd = s1 - s0
-    sl = np.linalg.norm(sd, axis=1)
-    sdir = sd / sl[:, None]
-    ns, nq = len(t0), len(s0)
-    # Reduced kernel: the field of the source filament on the surface of the test wire (see impedance_matrix).
-    a2 = np.broadcast_to(st.radius_m[:, None] ** 2, (len(t0), len(s0)))
-    blocks = np.empty((ns, nq, 2, 2), dtype=complex)
+def _direction_ids(dirs: np.ndarray) -> np.ndarray:
+    """An id per unit vector, equal for vectors parallel or antiparallel to 1e-12 (rounded canonical form)."""
+    lead = np.argmax(np.abs(dirs) > 1e-9, axis=1)
+    canon = dirs * np.sign(dirs[np.arange(len(dirs)), lead])[:, None]
+    return np.unique(np.round(canon, 12), axis=0, return_inverse=True)[1].reshape(-1)
 
-    # All pairs with plain Gauss-Legendre, chunked over test segments.
+
+@dataclass(frozen=True)
+class _TestSide:
+    """Test segments and their Gauss-Legendre points (the rows of the reaction matrix)."""
+
+    t0: np.ndarray
+    tl: np.ndarray
+    tdir: np.ndarray
+    a2: np.ndarray        # squared test-wire radius (reduced kernel)
+    x: np.ndarray         # (Ns, Q, 3) test points
+    w: np.ndarray
+    f1: np.ndarray
+    f2: np.ndarray
+    wf: np.ndarray        # (Ns, 2, Q) complex: weight times test shape 1 and 2
+
+
+def _test_side(st: Structure, k: float) -> _TestSide:
+    t0 = st.start_m
+    tl = np.linalg.norm(st.end_m - t0, axis=1)
+    tdir = (st.end_m - t0) / tl[:, None]
     xg, wg = gauss_legendre_01(N_FAR)
     s = tl[:, None] * xg[None, :]
     w = tl[:, None] * wg[None, :]
     f1, f2 = _test_shapes(s, tl[:, None], k)
     x = t0[:, None, :] + s[..., None] * tdir[:, None, :]
-    step = max(1, _CHUNK // (nq * N_FAR))
-    for i in range(0, ns, step):
-        sl_ = slice(i, i + step)
-        blocks[sl_] = _pair_blocks(
-            x[sl_, None], w[sl_, None], f1[sl_, None], f2[sl_, None], tdir[sl_, None, None],
-            s0[None, :, None], sdir[None, :, None], sl[None, :, None], a2[sl_, :, None], k)
+    wf = np.stack([w * f1, w * f2], axis=1).astype(complex)
+    return _TestSide(t0, tl, tdir, st.radius_m ** 2, x, w, f1, f2, wf)
 
-    # Near pairs again with the end-clustered rule.
-    ip, iq = np.nonzero(dist < tl[:, None])
-    if len(ip):
-        b = np.sqrt(a2[ip, iq])
-        half = 0.5 * tl[ip]
-        sa, wa = sinh_rule(half, b, N_NEAR)
-        s = np.concatenate([sa, tl[ip, None] - sa], axis=1)
-        w = np.concatenate([wa, wa], axis=1)
-        d_t = tl[ip, None]
-        f1, f2 = _test_shapes(s, d_t, k)
-        x = t0[ip, None, :] + s[..., None] * tdir[ip, None, :]
-        step = max(1, _CHUNK // (2 * N_NEAR))
-        for j in range(0, len(ip), step):
-            sl_ = slice(j, j + step)
-            blocks[ip[sl_], iq[sl_]] = _pair_blocks(
-                x[sl_], w[sl_], f1[sl_], f2[sl_], tdir[ip[sl_], None], s0[iq[sl_], None],
-                sdir[iq[sl_], None], sl[iq[sl_], None], a2[ip[sl_], iq[sl_], None], k)
-    blocks *= sign
-    return blocks.transpose(0, 2, 1, 3).reshape(2 * ns, 2 * nq)
+
+def _source_side(ts: _TestSide, k: float, src, need):
+    """Per source set: its nodes, the pair classes (near, non-parallel) and the PWS constants."""
+    s0, s1, _srad, sign, dist = src
+    sd = s1 - s0
+    sl = np.linalg.norm(sd, axis=1)
+    sdir = sd / sl[:, None]
+    nq = len(s0)
+    nodes, inv = np.unique(np.concatenate([s0, s1]), axis=0, return_inverse=True)
+    inv = inv.reshape(-1)
+    ids = _direction_ids(np.concatenate([ts.tdir, sdir]))
+    ns = len(ts.tl)
+    near = dist < ts.tl[:, None]
+    other = (ids[:ns, None] != ids[None, ns:]) & ~near
+    if need is not None:
+        near &= need
+        other &= need
+    ksl = k * sl
+    return dict(s0=s0, sl=sl, sdir=sdir, sign=sign, nodes=nodes, n1=inv[:nq], n2=inv[nq:],
+                near=np.nonzero(near), other=np.nonzero(other), cos=np.cos(ksl),
+                amp=1j * ETA0_OHM / (4.0 * np.pi * np.sin(ksl)))
+
+
+def _rows_into(blk, ts: _TestSide, k: float, src: dict, r0: int, r1: int, c0: int, c1: int) -> None:
+    """Add one source set's blocks for test rows r0:r1 and source columns c0:c1 to ``blk[p, e', q, e]``.
+
+    Three paths, each the same Galerkin quadrature on the test segment:
+
+    - parallel pairs (|t x s| < 1e-12: along one straight wire, between parallel elements): the
+      field is axial, -t . E = -(t . s) A (c g_1 - g_2) for shape 1 (``kernel.segment_e_terms``), with
+      g_i = e^{-jkR_i}/R_i at the two source ends. R depends only on the test point and the source
+      *node*, so the weighted sums H_e(p, node) = sum_i w_i f_e(s_i) g(x_i, node) are formed once
+      per test segment and node (a node is shared by two segments), and each block combines four;
+    - other pairs: the full closed-form field (axial and radial parts) at each test point;
+    - near pairs (closer than one test-segment length): the sinh-mapped end-clustered rule.
+
+    The first is computed for the whole rectangle, the others overwrite their pairs.
+    """
+    n1, n2, nodes = src["n1"][c0:c1], src["n2"][c0:c1], src["nodes"]
+    used, loc = np.unique(np.concatenate([n1, n2]), return_inverse=True)
+    loc = loc.reshape(-1)
+    xr = ts.x[r0:r1]
+    nu = nodes[used]
+    r = np.sqrt(sum((xr[..., j, None] - nu[:, j]) ** 2 for j in range(3)) + ts.a2[r0:r1, None, None])
+    g = np.exp(-1j * k * r)
+    g /= r
+    h = np.matmul(ts.wf[r0:r1], g)                                   # (c, 2, nodes)
+    ha, hb = h[:, :, loc[:c1 - c0]], h[:, :, loc[c1 - c0:]]          # at the source start / end nodes
+    coef = (ts.tdir[r0:r1] @ src["sdir"][c0:c1].T)[:, None, :] * (-src["sign"] * src["amp"][c0:c1])
+    cc = src["cos"][c0:c1]
+    part = np.empty((r1 - r0, 2, c1 - c0, 2), dtype=complex)
+    part[..., 0] = coef * (cc * ha - hb)
+    part[..., 1] = coef * (cc * hb - ha)
+    for rule in ("other", "near"):
+        ip, iq = src[rule]
+        lo, hi = np.searchsorted(ip, [r0, r1])
+        if hi > lo:
+            part[ip[lo:hi] - r0, :, iq[lo:hi] - c0, :] = src["sign"] * _pair_list(
+                ts, k, ip[lo:hi], iq[lo:hi], rule, src)
+    blk[:, :, c0:c1, :] += part
+
+
+def _pair_list(ts: _TestSide, k, ip, iq, rule, src):
+    """2x2 reaction blocks (n, 2, 2) of the pairs (ip, iq), full closed-form field at each test point."""
+    s0, sl, sdir = src["s0"], src["sl"], src["sdir"]
+    out = np.empty((len(ip), 2, 2), dtype=complex)
+    if rule == "near":
+        b = np.sqrt(ts.a2[ip])
+        sa, wa = sinh_rule(0.5 * ts.tl[ip], b, N_NEAR)
+        sp = np.concatenate([sa, ts.tl[ip, None] - sa], axis=1)
+        wp = np.concatenate([wa, wa], axis=1)
+        fp1, fp2 = _test_shapes(sp, ts.tl[ip, None], k)
+        xp = ts.t0[ip, None, :] + sp[..., None] * ts.tdir[ip, None, :]
+        args = (xp, wp, fp1, fp2)
+    else:
+        args = (ts.x[ip], ts.w[ip], ts.f1[ip], ts.f2[ip])
+    step = max(1, _CHUNK // (2 * N_NEAR))
+    for j in range(0, len(ip), step):
+        a, q = ip[j:j + step], iq[j:j + step]
+        out[j:j + step] = _pair_blocks(*(v[j:j + step] for v in args), ts.tdir[a, None], s0[q, None],
+                                       sdir[q, None], sl[q, None], ts.a2[a, None], k)
+    return out
+
+
+def _needed_pairs(st: Structure):
+    """Segment pairs needed for the upper triangle of Z, and the basis pairs that may be mirrored.
+
+    Z is symmetric between basis functions whose halves all have one and the same radius (the
+    reduced kernel then uses that radius from either side: reciprocity, Harrington 1968 Sec. 4).
+    Computed both ways the two entries differ only by the error of the test quadrature (measured
+    |Z - Z^T| / max |Z| from 1e-13 to 1.4e-9, tests/test_wire_fill.py), so the mirrored entry is as
+    accurate as the one it replaces. Z[m, n] for m <= n
+    needs the blocks of the segments p of m and q of n, so block (p, q) is needed if the smallest
+    basis index on p is at most the largest on q, or if the pair cannot be mirrored.
+    """
+    p = st.half_to_basis
+    ns, nb = st.num_segments, p.shape[1]
+    rows, cols = np.nonzero(p)
+    seg = rows // 2
+    rad = st.radius_m[seg]
+    rmin = np.full(nb, np.inf)
+    rmax = np.full(nb, -np.inf)
+    np.minimum.at(rmin, cols, rad)
+    np.maximum.at(rmax, cols, rad)
+    cls = np.where(rmin == rmax, rmin, np.nan)                       # basis radius class (nan: mixed)
+    bmin = np.full(ns, nb, dtype=np.intp)
+    bmax = np.full(ns, -1, dtype=np.intp)
+    np.minimum.at(bmin, seg, cols)
+    np.maximum.at(bmax, seg, cols)
+    smin = np.full(ns, np.inf)
+    smax = np.full(ns, -np.inf)
+    with np.errstate(invalid="ignore"):   # nan (mixed radii) propagates on purpose
+        np.minimum.at(smin, seg, cls[cols])
+        np.maximum.at(smax, seg, cls[cols])
+    scls = np.where(smin == smax, smin, np.nan)                      # nan also for mixed or no basis
+    need = bmin[:, None] <= bmax[None, :]
+    need |= ~(scls[:, None] == scls[None, :])
+    mirror = cls[:, None] == cls[None, :]
+    return need, mirror
 
 
 def impedance_matrix(st: Structure) -> np.ndarray:
@@ -153,19 +261,41 @@ def impedance_matrix(st: Structure) -> np.ndarray:
     (Galerkin's method gives a symmetric matrix for a reciprocal medium).
     """
     k = 2.0 * math.pi * st.freq_hz / C0_M_S
-    s = sum(_reaction(st, k, src) for src in st.sources())
+    ns = st.num_segments
+    # Over real soil the tabulated remainder is not exactly symmetric: every block is computed there.
+    mirror = st.soil_eps_c is None
+    need, sym = _needed_pairs(st) if mirror else (None, None)
+    ts = _test_side(st, k)
+    srcs = [_source_side(ts, k, src, need) for src in st.sources()]
+    gmap = _gather_map(st.half_to_basis)
+    z = np.zeros((st.num_unknowns, st.num_unknowns), dtype=complex)   # p.T @ S @ p, a few test rows at a time
+    step = max(1, _CHUNK // (N_FAR * max(len(s["nodes"]) for s in srcs)))
+    for r0 in range(0, ns, step):
+        r1 = min(ns, r0 + step)
+        c0, c1 = 0, ns
+        if need is not None:
+            cols = np.flatnonzero(need[r0:r1].any(axis=0))
+            c0, c1 = (int(cols[0]), int(cols[-1]) + 1) if len(cols) else (0, 0)
+        blk = np.zeros((r1 - r0, 2, ns, 2), dtype=complex)
+        if c1 > c0:
+            for src in srcs:
+                _rows_into(blk, ts, k, src, r0, r1, c0, c1)
+        _add_rows(z, _project_columns(blk.reshape(2 * (r1 - r0), 2 * ns), gmap), 2 * r0, gmap)
     if st.soil_eps_c is not None:   # real ground: the images carry -K; add the Sommerfeld remainder
         from rfsafe.antenna.wire.ground import remainder_reaction
 
-        s = s + remainder_reaction(st, k)
-    return _project(s, st.half_to_basis)
+        z += _project(remainder_reaction(st, k), st.half_to_basis)
+    if mirror:
+        low = np.tril(sym, -1)
+        z[low] = z.T[low]
+    return z
 
 
-def _project(s: np.ndarray, p: np.ndarray) -> np.ndarray:
-    """``p.T @ s @ p`` for the sparse half-to-basis map ``p`` in O(N^2) instead of O(N^3).
+def _gather_map(p: np.ndarray):
+    """Columns of the sparse half-to-basis map as (row, weight) pairs, padded with weight 0: (width, Nb).
 
-    Each basis function has a few halves (two, more at a junction): its column of ``p`` is gathered
-    as (row, weight) pairs, padded to the longest column with weight 0.
+    Each basis function has a few halves (two, more at a junction), so the products below cost
+    O(N^2) instead of the O(N^3) of dense products.
     """
     rows, cols = np.nonzero(p)
     nb = p.shape[1]
@@ -178,13 +308,49 @@ def _project(s: np.ndarray, p: np.ndarray) -> np.ndarray:
     wts = np.zeros((width, nb), dtype=p.dtype)
     r_idx[slot, cols] = rows
     wts[slot, cols] = p[rows, cols]
-    half = np.zeros((s.shape[0], nb), dtype=np.result_type(s, p))
-    for j in range(width):
+    return r_idx, wts
+
+
+def _project_columns(s: np.ndarray, gmap) -> np.ndarray:
+    """``s @ p`` by gathering columns (see :func:`_gather_map`)."""
+    r_idx, wts = gmap
+    half = np.zeros((s.shape[0], r_idx.shape[1]), dtype=np.result_type(s, wts))
+    for j in range(len(r_idx)):
         half += s[:, r_idx[j]] * wts[j]
-    z = np.zeros((nb, nb), dtype=half.dtype)
-    for j in range(width):
-        z += wts[j][:, None] * half[r_idx[j], :]
+    return half
+
+
+def _project_rows(half: np.ndarray, gmap) -> np.ndarray:
+    """``p.T @ half`` by gathering rows (in place: the arrays are N^2)."""
+    r_idx, wts = gmap
+    if not len(r_idx):
+        return np.zeros((r_idx.shape[1], half.shape[1]), dtype=half.dtype)
+    z = half[r_idx[0]]
+    z *= wts[0][:, None]
+    step = max(1, _CHUNK // max(1, half.shape[1]))   # small temporaries (no fresh N^2 pages)
+    for j in range(1, len(r_idx)):
+        for i in range(0, len(z), step):
+            z[i:i + step] += half[r_idx[j, i:i + step]] * wts[j, i:i + step, None]
     return z
+
+
+def _add_rows(z: np.ndarray, rows: np.ndarray, h0: int, gmap) -> None:
+    """``z += p.T @ half`` where ``half`` holds ``rows`` from half index ``h0`` on and is zero elsewhere.
+
+    The k-th half of each basis function is taken in one pass (each basis once, so fancy-index
+    addition is safe); over all row blocks in order this sums exactly as :func:`_project_rows`.
+    """
+    r_idx, wts = gmap
+    for j in range(len(r_idx)):
+        sel = np.flatnonzero((r_idx[j] >= h0) & (r_idx[j] < h0 + len(rows)) & (wts[j] != 0))
+        if len(sel):
+            z[sel] += wts[j, sel, None] * rows[r_idx[j, sel] - h0]
+
+
+def _project(s: np.ndarray, p: np.ndarray) -> np.ndarray:
+    """``p.T @ s @ p`` for the sparse half-to-basis map ``p`` in O(N^2) (the Galerkin projection)."""
+    pt = _gather_map(p)
+    return _project_rows(_project_columns(s, pt), pt)
 
 
 #: Gauss-Legendre nodes per segment for the radiated-power check (more for long segments, see below).
@@ -206,7 +372,8 @@ def _radiated_power(st: Structure, k: float, seg_i: np.ndarray) -> float:
     perfect ground the antenna radiates half of what antenna and image radiate into full space,
     which is the real-real plus real-image sum), with J = w I(s) s_hat and rho = w dI/ds (the PWS
     current of each segment and its derivative; the basis is continuous, so no end charges). This
-    costs (N_POWER Ns)^2 kernel values, O(N^2) like the matrix fill, and shares nothing with the
+    costs (N_POWER Ns)^2 / 2 kernel values (the sum is symmetric in a and b: each pair once), O(N^2)
+    like the matrix fill, and shares nothing with the
     fill (which uses the reduced e^{-jkR}/R kernel and is tested on the wire surface): the ratio to
     the input power checks the solution. Points are 4 per segment up to kd = 0.7 (segments of
     lambda/10 or less; relative error below 1e-7 measured against the sphere integral of the
@@ -235,22 +402,30 @@ def _radiated_power(st: Structure, k: float, seg_i: np.ndarray) -> float:
         sdir = (s1 - s0) / d[:, None]
         pts = (s0[:, None, :] + s[..., None] * sdir[:, None, :]).reshape(-1, 3)
         if tpts is None:
-            tpts, tdir = pts, sdir
-            tcur, tchg = cur.reshape(-1), chg.reshape(-1)
-        jv = (sign * cur)[..., None] * sdir[:, None, :]                          # (Ns, q, 3)
-        jv = jv.reshape(-1, 3)
-        rho = (sign * chg).reshape(-1)
+            tpts = pts
+            # conjugated test sources: k J* (3 columns) and -rho*/k, against [J, rho] of the sources
+            tx = np.concatenate([k * (cur[..., None] * sdir[:, None, :]).reshape(-1, 3),
+                                 -chg.reshape(-1, 1) / k], axis=1).conj()
+        sx = np.concatenate([(sign * cur)[..., None] * sdir[:, None, :],
+                             (sign * chg)[..., None]], axis=2).reshape(-1, 4)
+        # The double sum is symmetric in the two points (real kernel and image sign, reciprocity),
+        # so each pair of row chunks is taken once, off-diagonal pairs twice.
+        # |a - b|^2 = |a|^2 + |b|^2 - 2 a.b as one matrix product of [a, |a|^2, 1] and [-2 b, 1, |b|^2]
+        ta = np.column_stack([tpts, np.einsum("ai,ai->a", tpts, tpts), np.ones(len(tpts))])
+        sb = np.column_stack([-2.0 * pts, np.ones(len(pts)), np.einsum("bi,bi->b", pts, pts)])
         m = len(pts)
         step = max(1, 2_000_000 // m)
-        for i in range(0, len(tpts), step):
+        for i in range(0, m, step):
             a = tpts[i:i + step]
-            r2 = (np.einsum("ai,ai->a", a, a)[:, None] + np.einsum("bi,bi->b", pts, pts)[None, :]
-                  - 2.0 * (a @ pts.T))
-            r = np.sqrt(np.maximum(r2, 0.0) + 1e-300)
-            kern = np.sin(k * r) / r                                               # k at R = 0
-            ta = (tcur[i:i + step, None] * np.repeat(tdir, q, axis=0)[i:i + step]).conj()
-            kj = kern @ jv                                                          # (chunk, 3)
-            total += float(np.real(k * np.sum(ta * kj) - np.sum(tchg[i:i + step].conj() * (kern @ rho)) / k))
+            r = ta[i:i + step] @ sb[i:].T
+            np.maximum(r, 1e-300, out=r)
+            np.sqrt(r, out=r)
+            kern = np.multiply(r, k)
+            np.sin(kern, out=kern)
+            kern /= r                                                                 # k at R = 0
+            v = np.sum(tx[i:i + step] * (kern @ sx[i:]), axis=0)
+            w = np.sum(tx[i:i + step] * (kern[:, :len(a)] @ sx[i:i + len(a)]), axis=0)
+            total += float(np.real(2.0 * np.sum(v) - np.sum(w)))
     return ETA0_OHM / (8.0 * math.pi) * total
 
 
@@ -263,6 +438,98 @@ def _directions(theta, phi):
 _NEAR_AXIS = 1e-3
 
 
+#: Straight runs of at least this many equal, connected, collinear segments take the factored
+#: evaluation of :func:`_run_vector`; the other segments are summed one by one.
+_RUN_MIN = 8
+#: ... and only for at least this many directions.
+_RUN_DIRECTIONS = 512
+
+
+def _uniform_runs(s0: np.ndarray, s1: np.ndarray) -> list[tuple[int, int]]:
+    """Index ranges [a, b) of consecutive segments that are connected, collinear and of one length."""
+    if not len(s0):
+        return []
+    d = s1 - s0
+    length = np.linalg.norm(d, axis=1)
+    sdir = d / length[:, None]
+    ok = np.all(s1[:-1] == s0[1:], axis=1)
+    ok &= np.abs(length[1:] - length[:-1]) <= 1e-12 * length[:-1]
+    ok &= np.all(np.abs(sdir[1:] - sdir[:-1]) <= 1e-12, axis=1)
+    cut = np.flatnonzero(~ok) + 1
+    return list(zip(np.concatenate([[0], cut]).tolist(), np.concatenate([cut, [len(s0)]]).tolist()))
+
+
+def _segment_sum(r, k, s0, s1, sdir, d, cur1, cur2):
+    """sum_q s_q int I_q e^{jk r . r'} dz' of the segments one by one, for directions r (n, 3)."""
+    kc, ks = k * np.cos(k * d), np.sin(k * d)
+    i1, i2 = cur1 / ks, cur2 / ks   # sin kd of the PWS shapes folded in
+    alpha = k * (r @ sdir.T)
+    p0 = np.exp(1j * k * (r @ s0.T))
+    p1 = np.exp(1j * k * (r @ s1.T))
+    den = k * k - alpha * alpha
+    jas = 1j * alpha * ks
+    amp = (i1 * (k * p1 - p0 * (kc + jas)) + i2 * (p1 * (jas - kc) + k * p0))
+    near = np.abs(den) < _NEAR_AXIS * k * k
+    with np.errstate(divide="ignore", invalid="ignore"):
+        amp /= den
+    if near.any():
+        a_n = alpha[near]
+        qn = np.nonzero(near)[1]
+        j1, j2 = radiation_integrals(a_n, d[qn], k)
+        amp[near] = p0[near] * (cur1[qn] * j1 + cur2[qn] * j2)
+    return amp @ sdir
+
+
+def _run_vector(r, k, s0, s1, cur1, cur2):
+    """The same sum for one straight run of m equal segments, in O(sqrt(m)) exponentials per direction.
+
+    Along the run every segment has the same direction s, length d and alpha = k r.s, and its end
+    phases are P_n = P_0 z^n at the nodes n = 0..m with z = e^{j alpha d}. The segment formula of
+    :func:`_radiation_vector` then sums to s P_0 [C(z) + j alpha sin(kd) D(z)] / (k^2 - alpha^2),
+    with polynomials C and D whose coefficients are the node sums of the end currents. They are
+    evaluated exactly (no approximation) by splitting n = a B + b (B ~ sqrt(m + 1)): a matrix product
+    of z^b (B powers) with the coefficients, then a sum over a weighted by z^{aB} (baby-step
+    giant-step polynomial evaluation). Directions within ``_NEAR_AXIS`` of the axis use the sinc
+    form segment by segment, as there.
+    """
+    m = len(s0)
+    step_v = (s1[-1] - s0[0]) / m
+    d = float(np.linalg.norm(step_v))
+    sdir = step_v / d
+    kc, ks = k * math.cos(k * d), math.sin(k * d)
+    i1, i2 = cur1 / ks, cur2 / ks
+    cpoly = np.zeros(m + 1, dtype=complex)
+    dpoly = np.zeros(m + 1, dtype=complex)
+    cpoly[1:] += k * i1 - kc * i2       # P1 of segment n - 1
+    cpoly[:-1] += k * i2 - kc * i1      # P0 of segment n
+    dpoly[1:] += i2
+    dpoly[:-1] -= i1
+    nb = math.isqrt(m) + 1
+    na = -(-(m + 1) // nb)
+    coef = np.zeros((2, na * nb), dtype=complex)
+    coef[0, :m + 1], coef[1, :m + 1] = cpoly, dpoly
+    coef = coef.reshape(2, na, nb).transpose(2, 0, 1).reshape(nb, 2 * na)   # [b, (poly, a)]
+    alpha = k * (r @ sdir)
+    ad = alpha * d
+    zb = np.exp(1j * ad[:, None] * np.arange(nb))
+    za = np.exp(1j * ad[:, None] * (nb * np.arange(na)))
+    mix = (zb @ coef).reshape(len(r), 2, na)
+    poly = np.einsum("npa,na->np", mix, za)
+    den = k * k - alpha * alpha
+    amp = np.exp(1j * k * (r @ s0[0])) * (poly[:, 0] + 1j * ks * alpha * poly[:, 1])
+    near = np.abs(den) < _NEAR_AXIS * k * k
+    with np.errstate(divide="ignore", invalid="ignore"):
+        amp /= den
+        out = amp[:, None] * sdir
+    if near.any():
+        dd = np.full(m, d)
+        rn = r[near]
+        j1, j2 = radiation_integrals(k * (rn @ sdir)[:, None] * np.ones(m), dd, k)
+        p0 = np.exp(1j * k * (rn @ s0.T))
+        out[near] = np.sum(p0 * (cur1 * j1 + cur2 * j2), axis=1)[:, None] * sdir
+    return out
+
+
 def _radiation_vector(st: Structure, k: float, seg_i: np.ndarray, rhat: np.ndarray) -> np.ndarray:
     """N(r_hat) = sum_q s_q int I_q e^{jk r_hat . r'} dz' over segments and images, (ndir, 3) [A m].
 
@@ -272,8 +539,9 @@ def _radiation_vector(st: Structure, k: float, seg_i: np.ndarray, rhat: np.ndarr
         int_0^d e^{j alpha z} sin k(d - z) dz * P0 = (k P1 - P0 (k cos kd + j alpha sin kd)) / (k^2 - alpha^2)
         int_0^d e^{j alpha z} sin kz dz * P0       = (P1 (j alpha sin kd - k cos kd) + k P0) / (k^2 - alpha^2)
 
-    which costs two complex exponentials per segment and direction; within ``_NEAR_AXIS`` of
-    alpha = +-k (directions along a segment) the sinc form of :func:`radiation_integrals` is used.
+    which costs two complex exponentials per segment and direction (fewer along straight runs of
+    equal segments, see :func:`_run_vector`); within ``_NEAR_AXIS`` of alpha = +-k (directions along
+    a segment) the sinc form of :func:`radiation_integrals` is used.
     """
     out = np.zeros(rhat.shape[:-1] + (3,), dtype=complex)
     flat = rhat.reshape(-1, 3)
@@ -282,26 +550,22 @@ def _radiation_vector(st: Structure, k: float, seg_i: np.ndarray, rhat: np.ndarr
         sd = s1 - s0
         d = np.linalg.norm(sd, axis=1)
         sdir = sd / d[:, None]
-        kc, ks = k * np.cos(k * d), np.sin(k * d)
-        i1, i2 = sign * seg_i[:, 0] / ks, sign * seg_i[:, 1] / ks   # sin kd of the PWS shapes folded in
-        step = max(1, _CHUNK // len(s0))
-        for i in range(0, len(flat), step):
-            r = flat[i:i + step]
-            alpha = k * (r @ sdir.T)
-            p0 = np.exp(1j * k * (r @ s0.T))
-            p1 = np.exp(1j * k * (r @ s1.T))
-            den = k * k - alpha * alpha
-            jas = 1j * alpha * ks
-            amp = (i1 * (k * p1 - p0 * (kc + jas)) + i2 * (p1 * (jas - kc) + k * p0))
-            near = np.abs(den) < _NEAR_AXIS * k * k
-            with np.errstate(divide="ignore", invalid="ignore"):
-                amp /= den
-            if near.any():
-                a_n = alpha[near]
-                qn = np.nonzero(near)[1]
-                j1, j2 = radiation_integrals(a_n, d[qn], k)
-                amp[near] = sign * p0[near] * (seg_i[qn, 0] * j1 + seg_i[qn, 1] * j2)
-            res[i:i + step] += amp @ sdir
+        cur1, cur2 = sign * seg_i[:, 0], sign * seg_i[:, 1]
+        # A few directions (peak search, gain toward places): one vectorised pass over all segments.
+        runs = [(a, b) for a, b in _uniform_runs(s0, s1) if b - a >= _RUN_MIN] if len(flat) >= _RUN_DIRECTIONS else []
+        single = np.ones(len(s0), dtype=bool)
+        for a, b in runs:
+            single[a:b] = False
+        one = np.flatnonzero(single)
+        if len(one):
+            step = max(1, _CHUNK // len(one))
+            for i in range(0, len(flat), step):
+                res[i:i + step] += _segment_sum(flat[i:i + step], k, s0[one], s1[one], sdir[one], d[one],
+                                                cur1[one], cur2[one])
+        for a, b in runs:
+            step = max(1, _CHUNK // (4 * math.isqrt(b - a) + 8))
+            for i in range(0, len(flat), step):
+                res[i:i + step] += _run_vector(flat[i:i + step], k, s0[a:b], s1[a:b], cur1[a:b], cur2[a:b])
     return out
 
 
@@ -553,7 +817,8 @@ def solve(spec, freq_hz: float, *, field_prefix: str = "", enforce_limits: bool 
     z = impedance_matrix(st)
     # Lumped loads (Harrington 1968, Sec. 4.5): Z_L in series with the gap at a node adds Z_L g^T g.
     z_load = load_impedances_ohm(geo, st.freq_hz)
-    z = z + st.load_coupling.T @ (z_load[:, None] * st.load_coupling)
+    if len(z_load):
+        z += st.load_coupling.T @ (z_load[:, None] * st.load_coupling)
     g = st.feed_coupling
     v = g.T @ st.feed_voltage_v
     c = np.linalg.solve(z, v)
@@ -570,8 +835,12 @@ def solve(spec, freq_hz: float, *, field_prefix: str = "", enforce_limits: bool 
     pts = np.concatenate([st.start_m, st.end_m])
     if st.ground:
         pts = np.concatenate([pts, pts * np.array([1.0, 1.0, -1.0])])
-    size = float(np.max(np.linalg.norm(pts[:, None, :] - pts[None, :, :], axis=-1))) if len(pts) < 3000 else \
-        float(np.linalg.norm(pts.max(0) - pts.min(0)))
+    if len(pts) < 3000:
+        step = max(1, _CHUNK // len(pts))
+        size = max(float(np.max(np.linalg.norm(pts[i:i + step, None, :] - pts[None, :, :], axis=-1)))
+                   for i in range(0, len(pts), step))
+    else:
+        size = float(np.linalg.norm(pts.max(0) - pts.min(0)))
     tmax = 0.5 * math.pi if st.ground else math.pi
     if st.soil_eps_c is None:
         p_rad = _radiated_power(st, k, seg_i)
