@@ -113,17 +113,26 @@ def test_farthest_part_from_the_declared_position():
     assert farthest_distance_m(gp, c) == pytest.approx(math.hypot(LAM / 4, LAM / 8))
 
 
-def test_site_near_field_flags_reach_the_beam_elements():
-    """On a site grid (distances from the declared position) a beam's near-field reach is lambda/2pi plus
-    the reach of its structure, so every point within lambda/2pi of any element is flagged."""
+def test_site_grid_flags_the_near_field_of_the_beam_elements():
+    """On a site grid a beam's near field is lambda/2pi from the nearest part of its structure (its assumed
+    span and boom when undeclared): a point just inside lambda/2pi of the element tip is flagged, one just
+    outside is not, though both are farther than lambda/2pi from the declared position."""
     from pathlib import Path
 
-    from rfsafe.site import load_site
+    from rfsafe.site import load_site, ratio_grid
     from rfsafe.site.assess import site_emitters
 
     demo = Path(__file__).resolve().parent.parent / "reports_demo" / "event_field_day.toml"
     ems, _, _ = site_emitters(load_site(demo))
-    assert ems   # the demo site has no wire antenna (their flags come from the wire geometry)
-    for e in ems:
-        lam_2pi = C0 / e.freq_hz / (2 * math.pi)
-        assert e.near_field_m > lam_2pi      # never the bare lambda/2pi from the centre
+    beam = [e for e in ems if e.transmitter == "HF CW" and e.configuration == "20m-cw"]
+    (e,) = beam
+    lam = C0 / e.freq_hz
+    assert e.near_field_m == pytest.approx(lam / (2 * math.pi))
+    # tip of the assumed reflector at the beam's height: right of the boom's rear end (azimuth 70 deg)
+    a = math.radians(e.azimuth_deg)
+    fwd, right = np.array([math.sin(a), math.cos(a)]), np.array([math.cos(a), -math.sin(a)])
+    tip = (np.array([e.x_m, e.y_m]) - fwd * BEAM_DEFAULT_BOOM_WAVELENGTHS * lam / 2
+           + right * BEAM_DEFAULT_SPAN_WAVELENGTHS * lam / 2)
+    pts = [tip + right * (0.98 * lam / (2 * math.pi)), tip + right * (1.02 * lam / (2 * math.pi))]
+    grid = ratio_grid(beam, [p[0] for p in pts], [p[1] for p in pts], [e.height_m])
+    assert grid.near_field.tolist() == [True, False]

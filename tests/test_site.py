@@ -121,15 +121,6 @@ def test_chunking_does_not_change_the_result():
     assert np.array_equal(a, b)
 
 
-def test_point_at_the_antenna_is_infinite_not_nan_and_near_field_is_flagged():
-    em = emitter(h=1.0, near_field_m=2.0, pattern=pt.make_pattern("half-wave-dipole"), polarisation="vertical")
-    got = site.ratio_grid([em], [0.0, 1.0, 3.0], [0.0, 0.0, 0.0], (1.0, 2.0))
-    assert np.all(np.isinf(got.ratio[:, 0]))
-    assert not np.isnan(got.ratio).any()
-    # horizontal distance 1 m at height 1.0 m: R = 1 < 2 m; at 3 m it is outside
-    assert got.near_field.tolist() == [True, True, False]
-
-
 def test_transmitter_ratios_sum_to_the_total_at_one_height():
     ems = [emitter("a", pattern=BEAM, azimuth_deg=45.0), emitter("b", x=4.0, y=1.0)]
     names, own = site.transmitter_ratios(ems, PX, PY, (1.5,))

@@ -35,6 +35,7 @@ y_m = 10.0
   id = "ant"
   kind = "isotropic"
   height_m = 1.5
+  aperture_m = 0.3
 
   [[stations.configurations]]
   id = "c1"

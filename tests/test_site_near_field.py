@@ -1,5 +1,6 @@
 """Site reviews show the moment-method near-field map of every wire antenna on the site."""
 
+import math
 from pathlib import Path
 
 import pytest
@@ -35,8 +36,8 @@ def test_site_without_wire_antennas_has_no_near_field_section(tmp_path):
 
 
 def test_site_grid_flags_points_near_any_part_of_a_wire_as_near_field(tmp_path):
-    # The site grid measures from the declared position; a wire antenna's near-field boundary holds from
-    # any part of its wires (issue 10: never from a reference point). A 20.1 m dipole declared at its
+    # A wire antenna's near-field boundary holds from any part of its wires (never from a reference point):
+    # the site grid measures from the nearest point of the declared wires. A 20.1 m dipole declared at its
     # centre, 7.1 MHz: boundary max(lambda/2pi, 2 D^2/lambda) = 2 x 20.1^2 / 42.2 = 19.1 m (Balanis,
     # Antenna Theory, Sec. 2.2.4). A point 15 m beyond one end (25 m from the centre) must be flagged.
     from rfsafe.site import load_site, ratio_grid, site_emitters
@@ -50,6 +51,13 @@ def test_site_grid_flags_points_near_any_part_of_a_wire_as_near_field(tmp_path):
     ems, _, _ = site_emitters(load_site(path))
     (em,) = ems
     boundary = 2 * 20.1 ** 2 / (299.792458 / 7.1)
-    assert em.near_field_m == pytest.approx(10.05 + boundary, rel=1e-3)
-    beyond_end = ratio_grid(ems, [20.0 + 10.05 + 15.0], [15.0], [8.0])
-    assert bool(beyond_end.near_field[0])
+    assert em.near_field_m == pytest.approx(boundary, rel=1e-3)
+    beyond_end = ratio_grid(ems, [20.0 + 10.05 + 15.0, 20.0 + 10.05 + 20.0], [15.0, 15.0], [8.0])
+    assert beyond_end.near_field.tolist() == [True, False]   # 15 m and 20 m beyond the end
+    # beyond the boundary the far-field estimate is taken from the wire's end, 20 m away (not 30.05 m from
+    # the centre): the solver's peak gain with F (OET Bulletin 65 sec. 2, S = P G F / (4 pi R^2))
+    from rfsafe.site.constants import ENVIRONMENTS
+
+    e = ENVIRONMENTS.index("uncontrolled")
+    expected = em.ratio_coefficient_m2[e] * 10 ** (em.pattern.peak_gain_dbi / 10) / (4 * math.pi * 20.0 ** 2)
+    assert beyond_end.ratio[e, 1] == pytest.approx(expected, rel=1e-5)

@@ -97,12 +97,17 @@ def _labels(ax, renderer, res, markers_xy):
     for area in res.areas:
         st = KIND_STYLE[area.kind]
         spot = _label_point(area.polygon, _inside, markers_xy, 0.0) or area.polygon[0]
-        top = max(p[1] for p in area.polygon)
+        top, bottom = max(p[1] for p in area.polygon), min(p[1] for p in area.polygon)
+        left, right = min(p[0] for p in area.polygon), max(p[0] for p in area.polygon)
         cx = float(np.mean([p[0] for p in area.polygon]))
+        cy = float(np.mean([p[1] for p in area.polygon]))
         box = dict(boxstyle="round,pad=0.2", facecolor="white", edgecolor=st["edgecolor"], linewidth=0.5, alpha=0.9)
         cands = [(0, 0, "center", "center")] + [(dx, dy, ha, va) for dx, dy, ha, va in around]
         best = None
-        for xy, offs in ((spot, cands), ((cx, top), [(0, 3, "center", "bottom"), (0, 14, "center", "bottom")])):
+        outside = (((cx, top), [(0, 3, "center", "bottom"), (0, 14, "center", "bottom")]),
+                   ((cx, bottom), [(0, -3, "center", "top"), (0, -14, "center", "top")]),
+                   ((right, cy), [(3, 0, "left", "center")]), ((left, cy), [(-3, 0, "right", "center")]))
+        for xy, offs in ((spot, cands),) + outside:
             t = None
             for dx, dy, ha, va in offs:
                 t = ax.annotate(area.label, xy, xytext=(dx, dy), textcoords="offset points", ha=ha, va=va,
@@ -135,8 +140,8 @@ def site_map_png(res, *, width_in: float = 10.2, height_in: float = 6.0, dpi: in
     log scale; the contour ratio = 1 of both environments (solid: uncontrolled, the public's
     keep-out line; dashed: controlled, nobody inside); the site boundary; the areas with their
     labels; the stations with their labels, beam headings (arrows) and dipole wires (bars); the
-    near-field reach on the ground (dotted circles); the suggested rope-off circles; the worst
-    point of each violation (V1, V2, ...; an open ring that leaves the antenna and the contours
+    ground within the near field of the nearest part of an antenna (dotted outlines); the suggested
+    rope-off circles; the worst point of each violation (V1, V2, ...; an open ring that leaves the antenna and the contours
     visible); a north arrow and a scale bar. ``boxes``, when given, receives (text, box) of every
     label drawn (for the tests that check that no two labels overlap).
     """
@@ -176,6 +181,9 @@ def site_map_png(res, *, width_in: float = 10.2, height_in: float = 6.0, dpi: in
         if (ctl > 1).any():
             ax.contour(g.x_m, g.y_m, ctl, levels=[1.0], colors=_KEEP_OUT, linewidths=1.2, linestyles="--")
 
+        if g.near_field.any():   # ground within the near field of the nearest part of some antenna (as evaluated)
+            ax.contour(g.x_m, g.y_m, g.near_field.astype(np.float32), levels=[0.5], colors="#555555",
+                       linewidths=0.8, linestyles=":", zorder=4)
         ax.add_patch(Polygon(res.boundary, closed=True, fill=False, edgecolor="black", linewidth=1.6, zorder=3))
         xr = g.extent_m[1] - g.extent_m[0]
         stations_xy = [(t.x_m, t.y_m) for t in res.transmitters] + [(v.x_m, v.y_m) for v in res.violations]
@@ -200,11 +208,6 @@ def site_map_png(res, *, width_in: float = 10.2, height_in: float = 6.0, dpi: in
                 ax.plot([em.x_m - half * math.cos(a), em.x_m + half * math.cos(a)],
                         [em.y_m + half * math.sin(a), em.y_m - half * math.sin(a)], color="#1f3a5f",
                         linewidth=2.0, solid_capstyle="butt", zorder=7)
-            dzmin = min(abs(h - em.height_m) for h in res.heights_m)
-            reach = math.sqrt(max(em.near_field_m ** 2 - dzmin ** 2, 0.0))
-            if reach > 0:
-                ax.add_patch(Circle((em.x_m, em.y_m), reach, fill=False, linestyle=":", linewidth=0.8,
-                                    edgecolor="#555555", zorder=4))
         for t in res.transmitters:
             if t.rope_off_radius_m:
                 ax.add_patch(Circle((t.x_m, t.y_m), t.rope_off_radius_m, fill=False, linestyle=(0, (6, 2)),
@@ -214,12 +217,13 @@ def site_map_png(res, *, width_in: float = 10.2, height_in: float = 6.0, dpi: in
         for v in res.violations:   # an open ring around the worst point: the antenna and contours stay visible
             ax.plot([v.x_m], [v.y_m], marker="o", markersize=11, markerfacecolor="none", markeredgecolor="#b3122b",
                     markeredgewidth=1.6, zorder=10, linestyle="none")
-        renderer = fig.canvas.get_renderer()
-        _labels(ax, renderer, res, stations_xy)
-
+        # the final limits and aspect first: the labels are placed in the pixels they are drawn at
         ax.set_xlim(g.extent_m[0], g.extent_m[1])
         ax.set_ylim(g.extent_m[2], g.extent_m[3])
         ax.set_aspect("equal")
+        ax.apply_aspect()
+        renderer = fig.canvas.get_renderer()
+        _labels(ax, renderer, res, stations_xy)
         ax.set_xlabel("x east [m]")
         ax.set_ylabel("y north [m]")
         ax.tick_params(labelsize=6.5)

@@ -158,8 +158,8 @@ def _map(res) -> list:
                f"{', '.join(f'{h:g}' for h in res.heights_m)} m, summed over all stations (each its worst "
                f"configuration). Magenta contours: ratio = 1 against the uncontrolled limit (solid; the public "
                f"must be kept out inside) and the controlled limit (dashed; nobody inside). Grid "
-               f"{res.grid_spacing_m:g} m, {g['nx']} x {g['ny']} points. Dotted circles: where the ground is in an "
-               f"antenna's near field (the far-field estimate is not valid there). Green dashed circles: the "
+               f"{res.grid_spacing_m:g} m, {g['nx']} x {g['ny']} points. Dotted outlines: ground within the near-field "
+               f"distance of the nearest part of an antenna (the far-field estimate is not valid there). Green dashed circles: the "
                f"suggested rope-off radius of each station with a keep-out zone (section 1). Red rings V1, V2, ...: "
                f"the worst point of each violation. x east, y north, metres.")
     return [KeepTogether([section_heading("3", "Site map"), Image(io.BytesIO(png), width=width, height=height),
@@ -172,8 +172,10 @@ def _stations(res, width) -> list:
     out.append(p("Keep-out distances are horizontal distances on the ground from the antenna to the farthest grid "
                  "point of the total keep-out zone where this station has the largest share (uncontrolled: the "
                  "public must be kept out; controlled: nobody). The peak-gain distance is the 3-D far-field "
-                 "compliance distance with peak gain toward every direction, an upper bound of the station's own "
-                 "zone. Rope-off radius: keep-out distance plus one grid spacing, rounded up to the next 0.5 m.",
+                 "compliance distance with peak gain toward every direction from the nearest part of the antenna, "
+                 "plus the reach of its structure from the declared position: an upper bound of the station's own "
+                 "zone. Rope-off radius: keep-out distance plus one grid spacing, rounded up to the next 0.5 m. Near "
+                 "field: lambda/2pi (or 2D^2/lambda for an aperture) from the nearest part of the antenna.",
                  "small"))
     headers = ["Station", "Antenna x, y, height m", "Configurations", "Gain toward points",
                "Keep-out unc / ctl m", "Peak-gain distance unc / ctl m", "Rope-off radius m", "Near field m"]

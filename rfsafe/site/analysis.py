@@ -65,7 +65,7 @@ class TransmitterSite:
     keep_out_m: dict[str, float]       # farthest grid point of the total zone where it dominates [m]
     own_keep_out_m: dict[str, float]   # farthest grid point where its own ratio alone exceeds 1 [m]
     rope_off_radius_m: float           # from the uncontrolled keep-out (see rope_off_radius_m)
-    peak_gain_distance_m: dict[str, float]   # sqrt(P F G_peak / (4 pi S_lim)): 3-D bound of its own zone [m]
+    peak_gain_distance_m: dict[str, float]   # sqrt(P F G_peak / (4 pi S_lim)) + reach: 3-D bound of its own zone [m]
     flags: tuple[str, ...]
 
 
@@ -139,15 +139,30 @@ def _axis(lo: float, hi: float, spacing: float) -> np.ndarray:
 def summed_reach_m(emitters: Sequence[SiteEmitter]) -> float:
     """Distance beyond which even the peak-gain sum of all emitters is below every limit [m].
 
-    At a distance of at least D from every antenna, the total ratio is at most
-    ``sum_t max_c c G_peak / (4 pi D^2)``; this returns the D where that bound is 1.
+    At a distance of at least D from every part of every antenna, the total ratio is at most
+    ``sum_t max_c c G_peak / (4 pi D^2)``; this returns the D where that bound is 1, plus the largest
+    reach of an antenna's structure from its declared position (the grid is laid out around the
+    declared positions).
     """
     names, groups = _groups(emitters)
     per_t = np.zeros((len(names), 2))
     for g in groups:
         per_t[g.transmitter] = np.maximum(per_t[g.transmitter],
                                           g.coefficient * 10.0 ** (g.pattern.peak_gain_dbi / 10.0))
-    return float(math.sqrt(per_t.sum(axis=0).max() / _FOUR_PI))
+    reach = max((g.reach_m for g in groups), default=0.0)
+    return float(math.sqrt(per_t.sum(axis=0).max() / _FOUR_PI)) + reach
+
+
+def _near_field_ground_reach_m(g, heights) -> float:
+    """Horizontal distance from the declared position within which the ground (at the evaluation heights)
+    may lie within the near-field distance of some part of the antenna [m]; 0 if nowhere.
+
+    Every part lies within ``reach_m`` of the declared position (triangle inequality), so this bounds it.
+    """
+    dz = max(min(abs(h - g.height_m) for h in heights) - g.reach_m, 0.0)
+    if g.near_field_m <= dz:
+        return 0.0
+    return g.reach_m + math.sqrt(g.near_field_m ** 2 - dz * dz)
 
 
 def _dist_to_antennas(px, py, positions) -> np.ndarray:
@@ -248,8 +263,9 @@ def analyse_site(emitters: Sequence[SiteEmitter], *, boundary, areas: Sequence[A
         grp = [g for g in groups if g.transmitter == t]
         nf = max(g.near_field_m for g in grp)
         tflags = []
-        dzmin = min(abs(h - g.height_m) for g in grp for h in heights)
-        nf_reach = math.sqrt(max(nf * nf - dzmin * dzmin, 0.0))   # near field's horizontal reach at the nearest height
+        # horizontal reach from the declared position of the ground within the near field of any part of
+        # the antenna (triangle inequality: every part lies within reach_m of the declared position)
+        nf_reach = max(_near_field_ground_reach_m(g, heights) for g in grp)
         if 0.0 < keep_out["uncontrolled"] <= nf_reach:
             tflags.append(f"{name}: the keep-out zone ({keep_out['uncontrolled']:.2f} m) lies inside the near "
                           f"field ({nf:.2f} m): far-field estimate; near-field analysis or measurement recommended")
@@ -260,13 +276,15 @@ def analyse_site(emitters: Sequence[SiteEmitter], *, boundary, areas: Sequence[A
             tflags.append(f"{name}: the keep-out zone is less than 3 grid spacings across; "
                           "use a finer grid_spacing_m to resolve it")
         flags.extend(tflags)
-        bound = np.max([g.coefficient * 10.0 ** (g.pattern.peak_gain_dbi / 10.0) for g in grp], axis=0)
+        # from the declared position: the compliance distance from the nearest part plus the structure's reach
+        bound = np.max([np.sqrt(g.coefficient * 10.0 ** (g.pattern.peak_gain_dbi / 10.0) / _FOUR_PI) + g.reach_m
+                        for g in grp], axis=0)
         tx_results.append(TransmitterSite(
             transmitter=name, x_m=grp[0].x_m, y_m=grp[0].y_m, height_m=grp[0].height_m,
             configurations=tuple(m.configuration for g in grp for m in g.members), near_field_m=nf,
             keep_out_m=keep_out, own_keep_out_m=own_keep,
             rope_off_radius_m=rope_off_radius_m(keep_out["uncontrolled"], grid_spacing_m),
-            peak_gain_distance_m={e: float(math.sqrt(bound[env_i[e]] / _FOUR_PI)) for e in ENVIRONMENTS},
+            peak_gain_distance_m={e: float(bound[env_i[e]]) for e in ENVIRONMENTS},
             flags=tuple(tflags)))
 
     # regions: grid points plus edge samples of the areas

@@ -5,6 +5,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import Callable
 
+from rfsafe.antenna.extent import shifted
 from rfsafe.errors import InputError
 from rfsafe.site.analysis import (
     RegionSite,
@@ -141,20 +142,10 @@ def site_emitters(loaded_site) -> tuple[list[SiteEmitter], list[SiteStationResul
             pat, how = _site_pattern(em.antenna, em.peak_gain_dbi, loaded.pattern_tables, f"{prefix}antennas[{k}]")
             used[em.antenna.id] = how
             cfg = next(c for c in evaluation.configurations if c.id == em.configuration)
+            # measured from the nearest part of the antenna, as the station evaluation measures it (the
+            # kernel takes the structure relative to the declared position, so that it moves with it)
             nf = max(cfg.near_field_distance_m, cfg.aperture_far_field_m or 0.0)
-            if em.antenna.kind != "wire" and em.extent is not None:
-                # the grid measures from the declared position: widen by the antenna's reach from it, so
-                # every point near any part of the antenna is flagged (a superset)
-                from rfsafe.antenna.extent import farthest_distance_m
-
-                nf += farthest_distance_m(em.extent, (em.x_m, em.y_m, em.height_m))
-            elif em.solution is not None:
-                # a wire antenna's boundary holds from any part of its solved wires: widen it by their
-                # farthest point from the declared position, so every point near any wire is flagged
-                import numpy as np
-
-                nodes = np.concatenate([em.solution.structure.start_m, em.solution.structure.end_m])
-                nf += float(np.linalg.norm(nodes - np.array([em.x_m, em.y_m, em.height_m]), axis=1).max())
+            extent = None if em.extent is None else shifted(em.extent, (-em.x_m, -em.y_m, -em.height_m))
             power = tuple(em.avg_power_at_antenna_w[e] for e in ENVIRONMENTS)
             limit = tuple(limit_equivalent_w_m2(em.limits[e], em.avg_power_at_antenna_w[e], em.pep_at_antenna_w)
                           for e in ENVIRONMENTS)
@@ -163,10 +154,10 @@ def site_emitters(loaded_site) -> tuple[list[SiteEmitter], list[SiteStationResul
                 x_m=s.x_m + em.x_m, y_m=s.y_m + em.y_m, height_m=em.height_m, pattern=pat, freq_hz=em.freq_hz,
                 power_w=power, limit_w_m2=limit, ground_factor=em.ground_factor,
                 azimuth_deg=em.antenna.azimuth_deg, tilt_deg=em.antenna.tilt_deg,
-                polarisation=em.antenna.polarisation, near_field_m=nf))
+                polarisation=em.antenna.polarisation, near_field_m=nf, extent=extent))
             if em.antenna.kind == "wire":
                 flags.append(f"{s.name}: wire antenna {em.antenna.id!r} is mapped with its solver peak gain in every "
-                             "direction (far field); its moment-method near-field map is in the site PDF, and rfsafe "
+                             "direction from the nearest point of its wires (far field); its moment-method near-field map is in the site PDF, and rfsafe "
                              "evaluate gives its near field at declared places")
         exceeded = tuple(f"station {s.name}, configuration {c.id}: {part} exceeds its rating"
                          for c in evaluation.configurations for part in c.exceeded_parts)
@@ -294,9 +285,13 @@ def assess_site(loaded_site, *, today=None, progress: Callable[[int, int], None]
     notes = (
         "Power chain per configuration as for a single station (rfsafe evaluate): average power = PEP x mode duty "
         "factor x the largest fill of the averaging window by the schedule, less feedline loss.",
-        f"Power density from each antenna: far-field prediction S = P G F / (4 pi R^2) with the gain toward the "
-        f"point (pattern where the antenna opts in with use_pattern = true, else its peak gain in every direction) "
-        f"and ground reflection {m.ground_reflection} (F = {gf:g}).",
+        f"Power density from each antenna: far-field prediction S = P G F / (4 pi R^2), as for a station's places: "
+        f"R is the distance to the nearest part of the antenna's radiating structure (wire geometry, textbook "
+        f"element lengths, a beam's declared or assumed span and boom, or the assumed size of an antenna of "
+        f"unknown size), never less than 0.01 m; the gain toward the point is taken from the declared position "
+        f"(pattern where the antenna opts in with use_pattern = true, else its peak gain in every direction; the "
+        f"peak gain wherever the point is in the antenna's near field at some height); ground reflection "
+        f"{m.ground_reflection} (F = {gf:g}).",
         "Each transmitter sends one configuration at a time: at every point and height its worst configuration "
         "there counts. All transmitters may transmit together: their exposure ratios are summed (conservative; "
         "simultaneous groups of station files are not used on a site).",
@@ -310,9 +305,9 @@ def assess_site(loaded_site, *, today=None, progress: Callable[[int, int], None]
         "points and along their edges at half the grid spacing.",
         f"Suggested rope-off radius: the farthest keep-out point attributed to the station (largest own share) plus "
         f"one grid spacing, rounded up to the next {ROPE_STEP_M:g} m.",
-        "Points within lambda/2pi (or 2D^2/lambda for an aperture) of any part of an antenna (its declared "
-        "position plus the reach of its elements, boom or assumed size) are in its near field, where the "
-        "far-field estimate is not valid; they are flagged.",
+        "Points within lambda/2pi (or 2D^2/lambda for an aperture) of the nearest part of an antenna (its "
+        "elements, boom, wires or assumed size) are in its near field, where the far-field estimate is not "
+        "valid; they are flagged.",
         f"Standard: {info.name}; the site's standard and ground reflection apply to every station.",
     )
     return SiteResult(

@@ -1,8 +1,13 @@
 """Site grid kernel: far-field exposure ratios of several emitters over a grid of points and heights.
 
 Power density from each emitter is the far-field prediction
-``S = P G(direction) F / (4 pi R^2)`` with the pattern gain toward the point;
-exposure ratios are ``S / S_lim`` with the plane-wave-equivalent limit of each
+``S = P G(direction) F / (4 pi R^2)``, as a station evaluation computes it at a
+place (rfsafe.assess): R is the distance to the nearest part of the antenna's
+radiating structure (rfsafe.antenna.extent; never less than
+:data:`MIN_FAR_FIELD_DIST_M`), the gain is the pattern's toward the point from
+the declared position, and where the point is within the near-field distance of
+any part of the antenna at some evaluation height, the peak gain replaces the
+pattern at every height (a far-field pattern's nulls do not hold there). Exposure ratios are ``S / S_lim`` with the plane-wave-equivalent limit of each
 environment. A transmitter sends one configuration at a time, so at every
 point and height each transmitter contributes its worst configuration there;
 the contributions of all transmitters are summed (all may transmit at once,
@@ -20,11 +25,16 @@ from typing import Callable, Sequence
 
 import numpy as np
 
+from rfsafe.antenna.extent import Extent, NearestPart, extent_key, farthest_distance_m, shifted
 from rfsafe.antenna.patterns import DOWNWARD_FLOOR_FRACTION, AntennaDirection, Pattern, beam_exponents
 from rfsafe.site.constants import _FOUR_PI
 
-__all__ = ["SiteEmitter", "RatioGrid", "ratio_grid", "transmitter_ratios"]
+__all__ = ["SiteEmitter", "RatioGrid", "ratio_grid", "transmitter_ratios", "MIN_FAR_FIELD_DIST_M"]
 
+#: Smallest distance used in the far-field formula [m], as for a station's places
+#: (rfsafe.assess.MIN_FAR_FIELD_DIST_M, the same value; tested): a point on an antenna, or inside the
+#: assumed envelope of one, gets a finite, very large ratio.
+MIN_FAR_FIELD_DIST_M = 0.01
 
 
 @dataclass(frozen=True)
@@ -59,8 +69,13 @@ class SiteEmitter:
     ground_factor : float
         Power-density ground-reflection factor F [1].
     near_field_m : float
-        Distance inside which the far-field estimate is not trusted
-        (lambda/2pi, or 2D^2/lambda for an aperture) [m].
+        Distance from the nearest part of the antenna inside which the
+        far-field estimate is not trusted (lambda/2pi, or 2D^2/lambda for an
+        aperture) [m].
+    extent : Extent or None
+        The radiating structure (rfsafe.antenna.extent) in coordinates
+        relative to the centre of radiation ``(x_m, y_m, height_m)`` [m], so
+        that it moves with the emitter; None: a point at the centre.
     """
 
     transmitter: str
@@ -77,6 +92,7 @@ class SiteEmitter:
     tilt_deg: float = 0.0
     polarisation: str = "horizontal"
     near_field_m: float = 0.0
+    extent: Extent | None = field(default=None, compare=False)
 
     @property
     def ratio_coefficient_m2(self) -> np.ndarray:
@@ -124,6 +140,17 @@ class _Group:
     coefficient: np.ndarray          # (2,) max over the group's configurations
     near_field_m: float
     members: list = field(default_factory=list)
+    extent: Extent | None = None     # site coordinates (None: a point at the centre)
+
+    @property
+    def reach_m(self) -> float:
+        """Largest distance from the centre of radiation to any part of the structure [m]."""
+        if self.extent is None:
+            return 0.0
+        return farthest_distance_m(self.extent, (self.x_m, self.y_m, self.height_m))
+
+    def nearest_part(self, px, py) -> NearestPart | None:
+        return None if self.extent is None else NearestPart(self.extent, px, py, dtype=_F32)
 
 
 def _groups(emitters: Sequence[SiteEmitter]) -> tuple[list[str], list[_Group]]:
@@ -135,14 +162,15 @@ def _groups(emitters: Sequence[SiteEmitter]) -> tuple[list[str], list[_Group]]:
             index[em.transmitter] = len(names)
             names.append(em.transmitter)
         key = (em.transmitter, em.x_m, em.y_m, em.height_m, em.pattern, em.azimuth_deg, em.tilt_deg,
-               em.polarisation)
+               em.polarisation, extent_key(em.extent))
         c = em.ratio_coefficient_m2
         if not np.all(np.isfinite(c)) or np.any(c <= 0):
             raise ValueError(f"emitter {em.transmitter}/{em.configuration}: coefficient {c} is not finite > 0")
         g = groups.get(key)
         if g is None:
+            ext = None if em.extent is None else shifted(em.extent, (em.x_m, em.y_m, em.height_m))
             groups[key] = _Group(index[em.transmitter], em.x_m, em.y_m, em.height_m, em.pattern,
-                                 em.azimuth_deg, em.tilt_deg, em.polarisation, c.copy(), em.near_field_m, [em])
+                                 em.azimuth_deg, em.tilt_deg, em.polarisation, c.copy(), em.near_field_m, [em], ext)
         else:
             g.coefficient = np.maximum(g.coefficient, c)
             g.near_field_m = max(g.near_field_m, em.near_field_m)
@@ -385,6 +413,39 @@ def _evaluator(g: _Group) -> tuple[Callable, Callable]:
     return prepare, at
 
 
+def _nearest_part_pass(grp: _Group, state, at, px, py, heights, geo, near) -> None:
+    """``G / (4 pi d^2)`` of one group at every height into ``geo`` (H, P); its near-field flags into ``near``.
+
+    ``at`` gives ``G / (4 pi R^2)`` with R from the centre of radiation; it is rescaled by ``R^2 / d^2``
+    with d the distance to the nearest part of the structure. Points within the near-field distance of
+    the structure at some height (or within MIN_FAR_FIELD_DIST_M of it) get the peak gain and
+    ``max(d, MIN_FAR_FIELD_DIST_M)`` at every height instead, as a station's places do.
+    """
+    part = grp.nearest_part(px, py)
+    rho2 = state[0]
+    dzs = [_F32(h - grp.height_m) for h in heights]
+    d2s = [rho2 + dz * dz for dz in dzs] if part is None else [part.squared_m2(_F32(h)) for h in heights]
+    thr2 = _F32(max(grp.near_field_m, MIN_FAR_FIELD_DIST_M) ** 2)
+    nf2 = _F32(grp.near_field_m ** 2)
+    close = np.zeros(rho2.shape, dtype=bool)
+    flagged = np.zeros(rho2.shape, dtype=bool) if nf2 < thr2 else close
+    for d2 in d2s:
+        close |= d2 < thr2
+        if flagged is not close:
+            flagged |= d2 < nf2
+    near |= flagged
+    idx = np.flatnonzero(close)
+    k_peak = _F32(10.0 ** (grp.pattern.peak_gain_dbi / 10.0) / _FOUR_PI)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        for out, h, dz, d2 in zip(geo, heights, dzs, d2s):
+            at(state, h - grp.height_m, out)
+            if part is not None:
+                out *= rho2 + dz * dz
+                out /= d2
+            if idx.size:
+                out[idx] = k_peak / np.maximum(d2[idx], _F32(MIN_FAR_FIELD_DIST_M ** 2))
+
+
 def _chunk_pass(names, groups, evaluators, px, py, heights, *, per_transmitter: bool):
     """Ratios for one chunk: totals (H, 2, P) or per transmitter (2, T, H, P)."""
     n_g, n_h, n_p = len(groups), len(heights), px.size
@@ -393,13 +454,7 @@ def _chunk_pass(names, groups, evaluators, px, py, heights, *, per_transmitter: 
     near = np.zeros(n_p, dtype=bool)
     for gi, (grp, (prepare, at)) in enumerate(zip(groups, evaluators)):
         state = prepare(px, py)
-        for hi, h in enumerate(heights):
-            at(state, h - grp.height_m, geo[hi, gi])
-        if grp.near_field_m > 0.0:
-            dzmin = min(abs(h - grp.height_m) for h in heights)
-            reach2 = grp.near_field_m ** 2 - dzmin * dzmin
-            if reach2 > 0.0:
-                near |= state[0] < reach2
+        _nearest_part_pass(grp, state, at, px, py, heights, geo[:, gi], near)
     counts = np.bincount([g.transmitter for g in groups], minlength=n_t)
     coef = np.array([g.coefficient for g in groups])          # (n_g, 2)
     if per_transmitter:
