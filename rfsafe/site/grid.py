@@ -424,7 +424,8 @@ def _nearest_part_pass(grp: _Group, state, at, px, py, heights, geo, near) -> No
     part = grp.nearest_part(px, py)
     rho2 = state[0]
     dzs = [_F32(h - grp.height_m) for h in heights]
-    d2s = [rho2 + dz * dz for dz in dzs] if part is None else [part.squared_m2(_F32(h)) for h in heights]
+    d2s = ([rho2 + _F32((h - grp.height_m) ** 2) for h in heights] if part is None   # as the evaluators round R^2
+           else [part.squared_m2(_F32(h)) for h in heights])
     thr2 = _F32(max(grp.near_field_m, MIN_FAR_FIELD_DIST_M) ** 2)
     nf2 = _F32(grp.near_field_m ** 2)
     close = np.zeros(rho2.shape, dtype=bool)
