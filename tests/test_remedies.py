@@ -286,3 +286,89 @@ def test_site_remedies_clear_the_violation_when_fed_back():
         assert region.worst_ratio[r.environment] >= 1.0 - R.RATIO_TOLERANCE
         if r.move_status == "solved":
             assert _at_limit(r.ratio_after_move)
+
+
+# --- Re-evaluation shortcuts (issue 18): the same numbers as the full evaluation, bit for bit ---
+# Identities, not reference values: place_totals and place_ratios are the evaluation itself with work the
+# answer never reads left out, so their numbers must equal assess's exactly (no tolerance).
+
+
+@pytest.mark.parametrize("name", ["demo_station.toml", "demo_wire_station.toml"])
+def test_place_totals_equal_a_fresh_evaluation_of_a_modified_station(name):
+    from rfsafe.assess import place_totals
+
+    loaded = load_station(DEMO / name)
+    memo: dict = {}
+    res, _ = assess_with_emitters(loaded, near_field_maps=False, memo=memo)
+    assert place_totals(loaded, memo) == [(p.label, p.total_ratio) for p in res.places]
+    tx = loaded.model.transmitters[0]
+    changed = R._set_pep(loaded, tx.id, tx.pep_w * 0.37)      # one transmitter changed, the rest from memo
+    fresh = assess(changed)
+    assert place_totals(changed, memo) == [(p.label, p.total_ratio) for p in fresh.places]
+    assert place_totals(changed) == [(p.label, p.total_ratio) for p in fresh.places]   # without memo
+
+
+def test_place_totals_keep_an_input_error_as_exceeding():
+    # a place moved onto the wire vertical (its body heights on the wire) is refused by the evaluation, with
+    # or without the memo; the remedies count it as exceeding
+    from rfsafe.errors import InputError
+
+    loaded = load_station(DEMO / "demo_wire_station.toml")
+    memo: dict = {}
+    assess_with_emitters(loaded, near_field_maps=False, memo=memo)
+    label = "Garden path beside the vertical"
+    on_wire = R._move_place(loaded, label, 12.0, 0.0)
+    with pytest.raises(InputError):
+        assess(on_wire)
+    with R._reused_evaluations(memo):
+        assert R.total_ratio(on_wire, label) == math.inf
+        assert R.total_ratio(on_wire, label) == math.inf       # the kept error, raised again
+        assert R.total_ratio(loaded, label) == next(p.total_ratio for p in assess(loaded).places if p.label == label)
+
+
+@pytest.mark.parametrize("name", ["demo_station.toml", "demo_wire_station.toml"])
+def test_place_ratios_equal_the_place_by_place_evaluation(name):
+    """The keep-out scan evaluates many places together; each ratio is the one a declared place gets."""
+    from rfsafe.assess import _place_exposure, place_ratios
+    from rfsafe.errors import InputError
+    from rfsafe.station.schema import Place
+
+    loaded = load_station(DEMO / name)
+    res, ems = assess_with_emitters(loaded, near_field_maps=False)
+    by_id = {c.id: c for c in res.configurations}
+    checked = 0
+    for em in ems:
+        cres = by_id[em.configuration]
+        reach = max(cres.near_field_distance_m, max(d.dist_m for d in cres.compliance_distances)) * 1.05
+        # a line through the antenna's foot, out past the near-field boundary: the pattern's inside/outside
+        # switch, the near-field/far-field switch of a wire, and for a wire standing on the ground its wire
+        for env in ("controlled", "uncontrolled"):
+            for heights in ([0.5, 1.0, 1.5, 2.0], [4.5]):
+                rs = [reach * k / 12 for k in range(13)]
+                xs = [em.x_m + r * 0.6 for r in rs]
+                ys = [em.y_m + r * 0.8 for r in rs]
+                batch = place_ratios(em, loaded, cres, env, xs, ys, heights)
+                for x, y, q in zip(xs, ys, batch):
+                    place = Place.model_construct(label="p", x_m=x, y_m=y, height_m=heights[0],
+                                                  body_heights_m=list(heights), environment=env)
+                    try:
+                        one = _place_exposure(em, loaded, 0, place, cres, em.solution).exposure_ratio
+                    except InputError:
+                        one = math.inf
+                    assert q == one, (em.configuration, env, x, y)
+                    checked += 1
+    assert checked >= 4 * 2 * 2 * 13
+
+
+def test_remedies_from_the_first_evaluation_equal_remedies_solved_afresh():
+    loaded = load_station(DEMO / "demo_wire_station.toml")
+    res = R.with_answers(loaded, near_field_maps=False)
+    plain = assess(loaded)
+    R._budget[:] = [R.EVALUATION_BUDGET]
+    try:
+        places = R.place_remedies(loaded, plain)     # no memo from the first evaluation
+        configs = R.configuration_remedies(loaded, plain)
+    finally:
+        R._budget.clear()
+    assert places == res.place_remedies
+    assert configs == res.configuration_remedies
