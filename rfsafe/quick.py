@@ -159,11 +159,11 @@ def _option_error(err: InputError) -> InputError:
 
 def answer(q: QuickQuestion) -> QuickAnswer:
     """Evaluate one quick question (see :func:`question_station`)."""
-    from rfsafe.assess import assess
+    from rfsafe.assess import assess_with_emitters
     from rfsafe.remedies import largest_pep_w
 
     loaded = question_station(q)
-    res = assess(loaded)
+    res, _ = assess_with_emitters(loaded, near_field_maps=False)   # no plot data: the answer draws none
     cfg = res.configurations[0]
     dist = {d.environment: d.dist_m for d in cfg.compliance_distances}
     ratio = largest = None
@@ -175,10 +175,10 @@ def answer(q: QuickQuestion) -> QuickAnswer:
             largest[p.environment] = pep if status == "solved" else (math.inf if status == "already complies" else None)
     keep = None
     if q.height_m is not None:
-        from rfsafe.assess import assess_with_emitters
         from rfsafe.remedies import ground_keep_out
 
-        r2, ems = assess_with_emitters(dataclasses.replace(loaded, model=loaded.model.model_copy(update={"places": []})))
+        r2, ems = assess_with_emitters(dataclasses.replace(loaded, model=loaded.model.model_copy(update={"places": []})),
+                                       near_field_maps=False)
         keep = {k.environment: k.keep_out_m for k in ground_keep_out(loaded, r2, ems)
                 if k.level.startswith("standing")}
     exemption = "not applicable (FCC only)" if res.standard != "fcc" else "needs --distance-m"

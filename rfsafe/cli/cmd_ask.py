@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import math
+
 import typer
 
 _KINDS = "isotropic, short-dipole, half-wave-dipole, quarter-wave-vertical, beam, other"
@@ -9,8 +11,6 @@ _KINDS = "isotropic, short-dipole, half-wave-dipole, quarter-wave-vertical, beam
 
 def _numbers(option: str, text: str | None, *, positive: bool = True) -> list[float]:
     """A comma-separated list of finite numbers from an option."""
-    import math
-
     from rfsafe.errors import bad_value
 
     if text is None:
@@ -38,10 +38,13 @@ def _one(option: str, text: str | None, *, positive: bool = True) -> float | Non
 
 def answers_frame(answers, *, with_standard: bool):
     """The answers as a pandas DataFrame in SI/display units (one row per answer; CSV columns)."""
-    import math
-
     import pandas as pd
 
+    return pd.DataFrame(answers_rows(answers, with_standard=with_standard))
+
+
+def answers_rows(answers, *, with_standard: bool) -> list[dict]:
+    """The answers as rows (column name -> value, the CSV columns; the table needs no pandas)."""
     rows = []
     groups: dict = {}
     for a in answers:
@@ -68,7 +71,7 @@ def answers_frame(answers, *, with_standard: bool):
                 row[f"largest_pep_{env}_w"] = v if v is not None and math.isfinite(v) else None
             row["exemption"] = a.exemption
         rows.append(row)
-    return pd.DataFrame(rows)
+    return rows
 
 
 _HEADERS = {"standard": "standard", "governs": "gov", "band": "band", "freq_mhz": "MHz", "pep_w": "PEP W",
@@ -80,10 +83,12 @@ _HEADERS = {"standard": "standard", "governs": "gov", "band": "band", "freq_mhz"
             "exemption": "1.1307(b)(3)"}
 
 
-def render_answers(frame) -> str:
-    """The answers table for the terminal (numbers rounded for reading; CSV keeps full precision)."""
-    import pandas as pd
+def _missing(v) -> bool:
+    return v is None or (isinstance(v, float) and math.isnan(v))
 
+
+def render_answers(rows: list[dict]) -> str:
+    """The answers table for the terminal (numbers rounded for reading; CSV keeps full precision)."""
     from rfsafe.cli.output import compact_number, format_table
 
     def cell(col, v):
@@ -93,7 +98,7 @@ def render_answers(frame) -> str:
             return "n/a" if str(v).startswith("not applicable") else str(v).split(" (")[0]
         if isinstance(v, str):
             return v
-        if v is None or pd.isna(v):
+        if _missing(v):
             return "-"
         if col.endswith("_m"):
             return f"{v:.2f}"
@@ -101,19 +106,19 @@ def render_answers(frame) -> str:
             return f"{v:.2f}"
         return compact_number(v)
 
-    cols = list(frame.columns)
-    if "band" in cols and not frame["band"].astype(bool).any():
+    cols = list(dict.fromkeys(k for r in rows for k in r))   # every column, in order of first appearance
+    if "band" in cols and not any(r.get("band") for r in rows):
         cols.remove("band")
     same = []
-    if len(frame) > 1:   # a column with one value throughout is said once, above the table
+    if len(rows) > 1:   # a column with one value throughout is said once, above the table
         for c in ("standard", "mode", "gain_dbi", "line_loss_db", "pep_w", "freq_mhz", "exemption"):
-            if c in cols and frame[c].nunique(dropna=False) == 1:
-                same.append(f"{_HEADERS[c]} {cell(c, frame[c].iloc[0])}")
+            if c in cols and len({None if _missing(r.get(c)) else r[c] for r in rows}) == 1:
+                same.append(f"{_HEADERS[c]} {cell(c, rows[0].get(c))}")
                 cols.remove(c)
-    rows = [[cell(c, r[c]) for c in cols] for _, r in frame.iterrows()]
+    table_rows = [[cell(c, r.get(c)) for c in cols] for r in rows]
     align = "".join("l" if c in ("standard", "band", "mode", "exemption", "governs") else "r" for c in cols)
     keys = 1 + sum(1 for c in cols[1:3] if c in ("band", "freq_mhz", "standard", "governs"))
-    table = format_table([_HEADERS[c] for c in cols], rows, align=align, keys=min(keys, len(cols)))
+    table = format_table([_HEADERS[c] for c in cols], table_rows, align=align, keys=min(keys, len(cols)))
     return (("same in every row: " + "; ".join(same) + "\n") if same else "") + table
 
 
@@ -211,9 +216,8 @@ def ask(power_w: str = typer.Option(..., "--power-w", metavar="W[,W...]",
         output.print_json({"answers": answers, "band_source": BAND_SOURCE if band_list else None,
                            "cautions": CAUTIONS})
         raise typer.Exit(1 if exceeded else 0)
-    frame = answers_frame(answers, with_standard=len(stds) > 1)
     if csv_out:
-        typer.echo(frame.to_csv(index=False), nl=False)
+        typer.echo(answers_frame(answers, with_standard=len(stds) > 1).to_csv(index=False), nl=False)
         raise typer.Exit(1 if exceeded else 0)
     output.set_wide(wide)
     a0 = answers[0]
@@ -231,7 +235,8 @@ def ask(power_w: str = typer.Option(..., "--power-w", metavar="W[,W...]",
                      else f"standard: {a0.standard_name}"),
              ""]
     typer.echo(output.fit_text("\n".join(lines)))
-    typer.echo(render_single(a0) if len(answers) == 1 else render_answers(frame))
+    typer.echo(render_single(a0) if len(answers) == 1 else
+               render_answers(answers_rows(answers, with_standard=len(stds) > 1)))
     typer.echo("")
     typer.echo(output.fit_text("Compliance distances are 3-D, from the antenna (peak gain, far-field estimate); "
                                "keep-out ('ground'): horizontal, from the antenna's foot, for a standing person "
