@@ -210,3 +210,15 @@ def test_solution_equals_the_one_from_the_direct_fill_and_pattern(name, monkeypa
     e_fast, h_fast = fast.fields_phasor(pts, 100.0)
     e_slow, h_slow = slow.fields_phasor(pts, 100.0)
     assert _rel(e_fast, e_slow) < tol and _rel(h_fast, h_slow) < tol
+
+
+def test_diameter_equals_the_largest_pairwise_distance():
+    """The pruned search of solver._diameter returns exactly the brute-force maximum (it compares the
+    same pairs that can attain it), for random clouds, mirrored ones (images) and a circle (no pruning)."""
+    rng = np.random.default_rng(7)
+    clouds = [rng.normal(size=(int(rng.integers(2, 300)), 3)) * rng.random(3) * 10 for _ in range(60)]
+    clouds += [np.concatenate([c, c * [1.0, 1.0, -1.0]]) for c in clouds[:20]]
+    t = np.linspace(0.0, 2 * math.pi, 400, endpoint=False)
+    clouds.append(np.column_stack([np.cos(t), np.sin(t), 0 * t]))
+    for c in clouds:
+        assert S._diameter(c) == float(np.max(np.linalg.norm(c[:, None] - c[None], axis=-1)))

@@ -51,6 +51,13 @@ C0_M_S = 299_792_458.0
 N_FAR = 8
 #: Nodes per half segment (sinh-mapped) for pairs closer than one test-segment length.
 N_NEAR = 12
+#: Gauss-Legendre nodes along a test segment for source nodes at least ``WIDE_SEGMENTS`` test-segment
+#: lengths away (parallel pairs). There the integrand is smooth on the scale of the segment: measured
+#: against ``N_FAR`` nodes, the pair blocks change by at most 1e-11 of themselves for segments up to
+#: lambda/10 (6e-12 at lambda/10, 1e-13 at lambda/20 and finer; tests/test_wire_fill.py checks the
+#: whole matrix against the direct fill).
+N_WIDE = 5
+WIDE_SEGMENTS = 10.0
 #: Point-pair evaluations per vectorised chunk (memory bound).
 _CHUNK = 250_000
 
@@ -100,6 +107,9 @@ class _TestSide:
     f1: np.ndarray
     f2: np.ndarray
     wf: np.ndarray        # (Ns, 2, Q) complex: weight times test shape 1 and 2
+    mid: np.ndarray       # (Ns, 3) segment midpoints
+    xw: np.ndarray        # (Ns, N_WIDE, 3) test points of the wide rule
+    wfw: np.ndarray       # (Ns, 2, N_WIDE) its weights times the test shapes
 
 
 def _test_side(st: Structure, k: float) -> _TestSide:
@@ -112,7 +122,21 @@ def _test_side(st: Structure, k: float) -> _TestSide:
     f1, f2 = _test_shapes(s, tl[:, None], k)
     x = t0[:, None, :] + s[..., None] * tdir[:, None, :]
     wf = np.stack([w * f1, w * f2], axis=1).astype(complex)
-    return _TestSide(t0, tl, tdir, st.radius_m ** 2, x, w, f1, f2, wf)
+    xg, wg = gauss_legendre_01(N_WIDE)
+    s = tl[:, None] * xg[None, :]
+    ww = tl[:, None] * wg[None, :]
+    g1, g2 = _test_shapes(s, tl[:, None], k)
+    xw = t0[:, None, :] + s[..., None] * tdir[:, None, :]
+    wfw = np.stack([ww * g1, ww * g2], axis=1).astype(complex)
+    return _TestSide(t0, tl, tdir, st.radius_m ** 2, x, w, f1, f2, wf, 0.5 * (t0 + st.end_m), xw, wfw)
+
+
+def _node_sums(x, wf, nodes, a2, k):
+    """H[p, e, u] = sum_i wf[p, e, i] e^{-jkR}/R, R = sqrt(|x[p, i] - nodes[u]|^2 + a2[p]) (reduced kernel)."""
+    r = np.sqrt(sum((x[..., j, None] - nodes[:, j]) ** 2 for j in range(3)) + a2[:, None, None])
+    g = np.exp(-1j * k * r)
+    g /= r
+    return np.matmul(wf, g)
 
 
 def _source_side(ts: _TestSide, k: float, src, need):
@@ -155,12 +179,18 @@ def _rows_into(blk, ts: _TestSide, k: float, src: dict, r0: int, r1: int, c0: in
     n1, n2, nodes = src["n1"][c0:c1], src["n2"][c0:c1], src["nodes"]
     used, loc = np.unique(np.concatenate([n1, n2]), return_inverse=True)
     loc = loc.reshape(-1)
-    xr = ts.x[r0:r1]
     nu = nodes[used]
-    r = np.sqrt(sum((xr[..., j, None] - nu[:, j]) ** 2 for j in range(3)) + ts.a2[r0:r1, None, None])
+    h = _node_sums(ts.xw[r0:r1], ts.wfw[r0:r1], nu, ts.a2[r0:r1], k)   # (c, 2, nodes), wide rule
+    # Nodes closer than WIDE_SEGMENTS test-segment lengths (bounded by the distance to the midpoint)
+    # get the N_FAR rule, test row by test row.
+    lim = ((WIDE_SEGMENTS + 0.5) * ts.tl[r0:r1]) ** 2
+    close = sum((ts.mid[r0:r1, None, j] - nu[None, :, j]) ** 2 for j in range(3)) < lim[:, None]
+    ip, iu = np.nonzero(close)
+    xs = ts.x[r0 + ip]                                                 # (n, N_FAR, 3)
+    r = np.sqrt(sum((xs[..., j] - nu[iu, None, j]) ** 2 for j in range(3)) + ts.a2[r0 + ip, None])
     g = np.exp(-1j * k * r)
     g /= r
-    h = np.matmul(ts.wf[r0:r1], g)                                   # (c, 2, nodes)
+    h[ip, :, iu] = np.einsum("nei,ni->ne", ts.wf[r0 + ip], g)
     ha, hb = h[:, :, loc[:c1 - c0]], h[:, :, loc[c1 - c0:]]          # at the source start / end nodes
     coef = (ts.tdir[r0:r1] @ src["sdir"][c0:c1].T)[:, None, :] * (-src["sign"] * src["amp"][c0:c1])
     cc = src["cos"][c0:c1]
@@ -480,6 +510,16 @@ def _segment_sum(r, k, s0, s1, sdir, d, cur1, cur2):
     return amp @ sdir
 
 
+def _powers(z: np.ndarray, n: int) -> np.ndarray:
+    """(len(z), n) array of z^0 .. z^(n-1) by repeated products (|z| = 1: the rounding grows only
+    linearly, n 1e-16 relative, against an exponential per power)."""
+    out = np.empty((len(z), n), dtype=complex)
+    out[:, 0] = 1.0
+    for i in range(1, n):
+        np.multiply(out[:, i - 1], z, out=out[:, i])
+    return out
+
+
 def _run_vector(r, k, s0, s1, cur1, cur2):
     """The same sum for one straight run of m equal segments, in O(sqrt(m)) exponentials per direction.
 
@@ -511,8 +551,8 @@ def _run_vector(r, k, s0, s1, cur1, cur2):
     coef = coef.reshape(2, na, nb).transpose(2, 0, 1).reshape(nb, 2 * na)   # [b, (poly, a)]
     alpha = k * (r @ sdir)
     ad = alpha * d
-    zb = np.exp(1j * ad[:, None] * np.arange(nb))
-    za = np.exp(1j * ad[:, None] * (nb * np.arange(na)))
+    zb = _powers(np.exp(1j * ad), nb)                                   # z^b, b < nb
+    za = _powers(np.exp(1j * nb * ad), na)                              # z^(a nb), a < na
     mix = (zb @ coef).reshape(len(r), 2, na)
     poly = np.einsum("npa,na->np", mix, za)
     den = k * k - alpha * alpha
@@ -725,6 +765,23 @@ class WireSolution:
         return point_cautions(self, points_m, labels)
 
 
+def _diameter(pts: np.ndarray) -> float:
+    """Largest distance between two of the points [m] (exact).
+
+    With c the centre of the bounding box, r_i = |p_i - c|, R = max r_i and L a distance already
+    found, a pair farther apart than L has r_i + r_j > L, so both its points have r > L - R: only
+    those are compared pairwise (a few near the extremities for most structures).
+    """
+    r = np.linalg.norm(pts - 0.5 * (pts.max(0) + pts.min(0)), axis=1)
+    far = pts[int(np.argmax(r))]
+    best = float(np.max(np.linalg.norm(pts - far, axis=1)))
+    cand = pts[r > best - float(r.max())]
+    step = max(1, _CHUNK // max(1, len(cand)))
+    for i in range(0, len(cand), step):
+        best = max(best, float(np.max(np.linalg.norm(cand[i:i + step, None, :] - cand[None, :, :], axis=-1))))
+    return best
+
+
 def _peak_search(st, k, seg_i, starts, dth, dph, tmax):
     """Shrinking pattern searches for the largest intensity from each start (theta, phi) [rad].
 
@@ -835,12 +892,7 @@ def solve(spec, freq_hz: float, *, field_prefix: str = "", enforce_limits: bool 
     pts = np.concatenate([st.start_m, st.end_m])
     if st.ground:
         pts = np.concatenate([pts, pts * np.array([1.0, 1.0, -1.0])])
-    if len(pts) < 3000:
-        step = max(1, _CHUNK // len(pts))
-        size = max(float(np.max(np.linalg.norm(pts[i:i + step, None, :] - pts[None, :, :], axis=-1)))
-                   for i in range(0, len(pts), step))
-    else:
-        size = float(np.linalg.norm(pts.max(0) - pts.min(0)))
+    size = _diameter(pts) if len(pts) < 3000 else float(np.linalg.norm(pts.max(0) - pts.min(0)))
     tmax = 0.5 * math.pi if st.ground else math.pi
     if st.soil_eps_c is None:
         p_rad = _radiated_power(st, k, seg_i)
