@@ -106,3 +106,51 @@ def test_signoff_block_has_both_signers():
     text = pypdf.PdfReader(io.BytesIO(data)).pages[0].extract_text()
     assert "Evaluated by (name)" in text and "Reviewed by (name)" in text
     assert text.count("Signature") == 2
+
+
+def _long_pdf(n_rows: int) -> tuple[bytes, list]:
+    rows = [[f"R{i:04d}", "a long text " * (8 if i % 97 == 0 else 1), f"{i * 0.5:.1f}",
+             c.Styled(["COMPLIES", "second line"] if i % 2 else "EXCEEDS", color=c.EXCEEDS_COLOR, bold=True)]
+            for i in range(n_rows)]
+    extra = [("LINEABOVE", (0, r), (-1, r), 0.9, c.GRID) for r in range(1, n_rows + 1, 10)]
+    t = c.data_table(["key", "text", "value", "verdict"], rows, [20 * c.mm, 30 * c.mm, 20 * c.mm, 30 * c.mm],
+                     align="llrl", extra_style=extra)
+    pdf = c.build_pdf([t], title="t", author="a", subject="s", date_iso="2026-11-30", header_left="left",
+                      header_right="right", footer_left="foot")
+    return pdf, rows
+
+
+def test_long_table_pages_every_row_once_under_its_header():
+    """A table above LONG_TABLE_ROWS is laid out page by page: every row once, in order, and the header
+    row on every page (common practice for long tables)."""
+    n = 3 * c.LONG_TABLE_ROWS
+    pdf, _ = _long_pdf(n)
+    reader = pypdf.PdfReader(io.BytesIO(pdf))
+    assert len(reader.pages) > 5
+    keys = []
+    for page in reader.pages:
+        text = page.extract_text()
+        assert text.count("key") == 1 and "verdict" in text, "header repeated on every page"
+        keys += [w for w in text.split() if len(w) == 5 and w.startswith("R") and w[1:].isdigit()]
+    assert keys == [f"R{i:04d}" for i in range(n)]
+    assert _long_pdf(n)[0] == pdf           # the same input gives the same bytes
+
+
+def test_long_table_uses_plain_strings_where_text_fits():
+    """Plain strings for cells that fit (wrapped at spaces), a paragraph only for a word wider than its column."""
+    rows = [[f"r{i}", "short", "two words " * 6, c.Styled("W" * 60 if i == 3 else "OK", bold=True)]
+            for i in range(c.LONG_TABLE_ROWS + 1)]
+    t = c.data_table(["a", "b", "c", "status"], rows, [20 * c.mm, 20 * c.mm, 30 * c.mm, 20 * c.mm])
+    head, body, widths, base, row_cmds, zebra = t._args
+    assert all(isinstance(v, str) for v in body[0])
+    assert "\n" in body[0][2]                      # wrapped at spaces into lines of the column
+    for line in body[0][2].split("\n"):
+        assert stringWidth(line, c.FONT, 7.5) <= widths[2] - 5
+    assert isinstance(body[3][3], c.Paragraph)     # one word wider than the column: a paragraph wraps it
+    assert ("FONTNAME", 3, 3, c.FONT_BOLD) in row_cmds[0]
+
+
+def test_styled_cell_in_a_short_table_is_the_same_paragraph_markup():
+    para = c.Styled(["a +", "b"], color=c.EXCEEDS_COLOR, bold=True).paragraph()
+    assert para.text == f'<font name="{c.FONT_BOLD}" color="#b3122b">a +<br/>b</font>'
+    assert c.Styled("x < y").paragraph().text == "x &lt; y"

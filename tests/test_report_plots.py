@@ -1,6 +1,7 @@
 """Vector plots: log/linear mapping, decade labels, clipping, and the figures' curves against the results."""
 
 import math
+import re
 
 import numpy as np
 import pytest
@@ -236,3 +237,71 @@ def test_no_two_labels_overlap_on_the_site_map():
     assert {t.transmitter for t in res.transmitters} <= labels and {a.label for a in res.areas} <= labels
     assert colliding(boxes) == [], colliding(boxes)
     assert _inside(boxes, 709, 450) == []
+
+
+@pytest.fixture(scope="module")
+def crowded(tmp_path_factory):
+    """The demo station with 150 places on a grid around the house (many more than a map can number)."""
+    from rfsafe.assess import assess
+    from rfsafe.station import load_station
+
+    text = (_DEMOS / "demo_station.toml").read_text(encoding="utf-8")
+    rows = [f'{{label="G{k:03d}",x_m={-30.0 + 5.0 * (k % 13):.1f},y_m={-30.0 + 5.0 * (k // 13):.1f},height_m=1.5,'
+            f'environment="{"controlled" if k % 7 == 0 else "uncontrolled"}"}}' for k in range(150)]
+    head, *tables = text.split("\n[[")
+    tables = ["\n[[" + t for t in tables if not t.startswith("places]]")]     # the demo's own places go
+    path = tmp_path_factory.mktemp("crowded") / "crowded.toml"
+    path.write_text(head + "\nplaces = [\n" + ",\n".join(rows) + "\n]\n" + "".join(tables), encoding="utf-8")
+    res = assess(load_station(path))
+    assert len(res.places) == 150
+    return res
+
+
+def test_a_crowded_plan_numbers_the_highest_ratios_only(crowded):
+    """Above 60 places the plan numbers at most 40, highest total ratio first and spaced apart, and its
+    labels still do not overlap."""
+    from rfsafe.report.plan_map import MAX_NUMBERED_PLACES, numbered_places, plan_map_png
+
+    numbers = {pl.label: f"P{i + 1}" for i, pl in enumerate(crowded.places)}
+    chosen = numbered_places(crowded.places)           # no spacing asked: the 40 highest
+    assert len(chosen) == MAX_NUMBERED_PLACES == 40
+    lowest_chosen = min(pl.total_ratio for pl in chosen)
+    assert all(pl.total_ratio <= lowest_chosen for pl in crowded.places if pl not in chosen)
+    spaced = numbered_places(crowded.places, min_gap_m=8.0)
+    top = max(crowded.places, key=lambda pl: pl.total_ratio)
+    assert top in spaced and 1 < len(spaced) <= 40
+    assert all(math.hypot(a.x_m - b.x_m, a.y_m - b.y_m) >= 8.0 for a in spaced for b in spaced if a is not b)
+    boxes = []
+    _, w, h = plan_map_png(crowded, place_numbers=numbers, dpi=100, boxes=boxes)
+    shown = {t for t, _ in boxes if re.fullmatch(r"P\d+", t)}
+    assert numbers[top.label] in shown and 1 < len(shown) <= 40
+    assert colliding(boxes) == [], colliding(boxes)
+    assert _inside(boxes, w * 100, h * 100) == []
+
+
+def test_numbered_places_ranks_an_unknown_ratio_first():
+    from types import SimpleNamespace
+
+    from rfsafe.report.plan_map import numbered_places
+
+    places = [SimpleNamespace(total_ratio=0.5, x_m=k, y_m=0.0) for k in range(100)]
+    places.append(SimpleNamespace(total_ratio=math.nan, x_m=0.0, y_m=0.0))
+    chosen = numbered_places(places)
+    assert places[-1] in chosen and chosen[:39] == places[:39]
+
+
+def test_a_crowded_exposure_figure_names_the_highest_ratios(crowded):
+    """Every place keeps its marker; at most 25 are named, highest ratio first where a name finds room, without
+    overlaps, as the caption says."""
+    numbers = {pl.label: f"P{i + 1}" for i, pl in enumerate(crowded.places)}
+    c = crowded.configurations[0]
+    d, caption = exposure_distance_figure(c, crowded.places, width=88 * mm, height=54 * mm, place_numbers=numbers)
+    assert "Named: up to 25 of the 150 places, highest ratio first, where a name finds free room." in caption
+    boxes = drawing_text_boxes(d)
+    named = [t for t, _ in boxes if re.fullmatch(r"P\d+", t)]
+    assert 1 < len(named) <= 25
+    ratio = {numbers[pl.label]: x.exposure_ratio for pl in crowded.places for x in pl.exposures if x.configuration == c.id}
+    assert max(ratio, key=ratio.get) in named
+    assert colliding(boxes) == [], colliding(boxes)
+    markers = sum(1 for node in d.getContents() for _ in [0] if type(node).__name__ in ("Circle", "Rect"))
+    assert markers >= 150

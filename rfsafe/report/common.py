@@ -38,12 +38,13 @@ from reportlab.pdfbase import pdfmetrics
 from reportlab.pdfbase.pdfmetrics import stringWidth
 from reportlab.pdfbase.ttfonts import TTFont
 from reportlab.pdfgen.canvas import Canvas
-from reportlab.platypus import (BaseDocTemplate, CondPageBreak, Frame, PageTemplate, Paragraph, Spacer, Table,
-                                TableStyle)
+from reportlab.platypus import (BaseDocTemplate, CondPageBreak, Flowable, Frame, PageTemplate, Paragraph, Spacer,
+                                Table, TableStyle)
 
 __all__ = [
     "FONT", "FONT_BOLD", "PAGE", "PAGE_LANDSCAPE", "MARGIN", "COMPLIES_COLOR", "EXCEEDS_COLOR",
-    "ACCENT", "GRID", "register_fonts", "styles", "p", "table_style", "data_table", "kv_table",
+    "ACCENT", "GRID", "register_fonts", "styles", "p", "table_style", "data_table", "kv_table", "Styled",
+    "LONG_TABLE_ROWS",
     "verdict_box", "identity_block", "section_heading", "heading_before_table", "cautions_block", "signoff_block",
     "grouped_flags", "merge_numbers",
     "build_pdf", "frame_width", "fit_widths", "num", "ratio_text", "margin_text", "dist_text",
@@ -186,12 +187,39 @@ def table_style(*, n_rows: int, header_rows: int = 1, zebra: bool = True, extra=
     return TableStyle(cmds)
 
 
+class Styled:
+    """Table cell text in a colour and/or bold, on one or more lines.
+
+    In a table of up to :data:`LONG_TABLE_ROWS` rows it becomes a paragraph; in a longer one a plain
+    string with the colour and font set by the table's style (a paragraph only when a line is wider
+    than its column).
+    """
+
+    __slots__ = ("lines", "color", "bold")
+
+    def __init__(self, lines, *, color=None, bold: bool = False):
+        self.lines = [lines] if isinstance(lines, str) else list(lines)
+        self.color = color
+        self.bold = bold
+
+    def paragraph(self, style: str = "cell") -> Paragraph:
+        text = "<br/>".join(escape(str(line)) for line in self.lines)
+        if self.bold or self.color is not None:
+            attrs = (f' name="{FONT_BOLD}"' if self.bold else "") + (
+                f' color="#{self.color.hexval()[2:]}"' if self.color is not None else "")
+            text = f"<font{attrs}>{text}</font>"
+        return Paragraph(text, styles()[style])
+
+
 def _cell(value, style):
+    if isinstance(value, Styled):      # its own font and colour: the plain cell style beneath them
+        return value.paragraph()
     if isinstance(value, Paragraph) or hasattr(value, "wrapOn"):
         return value
     return p("" if value is None else str(value), style)
 
 
+@lru_cache(maxsize=65536)
 def _token_width(text: str, font: str, size: float) -> float:
     words = str(text).split()
     return max((stringWidth(w, font, size) for w in words), default=0.0)
@@ -245,6 +273,8 @@ def data_table(headers, rows, col_widths, *, align: str | None = None, extra_sty
     n = len(headers)
     align = align or ("l" + "r" * (n - 1))
     bold_rows = set(bold_rows)
+    if len(rows) > LONG_TABLE_ROWS:
+        return _long_table(headers, rows, col_widths, align, extra_style, zebra, bold_rows)
     st = styles()
     head = [_cell(h, "head_right" if a == "r" else "head") for h, a in zip(headers, align)]
     body = []
@@ -265,6 +295,161 @@ def data_table(headers, rows, col_widths, *, align: str | None = None, extra_sty
     t = Table(data, colWidths=fit_widths(col_widths, headers, rows), repeatRows=1, hAlign="LEFT")
     t.setStyle(table_style(n_rows=len(data), zebra=zebra, extra=extra_style))
     return t
+
+
+#: Tables with more body rows than this are laid out page by page (:class:`_PagedTable`), with plain-string
+#: cells wherever the text fits its column on one line (a paragraph per cell costs about 100 times more).
+LONG_TABLE_ROWS = 200
+#: Body rows handed to reportlab at a time when a long table is split across pages: more than a page holds.
+_PAGE_WINDOW = 160
+
+
+@lru_cache(maxsize=65536)
+def _line_width(text: str, font: str) -> float:
+    return stringWidth(text, font, styles()["cell"].fontSize)
+
+
+def _plain_lines(lines, font: str, room: float) -> str | None:
+    """``lines`` broken at spaces to fit ``room`` [pt] as one plain string, or None when a word is wider."""
+    out = []
+    space = _line_width(" ", font)
+    for line in lines:
+        if _line_width(line, font) <= room:
+            out.append(line)
+            continue
+        current, used = [], 0.0
+        for word in line.split(" "):
+            w = _line_width(word, font)
+            if w > room:
+                return None
+            if current and used + space + w > room:
+                out.append(" ".join(current))
+                current, used = [], 0.0
+            used += (space if current else 0.0) + w
+            current.append(word)
+        out.append(" ".join(current))
+    return "\n".join(out)
+
+
+def _long_table(headers, rows, col_widths, align, extra_style, zebra, bold_rows) -> "_PagedTable":
+    """The layout of :func:`data_table` for many rows, in time and memory linear in the rows.
+
+    Cells whose text fits their column, broken at spaces where needed, are plain strings set in the cell
+    font, size and alignment by the table style; colours and bold of :class:`Styled`
+    cells and bold rows become style commands of those cells. Other texts wrap as paragraphs.
+    """
+    n = len(headers)
+    widths = fit_widths(col_widths, headers, rows)
+    size, leading = styles()["cell"].fontSize, styles()["cell"].leading
+    head = [_cell(h, "head_right" if a == "r" else "head") for h, a in zip(headers, align)]
+    body, row_cmds = [], {}
+    for i, row in enumerate(rows):
+        if len(row) != n:
+            raise ValueError(f"table row {i} has {len(row)} cells, expected {n}")
+        bold = i in bold_rows
+        out = []
+        for j, (v, a) in enumerate(zip(row, align)):
+            room = widths[j] - 5.0          # left and right padding of the table style
+            if isinstance(v, Styled):
+                font = FONT_BOLD if (v.bold or bold) else FONT
+                text = _plain_lines([str(t) for t in v.lines], font, room)
+                if text is not None:
+                    out.append(text)
+                    cmds = row_cmds.setdefault(i, [])
+                    if font != FONT:
+                        cmds.append(("FONTNAME", j, j, font))
+                    if v.color is not None:
+                        cmds.append(("TEXTCOLOR", j, j, v.color))
+                else:
+                    out.append(v.paragraph("cell_bold" if bold else ("cell_right" if a == "r" else "cell")))
+            elif v is None or isinstance(v, str):
+                text = "" if v is None else v
+                font = FONT_BOLD if bold else FONT
+                plain = _plain_lines(text.split("\n"), font, room)
+                if plain is not None:
+                    out.append(plain)
+                else:
+                    style = "cell_bold" if bold else ("cell_right" if a == "r" else "cell")
+                    out.append(Paragraph(escape(text), styles()[style]) if not (bold and a == "r") else
+                               Paragraph(escape(text), ParagraphStyle("cell_bold_right", parent=styles()["cell_bold"],
+                                                                      alignment=TA_RIGHT)))
+            else:
+                out.append(_cell(v, "cell"))
+        if bold:
+            row_cmds.setdefault(i, []).append(("FONTNAME", 0, -1, FONT_BOLD))
+        body.append(out)
+    base = list(table_style(n_rows=1, zebra=False).getCommands())
+    base += [("FONTSIZE", (0, 1), (-1, -1), size), ("LEADING", (0, 1), (-1, -1), leading)]
+    base += [("ALIGN", (j, 1), (j, -1), "RIGHT") for j, a in enumerate(align) if a == "r"]
+    for cmd in extra_style:      # a command on one body row follows that row into whichever page it lands on
+        name, (c0, r0), (c1, r1), *args = cmd
+        if r0 == r1 and r0 >= 1:
+            row_cmds.setdefault(r0 - 1, []).append((name, c0, c1, *args))
+        else:
+            base.append(cmd)
+    return _PagedTable(head, body, widths, base, row_cmds, zebra)
+
+
+class _PagedTable(Flowable):
+    """A long table laid out a page at a time: each split hands reportlab only the next
+    :data:`_PAGE_WINDOW` rows (with the header, repeated on every page), so the work grows with the
+    rows, not with rows x pages as a single reportlab table's splits do."""
+
+    def __init__(self, head, body, widths, base, row_cmds, zebra, start: int = 0, hint: int = 48):
+        super().__init__()
+        self.hAlign = "LEFT"
+        self._args = (head, body, widths, base, row_cmds, zebra)
+        self._start = start
+        self._hint = hint        # rows to try first: a little more than the previous page took
+        self._whole = None       # the last rows as one reportlab table, once they are few enough
+        self.width = sum(widths)
+
+    def _window(self, count: int) -> Table:
+        head, body, widths, base, row_cmds, zebra = self._args
+        a = self._start
+        t = Table([head] + body[a:a + count], colWidths=widths, repeatRows=1, hAlign="LEFT")
+        cmds = list(base)
+        if zebra:                # zebra by the row's place in the whole table
+            cmds.append(("ROWBACKGROUNDS", (0, 1), (-1, -1), [None, ZEBRA] if a % 2 == 0 else [ZEBRA, None]))
+        for i in range(a, min(a + count, len(body))):
+            for name, c0, c1, *args in row_cmds.get(i, ()):
+                cmds.append((name, (c0, i - a + 1), (c1, i - a + 1), *args))
+        t.setStyle(TableStyle(cmds))
+        return t
+
+    def _remaining(self) -> int:
+        return len(self._args[1]) - self._start
+
+    def wrap(self, availWidth, availHeight):
+        if self._remaining() <= _PAGE_WINDOW:
+            if self._whole is None:
+                self._whole = self._window(self._remaining())
+            self.width, self.height = self._whole.wrap(availWidth, availHeight)
+            return self.width, self.height
+        # more rows than any page holds: report more than the room, so that the frame splits
+        self.height = availHeight + 1.0
+        return self.width, self.height
+
+    def split(self, availWidth, availHeight):
+        if self._remaining() <= _PAGE_WINDOW:
+            if self._whole is None:
+                self._whole = self._window(self._remaining())
+            return self._whole.split(availWidth, availHeight)
+        count = min(self._hint, _PAGE_WINDOW)
+        while True:
+            parts = self._window(count).split(availWidth, availHeight)
+            taken = parts[0]._nrows - 1 if parts else 0
+            if taken < count or count >= _PAGE_WINDOW:    # the page is full (or holds nothing)
+                break
+            count = min(2 * count, _PAGE_WINDOW)           # every row tried fits: try more
+        if taken <= 0:
+            return []
+        head, body, widths, base, row_cmds, zebra = self._args
+        return [parts[0], _PagedTable(head, body, widths, base, row_cmds, zebra, start=self._start + taken,
+                                      hint=taken + max(4, taken // 4))]
+
+    def draw(self):
+        self._whole.drawOn(self.canv, 0, 0)
 
 
 def kv_table(pairs, col_widths) -> Table:
@@ -444,6 +629,7 @@ def grouped_flags(items) -> list[str]:
     near: dict[str, dict[str, list]] = {}
     inside: dict[str, dict[str, list[str]]] = {}
     texts: dict[str, list[str]] = {}
+    listed: set[tuple[str, str]] = set()
     order: list[str] = []
     for subject, text in items:
         m = _NEAR_DIST.match(text)
@@ -470,7 +656,8 @@ def grouped_flags(items) -> list[str]:
         if text not in texts:
             texts[text] = []
             order.append(text)
-        if subject not in texts[text]:
+        if (text, subject) not in listed:
+            listed.add((text, subject))
             texts[text].append(subject)
     # texts that differ only in their numbers, one subject each: one line, the numbers listed in order
     masked: dict[str, list[str]] = {}

@@ -10,6 +10,7 @@ sampled |V| and |I|.
 
 from __future__ import annotations
 
+import math
 
 from reportlab.graphics.shapes import Circle, Drawing, Line, Rect, String
 from reportlab.lib import colors
@@ -25,6 +26,18 @@ __all__ = ["exposure_distance_figure", "exposure_plot_ranges", "exposure_legend"
 ENV_DASH = {"controlled": (4, 2), "uncontrolled": None}
 ENV_SHAPE = {"controlled": "square", "uncontrolled": "circle"}
 _MAX_DECADES_Y = 7
+
+
+#: Above this many places a figure names only the :data:`LABELLED_WHEN_MANY` with the highest ratio
+#: (more names would cover the figure; the caption says so).
+MAX_LABELLED_MARKERS = 60
+LABELLED_WHEN_MANY = 25
+
+
+def _rank(ratio) -> float:
+    """A ratio for ordering: one that is not a number ranks first (it is not known to be low)."""
+    r = float(ratio)
+    return r if r == r else math.inf
 
 
 def _curve(d_c: float, r: float) -> float:
@@ -127,7 +140,10 @@ def exposure_distance_figure(cfg, places, *, width: float, height: float, place_
     for r, ratio, env, label, _nf in points:
         X, Y = ax.marker(r, ratio, shape=ENV_SHAPE[env], color=PALETTE[env])
         labels.append((X, Y, label, PALETTE[env]))
-    ax.point_labels(labels)
+    if len(labels) > MAX_LABELLED_MARKERS:   # many places: every marker is drawn, the highest ratios named
+        _name_highest(ax, [labels[i] for i in sorted(range(len(points)), key=lambda i: (-_rank(points[i][1]), i))])
+    else:
+        ax.point_labels(labels)
     Y1 = ax.py(1.0)
     right, left = ax.x0 + ax.w - 2, ax.x0 + 2
     ax.label([(right, Y1 + 2.5, "end"), (right, Y1 - ax.font_size - 1, "end"), (left, Y1 + 2.5, "start"),
@@ -135,7 +151,41 @@ def exposure_distance_figure(cfg, places, *, width: float, height: float, place_
     parts = [f"{env} {dist[env]:.2f} m" for env in ("controlled", "uncontrolled") if env in dist]
     caption = (f"Compliance distance (dotted): {', '.join(parts)}. Shaded: inside {boundary:.2f} m "
                f"({'2D²/λ' if boundary > cfg.near_field_distance_m else 'λ/2π'}).")
+    if len(points) > MAX_LABELLED_MARKERS:
+        caption += (f" Named: up to {LABELLED_WHEN_MANY} of the {len(points):,} places, highest ratio first, where "
+                    "a name finds free room.")
     return d, caption
+
+
+def _name_highest(ax, items, size: float = 2.6) -> None:
+    """Name markers in the order given, each on the first free spot beside it (the spots of
+    :meth:`Axes.point_labels`); a marker without a free spot stays unnamed. At most
+    :data:`LABELLED_WHEN_MANY` names."""
+    from reportlab.pdfbase.pdfmetrics import stringWidth
+
+    from rfsafe.report.common import FONT_BOLD
+
+    fs = ax.font_size
+    named = 0
+    for X, Y, text, color in items:
+        w = stringWidth(text, FONT_BOLD, fs)
+        for k in range(3):
+            g = size + 1 + k * fs
+            cands = [(X + g, Y - fs * 0.3, "start"), (X - g, Y - fs * 0.3, "end"), (X, Y + g, "middle"),
+                     (X, Y - g - fs * 0.6, "middle"), (X + g * 0.8, Y + g * 0.8, "start"),
+                     (X + g * 0.8, Y - g * 0.8 - fs * 0.6, "start")]
+            free = None
+            for cx, cy, anchor in cands:
+                left = cx - w if anchor == "end" else (cx - w / 2 if anchor == "middle" else cx)
+                if ax._box_is_free((left, cy - fs * 0.25, left + w, cy + fs * 0.8)):
+                    free = (cx, cy, anchor)
+                    break
+            if free is not None:
+                ax.label([free], text, color=color, bold=True)
+                named += 1
+                break
+        if named == LABELLED_WHEN_MANY:
+            return
 
 
 def exposure_legend(width: float) -> Drawing:

@@ -11,7 +11,12 @@ from __future__ import annotations
 import io
 import math
 
-__all__ = ["plan_map_png", "KEEP_OUT_STYLE", "text_boxes"]
+__all__ = ["plan_map_png", "KEEP_OUT_STYLE", "text_boxes", "MAX_NUMBERED_PLACES", "numbered_places"]
+
+#: Above this many places the plan numbers only the :data:`MAX_NUMBERED_PLACES` with the highest total
+#: ratio (every place keeps its marker; the tables list them all): more numbers would cover the map.
+MAX_PLACES_ALL_NUMBERED = 60
+MAX_NUMBERED_PLACES = 40
 
 #: Keep-out contours (ratio = 1): colour per level, line style per environment.
 KEEP_OUT_STYLE = {
@@ -59,6 +64,47 @@ def _level_label(level, env, plan) -> str:
     top = plan.max_ratio[f"{level} {env}"]
     tail = f"keep-out, ratio = 1 (max {top:.3g})" if top > 1 else f"no keep-out (max ratio {top:.2g})"
     return f"{_LEVEL_TEXT[level]} ({where}), {env}:\n{tail}"
+
+
+def numbered_places(places, min_gap_m: float = 0.0, keep_clear=()) -> list:
+    """The places numbered on the plan, in declared order.
+
+    All of them up to :data:`MAX_PLACES_ALL_NUMBERED`; else at most :data:`MAX_NUMBERED_PLACES`, taken
+    in order of total ratio, highest first (the first declared among equals; a ratio that is not a
+    number first of all; the first is always taken), skipping a place closer than ``min_gap_m`` to one
+    already taken or to a point of ``keep_clear`` (the antennas' own labels), so that the numbers find
+    room beside their markers.
+    """
+    if len(places) <= MAX_PLACES_ALL_NUMBERED:
+        return list(places)
+
+    def rank(i):             # a ratio that is not a number ranks first: it is not known to be low
+        r = float(places[i].total_ratio)
+        return (-(r if r == r else math.inf), i)
+
+    taken: list[int] = []
+    for i in sorted(range(len(places)), key=rank):
+        x, y = getattr(places[i], "x_m", 0.0), getattr(places[i], "y_m", 0.0)
+        if not taken or all(math.hypot(x - places[k].x_m, y - places[k].y_m) >= min_gap_m for k in taken) and all(
+                math.hypot(x - cx, y - cy) >= min_gap_m for cx, cy in keep_clear):
+            taken.append(i)
+            if len(taken) == MAX_NUMBERED_PLACES:
+                break
+    return [places[i] for i in sorted(taken)]
+
+
+def _drop_overlapping_numbers(ax, renderer, numbers: set) -> None:
+    """Remove place numbers whose box meets an earlier label's (antenna names and the north arrow come
+    first): on a crowded plan a number that finds no free room is left off rather than covering another."""
+    kept = []
+    for t in list(ax.texts):
+        b = t.get_window_extent(renderer)
+        box = (b.x0, b.y0, b.x1, b.y1)
+        if t.get_text() in numbers and any(box[0] < k[2] and k[0] < box[2] and box[1] < k[3] and k[1] < box[3]
+                                           for k in kept):
+            t.remove()
+            continue
+        kept.append(box)
 
 
 def plan_map_png(res, *, place_numbers: dict, width_in: float = 7.0, dpi: int = _DPI,
@@ -175,11 +221,27 @@ def plan_map_png(res, *, place_numbers: dict, width_in: float = 7.0, dpi: int = 
             ant_marks.append((cx, cy, a.id))
 
         marks = []
-        for pl in res.places:
-            shape = "s" if pl.environment == "controlled" else "o"
-            ax.plot([pl.x_m], [pl.y_m], marker=shape, markersize=6, markerfacecolor="white", markeredgecolor="black",
-                    markeredgewidth=1.1, linestyle="none", zorder=11)
-            marks.append((pl.x_m, pl.y_m, place_numbers[pl.label]))
+        # numbers about two label widths apart (36 pt on the map) and from the antennas' labels and the north arrow
+        north = [(x[0] + 0.95 * span_x, y[0] + f * span_y) for f in (0.84, 0.9, 0.96)]    # the north arrow
+        numbered = numbered_places(res.places, min_gap_m=36.0 / 72.0 * span_x / map_w,
+                                   keep_clear=[(cx, cy) for cx, cy, _ in ant_marks] + north)
+        if len(numbered) == len(res.places):
+            for pl in res.places:
+                shape = "s" if pl.environment == "controlled" else "o"
+                ax.plot([pl.x_m], [pl.y_m], marker=shape, markersize=6, markerfacecolor="white",
+                        markeredgecolor="black", markeredgewidth=1.1, linestyle="none", zorder=11)
+                marks.append((pl.x_m, pl.y_m, place_numbers[pl.label]))
+        else:   # many places: one marker artist per environment, smaller markers, the highest ratios numbered
+            size = max(1.5, min(6.0, 0.6 * math.sqrt(map_w * map_h * 72.0 ** 2 / len(res.places))))
+            for env, shape in (("uncontrolled", "o"), ("controlled", "s")):
+                pts = [(pl.x_m, pl.y_m) for pl in res.places if pl.environment == env]
+                if pts:
+                    ax.plot([q[0] for q in pts], [q[1] for q in pts], marker=shape, markersize=size,
+                            markerfacecolor="white", markeredgecolor="black", markeredgewidth=min(1.1, size / 4),
+                            linestyle="none", zorder=11)
+            marks = [(pl.x_m, pl.y_m, place_numbers[pl.label]) for pl in numbered]
+            shown = {pl.label for pl in numbered}
+            obstacles += [(pl.x_m, pl.y_m) for pl in res.places if pl.label not in shown]
 
         ax.set_xlim(x[0], x[-1])
         ax.set_ylim(y[0], y[-1])
@@ -196,8 +258,14 @@ def plan_map_png(res, *, place_numbers: dict, width_in: float = 7.0, dpi: int = 
                                       sep=2, frameon=True, size_vertical=0.006 * span_y,
                                       fontproperties={"size": 6.5}))
         renderer = canvas.get_renderer()
-        _place_labels(ax, marks + [(cx, cy, f"{i}") for cx, cy, i in ant_marks], obstacles, renderer,
-                      colors=["black"] * len(marks) + [_ANT] * len(ant_marks))
+        ant_labels = [(cx, cy, f"{i}") for cx, cy, i in ant_marks]
+        if len(numbered) == len(res.places):
+            _place_labels(ax, marks + ant_labels, obstacles, renderer,
+                          colors=["black"] * len(marks) + [_ANT] * len(ant_marks))
+        else:    # crowded: the antennas are named first, the numbers find room around them
+            _place_labels(ax, ant_labels + marks, obstacles, renderer,
+                          colors=[_ANT] * len(ant_marks) + ["black"] * len(marks))
+            _drop_overlapping_numbers(ax, renderer, {t for _, _, t in marks})
 
         handles += [
             Line2D([], [], color=_ANT, linewidth=2.4, label="antenna seen from above, to its size"),

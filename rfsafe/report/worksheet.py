@@ -30,13 +30,13 @@ from xml.sax.saxutils import escape
 from reportlab.lib.units import mm
 from reportlab.platypus import CondPageBreak, Image, KeepTogether, Paragraph, Spacer
 
-from rfsafe.report.common import (COMPLIES_COLOR, EXCEEDS_COLOR, FONT_BOLD, build_pdf, cautions_block, data_table,
+from rfsafe.report.common import (COMPLIES_COLOR, EXCEEDS_COLOR, Styled, build_pdf, cautions_block, data_table,
                                   frame_width, grouped_flags, heading_before_table, identity_block, kv_table,
                                   margin_text, num, p, ratio_text, section_heading, signoff_block, styles)
 from rfsafe.report.figures import exposure_distance_figure, exposure_legend, figure_rows, line_profile_figure
 from rfsafe.report.near_field import comparison_exposures, near_field_comparison_section, near_field_map_section
 from rfsafe.exposure import horizontal_compliance_distance_m
-from rfsafe.report.plan_map import plan_map_png
+from rfsafe.report.plan_map import MAX_NUMBERED_PLACES, MAX_PLACES_ALL_NUMBERED, plan_map_png
 
 __all__ = ["build_worksheet_pdf", "write_worksheet", "worksheet_story", "EXEMPTION_STATEMENT"]
 
@@ -85,17 +85,21 @@ class _Notes:
         self.prefix = prefix
         self.keys: list[str] = []
         self.texts: list[list[str]] = []
+        self._number: dict[str, int] = {}      # key -> index (lookups stay constant-time in long tables)
+        self._seen: set[str] = set()
 
     def ref(self, texts) -> str:
         """Reference marks of ``texts``; texts that differ only in their numbers share one note."""
         refs = []
         for t in texts:
             key = _NUMBER.sub("#", t)
-            if key not in self.keys:
+            k = self._number.get(key)
+            if k is None:
+                k = self._number[key] = len(self.keys)
                 self.keys.append(key)
                 self.texts.append([])
-            k = self.keys.index(key)
-            if t not in self.texts[k]:
+            if t not in self._seen:
+                self._seen.add(t)
                 self.texts[k].append(t)
             refs.append(f"{self.prefix}{k + 1}")
         return ", ".join(f"[{r}]" for r in dict.fromkeys(refs))
@@ -184,10 +188,9 @@ def _hex(color) -> str:
     return "#" + color.hexval()[2:]
 
 
-def _coloured(text: str, ok: bool, style: str = "cell") -> Paragraph:
-    """Bold text in the pass (green) or fail (red) colour; the word carries the meaning."""
-    return Paragraph(f'<font name="{FONT_BOLD}" color="{_hex(COMPLIES_COLOR if ok else EXCEEDS_COLOR)}">'
-                     f'{_esc(text)}</font>', styles()[style])
+def _coloured(text: str, ok: bool) -> Styled:
+    """Bold table-cell text in the pass (green) or fail (red) colour; the word carries the meaning."""
+    return Styled(text, color=COMPLIES_COLOR if ok else EXCEEDS_COLOR, bold=True)
 
 
 # ------------------------------------------------------------------ 1 station
@@ -230,6 +233,10 @@ def _station(res, width, numbers) -> list:
                    "solid for the uncontrolled limit (the public is kept out inside), dashed for the controlled "
                    f"limit (nobody inside). Largest ratio on the plan: {tops}. Method: {plan.method}. Inside an "
                    "antenna's near-field boundary this is a far-field estimate only (see the flags).")
+        if len(res.places) > MAX_PLACES_ALL_NUMBERED:
+            caption += (f" Of the {len(res.places):,} places, at most {MAX_NUMBERED_PLACES} are numbered: the highest "
+                        "total ratio first, passing over a place too close to one already numbered or whose number "
+                        "finds no free room. Every place is marked, and all are listed in sections 1.2 and 4.1.")
         out.append(KeepTogether([section_heading("1.3", "Plan", level=1), img, p(caption, "caption")]))
     return out
 
@@ -437,8 +444,9 @@ def _places(res, width, numbers) -> list:
     out.append(section_heading("4.1", "Total at each place (all simultaneous transmitters)", level=1))
     rows = []
     for pl in res.places:
-        shares = Paragraph(" +<br/>".join(_esc(f"{s.configuration} {ratio_text(s.exposure_ratio)}")
-                                          for s in pl.contributions), styles()["cell"])
+        shares = pl.contributions
+        shares = Styled([f"{s.configuration} {ratio_text(s.exposure_ratio)}" + (" +" if k < len(shares) - 1 else "")
+                         for k, s in enumerate(shares)])
         rows.append([numbers[pl.label], pl.label, _xyz(pl.x_m, pl.y_m, pl.height_m),
                      pl.environment, ratio_text(pl.total_ratio),
                      margin_text(pl.total_margin_db), _coloured(pl.verdict.upper(), pl.verdict == "complies"),
