@@ -3,8 +3,11 @@
 Every answer here comes from the same evaluation as ``rfsafe evaluate`` (:func:`rfsafe.assess.assess`:
 power chain, line loss, pattern or peak gain, the moment-method near field of wire antennas, sums over
 simultaneous transmitters), run again on a copy of the station with one parameter changed, and a
-bracketing root finder on that parameter. No separate formula is used, so an answer fed back into the
-station file gives a total exposure ratio of 1 (within :data:`RATIO_TOLERANCE`, on the compliant side).
+bracketing root finder on that parameter. Only the places' totals are recomputed, and only where the
+change reaches (:func:`rfsafe.assess.place_totals`: an unchanged configuration or place keeps its
+numbers from the previous evaluation, which are the numbers a fresh evaluation would give). No separate
+formula is used, so an answer fed back into the station file gives a total exposure ratio of 1 (within
+:data:`RATIO_TOLERANCE`, on the compliant side).
 
 Parameters that scale the power (PEP, duty factor, schedule, line loss) are searched on a log scale by
 false position with the Illinois modification (the ratio is then close to a power law, so few
