@@ -87,31 +87,27 @@ GRID_CSV_HEADER = ("x_m,y_m,ratio_controlled,ratio_uncontrolled,worst_height_con
                    "worst_height_uncontrolled_m,near_field,region\n")
 
 
-def write_grid_csv(res, fh, *, rows_per_chunk: int = 64) -> None:
-    """Stream the evaluated grid as CSV to the text file ``fh``: one row per point.
+def write_grid_csv(res, fh, *, points_per_chunk: int = 16384) -> None:
+    """Stream the evaluated grid as CSV to the text file ``fh``: one row per point, row-major (y, then x).
 
-    The grid is formatted a few grid rows at a time, so memory beyond the grid itself stays small
-    whatever the grid size.
+    The grid is formatted ``points_per_chunk`` points at a time, so memory beyond the grid itself stays
+    the same whatever the grid's size or width.
     """
-    import io
-
     import numpy as np
 
     g = res.grid
-    quoted = np.array(['"' + str(s).replace('"', '""') + '"' for s in g.region_labels], dtype=object)
+    quoted = ['"' + str(s).replace('"', '""') + '"' for s in g.region_labels]
     fh.write(GRID_CSV_HEADER)
-    nx = g.x_m.size
-    for start in range(0, g.y_m.size, rows_per_chunk):
-        rows = slice(start, min(start + rows_per_chunk, g.y_m.size))
-        ny = rows.stop - rows.start
-        num = np.column_stack([np.tile(g.x_m, ny), np.repeat(g.y_m[rows], nx),
-                               g.ratio[0, rows].ravel(), g.ratio[1, rows].ravel(),
-                               g.worst_height_m[0, rows].ravel(), g.worst_height_m[1, rows].ravel()])
-        body = io.StringIO()
-        np.savetxt(body, num, fmt="%.6g", delimiter=",")
-        nf = np.where(g.near_field[rows].ravel(), "true", "false")
-        lab = quoted[g.region[rows].ravel()]
-        fh.write("".join(f"{line},{n},{q}\n" for line, n, q in zip(body.getvalue().splitlines(), nf, lab)))
+    nx, n = g.x_m.size, g.x_m.size * g.y_m.size
+    row_format = "%.6g,%.6g,%.6g,%.6g,%.6g,%.6g,%s,%s\n".__mod__
+    flat = [a.reshape(-1) for a in (g.ratio[0], g.ratio[1], g.worst_height_m[0], g.worst_height_m[1],
+                                    g.near_field, g.region)]
+    for start in range(0, n, points_per_chunk):
+        k = np.arange(start, min(start + points_per_chunk, n))
+        r0, r1, h0, h1, near, region = (a[start:k[-1] + 1] for a in flat)
+        cols = (g.x_m[k % nx].tolist(), g.y_m[k // nx].tolist(), r0.tolist(), r1.tolist(), h0.tolist(),
+                h1.tolist(), ["true" if v else "false" for v in near.tolist()], [quoted[i] for i in region.tolist()])
+        fh.write("".join(map(row_format, zip(*cols))))
 
 
 def grid_csv_bytes(res) -> bytes:
