@@ -365,9 +365,11 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
         # The solver's gain over real soil holds the Fresnel-reflected space wave: F would count it twice.
         ground_factor = 1.0
         soil = solution.ground_method.split(": near fields")[0]
-        flags.append(f"wire antenna over {soil}: near fields from the Sommerfeld integrals and gain from the "
-                     "space wave with Fresnel coefficients (ground reflection included, F = 1); this replaces "
-                     "the bound of free space and perfect ground")
+        flags.append(f"wire antenna over {soil}: near fields from the Sommerfeld integrals (at places with every "
+                     "part of the antenna at a Norton numerical distance of 200 or more, never within 15 wavelengths, "
+                     "from the reflection-coefficient approximation, within 0.6 % of the image field) and "
+                     "gain from the space wave with Fresnel coefficients (ground reflection included, F = 1); this "
+                     "replaces the bound of free space and perfect ground")
         gw = solution.ground_wave_bound_gain_dbi
         if gw is not None and gw > gain:
             # Along the ground the far field is Norton's ground wave, which the space-wave gain leaves out;

@@ -95,6 +95,10 @@ def build_result(path: Path) -> WireResult:
                                           distance_to_wire_m=float(dist[j]),
                                           e_field_v_m=float(e[j]), h_field_a_m=float(h[j])))
         cautions.extend(sol.point_cautions(pts, [p.label for p in spec.points]))
+        if sol.ground == "real":   # places given the reflection-coefficient approximation, by name
+            from rfsafe.antenna.wire.ground import approximation_cautions
+
+            cautions.extend(approximation_cautions(sol.structure, sol.k, pts, [p.label for p in spec.points]))
     from rfsafe.antenna.wire.loads import load_stress
     from rfsafe.antenna.wire.shield import common_mode_current
 

@@ -487,6 +487,89 @@ class ReflectionTable:
         return out.T.reshape((-1,) + shape)
 
 
+def rca_quantities(k0: float, eps_c: complex, rho, h):
+    """The table's nine remainder quantities (``ReflectionTable.lookup``) by the reflection-coefficient
+    approximation: the perfect-ground image field with its parts in and across the plane of incidence
+    weighted by the plane-wave Fresnel coefficients of the image ray's incidence angle, minus K times it.
+
+    With cos(theta_i) = h / R2 (R2 the image distance), the field of the image in the plane of incidence
+    (E of a TM wave, H of a TE wave) is weighted by Gamma_TM, that across it by -Gamma_TE (both give the
+    image back over a perfect conductor, and zero reflection over eps_c = 1). It is the leading term of the
+    saddle-point evaluation of the Sommerfeld integral (Banos 1966; Chew 1990, Sec. 2.4; from memory): the
+    Norton surface wave and the near-zone corrections are left out, so it is used only where
+    ``rca_valid`` holds.
+
+    Parameters
+    ----------
+    rho, h : ndarray
+        Horizontal distance and height sum z + z' [m] (same shape).
+
+    Returns
+    -------
+    ndarray (9, ...) complex
+        As ``ReflectionTable.lookup`` [V/m and A/m per A m].
+    """
+    rho = np.asarray(rho, dtype=float)
+    h = np.asarray(h, dtype=float)
+    r = np.sqrt(rho * rho + h * h)
+    c, s = h / r, rho / r
+    gv, gh = fresnel_coefficients(c, eps_c)
+    k_img = image_factor(eps_c)
+    tv, th = gv - k_img, gh + k_img
+    kr = k0 * r
+    g = np.exp(-1j * kr) / (4.0 * math.pi * r)
+    a = 1.0 - 1j / kr - 1.0 / kr ** 2
+    b = -1.0 + 3j / kr + 3.0 / kr ** 2
+    ge = -1j * k0 * ETA0_OHM * g           # -j omega mu0 g
+    gm = (1j * k0 + 1.0 / r) * g
+    # image of the vertical dipole (moment +z at -z'), and of the x dipole (moment -x) at azimuth 0 and 90 deg
+    return np.stack([tv * ge * b * c * s, tv * ge * (a + b * c * c), tv * gm * s,
+                     tv * ge * (-a - b * s * s), tv * ge * (-b * s * c), tv * gm * c,
+                     th * (-ge * a), -th * gm * c, th * gm * s])
+
+
+#: Smallest Norton numerical distance |w| of a source-point pair at which the near field uses the
+#: reflection-coefficient approximation (``rca_quantities``) instead of the Sommerfeld integrals. The
+#: approximation leaves out Norton's ground wave (1 - R_v) F(w), F(w) ~ -1/(2w) for large |w| (Norton 1937,
+#: from memory), and the near-zone corrections: measured against the direct Sommerfeld integral for every soil
+#: class at 1.8-144 MHz, its error is at most 1.1/|w| of the image field (tests/test_ground.py), so below
+#: 0.6 % here, about the interpolation error of the tables. It needs the image distance to be roughly
+#: 50 wavelengths or more (far more along the ground), so places near an antenna always get the exact method.
+RCA_MIN_NUMERICAL_DISTANCE = 200.0
+
+
+def numerical_distance(k0: float, eps_c: complex, rho, h):
+    """Norton's numerical distance |w| = |k0 R2 / 2 (cos t + u sqrt(1 - u^2 sin^2 t))^2| [1], u = eps_c^-1/2.
+
+    R2 = sqrt(rho^2 + h^2) is the image distance and t the incidence angle of the image ray, cos t = h / R2
+    (K. A. Norton, Proc. IRE 25, 1937; the form of R. E. Collin, Antennas and Radiowave Propagation, 1985;
+    from memory).
+    """
+    r = np.hypot(rho, h)
+    c = np.asarray(h, dtype=float) / r
+    u = 1.0 / np.sqrt(complex(eps_c))
+    return 0.5 * k0 * r * np.abs(c + u * np.sqrt(1.0 - u * u * (1.0 - c * c))) ** 2
+
+
+def rca_radius_m(k0: float, eps_c: complex) -> float:
+    """Image distance [m] below which no pair reaches ``RCA_MIN_NUMERICAL_DISTANCE`` (exact method there)."""
+    c = np.linspace(0.0, 1.0, 401)
+    u = 1.0 / np.sqrt(complex(eps_c))
+    m_max = float(np.max(np.abs(c + u * np.sqrt(1.0 - u * u * (1.0 - c * c))) ** 2))
+    return 2.0 * RCA_MIN_NUMERICAL_DISTANCE / (k0 * m_max * 1.01)
+
+
+def rca_mask(k0: float, eps_c: complex, rho, h):
+    """True where a pair (horizontal distance rho, height sum h [m]) may use the reflection-coefficient
+    approximation (``numerical_distance`` at least ``RCA_MIN_NUMERICAL_DISTANCE``)."""
+    rho = np.asarray(rho, dtype=float)
+    h = np.asarray(h, dtype=float)
+    mask = np.hypot(rho, h) >= rca_radius_m(k0, eps_c)
+    if mask.any():
+        mask[mask] = numerical_distance(k0, eps_c, rho[mask], h[mask]) >= RCA_MIN_NUMERICAL_DISTANCE
+    return mask
+
+
 _TABLES: dict = {}
 
 
@@ -602,14 +685,8 @@ def structure_table(st, k: float, obs_m=None) -> ReflectionTable:
                             z_hi + float(obs[:, 2].max()))
 
 
-def remainder_near_fields(st, k: float, seg_i: np.ndarray, points_m: np.ndarray):
-    """Sommerfeld remainder of E [V/m] and H [A/m] at points (N, 3) from the segment currents (Ns, 2).
-
-    The PWS current of each segment is integrated with ``remainder_nodes`` Gauss-Legendre nodes as
-    Hertzian dipoles I(s) w ds along the segment; the image part (-K times the image currents) is
-    summed exactly by the caller with the other closed-form segment fields.
-    """
-    tab = structure_table(st, k, points_m)
+def _remainder_dipoles(st, k: float, seg_i: np.ndarray, points_m: np.ndarray):
+    """Hertzian dipoles (positions (M, 3) [m], moments (M, 3) [A m]) standing for the segment currents."""
     # nodes per segment from its own height sum with the lowest point (grouped by count)
     z_obs = max(0.0, float(np.min(points_m[:, 2])))
     h_seg = np.minimum(st.start_m[:, 2], st.end_m[:, 2]) + z_obs
@@ -621,7 +698,87 @@ def remainder_near_fields(st, k: float, seg_i: np.ndarray, points_m: np.ndarray)
         cur = seg_i[sel, 0, None] * f1[sel] + seg_i[sel, 1, None] * f2[sel]     # (Ns_sel, Q) [A]
         src.append(pts[sel].reshape(-1, 3))
         mom.append(((cur * w[sel])[..., None] * st.direction[sel, None, :]).reshape(-1, 3))
-    return remainder_fields(tab, np.concatenate(src), np.concatenate(mom), points_m)
+    return np.concatenate(src), np.concatenate(mom)
+
+
+def _rca_points(st, k: float, src, points_m) -> np.ndarray:
+    """True for points whose every pair with the dipoles at ``src`` satisfies ``rca_mask``."""
+    # Candidates: points at least the reflection-coefficient radius from the image of the structure's box;
+    # each of their pairs is then checked (most points near an antenna are not candidates).
+    ends = np.concatenate([st.start_m, st.end_m])
+    lo = np.r_[ends[:, :2].min(0), -ends[:, 2].max()]
+    hi = np.r_[ends[:, :2].max(0), -ends[:, 2].min()]
+    gap = np.linalg.norm(np.maximum(0.0, np.maximum(lo - points_m, points_m - hi)), axis=1)
+    far = gap >= rca_radius_m(k, st.soil_eps_c)
+    cand = np.flatnonzero(far)
+    step = max(1, 200_000 // len(src))
+    for lo_i in range(0, len(cand), step):
+        o = points_m[cand[lo_i:lo_i + step]]
+        rho = np.hypot(o[:, None, 0] - src[None, :, 0], o[:, None, 1] - src[None, :, 1])
+        far[cand[lo_i:lo_i + step]] = rca_mask(k, st.soil_eps_c, rho, o[:, None, 2] + src[None, :, 2]).all(axis=1)
+    return far
+
+
+def approximation_cautions(st, k: float, points_m, labels=None) -> tuple[str, ...]:
+    """One line naming the points whose ground reflection came from the reflection-coefficient
+    approximation (``remainder_near_fields``), or nothing when every point had the Sommerfeld integrals."""
+    if st.soil_eps_c is None:
+        return ()
+    pts = np.atleast_2d(np.asarray(points_m, dtype=float))
+    if len(pts) == 0:
+        return ()
+    src, _ = _remainder_dipoles(st, k, np.zeros((st.num_segments, 2)), pts)
+    far = _rca_points(st, k, src, pts)
+    if not far.any():
+        return ()
+    names = [str(labels[i]) if labels is not None else f"points_m[{i}]" for i in np.flatnonzero(far)]
+    return (f"Real ground: the ground reflection at {', '.join(names)} (every part of the antenna at a Norton "
+            f"numerical distance of at least {RCA_MIN_NUMERICAL_DISTANCE:g}) is the reflection-coefficient "
+            "approximation (Fresnel-weighted image; error below 0.6 % of the image field, measured against the "
+            "Sommerfeld integrals); everywhere else the Sommerfeld integrals.",)
+
+
+def remainder_near_fields(st, k: float, seg_i: np.ndarray, points_m: np.ndarray, usage: dict | None = None):
+    """Sommerfeld remainder of E [V/m] and H [A/m] at points (N, 3) from the segment currents (Ns, 2).
+
+    The PWS current of each segment is integrated with ``remainder_nodes`` Gauss-Legendre nodes as
+    Hertzian dipoles I(s) w ds along the segment; the image part (-K times the image currents) is
+    summed exactly by the caller with the other closed-form segment fields. A point whose every pair with
+    those dipoles satisfies ``rca_mask`` gets the reflection-coefficient approximation; every other point
+    the interpolated Sommerfeld integrals, the table covering only those. ``usage`` (a dict) counts the
+    points of each method under "exact" and "rca".
+    """
+    points_m = np.asarray(points_m, dtype=float)
+    src, mom = _remainder_dipoles(st, k, seg_i, points_m)
+    far = _rca_points(st, k, src, points_m)
+    if usage is not None:
+        usage["rca"] = usage.get("rca", 0) + int(far.sum())
+        usage["exact"] = usage.get("exact", 0) + int((~far).sum())
+    if not far.any():
+        return remainder_fields(structure_table(st, k, points_m), src, mom, points_m)
+    e_out = np.empty(points_m.shape, dtype=complex)
+    h_out = np.empty(points_m.shape, dtype=complex)
+    e_out[far], h_out[far] = _rca_fields(k, st.soil_eps_c, src, mom, points_m[far])
+    if not far.all():
+        near = ~far
+        tab = structure_table(st, k, points_m[near])
+        e_out[near], h_out[near] = remainder_fields(tab, src, mom, points_m[near])
+    return e_out, h_out
+
+
+class ReflectionApproximation:
+    """The lookup of a ``ReflectionTable`` answered by ``rca_quantities`` (closed form, any range)."""
+
+    def __init__(self, k0: float, eps_c: complex):
+        self.k0, self.eps_c = float(k0), complex(eps_c)
+
+    def lookup(self, rho, h):
+        return rca_quantities(self.k0, self.eps_c, rho, h)
+
+
+def _rca_fields(k: float, eps_c: complex, src, mom, obs):
+    """Remainder E, H at obs (N, 3) from dipoles (M, 3) by the reflection-coefficient approximation."""
+    return remainder_fields(ReflectionApproximation(k, eps_c), src, mom, obs)
 
 
 def remainder_reaction(st, k: float) -> np.ndarray:
@@ -690,12 +847,17 @@ def method_text(spec, st) -> str:
 
     soil = soil_of(spec)
     eps = st.soil_eps_c
+    r_rca = rca_radius_m(2 * math.pi / st.wavelength_m, eps)
     return (f"real ground, {soil.text()}, complex permittivity {eps.real:.4g}{eps.imag:+.4g}j at "
             f"{st.freq_hz / 1e6:.6g} MHz: near fields and feed impedance from the exact Sommerfeld integrals "
-            "(quasi-static image plus interpolated remainder; Sommerfeld 1909, Chew 1990 Sec. 2.3-2.4), gain "
-            "and pattern from the space wave with Fresnel reflection coefficients (far zone; the surface "
-            "wave, which decays along the ground, is not in the pattern). Not modelled: wires on or in the soil, "
-            "buried radials, layered or sloping ground.")
+            "(quasi-static image plus interpolated remainder; Sommerfeld 1909, Chew 1990 Sec. 2.3-2.4), except "
+            "the near fields of places whose every pair with the antenna is at a Norton numerical distance of at "
+            f"least {RCA_MIN_NUMERICAL_DISTANCE:g} (image distance {r_rca:.3g} m or more here, farther along the "
+            "ground), which take the reflection-coefficient approximation (Fresnel-weighted image, within 0.6 % "
+            "of the image field there, measured against the Sommerfeld integrals); gain and pattern from the "
+            "space wave with Fresnel reflection coefficients (far zone; the surface wave, which decays along the "
+            "ground, is not in the pattern). Not modelled: wires on or in the soil, buried radials, layered or "
+            "sloping ground.")
 
 
 _FREE: dict = {}
