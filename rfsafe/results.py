@@ -6,6 +6,7 @@ Per-environment values are dicts keyed ``"controlled"`` / ``"uncontrolled"``.
 
 from __future__ import annotations
 
+import sys
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -242,9 +243,14 @@ class ConfigurationResult:
     duty_factor_verification: str = "not confirmed"   # was the duty factor read in its published table
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, slots=True)
 class PlaceExposure:
-    """Exposure at one place from one configuration."""
+    """Exposure at one place from one configuration.
+
+    One is kept per place and configuration (up to 500,000 of them): slots instead of an instance
+    dictionary, and the texts that repeat from place to place (governing quantity, methods, limit
+    source, distance basis) interned, so that each is stored once.
+    """
 
     configuration: str
     transmitter: str
@@ -276,9 +282,18 @@ class PlaceExposure:
         case = ("computed" if self.near_field_ratio is not None else
                 "no_near_field_model" if self.inside_near_field else "outside_near_field")
         object.__setattr__(self, "near_field_case", case)
+        for name in _INTERNED:
+            value = getattr(self, name)
+            if type(value) is str:
+                object.__setattr__(self, name, sys.intern(value))
 
 
-@dataclass(frozen=True)
+#: Text fields of :class:`PlaceExposure` whose few distinct values repeat over places.
+_INTERNED = ("configuration", "transmitter", "gain_method", "governing", "method", "limit_source", "distance_basis",
+             "limit_verification")
+
+
+@dataclass(frozen=True, slots=True)
 class TransmitterShare:
     """A transmitter's contribution to a place's total (its worst configuration there)."""
 

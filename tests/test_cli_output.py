@@ -33,3 +33,43 @@ def test_fit_text_keeps_hanging_indent():
     out = fit_text("  - " + "x " * 80, 40).splitlines()
     assert all(len(line) <= 40 for line in out)
     assert all(line.startswith("    ") for line in out[1:])
+
+
+def test_large_json_is_streamed_compact_with_the_same_content(monkeypatch, capsys):
+    """Above COMPACT_JSON_VALUES the JSON is built one member at a time and written compact: the text is
+    exactly json.dumps of the whole tree with compact separators (json module, the reference encoder),
+    non-finite numbers as null with their note (common practice)."""
+    import json
+    import math
+    from pathlib import Path
+
+    from rfsafe.assess import assess
+    from rfsafe.cli import output
+    from rfsafe.station import load_station
+
+    demo = Path(__file__).resolve().parent.parent / "reports_demo" / "demo_station.toml"
+    res = assess(load_station(demo))
+    tree = output.to_jsonable(res)
+    output.print_json(res)
+    small = capsys.readouterr().out
+    assert small == json.dumps(tree, indent=2, ensure_ascii=False) + "\n"       # indented below the bound
+    monkeypatch.setattr(output, "COMPACT_JSON_VALUES", 100)
+    output.print_json(res)
+    big = capsys.readouterr().out
+    assert big == json.dumps(tree, separators=(",", ":"), ensure_ascii=False) + "\n"
+    assert json.loads(big) == json.loads(small)
+    assert output._count_values(res, 10**9) > 1000
+
+    import dataclasses
+
+    @dataclasses.dataclass
+    class Holder:
+        items: list
+        x: float
+
+    odd = Holder(items=[1.5, math.inf, {"a": math.nan}], x=math.inf)
+    monkeypatch.setattr(output, "COMPACT_JSON_VALUES", 3)
+    output.print_json(odd)
+    text = capsys.readouterr().out
+    assert text == json.dumps(output.to_jsonable(odd), separators=(",", ":"), ensure_ascii=False) + "\n"
+    assert json.loads(text)["x"] is None and "x_note" in json.loads(text)
