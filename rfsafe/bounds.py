@@ -51,7 +51,7 @@ MAX_POLYGON_VERTICES = 1000
 #: Most points of a site's evaluation grid (boundary extent plus margin, divided by the spacing).
 MAX_GRID_POINTS = 2_000_000
 #: Most segments of one wire antenna (the moment-method matrix grows with their square).
-MAX_WIRE_SEGMENTS = 400
+MAX_WIRE_SEGMENTS = 2000
 #: Most vertices of one wire's polyline.
 MAX_WIRE_POINTS = 1000
 #: Most data rows of a pattern table (a 0.5-degree table of the whole sphere has 259,920).

@@ -22,7 +22,7 @@ def test_readme_states_every_bound():
     ("points_m", [[0.0, 0.0, 1e9]], "has 1e+09 at [0][2], out of range (accepted: magnitude at most 100000 m)"),
     ("polygon", [[0.0, 0.0], [2e10, 0.0]], "has 2e+10 at [1][0], out of range (accepted: magnitude at most 100000 m)"),
     ("places", [{}] * (bounds.MAX_PLACES + 1), f"has {bounds.MAX_PLACES + 1} items (accepted: at most 10000)"),
-    ("segments", 10**6, "is out of range (accepted: at most 400 segments per wire antenna)"),
+    ("segments", 10**6, "is out of range (accepted: at most 2000 segments per wire antenna)"),
     ("gain_dbi", 61.0, "is out of range (accepted: magnitude at most 60 dBi)"),
     ("freq_mhz", 14.2, None),
     ("id", "x", None),
