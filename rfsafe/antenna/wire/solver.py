@@ -170,7 +170,8 @@ def _rows_into(blk, ts: _TestSide, k: float, src: dict, r0: int, r1: int, c0: in
       field is axial, -t . E = -(t . s) A (c g_1 - g_2) for shape 1 (``kernel.segment_e_terms``), with
       g_i = e^{-jkR_i}/R_i at the two source ends. R depends only on the test point and the source
       *node*, so the weighted sums H_e(p, node) = sum_i w_i f_e(s_i) g(x_i, node) are formed once
-      per test segment and node (a node is shared by two segments), and each block combines four;
+      per test segment and node (a node is shared by two segments), and each block combines four
+      (``N_WIDE`` points for nodes at least ``WIDE_SEGMENTS`` test-segment lengths away);
     - other pairs: the full closed-form field (axial and radial parts) at each test point;
     - near pairs (closer than one test-segment length): the sinh-mapped end-clustered rule.
 
@@ -182,7 +183,7 @@ def _rows_into(blk, ts: _TestSide, k: float, src: dict, r0: int, r1: int, c0: in
     nu = nodes[used]
     h = _node_sums(ts.xw[r0:r1], ts.wfw[r0:r1], nu, ts.a2[r0:r1], k)   # (c, 2, nodes), wide rule
     # Nodes closer than WIDE_SEGMENTS test-segment lengths (bounded by the distance to the midpoint)
-    # get the N_FAR rule, test row by test row.
+    # get the N_FAR rule, as a list of (row, node) pairs.
     lim = ((WIDE_SEGMENTS + 0.5) * ts.tl[r0:r1]) ** 2
     close = sum((ts.mid[r0:r1, None, j] - nu[None, :, j]) ** 2 for j in range(3)) < lim[:, None]
     ip, iu = np.nonzero(close)
