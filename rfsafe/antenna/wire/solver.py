@@ -439,6 +439,7 @@ def _radiated_power(st: Structure, k: float, seg_i: np.ndarray) -> float:
                                  -chg.reshape(-1, 1) / k], axis=1).conj()
         sx = np.concatenate([(sign * cur)[..., None] * sdir[:, None, :],
                              (sign * chg)[..., None]], axis=2).reshape(-1, 4)
+        sxr = sx.view(float)                 # (m, 8) real: the real kernel multiplies it without a complex copy
         # The double sum is symmetric in the two points (real kernel and image sign, reciprocity),
         # so each pair of row chunks is taken once, off-diagonal pairs twice.
         # |a - b|^2 = |a|^2 + |b|^2 - 2 a.b as one matrix product of [a, |a|^2, 1] and [-2 b, 1, |b|^2]
@@ -454,8 +455,8 @@ def _radiated_power(st: Structure, k: float, seg_i: np.ndarray) -> float:
             kern = np.multiply(r, k)
             np.sin(kern, out=kern)
             kern /= r                                                                 # k at R = 0
-            v = np.sum(tx[i:i + step] * (kern @ sx[i:]), axis=0)
-            w = np.sum(tx[i:i + step] * (kern[:, :len(a)] @ sx[i:i + len(a)]), axis=0)
+            v = np.sum(tx[i:i + step] * (kern @ sxr[i:]).view(complex), axis=0)
+            w = np.sum(tx[i:i + step] * (kern[:, :len(a)] @ sxr[i:i + len(a)]).view(complex), axis=0)
             total += float(np.real(2.0 * np.sum(v) - np.sum(w)))
     return ETA0_OHM / (8.0 * math.pi) * total
 
