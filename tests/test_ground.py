@@ -416,6 +416,24 @@ def test_ground_wave_bound_gain_covers_the_space_wave_and_is_near_the_perfect_gr
     assert real.radiated_over_input_power < 0.6 and pec.radiated_over_input_power == pytest.approx(1, abs=0.02)
 
 
+def test_image_intensity_from_the_space_wave_vectors_equals_the_perfect_ground_pattern():
+    # The same radiation vectors give the space wave over soil and, with Gamma_TM = 1 and Gamma_TE = -1, the
+    # pattern of the same currents over a perfect ground (image theory, Balanis Sec. 4.7), which the solver
+    # computes its own way: equal to rounding, and the space wave equals space_wave_intensity.
+    from dataclasses import replace
+
+    from rfsafe.antenna.wire import solver as wire_solver
+
+    s = solve(_dipole("real", height_m=4.0, soil="wet-ground"), F_DIPOLE_HZ)
+    th, ph = np.meshgrid(np.linspace(0, math.pi / 2, 13), np.linspace(0, 2 * math.pi, 17), indexing="ij")
+    d = np.stack([np.sin(th) * np.cos(ph), np.sin(th) * np.sin(ph), np.cos(th)], axis=-1)
+    u, u_img = g.space_and_image_intensity(s.structure, s.k, s.segment_current_a, d, wire_solver._radiation_vector)
+    ref = wire_solver._intensity(replace(s.structure, soil_eps_c=None), s.k, s.segment_current_a, d)
+    assert np.max(np.abs(u_img - ref)) < 1e-12 * ref.max()
+    assert np.array_equal(u, g.space_wave_intensity(s.structure, s.k, s.segment_current_a, d,
+                                                    wire_solver._radiation_vector))
+
+
 def test_complex_horizontal_moment_along_y_is_the_x_result_turned():
     # Symmetry of the half-space about the vertical axis: a y-directed moment j (A m) at the origin gives
     # at (x, y) the field of an x-directed moment j at (y, -x), turned by 90 degrees.

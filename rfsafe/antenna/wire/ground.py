@@ -885,6 +885,16 @@ def space_wave_intensity(st, k: float, seg_i, rhat, radiation_vector):
     perfect conductor). Valid in the far zone above the horizon (Balanis, Antenna Theory, 3rd ed.,
     Sec. 4.8, dipoles above a flat lossy earth).
     """
+    return space_and_image_intensity(st, k, seg_i, rhat, radiation_vector)[0]
+
+
+def space_and_image_intensity(st, k: float, seg_i, rhat, radiation_vector):
+    """``space_wave_intensity`` and, from the same radiation vectors, the intensity of the same currents over
+    a perfect ground (Gamma_TM = 1, Gamma_TE = -1: the ground-wave bound of the solver), both [W/sr].
+
+    One evaluation of the radiation vectors serves both: the solver's perfect-ground twin of the pattern grid
+    then costs nothing more.
+    """
     m = np.array([1.0, 1.0, -1.0])
     r = np.asarray(rhat, dtype=float)
     # The image currents (mirrored, horizontal parts reversed) radiate N_i(r) = -M N_d(M r), M = diag(1, 1, -1):
@@ -899,7 +909,10 @@ def space_wave_intensity(st, k: float, seg_i, rhat, radiation_vector):
     ph = np.stack([np.where(safe, -r[..., 1] / np.where(safe, rxy, 1.0), 0.0),
                    np.where(safe, r[..., 0] / np.where(safe, rxy, 1.0), 1.0), np.zeros_like(rxy)], axis=-1)
     th = np.cross(ph, r)
-    n_t = np.einsum("...i,...i->...", n_d + gv[..., None] * n_i, th)
-    n_p = np.einsum("...i,...i->...", n_d - gh[..., None] * n_i, ph)
-    u = ETA0_OHM * k * k / (32.0 * math.pi ** 2) * (np.abs(n_t) ** 2 + np.abs(n_p) ** 2)
-    return np.where(r[..., 2] >= 0, u, 0.0)
+    d_t, d_p = np.einsum("...i,...i->...", n_d, th), np.einsum("...i,...i->...", n_d, ph)
+    i_t, i_p = np.einsum("...i,...i->...", n_i, th), np.einsum("...i,...i->...", n_i, ph)
+    c = ETA0_OHM * k * k / (32.0 * math.pi ** 2)
+    up = r[..., 2] >= 0
+    u = c * (np.abs(d_t + gv * i_t) ** 2 + np.abs(d_p - gh * i_p) ** 2)
+    u_img = c * (np.abs(d_t + i_t) ** 2 + np.abs(d_p + i_p) ** 2)
+    return np.where(up, u, 0.0), np.where(up, u_img, 0.0)
