@@ -67,6 +67,13 @@ HEIGHTS = (0.5, 1.0, 1.5, 2.0)
     ("beam", dict(peak_gain_dbi=8.0, front_to_back_db=20.0, beamwidth_h_deg=66.0, beamwidth_v_deg=120.0),
      12.0, "horizontal"),
     ("half-wave-dipole", {}, 20.0, "vertical"),
+    # tilted elements in closed form: a horizontal element's axis does not move with the tilt; a vertical
+    # element's (and a quarter-wave vertical's) axis tilts with the up axis
+    ("half-wave-dipole", {}, -35.0, "horizontal"),
+    ("short-dipole", {}, 50.0, "vertical"),
+    ("short-dipole", {}, 15.0, "horizontal"),
+    ("quarter-wave-vertical", {}, 30.0, "vertical"),
+    ("quarter-wave-vertical", {}, -90.0, "horizontal"),
 ])
 def test_kernel_matches_the_far_field_prediction(kind, kw, tilt, pol):
     em = emitter(x=2.0, y=-3.0, h=4.0, pattern=pt.make_pattern(kind, **kw), azimuth_deg=37.0, tilt_deg=tilt,

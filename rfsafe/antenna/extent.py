@@ -35,7 +35,7 @@ import numpy as np
 
 from rfsafe.units import C0_M_S
 
-__all__ = ["Extent", "antenna_extent", "nearest_distance_m", "farthest_distance_m", "NearestPart", "shifted", "extent_key", "BEAM_DEFAULT_SPAN_WAVELENGTHS",
+__all__ = ["Extent", "antenna_extent", "nearest_distance_m", "farthest_distance_m", "NearestPart", "structure_parts", "shifted", "extent_key", "BEAM_DEFAULT_SPAN_WAVELENGTHS",
            "BEAM_DEFAULT_BOOM_WAVELENGTHS", "UNKNOWN_RADIUS_WAVELENGTHS"]
 
 #: Element span assumed for a beam that does not declare ``element_span_m`` [wavelengths]: a full-size
@@ -207,9 +207,14 @@ class _Linear:
 
     def __init__(self, x, y, vec, origin, dtype) -> None:
         vx, vy, vz = (float(t) for t in vec)
-        ox, oy, oz = (float(t) for t in origin)
-        self.a = (dtype(-(ox * vx + oy * vy + oz * vz)) if vx == 0.0 and vy == 0.0
-                  else ((x - ox) * vx + (y - oy) * vy - oz * vz).astype(dtype))
+        off = -float(np.dot(origin, vec))
+        if vx == 0.0 and vy == 0.0:
+            self.a = dtype(off)
+        else:
+            a = x * dtype(vx)
+            a += y * dtype(vy)
+            a += dtype(off)
+            self.a = a
         self.c = dtype(vz)
 
     def at(self, z):
@@ -218,12 +223,38 @@ class _Linear:
 
 def _perpendicular(u):
     """Two unit vectors perpendicular to the unit vector ``u`` and to each other (the first horizontal if it can be)."""
-    u = np.asarray(u, dtype=float)
-    w1 = np.cross(u, (0.0, 0.0, 1.0))
+    w1 = np.array([u[1], -u[0], 0.0])    # u x z
     if np.linalg.norm(w1) < 1e-12:
         w1 = np.array([1.0, 0.0, 0.0])
     w1 = w1 / np.linalg.norm(w1)
-    return w1, np.cross(u, w1)
+    return w1, np.array([u[1] * w1[2] - u[2] * w1[1], u[2] * w1[0] - u[0] * w1[2], u[0] * w1[1] - u[1] * w1[0]])
+
+
+def structure_parts(extent: Extent) -> tuple:
+    """The geometry of ``extent`` prepared for :class:`NearestPart` (compute once, bind to many point sets).
+
+    Returns ``(reference (3,), quadratic, discs, spheres)``: every position relative to the reference
+    point; quadratic parts are ``(origin, plain axes, clamped (axis, half))``.
+    """
+    segs = np.asarray(extent.segments_m, dtype=float).reshape(-1, 2, 3)
+    centres = ([0.5 * (a + b) for a, b in segs] + [np.asarray(c, dtype=float) for c, *_ in extent.rectangles]
+               + [np.asarray(c, dtype=float) for c, _ in extent.discs]
+               + [np.asarray(c, dtype=float) for c, _ in extent.spheres])
+    if not centres:
+        raise ValueError("the extent has no part")
+    ref = np.array([centres[0][0], centres[0][1], 0.0])
+    quadratic = []
+    for a, b in segs:
+        ab = b - a
+        length = float(np.linalg.norm(ab))
+        u = ab / length if length > 0.0 else np.array([0.0, 0.0, 1.0])
+        quadratic.append((0.5 * (a + b) - ref, _perpendicular(u), ((u, 0.5 * length),)))
+    for c, u, v, hu, hv in extent.rectangles:
+        u, v = np.asarray(u, dtype=float), np.asarray(v, dtype=float)
+        quadratic.append((np.asarray(c, dtype=float) - ref, (np.cross(u, v),), ((u, hu), (v, hv))))
+    discs = tuple((np.asarray(c, dtype=float) - ref, float(r)) for c, r in extent.discs)
+    spheres = tuple((np.asarray(c, dtype=float) - ref, float(r)) for c, r in extent.spheres)
+    return ref, tuple(quadratic), discs, spheres
 
 
 class NearestPart:
@@ -239,8 +270,10 @@ class NearestPart:
     x_m, y_m : array_like
         Point coordinates [m] (same shape).
     dtype : numpy float type
-        Precision of the per-point arithmetic (float64 by default; float32 keeps relative rounding
-        about 1e-6, far below the uncertainty of any input).
+        Precision of the per-point arithmetic, in coordinates relative to the structure (float64 by
+        default; float32 keeps relative rounding about 1e-6, far below the uncertainty of any input).
+    parts : tuple, optional
+        ``structure_parts(extent)``, when already computed (the same structure for many point sets).
 
     Notes
     -----
@@ -251,43 +284,44 @@ class NearestPart:
     horizontal disc of radius r gives ``max(rho - r, 0)^2 + dz^2``; a sphere ``max(|q| - r, 0)``.
     """
 
-    def __init__(self, extent: Extent, x_m, y_m, dtype=np.float64) -> None:
-        x = np.asarray(x_m, dtype=float)
-        y = np.asarray(y_m, dtype=float)
+    def __init__(self, extent: Extent, x_m, y_m, dtype=np.float64, parts: tuple | None = None) -> None:
+        ref, quadratic, discs, spheres = parts if parts is not None else structure_parts(extent)
+        x = (np.asarray(x_m, dtype=float) - ref[0]).astype(dtype, copy=False)
+        y = (np.asarray(y_m, dtype=float) - ref[1]).astype(dtype, copy=False)
         self.dtype = dtype
         self._quadratic = []   # (constant part of d^2, plain projections, clamped (projection, half))
-        for a, b in np.asarray(extent.segments_m, dtype=float).reshape(-1, 2, 3):
-            m, ab = 0.5 * (a + b), b - a
-            length = float(np.linalg.norm(ab))
-            u = ab / length if length > 0.0 else np.array([0.0, 0.0, 1.0])
-            w1, w2 = _perpendicular(u)
-            self._add(x, y, m, plain=(w1, w2), clamped=((u, 0.5 * length),))
-        for c, u, v, hu, hv in extent.rectangles:
-            self._add(x, y, np.asarray(c, dtype=float), plain=(np.cross(u, v),), clamped=((u, hu), (v, hv)))
+        for origin, plain, clamped in quadratic:
+            self._add(x, y, origin, plain, clamped)
         self._discs = []
-        for c, r in extent.discs:
-            rho = np.hypot(x - c[0], y - c[1])
-            self._discs.append((np.square(np.maximum(rho - r, 0.0)).astype(dtype), dtype(c[2])))
+        for c, r in discs:
+            dx, dy = x - dtype(c[0]), y - dtype(c[1])
+            rho = np.sqrt(dx * dx + dy * dy)
+            rho -= dtype(r)
+            np.maximum(rho, 0.0, out=rho)
+            self._discs.append((rho * rho, dtype(c[2])))
         self._spheres = []
-        for c, r in extent.spheres:
-            self._spheres.append(((np.square(x - c[0]) + np.square(y - c[1])).astype(dtype), dtype(c[2]),
-                                  dtype(r)))
+        for c, r in spheres:
+            dx, dy = x - dtype(c[0]), y - dtype(c[1])
+            self._spheres.append((dx * dx + dy * dy, dtype(c[2]), dtype(r)))
 
     def _add(self, x, y, origin, plain, clamped) -> None:
-        const = np.zeros(np.shape(x), dtype=self.dtype)
+        const = None
         terms, cterms = [], []
         for vec in plain:
             lin = _Linear(x, y, vec, origin, self.dtype)
             if lin.c == 0.0:
-                const += np.square(lin.a)
+                const = np.square(lin.a) if const is None else const + np.square(lin.a)
             else:
                 terms.append(lin)
         for vec, half in clamped:
             lin = _Linear(x, y, vec, origin, self.dtype)
             if lin.c == 0.0:
-                const += np.square(lin.a - np.clip(lin.a, -half, half))
+                e = lin.a - np.clip(lin.a, -half, half)
+                const = np.square(e) if const is None else const + np.square(e)
             else:
                 cterms.append((lin, self.dtype(half)))
+        if const is None:
+            const = np.zeros(np.shape(x), dtype=self.dtype)
         self._quadratic.append((const, terms, cterms))
 
     def squared_m2(self, z_m):
@@ -307,8 +341,8 @@ class NearestPart:
         for rho2, cz, r in self._spheres:
             d = np.maximum(np.sqrt(rho2 + np.square(z_m - cz)) - r, 0.0)
             best = d * d if best is None else np.minimum(best, d * d)
-        if best is None:
-            raise ValueError("the extent has no part")
+        if self._quadratic and best is self._quadratic[0][0]:   # never hand out the stored array
+            best = best.copy()
         return best
 
     def distance_m(self, z_m):

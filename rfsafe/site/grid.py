@@ -25,7 +25,7 @@ from typing import Callable, Sequence
 
 import numpy as np
 
-from rfsafe.antenna.extent import Extent, NearestPart, extent_key, farthest_distance_m, shifted
+from rfsafe.antenna.extent import Extent, NearestPart, extent_key, farthest_distance_m, shifted, structure_parts
 from rfsafe.antenna.patterns import DOWNWARD_FLOOR_FRACTION, AntennaDirection, Pattern, beam_exponents
 from rfsafe.site.constants import _FOUR_PI
 
@@ -142,15 +142,17 @@ class _Group:
     members: list = field(default_factory=list)
     extent: Extent | None = None     # site coordinates (None: a point at the centre)
 
-    @property
-    def reach_m(self) -> float:
-        """Largest distance from the centre of radiation to any part of the structure [m]."""
-        if self.extent is None:
-            return 0.0
-        return farthest_distance_m(self.extent, (self.x_m, self.y_m, self.height_m))
+    reach_m: float = 0.0             # largest distance from the centre of radiation to any part [m]
+
+    parts: tuple | None = None       # extent.structure_parts, computed once
+
+    def __post_init__(self) -> None:
+        if self.extent is not None:
+            self.reach_m = farthest_distance_m(self.extent, (self.x_m, self.y_m, self.height_m))
+            self.parts = structure_parts(self.extent)
 
     def nearest_part(self, px, py) -> NearestPart | None:
-        return None if self.extent is None else NearestPart(self.extent, px, py, dtype=_F32)
+        return None if self.extent is None else NearestPart(self.extent, px, py, dtype=_F32, parts=self.parts)
 
 
 def _groups(emitters: Sequence[SiteEmitter]) -> tuple[list[str], list[_Group]]:
@@ -204,8 +206,12 @@ class _TableLookup:
         if self.a_uniform:
             xa = (az_deg - self.a0) / self.da
             fl = np.floor(xa)
-            i = fl.astype(np.intp) % self.n_az
-            return i, (i + 1) % self.n_az, (xa - fl).astype(_F32)
+            ta = xa - fl                           # exact in float32 (|xa| < 2^24)
+            i = fl.astype(np.intp)
+            i %= self.n_az
+            i1 = i + 1
+            i1[i1 == self.n_az] = 0
+            return i, i1, ta.astype(_F32, copy=False)
         az = np.mod(np.asarray(az_deg, dtype=np.float64), 360.0)
         az = np.where(az < self.a_grid[0], az + 360.0, az)
         i = np.clip(np.searchsorted(self.a_ext, az, side="right") - 1, 0, self.n_az - 1)
@@ -216,24 +222,38 @@ class _TableLookup:
         """Linear gain at the azimuth cells (i, i1, ta) and elevations ``el_deg`` [deg]."""
         if self.e_uniform:
             xe = (el_deg - self.e0) / self.de
-            j = np.clip(np.floor(xe), 0, self.n_el - 2).astype(np.intp)
-            te = np.clip(xe - j, 0.0, 1.0).astype(_F32)
+            jf = np.floor(xe)
+            np.maximum(jf, _F32(0.0), out=jf)
+            np.minimum(jf, _F32(self.n_el - 2), out=jf)
+            te = xe - jf                          # exact in float32; clamped to [0, 1] below
+            np.maximum(te, _F32(0.0), out=te)
+            np.minimum(te, _F32(1.0), out=te)
+            row = jf.astype(np.intp)
         else:
             e_grid = self.e_grid
             j = np.clip(np.searchsorted(e_grid, el_deg, side="right") - 1, 0, self.n_el - 2)
             te = np.clip((el_deg - e_grid[j]) / (e_grid[j + 1] - e_grid[j]), 0.0, 1.0).astype(_F32)
-        g, row = self.gflat, j * self.n_az
-        lo = np.take(g, row + i)
-        lo += (np.take(g, row + i1) - lo) * ta
+            row = j.astype(np.intp)
+        row *= self.n_az
+        g = self.gflat
+        k = row + i
+        lo = np.take(g, k)
+        np.add(row, i1, out=k)
+        lo += (np.take(g, k) - lo) * ta
         row += self.n_az
-        hi = np.take(g, row + i)
-        hi += (np.take(g, row + i1) - hi) * ta
+        np.add(row, i, out=k)
+        hi = np.take(g, k)
+        np.add(row, i1, out=k)
+        hi += (np.take(g, k) - hi) * ta
         lo += (hi - lo) * te
         return lo
 
 
 def _evaluator(g: _Group) -> tuple[Callable, Callable]:
-    """Return ``prepare(px, py) -> state`` and ``at(state, dz, out)`` computing G/(4 pi R^2) [1/m^2].
+    """Return ``prepare(px, py) -> state`` and ``at(state, dz, out, d2=None)`` computing G/(4 pi R^2) [1/m^2].
+
+    With ``d2`` (squared distances to the nearest part of the structure [m^2]) it computes G/(4 pi d2)
+    instead: the gain is still taken toward the point from the centre of radiation.
 
     ``state[0]`` is always the squared horizontal distance [m^2] (float32).
     Untilted antennas get closed forms that reuse the height-independent part
@@ -265,31 +285,51 @@ def _evaluator(g: _Group) -> tuple[Callable, Callable]:
         def prepare(px, py):
             return (base(px, py)[2],)
 
-        def at(s, dz, out):
+        def at(s, dz, out, d2=None):
+            if d2 is not None:
+                np.divide(k, d2, out=out)
+                return
             np.add(s[0], _F32(dz * dz), out=out)
             with np.errstate(divide="ignore"):
                 np.divide(k, out, out=out)
         return prepare, at
 
-    if untilted and kind in ("short-dipole", "half-wave-dipole", "quarter-wave-vertical"):
+    if kind in ("short-dipole", "half-wave-dipole", "quarter-wave-vertical"):
         # With num = R cos(th) (component along the element axis) and den = R^2 sin^2(th):
         #   short dipole   G/R^2 = Gpk den / R^4
         #   half-wave      G/R^2 = Gpk cos^2(pi/2 cos th) / den = Gpk sin^2(pi/2 t) / den,
         #                  t = 1 - |cos th| = den / (R (R + |num|))   (no cancellation near the axis)
+        # den is the sum of the squared components across the axis (never R^2 - num^2). A horizontal
+        # element lies along the antenna's right axis, which a tilt does not move; a vertical element
+        # (or a quarter-wave vertical) lies along the up axis, tilted with it.
+        a_t = math.radians(g.tilt_deg)
+        st32, ct32 = _F32(math.sin(a_t)), _F32(math.cos(a_t))
+
         def prepare(px, py):
             dx, dy, rho2 = base(px, py)
-            if vertical_axis:
+            if vertical_axis and untilted:
                 return rho2, None, None
+            if vertical_axis:
+                return rho2, (dx * sa + dy * ca).astype(_F32), np.square(dx * ca - dy * sa).astype(_F32)
             num = np.abs(dx * ca - dy * sa).astype(_F32)   # along the wire (the "right" axis)
             fwd = (dx * sa + dy * ca).astype(_F32)           # horizontal, across the wire
             return rho2, num, fwd * fwd
 
-        def at(s, dz, out):
+        def at(s, dz, out, d2=None):
             rho2, anum, fwd2 = s
             dz2 = _F32(dz * dz)
             r2 = rho2 + dz2
-            if vertical_axis:
+            if vertical_axis and untilted:
                 den, anum = rho2, _F32(abs(dz))   # R^2 sin^2 = horizontal distance^2
+            elif vertical_axis:                  # anum holds the horizontal forward part, fwd2 right^2
+                dz32 = _F32(dz)
+                f = anum * ct32
+                f += dz32 * st32
+                den = f * f
+                den += fwd2
+                anum = anum * (-st32)
+                anum += dz32 * ct32
+                np.abs(anum, out=anum)
             else:
                 den = fwd2 + dz2
             with np.errstate(divide="ignore", invalid="ignore"):
@@ -310,6 +350,9 @@ def _evaluator(g: _Group) -> tuple[Callable, Callable]:
                 zero = den == 0.0
                 out[zero] = 0.0
                 out[zero & (r2 == 0.0)] = np.inf
+            if d2 is not None:                    # G / R^2 -> G / d^2
+                out *= r2
+                out /= d2
         return prepare, at
 
     if untilted and kind == "beam":
@@ -330,7 +373,7 @@ def _evaluator(g: _Group) -> tuple[Callable, Callable]:
                 amp = (p * np.log(half) + (0.5 * q) * np.log(rho2)).astype(_F32)
             return rho2.astype(_F32), amp
 
-        def at(s, dz, out):
+        def at(s, dz, out, d2=None):
             rho2, amp = s
             r2 = rho2 + _F32(dz * dz)
             with np.errstate(divide="ignore", invalid="ignore"):
@@ -342,8 +385,9 @@ def _evaluator(g: _Group) -> tuple[Callable, Callable]:
                 if dz < 0.0:                      # downward floor below the beam (patterns.beam_downward_floor)
                     np.maximum(out, _F32(DOWNWARD_FLOOR_FRACTION * dz * dz) / r2, out=out)
                 out *= k
-                out /= r2
-            fix_origin(rho2, dz, out)
+                out /= r2 if d2 is None else d2
+            if d2 is None:
+                fix_origin(rho2, dz, out)
         return prepare, at
 
     if kind == "table":
@@ -358,11 +402,14 @@ def _evaluator(g: _Group) -> tuple[Callable, Callable]:
                 rgt = (dx * ca - dy * sa).astype(_F32)
                 return (rho2, np.sqrt(rho2), *look.azimuth_cells(np.degrees(np.arctan2(rgt, fwd))))
 
-            def at(s, dz, out):
+            def at(s, dz, out, d2=None):
                 rho2, rho, i, i1, ta = s
                 g_lin = look.gain(i, i1, ta, np.degrees(np.arctan2(_F32(dz), rho)))
-                np.add(rho2, _F32(dz * dz), out=out)
-                out *= _F32(_FOUR_PI)
+                if d2 is None:
+                    np.add(rho2, _F32(dz * dz), out=out)
+                    out *= _F32(_FOUR_PI)
+                else:
+                    np.multiply(d2, _F32(_FOUR_PI), out=out)
                 with np.errstate(divide="ignore"):
                     np.divide(g_lin, out, out=out)
             return prepare, at
@@ -374,15 +421,18 @@ def _evaluator(g: _Group) -> tuple[Callable, Callable]:
             dx, dy, rho2 = base(px, py)
             return rho2, (dx * sa + dy * ca).astype(_F32), (dx * ca - dy * sa).astype(_F32)
 
-        def at(s, dz, out):
+        def at(s, dz, out, d2=None):
             rho2, hor, rgt = s
             dz32 = _F32(dz)
             fwd = hor * ct32 + dz32 * st32
             up = dz32 * ct32 - hor * st32
             i, i1, ta = look.azimuth_cells(np.degrees(np.arctan2(rgt, fwd)))
             g_lin = look.gain(i, i1, ta, np.degrees(np.arctan2(up, np.hypot(fwd, rgt))))
-            np.add(rho2, dz32 * dz32, out=out)
-            out *= _F32(_FOUR_PI)
+            if d2 is None:
+                np.add(rho2, dz32 * dz32, out=out)
+                out *= _F32(_FOUR_PI)
+            else:
+                np.multiply(d2, _F32(_FOUR_PI), out=out)
             with np.errstate(divide="ignore"):
                 np.divide(g_lin, out, out=out)
         return prepare, at
@@ -397,7 +447,7 @@ def _evaluator(g: _Group) -> tuple[Callable, Callable]:
         dx, dy, rho2 = base(px, py)
         return dx * dx + dy * dy, dx * sa + dy * ca, dx * ca - dy * sa
 
-    def at(s, dz, out):
+    def at(s, dz, out, d2=None):
         rho2, hor, rgt = s
         r2 = rho2 + dz * dz
         with np.errstate(divide="ignore", invalid="ignore"):
@@ -409,40 +459,40 @@ def _evaluator(g: _Group) -> tuple[Callable, Callable]:
             rt = rgt * inv
             u = (dz * ct - hor * st) * inv
             d = AntennaDirection(f, rt, u, rt if g.polarisation == "horizontal" else u)
-            np.divide(pat.gain(d), _FOUR_PI * r2, out=out, casting="unsafe")
+            np.divide(pat.gain(d), _FOUR_PI * (r2 if d2 is None else d2), out=out, casting="unsafe")
     return prepare, at
 
 
 def _nearest_part_pass(grp: _Group, state, at, px, py, heights, geo, near) -> None:
     """``G / (4 pi d^2)`` of one group at every height into ``geo`` (H, P); its near-field flags into ``near``.
 
-    ``at`` gives ``G / (4 pi R^2)`` with R from the centre of radiation; it is rescaled by ``R^2 / d^2``
-    with d the distance to the nearest part of the structure. Points within the near-field distance of
-    the structure at some height (or within MIN_FAR_FIELD_DIST_M of it) get the peak gain and
-    ``max(d, MIN_FAR_FIELD_DIST_M)`` at every height instead, as a station's places do.
+    d is the distance to the nearest part of the structure (R from the centre of radiation without one).
+    Points within the near-field distance of the structure at some height (or within
+    MIN_FAR_FIELD_DIST_M of it) get the peak gain and ``max(d, MIN_FAR_FIELD_DIST_M)`` at every height
+    instead, as a station's places do. Only points within that distance plus the structure's reach of
+    the centre can be so close (triangle inequality): the others skip the test.
     """
     part = grp.nearest_part(px, py)
     rho2 = state[0]
-    dzs = [_F32(h - grp.height_m) for h in heights]
     d2s = ([rho2 + _F32((h - grp.height_m) ** 2) for h in heights] if part is None   # as the evaluators round R^2
            else [part.squared_m2(_F32(h)) for h in heights])
-    thr2 = _F32(max(grp.near_field_m, MIN_FAR_FIELD_DIST_M) ** 2)
-    nf2 = _F32(grp.near_field_m ** 2)
-    close = np.zeros(rho2.shape, dtype=bool)
-    flagged = np.zeros(rho2.shape, dtype=bool) if nf2 < thr2 else close
+    thr = max(grp.near_field_m, MIN_FAR_FIELD_DIST_M)
+    dzmin = max(min(abs(h - grp.height_m) for h in heights) - grp.reach_m, 0.0)
+    lim = (thr + grp.reach_m) ** 2 * (1.0 + 1e-6) - dzmin * dzmin   # relative margin for float32 rounding
+    cand = np.flatnonzero(rho2 < lim) if lim > 0.0 else np.zeros(0, dtype=np.intp)
+    close = np.zeros(cand.size, dtype=bool)
+    flagged = np.zeros(cand.size, dtype=bool)
+    thr2, nf2 = _F32(thr * thr), _F32(grp.near_field_m ** 2)
     for d2 in d2s:
-        close |= d2 < thr2
-        if flagged is not close:
-            flagged |= d2 < nf2
-    near |= flagged
-    idx = np.flatnonzero(close)
+        dc = d2[cand]
+        close |= dc < thr2
+        flagged |= dc < nf2
+    near[cand[flagged]] = True
+    idx = cand[close]
     k_peak = _F32(10.0 ** (grp.pattern.peak_gain_dbi / 10.0) / _FOUR_PI)
     with np.errstate(divide="ignore", invalid="ignore"):
-        for out, h, dz, d2 in zip(geo, heights, dzs, d2s):
-            at(state, h - grp.height_m, out)
-            if part is not None:
-                out *= rho2 + dz * dz
-                out /= d2
+        for out, h, d2 in zip(geo, heights, d2s):
+            at(state, h - grp.height_m, out, None if part is None else d2)
             if idx.size:
                 out[idx] = k_peak / np.maximum(d2[idx], _F32(MIN_FAR_FIELD_DIST_M ** 2))
 
