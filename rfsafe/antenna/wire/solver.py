@@ -110,6 +110,9 @@ class _TestSide:
     mid: np.ndarray       # (Ns, 3) segment midpoints
     xw: np.ndarray        # (Ns, N_WIDE, 3) test points of the wide rule
     wfw: np.ndarray       # (Ns, 2, N_WIDE) its weights times the test shapes
+    ww: np.ndarray        # (Ns, N_WIDE) its weights and test shapes
+    fw1: np.ndarray
+    fw2: np.ndarray
 
 
 def _test_side(st: Structure, k: float) -> _TestSide:
@@ -128,7 +131,7 @@ def _test_side(st: Structure, k: float) -> _TestSide:
     g1, g2 = _test_shapes(s, tl[:, None], k)
     xw = t0[:, None, :] + s[..., None] * tdir[:, None, :]
     wfw = np.stack([ww * g1, ww * g2], axis=1).astype(complex)
-    return _TestSide(t0, tl, tdir, st.radius_m ** 2, x, w, f1, f2, wf, 0.5 * (t0 + st.end_m), xw, wfw)
+    return _TestSide(t0, tl, tdir, st.radius_m ** 2, x, w, f1, f2, wf, 0.5 * (t0 + st.end_m), xw, wfw, ww, g1, g2)
 
 
 def _node_sums(x, wf, nodes, a2, k):
@@ -155,9 +158,12 @@ def _source_side(ts: _TestSide, k: float, src, need):
     if need is not None:
         near &= need
         other &= need
+    wide = dist >= WIDE_SEGMENTS * ts.tl[:, None]     # distance_m is exact or a lower bound (geometry)
+    wide &= other
+    other &= ~wide
     ksl = k * sl
     return dict(s0=s0, sl=sl, sdir=sdir, sign=sign, nodes=nodes, n1=inv[:nq], n2=inv[nq:],
-                near=np.nonzero(near), other=np.nonzero(other), cos=np.cos(ksl),
+                near=np.nonzero(near), other=np.nonzero(other), wide=np.nonzero(wide), cos=np.cos(ksl),
                 amp=1j * ETA0_OHM / (4.0 * np.pi * np.sin(ksl)))
 
 
@@ -172,7 +178,8 @@ def _rows_into(blk, ts: _TestSide, k: float, src: dict, r0: int, r1: int, c0: in
       *node*, so the weighted sums H_e(p, node) = sum_i w_i f_e(s_i) g(x_i, node) are formed once
       per test segment and node (a node is shared by two segments), and each block combines four
       (``N_WIDE`` points for nodes at least ``WIDE_SEGMENTS`` test-segment lengths away);
-    - other pairs: the full closed-form field (axial and radial parts) at each test point;
+    - other pairs: the full closed-form field (axial and radial parts) at each test point (with
+      ``N_WIDE`` points for pairs at least ``WIDE_SEGMENTS`` test-segment lengths apart);
     - near pairs (closer than one test-segment length): the sinh-mapped end-clustered rule.
 
     The first is computed for the whole rectangle, the others overwrite their pairs.
@@ -198,7 +205,7 @@ def _rows_into(blk, ts: _TestSide, k: float, src: dict, r0: int, r1: int, c0: in
     part = np.empty((r1 - r0, 2, c1 - c0, 2), dtype=complex)
     part[..., 0] = coef * (cc * ha - hb)
     part[..., 1] = coef * (cc * hb - ha)
-    for rule in ("other", "near"):
+    for rule in ("wide", "other", "near"):
         ip, iq = src[rule]
         lo, hi = np.searchsorted(ip, [r0, r1])
         if hi > lo:
@@ -219,6 +226,8 @@ def _pair_list(ts: _TestSide, k, ip, iq, rule, src):
         fp1, fp2 = _test_shapes(sp, ts.tl[ip, None], k)
         xp = ts.t0[ip, None, :] + sp[..., None] * ts.tdir[ip, None, :]
         args = (xp, wp, fp1, fp2)
+    elif rule == "wide":
+        args = (ts.xw[ip], ts.ww[ip], ts.fw1[ip], ts.fw2[ip])
     else:
         args = (ts.x[ip], ts.w[ip], ts.f1[ip], ts.f2[ip])
     step = max(1, _CHUNK // (2 * N_NEAR))
