@@ -733,6 +733,9 @@ def _page_canvas(header_left: str, header_right: str, footer_left: str, date_iso
             self._pages = []
 
         def showPage(self):
+            # the page's drawing operators as one text (reportlab joins them with newlines when it writes
+            # the page): a long document's pages wait for the page count in a fraction of the memory
+            self._code = ["\n".join(self._code)]
             self._pages.append(dict(self.__dict__))
             self._startPage()
 
