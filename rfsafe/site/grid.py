@@ -197,32 +197,34 @@ class _TableLookup:
         self.a_ext = np.append(self.a_grid, self.a_grid[0] + 360.0)
         self.e_grid = tab.elevation_deg.astype(np.float64)
         self.n_az, self.n_el = self.a_grid.size, self.e_grid.size
-        self.gflat = tab._gain_lin.astype(_F32).ravel()
         e_steps, a_steps = np.diff(self.e_grid), np.diff(self.a_ext)
         self.e_uniform = bool(np.allclose(e_steps, e_steps[0], rtol=1e-9, atol=0.0))
         self.a_uniform = bool(np.allclose(a_steps, a_steps[0], rtol=1e-9, atol=0.0))
         self.e0, self.de = _F32(self.e_grid[0]), _F32(e_steps[0])
         self.a0, self.da = _F32(self.a_grid[0]), _F32(a_steps[0])
+        # the four corners of every cell side by side: one gather per point and height
+        g = tab._gain_lin.astype(_F32)
+        i1 = (np.arange(self.n_az) + 1) % self.n_az
+        self.corners = np.ascontiguousarray(np.stack([g[:-1], g[:-1][:, i1], g[1:], g[1:][:, i1]], axis=-1)
+                                            .reshape(-1, 4))
 
     def azimuth_cells(self, az_deg):
-        """Cell indices and weight for bearings ``az_deg`` in (-180, 180] [deg]."""
+        """Cell index (the cell spans i and i + 1 mod n) and weight for bearings ``az_deg`` in (-180, 180] [deg]."""
         if self.a_uniform:
             xa = (az_deg - self.a0) / self.da
             fl = np.floor(xa)
             ta = xa - fl                           # exact in float32 (|xa| < 2^24)
             i = fl.astype(np.intp)
             i %= self.n_az
-            i1 = i + 1
-            i1[i1 == self.n_az] = 0
-            return i, i1, ta.astype(_F32, copy=False)
+            return i, ta.astype(_F32, copy=False)
         az = np.mod(np.asarray(az_deg, dtype=np.float64), 360.0)
         az = np.where(az < self.a_grid[0], az + 360.0, az)
         i = np.clip(np.searchsorted(self.a_ext, az, side="right") - 1, 0, self.n_az - 1)
         ta = ((az - self.a_ext[i]) / (self.a_ext[i + 1] - self.a_ext[i])).astype(_F32)
-        return i, (i + 1) % self.n_az, ta
+        return i, ta
 
-    def gain(self, i, i1, ta, el_deg):
-        """Linear gain at the azimuth cells (i, i1, ta) and elevations ``el_deg`` [deg]."""
+    def gain(self, i, ta, el_deg):
+        """Linear gain at the azimuth cells (i, ta) and elevations ``el_deg`` [deg] (cells i and i + 1)."""
         if self.e_uniform:
             xe = (el_deg - self.e0) / self.de
             jf = np.floor(xe)
@@ -238,17 +240,17 @@ class _TableLookup:
             te = np.clip((el_deg - e_grid[j]) / (e_grid[j + 1] - e_grid[j]), 0.0, 1.0).astype(_F32)
             row = j.astype(np.intp)
         row *= self.n_az
-        g = self.gflat
-        k = row + i
-        lo = np.take(g, k)
-        np.add(row, i1, out=k)
-        lo += (np.take(g, k) - lo) * ta
-        row += self.n_az
-        np.add(row, i, out=k)
-        hi = np.take(g, k)
-        np.add(row, i1, out=k)
-        hi += (np.take(g, k) - hi) * ta
-        lo += (hi - lo) * te
+        row += i
+        c = np.take(self.corners, row, axis=0)
+        lo = c[:, 1] - c[:, 0]
+        lo *= ta
+        lo += c[:, 0]
+        hi = c[:, 3] - c[:, 2]
+        hi *= ta
+        hi += c[:, 2]
+        hi -= lo
+        hi *= te
+        lo += hi
         return lo
 
 
@@ -461,11 +463,15 @@ def _evaluator(g: _Group) -> tuple[Callable, Callable]:
                 dx, dy, rho2 = base(px, py)
                 fwd = (dx * sa + dy * ca).astype(_F32)
                 rgt = (dx * ca - dy * sa).astype(_F32)
-                return (rho2, np.sqrt(rho2), *look.azimuth_cells(np.degrees(np.arctan2(rgt, fwd))))
+                with np.errstate(divide="ignore"):   # at rho = 0: +-90 deg, or 0 at dz = 0 (as arctan2)
+                    inv_rho = np.where(rho2 > 0.0, _F32(1.0) / np.sqrt(rho2), _F32(1e30))
+                return (rho2, inv_rho, *look.azimuth_cells(np.degrees(np.arctan2(rgt, fwd))))
 
             def at(s, dz, out, d2=None):
-                rho2, rho, i, i1, ta = s
-                g_lin = look.gain(i, i1, ta, np.degrees(np.arctan2(_F32(dz), rho)))
+                rho2, inv_rho, i, ta = s
+                el = np.arctan(_F32(dz) * inv_rho)
+                el *= _F32(180.0 / math.pi)
+                g_lin = look.gain(i, ta, el)
                 if d2 is None:
                     np.add(rho2, _F32(dz * dz), out=out)
                     out *= _F32(_FOUR_PI)
@@ -487,8 +493,8 @@ def _evaluator(g: _Group) -> tuple[Callable, Callable]:
             dz32 = _F32(dz)
             fwd = hor * ct32 + dz32 * st32
             up = dz32 * ct32 - hor * st32
-            i, i1, ta = look.azimuth_cells(np.degrees(np.arctan2(rgt, fwd)))
-            g_lin = look.gain(i, i1, ta, np.degrees(np.arctan2(up, np.hypot(fwd, rgt))))
+            i, ta = look.azimuth_cells(np.degrees(np.arctan2(rgt, fwd)))
+            g_lin = look.gain(i, ta, np.degrees(np.arctan2(up, np.hypot(fwd, rgt))))
             if d2 is None:
                 np.add(rho2, dz32 * dz32, out=out)
                 out *= _F32(_FOUR_PI)
