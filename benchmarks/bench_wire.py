@@ -131,6 +131,17 @@ TARGET_RATIO = 5.0
 TARGET_1600_S = 5.0
 
 
+def inverted_v(unknowns):
+    """Two sloping legs meeting at the feed: half the segment pairs are not parallel (the general path
+    of the fill, the full closed-form field at every test point)."""
+    h = unknowns * 0.02
+    return WireAntennaSpec.model_validate({
+        "wires": [{"points_m": [[-0.8 * h, 0, 0.0], [0, 0, 0.6 * h]], "radius_m": 0.002, "segments": unknowns // 2,
+                   "label": "a"},
+                  {"points_m": [[0, 0, 0.6 * h], [0.8 * h, 0, 0.0]], "radius_m": 0.002, "segments": unknowns // 2}],
+        "feeds": [{"wire": "a", "position": 1.0}]})
+
+
 def scaling(sizes, make, name):
     """Fill, dense LU, power check and whole solve() against the floors, CPU time, medians of 3 runs
     (one above 1000 unknowns); exponents between sizes and over the sizes from 400 on."""
@@ -181,3 +192,4 @@ if __name__ == "__main__":
     sizes = (100, 200, 400, 800, 1600, 2000) if "--large" in sys.argv else (100, 200, 400, 800)
     scaling(sizes, array_of_dipoles, "array of parallel dipoles (compact)")
     scaling(sizes, long_wire, "long straight wire (electrically largest for its N: the pattern grid grows fastest)")
+    scaling(sizes, inverted_v, "inverted V (two sloping legs: half the pairs take the general, non-parallel path)")

@@ -162,7 +162,7 @@ def _source_side(ts: _TestSide, k: float, src, need):
     wide &= other
     other &= ~wide
     ksl = k * sl
-    return dict(s0=s0, sl=sl, sdir=sdir, sign=sign, nodes=nodes, n1=inv[:nq], n2=inv[nq:],
+    return dict(s0=s0, sl=sl, sdir=sdir, sign=sign, nodes=nodes, n1=inv[:nq], n2=inv[nq:], tid=ids[:ns], sid=ids[ns:],
                 near=np.nonzero(near), other=np.nonzero(other), wide=np.nonzero(wide), cos=np.cos(ksl),
                 amp=1j * ETA0_OHM / (4.0 * np.pi * np.sin(ksl)))
 
@@ -184,7 +184,23 @@ def _rows_into(blk, ts: _TestSide, k: float, src: dict, r0: int, r1: int, c0: in
 
     The first is computed for the whole rectangle, the others overwrite their pairs.
     """
-    n1, n2, nodes = src["n1"][c0:c1], src["n2"][c0:c1], src["nodes"]
+    # Only columns parallel to some test row of the block take the node path.
+    cols = c0 + np.flatnonzero(np.isin(src["sid"][c0:c1], src["tid"][r0:r1]))
+    part = np.zeros((r1 - r0, 2, c1 - c0, 2), dtype=complex)
+    if len(cols):
+        part[:, :, cols - c0, :] = _parallel_blocks(ts, k, src, r0, r1, cols)
+    for rule in ("wide", "other", "near"):
+        ip, iq = src[rule]
+        lo, hi = np.searchsorted(ip, [r0, r1])
+        if hi > lo:
+            part[ip[lo:hi] - r0, :, iq[lo:hi] - c0, :] = src["sign"] * _pair_list(
+                ts, k, ip[lo:hi], iq[lo:hi], rule, src)
+    blk[:, :, c0:c1, :] += part
+
+
+def _parallel_blocks(ts: _TestSide, k: float, src: dict, r0: int, r1: int, cols: np.ndarray) -> np.ndarray:
+    """Blocks (rows, 2, cols, 2) of test rows r0:r1 and source columns ``cols`` by the node path."""
+    n1, n2, nodes = src["n1"][cols], src["n2"][cols], src["nodes"]
     used, loc = np.unique(np.concatenate([n1, n2]), return_inverse=True)
     loc = loc.reshape(-1)
     nu = nodes[used]
@@ -199,19 +215,14 @@ def _rows_into(blk, ts: _TestSide, k: float, src: dict, r0: int, r1: int, c0: in
     g = np.exp(-1j * k * r)
     g /= r
     h[ip, :, iu] = np.einsum("nei,ni->ne", ts.wf[r0 + ip], g)
-    ha, hb = h[:, :, loc[:c1 - c0]], h[:, :, loc[c1 - c0:]]          # at the source start / end nodes
-    coef = (ts.tdir[r0:r1] @ src["sdir"][c0:c1].T)[:, None, :] * (-src["sign"] * src["amp"][c0:c1])
-    cc = src["cos"][c0:c1]
-    part = np.empty((r1 - r0, 2, c1 - c0, 2), dtype=complex)
+    nc = len(cols)
+    ha, hb = h[:, :, loc[:nc]], h[:, :, loc[nc:]]                     # at the source start / end nodes
+    coef = (ts.tdir[r0:r1] @ src["sdir"][cols].T)[:, None, :] * (-src["sign"] * src["amp"][cols])
+    cc = src["cos"][cols]
+    part = np.empty((r1 - r0, 2, nc, 2), dtype=complex)
     part[..., 0] = coef * (cc * ha - hb)
     part[..., 1] = coef * (cc * hb - ha)
-    for rule in ("wide", "other", "near"):
-        ip, iq = src[rule]
-        lo, hi = np.searchsorted(ip, [r0, r1])
-        if hi > lo:
-            part[ip[lo:hi] - r0, :, iq[lo:hi] - c0, :] = src["sign"] * _pair_list(
-                ts, k, ip[lo:hi], iq[lo:hi], rule, src)
-    blk[:, :, c0:c1, :] += part
+    return part
 
 
 def _pair_list(ts: _TestSide, k, ip, iq, rule, src):
