@@ -486,15 +486,23 @@ def _evaluator(g: _Group) -> tuple[Callable, Callable]:
 
         def prepare(px, py):
             dx, dy, rho2 = base(px, py)
-            return rho2, (dx * sa + dy * ca).astype(_F32), (dx * ca - dy * sa).astype(_F32)
+            rgt = (dx * ca - dy * sa).astype(_F32)
+            return rho2, (dx * sa + dy * ca).astype(_F32), rgt, rgt * rgt
 
         def at(s, dz, out, d2=None):
-            rho2, hor, rgt = s
+            rho2, hor, rgt, rgt2 = s
             dz32 = _F32(dz)
-            fwd = hor * ct32 + dz32 * st32
-            up = dz32 * ct32 - hor * st32
+            fwd = hor * ct32
+            fwd += dz32 * st32
+            up = hor * (-st32)
+            up += dz32 * ct32
             i, ta = look.azimuth_cells(np.degrees(np.arctan2(rgt, fwd)))
-            g_lin = look.gain(i, ta, np.degrees(np.arctan2(up, np.hypot(fwd, rgt))))
+            flat = fwd * fwd
+            flat += rgt2
+            np.sqrt(flat, out=flat)
+            el = np.arctan2(up, flat, out=up)
+            el *= _F32(180.0 / math.pi)
+            g_lin = look.gain(i, ta, el)
             if d2 is None:
                 np.add(rho2, dz32 * dz32, out=out)
                 out *= _F32(_FOUR_PI)
