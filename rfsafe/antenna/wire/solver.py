@@ -189,13 +189,59 @@ def _rows_into(blk, ts: _TestSide, k: float, src: dict, r0: int, r1: int, c0: in
     part = np.zeros((r1 - r0, 2, c1 - c0, 2), dtype=complex)
     if len(cols):
         part[:, :, cols - c0, :] = _parallel_blocks(ts, k, src, r0, r1, cols)
-    for rule in ("wide", "other", "near"):
+    ip, iq = src["wide"]
+    lo, hi = np.searchsorted(ip, [r0, r1])
+    if hi > lo:
+        wcols, pos = np.unique(iq[lo:hi], return_inverse=True)
+        part[ip[lo:hi] - r0, :, iq[lo:hi] - c0, :] = _general_blocks(ts, k, src, r0, r1, wcols)[
+            ip[lo:hi] - r0, :, pos.reshape(-1), :]
+    for rule in ("other", "near"):
         ip, iq = src[rule]
         lo, hi = np.searchsorted(ip, [r0, r1])
         if hi > lo:
             part[ip[lo:hi] - r0, :, iq[lo:hi] - c0, :] = src["sign"] * _pair_list(
                 ts, k, ip[lo:hi], iq[lo:hi], rule, src)
     blk[:, :, c0:c1, :] += part
+
+
+def _general_blocks(ts: _TestSide, k: float, src: dict, r0: int, r1: int, cols: np.ndarray) -> np.ndarray:
+    """Blocks (rows, 2, cols, 2) of test rows r0:r1 and source columns ``cols``, wide rule, full field.
+
+    The closed-form field of ``kernel.segment_e_terms`` with A = j eta / (4 pi sin kd), c = cos kd,
+    g_i = E_i / R_i and tau = (rho_vec . t) / rho^2 (reduced kernel):
+    -t . E = -A [(c g_1 - g_2)(t . s) + tau (c g_1 D_1 - g_2 D_2 - j sin(kd) E_1)] for shape 1 and the
+    mirror image for shape 2. E_i and R_i depend only on the test point and the source node, so
+    they are computed once per node (shared by two segments).
+    """
+    n1, n2, nodes = src["n1"][cols], src["n2"][cols], src["nodes"]
+    used, loc = np.unique(np.concatenate([n1, n2]), return_inverse=True)
+    loc = loc.reshape(-1)
+    nc = len(cols)
+    x = ts.xw[r0:r1]                                                    # (c, Q, 3)
+    nu = nodes[used]
+    r = np.sqrt(sum((x[..., j, None] - nu[:, j]) ** 2 for j in range(3)) + ts.a2[r0:r1, None, None])
+    e = np.exp(-1j * k * r)
+    g = e / r
+    e1, e2 = e[:, :, loc[:nc]], e[:, :, loc[nc:]]
+    g1, g2 = g[:, :, loc[:nc]], g[:, :, loc[nc:]]
+    s0, sdir, d = src["s0"][cols], src["sdir"][cols], src["sl"][cols]
+    t = ts.tdir[r0:r1]
+    v = [x[..., j, None] - s0[:, j] for j in range(3)]                  # (c, Q, nc) each
+    z = v[0] * sdir[:, 0] + v[1] * sdir[:, 1] + v[2] * sdir[:, 2]
+    rv = [v[j] - z * sdir[:, j] for j in range(3)]
+    rho2 = rv[0] * rv[0] + rv[1] * rv[1] + rv[2] * rv[2] + ts.a2[r0:r1, None, None]
+    tau = (rv[0] * t[:, 0, None, None] + rv[1] * t[:, 1, None, None] + rv[2] * t[:, 2, None, None]) / rho2
+    cos_ps = (t @ sdir.T)[:, None, :]
+    c, sn = src["cos"][cols], np.sin(k * d)
+    d2 = d - z
+    t1 = (c * g1 - g2) * cos_ps + tau * (-c * g1 * z - g2 * d2 - 1j * sn * e1)
+    t2 = (c * g2 - g1) * cos_ps + tau * (c * g2 * d2 + g1 * z + 1j * sn * e2)
+    wf = ts.wfw[r0:r1]                                                  # (c, 2, Q)
+    out = np.empty((r1 - r0, 2, nc, 2), dtype=complex)
+    scale = -src["sign"] * src["amp"][cols]
+    out[..., 0] = np.matmul(wf, t1) * scale
+    out[..., 1] = np.matmul(wf, t2) * scale
+    return out
 
 
 def _parallel_blocks(ts: _TestSide, k: float, src: dict, r0: int, r1: int, cols: np.ndarray) -> np.ndarray:
