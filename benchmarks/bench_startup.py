@@ -7,9 +7,10 @@ Two measurements, each as a ratio to a floor measured in the same run:
    with the old default (one BLAS thread per core, ``RFSAFE_THREADS=<cores>``). Floor: the same command
    with ``OPENBLAS_NUM_THREADS=1`` set explicitly. Target: default within 1.2x of the floor.
 2. Start-up. ``rfsafe evaluate`` of the demo station (``--json``, and the tables) against
-   ``python -c "import typer"`` (the least a typer command costs). Target: within 4x. Also shown: the libraries every evaluation needs (typer,
-   numpy, pydantic) imported alone, and rfsafe's modules imported without evaluating anything, so the
-   ratio can be read as start-up that rfsafe cannot avoid, its own imports, and its work.
+   ``python -c "import typer"`` (the least a typer command costs). Target: within 4x. Also shown: the
+   libraries every evaluation needs (typer, numpy, pydantic) imported alone, and rfsafe's modules
+   imported without evaluating anything, so the ratio can be read as start-up that rfsafe cannot
+   avoid, its own imports, and its work.
 
 Part 1 measures wall time (the penalty is waiting for busy cores); part 2 measures each child's CPU
 time (user + system, ``resource.getrusage(RUSAGE_CHILDREN)``), which the shared machine's other
@@ -36,8 +37,8 @@ EVALUATE = [sys.executable, "-m", "rfsafe", "evaluate", str(DEMO), "--json"]
 EVALUATE_TABLES = [sys.executable, "-m", "rfsafe", "evaluate", str(DEMO)]
 IMPORT_TYPER = [sys.executable, "-c", "import typer"]
 IMPORT_LIBRARIES = [sys.executable, "-c", "import typer, numpy, pydantic"]
-IMPORT_RFSAFE = [sys.executable, "-c", "import rfsafe.cli, rfsafe.cli.cmd_evaluate, rfsafe.cli.answers, rfsafe.remedies, "
-                                       "rfsafe.assess, rfsafe.station, rfsafe.cli.output"]
+IMPORT_RFSAFE = [sys.executable, "-c", "import rfsafe.cli, rfsafe.cli.cmd_evaluate, rfsafe.cli.answers, "
+                                       "rfsafe.remedies, rfsafe.assess, rfsafe.station, rfsafe.cli.output"]
 
 
 def _burn(stop) -> None:
@@ -115,14 +116,15 @@ def main(repeats: int = 7) -> None:
     ratio = idle["evaluate"] / floor
     print(f"2. start-up, process CPU time, median of {repeats} (no background load of ours; the machine is shared):")
     print(f"   python -c 'import typer'                {floor:6.3f} s (floor)")
-    print(f"   import typer, numpy, pydantic           {idle['libraries']:6.3f} s   ratio {idle['libraries'] / floor:5.2f}")
+    print(f"   import typer, numpy, pydantic           {idle['libraries']:6.3f} s   "
+          f"ratio {idle['libraries'] / floor:5.2f}")
     print(f"   import rfsafe's evaluate modules        {idle['rfsafe modules']:6.3f} s   "
           f"ratio {idle['rfsafe modules'] / floor:5.2f}")
     print(f"   rfsafe evaluate demo --json             {idle['evaluate']:6.3f} s   ratio {ratio:5.2f}   target 4x: "
           f"{'met' if ratio <= 4 else 'NOT met'}")
     tables = idle["evaluate tables"] / floor
-    print(f"   rfsafe evaluate demo (tables)           {idle['evaluate tables']:6.3f} s   ratio {tables:5.2f}   target 4x: "
-          f"{'met' if tables <= 4 else 'NOT met'}")
+    print(f"   rfsafe evaluate demo (tables)           {idle['evaluate tables']:6.3f} s   ratio {tables:5.2f}   "
+          f"target 4x: {'met' if tables <= 4 else 'NOT met'}")
 
 
 if __name__ == "__main__":

@@ -177,8 +177,8 @@ def answer(q: QuickQuestion) -> QuickAnswer:
     if q.height_m is not None:
         from rfsafe.remedies import ground_keep_out
 
-        r2, ems = assess_with_emitters(dataclasses.replace(loaded, model=loaded.model.model_copy(update={"places": []})),
-                                       near_field_maps=False)
+        alone = dataclasses.replace(loaded, model=loaded.model.model_copy(update={"places": []}))
+        r2, ems = assess_with_emitters(alone, near_field_maps=False)
         keep = {k.environment: k.keep_out_m for k in ground_keep_out(loaded, r2, ems)
                 if k.level.startswith("standing")}
     exemption = "not applicable (FCC only)" if res.standard != "fcc" else "needs --distance-m"
