@@ -355,6 +355,8 @@ _QUANT = (  # (orientation, component, phi, sign)
 #: The quantities that carry J_0, J_1, J_2 (the others' coefficients are zero: the vertical dipole's fields
 #: are axisymmetric, the horizontal dipole's are cos/sin phi times J_0 +- J_2 or J_1).
 _ORDERS = ([1, 3, 5, 6, 7], [0, 2, 4, 8], [3, 5, 6, 7])
+#: Heights summed together in one matrix product while building a table.
+_ROW_GROUP = 8
 #: Grid steps: u = asinh(rho / h_min) and ln h.
 _DU, _DLH = 0.1, 0.1
 #: Quadrature of the tables (the direct ``_integrate`` keeps its finer path as the reference). Tail length in
@@ -417,7 +419,7 @@ class ReflectionTable:
         cplx = np.abs(kr.imag) > 0
         n_top = int(np.max(np.nonzero(cplx)[0])) + 1 if np.any(cplx) else 0
         a_end = kr[n_top - 1].real if n_top else 0.0
-        kend = [int(np.searchsorted(kr.real[n_top:], a_end + _TAIL / h)) + n_top for h in hs]
+        kend = np.array([int(np.searchsorted(kr.real[n_top:], a_end + _TAIL / h)) + n_top for h in hs])
         vals = np.zeros((nh, len(_QUANT), nu), dtype=complex)
         # krho nodes in blocks (memory stays bounded however many nodes the tail needs)
         for c0 in range(0, len(kr), _BLOCK):
@@ -446,13 +448,19 @@ class ReflectionTable:
                 with np.errstate(divide="ignore", invalid="ignore"):   # J2 = 2 J1 / x - J0 (recurrence)
                     jm[2, top:] = np.where(x_tail > 1e-2, 2.0 * jm[1, top:].real / x_tail - jm[0, top:].real,
                                            x_tail ** 2 / 8.0)
-            for j, h in enumerate(hs):
-                ke = min(kend[j], c1) - c0
+            # Heights in groups of _ROW_GROUP (kend falls with h): one matrix product per group and order,
+            # each height's nodes beyond its own tail end weighted 0.
+            a_m = [np.ascontiguousarray(a[qs, m]) for m, qs in enumerate(_ORDERS)]
+            for g0 in range(0, nh, _ROW_GROUP):
+                g1 = min(nh, g0 + _ROW_GROUP)
+                ke = min(kend[g0], c1) - c0
                 if ke <= 0:
-                    continue
-                e = np.exp(-1j * kz[c0:c0 + ke] * h)
+                    break
+                e = np.exp(-1j * hs[g0:g1, None] * kz[None, c0:c0 + ke])
+                e[np.arange(ke)[None, :] >= (np.minimum(kend[g0:g1], c1) - c0)[:, None]] = 0.0
                 for m, qs in enumerate(_ORDERS):
-                    vals[j, qs] += (a[qs, m, :ke] * e) @ jm[m, :ke]
+                    t = (a_m[m][None, :, :ke] * e[:, None, :]).reshape(-1, ke)
+                    vals[g0:g1, qs] += (t @ jm[m, :ke]).reshape(g1 - g0, len(qs), nu)
         vals = vals.transpose(2, 0, 1)
         r = np.sqrt(rho[:, None] ** 2 + hs[None, :] ** 2)
         self.values = vals * (r * np.exp(1j * k0 * r))[..., None]
