@@ -1,5 +1,7 @@
 """The formatter: tables fitted to 100 columns without losing a cell; text wrapped with its indent."""
 
+import pytest
+
 from rfsafe.cli.output import fit_text, format_table
 
 
@@ -73,3 +75,40 @@ def test_large_json_is_streamed_compact_with_the_same_content(monkeypatch, capsy
     text = capsys.readouterr().out
     assert text == json.dumps(output.to_jsonable(odd), separators=(",", ":"), ensure_ascii=False) + "\n"
     assert json.loads(text)["x"] is None and "x_note" in json.loads(text)
+
+
+@pytest.mark.parametrize("table", ["places", "exposures"])
+def test_csv_of_many_places_is_written_in_pieces_with_the_same_text(monkeypatch, table):
+    """The places and exposures CSV of a large station are written a few hundred places at a time: the text is
+    the same as pandas writing the whole table at once (pandas, the reference writer)."""
+    from pathlib import Path
+
+    from typer.testing import CliRunner
+
+    from rfsafe.cli import app, cmd_evaluate
+
+    demo = str(Path(__file__).resolve().parent.parent / "reports_demo" / "demo_station.toml")
+    whole = CliRunner().invoke(app, ["evaluate", demo, "--csv", table, "--no-remedies"])
+    monkeypatch.setattr(cmd_evaluate, "CSV_PLACES_PER_PIECE", 2)
+    pieces = CliRunner().invoke(app, ["evaluate", demo, "--csv", table, "--no-remedies"])
+    assert whole.exit_code == pieces.exit_code and whole.exit_code in (0, 1, 4)
+    assert pieces.stdout == whole.stdout
+    assert whole.stdout.count("\n") > 5 and whole.stdout.splitlines()[0].startswith("place,")
+
+
+def test_tables_are_printed_table_by_table_as_one_text():
+    from pathlib import Path
+
+    from typer.testing import CliRunner
+
+    from rfsafe.cli import app
+    from rfsafe.cli.cmd_evaluate import render_blocks, render_evaluation
+    from rfsafe.remedies import with_answers
+    from rfsafe.station import load_station
+
+    demo = Path(__file__).resolve().parent.parent / "reports_demo" / "demo_station.toml"
+    res = with_answers(load_station(demo), remedies=False, near_field_maps=False)
+    blocks = list(render_blocks(res))
+    assert len(blocks) > 3 and "\n".join(blocks) == render_evaluation(res)
+    out = CliRunner().invoke(app, ["evaluate", str(demo), "--no-remedies"]).stdout
+    assert out == fit_text(render_evaluation(res)) + "\n"

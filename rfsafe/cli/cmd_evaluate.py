@@ -16,8 +16,35 @@ _SHORT_METHOD = {"far-field estimate": "far field", "far-field estimate (>= mome
                  "near-field (moment method, spatial average over body heights)": "MoM, body average"}
 
 
+#: Places per piece when a table of many places is written as CSV (each piece's rows are built, written and
+#: dropped before the next: 10,000 places x 50 configurations never hold 500,000 rows at once).
+CSV_PLACES_PER_PIECE = 500
+
+
+def write_csv(res, table: str) -> None:
+    """Print one table of ``res`` as CSV; the places and exposures tables of many places in pieces of
+    :data:`CSV_PLACES_PER_PIECE` places (the same text as in one piece)."""
+    from types import SimpleNamespace
+
+    from rfsafe.cli import answers
+
+    places = res.places
+    if table not in ("places", "exposures") or len(places) <= CSV_PLACES_PER_PIECE:
+        typer.echo(answers.evaluation_frame(res, table).to_csv(index=False), nl=False)
+        return
+    for k in range(0, len(places), CSV_PLACES_PER_PIECE):
+        piece = SimpleNamespace(places=places[k:k + CSV_PLACES_PER_PIECE])
+        typer.echo(answers.evaluation_frame(piece, table).to_csv(index=False, header=k == 0), nl=False)
+
+
 def render_evaluation(res) -> str:
     """Human-readable tables of an EvaluationResult."""
+    return "\n".join(render_blocks(res))
+
+
+def render_blocks(res):
+    """The lines of :func:`render_evaluation` in blocks (one table at a time), so that a large evaluation's
+    text is printed table by table instead of held whole."""
     from rfsafe.cli.output import format_table, is_narrow
     from rfsafe.verification import MARKERS, marker, weakest as weakest_state
 
@@ -48,6 +75,8 @@ def render_evaluation(res) -> str:
                                      ("ctl dist m (ft)", "unc dist m (ft)"))], rows, align="lrlrrrrrrrrr",
         title="Configurations (average power after duty factor and averaging-window fill; peak gain)"))
     out.append("")
+    yield from out          # the tables of places are printed (and dropped) one at a time
+    out = []
     if res.places:
         rows = []
         for p in res.places:
@@ -69,6 +98,8 @@ def render_evaluation(res) -> str:
                                       + (" (E, H and the environment: --wide; (!) inside the near field, "
                                          "far-field estimate not valid there)" if narrow else "")))
         out.append("")
+        yield from out
+        out = []
         rows = []
         for p in res.places:
             shares = ", ".join(f"{s.configuration} {compact_number(s.exposure_ratio)}" for s in p.contributions)
@@ -116,7 +147,7 @@ def render_evaluation(res) -> str:
     out.extend(f"  - {line}" for line in res.exposure_reasons)
     out.append(f"EQUIPMENT VERDICT: {res.equipment_verdict}")
     out.extend(f"  - {line}" for line in res.equipment_reasons)
-    return "\n".join(out)
+    yield from out
 
 
 def _verification_lines(res) -> str:
@@ -176,12 +207,13 @@ def evaluate(file: Path = typer.Argument(..., help="Station file (.toml)."),
     # Tables and CSV draw no maps: the near-field maps and the plan (plot data) are computed for JSON only.
     res = with_answers(loaded, remedies=remedies, near_field_maps=json_out)
     if csv_table is not None:
-        typer.echo(answers.evaluation_frame(res, csv_table).to_csv(index=False), nl=False)
+        write_csv(res, csv_table)
         raise typer.Exit(res.exit_code)
     if json_out:
         print_json(res)
     else:
-        typer.echo(output.fit_text(render_evaluation(res)))
+        for block in render_blocks(res):
+            typer.echo(output.fit_text(block))
         flags = sorted({f for c in res.configurations for f in c.flags} |
                        {f for p in res.places for f in p.flags})
         for f in flags:
