@@ -142,6 +142,7 @@ def finite_in_range(field: str, value: float, lo: float | None, hi: float | None
 _BY_SUFFIX = (
     ("_rating", 1e9, ""),
     ("_w", MAX_POWER_W, "W"),
+    ("_s_m", 1e3, "S/m"),
     ("_m", MAX_DISTANCE_M, "m"),
     ("_ohm", MAX_IMPEDANCE_OHM, "ohm"),
     ("_mhz", 3e5, "MHz"),
@@ -239,7 +240,8 @@ def bounds_table() -> tuple[tuple[str, str], ...]:
         ("SWR (given, or of a load impedance on its line)", f"{MAX_SWR:g}"),
         ("matched loss of a whole feedline", f"{MAX_LOSS_DB:g} dB"),
     ]
-    names = {"_rating": "ratings (`*_rating`)", "_w": "powers (`*_w`)", "_m": "coordinates, heights, lengths (`*_m`)",
+    names = {"_rating": "ratings (`*_rating`)", "_w": "powers (`*_w`)",
+             "_s_m": "conductivities (`*_s_m`)", "_m": "coordinates, heights, lengths (`*_m`)",
              "_ohm": "impedances (`*_ohm`)", "_mhz": "frequencies (`*_mhz`)", "_dbi": "gains (`*_dbi`)",
              "_dbd": "gains (`*_dbd`)", "_db": "losses and ratios in dB (`*_db`)", "_deg": "angles (`*_deg`)",
              "_minutes": "times (`*_minutes`)", "_q": "quality factors (`*_q`)", "_v_peak": "voltages (`*_v_peak`)"}

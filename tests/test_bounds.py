@@ -24,6 +24,9 @@ def test_readme_states_every_bound():
     ("places", [{}] * (bounds.MAX_PLACES + 1), f"has {bounds.MAX_PLACES + 1} items (accepted: at most 10000)"),
     ("segments", 10**6, "is out of range (accepted: at most 2000 segments per wire antenna)"),
     ("gain_dbi", 61.0, "is out of range (accepted: magnitude at most 60 dBi)"),
+    # soil conductivity in S/m, not metres: sea water is about 5 S/m (ITU-R P.527, from memory)
+    ("soil_conductivity_s_m", 5e3, "is out of range (accepted: magnitude at most 1000 S/m)"),
+    ("soil_conductivity_s_m", 5.0, None),
     ("freq_mhz", 14.2, None),
     ("id", "x", None),
 ])

@@ -141,6 +141,15 @@ def test_real_ground_names_the_soil_and_the_method(tmp_path):
     assert r.exit_code == 0, r.output
     assert "real ground, wet-ground" in r.stdout and "P.527-3" in r.stdout and "Sommerfeld" in r.stdout
     assert "space wave into the air only" in r.stderr
+    # the cautions name what the real-ground model leaves out, not the perfect mirror's
+    assert "homogeneous half-space" in r.stderr and "lossless mirror" not in r.stderr
+
+
+@pytest.mark.parametrize("ground,says", [("", "No ground (free space)"), ('ground = "perfect"\n', "lossless mirror")])
+def test_each_ground_gets_its_own_caution(tmp_path, ground, says):
+    r = run(tmp_path, ground + DIPOLE)
+    assert r.exit_code == 0, r.output
+    assert says in r.stderr and "homogeneous half-space" not in r.stderr
 
 
 @pytest.mark.parametrize("keys,line", [

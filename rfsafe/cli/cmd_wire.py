@@ -12,13 +12,22 @@ _CAUTIONS = (
     "Method: thin-wire moment method (Pocklington equation, piecewise-sinusoidal Galerkin, delta-gap "
     "feeds). It assumes perfectly conducting wires much thinner than a wavelength and segments "
     "between 4 radii and lambda/10 long; feed impedances drift slowly as segments are refined.",
-    "A \"perfect\" ground is a lossless mirror at z = 0: real soil absorbs and reflects less, so "
-    "fields and gain over real ground differ (often lower far away, and different near the base); "
-    "ground = \"real\" with the soil models it (Sommerfeld integrals).",
     "Fields are for the stated power delivered to the antenna (after feedline loss) and a "
     "continuous carrier; this command does not compare them with exposure limits. Local regulation, "
     "the regulator's own guidance and licensed practice govern.",
 )
+
+#: What each ground model leaves out (shown with the method, one per solve).
+_GROUND_CAUTIONS = {
+    "free-space": "No ground (free space): a ground below the antenna reflects, so fields near the "
+                  "ground and the gain differ; ground = \"perfect\" or \"real\" with the soil models it.",
+    "perfect": "A \"perfect\" ground is a lossless mirror at z = 0: real soil absorbs and reflects less, so "
+               "fields and gain over real ground differ (often lower far away, and different near the base); "
+               "ground = \"real\" with the soil models it (Sommerfeld integrals).",
+    "real": "Real ground: the soil is one homogeneous half-space below z = 0 with the stated permittivity "
+            "and conductivity; layered or frozen soil, buried radials and ground rods, and nearby buildings "
+            "are not modelled. Named soil classes are typical values: measured soil replaces them.",
+}
 
 
 @dataclasses.dataclass(frozen=True)
@@ -85,6 +94,7 @@ def build_result(path: Path) -> WireResult:
                                     voltage_v_rms=abs(v) / math.sqrt(2), current_a_rms=abs(i) / math.sqrt(2)))
     points = []
     cautions = list(_CAUTIONS)
+    cautions.insert(1, _GROUND_CAUTIONS[sol.ground])
     if spec.points:
         pts = np.array([p.position_m for p in spec.points], dtype=float)
         e, h = sol.fields_rms(pts, spec.input_power_w, field="points")
