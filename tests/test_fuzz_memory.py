@@ -14,8 +14,9 @@ import sys
 import time
 
 import pytest
-
 from fuzz_support import DATA, DEMO, read, to_toml
+
+from rfsafe import bounds
 
 _LIMIT_BYTES = 2 * 1024**3
 _RSS_MB = 600
@@ -35,7 +36,7 @@ CASES = {
         {"label": "far", "kind": "public", "polygon": [[0.0, 0.0], [1e5, 0.0], [1e5, 1e5]]}]}), "areas[0].polygon"),
     "wire at 300 GHz": ("wire", to_toml({**WIRE, "freq_mhz": 3e5}), "wires[0].segments"),
     "deep nesting": ("wire", "a = " + "[" * 100_000 + "]" * 100_000 + "\n", "FILE"),
-    "file of 2 MB": ("wire", "# " + "x" * 2_000_000 + "\n", "FILE"),
+    "file above the size bound": ("wire", "# " + "x" * (bounds.MAX_FILE_BYTES + 1) + "\n", "FILE"),
 }
 
 
