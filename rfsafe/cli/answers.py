@@ -135,16 +135,20 @@ def evaluation_frame(res, table: str):
     return pd.DataFrame(rows)
 
 
-def all_standards(file: Path):
-    """The station evaluated under every standard rfsafe knows: {standard: result or the refusal text}."""
-    from rfsafe.assess import assess
+def all_standards(file: Path, *, near_field_maps: bool = True):
+    """The station evaluated under every standard rfsafe knows: {standard: result or the refusal text}.
+
+    ``near_field_maps=False`` leaves out the plot data (wire near-field maps, the keep-out plan), for
+    tables and CSV, which draw none; every exposure, distance and verdict is the same.
+    """
+    from rfsafe.assess import assess_with_emitters
     from rfsafe.errors import InputError
     from rfsafe.limits import STANDARD_IDS
 
     out = {}
     for std in STANDARD_IDS:
         try:
-            out[std] = assess(load_station_file(file, std))
+            out[std] = assess_with_emitters(load_station_file(file, std), near_field_maps=near_field_maps)[0]
         except InputError as err:
             if str(err).startswith("FILE"):
                 raise
