@@ -160,14 +160,14 @@ def exposure_distance_figure(cfg, places, *, width: float, height: float, place_
 def _name_highest(ax, items, size: float = 2.6) -> None:
     """Name markers in the order given, each on the first free spot beside it (the spots of
     :meth:`Axes.point_labels`); a marker without a free spot stays unnamed. At most
-    :data:`LABELLED_WHEN_MANY` names."""
+    :data:`LABELLED_WHEN_MANY` names, looked for among the first three times as many markers."""
     from reportlab.pdfbase.pdfmetrics import stringWidth
 
     from rfsafe.report.common import FONT_BOLD
 
     fs = ax.font_size
     named = 0
-    for X, Y, text, color in items:
+    for X, Y, text, color in items[:3 * LABELLED_WHEN_MANY]:
         w = stringWidth(text, FONT_BOLD, fs)
         for k in range(3):
             g = size + 1 + k * fs
