@@ -26,7 +26,7 @@ except ImportError:  # pragma: no cover - older typer depends on click itself
 
 from rfsafe.errors import InputError
 
-__all__ = ["app", "main", "EXIT_INTERNAL"]
+__all__ = ["app", "main", "make_app", "EXIT_INTERNAL"]
 
 #: Exit status of an unexpected internal error (a bug), distinct from 0, 1 and 2.
 EXIT_INTERNAL = 3
@@ -45,6 +45,13 @@ _COMMAND_MODULES = (
     "rfsafe.cli.cmd_report",
     "rfsafe.cli.cmd_demo",
 )
+#: The module of each command: ``rfsafe <command> ...`` loads that module only (see :func:`main`).
+_MODULE_OF_COMMAND = {
+    "evaluate": "rfsafe.cli.cmd_evaluate", "ask": "rfsafe.cli.cmd_ask", "init": "rfsafe.cli.cmd_station",
+    "schema": "rfsafe.cli.cmd_station", "check": "rfsafe.cli.cmd_station", "limits": "rfsafe.cli.cmd_limits",
+    "line": "rfsafe.cli.cmd_line", "wire": "rfsafe.cli.cmd_wire", "site": "rfsafe.cli.cmd_site",
+    "report": "rfsafe.cli.cmd_report", "demo": "rfsafe.cli.cmd_demo",
+}
 
 
 _NOT_VALID = re.compile(r"^'(?P<value>.*)' is not a valid (?P<type>float|integer|boolean)\.?$", re.S)
@@ -152,21 +159,6 @@ class _Group(TyperGroup):
         sys.exit(rv if isinstance(rv, int) else 0)
 
 
-app = typer.Typer(
-    cls=_Group,
-    name="rfsafe",
-    help="RF exposure, feedline stress and event-site evaluation for radio transmitters.\n\n"
-         "Results are estimates under stated assumptions; local regulation and the "
-         "regulator's guidance govern.",
-    no_args_is_help=True,
-    add_completion=False,
-    rich_markup_mode=None,
-    pretty_exceptions_enable=False,
-    context_settings={"help_option_names": ["-h", "--help"]},
-)
-
-
-@app.callback(invoke_without_command=True)
 def _root(ctx: typer.Context,
           version: bool = typer.Option(False, "--version", help="Print the rfsafe version and exit.")) -> None:
     from rfsafe.cli.output import set_wide
@@ -181,8 +173,32 @@ def _root(ctx: typer.Context,
         raise typer.Exit(0)
 
 
-for _name in _COMMAND_MODULES:
-    importlib.import_module(_name).register(app)
+def make_app(modules: tuple[str, ...] = _COMMAND_MODULES) -> typer.Typer:
+    """The typer app with the commands of ``modules`` (default: every command, in ``--help`` order)."""
+    new = typer.Typer(
+        cls=_Group,
+        name="rfsafe",
+        help="RF exposure, feedline stress and event-site evaluation for radio transmitters.\n\n"
+             "Results are estimates under stated assumptions; local regulation and the "
+             "regulator's guidance govern.",
+        no_args_is_help=True,
+        add_completion=False,
+        rich_markup_mode=None,
+        pretty_exceptions_enable=False,
+        context_settings={"help_option_names": ["-h", "--help"]},
+    )
+    new.callback(invoke_without_command=True)(_root)
+    for name in modules:
+        importlib.import_module(name).register(new)
+    return new
+
+
+def __getattr__(name: str):
+    """``rfsafe.cli.app``: the app with every command, made on first use (``main`` needs one command only)."""
+    if name == "app":
+        globals()["app"] = full = make_app()
+        return full
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 
 def _terminate(signum, frame):  # noqa: ARG001 - signal handler signature
@@ -194,8 +210,11 @@ def main() -> None:
 
     SIGTERM becomes :class:`SystemExit`, so that a terminated run unwinds and removes its temporary
     output files like an interrupted one (SIGKILL cannot be caught: the next run removes them).
+    ``rfsafe <command> ...`` loads and converts that command only (the others cost start-up time and
+    are not used); anything else (``--help``, a misspelt command) gets the app with every command.
     """
     import signal
 
     signal.signal(signal.SIGTERM, _terminate)
-    app()
+    module = _MODULE_OF_COMMAND.get(sys.argv[1]) if len(sys.argv) > 1 else None
+    make_app((module,) if module else _COMMAND_MODULES)()

@@ -13,7 +13,7 @@ import math
 from pathlib import Path
 from typing import Annotated, Literal
 
-from pydantic import Field
+from pydantic import ConfigDict, Field
 
 from rfsafe.errors import InputError, bad_value, format_value
 from rfsafe.station.validation import StrictModel
@@ -146,12 +146,16 @@ class WireAntennaSpec(_Strict):
 class PointSpec(_Strict):
     """An observation point for the near field."""
 
+    model_config = ConfigDict(defer_build=True)   # built when a wire file is first read (not by station files)
+
     label: str = Field(min_length=1)
     position_m: Vec3 = Field(description="[x, y, z] in the station frame [m].")
 
 
 class WireFile(WireAntennaSpec):
     """A file for ``rfsafe wire``: geometry plus frequency, input power and observation points."""
+
+    model_config = ConfigDict(defer_build=True)   # built when a wire file is first read (not by station files)
 
     description: str = ""
     freq_mhz: float = Field(gt=0, description="Frequency [MHz].")
