@@ -40,7 +40,7 @@ def fit_text(text: str, width: int | None = None) -> str:
     import textwrap
 
     width = width if width is not None else _width
-    if width is None:
+    if width is None or not re.search(f"[^\n]{{{width + 1}}}", text):    # no line to wrap: the text as it is
         return text
     out = []
     for line in text.split("\n"):
