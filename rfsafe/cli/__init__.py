@@ -213,8 +213,12 @@ def main() -> None:
     ``rfsafe <command> ...`` loads and converts that command only (the others cost start-up time and
     are not used); anything else (``--help``, a misspelt command) gets the app with every command.
     """
+    import os
     import signal
 
     signal.signal(signal.SIGTERM, _terminate)
+    # rfsafe's file models use no pydantic plugins: skip the search of every installed package's entry
+    # points for them (about 0.006 s of each run); a value the user set is kept.
+    os.environ.setdefault("PYDANTIC_DISABLE_PLUGINS", "__all__")
     module = _MODULE_OF_COMMAND.get(sys.argv[1]) if len(sys.argv) > 1 else None
     make_app((module,) if module else _COMMAND_MODULES)()
