@@ -57,3 +57,30 @@ def test_plan_grid_agrees_with_the_places_far_field():
         i, j = int(np.argmin(abs(y - pl.y_m))), int(np.argmin(abs(x - pl.x_m)))
         assert head[i, j] == pytest.approx(pl.total_ratio, rel=0.5)
     assert all(v >= 0 for v in plan.max_ratio.values())
+
+
+def test_plan_measures_from_the_nearest_part_of_the_antenna(tmp_path):
+    # A place under the east end of the demo's 40 m half-wave dipole (lambda/2 = 21.1 m at 7.15 MHz,
+    # centre (0, 12) m, wire east-west): 8.3 m below the wire, 13 m from its centre. The plan's keep-out
+    # grid must judge the ground there as the place is judged (nearest part, never the centre): at the
+    # grid points around the place, the head-height ratio is at least the place's own over the half-cell
+    # change of the 1/R^2 law (measured from the centre instead it would be (8.3/13)^2 = 0.41 of it).
+    import tomllib
+
+    from fuzz_support import to_toml
+
+    data = tomllib.loads((DEMOS / "demo_station.toml").read_text())
+    data["places"] = [{"label": "Under the dipole's end", "x_m": 10.0, "y_m": 12.0, "height_m": 1.7,
+                       "environment": "uncontrolled", "why": "garden path"}]
+    path = tmp_path / "end.toml"
+    path.write_text(to_toml(data))
+    res = assess(load_station(path))
+    (pl,) = res.places
+    x, y = np.asarray(res.plan.x_m), np.asarray(res.plan.y_m)
+    head = res.plan.ratio[("head", "uncontrolled")]
+    i = int(np.searchsorted(y, pl.y_m)) - 1
+    j = int(np.searchsorted(x, pl.x_m)) - 1
+    around = head[i:i + 2, j:j + 2]
+    cell = max(x[1] - x[0], y[1] - y[0])
+    half_cell_law = ((8.3 - cell) / 8.3) ** 2
+    assert around.max() >= pl.total_ratio * half_cell_law

@@ -60,6 +60,7 @@ def station_plan(loaded, emitters, configs, outlines):
     -------
     rfsafe.results.PlanMap
     """
+    from rfsafe.antenna.extent import shifted
     from rfsafe.results import PlanMap
     from rfsafe.site.assess import _site_pattern, limit_equivalent_w_m2
     from rfsafe.site.constants import ENVIRONMENTS
@@ -78,7 +79,10 @@ def station_plan(loaded, emitters, configs, outlines):
                              for e in ENVIRONMENTS),
             ground_factor=em.ground_factor, azimuth_deg=em.antenna.azimuth_deg, tilt_deg=em.antenna.tilt_deg,
             polarisation=em.antenna.polarisation,
-            near_field_m=max(cfg.near_field_distance_m, cfg.aperture_far_field_m or 0.0)))
+            near_field_m=max(cfg.near_field_distance_m, cfg.aperture_far_field_m or 0.0),
+            # measured from the nearest part of the antenna, as the station's places are (the kernel takes
+            # the structure relative to the declared position)
+            extent=None if em.extent is None else shifted(em.extent, (-em.x_m, -em.y_m, -em.height_m))))
     x0, x1, y0, y1 = _extent(loaded, configs, outlines)
     step = max(x1 - x0, y1 - y0) / (PLAN_POINTS - 1)
     x = np.arange(x0, x1 + step / 2, step)
