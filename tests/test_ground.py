@@ -295,8 +295,41 @@ def test_impedance_matrix_is_symmetric_over_soil():
         wires=[dict(points_m=[[0, 0, 0.5], [0, 0, 5.5]], radius_m=0.002, segments=12),
                dict(points_m=[[0, 0, 5.5], [4, 2, 3.0]], radius_m=0.002, segments=10)],
         feeds=[dict(wire=0, position=0.1)]))
-    z = solve(spec, F_DIPOLE_HZ).impedance_matrix_ohm
+    sol = solve(spec, F_DIPOLE_HZ)
+    z = sol.impedance_matrix_ohm
     assert np.max(np.abs(z - z.T)) < 2e-3 * np.max(np.abs(z))
+    # The tabulated remainder keeps it (the solver fills one triangle of it): every block computed, both ways.
+    s = g.remainder_reaction(sol.structure, sol.k)
+    assert np.max(np.abs(s)) > 0
+    assert np.max(np.abs(s - s.T)) < 1e-12 * np.max(np.abs(s))
+
+
+@pytest.mark.parametrize("pairs", [g.REMAINDER_PAIRS, 7])
+def test_impedance_matrix_over_soil_equals_the_fill_computed_both_ways(monkeypatch, pairs):
+    # The solver fills the images' part of one triangle and mirrors it, and adds one triangle of the remainder
+    # (W + W^T, blocks of rows; 7 point pairs a block: one test segment per block, square blocks cut): equal
+    # to the whole rectangle of both (image part linear in the image weight -K: Z_free + K (Z_pec - Z_free)).
+    from dataclasses import replace
+
+    from rfsafe.antenna.wire.solver import _project, impedance_matrix
+
+    monkeypatch.setattr(g, "REMAINDER_PAIRS", pairs)
+    spec = WireAntennaSpec.model_validate(dict(
+        ground="real", soil="medium-dry-ground",
+        wires=[dict(label="v", points_m=[[0, 0, 0.4], [0, 0, 5.5]], radius_m=0.002, segments=9),
+               dict(points_m=[[0, 0, 0.4], [4, 2, 0.6]], radius_m=0.002, segments=5),
+               dict(points_m=[[0, 0, 0.4], [-3, 3, 1.0]], radius_m=0.002, segments=4)],
+        feeds=[dict(wire="v", position=0.0)]))
+    st = solve(spec, F_DIPOLE_HZ).structure
+    k = 2 * math.pi * F_DIPOLE_HZ / g.C0_M_S
+    assert g.remainder_nodes(st, 2 * 0.4) > 1                                # several nodes per segment
+    kk = g.image_factor(st.soil_eps_c)
+    z_free = impedance_matrix(replace(st, ground=False, soil_eps_c=None))
+    z_pec = impedance_matrix(replace(st, soil_eps_c=None))
+    ref = z_free + kk * (z_pec - z_free) + _project(g.remainder_reaction(st, k), st.half_to_basis)
+    z = impedance_matrix(st)
+    assert np.max(np.abs(z - ref)) < 1e-9 * np.max(np.abs(ref))
+    assert np.max(np.abs(z - z_pec)) > 1e-3 * np.max(np.abs(ref))              # the soil changes it
 
 
 def test_horizontal_dipole_feed_resistance_versus_height():

@@ -59,10 +59,10 @@ import numpy as np
 from rfsafe.antenna.wire.kernel import ETA0_OHM, gauss_legendre_01
 
 __all__ = ["MIN_HEIGHT_WAVELENGTHS", "RCA_MIN_NUMERICAL_DISTANCE", "ReflectionApproximation", "ReflectionTable",
-           "Soil", "approximation_cautions", "complex_permittivity", "fresnel_coefficients", "hertz_dipole_fields",
-           "image_factor", "numerical_distance", "rca_mask", "rca_quantities", "rca_radius_m",
-           "reflected_dipole_fields", "reflection_table", "remainder_fields", "soil_classes", "soil_from_class",
-           "space_and_image_intensity"]
+           "RemainderRows", "Soil", "approximation_cautions", "complex_permittivity", "fresnel_coefficients",
+           "hertz_dipole_fields", "image_factor", "numerical_distance", "rca_mask", "rca_quantities",
+           "rca_radius_m", "reflected_dipole_fields", "reflection_table", "remainder_fields", "soil_classes",
+           "soil_from_class", "space_and_image_intensity"]
 
 C0_M_S = 299_792_458.0
 #: Vacuum permittivity [F/m] (CODATA 2018).
@@ -798,44 +798,73 @@ def _rca_fields(k: float, eps_c: complex, src, mom, obs):
     return remainder_fields(ReflectionApproximation(k, eps_c), src, mom, obs)
 
 
-def remainder_reaction(st, k: float) -> np.ndarray:
-    """Half-function reaction matrix S[2p+e', 2q+e] of the Sommerfeld remainder, -int f_p t_p . E_q.
+#: Point pairs per block of the remainder fill (about 300 bytes of temporaries each: some 20 MB).
+REMAINDER_PAIRS = 65_536
+
+
+class RemainderRows:
+    """Rows of the half-function reaction matrix of the Sommerfeld remainder, S[2p+e', 2q+e] = -int f_p t_p . E_q.
 
     Low-order Gauss-Legendre quadrature on both segments (the remainder is smooth on the scale of the
-    segment for wires above ground; ``remainder_nodes``).
+    segment for wires above ground; ``remainder_nodes``). The remainder's dyadic Green's function is
+    reciprocal (Sommerfeld's half-space, Chew 1990 Sec. 2.4) and the tabulated one keeps it: S is symmetric
+    to rounding (measured |S - S^T| / max |S| about 1.5e-16, tests/test_ground.py), so the solver fills one
+    triangle. Blocks of rows take ``rows``; memory is bounded by the block, not by N^2.
     """
-    tab = structure_table(st, k)
-    nq = remainder_nodes(st, 2.0 * _low(st))
-    pts, w, f1, f2 = _segment_nodes(st, k, nq)
-    ns = st.num_segments
-    p = pts.reshape(-1, 3)
-    sdir = np.repeat(st.direction, nq, axis=0)
-    n = len(p)
-    g = np.empty((n, n), dtype=complex)
-    step = max(1, 400_000 // n)
-    for lo in range(0, n, step):
-        o = p[lo:lo + step]
-        dx = o[:, None, 0] - p[None, :, 0]
-        dy = o[:, None, 1] - p[None, :, 1]
+
+    def __init__(self, st, k: float):
+        self.tab = structure_table(st, k)
+        self.nq = nq = remainder_nodes(st, 2.0 * _low(st))
+        pts, w, f1, f2 = _segment_nodes(st, k, nq)
+        self.ns = st.num_segments
+        self.p = pts.reshape(-1, 3)
+        self.sdir = np.repeat(st.direction, nq, axis=0)
+        self.fw = np.stack([f1 * w, f2 * w], axis=1)               # (Ns, 2, Q)
+
+    def block_rows(self, r0: int, c0: int) -> int:
+        """Test segments per block from r0 on against the source segments c0 onward (``REMAINDER_PAIRS``)."""
+        return max(1, REMAINDER_PAIRS // (self.nq * self.nq * max(1, self.ns - c0)))
+
+    def rows(self, r0: int, r1: int, c0: int = 0) -> np.ndarray:
+        """S[2 r0:2 r1, 2 c0:] (test segments r0:r1, source segments c0 on), shape (2 (r1 - r0), 2 (Ns - c0))."""
+        nq, ns = self.nq, self.ns
+        o = self.p[r0 * nq:r1 * nq]
+        src = self.p[c0 * nq:]
+        dx = o[:, None, 0] - src[None, :, 0]
+        dy = o[:, None, 1] - src[None, :, 1]
         rho = np.hypot(dx, dy)
-        h = o[:, None, 2] + p[None, :, 2]
+        h = o[:, None, 2] + src[None, :, 2]
         with np.errstate(invalid="ignore", divide="ignore"):
             cph = np.where(rho > 0, dx / rho, 1.0)
             sph = np.where(rho > 0, dy / rho, 0.0)
-        q = tab.lookup(rho, h).astype(complex)
-        sx, sy, sz = sdir[None, :, 0], sdir[None, :, 1], sdir[None, :, 2]
+        q = self.tab.lookup(rho, h).astype(complex)
+        sd = self.sdir[c0 * nq:]
+        sx, sy, sz = sd[None, :, 0], sd[None, :, 1], sd[None, :, 2]
         ca = sx * cph + sy * sph
         sb = sx * sph - sy * cph
         e_rho = ca * q[3] + sz * q[0]
         e_phi = sb * q[6]
         e_z = ca * q[4] + sz * q[1]
-        t = sdir[lo:lo + step]
-        g[lo:lo + step] = ((e_rho * cph - e_phi * sph) * t[:, 0, None] + (e_rho * sph + e_phi * cph) * t[:, 1, None]
-                           + e_z * t[:, 2, None])
-    g = g.reshape(ns, nq, ns, nq)
-    fw = np.stack([f1 * w, f2 * w], axis=1)               # (Ns, 2, Q)
-    s = -np.einsum("pea,paqb,qfb->peqf", fw, g, fw)
-    return s.reshape(2 * ns, 2 * ns)
+        t = self.sdir[r0 * nq:r1 * nq]
+        g = ((e_rho * cph - e_phi * sph) * t[:, 0, None] + (e_rho * sph + e_phi * cph) * t[:, 1, None]
+             + e_z * t[:, 2, None])
+        g = g.reshape(r1 - r0, nq, ns - c0, nq)
+        s = -np.einsum("pea,paqb,qfb->peqf", self.fw[r0:r1], g, self.fw[c0:])
+        return s.reshape(2 * (r1 - r0), 2 * (ns - c0))
+
+
+def remainder_reaction(st, k: float) -> np.ndarray:
+    """The whole half-function reaction matrix of the Sommerfeld remainder (``RemainderRows``), (2 Ns, 2 Ns).
+
+    For checks: the solver adds the remainder block by block, one triangle (``solver.impedance_matrix``).
+    """
+    fill = RemainderRows(st, k)
+    out = np.empty((2 * fill.ns, 2 * fill.ns), dtype=complex)
+    step = fill.block_rows(0, 0)
+    for r0 in range(0, fill.ns, step):
+        r1 = min(fill.ns, r0 + step)
+        out[2 * r0:2 * r1] = fill.rows(r0, r1)
+    return out
 
 
 def with_soil(st, spec, *, prefix: str = ""):
@@ -902,7 +931,7 @@ def space_wave_intensity(st, k: float, seg_i, rhat, radiation_vector):
     perfect conductor). Valid in the far zone above the horizon (Balanis, Antenna Theory, 3rd ed.,
     Sec. 4.8, dipoles above a flat lossy earth).
     """
-    return space_and_image_intensity(st, k, seg_i, rhat, radiation_vector)[0]
+    return _space_wave(st, k, seg_i, rhat, radiation_vector, image=False)[0]
 
 
 def space_and_image_intensity(st, k: float, seg_i, rhat, radiation_vector):
@@ -912,6 +941,10 @@ def space_and_image_intensity(st, k: float, seg_i, rhat, radiation_vector):
     One evaluation of the radiation vectors serves both: the solver's perfect-ground twin of the pattern grid
     then costs nothing more.
     """
+    return _space_wave(st, k, seg_i, rhat, radiation_vector, image=True)
+
+
+def _space_wave(st, k: float, seg_i, rhat, radiation_vector, *, image: bool):
     m = np.array([1.0, 1.0, -1.0])
     r = np.asarray(rhat, dtype=float)
     # The image currents (mirrored, horizontal parts reversed) radiate N_i(r) = -M N_d(M r), M = diag(1, 1, -1):
@@ -931,5 +964,7 @@ def space_and_image_intensity(st, k: float, seg_i, rhat, radiation_vector):
     c = ETA0_OHM * k * k / (32.0 * math.pi ** 2)
     up = r[..., 2] >= 0
     u = c * (np.abs(d_t + gv * i_t) ** 2 + np.abs(d_p - gh * i_p) ** 2)
+    if not image:
+        return np.where(up, u, 0.0), None
     u_img = c * (np.abs(d_t + i_t) ** 2 + np.abs(d_p + i_p) ** 2)
     return np.where(up, u, 0.0), np.where(up, u_img, 0.0)

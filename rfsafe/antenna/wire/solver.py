@@ -359,9 +359,8 @@ def impedance_matrix(st: Structure) -> np.ndarray:
     """
     k = 2.0 * math.pi * st.freq_hz / C0_M_S
     ns = st.num_segments
-    # Over real soil the tabulated remainder is not exactly symmetric: every block is computed there.
-    mirror = st.soil_eps_c is None
-    need, sym = _needed_pairs(st) if mirror else (None, None)
+    # Over real soil the images carry -K (a constant): the same symmetry as over a perfect ground.
+    need, sym = _needed_pairs(st)
     ts = _test_side(st, k)
     srcs = [_source_side(ts, k, src, need) for src in st.sources()]
     gmap = _gather_map(st.half_to_basis)
@@ -369,23 +368,44 @@ def impedance_matrix(st: Structure) -> np.ndarray:
     step = max(1, _CHUNK // (N_FAR * max(len(s["nodes"]) for s in srcs)))
     for r0 in range(0, ns, step):
         r1 = min(ns, r0 + step)
-        c0, c1 = 0, ns
-        if need is not None:
-            cols = np.flatnonzero(need[r0:r1].any(axis=0))
-            c0, c1 = (int(cols[0]), int(cols[-1]) + 1) if len(cols) else (0, 0)
+        cols = np.flatnonzero(need[r0:r1].any(axis=0))
+        c0, c1 = (int(cols[0]), int(cols[-1]) + 1) if len(cols) else (0, 0)
         blk = np.zeros((r1 - r0, 2, ns, 2), dtype=complex)
         if c1 > c0:
             for src in srcs:
                 _rows_into(blk, ts, k, src, r0, r1, c0, c1)
         _add_rows(z, _project_columns(blk.reshape(2 * (r1 - r0), 2 * ns), gmap), 2 * r0, gmap)
+    low = np.tril(sym, -1)
+    z[low] = z.T[low]
     if st.soil_eps_c is not None:   # real ground: the images carry -K; add the Sommerfeld remainder
-        from rfsafe.antenna.wire.ground import remainder_reaction
-
-        z += _project(remainder_reaction(st, k), st.half_to_basis)
-    if mirror:
-        low = np.tril(sym, -1)
-        z[low] = z.T[low]
+        _add_remainder(z, st, k, gmap)
     return z
+
+
+def _add_remainder(z: np.ndarray, st: Structure, k: float, gmap) -> None:
+    """``z += p.T @ S @ p`` for the Sommerfeld remainder S (``ground.RemainderRows``), one triangle.
+
+    S is symmetric (reciprocity), so with H the blocks of source segments q > p plus half the blocks q = p,
+    S = H + H^T and p.T S p = W + W^T with W = p.T H p, filled a few rows at a time: memory is one N^2
+    matrix (W) besides z, whatever N.
+    """
+    from rfsafe.antenna.wire.ground import RemainderRows
+
+    fill = RemainderRows(st, k)
+    ns = st.num_segments
+    w = np.zeros_like(z)
+    r0 = 0
+    while r0 < ns:
+        r1 = min(ns, r0 + fill.block_rows(r0, r0))
+        half = np.zeros((2 * (r1 - r0), 2 * ns), dtype=complex)
+        half[:, 2 * r0:] = fill.rows(r0, r1, r0)
+        sq = half[:, 2 * r0:2 * r1].reshape(r1 - r0, 2, r1 - r0, 2)   # the square block: keep q > p, halve q = p
+        i = np.arange(r1 - r0)
+        sq *= (0.5 * (i[:, None] == i[None, :]) + (i[None, :] > i[:, None]))[:, None, :, None]
+        _add_rows(w, _project_columns(half, gmap), 2 * r0, gmap)
+        r0 = r1
+    z += w
+    z += w.T
 
 
 def _gather_map(p: np.ndarray):
@@ -981,8 +1001,12 @@ def solve(spec, freq_hz: float, *, field_prefix: str = "", enforce_limits: bool 
     theta = np.arccos(mu)
     phi = 2 * math.pi * np.arange(n_p) / n_p
     th, ph = np.meshgrid(theta, phi, indexing="ij")
-    u = _intensity(st, k, seg_i, _directions(th, ph))
-    if st.soil_eps_c is not None:
+    if st.soil_eps_c is None:
+        u = _intensity(st, k, seg_i, _directions(th, ph))
+    else:   # the space wave and, from the same radiation vectors, the perfect-ground pattern (see below)
+        from rfsafe.antenna.wire.ground import space_and_image_intensity
+
+        u, u_img = space_and_image_intensity(st, k, seg_i, _directions(th, ph), _radiation_vector)
         p_rad = float(np.sum(u * wmu[:, None]) * 2 * math.pi / n_p)
 
     # Peak: the best local maxima of the grid refined by a shrinking pattern search.
@@ -1009,8 +1033,7 @@ def solve(spec, freq_hz: float, *, field_prefix: str = "", enforce_limits: bool 
 
         st_pec = _replace(st, soil_eps_c=None)
         ring = _directions(np.full(n_p, 0.5 * math.pi), phi)
-        u_gw = max(float(_intensity(st_pec, k, seg_i, _directions(th, ph)).max()),
-                   float(_intensity(st_pec, k, seg_i, ring).max()))
+        u_gw = max(float(u_img.max()), float(_intensity(st_pec, k, seg_i, ring).max()))
         gw_gain = 10 * math.log10(4 * math.pi * u_gw / p_in)
 
     return WireSolution(
