@@ -11,6 +11,11 @@ configurations), scaled by the ratio of place x configuration counts. A command 
 configurations stays near 1x of this floor plus its fixed cost; the issue-18 targets are absolute
 (under 30 s and 300 MB for the worksheets, under 1 GB for 10,000 x 50 ``evaluate --json``).
 
+The stations stay within rfsafe's own input bounds (rfsafe/bounds.py: 10,000 places, 500,000
+place-configuration pairs, 4 MB files), so the runs are the command as a user would run it. ``report``
+includes the remedies (``with_answers``), whose cost grows with places x configurations on its own;
+``evaluate --json`` also computes the plot data (near-field maps, plan).
+
 Not a test: it prints, it asserts nothing.
 
 Run: ``python3 benchmarks/bench_scale.py [case ...]`` with cases ``report-1x10000``, ``report-50x400``,
