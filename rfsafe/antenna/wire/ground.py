@@ -798,8 +798,8 @@ def _rca_fields(k: float, eps_c: complex, src, mom, obs):
     return remainder_fields(ReflectionApproximation(k, eps_c), src, mom, obs)
 
 
-#: Point pairs per block of the remainder fill (about 300 bytes of temporaries each: some 20 MB).
-REMAINDER_PAIRS = 65_536
+#: Point pairs per block of the remainder fill (about 700 bytes of temporaries each: some 12 MB).
+REMAINDER_PAIRS = 16_384
 
 
 class RemainderRows:

@@ -365,6 +365,8 @@ def impedance_matrix(st: Structure) -> np.ndarray:
     srcs = [_source_side(ts, k, src, need) for src in st.sources()]
     gmap = _gather_map(st.half_to_basis)
     z = np.zeros((st.num_unknowns, st.num_unknowns), dtype=complex)   # p.T @ S @ p, a few test rows at a time
+    if st.soil_eps_c is not None:   # real ground: the Sommerfeld remainder first (symmetric; the images carry -K)
+        _remainder_into(z, st, k, gmap)
     step = max(1, _CHUNK // (N_FAR * max(len(s["nodes"]) for s in srcs)))
     for r0 in range(0, ns, step):
         r1 = min(ns, r0 + step)
@@ -376,24 +378,21 @@ def impedance_matrix(st: Structure) -> np.ndarray:
                 _rows_into(blk, ts, k, src, r0, r1, c0, c1)
         _add_rows(z, _project_columns(blk.reshape(2 * (r1 - r0), 2 * ns), gmap), 2 * r0, gmap)
     low = np.tril(sym, -1)
-    z[low] = z.T[low]
-    if st.soil_eps_c is not None:   # real ground: the images carry -K; add the Sommerfeld remainder
-        _add_remainder(z, st, k, gmap)
+    z[low] = z.T[low]   # the remainder, symmetric, is the same both ways
     return z
 
 
-def _add_remainder(z: np.ndarray, st: Structure, k: float, gmap) -> None:
-    """``z += p.T @ S @ p`` for the Sommerfeld remainder S (``ground.RemainderRows``), one triangle.
+def _remainder_into(z: np.ndarray, st: Structure, k: float, gmap) -> None:
+    """``z = p.T @ S @ p`` for the Sommerfeld remainder S (``ground.RemainderRows``), from one triangle.
 
     S is symmetric (reciprocity), so with H the blocks of source segments q > p plus half the blocks q = p,
-    S = H + H^T and p.T S p = W + W^T with W = p.T H p, filled a few rows at a time: memory is one N^2
-    matrix (W) besides z, whatever N.
+    S = H + H^T and p.T S p = W + W^T with W = p.T H p: W is filled into ``z`` (which must hold zeros) a few
+    rows at a time, then W + W^T is formed in place, tile by tile (memory beyond z bounded by the blocks).
     """
     from rfsafe.antenna.wire.ground import RemainderRows
 
     fill = RemainderRows(st, k)
     ns = st.num_segments
-    w = np.zeros_like(z)
     r0 = 0
     while r0 < ns:
         r1 = min(ns, r0 + fill.block_rows(r0, r0))
@@ -402,10 +401,14 @@ def _add_remainder(z: np.ndarray, st: Structure, k: float, gmap) -> None:
         sq = half[:, 2 * r0:2 * r1].reshape(r1 - r0, 2, r1 - r0, 2)   # the square block: keep q > p, halve q = p
         i = np.arange(r1 - r0)
         sq *= (0.5 * (i[:, None] == i[None, :]) + (i[None, :] > i[:, None]))[:, None, :, None]
-        _add_rows(w, _project_columns(half, gmap), 2 * r0, gmap)
+        _add_rows(z, _project_columns(half, gmap), 2 * r0, gmap)
         r0 = r1
-    z += w
-    z += w.T
+    tile = 256
+    for a in range(0, len(z), tile):
+        for b in range(a, len(z), tile):
+            t = z[a:a + tile, b:b + tile] + z[b:b + tile, a:a + tile].T
+            z[a:a + tile, b:b + tile] = t
+            z[b:b + tile, a:a + tile] = t.T
 
 
 def _gather_map(p: np.ndarray):
@@ -970,7 +973,11 @@ def solve(spec, freq_hz: float, *, field_prefix: str = "", enforce_limits: bool 
     i_feed = g @ c
     zin = st.feed_voltage_v / i_feed
     p_in = 0.5 * float(np.real(np.sum(st.feed_voltage_v * np.conj(i_feed))))
-    halves = st.half_to_basis @ c
+    # The real map times the complex currents a few rows at a time: the whole product would first make a complex
+    # copy of the N^2 map (128 MB at 2,000 segments). Each row is the same sum (equal bit for bit, measured).
+    pmap = st.half_to_basis
+    step = max(1, _CHUNK // max(1, pmap.shape[1]))
+    halves = np.concatenate([pmap[i:i + step] @ c for i in range(0, len(pmap), step)])
     seg_i = halves.reshape(-1, 2)
     i_load = st.load_coupling @ c
     p_load = 0.5 * float(np.sum(np.abs(i_load) ** 2 * z_load.real))
