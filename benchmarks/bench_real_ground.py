@@ -6,11 +6,21 @@ interpolation table in the timed call (the first solve at a frequency and soil),
 (every further configuration, place and map at that frequency and soil). Times are CPU times of this
 process (the shared machine's load swells wall time); pin BLAS to one thread so they measure the work.
 
-Run: OMP_NUM_THREADS=1 OPENBLAS_NUM_THREADS=1 python benchmarks/bench_real_ground.py
+Large antennas (issue 18): a 120 m wire 8 m up cut into 1,000 and 2,000 segments (the segment cap), each
+solve in a fresh process reporting its own CPU time and peak resident memory (median of 3), over free space
+(the floor), a perfect ground and real soil. Aim: 2,000 segments over real soil in a few seconds and under
+about 400 MB. ``--quick`` leaves them out.
+
+Run: OMP_NUM_THREADS=1 OPENBLAS_NUM_THREADS=1 python benchmarks/bench_real_ground.py [--quick]
 """
 
 from __future__ import annotations
 
+import json
+import os
+import statistics
+import subprocess
+import sys
 import time
 
 import numpy as np
@@ -81,6 +91,62 @@ def main() -> None:
           f"{'met' if max(worst, worst_cold) <= AIM else 'NOT met'}). The real-ground solve also fills the image "
           "matrix and the map sums the image fields (about 2x free space, as over a perfect ground) before the "
           "Sommerfeld remainder is added.")
+
+    if "--quick" not in sys.argv:
+        large()
+
+
+#: Peak memory aimed at for the largest real-ground solve [MB] (issue 18).
+AIM_MB = 400.0
+
+_CHILD = """
+import json, resource, sys, time
+from rfsafe.antenna.wire import WireAntennaSpec, solve
+n, ground = int(sys.argv[1]), sys.argv[2]
+soil = {"soil": "medium-dry-ground"} if ground == "real" else {}
+spec = WireAntennaSpec.model_validate({"ground": ground, **soil, "feeds": [{"wire": 0}],
+    "wires": [{"points_m": [[-60, 0, 8.0], [60, 0, 8.0]], "radius_m": 0.001, "segments": n}]})
+def peak_mb():   # VmHWM starts afresh at exec (ru_maxrss keeps the parent's peak at the fork on Linux)
+    try:
+        with open("/proc/self/status") as f:
+            return next(int(x.split()[1]) for x in f if x.startswith("VmHWM:")) / 1024
+    except (OSError, StopIteration):
+        return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+rss0 = peak_mb()
+t = time.process_time()
+solve(spec, 7.1e6)
+print(json.dumps({"cpu": time.process_time() - t, "rss": peak_mb(), "rss0": rss0}))
+"""
+
+
+def _child(n: int, ground: str) -> dict:
+    env = {**os.environ, "OMP_NUM_THREADS": os.environ.get("OMP_NUM_THREADS", "1"),
+           "OPENBLAS_NUM_THREADS": os.environ.get("OPENBLAS_NUM_THREADS", "1")}
+    out = subprocess.run([sys.executable, "-c", _CHILD, str(n), ground], capture_output=True, text=True, env=env,
+                         check=True)
+    return json.loads(out.stdout.strip().splitlines()[-1])
+
+
+def large(repeat: int = 3) -> None:
+    print()
+    print(f"Large antennas: a 120 m wire 8 m up, solve in a fresh process (median of {repeat}; CPU seconds, peak RSS "
+          "in MB, the interpreter with its imports included); ratios to free space in this run")
+    print(f"{'segments':>8} {'ground':<11} {'CPU [s]':>8} {'peak RSS [MB]':>13} {'CPU/free':>9} {'RSS/free':>9}")
+    last = None
+    for n in (1000, 2000):
+        floor = None
+        for ground in ("free-space", "perfect", "real"):
+            runs = [_child(n, ground) for _ in range(repeat)]
+            cpu = statistics.median(r["cpu"] for r in runs)
+            rss = statistics.median(r["rss"] for r in runs)
+            if floor is None:
+                floor = (cpu, rss)
+            print(f"{n:8d} {ground:<11} {cpu:8.2f} {rss:13.0f} {cpu / floor[0]:9.2f} {rss / floor[1]:9.2f}")
+            last = (cpu, rss, runs[0]["rss0"])
+    cpu, rss, rss0 = last
+    print(f"2,000 segments over real soil: {cpu:.2f} s CPU, {rss:.0f} MB peak RSS ({rss0:.0f} MB of it before the "
+          f"solve: interpreter and imports); aim: a few seconds and under about {AIM_MB:g} MB "
+          f"({'met' if rss <= AIM_MB else 'NOT met'}).")
 
 
 if __name__ == "__main__":
