@@ -16,8 +16,8 @@ Two measurements, each as a ratio to a floor measured in the same run:
 
 Part 1 measures wall time (the penalty is waiting for busy cores); part 2 measures each child's CPU
 time (user + system, ``resource.getrusage(RUSAGE_CHILDREN)``), which the shared machine's other
-work disturbs far less than wall time, with compiled bytecode cached as an installed package has it. Medians of paired, interleaved runs. Not a test: it prints,
-it asserts nothing.
+work disturbs far less than wall time, with compiled bytecode cached as an installed package has it.
+Medians of paired, interleaved runs. Not a test: it prints, it asserts nothing.
 
 Run: ``python3 benchmarks/bench_startup.py [repeats]``
 """
