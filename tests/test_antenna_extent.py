@@ -114,9 +114,10 @@ def test_farthest_part_from_the_declared_position():
 
 
 def test_site_grid_flags_the_near_field_of_the_beam_elements():
-    """On a site grid a beam's near field is lambda/2pi from the nearest part of its structure (its assumed
-    span and boom when undeclared): a point just inside lambda/2pi of the element tip is flagged, one just
-    outside is not, though both are farther than lambda/2pi from the declared position."""
+    """On a site grid a beam's near field is lambda/2pi from the nearest part of its structure (its declared
+    span and boom): a point just inside lambda/2pi of the element tip is flagged, one just outside is not,
+    though both are farther than lambda/2pi from the declared position."""
+    import tomllib
     from pathlib import Path
 
     from rfsafe.site import load_site, ratio_grid
@@ -128,11 +129,12 @@ def test_site_grid_flags_the_near_field_of_the_beam_elements():
     (e,) = beam
     lam = C0 / e.freq_hz
     assert e.near_field_m == pytest.approx(lam / (2 * math.pi))
-    # tip of the assumed reflector at the beam's height: right of the boom's rear end (azimuth 70 deg)
+    (ant,) = [a for s in tomllib.loads(demo.read_text())["stations"] if s["name"] == "HF CW" for a in s["antennas"]]
+    span, boom = ant["element_span_m"], ant["boom_length_m"]
+    # tip of the reflector at the beam's height: right of the boom's rear end (azimuth 70 deg)
     a = math.radians(e.azimuth_deg)
     fwd, right = np.array([math.sin(a), math.cos(a)]), np.array([math.cos(a), -math.sin(a)])
-    tip = (np.array([e.x_m, e.y_m]) - fwd * BEAM_DEFAULT_BOOM_WAVELENGTHS * lam / 2
-           + right * BEAM_DEFAULT_SPAN_WAVELENGTHS * lam / 2)
+    tip = np.array([e.x_m, e.y_m]) - fwd * boom / 2 + right * span / 2
     pts = [tip + right * (0.98 * lam / (2 * math.pi)), tip + right * (1.02 * lam / (2 * math.pi))]
     grid = ratio_grid(beam, [p[0] for p in pts], [p[1] for p in pts], [e.height_m])
     assert grid.near_field.tolist() == [True, False]
