@@ -245,3 +245,57 @@ def test_a_map_line_crossing_a_vertical_wire_axis_is_continuous():
     e, _ = sol.fields_rms(np.column_stack([x, np.zeros(5), np.full(5, 0.3)]), 1.0)
     assert e[1] == pytest.approx(e[3], rel=1e-9) and e[0] == pytest.approx(e[4], rel=1e-9)
     assert (e[0] - e[2]) / (e[1] - e[2]) == pytest.approx(4.0, rel=0.02)
+
+
+def _fast_path_cases():
+    # An inverted V with a bend, a straight wire with a tapered segment, and a vertical over each ground:
+    # several straight runs, nodes shared by two runs, images. lambda = 1 m.
+    vee = [{"points_m": [[-0.5, 0, 0.3], [0.0, 0, 0.55], [0.5, 0, 0.3]], "radius_m": 0.002, "segments": 22}]
+    taper = [{"points_m": [[0, -0.25, 0.4], [0, 0.25, 0.4]], "radius_m": 0.002, "segments": 9},
+             {"points_m": [[0.1, -0.2, 0.4], [0.1, 0.2, 0.4]], "radius_m": 0.001, "max_segment_m": 0.045}]
+    vertical = [{"points_m": [[0.2, 0.1, 0.05], [0.2, 0.1, 0.3]], "radius_m": 0.002, "segments": 7},
+                {"points_m": [[0.2, 0.1, 0.05], [0.45, 0.1, 0.05]], "radius_m": 0.002, "segments": 6}]
+    return [("free-space", vee, {}), ("perfect", vee, {}), ("free-space", taper, {}),
+            ("perfect", vertical, {}), ("real", vertical, {"soil": "medium-dry-ground"}),
+            ("real", vee, {"soil": "wet-ground"})]
+
+
+@pytest.mark.parametrize("ground,wires,extra", _fast_path_cases())
+def test_run_by_run_fields_equal_the_segment_by_segment_sum(ground, wires, extra):
+    # The fast path (straight runs, shared node phases, one matrix product per run) against the direct sum
+    # over segments of the same closed-form filament fields: the same sums reordered, equal to rounding.
+    from rfsafe.antenna.wire.fields import _runs, near_fields, near_fields_direct
+
+    spec = WireAntennaSpec.model_validate({"ground": ground, "wires": wires, "feeds": [{"wire": 0}], **extra})
+    sol = solve(spec, F_HZ)
+    st = sol.structure
+    rng = np.random.default_rng(7)
+    pts = rng.uniform([-0.8, -0.6, 0.02], [0.8, 0.6, 0.9], size=(3000, 3))
+    pts = pts[np.min(np.linalg.norm(pts[:, None] - 0.5 * (st.start_m + st.end_m)[None], axis=2), axis=1) > 0.03]
+    assert len(_runs(st)[0][1]) < st.num_segments / 2      # the fast path is taken
+    e0, h0 = near_fields_direct(st, sol.k, sol.segment_current_a, pts)
+    e1, h1 = near_fields(st, sol.k, sol.segment_current_a, pts)
+    scale_e = np.linalg.norm(e0, axis=1).max()
+    scale_h = np.linalg.norm(h0, axis=1).max()
+    assert np.max(np.abs(e1 - e0)) <= 1e-12 * scale_e
+    assert np.max(np.abs(h1 - h0)) <= 1e-12 * scale_h
+    rel = np.linalg.norm(e1 - e0, axis=1) / np.linalg.norm(e0, axis=1)
+    assert np.max(rel) < 1e-10
+
+
+def test_bent_wires_of_single_segment_runs_take_the_direct_sum():
+    # A square loop of 4 segments per side has runs of 4; a coarse "circle" (each segment its own run)
+    # gives the direct sum exactly (the same function is called).
+    from rfsafe.antenna.wire.fields import near_fields, near_fields_direct
+
+    ang = np.linspace(0.0, 2 * math.pi, 25)
+    ring = np.column_stack([0.16 * np.cos(ang), 0.16 * np.sin(ang), np.zeros_like(ang)])
+    ring[-1] = ring[0]
+    spec = WireAntennaSpec.model_validate({
+        "wires": [{"points_m": [[float(a) for a in p] for p in ring], "radius_m": 0.001, "segments": 24}],
+        "feeds": [{"wire": 0}]})
+    sol = solve(spec, F_HZ, enforce_limits=False)
+    pts = np.array([[0.0, 0.0, 0.1], [0.3, 0.1, 0.05], [0.0, 0.0, 0.0]])
+    e0, h0 = near_fields_direct(sol.structure, sol.k, sol.segment_current_a, pts)
+    e1, h1 = near_fields(sol.structure, sol.k, sol.segment_current_a, pts)
+    assert np.array_equal(e0, e1) and np.array_equal(h0, h1)

@@ -21,7 +21,7 @@ from rfsafe.antenna.wire.geometry import point_segment_distances
 from rfsafe.antenna.wire.kernel import ETA0_OHM
 from rfsafe.errors import bad_value
 
-__all__ = ["near_fields", "check_points", "point_cautions", "MIN_POINT_RADII",
+__all__ = ["near_fields", "near_fields_direct", "check_points", "point_cautions", "MIN_POINT_RADII",
            "NEAR_SEGMENT_WAVELENGTHS"]
 
 #: Points must be at least this many wire radii from the wire axis (thin-wire fields).
@@ -33,6 +33,122 @@ _CHUNK = 200_000
 
 def near_fields(st, k: float, seg_i: np.ndarray, points_m: np.ndarray):
     """E [V/m] and H [A/m] peak phasors (N, 3) of segment currents ``seg_i`` (Ns, 2) [A peak].
+
+    The same sums as ``near_fields_direct`` (see there for the formulas), arranged by straight runs of
+    segments (``_runs``): along a run the radial vector, rho and the axial coordinate of a point are shared by
+    all its segments, each node's e^{-jkR} and e^{-jkR}/R serve the two segments meeting there, and the sums
+    over the run's nodes are one matrix product. Equal to the direct sum to rounding (tests/test_wire_fields.py);
+    structures without long runs (bent or curved wires) take the direct sum.
+    """
+    pts = np.asarray(points_m, dtype=float).reshape(-1, 3)
+    runs = _runs(st)
+    if len(runs[0][1]) * 4 > st.num_segments + 4:     # mostly short runs: the per-run overhead would not pay
+        return near_fields_direct(st, k, seg_i, points_m)
+    e_out = np.zeros(pts.shape, dtype=complex)
+    h_out = np.zeros(pts.shape, dtype=complex)
+    if len(pts):
+        d = st.length_m
+        i1, i2 = seg_i[:, 0], seg_i[:, 1]
+        c, s = np.cos(k * d), np.sin(k * d)
+        a = 1j * ETA0_OHM / (4.0 * math.pi * s)
+        # Per segment: coefficients of g, g D and e at its start (row 0) and end (row 1) node, in the columns
+        # (E_z, E_rho rho^2, H_phi rho^2).
+        coef = np.zeros((len(d), 2, 3, 3), dtype=complex)
+        coef[:, 0, 0, 0] = coef[:, 0, 1, 1] = a * (c * i1 - i2)
+        coef[:, 1, 0, 0] = coef[:, 1, 1, 1] = a * (c * i2 - i1)
+        coef[:, 0, 2, 1] = -1j * s * a * i1
+        coef[:, 1, 2, 1] = 1j * s * a * i2
+        coef[:, 0, 1, 2] = -i1 / (4.0 * math.pi)
+        coef[:, 1, 1, 2] = i2 / (4.0 * math.pi)
+        coef[:, 0, 2, 2] = 1j * (i2 - c * i1) / (4.0 * math.pi * s)
+        coef[:, 1, 2, 2] = 1j * (i1 - c * i2) / (4.0 * math.pi * s)
+        for sign, group in runs:
+            for seg, origin, u, t, tiny in group:
+                m = len(seg)
+                cm = np.zeros((3, m + 1, 3), dtype=complex)     # (g | g D | e) x node x column
+                cm[:, :m] = np.moveaxis(coef[seg, 0], 1, 0)
+                cm[:, 1:] += np.moveaxis(coef[seg, 1], 1, 0)
+                _run_fields(pts, k, origin, u, t, tiny, (sign * cm).reshape(-1, 3), e_out, h_out)
+    if st.soil_eps_c is not None and len(pts):   # real ground: images above carry -K; add the remainder
+        from rfsafe.antenna.wire.ground import remainder_near_fields
+
+        e_r, h_r = remainder_near_fields(st, k, seg_i, pts)
+        e_out += e_r
+        h_out += h_r
+    return e_out, h_out
+
+
+def _run_fields(pts, k, origin, u, t, tiny, cm, e_out, h_out) -> None:
+    """Add one straight run's E and H at pts (N, 3) into e_out, h_out; cm (3 (m + 1), 3): node coefficients."""
+    nn = len(t)
+    step = max(1, _CHUNK // nn)
+    for lo in range(0, len(pts), step):
+        w = pts[lo:lo + step] - origin
+        zg = w @ u
+        rv = w - zg[:, None] * u
+        rho2 = np.einsum("ij,ij->i", rv, rv)
+        dz = t[None, :] - zg[:, None]                     # D of each node (D1 = -z, D2 = d - z of its segments)
+        r = np.sqrt(rho2[:, None] + dz * dz)
+        buf = np.empty((len(w), 3, nn), dtype=complex)
+        ph = buf[:, 2]
+        np.multiply(r, -1j * k, out=ph)
+        np.exp(ph, out=ph)
+        np.divide(ph, r, out=buf[:, 0])
+        np.multiply(buf[:, 0], dz, out=buf[:, 1])
+        out = buf.reshape(len(w), 3 * nn) @ cm           # (E_z, E_rho rho^2, H_phi rho^2) summed over the run
+        with np.errstate(divide="ignore"):
+            inv = np.where(rho2 <= tiny, 0.0, 1.0 / rho2)
+        er = out[:, 1] * inv
+        hh = out[:, 2] * inv
+        e_out[lo:lo + step] += out[:, 0, None] * u + er[:, None] * rv
+        h_out[lo:lo + step] += hh[:, None] * np.cross(u, rv)
+
+
+def _runs(st):
+    """Straight runs of consecutive segments: [(current sign, [(segments, origin, unit, node t, tiny), ...]), ...].
+
+    A run is a maximal sequence of segments each starting at the previous one's end node, with the same
+    direction (to 1e-12) and nodes on the run's line (to 1e-12 of its length); one list for the real
+    segments and, above a ground, one for the images (mirrored geometry, the image current sign).
+    """
+    hit = st.__dict__.get("_field_runs")     # geometry only: kept on the (frozen) structure once found
+    if hit is not None:
+        return hit
+    sdir = st.direction
+    length = st.length_m
+    ns = st.num_segments
+    bounds = [0]
+    for i in range(1, ns):
+        o = st.start_m[bounds[-1]]
+        same = (st.node1[i] == st.node2[i - 1] and np.max(np.abs(sdir[i] - sdir[bounds[-1]])) <= 1e-12)
+        if same:
+            off = st.end_m[i] - o
+            off = off - (off @ sdir[bounds[-1]]) * sdir[bounds[-1]]
+            same = float(np.linalg.norm(off)) <= 1e-12 * float(np.linalg.norm(st.end_m[i] - o))
+        if not same:
+            bounds.append(i)
+    bounds.append(ns)
+    out = []
+    mirrors = [(np.array([1.0, 1.0, 1.0]), 1.0)]
+    if st.ground:
+        mirrors.append((np.array([1.0, 1.0, -1.0]), st.image_sign))
+    for mir, sign in mirrors:
+        group = []
+        for b0, b1 in zip(bounds[:-1], bounds[1:]):
+            seg = np.arange(b0, b1)
+            origin = st.start_m[b0] * mir
+            u = sdir[b0] * mir
+            nodes = np.concatenate([st.start_m[seg], st.end_m[seg[-1:]]]) * mir
+            t = (nodes - origin) @ u
+            tiny = (1e-9 * float(length[seg].min())) ** 2
+            group.append((seg, origin, u, t, tiny))
+        out.append((sign, group))
+    object.__setattr__(st, "_field_runs", out)
+    return out
+
+
+def near_fields_direct(st, k: float, seg_i: np.ndarray, points_m: np.ndarray):
+    """Segment by segment (the reference for ``near_fields``): E [V/m] and H [A/m] peak phasors (N, 3) of segment currents ``seg_i`` (Ns, 2) [A peak].
 
     Parameters
     ----------
