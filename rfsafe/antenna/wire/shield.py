@@ -324,6 +324,7 @@ class ChokeSweep:
 
     def __init__(self, sol, points_m, *, field: str = "points_m"):
         from rfsafe.antenna.wire.fields import check_points, near_fields
+        from rfsafe.antenna.wire.solver import segment_currents
 
         st = sol.structure
         n = sol.shield.choke_load
@@ -337,7 +338,7 @@ class ChokeSweep:
         self._route = np.isin(st.wire, sol.shield.route_wires)
         fields = []
         for c in (self._a, self._b):
-            seg = (st.half_to_basis @ c).reshape(-1, 2)
+            seg = segment_currents(st, c)   # a few rows at a time (no complex copy of the map)
             fields.append(near_fields(st, sol.k, seg, pts) if len(pts) else (np.zeros((0, 3)), np.zeros((0, 3))))
         (self._ea, self._ha), (self._eb, self._hb) = fields
         g = st.feed_coupling
@@ -367,7 +368,9 @@ class ChokeSweep:
         """Largest current on the shield route [A rms] for ``input_power_w`` [W] delivered (one choke value)."""
         t = self._t(z_choke_ohm)
         c = self._a - complex(t) * self._b
-        seg = (self._sol.structure.half_to_basis @ c).reshape(-1, 2)[self._route]
+        from rfsafe.antenna.wire.solver import segment_currents
+
+        seg = segment_currents(self._sol.structure, c)[self._route]
         return float(np.abs(seg).max()) * float(self._scale(t, input_power_w)) / math.sqrt(2)
 
 

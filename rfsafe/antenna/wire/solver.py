@@ -477,6 +477,19 @@ def _project(s: np.ndarray, p: np.ndarray) -> np.ndarray:
 N_POWER = 4
 
 
+def segment_currents(st: Structure, c: np.ndarray) -> np.ndarray:
+    """Currents (Ns, 2) at the start and end of each segment from basis amplitudes ``c`` (Nb,) [A].
+
+    The real map times the complex currents a few rows at a time: the whole product would first make a
+    complex copy of the N^2 map (128 MB at 2,000 segments). Each row is the same sum (equal bit for bit,
+    measured).
+    """
+    pmap = st.half_to_basis
+    step = max(1, _CHUNK // max(1, pmap.shape[1]))
+    halves = np.concatenate([pmap[i:i + step] @ c for i in range(0, len(pmap), step)])
+    return halves.reshape(-1, 2)
+
+
 def _radiated_power(st: Structure, k: float, seg_i: np.ndarray) -> float:
     """Radiated power [W] of the solved currents from the real part of their mutual impedance.
 
@@ -973,12 +986,7 @@ def solve(spec, freq_hz: float, *, field_prefix: str = "", enforce_limits: bool 
     i_feed = g @ c
     zin = st.feed_voltage_v / i_feed
     p_in = 0.5 * float(np.real(np.sum(st.feed_voltage_v * np.conj(i_feed))))
-    # The real map times the complex currents a few rows at a time: the whole product would first make a complex
-    # copy of the N^2 map (128 MB at 2,000 segments). Each row is the same sum (equal bit for bit, measured).
-    pmap = st.half_to_basis
-    step = max(1, _CHUNK // max(1, pmap.shape[1]))
-    halves = np.concatenate([pmap[i:i + step] @ c for i in range(0, len(pmap), step)])
-    seg_i = halves.reshape(-1, 2)
+    seg_i = segment_currents(st, c)
     i_load = st.load_coupling @ c
     p_load = 0.5 * float(np.sum(np.abs(i_load) ** 2 * z_load.real))
 
