@@ -260,11 +260,15 @@ def _fast_path_cases():
             ("real", vee, {"soil": "wet-ground"})]
 
 
+@pytest.mark.parametrize("small", [0, 10**9])    # run by run (matrix products), all runs at once
 @pytest.mark.parametrize("ground,wires,extra", _fast_path_cases())
-def test_run_by_run_fields_equal_the_segment_by_segment_sum(ground, wires, extra):
-    # The fast path (straight runs, shared node phases, one matrix product per run) against the direct sum
+def test_run_by_run_fields_equal_the_segment_by_segment_sum(monkeypatch, ground, wires, extra, small):
+    # The fast paths (straight runs, shared node phases, node coefficients summed once) against the direct sum
     # over segments of the same closed-form filament fields: the same sums reordered, equal to rounding.
+    from rfsafe.antenna.wire import fields
     from rfsafe.antenna.wire.fields import _runs, near_fields, near_fields_direct
+
+    monkeypatch.setattr(fields, "_SMALL", small)
 
     spec = WireAntennaSpec.model_validate({"ground": ground, "wires": wires, "feeds": [{"wire": 0}], **extra})
     sol = solve(spec, F_HZ)
@@ -272,7 +276,7 @@ def test_run_by_run_fields_equal_the_segment_by_segment_sum(ground, wires, extra
     rng = np.random.default_rng(7)
     pts = rng.uniform([-0.8, -0.6, 0.02], [0.8, 0.6, 0.9], size=(3000, 3))
     pts = pts[np.min(np.linalg.norm(pts[:, None] - 0.5 * (st.start_m + st.end_m)[None], axis=2), axis=1) > 0.03]
-    assert len(_runs(st)[0][1]) < st.num_segments / 2      # the fast path is taken
+    assert _runs(st)["real_runs"] < st.num_segments / 2      # the fast path is taken
     e0, h0 = near_fields_direct(st, sol.k, sol.segment_current_a, pts)
     e1, h1 = near_fields(st, sol.k, sol.segment_current_a, pts)
     scale_e = np.linalg.norm(e0, axis=1).max()

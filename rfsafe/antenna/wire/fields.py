@@ -37,12 +37,14 @@ def near_fields(st, k: float, seg_i: np.ndarray, points_m: np.ndarray):
     The same sums as ``near_fields_direct`` (see there for the formulas), arranged by straight runs of
     segments (``_runs``): along a run the radial vector, rho and the axial coordinate of a point are shared by
     all its segments, each node's e^{-jkR} and e^{-jkR}/R serve the two segments meeting there, and the sums
-    over the run's nodes are one matrix product. Equal to the direct sum to rounding (tests/test_wire_fields.py);
-    structures without long runs (bent or curved wires) take the direct sum.
+    over a run's nodes take node coefficients summed once per call. Few points: all runs at once (few array
+    operations per call); many points: run by run, the sums one matrix product per run and block of points.
+    Equal to the direct sum to rounding (tests/test_wire_fields.py); structures without long runs (bent or
+    curved wires) take the direct sum.
     """
     pts = np.asarray(points_m, dtype=float).reshape(-1, 3)
-    runs = _runs(st)
-    if len(runs[0][1]) * 4 > st.num_segments + 4:     # mostly short runs: the per-run overhead would not pay
+    geo = _runs(st)
+    if geo["real_runs"] * 4 > st.num_segments + 4:     # mostly short runs: the per-run overhead would not pay
         return near_fields_direct(st, k, seg_i, points_m)
     e_out = np.zeros(pts.shape, dtype=complex)
     h_out = np.zeros(pts.shape, dtype=complex)
@@ -51,24 +53,28 @@ def near_fields(st, k: float, seg_i: np.ndarray, points_m: np.ndarray):
         i1, i2 = seg_i[:, 0], seg_i[:, 1]
         c, s = np.cos(k * d), np.sin(k * d)
         a = 1j * ETA0_OHM / (4.0 * math.pi * s)
-        # Per segment: coefficients of g, g D and e at its start (row 0) and end (row 1) node, in the columns
-        # (E_z, E_rho rho^2, H_phi rho^2).
-        coef = np.zeros((len(d), 2, 3, 3), dtype=complex)
-        coef[:, 0, 0, 0] = coef[:, 0, 1, 1] = a * (c * i1 - i2)
-        coef[:, 1, 0, 0] = coef[:, 1, 1, 1] = a * (c * i2 - i1)
-        coef[:, 0, 2, 1] = -1j * s * a * i1
-        coef[:, 1, 2, 1] = 1j * s * a * i2
-        coef[:, 0, 1, 2] = -i1 / (4.0 * math.pi)
-        coef[:, 1, 1, 2] = i2 / (4.0 * math.pi)
-        coef[:, 0, 2, 2] = 1j * (i2 - c * i1) / (4.0 * math.pi * s)
-        coef[:, 1, 2, 2] = 1j * (i1 - c * i2) / (4.0 * math.pi * s)
-        for sign, group in runs:
-            for seg, origin, u, t, tiny in group:
-                m = len(seg)
-                cm = np.zeros((3, m + 1, 3), dtype=complex)     # (g | g D | e) x node x column
-                cm[:, :m] = np.moveaxis(coef[seg, 0], 1, 0)
-                cm[:, 1:] += np.moveaxis(coef[seg, 1], 1, 0)
-                _run_fields(pts, k, origin, u, t, tiny, (sign * cm).reshape(-1, 3), e_out, h_out)
+        # Per segment: coefficients at its start (row 0) and end (row 1) node of g (and g D) for E_z and
+        # E_rho rho^2 (A), of e for E_rho rho^2 (B), of g D for H_phi rho^2 (U) and of e for H_phi rho^2 (V).
+        seg_coef = np.empty((4, 2, len(d)), dtype=complex)
+        seg_coef[0, 0], seg_coef[0, 1] = a * (c * i1 - i2), a * (c * i2 - i1)
+        seg_coef[1, 0], seg_coef[1, 1] = -1j * s * a * i1, 1j * s * a * i2
+        seg_coef[2, 0], seg_coef[2, 1] = -i1 / (4.0 * math.pi), i2 / (4.0 * math.pi)
+        seg_coef[3, 0] = 1j * (i2 - c * i1) / (4.0 * math.pi * s)
+        seg_coef[3, 1] = 1j * (i1 - c * i2) / (4.0 * math.pi * s)
+        node_coef = np.zeros((4, len(geo["t"])), dtype=complex)     # (A, B, U, V) per node of every run
+        node_coef[:, geo["start_node"]] = seg_coef[:, 0, geo["seg"]]
+        node_coef[:, geo["end_node"]] += seg_coef[:, 1, geo["seg"]]   # each node ends at most one segment
+        node_coef *= geo["node_sign"]
+        if len(pts) * len(geo["t"]) <= _SMALL:
+            _all_runs_fields(pts, k, geo, node_coef, e_out, h_out)
+        else:
+            for r0, r1, origin, u, tiny in geo["runs"]:
+                cm = np.zeros((3, r1 - r0, 3), dtype=complex)      # (g | g D | e) x node x column
+                cm[0, :, 0] = cm[1, :, 1] = node_coef[0, r0:r1]
+                cm[2, :, 1] = node_coef[1, r0:r1]
+                cm[1, :, 2] = node_coef[2, r0:r1]
+                cm[2, :, 2] = node_coef[3, r0:r1]
+                _run_fields(pts, k, origin, u, geo["t"][r0:r1], tiny, cm.reshape(-1, 3), e_out, h_out)
     if st.soil_eps_c is not None and len(pts):   # real ground: images above carry -K; add the remainder
         from rfsafe.antenna.wire.ground import remainder_near_fields
 
@@ -76,6 +82,36 @@ def near_fields(st, k: float, seg_i: np.ndarray, points_m: np.ndarray):
         e_out += e_r
         h_out += h_r
     return e_out, h_out
+
+
+#: Point-node pairs up to which all runs are summed at once (small calls: few array operations).
+_SMALL = 40_000
+
+
+def _all_runs_fields(pts, k, geo, node_coef, e_out, h_out) -> None:
+    """Add the E and H of every run at pts (N, 3) into e_out, h_out, all runs at once (see near_fields)."""
+    origin, u, node_run = geo["origin"], geo["unit"], geo["node_run"]
+    w = pts[:, None, :] - origin[None]                     # (N, runs, 3)
+    zg = np.einsum("prk,rk->pr", w, u)
+    rv = w - zg[..., None] * u
+    rho2 = np.einsum("prk,prk->pr", rv, rv)
+    dz = geo["t"] - zg[:, node_run]                        # D of each node (D1 = -z, D2 = d - z of its segments)
+    r = np.sqrt(rho2[:, node_run] + dz * dz)
+    ph = np.exp(r * (-1j * k))
+    g = ph / r
+    gd = g * dz
+    starts = geo["run_start"]
+    ez = np.add.reduceat(g * node_coef[0], starts, axis=1)
+    er = np.add.reduceat(gd * node_coef[0] + ph * node_coef[1], starts, axis=1)
+    hh = np.add.reduceat(gd * node_coef[2] + ph * node_coef[3], starts, axis=1)
+    with np.errstate(divide="ignore"):
+        inv = np.where(rho2 <= geo["tiny"], 0.0, 1.0 / rho2)
+    cu = np.empty_like(rv)                                  # u x (radial vector)
+    cu[..., 0] = u[:, 1] * rv[..., 2] - u[:, 2] * rv[..., 1]
+    cu[..., 1] = u[:, 2] * rv[..., 0] - u[:, 0] * rv[..., 2]
+    cu[..., 2] = u[:, 0] * rv[..., 1] - u[:, 1] * rv[..., 0]
+    e_out += ez @ u + np.einsum("pr,prk->pk", er * inv, rv)
+    h_out += np.einsum("pr,prk->pk", hh * inv, cu)
 
 
 def _run_fields(pts, k, origin, u, t, tiny, cm, e_out, h_out) -> None:
@@ -104,12 +140,15 @@ def _run_fields(pts, k, origin, u, t, tiny, cm, e_out, h_out) -> None:
         h_out[lo:lo + step] += hh[:, None] * np.cross(u, rv)
 
 
-def _runs(st):
-    """Straight runs of consecutive segments: [(current sign, [(segments, origin, unit, node t, tiny), ...]), ...].
+def _runs(st) -> dict:
+    """Straight runs of consecutive segments, real and (above a ground) image, as flat arrays.
 
     A run is a maximal sequence of segments each starting at the previous one's end node, with the same
-    direction (to 1e-12) and nodes on the run's line (to 1e-12 of its length); one list for the real
-    segments and, above a ground, one for the images (mirrored geometry, the image current sign).
+    direction (to 1e-12) and nodes on the run's line (to 1e-12 of its length). The images (mirrored geometry)
+    follow the real runs with the image current sign. Keys: ``runs`` [(first node, end node, origin, unit,
+    tiny)], ``origin``, ``unit`` (runs, 3), ``tiny`` (runs,), ``t`` (nodes,) position along the run,
+    ``node_run``, ``node_sign`` (nodes,), ``run_start`` (runs,) first node, ``seg``, ``start_node``,
+    ``end_node`` (entries,) each run segment and its nodes, ``real_runs``.
     """
     hit = st.__dict__.get("_field_runs")     # geometry only: kept on the (frozen) structure once found
     if hit is not None:
@@ -128,21 +167,36 @@ def _runs(st):
         if not same:
             bounds.append(i)
     bounds.append(ns)
-    out = []
     mirrors = [(np.array([1.0, 1.0, 1.0]), 1.0)]
     if st.ground:
         mirrors.append((np.array([1.0, 1.0, -1.0]), st.image_sign))
+    runs, origin, unit, tiny, t, node_run, node_sign, run_start, seg, start_node = ([] for _ in range(10))
+    n0 = 0
     for mir, sign in mirrors:
-        group = []
         for b0, b1 in zip(bounds[:-1], bounds[1:]):
-            seg = np.arange(b0, b1)
-            origin = st.start_m[b0] * mir
+            idx = np.arange(b0, b1)
+            o = st.start_m[b0] * mir
             u = sdir[b0] * mir
-            nodes = np.concatenate([st.start_m[seg], st.end_m[seg[-1:]]]) * mir
-            t = (nodes - origin) @ u
-            tiny = (1e-9 * float(length[seg].min())) ** 2
-            group.append((seg, origin, u, t, tiny))
-        out.append((sign, group))
+            nodes = np.concatenate([st.start_m[idx], st.end_m[idx[-1:]]]) * mir
+            m = len(idx) + 1
+            tn = (nodes - o) @ u
+            tn_tiny = (1e-9 * float(length[idx].min())) ** 2
+            runs.append((n0, n0 + m, o, u, tn_tiny))
+            origin.append(o)
+            unit.append(u)
+            tiny.append(tn_tiny)
+            t.append(tn)
+            node_run.append(np.full(m, len(run_start)))
+            node_sign.append(np.full(m, sign, dtype=complex))
+            run_start.append(n0)
+            seg.append(idx)
+            start_node.append(n0 + np.arange(m - 1))
+            n0 += m
+    start_node = np.concatenate(start_node)
+    out = {"runs": runs, "origin": np.array(origin), "unit": np.array(unit), "tiny": np.array(tiny),
+           "t": np.concatenate(t), "node_run": np.concatenate(node_run), "node_sign": np.concatenate(node_sign),
+           "run_start": np.array(run_start), "seg": np.concatenate(seg), "start_node": start_node,
+           "end_node": start_node + 1, "real_runs": len(bounds) - 1}
     object.__setattr__(st, "_field_runs", out)
     return out
 
