@@ -131,3 +131,31 @@ def test_prefix_names_the_station_path():
         solve(s, F_HZ, field_prefix="antennas[2].wire.")
     with pytest.raises(InputError, match=r"^freq_hz: -1\.0 must be a finite frequency > 0 Hz$"):
         solve(s, -1.0)
+
+
+def test_sparse_half_map_answers_like_the_dense_matrix():
+    # A junction of three wires (a half-function in two basis functions) and a plain wire: the sparse
+    # half-to-basis map gives the dense matrix's entries, nonzeros (row-major), row blocks and products.
+    from rfsafe.antenna.wire.geometry import HalfMap
+
+    s = WireAntennaSpec.model_validate({
+        "wires": [{"points_m": [[0, 0, 0.5], [0.3, 0, 0.5]], "radius_m": 1e-3, "segments": 5},
+                  {"points_m": [[0.3, 0, 0.5], [0.6, 0.1, 0.5]], "radius_m": 1e-3, "segments": 4},
+                  {"points_m": [[0.3, 0, 0.5], [0.3, 0.3, 0.5]], "radius_m": 1e-3, "segments": 4}],
+        "feeds": [{"wire": 0}]})
+    st = build_structure(s, F_HZ, check_wire_antenna(s))
+    p = st.half_to_basis
+    assert isinstance(p, HalfMap)
+    dense = np.zeros(p.shape)
+    for r, c, v in zip(p.rows, p.cols, p.vals):
+        dense[r, c] += v
+    assert np.array_equal(p.toarray(), dense)
+    assert set(np.unique(dense)) <= {-1.0, 0.0, 1.0} and np.abs(dense).sum(axis=1).max() >= 2   # a junction
+    assert all(np.array_equal(a, b) for a, b in zip(np.nonzero(p), np.nonzero(dense)))
+    assert np.array_equal(p[3:11], dense[3:11]) and p[len(dense):].shape == (0, p.shape[1])
+    ri, ci = np.meshgrid(np.arange(p.shape[0]), np.arange(p.shape[1]), indexing="ij")
+    assert np.array_equal(p[ri.ravel(), ci.ravel()], dense.ravel())
+    c = np.random.default_rng(1).normal(size=p.shape[1]) + 1j
+    np.testing.assert_allclose(p @ c, dense @ c, rtol=0, atol=1e-15)
+    m = np.arange(p.shape[0] * 2.0).reshape(2, -1)
+    assert np.array_equal(m @ p, m @ dense) and np.array_equal(p.T, dense.T)

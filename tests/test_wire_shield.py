@@ -165,14 +165,13 @@ def test_declared_choke_is_reported_and_a_load_on_the_fed_wire_follows_the_cut()
     assert sol.structure.load_position_m[0] == pytest.approx([4.95, 0.0, 8.0], abs=1e-9)
 
 
-def test_segment_currents_a_few_rows_at_a_time_equal_the_whole_product(monkeypatch):
-    # The half-to-basis map is applied in blocks of rows (no complex copy of the dense map): the same sums.
+def test_segment_currents_from_the_sparse_half_map_equal_the_dense_product():
+    # The half-to-basis map is held sparse (no dense N^2 matrix, no complex copy of it): the same sums.
     from rfsafe.antenna.wire import solver
 
     sol = solve(spec(ROUTE_OPEN), F_HZ)
     st = sol.structure
     c = sol.basis_current_a
-    whole = (st.half_to_basis @ c).reshape(-1, 2)
-    monkeypatch.setattr(solver, "_CHUNK", 3 * st.half_to_basis.shape[1])   # blocks of 3 rows
+    whole = (st.half_to_basis.toarray() @ c).reshape(-1, 2)
     np.testing.assert_array_equal(solver.segment_currents(st, c), whole)
     np.testing.assert_array_equal(sol.segment_current_a, whole)
