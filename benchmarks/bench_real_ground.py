@@ -27,7 +27,7 @@ import numpy as np
 
 from rfsafe.antenna.wire import WireAntennaSpec, solve
 from rfsafe.antenna.wire import ground as G
-from rfsafe.antenna.wire.fields import near_fields
+from rfsafe.antenna.wire.fields import near_fields, near_fields_direct
 
 AIM = 3.0
 
@@ -85,12 +85,22 @@ def main() -> None:
         label = name.replace("solve", "10,000-point map")
         print(f"{label:<28} {t_mfs:14.4f} {t_mcold:13.4f} {t_mwarm:13.4f} {t_mcold / t_mfs:9.2f} "
               f"{t_mwarm / t_mfs:9.2f}")
+        # Where the map's time goes over soil: the closed-form part (the segments and their -K images, summed by
+        # straight runs) and the Sommerfeld remainder; and the segment-by-segment sums (the floor before the runs).
+        st_rg = sol_rg.structure
+        t_rem, _ = best_of(lambda: G.remainder_near_fields(st_rg, sol_rg.k, sol_rg.segment_current_a, grid), repeat=3)
+        t_dfs, _ = best_of(lambda s=sol_fs: near_fields_direct(s.structure, s.k, s.segment_current_a, grid), repeat=3)
+        t_drg, _ = best_of(lambda: near_fields_direct(st_rg, sol_rg.k, sol_rg.segment_current_a, grid), repeat=3)
+        print(f"{'':<28} over soil: closed form {t_mwarm - t_rem:.4f} s + Sommerfeld remainder {t_rem:.4f} s; "
+              f"segment by segment {t_drg:.4f} s over soil, {t_dfs:.4f} s free space "
+              f"(ratio {t_drg / t_dfs:.2f})")
         worst = max(worst, t_warm / t_fs, t_mwarm / t_mfs)
         worst_cold = max(worst_cold, t_cold / t_fs, t_mcold / t_mfs)
     print(f"worst warm ratio {worst:.2f}, worst cold ratio {worst_cold:.2f} (aim: within {AIM:g}x free space; "
           f"{'met' if max(worst, worst_cold) <= AIM else 'NOT met'}). The real-ground solve also fills the image "
           "matrix and the map sums the image fields (about 2x free space, as over a perfect ground) before the "
-          "Sommerfeld remainder is added.")
+          "Sommerfeld remainder is added. The free-space floor is the map by straight runs (about 4x faster than "
+          "segment by segment); the remainder, unchanged, now dominates the map over soil.")
 
     if "--quick" not in sys.argv:
         large()

@@ -1,7 +1,8 @@
 """Benchmark of the thin-wire moment-method solver (prints figures; not a test).
 
 Aims (floors stated in the task): a 3-element beam at ~60 unknowns solved in under 0.3 s, and a
-10,000-point near-field map in under 1 s. Also: fill and solve time against the number of
+10,000-point near-field map in under 1 s; the map by straight runs against the segment-by-segment sum
+(``fields.near_fields_direct``, the reference) in the same run, and the small calls an evaluation makes. Also: fill and solve time against the number of
 unknowns (20 to 200) and the ratio of fill time to numpy's dense solve of the same matrix.
 
 Scaling (issue 18): fill, numpy's dense LU, the radiated-power check and the whole solve() against
@@ -77,13 +78,26 @@ def main() -> None:
 
     x, y = np.meshgrid(np.linspace(-1.0, 1.0, 100), np.linspace(-1.0, 1.0, 100))
     pts = np.column_stack([x.ravel(), y.ravel(), np.full(x.size, 0.1)])  # 10,000 points 0.1 lambda above
-    from rfsafe.antenna.wire.fields import near_fields
+    from rfsafe.antenna.wire.fields import near_fields, near_fields_direct
 
     # near_fields itself: sol.fields_rms keeps the unit fields of a point set, so repeats would time a cache
-    t_map, _ = best_of(lambda: near_fields(sol.structure, sol.k, sol.segment_current_a, pts), repeat=3)
+    args = (sol.structure, sol.k, sol.segment_current_a, pts)
+    t_map, (e_f, h_f) = best_of(lambda: near_fields(*args), repeat=3)
+    t_dir, (e_d, h_d) = best_of(lambda: near_fields_direct(*args), repeat=3)
     e, _h = sol.fields_rms(pts, 1000.0)
     print(f"near-field map, {len(pts)} points x {sol.num_segments} segments: {t_map:.3f} s "
           f"(floor {MAP_FLOOR_S} s, ratio {t_map / MAP_FLOOR_S:.2f} of the floor); max E {e.max():.1f} V/m rms at 1 kW")
+    diff = max(np.abs(e_f - e_d).max() / np.abs(e_d).max(), np.abs(h_f - h_d).max() / np.abs(h_d).max())
+    print(f"  by straight runs {t_map:.3f} s vs segment by segment {t_dir:.3f} s: {t_dir / t_map:.1f}x faster; "
+          f"largest difference {diff:.1e} of the largest field component")
+    pts_small = pts[::2500]                     # 4 points: the many small calls of an evaluation
+    n_small = 200
+    t_small, _ = best_of(lambda: [near_fields(sol.structure, sol.k, sol.segment_current_a, pts_small)
+                                  for _ in range(n_small)], repeat=3)
+    t_small_d, _ = best_of(lambda: [near_fields_direct(sol.structure, sol.k, sol.segment_current_a, pts_small)
+                                    for _ in range(n_small)], repeat=3)
+    print(f"  {len(pts_small)}-point calls: {1e6 * t_small / n_small:.0f} us each "
+          f"(segment by segment {1e6 * t_small_d / n_small:.0f} us)")
 
 
 def cpu_wall(fn):
