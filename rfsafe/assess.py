@@ -1103,7 +1103,7 @@ def assess_with_emitters(loaded: LoadedStation, *, today: dt.date | None = None,
         exposures = tuple(_place_exposure(em, loaded, pi_, place, by_id[em.configuration], em.solution)
                           for em in ems)
         if keys is not None:
-            pk = place.model_dump_json()
+            pk = _place_key(memo, place)
             for k, x in zip(keys, exposures):
                 memo[(k, pk)] = (True, x)
         total, shares, rule = _totals(exposures, st)
@@ -1202,15 +1202,28 @@ def place_totals(loaded: LoadedStation, memo: dict | None = None) -> list[tuple[
     gf = ex.GROUND_FACTORS[st.ground_reflection]
     keys = [_configuration_key(loaded, c) for c in st.configurations] if memo is not None else [None] * len(
         st.configurations)
+    # Exposures are kept only for configurations the memo already held (those of the first evaluation):
+    # a changed configuration (a trial power, duty or schedule) is rarely asked again, and keeping its
+    # exposure at every place for every trial grew as places x configurations x trials.
+    kept = [memo is not None and k in memo for k in keys]
     pairs = [_memoised(memo, k, lambda i=i, c=c: _configuration(loaded, i, c, gf, False, lean=True))
              for (i, c), k in zip(enumerate(st.configurations), keys)]
     out = []
     for pi_, place in enumerate(st.places):
-        pk = place.model_dump_json() if memo is not None else None
-        exposures = tuple(_memoised(memo, (k, pk), lambda cres=cres, em=em: _place_exposure(
-            em, loaded, pi_, place, cres, em.solution)) for k, (cres, em) in zip(keys, pairs))
+        pk = _place_key(memo, place) if memo is not None else None
+        exposures = tuple(_memoised(memo if keep else None, (k, pk), lambda cres=cres, em=em: _place_exposure(
+            em, loaded, pi_, place, cres, em.solution)) for k, keep, (cres, em) in zip(keys, kept, pairs))
         out.append((place.label, _totals(exposures, st)[0]))
     return out
+
+
+def _place_key(memo: dict, place) -> str:
+    """The memo key of a place: its inputs as JSON, made once per place object (the memo keeps the object,
+    so its ``id`` is not reused while the entry exists)."""
+    held = memo.get(("place", id(place)))
+    if held is None or held[0] is not place:
+        held = memo[("place", id(place))] = (place, place.model_dump_json())
+    return held[1]
 
 
 def _verdicts(configs, places) -> dict:

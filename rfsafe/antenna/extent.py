@@ -234,8 +234,12 @@ def structure_parts(extent: Extent) -> tuple:
     """The geometry of ``extent`` prepared for :class:`NearestPart` (compute once, bind to many point sets).
 
     Returns ``(reference (3,), quadratic, discs, spheres)``: every position relative to the reference
-    point; quadratic parts are ``(origin, plain axes, clamped (axis, half))``.
+    point; quadratic parts are ``(origin, plain axes, clamped (axis, half))``. Kept on the extent after the
+    first call (an extent is never changed after it is made; :func:`shifted` makes a new one).
     """
+    cached = extent.__dict__.get("_parts")
+    if cached is not None:
+        return cached
     segs = np.asarray(extent.segments_m, dtype=float).reshape(-1, 2, 3)
     centres = ([0.5 * (a + b) for a, b in segs] + [np.asarray(c, dtype=float) for c, *_ in extent.rectangles]
                + [np.asarray(c, dtype=float) for c, _ in extent.discs]
@@ -254,7 +258,9 @@ def structure_parts(extent: Extent) -> tuple:
         quadratic.append((np.asarray(c, dtype=float) - ref, (np.cross(u, v),), ((u, hu), (v, hv))))
     discs = tuple((np.asarray(c, dtype=float) - ref, float(r)) for c, r in extent.discs)
     spheres = tuple((np.asarray(c, dtype=float) - ref, float(r)) for c, r in extent.spheres)
-    return ref, tuple(quadratic), discs, spheres
+    parts = (ref, tuple(quadratic), discs, spheres)
+    object.__setattr__(extent, "_parts", parts)   # a frozen dataclass: a cache, not a field
+    return parts
 
 
 class NearestPart:
