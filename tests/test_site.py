@@ -339,11 +339,11 @@ def test_tilted_beam_is_never_below_the_pattern_and_within_its_margin(bw, fb, ti
 
 @pytest.mark.parametrize("tilt", [0.0, 15.0])
 def test_kernel_matches_the_far_field_prediction_for_tables(tilt):
-    # the grid's table paths (height-independent azimuth cell when untilted; the general path when
-    # tilted) against patterns.table_gain written out in direct_ratio (OET Bulletin 65 sec. 2).
+    # the grid's table paths (height-independent azimuth cell when untilted; the direction rotated into
+    # the antenna frame when tilted) against patterns.table_gain written out in direct_ratio (OET
+    # Bulletin 65 sec. 2): never below it (the single-precision lookup is raised by its rounding bound),
+    # at most 2e-4 above (0.001 dB; gains are given to 0.01 dB = 2.3e-3 at best). More in test_site_tables.
     em = emitter(x=2.0, y=-3.0, h=4.0, pattern=_table_pattern(), azimuth_deg=37.0, tilt_deg=tilt,
                  polarisation="horizontal", power=(100.0, 60.0), limit=(50.0, 10.0), f=2.56)
-    got = site.ratio_grid([em], PX, PY, HEIGHTS).ratio
-    # single-precision weights in the untilted path: 1e-5 relative is still far below any input's
-    # uncertainty (gains are given to 0.01 dB = 2e-3 relative at best)
-    assert np.allclose(got, direct_ratio([em], PX, PY, HEIGHTS), rtol=1e-5, atol=0)
+    rel = site.ratio_grid([em], PX, PY, HEIGHTS).ratio / direct_ratio([em], PX, PY, HEIGHTS) - 1.0
+    assert rel.min() >= 0.0 and rel.max() <= 2e-4

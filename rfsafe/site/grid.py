@@ -254,6 +254,101 @@ class _TableLookup:
         return lo
 
 
+#: Weight rounding allowed for in :class:`_UniformTable`, in cell units per float32 spacing of the
+#: largest cell coordinate: the float32 angles and cell coordinates are good to a few spacings (tested);
+#: the bound allows 16.
+_TABLE_WEIGHT_SPACINGS = 16.0
+#: Relative rounding of the float32 interpolation and of G / (4 pi R^2) allowed for (a few float32
+#: ulps, 6e-8 each).
+_TABLE_F32_REL = 2e-6
+
+
+class _UniformTable:
+    """Bilinear lookup in a pattern table on uniform grids (elevation -90 to 90), raised by its rounding bound.
+
+    ``cells`` holds, per cell (elevation row, azimuth column), ``(c0, c1 - c0, c2 - c0, c3 - c2 - c1 + c0)``
+    of the linear gain / (4 pi) at its corners (c0, c1 along azimuth at the lower elevation, c2, c3 at the
+    upper), so that the bilinear value is ``c0 + ta d01 + te (e + ta f)`` with one gather per point and
+    height. The rows are padded by a constant cell below and above (the poles: an elevation rounded just
+    past +-90 deg reads the pole's gain), and the columns run round the azimuth as far as needed that an
+    azimuth in [-540, 180] deg needs no modulo. c0 is raised by the bound of what the
+    float32 weights and arithmetic can lose (see :data:`_TABLE_WEIGHT_SPACINGS`, :data:`_TABLE_F32_REL`), so
+    that the result is never below the float64 bilinear value of patterns.table_gain.
+    """
+
+    @staticmethod
+    def fits(tab) -> bool:
+        a, e = np.asarray(tab.azimuth_deg, dtype=float), np.asarray(tab.elevation_deg, dtype=float)
+        if a.size < 2 or e.size < 2 or abs(e[0] + 90.0) > 1e-9 or abs(e[-1] - 90.0) > 1e-9:
+            return False
+        da, de = np.diff(np.append(a, a[0] + 360.0)), np.diff(e)
+        return bool(np.allclose(da, da[0], rtol=1e-9, atol=0.0) and np.allclose(de, de[0], rtol=1e-9, atol=0.0)
+                    and (e.size + 1) * (3 * a.size + 8) < 2 ** 24)
+
+    def __init__(self, tab) -> None:
+        a = np.asarray(tab.azimuth_deg, dtype=float)
+        n_el, n_az = tab._gain_lin.shape
+        g = tab._gain_lin / _FOUR_PI
+        i1 = (np.arange(n_az) + 1) % n_az
+        c0, c1, c2, c3 = g[:-1], g[:-1][:, i1], g[1:], g[1:][:, i1]
+        d01, e, f = c1 - c0, c2 - c0, (c3 - c2) - (c1 - c0)
+        # cell coordinates: xa = az / da + oa in [1, n_col - 1) for az in [-540, 180] (a bearing in
+        # [-180, 180] less an antenna azimuth in [0, 360)); xe = el / de + oe
+        self.da, self.de = 360.0 / n_az, 180.0 / (n_el - 1)
+        k = math.ceil((540.0 + a[0]) / self.da) + 1
+        self.oa = k - a[0] / self.da
+        self.oe = 90.0 / self.de + 1.0                     # + 1: the padding row below
+        self.n_col = k + n_az + 2
+        # rounding bound in cell units: the largest coordinate's float32 spacing, times the allowance
+        wa = _TABLE_WEIGHT_SPACINGS * float(np.spacing(_F32(self.n_col)))
+        we = _TABLE_WEIGHT_SPACINGS * float(np.spacing(_F32(n_el + 1)))
+        cmax = np.maximum(np.maximum(c0, c1), np.maximum(c2, c3))
+        lift = wa * (np.abs(d01) + np.abs(f)) + we * (np.abs(e) + np.abs(f)) + _TABLE_F32_REL * cmax
+        body = np.stack([c0 + lift, d01, e, f], axis=-1)                 # (n_el - 1, n_az, 4)
+        # the padding rows: constant in elevation, the pole rows' values along azimuth
+        zero = np.zeros_like(g[0])
+        lo = np.stack([c0[0] + lift[0], d01[0], zero, zero], axis=-1)[None]
+        hi = np.stack([c2[-1] + lift[-1], d01[-1] + f[-1], zero, zero], axis=-1)[None]
+        rows = np.concatenate([lo, body, hi])                             # (n_el + 1, n_az, 4)
+        cols = (np.arange(self.n_col) - k) % n_az
+        cells = rows[:, cols].reshape(-1, 4)
+        # float32, rounded up in c0 (the other terms' rounding is within the lift)
+        c32 = cells.astype(_F32)
+        up = c32[:, 0].astype(float) < cells[:, 0]
+        c32[up, 0] = np.nextafter(c32[up, 0], _F32(np.inf))
+        self.cells = c32
+        self.sa, self.se = _F32(180.0 / math.pi / self.da), _F32(180.0 / math.pi / self.de)
+        self.oe32 = _F32(self.oe)
+
+    def columns(self, az_rad, less_rad: float = 0.0):
+        """Columns (float32) and weights of azimuths ``az_rad - less_rad`` [rad] (``az_rad`` in [-pi, pi],
+        ``less_rad`` in [0, 2 pi); ``az_rad`` is overwritten by the weights)."""
+        az_rad *= self.sa
+        az_rad += _F32(self.oa - less_rad * float(self.sa))   # > 0 (see __init__)
+        col = np.floor(az_rad)
+        az_rad -= col
+        return col, az_rad
+
+    def at(self, el_rad, col, ta, out) -> None:
+        """``out`` = G / (4 pi) at elevations ``el_rad`` [rad] (overwritten) and the columns, weights ``ta``.
+
+        The arguments broadcast (heights x points against points).
+        """
+        el_rad *= self.se
+        el_rad += self.oe32                                # >= 0: row 0 pads -90 deg less rounding
+        te = np.floor(el_rad)
+        el_rad -= te                                       # the elevation weight
+        te *= _F32(self.n_col)
+        te += col                                          # exact: integers below 2^24 (see fits)
+        cb = np.take(self.cells, te.astype(np.intp), axis=0)
+        np.multiply(cb[..., 3], ta, out=te)
+        te += cb[..., 2]
+        te *= el_rad
+        np.multiply(cb[..., 1], ta, out=el_rad)
+        el_rad += cb[..., 0]
+        np.add(te, el_rad, out=out)
+
+
 def _evaluator(g: _Group) -> tuple[Callable, Callable]:
     """Return ``prepare(px, py) -> state`` and ``at(state, dz, out, d2=None)`` computing G/(4 pi R^2) [1/m^2].
 
@@ -453,10 +548,65 @@ def _evaluator(g: _Group) -> tuple[Callable, Callable]:
                 out /= r2 if d2 is None else d2
         return prepare, at
 
+    if kind == "table" and _UniformTable.fits(pat.table):
+        # Bilinear on the linear gain, as patterns.table_gain, in single precision, never below it
+        # (_UniformTable). All heights at once (``at.all_heights``: dz (H, 1), out and d2 (H, P)): the
+        # per-call overhead of the few numpy operations per height is as large as their work. Untilted,
+        # the azimuth column and weight do not depend on the height and are found once per point; per
+        # height only the elevation (one arctan), one gather and the interpolation. Tilted, the
+        # direction is rotated into the antenna frame from the height-independent forward and right
+        # parts, as the tilted beam does.
+        look = _UniformTable(pat.table)
+        a_t = math.radians(g.tilt_deg)
+        st32, ct32 = _F32(math.sin(a_t)), _F32(math.cos(a_t))
+
+        if untilted:
+            a_n = a % (2.0 * math.pi)
+
+            def prepare(px, py):
+                dx, dy, rho2 = base(px, py)
+                # at rho = 0: +-90 deg (|dz| > 1e-20 m), or 0 at dz = 0 (as arctan2); no float32 overflow
+                inv_rho = np.full(rho2.shape, _F32(1e20))
+                np.divide(_F32(1.0), np.sqrt(rho2), out=inv_rho, where=rho2 > 0.0)
+                # azimuth from the beam = bearing from north less the antenna's azimuth
+                bearing = np.arctan2(dx.astype(_F32), dy.astype(_F32))
+                return (rho2, inv_rho, *look.columns(bearing, a_n))
+
+            def at(s, dz, out, d2):
+                rho2, inv_rho, col, ta = s
+                el = inv_rho * dz.astype(_F32)
+                np.arctan(el, out=el)
+                look.at(el, col, ta, out)
+                out /= d2
+            at.all_heights = True
+            return prepare, at
+
+        def prepare(px, py):
+            dx, dy, rho2 = base(px, py)
+            rgt = (dx * ca - dy * sa).astype(_F32)
+            return rho2, (dx * sa + dy * ca).astype(_F32), rgt, rgt * rgt
+
+        def at(s, dz, out, d2):
+            rho2, hor, rgt, rgt2 = s
+            dz32 = dz.astype(_F32)
+            fwd = hor * ct32
+            fwd = fwd + dz32 * st32
+            up = hor * (-st32)
+            up = up + dz32 * ct32
+            col, ta = look.columns(np.arctan2(rgt, fwd))
+            fwd *= fwd
+            fwd += rgt2
+            np.sqrt(fwd, out=fwd)
+            np.arctan2(up, fwd, out=up)
+            look.at(up, col, ta, out)
+            out /= d2
+        at.all_heights = True
+        return prepare, at
+
     if kind == "table":
-        # Bilinear on the linear gain, as patterns.table_gain, in single precision with the cells
-        # found by arithmetic on uniform grids. Untilted, the azimuth cell does not depend on the
-        # height and is found once per point; tilted, both cells are found per height.
+        # Tables on non-uniform grids (or not reaching both poles): bilinear as patterns.table_gain,
+        # in single precision, the cells found by search. Untilted, the azimuth cell does not depend
+        # on the height and is found once per point; tilted, both cells are found per height.
         look = _TableLookup(pat.table)
         if untilted:
             def prepare(px, py):
@@ -549,8 +699,17 @@ def _nearest_part_pass(grp: _Group, state, at, px, py, heights, geo, near) -> No
     """
     part = grp.nearest_part(px, py)
     rho2 = state[0]
-    d2s = ([rho2 + _F32((h - grp.height_m) ** 2) for h in heights] if part is None   # as the evaluators round R^2
-           else [part.squared_m2(_F32(h)) for h in heights])
+    all_heights = getattr(at, "all_heights", False)
+    if all_heights:                     # the evaluator takes every height at once, with d^2 (H, P)
+        d2s = np.empty((len(heights), rho2.size), dtype=_F32)
+        for d2, h in zip(d2s, heights):
+            if part is None:
+                np.add(rho2, _F32((h - grp.height_m) ** 2), out=d2)
+            else:
+                d2[...] = part.squared_m2(_F32(h))
+    else:
+        d2s = ([rho2 + _F32((h - grp.height_m) ** 2) for h in heights] if part is None   # as the evaluators round R^2
+               else [part.squared_m2(_F32(h)) for h in heights])
     thr = max(grp.near_field_m, MIN_FAR_FIELD_DIST_M)
     dzmin = max(min(abs(h - grp.height_m) for h in heights) - grp.reach_m, 0.0)
     lim = (thr + grp.reach_m) ** 2 * (1.0 + 1e-6) - dzmin * dzmin   # relative margin for float32 rounding
@@ -566,8 +725,11 @@ def _nearest_part_pass(grp: _Group, state, at, px, py, heights, geo, near) -> No
     idx = cand[close]
     k_peak = _F32(10.0 ** (grp.pattern.peak_gain_dbi / 10.0) / _FOUR_PI)
     with np.errstate(divide="ignore", invalid="ignore"):
+        if all_heights:
+            at(state, np.array([[h - grp.height_m] for h in heights]), geo, d2s)
         for out, h, d2 in zip(geo, heights, d2s):
-            at(state, h - grp.height_m, out, None if part is None else d2)
+            if not all_heights:
+                at(state, h - grp.height_m, out, None if part is None else d2)
             if idx.size:
                 out[idx] = k_peak / np.maximum(d2[idx], _F32(MIN_FAR_FIELD_DIST_M ** 2))
 
