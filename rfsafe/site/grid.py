@@ -573,8 +573,8 @@ def _evaluator(g: _Group) -> tuple[Callable, Callable]:
                 return (rho2, inv_rho, *look.columns(bearing, a_n))
 
             def at(s, dz, out, d2):
-                rho2, inv_rho, col, ta = s
-                el = inv_rho * dz.astype(_F32)
+                _, inv_rho, col, ta = s
+                el = inv_rho * dz.astype(_F32)               # arctan of it: faster than arctan2 broadcast
                 np.arctan(el, out=el)
                 look.at(el, col, ta, out)
                 out /= d2
@@ -584,15 +584,14 @@ def _evaluator(g: _Group) -> tuple[Callable, Callable]:
         def prepare(px, py):
             dx, dy, rho2 = base(px, py)
             rgt = (dx * ca - dy * sa).astype(_F32)
-            return rho2, (dx * sa + dy * ca).astype(_F32), rgt, rgt * rgt
+            hor = (dx * sa + dy * ca).astype(_F32)
+            return rho2, rgt, rgt * rgt, hor * ct32, hor * (-st32)
 
         def at(s, dz, out, d2):
-            rho2, hor, rgt, rgt2 = s
+            _, rgt, rgt2, hor_c, hor_s = s
             dz32 = dz.astype(_F32)
-            fwd = hor * ct32
-            fwd = fwd + dz32 * st32
-            up = hor * (-st32)
-            up = up + dz32 * ct32
+            fwd = hor_c + dz32 * st32
+            up = hor_s + dz32 * ct32
             col, ta = look.columns(np.arctan2(rgt, fwd))
             fwd *= fwd
             fwd += rgt2
@@ -701,12 +700,9 @@ def _nearest_part_pass(grp: _Group, state, at, px, py, heights, geo, near) -> No
     rho2 = state[0]
     all_heights = getattr(at, "all_heights", False)
     if all_heights:                     # the evaluator takes every height at once, with d^2 (H, P)
-        d2s = np.empty((len(heights), rho2.size), dtype=_F32)
-        for d2, h in zip(d2s, heights):
-            if part is None:
-                np.add(rho2, _F32((h - grp.height_m) ** 2), out=d2)
-            else:
-                d2[...] = part.squared_m2(_F32(h))
+        d2s = np.broadcast_to(rho2 + np.array([[(h - grp.height_m) ** 2] for h in heights], dtype=_F32)
+                              if part is None else part.squared_m2(np.array([[h] for h in heights], dtype=_F32)),
+                              (len(heights), rho2.size))
     else:
         d2s = ([rho2 + _F32((h - grp.height_m) ** 2) for h in heights] if part is None   # as the evaluators round R^2
                else [part.squared_m2(_F32(h)) for h in heights])
