@@ -357,11 +357,17 @@ def _evaluator(g: _Group) -> tuple[Callable, Callable]:
 
     ``state[0]`` is always the squared horizontal distance [m^2] (float32).
     Untilted antennas get closed forms that reuse the height-independent part
-    of the geometry; tilted antennas and tables go through
-    :func:`direction_in_antenna_frame` and the pattern's own gain function.
+    of the geometry; tilted dipoles, beams and pattern tables rotate the
+    direction into the antenna frame from height-independent terms; other
+    tilted antennas go through the pattern's own gain function.
     The per-height arithmetic is single precision (relative rounding about
     1e-6, far below the uncertainty of any input); the closed forms agree
-    with the general path to that precision (tested).
+    with the general path to that precision (tested); the tilted beam and
+    the pattern tables are raised by a stated bound of their rounding, so
+    that they are never below the float64 value (tested).
+
+    An ``at`` with the attribute ``all_heights`` takes every height at once:
+    ``dz`` (H, 1), ``out`` and ``d2`` (H, P), ``d2`` always given.
     """
     pat = g.pattern
     kind = pat.kind
