@@ -61,7 +61,8 @@ from rfsafe.antenna.wire.kernel import ETA0_OHM, gauss_legendre_01
 __all__ = ["MIN_HEIGHT_WAVELENGTHS", "RCA_MIN_NUMERICAL_DISTANCE", "ReflectionApproximation", "ReflectionTable",
            "RemainderRows", "Soil", "approximation_cautions", "complex_permittivity", "fresnel_coefficients",
            "hertz_dipole_fields", "image_factor", "numerical_distance", "rca_mask", "rca_quantities",
-           "rca_radius_m", "reflected_dipole_fields", "reflection_table", "remainder_fields", "soil_classes",
+           "rca_radius_m", "reflected_dipole_fields", "reflection_table", "remainder_fields",
+           "remainder_fields_reference", "soil_classes",
            "soil_from_class", "space_and_image_intensity"]
 
 C0_M_S = 299_792_458.0
@@ -470,6 +471,14 @@ class ReflectionTable:
     def covers(self, rho_max_m: float, h_min_m: float, h_max_m: float) -> bool:
         return rho_max_m <= self.rho_max and h_min_m >= self.h_min * (1 - 1e-12) and h_max_m <= self.h_max
 
+    def cells(self) -> np.ndarray:
+        """Per cell its four corners' values side by side (cells, 4, 9), complex64: one gather per pair."""
+        if self._flat is None:
+            v = self.values.astype(np.complex64)
+            self._flat = np.ascontiguousarray(
+                np.stack([v[:-1, :-1], v[:-1, 1:], v[1:, :-1], v[1:, 1:]], axis=2).reshape(-1, 4, v.shape[-1]))
+        return self._flat
+
     def lookup(self, rho, h):
         """Interpolated quantities (9, ...) at horizontal distances rho and height sums h [m].
 
@@ -477,10 +486,7 @@ class ReflectionTable:
         halves the memory traffic of the four corner gathers.
         """
         nu, nh = len(self.u), len(self.lh)
-        if self._flat is None:   # per cell its four corners' values, contiguous: one gather per pair
-            v = self.values.astype(np.complex64)
-            self._flat = np.ascontiguousarray(
-                np.stack([v[:-1, :-1], v[:-1, 1:], v[1:, :-1], v[1:, 1:]], axis=2).reshape(-1, 4, v.shape[-1]))
+        self.cells()
         shape = np.shape(rho)
         rho = np.asarray(rho, dtype=np.float32).ravel()
         h = np.asarray(h, dtype=np.float32).ravel()
@@ -608,8 +614,88 @@ def reflection_table(k0: float, eps_c: complex, rho_max_m: float, h_min_m: float
 def remainder_fields(tab: ReflectionTable, src_m, mom_am, obs_m, *, want_h: bool = True):
     """Sommerfeld remainder E [V/m] (and H [A/m]) at obs (N, 3) of dipoles (M, 3) with moments (M, 3).
 
-    Add the K-weighted image field (exact, elsewhere) for the whole reflected field.
+    Add the K-weighted image field (exact, elsewhere) for the whole reflected field. Any other ``tab`` with a
+    ``lookup`` goes to ``remainder_fields_reference``. For a table: the interpolation of
+    ``ReflectionTable.lookup`` with the work per pair cut: real bilinear weights applied to the cell's
+    corners (stored side by side) in one contraction, the phase factor e^{-jk0 R}/R applied to the three
+    moment terms instead of the nine quantities. Same values as ``remainder_fields_reference`` to within
+    single-precision rounding (tests/test_ground.py: 1e-6 of the largest field).
     """
+    if not isinstance(tab, ReflectionTable):
+        return remainder_fields_reference(tab, src_m, mom_am, obs_m, want_h=want_h)
+    src = np.asarray(src_m, dtype=float)
+    mom = np.asarray(mom_am, dtype=complex)
+    obs = np.asarray(obs_m, dtype=float)
+    e_out = np.zeros(obs.shape, dtype=complex)
+    h_out = np.zeros(obs.shape, dtype=complex) if want_h else None
+    # single precision for the per-pair sums (the table's own error is about 1e-3), moments scaled to O(1)
+    m_scale = float(np.max(np.abs(mom))) or 1.0
+    moments = tuple(np.ascontiguousarray(mom[:, c] / m_scale, dtype=np.complex64) for c in range(3))
+    step = max(1, 4_000 // max(1, len(src)))   # small blocks stay in cache (measured 1.7x faster than 200k)
+    for lo in range(0, len(obs), step):
+        e_out[lo:lo + step], h_b = _remainder_block(tab, src, moments, obs[lo:lo + step], want_h)
+        if want_h:
+            h_out[lo:lo + step] = h_b
+    e_out *= m_scale
+    if want_h:
+        h_out *= m_scale
+    return e_out, h_out
+
+
+def _remainder_block(tab, src, moments, o, want_h):
+    """``remainder_fields`` of one block of points (moments scaled to O(1))."""
+    f32 = np.float32
+    px, py, pz = moments
+    nu, nh = len(tab.u), len(tab.lh)
+    dx = o[:, None, 0] - src[None, :, 0]
+    dy = o[:, None, 1] - src[None, :, 1]
+    rho64 = np.sqrt(dx * dx + dy * dy)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        inv_rho = 1.0 / rho64
+        cph = np.where(rho64 > 0, dx * inv_rho, 1.0).astype(np.float32)
+        sph = np.where(rho64 > 0, dy * inv_rho, 0.0).astype(np.float32)
+    rho = rho64.astype(np.float32)
+    h = (o[:, None, 2] + src[None, :, 2]).astype(np.float32)
+    u = np.arcsinh(rho * f32(1.0 / tab.scale)) * f32(1.0 / _DU)
+    i = np.minimum(u.astype(np.int32), nu - 2)
+    v = (np.log(h) - f32(tab.lh[0])) * f32(1.0 / _DLH)
+    j = np.clip(v.astype(np.int32), 0, nh - 2)
+    fu, fv = u - i, v - j
+    gu, gv = f32(1.0) - fu, f32(1.0) - fv
+    w = np.empty(fu.shape + (4,), dtype=np.float32)
+    w[..., 0], w[..., 1], w[..., 2], w[..., 3] = gu * gv, gu * fv, fu * gv, fu * fv
+    g = tab.cells().view(np.float32)[i * (nh - 1) + j]                       # (P, M, 4, 18)
+    q = np.einsum("pmc,pmck->pmk", w, g, optimize=False).view(np.complex64).transpose(2, 0, 1)   # (9, P, M)
+    r = np.sqrt(rho * rho + h * h)
+    kr = f32(tab.k0) * r
+    inv_r = f32(1.0) / r
+    ph = np.empty(r.shape, dtype=np.complex64)
+    ph.real = np.cos(kr) * inv_r
+    ph.imag = -np.sin(kr) * inv_r
+    ca = (px * cph + py * sph) * ph
+    sb = (px * sph - py * cph) * ph
+    pzp = pz * ph
+    e = np.empty((len(o), 3), dtype=complex)
+    e_rho = ca * q[3] + pzp * q[0]
+    e_phi = sb * q[6]
+    e[:, 0] = np.sum(e_rho * cph - e_phi * sph, axis=1)
+    e[:, 1] = np.sum(e_rho * sph + e_phi * cph, axis=1)
+    e[:, 2] = np.sum(ca * q[4] + pzp * q[1], axis=1)
+    if not want_h:
+        return e, None
+    hf = np.empty((len(o), 3), dtype=complex)
+    h_rho = sb * q[7]
+    h_phi = ca * q[5] + pzp * q[2]
+    hf[:, 0] = np.sum(h_rho * cph - h_phi * sph, axis=1)
+    hf[:, 1] = np.sum(h_rho * sph + h_phi * cph, axis=1)
+    hf[:, 2] = np.sum(sb * q[8], axis=1)
+    return e, hf
+
+
+def remainder_fields_reference(tab: ReflectionTable, src_m, mom_am, obs_m, *, want_h: bool = True):
+    """``remainder_fields`` by ``tab.lookup`` and the nine quantities per pair: any object with that lookup
+    (``ReflectionApproximation`` too); for a ``ReflectionTable`` the earlier, slower path, kept as the
+    reference that ``remainder_fields`` is tested against."""
     src = np.asarray(src_m, dtype=float)
     mom = np.asarray(mom_am, dtype=complex)
     obs = np.asarray(obs_m, dtype=float)
@@ -795,7 +881,7 @@ class ReflectionApproximation:
 
 def _rca_fields(k: float, eps_c: complex, src, mom, obs):
     """Remainder E, H at obs (N, 3) from dipoles (M, 3) by the reflection-coefficient approximation."""
-    return remainder_fields(ReflectionApproximation(k, eps_c), src, mom, obs)
+    return remainder_fields_reference(ReflectionApproximation(k, eps_c), src, mom, obs)
 
 
 #: Point pairs per block of the remainder fill (about 700 bytes of temporaries each: some 12 MB).
