@@ -305,3 +305,12 @@ def test_renders_to_png_pages(demo, tmp_path):
         assert hi == 255 and lo < 150
         inked = sum(im.histogram()[:200])                # pixels darker than light grey
         assert inked > 0.002 * w * h, f"{png.name} is nearly empty"
+
+
+def test_wire_antenna_polarisation_comes_from_its_wires():
+    # a wire antenna's polarisation is that of its wires (the solver's currents), not the schema's default:
+    # the wire demo's quarter-wave vertical must not be listed as horizontal
+    res = assess(load_station(DEMO.parent / "demo_wire_station.toml"))
+    text = text_of(build_worksheet_pdf(res))
+    section = text[text.index("1.1 Antennas"):text.index("1.2 Places")]
+    assert "from the wires" in section and "horizontal" not in section

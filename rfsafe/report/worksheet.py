@@ -203,7 +203,8 @@ def _station(res, width, numbers) -> list:
         heading = _orientation(a)
         size = "not declared" if a.size_m is None else f"{_dist(a.size_m)} m"
         rows.append([a.id, a.kind, _xyz(a.x_m, a.y_m, a.height_m), heading,
-                     a.polarisation, f"{size}: {a.size_basis}", a.description or "–"])
+                     "from the wires" if a.kind == "wire" else a.polarisation, f"{size}: {a.size_basis}",
+                     a.description or "–"])
     out.append(data_table(["antenna", "kind", "x, y, height m", "orientation", "polarisation", "size (largest "
                            "dimension) and its basis", "description"], rows,
                           [24 * mm, 22 * mm, 20 * mm, 26 * mm, 17 * mm, 38 * mm, width - 147 * mm],
