@@ -194,7 +194,7 @@ def evaluate(file: Path = typer.Argument(..., help="Station file (.toml)."),
         if csv_table is not None and csv_table not in ("places", "configurations"):
             raise bad_value("--csv", csv_table, "is not available with --standard all (accepted: places, "
                                                 "configurations)")
-        results = answers.all_standards(file)
+        results = answers.all_standards(file, near_field_maps=json_out)   # tables and CSV draw no maps
         codes = [r.exit_code for r in results.values() if not isinstance(r, str)]
         if csv_table is not None:
             typer.echo(answers.all_standards_frame(results, csv_table).to_csv(index=False), nl=False)
