@@ -314,3 +314,12 @@ def test_wire_antenna_polarisation_comes_from_its_wires():
     text = text_of(build_worksheet_pdf(res))
     section = text[text.index("1.1 Antennas"):text.index("1.2 Places")]
     assert "from the wires" in section and "horizontal" not in section
+
+
+def test_differing_exposure_methods_name_their_configurations():
+    # the wire demo's dipole is solved over free space and perfect ground (bound), its vertical over the
+    # perfect ground it stands on: each method line says which configurations it serves
+    res = assess(load_station(DEMO.parent / "demo_wire_station.toml"))
+    text = re.sub(r"\s+", " ", text_of(build_worksheet_pdf(res)))
+    assert "Exposure method (20m-cw-amp):" in text
+    assert "Exposure method (40m-ssb, 40m-cw-amp, 40m-cw-amp-choke):" in text

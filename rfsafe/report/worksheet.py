@@ -277,8 +277,9 @@ def _method(res, width) -> list:
     for note in res.method_notes:
         out.append(Paragraph(_esc(note), styles()["bullet"], bulletText="•"))
     methods = sorted({c.method for c in res.configurations})
-    for m in methods:
-        out.append(Paragraph(_esc(f"Exposure method: {m}."), styles()["bullet"], bulletText="•"))
+    for m in methods:   # where configurations differ, each method names the configurations it serves
+        which = "" if len(methods) == 1 else " (" + ", ".join(c.id for c in res.configurations if c.method == m) + ")"
+        out.append(Paragraph(_esc(f"Exposure method{which}: {m}."), styles()["bullet"], bulletText="•"))
     out.append(Spacer(1, 2 * mm))
     rows = []
     for c in res.configurations:
