@@ -1208,13 +1208,52 @@ def place_totals(loaded: LoadedStation, memo: dict | None = None) -> list[tuple[
     kept = [memo is not None and k in memo for k in keys]
     pairs = [_memoised(memo, k, lambda i=i, c=c: _configuration(loaded, i, c, gf, False, lean=True))
              for (i, c), k in zip(enumerate(st.configurations), keys)]
+    # Such a configuration is evaluated at all places together (place_ratios: the same ratios, elementwise);
+    # a place it refuses (on a conductor) makes the whole evaluation refused, as assess refuses it.
+    fresh = {j: _ratios_at_places(em, loaded, cres) for j, (keep, (cres, em)) in enumerate(zip(kept, pairs))
+             if not keep}
     out = []
     for pi_, place in enumerate(st.places):
         pk = _place_key(memo, place) if memo is not None else None
-        exposures = tuple(_memoised(memo if keep else None, (k, pk), lambda cres=cres, em=em: _place_exposure(
-            em, loaded, pi_, place, cres, em.solution)) for k, keep, (cres, em) in zip(keys, kept, pairs))
+        exposures = tuple(
+            fresh[j][pi_] if j in fresh else _memoised(memo, (k, pk), lambda cres=cres, em=em: _place_exposure(
+                em, loaded, pi_, place, cres, em.solution))
+            for j, (k, (cres, em)) in enumerate(zip(keys, pairs)))
         out.append((place.label, _totals(exposures, st)[0]))
     return out
+
+
+@dataclass(frozen=True, slots=True)
+class _Ratio:
+    """The part of a :class:`PlaceExposure` that :func:`_totals` reads."""
+
+    configuration: str
+    transmitter: str
+    exposure_ratio: float
+
+
+def _ratios_at_places(em: Emitter, loaded: LoadedStation, cres: ConfigurationResult) -> list[_Ratio]:
+    """One configuration's exposure ratio at every place of the station, places of one environment and one
+    set of body heights evaluated together by :func:`place_ratios`.
+
+    Raises
+    ------
+    InputError
+        Where a place lies on or next to a conductor (the evaluation refuses it).
+    """
+    places = loaded.model.places
+    groups: dict = {}
+    for i, place in enumerate(places):
+        groups.setdefault((place.environment, tuple(_heights(place))), []).append(i)
+    ratio = np.empty(len(places))
+    for (env, heights), idx in groups.items():
+        ratio[idx] = place_ratios(em, loaded, cres, env, [places[i].x_m for i in idx], [places[i].y_m for i in idx],
+                                  list(heights))
+    if not np.all(np.isfinite(ratio)):
+        bad = places[int(np.flatnonzero(~np.isfinite(ratio))[0])]
+        raise InputError(f"places: {bad.label!r} lies on or next to a conductor of antenna {em.antenna.id} "
+                         "(accepted: places clear of the wires)")
+    return [_Ratio(em.configuration, em.transmitter, float(r)) for r in ratio]
 
 
 def _place_key(memo: dict, place) -> str:
