@@ -119,18 +119,18 @@ def _test_side(st: Structure, k: float) -> _TestSide:
     t0 = st.start_m
     tl = np.linalg.norm(st.end_m - t0, axis=1)
     tdir = (st.end_m - t0) / tl[:, None]
-    xg, wg = gauss_legendre_01(N_FAR)
-    s = tl[:, None] * xg[None, :]
-    w = tl[:, None] * wg[None, :]
-    f1, f2 = _test_shapes(s, tl[:, None], k)
-    x = t0[:, None, :] + s[..., None] * tdir[:, None, :]
-    wf = np.stack([w * f1, w * f2], axis=1).astype(complex)
-    xg, wg = gauss_legendre_01(N_WIDE)
-    s = tl[:, None] * xg[None, :]
-    ww = tl[:, None] * wg[None, :]
-    g1, g2 = _test_shapes(s, tl[:, None], k)
-    xw = t0[:, None, :] + s[..., None] * tdir[:, None, :]
-    wfw = np.stack([ww * g1, ww * g2], axis=1).astype(complex)
+
+    def rule(n):
+        """Points, weights, the two test shapes and their weighted stack of an n-point rule on every segment."""
+        xg, wg = gauss_legendre_01(n)
+        s = tl[:, None] * xg[None, :]
+        w = tl[:, None] * wg[None, :]
+        f1, f2 = _test_shapes(s, tl[:, None], k)
+        x = t0[:, None, :] + s[..., None] * tdir[:, None, :]
+        return x, w, f1, f2, np.stack([w * f1, w * f2], axis=1).astype(complex)
+
+    x, w, f1, f2, wf = rule(N_FAR)
+    xw, ww, g1, g2, wfw = rule(N_WIDE)
     return _TestSide(t0, tl, tdir, st.radius_m ** 2, x, w, f1, f2, wf, 0.5 * (t0 + st.end_m), xw, wfw, ww, g1, g2)
 
 
