@@ -513,3 +513,39 @@ def test_a_feedline_shield_into_real_soil_is_refused():
         "shield": {"joins": "start-side", "route_m": [[0, 0, 1.0], [2.0, 0, 0.0]], "radius_m": 0.004, "far_end": "ground"}})
     with pytest.raises(InputError, match=r"^shield\.route_m\[1\]: .* is on or below the real ground"):
         solve(spec, F_DIPOLE_HZ)
+
+
+@pytest.mark.parametrize("soil", ["medium-dry-ground", "sea-water"])
+def test_remainder_fields_at_points_sharing_a_height_equal_the_reference_path(soil):
+    # Points at one height (a map plane) take the per-height arrangement (_remainder_level: the table interpolated
+    # in ln h once per source, linearly in u per pair, horizontal and vertical sources apart, sums over sources as
+    # matrix products): a faster arrangement of the same bilinear interpolation, so it must give the reference
+    # path's values to single-precision rounding (common practice: a refactoring is checked against the code it
+    # replaces), far below the table's ~0.3 % interpolation error. Horizontal, vertical and sloping sources with
+    # complex moments; points straight above sources (rho = 0), beyond the table's last column, on two planes
+    # and a few points at heights of their own (the bilinear blocks).
+    eps = g.soil_from_class(soil).complex_permittivity(F_HZ)
+    tab = g.ReflectionTable(K0, eps, 30.0, 0.5, 25.0)
+    rng = np.random.default_rng(12)
+    src = np.c_[rng.uniform(-5, 5, (30, 2)), rng.uniform(0.5, 8, 30)]
+    mom = rng.normal(size=(30, 3)) + 1j * rng.normal(size=(30, 3))
+    mom[:10, 2] = 0.0          # horizontal
+    mom[10:20, :2] = 0.0       # vertical
+    plane = np.c_[rng.uniform(-20, 20, (150, 2)), np.full(150, 1.5)]
+    obs = np.r_[plane, np.c_[src[:3, :2], [1.5, 1.5, 1.5]], [[60.0, 0.0, 1.5]],
+                np.c_[rng.uniform(-20, 20, (100, 2)), np.zeros(100)], rng.uniform(0, 10, (5, 3))]
+    assert np.unique(obs[:, 2], return_counts=True)[1].max() >= g.LEVEL_MIN_POINTS
+    e0, h0 = g.remainder_fields_reference(tab, src, mom, obs)
+    e1, h1 = g.remainder_fields(tab, src, mom, obs)
+    assert np.all(np.isfinite(e1)) and np.all(np.isfinite(h1))
+    for new, ref in ((e1, e0), (h1, h0)):
+        size = np.linalg.norm(ref, axis=1)
+        assert np.max(np.linalg.norm(new - ref, axis=1)) < 2e-6 * size.max()
+        assert np.max(np.linalg.norm(new - ref, axis=1) / size) < 1e-4
+    e2, h2 = g.remainder_fields(tab, src, mom, obs, want_h=False)
+    assert h2 is None and np.max(np.abs(e2 - e1)) < 1e-6 * np.abs(e1).max()
+    # each kind of source alone (the per-kind gathers) and the level path switched off: the same
+    for part in (slice(0, 10), slice(10, 20), slice(20, 30)):
+        ref = g.remainder_fields_reference(tab, src[part], mom[part], obs)[0]
+        new = g.remainder_fields(tab, src[part], mom[part], obs)[0]
+        assert np.max(np.abs(new - ref)) < 2e-6 * np.abs(ref).max()

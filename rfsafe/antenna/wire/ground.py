@@ -618,18 +618,35 @@ def remainder_fields(tab: ReflectionTable, src_m, mom_am, obs_m, *, want_h: bool
     ``lookup`` goes to ``remainder_fields_reference``. For a table: the interpolation of
     ``ReflectionTable.lookup`` with the work per pair cut: real bilinear weights applied to the cell's
     corners (stored side by side) in one contraction, the phase factor e^{-jk0 R}/R applied to the three
-    moment terms instead of the nine quantities. Same values as ``remainder_fields_reference`` to within
-    single-precision rounding (tests/test_ground.py: 1e-6 of the largest field).
+    moment terms instead of the nine quantities; points sharing a height (``LEVEL_MIN_POINTS`` or more: map
+    planes) by ``_remainder_level``, about 2 to 3 times faster again. Same values as
+    ``remainder_fields_reference`` to within single-precision rounding (tests/test_ground.py: 1e-6 of the largest
+    field, 2e-6 on the planes).
     """
     if not isinstance(tab, ReflectionTable):
         return remainder_fields_reference(tab, src_m, mom_am, obs_m, want_h=want_h)
     src, mom, obs, e_out, h_out, m_scale = _remainder_arrays(src_m, mom_am, obs_m, want_h)
     moments = tuple(np.ascontiguousarray(mom[:, c] / m_scale, dtype=np.complex64) for c in range(3))
+    rest = np.arange(len(obs))
+    if len(src) and len(obs):
+        # Points sharing a height: each source's height sum is fixed, the table is interpolated in ln h once per
+        # source and only linearly in u per pair (_remainder_level); the other points take the bilinear blocks.
+        zs, inv, counts = np.unique(obs[:, 2], return_inverse=True, return_counts=True)
+        level = counts[inv] >= LEVEL_MIN_POINTS
+        if level.any():
+            for g in np.flatnonzero(counts >= LEVEL_MIN_POINTS):
+                idx = np.flatnonzero(inv == g)
+                e_g, h_g = _remainder_level(tab, src, moments, obs[idx], float(zs[g]), want_h)
+                e_out[idx] = e_g
+                if want_h:
+                    h_out[idx] = h_g
+            rest = np.flatnonzero(~level)
     step = max(1, 4_000 // max(1, len(src)))   # small blocks stay in cache (measured 1.7x faster than 200k)
-    for lo in range(0, len(obs), step):
-        e_out[lo:lo + step], h_b = _remainder_block(tab, src, moments, obs[lo:lo + step], want_h)
+    for lo in range(0, len(rest), step):
+        sel = rest[lo:lo + step]
+        e_out[sel], h_b = _remainder_block(tab, src, moments, obs[sel], want_h)
         if want_h:
-            h_out[lo:lo + step] = h_b
+            h_out[sel] = h_b
     e_out *= m_scale
     if want_h:
         h_out *= m_scale
@@ -648,6 +665,140 @@ def _remainder_arrays(src_m, mom_am, obs_m, want_h):
     e_out = np.zeros(obs.shape, dtype=complex)
     h_out = np.zeros(obs.shape, dtype=complex) if want_h else None
     return src, mom, obs, e_out, h_out, float(np.max(np.abs(mom))) or 1.0
+
+
+#: Points at one height from which ``remainder_fields`` interpolates per source height (``_remainder_level``).
+LEVEL_MIN_POINTS = 64
+#: Point pairs per block of ``_remainder_level`` (measured fastest: the gathered rows stay in cache).
+LEVEL_PAIRS = 8192
+#: Table quantities of a horizontal source in the level path (linear combinations of ``_QUANT``'s, formed on the
+#: table so that the per-pair sums are matrix products): (E_rho - E_phi) / 2, (E_rho + E_phi) / 2 and E_z of the
+#: x dipole (per cos, sin phi), then (H_phi + H_rho) / 2, (H_rho - H_phi) / 2 and H_z; of a vertical source E_rho,
+#: E_z, H_phi. Rows of weights on the nine quantities.
+_LEVEL_H = np.array([[0, 0, 0, .5, 0, 0, -.5, 0, 0], [0, 0, 0, .5, 0, 0, .5, 0, 0], [0, 0, 0, 0, 1, 0, 0, 0, 0],
+                     [0, 0, 0, 0, 0, .5, 0, .5, 0], [0, 0, 0, 0, 0, -.5, 0, .5, 0], [0, 0, 0, 0, 0, 0, 0, 0, 1]])
+_LEVEL_V = np.eye(9)[:3]
+
+
+def _level_lines(tab, h, weights):
+    """Per height sum h (M,) [m] the table along u at that height, as the bilinear lookup interpolates it in
+    ln h, for the quantity combinations ``weights`` (K, 9): rows [value(i), value(i + 1) - value(i)] as
+    complex64 (2 K, M nu), source m's row i at column m nu + i."""
+    nu, nh = len(tab.u), len(tab.lh)
+    v = (np.log(np.asarray(h, dtype=np.float32)) - np.float32(tab.lh[0])) * np.float32(1.0 / _DLH)
+    j = np.clip(v.astype(np.int32), 0, nh - 2)
+    fv = (v - j).astype(float)
+    vals = tab.values @ weights.T                                          # (nu, nh, K)
+    line = vals[:, j] * (1.0 - fv)[None, :, None] + vals[:, j + 1] * fv[None, :, None]   # (nu, M, K)
+    kk = len(weights)
+    out = np.zeros((2 * kk, len(h), nu), dtype=np.complex64)
+    out[:kk] = line.transpose(2, 1, 0)
+    out[kk:, :, :-1] = np.diff(out[:kk], axis=2)
+    return out.reshape(2 * kk, -1)
+
+
+def _remainder_level(tab, src, moments, obs, z: float, want_h: bool):
+    """``remainder_fields`` at points (N, 3) all at height z, moments scaled to O(1).
+
+    The same interpolation as ``_remainder_block`` (bilinear in u = asinh(rho / s), ln h), arranged for points at
+    one height: each source's height sum z + z' is fixed, so the table is interpolated in ln h once per source
+    (``_level_lines``) and per pair only linearly in u; horizontal sources gather six quantity combinations and
+    vertical ones three (a sloping source counts in both), and the sums over the sources are matrix products of
+    pair kernels (real angle factors cos phi, sin phi, cos 2 phi, sin 2 phi times the interpolated quantities and
+    the phase factor e^{-jk0 R}/R) with the moments. With the x dipole's E_rho = A cos, E_phi = -B sin (the
+    table's E_phi / sin is -B) the field of a moment (px, py) is
+    E_x = px D + (px c2 + py s2) S, E_y = py D + (px s2 - py c2) S, D = (A - B) / 2, S = (A + B) / 2, and the
+    same for H. Equal to ``_remainder_block`` to single-precision rounding (tests/test_ground.py).
+    """
+    f32 = np.float32
+    nu = len(tab.u)
+    px, py, pz = moments
+    e_out = np.zeros((len(obs), 3), dtype=complex)
+    h_out = np.zeros((len(obs), 3), dtype=complex) if want_h else None
+    o32 = obs[:, :2].astype(np.float32)
+    for horizontal in (True, False):
+        sel = np.flatnonzero((np.abs(px) + np.abs(py) > 0) if horizontal else (np.abs(pz) > 0))
+        if not len(sel):
+            continue
+        weights = (_LEVEL_H if want_h else _LEVEL_H[:3]) if horizontal else (_LEVEL_V if want_h else _LEVEL_V[:2])
+        kk = len(weights)
+        hm = (z + src[sel, 2]).astype(np.float32)
+        lines = _level_lines(tab, hm, weights)
+        s32 = src[sel, :2].astype(np.float32)
+        m = len(sel)
+        base = (np.arange(m, dtype=np.int32) * nu)[None, :]
+        hm2 = hm * hm
+        mom = np.stack([px[sel], py[sel]], axis=1) if horizontal else pz[sel, None]
+        step = max(1, LEVEL_PAIRS // m)
+        for lo in range(0, len(obs), step):
+            o = o32[lo:lo + step]
+            p = len(o)
+            dx = o[:, 0, None] - s32[None, :, 0]
+            dy = o[:, 1, None] - s32[None, :, 1]
+            s = dx * dx + dy * dy
+            rho = np.sqrt(s)
+            x = rho * f32(1.0 / tab.scale)
+            u = np.log(x + np.sqrt(x * x + f32(1.0))) * f32(1.0 / _DU)     # asinh, the cheaper way
+            i = np.minimum(u.astype(np.int32), nu - 2)
+            fu = u - i.astype(np.float32)
+            i += base
+            g = np.take(lines, i, axis=1, mode="wrap")                        # (2 K, P, M)
+            q = g[kk:] * fu
+            q += g[:kk]                                                       # (K, P, M)
+            r = np.sqrt(s + hm2)
+            kr = f32(tab.k0) * r
+            inv_r = f32(1.0) / r
+            ph = np.empty(r.shape, dtype=np.complex64)
+            ph.real = np.cos(kr) * inv_r
+            ph.imag = -np.sin(kr) * inv_r
+            on = rho > 0
+            with np.errstate(invalid="ignore", divide="ignore"):
+                inv = f32(1.0) / rho
+                c = np.where(on, dx * inv, f32(1.0))
+                sn = np.where(on, dy * inv, f32(0.0))
+            if horizontal:
+                # phase factor times the angle factors 1, cos 2 phi, sin 2 phi, cos phi, sin phi (complex)
+                fac = np.empty((5, p, m), dtype=np.complex64)
+                fac[0] = ph
+                np.multiply(ph, c * c - sn * sn, out=fac[1])
+                np.multiply(ph, f32(2.0) * c * sn, out=fac[2])
+                np.multiply(ph, c, out=fac[3])
+                np.multiply(ph, sn, out=fac[4])
+                nk = 10 if want_h else 5
+                ker = np.empty((nk, p, m), dtype=np.complex64)
+                np.multiply(q[0], fac[0], out=ker[0])
+                np.multiply(q[1], fac[1:3], out=ker[1:3])
+                np.multiply(q[2], fac[3:5], out=ker[3:5])
+                if want_h:
+                    np.multiply(q[3], fac[0], out=ker[5])
+                    np.multiply(q[4], fac[1:3], out=ker[6:8])
+                    np.multiply(q[5], fac[4:2:-1], out=ker[8:10])
+                t = (ker.reshape(nk * p, m) @ mom).reshape(nk, p, 2)      # each kernel times px and py
+                e = e_out[lo:lo + step]
+                e[:, 0] += t[0, :, 0] + t[1, :, 0] + t[2, :, 1]
+                e[:, 1] += t[0, :, 1] - t[1, :, 1] + t[2, :, 0]
+                e[:, 2] += t[3, :, 0] + t[4, :, 1]
+                if want_h:
+                    h = h_out[lo:lo + step]
+                    h[:, 0] += t[7, :, 0] - t[5, :, 1] - t[6, :, 1]
+                    h[:, 1] += t[5, :, 0] - t[6, :, 0] - t[7, :, 1]
+                    h[:, 2] += t[8, :, 0] - t[9, :, 1]
+            else:
+                q *= ph
+                nk = 5 if want_h else 3
+                ker = np.empty((nk, p, m), dtype=np.complex64)
+                np.multiply(q[0], c, out=ker[0])
+                np.multiply(q[0], sn, out=ker[1])
+                ker[2] = q[1]
+                if want_h:
+                    np.multiply(q[2], c, out=ker[3])
+                    np.multiply(q[2], sn, out=ker[4])
+                t = (ker.reshape(nk * p, m) @ mom).reshape(nk, p)
+                e_out[lo:lo + step] += t[:3].T
+                if want_h:
+                    h_out[lo:lo + step, 0] -= t[4]
+                    h_out[lo:lo + step, 1] += t[3]
+    return e_out, h_out
 
 
 def _remainder_block(tab, src, moments, o, want_h):
