@@ -48,6 +48,55 @@ def test_fit_widths_keeps_words_whole_and_total_width():
     assert widths[0] >= need                          # the longest header word fits on one line
 
 
+def test_fit_widths_never_exceed_the_room_given():
+    """Words too long for the room together: the widths still add up to the room (the frame), never more."""
+    headers = ["configuration", "x"]
+    rows = [["W" * 40, "supercalifragilistic-" * 4]]        # longest words of about 440 and 280 pt
+    widths = c.fit_widths([10.0, 200.0], headers, rows)
+    assert sum(widths) == pytest.approx(210.0) and min(widths) > 0
+    # every column keeps the same share of what its longest word needs
+    need = [stringWidth(w, c.FONT, c.styles()["cell"].fontSize) + 5.5 for w in (rows[0][0], rows[0][1])]
+    assert widths[0] / widths[1] == pytest.approx(need[0] / need[1])
+
+
+def _line_widths(para):
+    """Widths [pt] of the lines a wrapped paragraph sets (reportlab's own line breaking)."""
+    from reportlab.pdfbase.pdfmetrics import stringWidth as sw
+
+    out = []
+    for line in para.blPara.lines:
+        words = line[1] if isinstance(line, tuple) else line.words
+        text = " ".join(words) if isinstance(line, tuple) else "".join(w.text for w in words)
+        out.append(sw(text, para.style.fontName, para.style.fontSize))
+    return out
+
+
+@pytest.mark.parametrize("n_rows", [3, 250])       # a table of paragraphs, and the long-table layout
+def test_a_table_of_long_words_stays_inside_the_frame(n_rows):
+    """A table handed the frame width is never wider, and its long words wrap inside their cells (common
+    practice: nothing is printed off the page)."""
+    from reportlab.platypus import Paragraph
+
+    frame = c.frame_width()
+    headers = ["configuration", "place", "note"]
+    rows = [[f"config-{'x' * 60}-{i}", "a place with a long name " + "y" * 70, "a few short words"]
+            for i in range(n_rows)]     # the third column's slack is less than the first two need
+    t = c.data_table(headers, rows, [60.0, 200.0, frame - 260.0], align="lll")
+    widths = c.fit_widths([60.0, 200.0, frame - 260.0], headers, rows)
+    assert sum(widths) == pytest.approx(frame)
+    if n_rows > c.LONG_TABLE_ROWS:
+        t = t._window(10)
+    width, _ = t.wrap(frame, 10_000)
+    assert width <= frame + 1e-6
+    for row in t._cellvalues[1:]:
+        for j, cell in enumerate(row):
+            if isinstance(cell, Paragraph):
+                assert max(_line_widths(cell)) <= t._colWidths[j] - 5.0 + 0.01
+    data = c.build_pdf([t], title="T", author="", subject="", date_iso="2026-11-30", header_left="",
+                       header_right="", footer_left="")
+    assert pypdf.PdfReader(io.BytesIO(data)).pages
+
+
 def test_data_table_rejects_a_short_row():
     with pytest.raises(ValueError, match="row 0 has 1 cells, expected 2"):
         c.data_table(["a", "b"], [["only one"]], [50, 50])

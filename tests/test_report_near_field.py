@@ -4,7 +4,6 @@ import io
 import json
 import math
 import shutil
-import struct
 from pathlib import Path
 
 import pypdf
@@ -13,9 +12,10 @@ from typer.testing import CliRunner
 
 from rfsafe.assess import assess
 from rfsafe.cli import app
-from rfsafe.report.near_field import CONTOUR_STYLE, MAX_DECADES, _colour_range, near_field_map_png
+from rfsafe.report.near_field import CONTOUR_STYLE, MAX_DECADES, _colour_range, near_field_map_drawing
 from rfsafe.report.worksheet import build_worksheet_pdf
 from rfsafe.station import load_station
+from test_report_plots import drawing_text_boxes
 
 DEMOS = Path(__file__).resolve().parent.parent / "reports_demo"
 WIRE_DEMO = DEMOS / "demo_wire_station.toml"
@@ -113,9 +113,10 @@ def test_one_image_per_near_field_map_beside_its_caption(wire):
     js, data, _ = wire
     maps = [c for c in js["configurations"] if c["near_field_map"] is not None]
     assert len(maps) >= 2
-    images = images_per_page(data)
+    # one raster of the cells per map and for the station plan, besides the colour scales (256 levels, one
+    # pixel wide); the rest of the worksheet is vector graphics
+    images = [[size for size in on_page if size != (1, 256)] for on_page in images_per_page(data)]
     pages = page_texts(data)
-    # one image per map and the station plan; the rest of the worksheet is vector graphics
     assert sum(len(i) for i in images) == len(maps) + 1
     for c in maps:
         on = [k for k, t in enumerate(pages) if f"Near-field map of {c['id']} (" in t]
@@ -156,27 +157,81 @@ def test_two_builds_byte_identical_and_equal_to_the_cli_file(wire):
     assert first == data
 
 
-def png_chunks(png: bytes) -> list[str]:
-    assert png[:8] == b"\x89PNG\r\n\x1a\n"
-    out, k = [], 8
-    while k < len(png):
-        (length,) = struct.unpack(">I", png[k:k + 4])
-        out.append(png[k + 4:k + 8].decode("ascii"))
-        k += 12 + length
-    return out
+def _nodes(node):
+    yield node
+    for c in getattr(node, "contents", ()):
+        yield from _nodes(c)
 
 
-def test_map_png_reproducible_opaque_and_without_stamps():
+def test_map_drawing_reproducible_with_one_opaque_raster_of_the_cells():
+    from reportlab.graphics.shapes import Image
+
     res = assess(load_station(WIRE_DEMO))
     numbers = {pl.label: f"P{i + 1}" for i, pl in enumerate(res.places)}
     cfg = next(c for c in res.configurations if c.near_field_map is not None)
-    png, w_in, h_in = near_field_map_png(cfg, res.places, place_numbers=numbers)
-    assert png == near_field_map_png(cfg, res.places, place_numbers=numbers)[0]
-    chunks = png_chunks(png)
-    assert not {"tEXt", "iTXt", "zTXt", "tIME"} & set(chunks)      # no software or time stamp
-    colour_type = png[25]                                             # IHDR: 2 = RGB, no alpha channel
-    assert colour_type == 2
-    assert w_in * 72 <= 510.3                                        # fits the 180 mm worksheet frame
+    m = cfg.near_field_map
+
+    def rasters(d):
+        return [n.path for n in _nodes(d) if isinstance(n, Image)]
+
+    d = near_field_map_drawing(cfg, res.places, place_numbers=numbers)
+    field, bar = rasters(d)                   # the cells, and the colour scale's 256 levels
+    again = rasters(near_field_map_drawing(cfg, res.places, place_numbers=numbers))
+    assert [im.tobytes() for im in again] == [field.tobytes(), bar.tobytes()]
+    assert field.mode == bar.mode == "RGB"                            # opaque: no mask for the PDF to carry
+    # whole pixels per cell, so cell edges stay sharp
+    assert field.size[0] % len(m.x_m) == 0 and field.size[1] % len(m.y_m) == 0
+    assert d.width <= 7 * 72 + 1e-6                                   # 7 in; scaled to the 180 mm frame
+
+
+def test_map_colours_are_the_orrd_scale_as_matplotlib_draws_it():
+    """The colour field against matplotlib's own "OrRd" colour map on its LogNorm (ColorBrewer 9-class
+    OrRd scheme), to one part in 255 (rounding of the 0-1 colour to a byte)."""
+    import numpy as np
+    from matplotlib import colormaps
+    from matplotlib.colors import LogNorm
+
+    from rfsafe.report.maps import colour_rgb
+
+    values = np.logspace(-4.5, 1.5, 997)
+    ours = colour_rgb(values, 1e-4, 10.0).astype(float)
+    theirs = colormaps["OrRd"](LogNorm(1e-4, 10.0)(values))[:, :3] * 255.0
+    assert np.abs(ours - theirs).max() <= 0.5 + 1e-9
+    assert tuple(colour_rgb(np.array([np.nan, 0.0]), 1e-4, 10.0)[0]) == (0x8c, 0x8c, 0x8c)
+
+
+def test_map_contours_are_the_lines_matplotlib_traces():
+    """The ratio = 1 lines of a near-field map against matplotlib's contour of the same grid."""
+    import numpy as np
+    from matplotlib.figure import Figure
+    from reportlab.graphics.shapes import Drawing
+
+    from rfsafe.report.maps import MapAxes
+
+    res = assess(load_station(WIRE_DEMO))
+    cfg = next(c for c in res.configurations if c.near_field_map is not None and c.id.startswith("20m"))
+    m = cfg.near_field_map
+    f = np.asarray(m.h_ratio["uncontrolled"], dtype=float)
+    ax = MapAxes(Drawing(100, 100), (0, 0, 100, 100), xlim=(m.x_m[0], m.x_m[-1]), ylim=(m.y_m[0], m.y_m[-1]))
+    ours = ax.contour_lines(m.x_m, m.y_m, f)
+    cs = Figure().add_subplot().contour(m.x_m, m.y_m, np.ma.masked_invalid(f), levels=[1.0])
+    theirs = [v for path in cs.get_paths() for v in path.to_polygons(closed_only=False)]
+    assert len(ours) == len(theirs) >= 1
+    for a, b in zip(ours, theirs):
+        assert np.allclose(a, b)
+
+
+def test_the_worksheet_does_not_load_matplotlib(tmp_path):
+    """The maps are reportlab drawings: importing matplotlib alone cost more than the rest of a worksheet."""
+    import subprocess
+    import sys
+
+    code = ("import sys; from rfsafe.remedies import with_answers; from rfsafe.station import load_station; "
+            "from rfsafe.report.worksheet import build_worksheet_pdf; "
+            f"build_worksheet_pdf(with_answers(load_station({str(WIRE_DEMO)!r}))); "
+            "print(sorted(m for m in sys.modules if m.split('.')[0] == 'matplotlib'))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert out.stdout.strip() == "[]"
 
 
 def test_colour_scale_holds_the_limit_and_the_largest_ratio():
@@ -207,7 +262,7 @@ def test_station_without_wire_antennas_has_no_near_field_section():
     text = text_of(data)
     assert "Near-field maps" not in text and "Near-field map of" not in text
     assert "Near-field result beside the far-field estimate" not in text
-    assert sum(len(i) for i in images_per_page(data)) == 1      # the station plan only
+    assert sum(1 for i in images_per_page(data) for size in i if size != (1, 256)) == 1   # the station plan only
     assert "4.3 Exemption from routine evaluation" in text
 
 
@@ -240,13 +295,11 @@ def test_a_contour_a_few_millimetres_wide_gets_a_zoomed_inset():
                      max_h_ratio={"uncontrolled": 4.0, "controlled": 4.0}, excluded_points=0,
                      e_ratio=ratios, h_ratio=ratios)
     cfg = SimpleNamespace(id="c", freq_mhz=145.0, mode="fm", near_field_map=m)
-    boxes = []
-    near_field_map_png(cfg, (), place_numbers={}, dpi=60, boxes=boxes)
+    boxes = drawing_text_boxes(near_field_map_drawing(cfg, (), place_numbers={}))
     assert any(t.startswith("zoom ×") for t, _ in boxes)
     assert INSET_BELOW_MM >= 3.0          # "a few millimetres"
     # a wide contour draws no inset
     wide = {env: 4.0 * np.exp(-(gx ** 2 + gy ** 2) / 300.0) + 1e-3 for env in ("uncontrolled", "controlled")}
     cfg.near_field_map = NearFieldMap(**{**m.__dict__, "e_ratio": wide, "h_ratio": wide})
-    boxes = []
-    near_field_map_png(cfg, (), place_numbers={}, dpi=60, boxes=boxes)
+    boxes = drawing_text_boxes(near_field_map_drawing(cfg, (), place_numbers={}))
     assert not any(t.startswith("zoom ×") for t, _ in boxes)

@@ -208,22 +208,23 @@ def _inside(boxes, w_px, h_px):
 
 
 def test_no_two_labels_overlap_on_any_map(demo_results):
-    from rfsafe.report.near_field import near_field_map_png
-    from rfsafe.report.plan_map import plan_map_png
+    from rfsafe.report.near_field import near_field_map_drawing
+    from rfsafe.report.plan_map import plan_map_drawing
 
     for res in demo_results:
         numbers = {pl.label: f"P{i + 1}" for i, pl in enumerate(res.places)}
-        boxes = []
-        _, w, h = plan_map_png(res, place_numbers=numbers, dpi=100, boxes=boxes)
+        d = plan_map_drawing(res, place_numbers=numbers)
+        boxes = drawing_text_boxes(d)
         assert boxes and colliding(boxes) == [], colliding(boxes)
-        assert _inside(boxes, w * 100, h * 100) == []
+        assert _inside(boxes, d.width, d.height) == []
+        assert {a.id for a in res.antennas} <= {t for t, _ in boxes}
         for c in res.configurations:
             if c.near_field_map is None:
                 continue
-            boxes = []
-            _, w, h = near_field_map_png(c, res.places, place_numbers=numbers, dpi=100, boxes=boxes)
+            d = near_field_map_drawing(c, res.places, place_numbers=numbers)
+            boxes = drawing_text_boxes(d)
             assert boxes and colliding(boxes) == [], (c.id, colliding(boxes))
-            assert _inside(boxes, w * 100, h * 100) == []
+            assert _inside(boxes, d.width, d.height) == []
 
 
 def test_no_two_labels_overlap_on_the_site_map():
@@ -260,7 +261,7 @@ def crowded(tmp_path_factory):
 def test_a_crowded_plan_numbers_the_highest_ratios_only(crowded):
     """Above 60 places the plan numbers at most 40, highest total ratio first and spaced apart, and its
     labels still do not overlap."""
-    from rfsafe.report.plan_map import MAX_NUMBERED_PLACES, numbered_places, plan_map_png
+    from rfsafe.report.plan_map import MAX_NUMBERED_PLACES, numbered_places, plan_map_drawing
 
     numbers = {pl.label: f"P{i + 1}" for i, pl in enumerate(crowded.places)}
     chosen = numbered_places(crowded.places)           # no spacing asked: the 40 highest
@@ -271,12 +272,12 @@ def test_a_crowded_plan_numbers_the_highest_ratios_only(crowded):
     top = max(crowded.places, key=lambda pl: pl.total_ratio)
     assert top in spaced and 1 < len(spaced) <= 40
     assert all(math.hypot(a.x_m - b.x_m, a.y_m - b.y_m) >= 8.0 for a in spaced for b in spaced if a is not b)
-    boxes = []
-    _, w, h = plan_map_png(crowded, place_numbers=numbers, dpi=100, boxes=boxes)
+    d = plan_map_drawing(crowded, place_numbers=numbers)
+    boxes = drawing_text_boxes(d)
     shown = {t for t, _ in boxes if re.fullmatch(r"P\d+", t)}
     assert numbers[top.label] in shown and 1 < len(shown) <= 40
     assert colliding(boxes) == [], colliding(boxes)
-    assert _inside(boxes, w * 100, h * 100) == []
+    assert _inside(boxes, d.width, d.height) == []
 
 
 def test_numbered_places_ranks_an_unknown_ratio_first():

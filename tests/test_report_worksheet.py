@@ -125,9 +125,11 @@ def test_station_section_antennas_places_and_plan(demo):
     for pl in res.places:
         assert pl.why and " ".join(pl.why.split()) in text
     assert "Call sign DEMO-1 (invented)" in text and "1 Example Lane, Demo Town (invented)" in text
-    # the plan is the one raster image of this worksheet (the other figures are vector graphics)
+    # the plan's cells and its colour scale (256 levels) are the raster images of this worksheet (the other
+    # figures are vector graphics)
     reader = pypdf.PdfReader(io.BytesIO(data))
-    assert sum(len(page.images) for page in reader.pages) == 1
+    sizes = sorted(im.image.size for page in reader.pages for im in page.images)
+    assert len(sizes) == 2 and sizes[0] == (1, 256)
 
 
 def test_place_without_why_says_so(tmp_path):

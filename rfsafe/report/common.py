@@ -29,6 +29,7 @@ from functools import lru_cache
 from importlib import resources
 from xml.sax.saxutils import escape
 
+from reportlab import rl_config
 from reportlab.lib import colors
 from reportlab.lib.enums import TA_CENTER, TA_LEFT, TA_RIGHT
 from reportlab.lib.pagesizes import A4, landscape
@@ -226,9 +227,12 @@ def _token_width(text: str, font: str, size: float) -> float:
 
 
 def fit_widths(col_widths, headers, rows, *, padding: float = 5.5) -> list[float]:
-    """Widen columns whose longest word would otherwise be broken, taking the room from columns with
-    slack (in proportion to it); the total width is unchanged.
+    """Column widths [pt] that add up to exactly the total of ``col_widths`` (the room the caller gave the
+    table, at most the frame), widening columns whose longest word would otherwise be broken.
 
+    The room comes from columns with slack, in proportion to it. When the longest words of all columns
+    together need more than the total, every column gets the same share of its need: the total is kept
+    and the widest words wrap inside their cells (cells break a word that is wider than the column).
     Only plain-text cells are measured (flowables wrap themselves).
     """
     size = styles()["cell"].fontSize
@@ -240,15 +244,15 @@ def fit_widths(col_widths, headers, rows, *, padding: float = 5.5) -> list[float
                 m = max(m, _token_width(row[j], FONT, size))
         need.append(m + padding)
     widths = [float(w) for w in col_widths]
+    total = sum(widths)
+    if sum(need) > total:       # not every word fits whole: shares of the need, the total kept
+        return [total * n / sum(need) for n in need]
     deficit = sum(max(0.0, n - w) for n, w in zip(need, widths))
     if deficit <= 0:
         return widths
     slack = [max(0.0, w - n) for n, w in zip(need, widths)]
-    total_slack = sum(slack)
-    if total_slack <= 0:
-        return widths
-    take = min(1.0, deficit / total_slack)
-    return [max(w, n) if n > w else w - s_ * take for w, n, s_ in zip(widths, need, slack)]
+    take = deficit / sum(slack)            # at most 1: the needs fit the total
+    return [n if n > w else w - s_ * take for w, n, s_ in zip(widths, need, slack)]
 
 
 def data_table(headers, rows, col_widths, *, align: str | None = None, extra_style=(),
@@ -789,5 +793,12 @@ def build_pdf(story, *, title: str, author: str, subject: str, date_iso: str, he
     if first_template == "landscape":
         templates.reverse()
     doc.addPageTemplates(templates)
-    doc.build(list(story), canvasmaker=_page_canvas(header_left, header_right, footer_left, date_iso))
+    # binary streams: reportlab's pure-Python ASCII85 encoding of images and fonts was a third of the
+    # build (a PDF needs no 7-bit-safe streams)
+    a85 = rl_config.useA85
+    rl_config.useA85 = 0
+    try:
+        doc.build(list(story), canvasmaker=_page_canvas(header_left, header_right, footer_left, date_iso))
+    finally:
+        rl_config.useA85 = a85
     return buf.getvalue()

@@ -6,23 +6,25 @@ Rendering only: every value drawn or printed comes from an :class:`rfsafe.result
 The only arithmetic is presentation: the larger of the E and H ratios for the colour field, its
 logarithm for the colour scale, and the difference 10 log10(near / far) in dB.
 
-The map is drawn with matplotlib's Agg renderer at a fixed style, size and resolution, without a
-"Software" stamp, so the same result gives the same PNG bytes (and the same PDF).
+The map is a reportlab drawing (:mod:`rfsafe.report.maps`): vector lines and text over a raster of
+the cells, so the same result gives the same drawing (and the same PDF).
 """
 
 from __future__ import annotations
 
-import io
 import math
 from xml.sax.saxutils import escape
 
+from reportlab.graphics.shapes import Line, Rect, String
+from reportlab.lib import colors
 from reportlab.lib.units import mm
-from reportlab.platypus import Image, KeepTogether
+from reportlab.platypus import KeepTogether
 
-from rfsafe.report.common import data_table, margin_text, num, p, ratio_text, section_heading
+from rfsafe.report.common import FONT, data_table, margin_text, num, p, ratio_text, section_heading
+from rfsafe.report.maps import dash_points, scaled
 from rfsafe.report.plots import decade_label
 
-__all__ = ["NEAR_FIELD_METHOD", "has_near_field_maps", "comparison_exposures", "near_field_map_png",
+__all__ = ["NEAR_FIELD_METHOD", "has_near_field_maps", "comparison_exposures", "near_field_map_drawing",
            "near_field_map_section", "near_field_comparison_section", "CONTOUR_STYLE", "MAX_DECADES",
            "INSET_BELOW_MM"]
 
@@ -38,11 +40,11 @@ CONTOUR_STYLE = {
 #: Widest colour scale [decades]; ratios further below are drawn in the lowest colour.
 MAX_DECADES = 6
 _EXCLUDED_COLOR = "#8c8c8c"
+_EXCLUDED_RGB = (0x8c, 0x8c, 0x8c)
 _WIRE_COLOR = "#2b2b2b"
 _FIG_W_IN = 7.0               # 178 mm: the worksheet frame is 180 mm wide, so text prints at its own size
 _MAP_MAX_W_IN = 5.1
 _MAP_MAX_H_IN = 3.4
-_DPI = 160
 _MAP_MAX_PRINT_H = 98 * 2.8346   # printed height of a map with its legend [pt] (98 mm)
 _FRAME_W_PT = 180 * 2.8346       # the worksheet frame's width [pt]
 #: A limit contour smaller than this on paper [mm] gets a zoomed inset.
@@ -146,76 +148,11 @@ def _contour_label(quantity: str, env: str, field, max_ratio: float) -> str:
     return f"{name} (max ratio {num(max_ratio)})"
 
 
-def _place_labels(ax, marks, obstacle_xy, renderer, colors=None):
-    """Label each place marker on the side where the text stays in the axes and covers the fewest wire and
-    contour points, other markers and labels (``colors``: one text colour per mark, default black)."""
-    import numpy as np
-
-    axbox = ax.get_window_extent(renderer)
-    obstacles = ax.transData.transform(np.asarray(obstacle_xy)) if obstacle_xy else np.empty((0, 2))
-    from rfsafe.report.plots import _BucketIndex
-
-    # markers sorted by x (a box finds its markers by two binary searches) and placed labels in a
-    # bucket index: P labels cost about P box tests, not P^2
-    taken = ax.transData.transform(np.array([(x, y) for x, y, _ in marks], dtype=float).reshape(-1, 2))
-    order = np.argsort(taken[:, 0], kind="stable")
-    taken_x, taken_y = taken[order, 0], taken[order, 1]
-    taken_boxes: list[tuple[float, float, float, float]] = []
-    box_index = _BucketIndex()
-    near = [(6, 5, "left", "bottom"), (6, -5, "left", "top"), (-6, 5, "right", "bottom"),
-            (-6, -5, "right", "top"), (0, 8, "center", "bottom"), (0, -8, "center", "top")]
-    # then farther out, so that a crowded marker still finds a free spot close by
-    offsets = near + [(dx * k, dy * k, ha, va) for k in (2, 3) for dx, dy, ha, va in near]
-    px_per_pt = ax.figure.dpi / 72.0
-
-    def annotate(k, x, y, text, dx, dy, ha, va):
-        return ax.annotate(text, (x, y), xytext=(dx, dy), textcoords="offset points", ha=ha, va=va, fontsize=7.5,
-                           fontweight="bold", color=colors[k] if colors else "black",
-                           zorder=12, bbox=dict(boxstyle="round,pad=0.18", facecolor="white", edgecolor="none",
-                                                alpha=0.85))
-
-    for k, (x, y, text) in enumerate(marks):
-        best = None
-        made = {}     # (ha, va) -> (annotation, dx, dy, box): farther offsets of one alignment are translations
-        for dx, dy, ha, va in offsets:
-            if (ha, va) not in made:
-                t = annotate(k, x, y, text, dx, dy, ha, va)
-                made[(ha, va)] = (t, dx, dy, t.get_window_extent(renderer).expanded(1.04, 1.1))
-                box = made[(ha, va)][3]
-            else:
-                _, dx0, dy0, box0 = made[(ha, va)]
-                box = box0.translated((dx - dx0) * px_per_pt, (dy - dy0) * px_per_pt)
-            pad = 3
-            inside = (box.x0 >= axbox.x0 + pad and box.x1 <= axbox.x1 - pad and box.y0 >= axbox.y0 + pad
-                      and box.y1 <= axbox.y1 - pad)
-            hits = int(np.count_nonzero((obstacles[:, 0] >= box.x0) & (obstacles[:, 0] <= box.x1)
-                                        & (obstacles[:, 1] >= box.y0) & (obstacles[:, 1] <= box.y1)))
-            bx0, by0, bx1, by1 = box.extents
-            lo, hi = np.searchsorted(taken_x, bx0, "left"), np.searchsorted(taken_x, bx1, "right")
-            ys = taken_y[lo:hi]
-            hits += int(np.count_nonzero((ys >= by0) & (ys <= by1)))
-            hits += sum(1 for i in box_index.near(bx0, by0, bx1, by1)
-                        if bx0 <= taken_boxes[i][2] and taken_boxes[i][0] <= bx1
-                        and by0 <= taken_boxes[i][3] and taken_boxes[i][1] <= by1)
-            score = (0 if inside else 1, hits)
-            if best is None or score < best[0]:
-                best = (score, (dx, dy, ha, va), box)
-            if score == (0, 0):
-                break
-        dx, dy, ha, va = best[1]
-        keep = made[(ha, va)][0] if made[(ha, va)][1:3] == (dx, dy) else None
-        for t, *_ in made.values():
-            if t is not keep:
-                t.remove()
-        if keep is None:
-            annotate(k, x, y, text, dx, dy, ha, va)
-        box_index.add(len(taken_boxes), *best[2].extents)
-        taken_boxes.append(tuple(best[2].extents))
-
-
-def _inset(ax, small, x, y, xe, ye, field, cmap, norm, fields, wire_xy, m, places, span_x, obstacles):
+def _inset(ax, small, x, y, xe, ye, rgb, fields, m, places, span_x, obstacles):
     """A zoomed view of the small contours in the corner of the map that hides the fewest features."""
     import numpy as np
+
+    from rfsafe.report.maps import MapAxes
 
     x0 = min(e[0] for e in small)
     y0 = min(e[1] for e in small)
@@ -239,40 +176,51 @@ def _inset(ax, small, x, y, xe, ye, field, cmap, norm, fields, wire_xy, m, place
                                     & (v <= corner[1] + size)))
 
     corner = min(corners, key=hidden)
-    ins = ax.inset_axes((corner[0], corner[1], size, size))
-    ins.pcolormesh(xe, ye, field, cmap=cmap, norm=norm, shading="flat", rasterized=True)
+    box = (ax.x0 + corner[0] * ax.w, ax.y0 + corner[1] * ax.h, size * ax.w, size * ax.h)
+    view = (cx - half, cx + half, cy - half, cy + half)
+    ins = MapAxes(ax.d, box, xlim=view[:2], ylim=view[2:])
+    ax._add_box((ins.x0 - 14, ins.y0 - 10, ins.x0 + ins.w + 2, ins.y0 + ins.h + 10))   # labels stay off it
+    ins.raster(xe, ye, rgb, view=view)
     for (q, env), style in CONTOUR_STYLE.items():
         f = fields[(q, env)]
         fin = f[np.isfinite(f)]
         if fin.size and float(fin.min()) < 1.0 < float(fin.max()):
-            ins.contour(x, y, np.ma.masked_invalid(f), levels=[1.0], colors=style["color"],
-                        linewidths=style["linewidth"], linestyles=[style["linestyle"]], zorder=6)
+            for line in ins.contour_lines(x, y, f):
+                ins.line(line[:, 0], line[:, 1], color=style["color"], width=style["linewidth"],
+                         dash=dash_points(style["linestyle"], style["linewidth"]))
     for path in m.wire_paths_m:
         xs = [pt[0] for pt in path]
         ys = [pt[1] for pt in path]
-        ins.plot(xs, ys, color=_WIRE_COLOR, linewidth=2.0, marker="o" if len(set(zip(xs, ys))) == 1 else None,
-                 markersize=5, zorder=8)
+        if len(set(zip(xs, ys))) == 1:
+            ins.point(xs[0], ys[0], size=5, face=_WIRE_COLOR, edge=None, edge_width=0)
+        else:
+            ins.line(xs, ys, color=_WIRE_COLOR, width=2.0)
     for pl in places:
-        ins.plot([pl.x_m], [pl.y_m], marker="s" if pl.environment == "controlled" else "o", markersize=5,
-                 markerfacecolor="white", markeredgecolor="black", linestyle="none", zorder=9)
-    ins.set_xlim(cx - half, cx + half)
-    ins.set_ylim(cy - half, cy + half)
-    ins.set_aspect("equal", adjustable="box")
-    ins.tick_params(labelsize=5.5, length=2, pad=1)
-    ins.set_title(f"zoom ×{span_x / (2 * half):.0f}", fontsize=6, pad=2)
-    ax.indicate_inset_zoom(ins, edgecolor="black", linewidth=0.8)
+        if view[0] <= pl.x_m <= view[1] and view[2] <= pl.y_m <= view[3]:
+            ins.point(pl.x_m, pl.y_m, shape="s" if pl.environment == "controlled" else "o", size=5, edge_width=1.0)
+    ins.frame_map(tick_size=5.5, tick_len=2, pad=1)
+    ins.d.add(String(ins.x0 + ins.w / 2, ins.y0 + ins.h + 2 + 0.24 * 6, f"zoom ×{span_x / (2 * half):.0f}",
+                     fontName=FONT, fontSize=6, textAnchor="middle"))
+    # the zoomed window on the map, joined to the inset at the two corners facing each other
+    rx0, ry0, rx1, ry1 = ax.px(view[0]), ax.py(view[2]), ax.px(view[1]), ax.py(view[3])
+    ax.d.add(Rect(rx0, ry0, rx1 - rx0, ry1 - ry0, fillColor=None, strokeColor=colors.black, strokeWidth=0.8))
+    pairs = [((rx, ry), (ix, iy)) for (rx, ry), (ix, iy) in zip(
+        [(rx0, ry0), (rx1, ry0), (rx0, ry1), (rx1, ry1)],
+        [(ins.x0, ins.y0), (ins.x0 + ins.w, ins.y0), (ins.x0, ins.y0 + ins.h), (ins.x0 + ins.w, ins.y0 + ins.h)])]
+    for (a, b) in sorted(pairs, key=lambda pr: math.dist(*pr))[:2]:
+        ax.d.add(Line(*a, *b, strokeColor=colors.black, strokeWidth=0.8))
 
 
-def near_field_map_png(cfg, places, *, place_numbers: dict, dpi: int = _DPI,
-                       boxes: list | None = None) -> tuple[bytes, float, float]:
-    """Draw the near-field map of one wire-antenna configuration; PNG bytes and its size [in].
+def near_field_map_drawing(cfg, places, *, place_numbers: dict):
+    """Draw the near-field map of one wire-antenna configuration; a reportlab Drawing [pt].
 
     Drawn: the larger of the E and H exposure ratios against the uncontrolled limit as a colour
     field on a log scale (colour bar labelled, 1 = limit marked); the contours ratio = 1 of E and
     of H for both environments (four line styles, in the legend); cells left out because they
     touch a conductor (grey); each wire in plan view (a vertical wire is a dot); the declared
-    places inside the map area (circle: uncontrolled, square: controlled) with their numbers and
-    labels. Axes in metres, x east, y north, equal aspect.
+    places inside the map area (circle: uncontrolled, square: controlled) with their numbers.
+    Axes in metres, x east, y north, equal aspect. The drawing is 7 in wide (text at its own
+    size); :func:`near_field_map_section` scales it to the page.
 
     Parameters
     ----------
@@ -282,26 +230,10 @@ def near_field_map_png(cfg, places, *, place_numbers: dict, dpi: int = _DPI,
         Declared places; those inside the map area are marked.
     place_numbers : dict
         Place label -> marker number (``"P1"``...), as in the worksheet's tables.
-    dpi : int
-        Resolution of the PNG [1/in].
-    boxes : list, optional
-        When given, receives (text, box) of every label drawn (see :func:`rfsafe.report.plan_map.text_boxes`).
-
-    Returns
-    -------
-    (bytes, float, float)
-        PNG bytes, figure width and height [in].
     """
-    import matplotlib
-    import matplotlib.style
     import numpy as np
-    from matplotlib import patheffects
-    from matplotlib.backends.backend_agg import FigureCanvasAgg
-    from matplotlib.colors import LogNorm
-    from matplotlib.figure import Figure
-    from matplotlib.lines import Line2D
-    from matplotlib.patches import Patch
-    from PIL import Image as PILImage
+
+    from rfsafe.report.maps import MapAxes, colour_bar, colour_rgb, legend, new_map
 
     m = cfg.near_field_map
     x = np.asarray(m.x_m, dtype=float)
@@ -322,115 +254,83 @@ def near_field_map_png(cfg, places, *, place_numbers: dict, dpi: int = _DPI,
     left, top, below_map, legend_h = 0.62, 0.44, 0.36, 0.66
     height = top + map_h + below_map + legend_h
     width = _FIG_W_IN
+    d = new_map(width * 72.0, height * 72.0)
+    base = (legend_h + below_map) * 72.0
+    ax = MapAxes(d, (left * 72.0, base, map_w * 72.0, map_h * 72.0), xlim=(xe[0], xe[-1]), ylim=(ye[0], ye[-1]))
+    rgb = colour_rgb(np.clip(shown, lo, hi), lo, hi, bad=_EXCLUDED_RGB)
+    ax.raster(xe, ye, rgb)
 
-    with matplotlib.style.context("default"), matplotlib.rc_context({
-            "font.family": "DejaVu Sans", "font.size": 7.5, "axes.linewidth": 0.6, "path.simplify": True,
-            "mathtext.fontset": "dejavusans"}):
-        fig = Figure(figsize=(width, height), dpi=dpi)
-        canvas = FigureCanvasAgg(fig)
-        ax = fig.add_axes((left / width, (legend_h + below_map) / height, map_w / width, map_h / height))
-        cb_x = left + map_w + 0.14
-        cax = fig.add_axes((cb_x / width, (legend_h + below_map) / height, 0.12 / width, map_h / height))
+    handles = []
+    contour_xy = []
+    extents = []             # each drawn contour's (x0, y0, x1, y1) [m]
+    for (q, env), style in CONTOUR_STYLE.items():
+        f = fields[(q, env)]
+        fin = f[np.isfinite(f)]
+        dash = dash_points(style["linestyle"], style["linewidth"])
+        if fin.size and float(fin.min()) < 1.0 < float(fin.max()):
+            lines = ax.contour_lines(x, y, f)
+            for line in lines:
+                ax.line(line[:, 0], line[:, 1], color=style["color"], width=style["linewidth"], dash=dash, halo=1.8)
+                contour_xy += [tuple(v) for v in line]
+            if lines:
+                a = np.concatenate(lines)
+                extents.append((a[:, 0].min(), a[:, 1].min(), a[:, 0].max(), a[:, 1].max()))
+        max_ratio = (m.max_e_ratio if q == "e" else m.max_h_ratio)[env]
+        handles.append((("line", style["color"], style["linewidth"], dash), _contour_label(q, env, f, max_ratio)))
 
-        cmap = matplotlib.colormaps["OrRd"].with_extremes(bad=_EXCLUDED_COLOR)
-        field = np.ma.masked_invalid(np.clip(shown, lo, hi))
-        mesh = ax.pcolormesh(xe, ye, field, cmap=cmap, norm=LogNorm(lo, hi), shading="flat", rasterized=True)
-        cb = fig.colorbar(mesh, cax=cax)
-        decades = list(range(round(math.log10(lo)), round(math.log10(hi)) + 1))
-        finite = shown[np.isfinite(shown)]
-        labels = []
-        for k in decades:
-            text = "1 = limit" if k == 0 else decade_label(k)
-            if k == decades[0] and finite.size and float(finite.min()) < lo:
-                text = "≤ " + text
-            labels.append(text)
-        cb.set_ticks([10.0 ** k for k in decades], labels=labels)
-        cb.ax.tick_params(labelsize=6.5, length=2.5)
-        cb.ax.minorticks_off()
-        cb.ax.axhline(1.0, color="black", linewidth=0.8)
-        cb.set_label("larger of $(E/E_\\mathrm{lim})^2$ and $(H/H_\\mathrm{lim})^2$\n"
-                     f"against the uncontrolled limit\nworst of heights {m.heights_m[0]:g}–{m.heights_m[-1]:g} m",
-                     fontsize=6.5, linespacing=1.25, labelpad=5)
+    wire_xy = []
+    vertical_drawn = False
+    for path in m.wire_paths_m:
+        xs = [pt[0] for pt in path]
+        ys = [pt[1] for pt in path]
+        if max(xs) - min(xs) < 1e-9 and max(ys) - min(ys) < 1e-9:
+            ax.point(xs[0], ys[0], size=6.5, face=_WIRE_COLOR, edge="#ffffff", edge_width=1.0)
+            vertical_drawn = True
+            wire_xy.append((xs[0], ys[0]))
+            continue
+        ax.line(xs, ys, color=_WIRE_COLOR, width=2.2, halo=1.6, cap=1)
+        for (x1, y1), (x2, y2) in zip(path[:-1], path[1:]):
+            for t in np.linspace(0.0, 1.0, 41):
+                wire_xy.append((x1 + t * (x2 - x1), y1 + t * (y2 - y1)))
 
-        handles = []
-        contour_xy = []
-        extents = []             # each drawn contour's (x0, y0, x1, y1) [m]
-        for (q, env), style in CONTOUR_STYLE.items():
-            f = fields[(q, env)]
-            fin = f[np.isfinite(f)]
-            if fin.size and float(fin.min()) < 1.0 < float(fin.max()):
-                cs = ax.contour(x, y, np.ma.masked_invalid(f), levels=[1.0], colors=style["color"],
-                                linewidths=style["linewidth"], linestyles=[style["linestyle"]], zorder=6)
-                cs.set_path_effects([patheffects.withStroke(linewidth=style["linewidth"] + 1.8,
-                                                            foreground="white")])
-                pts = [tuple(v) for path in cs.get_paths() for v in path.vertices]
-                contour_xy += pts
-                if pts:
-                    a = np.asarray(pts)
-                    extents.append((a[:, 0].min(), a[:, 1].min(), a[:, 0].max(), a[:, 1].max()))
-            max_ratio = (m.max_e_ratio if q == "e" else m.max_h_ratio)[env]
-            handles.append(Line2D([], [], label=_contour_label(q, env, f, max_ratio), **style))
+    marks = []
+    for pl in _places_in_map(m, places):
+        ax.point(pl.x_m, pl.y_m, shape="s" if pl.environment == "controlled" else "o", size=6)
+        marks.append((pl.x_m, pl.y_m, place_numbers[pl.label]))   # names in the caption
 
-        wire_xy = []
-        halo = [patheffects.withStroke(linewidth=3.8, foreground="white")]
-        vertical_drawn = False
-        for path in m.wire_paths_m:
-            xs = [pt[0] for pt in path]
-            ys = [pt[1] for pt in path]
-            if max(xs) - min(xs) < 1e-9 and max(ys) - min(ys) < 1e-9:
-                ax.plot(xs[:1], ys[:1], marker="o", markersize=6.5, color=_WIRE_COLOR, markeredgecolor="white",
-                        markeredgewidth=1.0, linestyle="none", zorder=8)
-                vertical_drawn = True
-                wire_xy.append((xs[0], ys[0]))
-                continue
-            ax.plot(xs, ys, color=_WIRE_COLOR, linewidth=2.2, solid_capstyle="round", zorder=8, path_effects=halo)
-            for (x1, y1), (x2, y2) in zip(path[:-1], path[1:]):
-                for t in np.linspace(0.0, 1.0, 41):
-                    wire_xy.append((x1 + t * (x2 - x1), y1 + t * (y2 - y1)))
+    ax.title([f"{cfg.id}  ·  {m.antenna}  ·  {cfg.freq_mhz:g} MHz  ·  {cfg.mode}", m.plane])
+    # a limit contour smaller than a few millimetres on paper gets a zoomed inset
+    printed_in_per_m = map_w / span_x * min(1.0, _FRAME_W_PT / (width * 72.0), _MAP_MAX_PRINT_H / (height * 72.0))
+    small = [e for e in extents if max(e[2] - e[0], e[3] - e[1]) * printed_in_per_m * 25.4 < INSET_BELOW_MM]
+    if small:
+        _inset(ax, small, x, y, xe, ye, rgb, fields, m, places, span_x,
+               obstacles=wire_xy + contour_xy + [(mk[0], mk[1]) for mk in marks])
+    ax.place_labels(marks)
+    ax.frame_map(xlabel="x east [m]", ylabel="y north [m]")
 
-        marks = []
-        for pl in _places_in_map(m, places):
-            shape = "s" if pl.environment == "controlled" else "o"
-            ax.plot([pl.x_m], [pl.y_m], marker=shape, markersize=6, markerfacecolor="white",
-                    markeredgecolor="black", markeredgewidth=1.1, linestyle="none", zorder=11)
-            marks.append((pl.x_m, pl.y_m, place_numbers[pl.label]))   # names in the caption
+    decades = list(range(round(math.log10(lo)), round(math.log10(hi)) + 1))
+    finite = shown[np.isfinite(shown)]
+    labels = []
+    for k in decades:
+        text = "1 = limit" if k == 0 else decade_label(k)
+        if k == decades[0] and finite.size and float(finite.min()) < lo:
+            text = "≤ " + text
+        labels.append(text)
+    sub = [("lim", FONT, 4.6, -1.4)]
+    colour_bar(d, (left + map_w + 0.14) * 72.0, base, 0.12 * 72.0, map_h * 72.0, lo=lo, hi=hi,
+               ticks=[10.0 ** k for k in decades], labels=labels, limit_line=True, label_lines=[
+                   [("larger of (E/E", FONT, 6.5, 0.0), *sub, (")² and (H/H", FONT, 6.5, 0.0), *sub,
+                    (")²", FONT, 6.5, 0.0)],
+                   "against the uncontrolled limit", f"worst of heights {m.heights_m[0]:g}–{m.heights_m[-1]:g} m"])
 
-        ax.set_xlim(xe[0], xe[-1])
-        ax.set_ylim(ye[0], ye[-1])
-        ax.set_aspect("equal", adjustable="box")
-        ax.set_xlabel("x east [m]", labelpad=2)
-        ax.set_ylabel("y north [m]", labelpad=2)
-        ax.tick_params(labelsize=6.5, length=2.5)
-        ax.set_title(f"{cfg.id}  ·  {m.antenna}  ·  {cfg.freq_mhz:g} MHz  ·  {cfg.mode}\n{m.plane}",
-                     fontsize=8, loc="left", pad=4)
-        # a limit contour smaller than a few millimetres on paper gets a zoomed inset
-        printed_in_per_m = map_w / span_x * min(1.0, _FRAME_W_PT / (width * 72.0), _MAP_MAX_PRINT_H / (height * 72.0))
-        small = [e for e in extents if max(e[2] - e[0], e[3] - e[1]) * printed_in_per_m * 25.4 < INSET_BELOW_MM]
-        if small:
-            _inset(ax, small, x, y, xe, ye, field, cmap, LogNorm(lo, hi), fields, wire_xy, m, places, span_x,
-                   obstacles=wire_xy + contour_xy + [(mk[0], mk[1]) for mk in marks])
-        _place_labels(ax, marks, wire_xy + contour_xy, canvas.get_renderer())
-
-        handles.append(Line2D([], [], color=_WIRE_COLOR, linewidth=2.2,
-                              label="wire seen from above" + (" (dot: vertical wire)" if vertical_drawn else "")))
-        handles.append(Line2D([], [], marker="o", markersize=5.5, markerfacecolor="white", markeredgecolor="black",
-                              linestyle="none", label="place, uncontrolled (square: controlled)"))
-        handles.append(Patch(facecolor=_EXCLUDED_COLOR, edgecolor="none",
-                             label=f"left out: touches a conductor ({m.excluded_points} cell"
-                             f"{'' if m.excluded_points == 1 else 's'})"))
-        fig.legend(handles=handles, loc="lower left", bbox_to_anchor=(0.01, 0.005), ncol=2,
-                   fontsize=6.5, frameon=False, handlelength=3.2, columnspacing=1.6, borderaxespad=0.2)
-        canvas.draw()
-        if boxes is not None:
-            from rfsafe.report.plan_map import text_boxes
-
-            boxes.extend(text_boxes(fig, canvas.get_renderer()))
-        rgb = np.ascontiguousarray(np.asarray(canvas.buffer_rgba())[..., :3])
-    # an opaque RGB PNG written by PIL without text chunks: no transparency mask for the PDF to carry
-    # (a third of the build time), and no time stamp or version, so the bytes depend on the drawing only
-    buf = io.BytesIO()
-    PILImage.fromarray(rgb).save(buf, format="PNG", compress_level=3)
-    return buf.getvalue(), width, height
+    handles.append((("line", _WIRE_COLOR, 2.2, None),
+                    "wire seen from above" + (" (dot: vertical wire)" if vertical_drawn else "")))
+    handles.append((("marker", "o", 5.5, "#ffffff", "#000000", 1.0), "place, uncontrolled (square: controlled)"))
+    handles.append((("patch", _EXCLUDED_COLOR), f"left out: touches a conductor ({m.excluded_points} cell"
+                    f"{'' if m.excluded_points == 1 else 's'})"))
+    legend(d, 0.01 * width * 72.0 + 2.6, legend_h * 72.0 - 3.0, handles, ncol=2, size=6.5, handlelength=3.2,
+           columnspacing=1.6)
+    return d
 
 
 def near_field_map_section(res, width: float, numbers: dict, number: str, note=None) -> list:
@@ -449,9 +349,8 @@ def near_field_map_section(res, width: float, numbers: dict, number: str, note=N
              "or the controlled limit. Places are numbered as in section 4.", "small")]
     for c in cfgs:
         m = c.near_field_map
-        png, w_in, h_in = near_field_map_png(c, res.places, place_numbers=numbers)
-        scale = min(1.0, width / (w_in * 72.0), _MAP_MAX_PRINT_H / (h_in * 72.0))   # two maps to a page
-        img = Image(io.BytesIO(png), width=w_in * 72.0 * scale, height=h_in * 72.0 * scale)
+        drawing = near_field_map_drawing(c, res.places, place_numbers=numbers)
+        img = scaled(drawing, min(1.0, width / drawing.width, _MAP_MAX_PRINT_H / drawing.height))   # two maps a page
         n_cells = len(m.x_m) * len(m.y_m)
         marked = [f"{numbers[pl.label]} {escape(pl.label)}" for pl in _places_in_map(m, res.places)]
         xe, ye = _edges(m.x_m), _edges(m.y_m)

@@ -1,17 +1,16 @@
 """The station plan: antennas to size and orientation, places, and keep-out areas, seen from above.
 
 Rendering only: every value drawn comes from an :class:`rfsafe.results.EvaluationResult` (its
-``antennas`` and ``plan``, computed by :mod:`rfsafe.site.plan`). Drawn with matplotlib's Agg
-renderer at a fixed style, size and resolution, as an opaque PNG without text chunks, so the same
-result gives the same bytes.
+``antennas`` and ``plan``, computed by :mod:`rfsafe.site.plan`). Drawn as a reportlab drawing
+(:mod:`rfsafe.report.maps`): vector lines and text over a raster of the cells, so the same result
+gives the same drawing.
 """
 
 from __future__ import annotations
 
-import io
 import math
 
-__all__ = ["plan_map_png", "KEEP_OUT_STYLE", "text_boxes", "MAX_NUMBERED_PLACES", "numbered_places"]
+__all__ = ["plan_map_drawing", "KEEP_OUT_STYLE", "MAX_NUMBERED_PLACES", "numbered_places"]
 
 #: Above this many places the plan numbers only the :data:`MAX_NUMBERED_PLACES` with the highest total
 #: ratio (every place keeps its marker; the tables list them all): more numbers would cover the map.
@@ -28,34 +27,6 @@ KEEP_OUT_STYLE = {
 _LEVEL_TEXT = {"ground": "ground level", "head": "head height"}
 _RANGE = (1e-2, 1e1)
 _ANT = "#1f3a5f"
-_DPI = 160
-
-
-def text_boxes(fig, renderer) -> list[tuple[str, tuple[float, float, float, float]]]:
-    """Every visible, non-empty text of a drawn matplotlib figure with its box (x0, y0, x1, y1) [px].
-
-    Legends and colour-bar labels are included; used by the tests that check that no two labels
-    overlap.
-    """
-    from matplotlib.text import Text
-
-    ticks, drawn = set(), set()           # tick labels exist for ticks that are never drawn: keep the drawn ones
-    for ax in fig.axes:
-        for axis in (ax.xaxis, ax.yaxis):
-            for tick in axis.get_major_ticks() + axis.get_minor_ticks():
-                ticks.update((id(tick.label1), id(tick.label2)))
-            if ax.axison and axis.get_visible():
-                for tick in axis._update_ticks():
-                    drawn.update(id(lab) for lab in (tick.label1, tick.label2) if lab.get_visible())
-        if not ax.axison:
-            ticks.update((id(ax.xaxis.label), id(ax.yaxis.label)))
-    out = []
-    for t in fig.findobj(Text):
-        if not t.get_visible() or not str(t.get_text()).strip() or (id(t) in ticks and id(t) not in drawn):
-            continue
-        b = t.get_window_extent(renderer)
-        out.append((str(t.get_text()), (b.x0, b.y0, b.x1, b.y1)))
-    return out
 
 
 def _level_label(level, env, plan) -> str:
@@ -93,23 +64,8 @@ def numbered_places(places, min_gap_m: float = 0.0, keep_clear=()) -> list:
     return [places[i] for i in sorted(taken)]
 
 
-def _drop_overlapping_numbers(ax, renderer, numbers: set) -> None:
-    """Remove place numbers whose box meets an earlier label's (antenna names and the north arrow come
-    first): on a crowded plan a number that finds no free room is left off rather than covering another."""
-    kept = []
-    for t in list(ax.texts):
-        b = t.get_window_extent(renderer)
-        box = (b.x0, b.y0, b.x1, b.y1)
-        if t.get_text() in numbers and any(box[0] < k[2] and k[0] < box[2] and box[1] < k[3] and k[1] < box[3]
-                                           for k in kept):
-            t.remove()
-            continue
-        kept.append(box)
-
-
-def plan_map_png(res, *, place_numbers: dict, width_in: float = 7.0, dpi: int = _DPI,
-                 boxes: list | None = None) -> tuple[bytes, float, float]:
-    """Draw the plan of ``res``; PNG bytes, width and height [in].
+def plan_map_drawing(res, *, place_numbers: dict, width_in: float = 7.0):
+    """Draw the plan of ``res`` as a reportlab Drawing ``width_in`` wide [pt at 72 per inch].
 
     Parameters
     ----------
@@ -118,30 +74,17 @@ def plan_map_png(res, *, place_numbers: dict, width_in: float = 7.0, dpi: int = 
     place_numbers : dict
         Place label -> marker label (``"P1"``...), as in the worksheet's tables.
     width_in : float
-        Figure width [in].
-    dpi : int
-        Resolution [1/in].
-    boxes : list, optional
-        When given, receives (text, box) of every label drawn (see :func:`text_boxes`).
+        Drawing width [in].
     """
-    import matplotlib
-    import matplotlib.style
     import numpy as np
-    from matplotlib import patheffects
-    from matplotlib.backends.backend_agg import FigureCanvasAgg
-    from matplotlib.colors import LogNorm
-    from matplotlib.figure import Figure
-    from matplotlib.lines import Line2D
-    from matplotlib.patches import FancyArrow
-    from mpl_toolkits.axes_grid1.anchored_artists import AnchoredSizeBar
-    from PIL import Image as PILImage
 
-    from rfsafe.report.near_field import _place_labels
+    from rfsafe.report.maps import MapAxes, colour_bar, colour_rgb, dash_points, legend, new_map
+    from rfsafe.report.near_field import _edges
     from rfsafe.report.site_map import nice_length
 
     plan = res.plan
-    x = np.asarray(plan.x_m)
-    y = np.asarray(plan.y_m)
+    x = np.asarray(plan.x_m, dtype=float)
+    y = np.asarray(plan.y_m, dtype=float)
     span_x, span_y = x[-1] - x[0], y[-1] - y[0]
     # a tall plan keeps its legend at the right; a wide one gets the width and the legend below it
     side = span_y / span_x > 0.75
@@ -154,136 +97,134 @@ def plan_map_png(res, *, place_numbers: dict, width_in: float = 7.0, dpi: int = 
     below = 0.0 if side else 1.25
     bottom = 0.45 + below
     height = max(map_h + 0.3 + bottom, 2.9)
-    with matplotlib.style.context("default"), matplotlib.rc_context({
-            "font.family": "DejaVu Sans", "font.size": 7.5, "axes.linewidth": 0.6, "path.simplify": True}):
-        fig = Figure(figsize=(width_in, height), dpi=dpi)
-        canvas = FigureCanvasAgg(fig)
-        ax = fig.add_axes((0.55 / width_in, bottom / height, map_w / width_in, map_h / height))
-        lx = (0.55 + map_w + 0.25) / width_in
-        cb_h = min(1.05, map_h - 0.45)
-        cax = fig.add_axes((lx, (bottom + map_h - cb_h) / height, 0.11 / width_in, cb_h / height))
-        if side:
-            lax = fig.add_axes((lx, 0.02, 1 - lx - 0.01, (bottom + map_h - cb_h - 0.5) / height))
+    pt = 72.0
+    d = new_map(width_in * pt, height * pt)
+    ax = MapAxes(d, (0.55 * pt, bottom * pt, map_w * pt, map_h * pt), xlim=(x[0], x[-1]), ylim=(y[0], y[-1]))
+    shown = np.nan_to_num(np.asarray(plan.ratio[("head", "uncontrolled")], dtype=float), nan=_RANGE[1],
+                          posinf=_RANGE[1])
+    ax.raster(_edges(x), _edges(y), colour_rgb(np.clip(shown, *_RANGE), *_RANGE))   # cells centred on the points
+
+    handles = []
+    for (level, env), style in KEEP_OUT_STYLE.items():
+        f = np.nan_to_num(np.asarray(plan.ratio[(level, env)], dtype=float), nan=1e3, posinf=1e3)
+        dash = dash_points(style["linestyle"], style["linewidth"])
+        if (f > 1).any() and (f < 1).any():
+            for line in ax.contour_lines(x, y, f):
+                ax.line(line[:, 0], line[:, 1], color=style["color"], width=style["linewidth"], dash=dash, halo=1.6)
+        handles.append((("line", style["color"], style["linewidth"], dash), _level_label(level, env, plan)))
+
+    arrow_len = 0.09 * max(span_x, span_y)
+    ant_marks = []
+    for a in res.antennas:
+        pts = [(q[0], q[1]) for s in a.segments_m for q in s]
+        flat = [s for s in a.segments_m if math.hypot(s[1][0] - s[0][0], s[1][1] - s[0][1]) > 1e-6]
+        for s in flat:
+            ax.line([s[0][0], s[1][0]], [s[0][1], s[1][1]], color=_ANT, width=2.4, halo=1.6, cap=1)
+        if not flat:   # vertical structure or a point: a ringed dot
+            ax.point(a.x_m, a.y_m, size=6.5, face=_ANT, edge="#ffffff", edge_width=1.0)
+        if a.kind in ("beam", "table"):
+            _heading_arrow(ax, a.x_m, a.y_m, math.radians(a.azimuth_deg), arrow_len, 0.006 * max(span_x, span_y))
+        if pts:
+            cx = sum(q[0] for q in pts) / len(pts)
+            cy = sum(q[1] for q in pts) / len(pts)
         else:
-            lax = fig.add_axes((0.05 / width_in, 0.02, 1 - 0.1 / width_in, (below - 0.05) / height))
-        lax.axis("off")
+            cx, cy = a.x_m, a.y_m
+        ant_marks.append((cx, cy, a.id))
 
-        shown = np.nan_to_num(np.asarray(plan.ratio[("head", "uncontrolled")], dtype=float),
-                              nan=_RANGE[1], posinf=_RANGE[1])
-        mesh = ax.pcolormesh(x, y, np.clip(shown, *_RANGE), cmap="OrRd", norm=LogNorm(*_RANGE),
-                             shading="nearest", rasterized=True)
-        cb = fig.colorbar(mesh, cax=cax)
-        cb.set_ticks([0.01, 0.1, 1, 10], labels=["≤ 0.01", "0.1", "1 = limit", "≥ 10"])
-        cb.ax.tick_params(labelsize=6.5, length=2)
-        cb.ax.minorticks_off()
-        cb.set_label("total ratio, uncontrolled,\nhead height", fontsize=6.5, labelpad=3)
+    # numbers about two label widths apart (36 pt on the map) and from the antennas' labels and the north arrow
+    north = [(x[0] + 0.95 * span_x, y[0] + f * span_y) for f in (0.84, 0.9, 0.96)]    # the north arrow
+    numbered = numbered_places(res.places, min_gap_m=36.0 / 72.0 * span_x / map_w,
+                               keep_clear=[(cx, cy) for cx, cy, _ in ant_marks] + north)
+    if len(numbered) == len(res.places):
+        for pl in res.places:
+            ax.point(pl.x_m, pl.y_m, shape="s" if pl.environment == "controlled" else "o", size=6)
+    else:   # many places: smaller markers, the highest ratios numbered
+        size = max(1.5, min(6.0, 0.6 * math.sqrt(map_w * map_h * 72.0 ** 2 / len(res.places))))
+        for pl in res.places:
+            ax.point(pl.x_m, pl.y_m, shape="s" if pl.environment == "controlled" else "o", size=size,
+                     edge_width=min(1.1, size / 4))
+    marks = [(pl.x_m, pl.y_m, place_numbers[pl.label]) for pl in numbered]
+    _north_arrow(ax)
+    _scale_bar(ax, nice_length(max(span_x, span_y)))
+    ant_labels = [(cx, cy, f"{i}") for cx, cy, i in ant_marks]
+    if len(numbered) == len(res.places):
+        ax.place_labels(marks + ant_labels, colours=["#000000"] * len(marks) + [_ANT] * len(ant_marks))
+    else:    # crowded: the antennas are named first, the numbers find room around them or are left off
+        ax.place_labels(ant_labels + marks, colours=[_ANT] * len(ant_marks) + ["#000000"] * len(marks),
+                        drop={t for _, _, t in marks})
+    ax.frame_map(xlabel="x east [m]", ylabel="y north [m]")
 
-        handles = []
-        obstacles = []
-        for (level, env), style in KEEP_OUT_STYLE.items():
-            f = np.nan_to_num(np.asarray(plan.ratio[(level, env)], dtype=float), nan=1e3, posinf=1e3)
-            if (f > 1).any() and (f < 1).any():
-                cs = ax.contour(x, y, f, levels=[1.0], colors=style["color"], linewidths=style["linewidth"],
-                                linestyles=[style["linestyle"]], zorder=6)
-                cs.set_path_effects([patheffects.withStroke(linewidth=style["linewidth"] + 1.6,
-                                                            foreground="white")])
-                obstacles += [tuple(v) for path in cs.get_paths() for v in path.vertices]
-            handles.append(Line2D([], [], label=_level_label(level, env, plan), **style))
+    lx = (0.55 + map_w + 0.25) * pt
+    cb_h = min(1.05, map_h - 0.45)
+    colour_bar(d, lx, (bottom + map_h - cb_h) * pt, 0.11 * pt, cb_h * pt, lo=_RANGE[0], hi=_RANGE[1],
+               ticks=[0.01, 0.1, 1, 10], labels=["≤ 0.01", "0.1", "1 = limit", "≥ 10"], tick_len=2.0, labelpad=3.0,
+               label_lines=["total ratio, uncontrolled,", "head height"])
+    handles += [
+        (("line", _ANT, 2.4, None), "antenna seen from above, to its size"),
+        (("marker", "o", 6.0, _ANT, "#ffffff", 1.0), "vertical antenna (or size not declared)"),
+        (("arrow", _ANT), "beam heading"),
+        (("marker", "o", 5.5, "#ffffff", "#000000", 1.0), "place, uncontrolled"),
+        (("marker", "s", 5.5, "#ffffff", "#000000", 1.0), "place, controlled"),
+    ]
+    if side:
+        legend(d, lx, (bottom + map_h - cb_h - 0.5) * pt + 0.02 * height * pt, handles, size=6.5, handlelength=2.6,
+               labelspacing=0.55)
+    else:
+        legend(d, 0.05 * pt, (below - 0.05) * pt + 0.02 * height * pt, handles, ncol=3, size=6.5,
+               handlelength=2.6, labelspacing=0.55, columnspacing=1.2)
+    return d
 
-        arrow_len = 0.09 * max(span_x, span_y)
-        halo = [patheffects.withStroke(linewidth=4.0, foreground="white")]
-        ant_marks = []
-        for a in res.antennas:
-            pts = [(p[0], p[1]) for s in a.segments_m for p in s]
-            flat = [s for s in a.segments_m if math.hypot(s[1][0] - s[0][0], s[1][1] - s[0][1]) > 1e-6]
-            for s in flat:
-                ax.plot([s[0][0], s[1][0]], [s[0][1], s[1][1]], color=_ANT, linewidth=2.4, solid_capstyle="round",
-                        zorder=8, path_effects=halo)
-                for t in np.linspace(0, 1, 21):
-                    obstacles.append((s[0][0] + t * (s[1][0] - s[0][0]), s[0][1] + t * (s[1][1] - s[0][1])))
-            if not flat:   # vertical structure or a point: a ringed dot
-                ax.plot([a.x_m], [a.y_m], marker="o", markersize=6.5, color=_ANT, markeredgecolor="white",
-                        markeredgewidth=1.0, linestyle="none", zorder=9)
-                obstacles.append((a.x_m, a.y_m))
-            if a.kind in ("beam", "table"):
-                t = math.radians(a.azimuth_deg)
-                ax.add_patch(FancyArrow(a.x_m, a.y_m, arrow_len * math.sin(t), arrow_len * math.cos(t),
-                                        width=0.006 * arrow_len / 0.09, head_width=0.3 * arrow_len,
-                                        head_length=0.3 * arrow_len, length_includes_head=True,
-                                        facecolor=_ANT, edgecolor="white", linewidth=0.5, zorder=9))
-                for k in np.linspace(0, 1, 8):
-                    obstacles.append((a.x_m + k * arrow_len * math.sin(t), a.y_m + k * arrow_len * math.cos(t)))
-            if pts:
-                cx = sum(p[0] for p in pts) / len(pts)
-                cy = sum(p[1] for p in pts) / len(pts)
-            else:
-                cx, cy = a.x_m, a.y_m
-            ant_marks.append((cx, cy, a.id))
 
-        marks = []
-        # numbers about two label widths apart (36 pt on the map) and from the antennas' labels and the north arrow
-        north = [(x[0] + 0.95 * span_x, y[0] + f * span_y) for f in (0.84, 0.9, 0.96)]    # the north arrow
-        numbered = numbered_places(res.places, min_gap_m=36.0 / 72.0 * span_x / map_w,
-                                   keep_clear=[(cx, cy) for cx, cy, _ in ant_marks] + north)
-        if len(numbered) == len(res.places):
-            for pl in res.places:
-                shape = "s" if pl.environment == "controlled" else "o"
-                ax.plot([pl.x_m], [pl.y_m], marker=shape, markersize=6, markerfacecolor="white",
-                        markeredgecolor="black", markeredgewidth=1.1, linestyle="none", zorder=11)
-                marks.append((pl.x_m, pl.y_m, place_numbers[pl.label]))
-        else:   # many places: one marker artist per environment, smaller markers, the highest ratios numbered
-            size = max(1.5, min(6.0, 0.6 * math.sqrt(map_w * map_h * 72.0 ** 2 / len(res.places))))
-            for env, shape in (("uncontrolled", "o"), ("controlled", "s")):
-                pts = [(pl.x_m, pl.y_m) for pl in res.places if pl.environment == env]
-                if pts:
-                    ax.plot([q[0] for q in pts], [q[1] for q in pts], marker=shape, markersize=size,
-                            markerfacecolor="white", markeredgecolor="black", markeredgewidth=min(1.1, size / 4),
-                            linestyle="none", zorder=11)
-            marks = [(pl.x_m, pl.y_m, place_numbers[pl.label]) for pl in numbered]
-            shown = {pl.label for pl in numbered}
-            obstacles += [(pl.x_m, pl.y_m) for pl in res.places if pl.label not in shown]
+def _heading_arrow(ax, x, y, azimuth_rad, length, tail_width) -> None:
+    """A beam heading: a filled arrow from the antenna (head 0.3 of its length), in data units [m]."""
+    from reportlab.graphics.shapes import Polygon
+    from reportlab.lib import colors
 
-        ax.set_xlim(x[0], x[-1])
-        ax.set_ylim(y[0], y[-1])
-        ax.set_aspect("equal", adjustable="box")
-        ax.set_xlabel("x east [m]", labelpad=2)
-        ax.set_ylabel("y north [m]", labelpad=2)
-        ax.tick_params(labelsize=6.5, length=2.5)
-        ax.annotate("N", xy=(0.95, 0.96), xytext=(0.95, 0.84), xycoords="axes fraction", ha="center", va="center",
-                    fontsize=8.5, fontweight="bold", zorder=13,
-                    arrowprops=dict(arrowstyle="-|>", color="black", linewidth=1.1),
-                    bbox=dict(boxstyle="circle,pad=0.12", facecolor="white", edgecolor="none"))
-        bar = nice_length(max(span_x, span_y))
-        ax.add_artist(AnchoredSizeBar(ax.transData, bar, f"{bar:g} m", loc="lower left", pad=0.35, borderpad=0.5,
-                                      sep=2, frameon=True, size_vertical=0.006 * span_y,
-                                      fontproperties={"size": 6.5}))
-        renderer = canvas.get_renderer()
-        ant_labels = [(cx, cy, f"{i}") for cx, cy, i in ant_marks]
-        if len(numbered) == len(res.places):
-            _place_labels(ax, marks + ant_labels, obstacles, renderer,
-                          colors=["black"] * len(marks) + [_ANT] * len(ant_marks))
-        else:    # crowded: the antennas are named first, the numbers find room around them
-            _place_labels(ax, ant_labels + marks, obstacles, renderer,
-                          colors=[_ANT] * len(ant_marks) + ["black"] * len(marks))
-            _drop_overlapping_numbers(ax, renderer, {t for _, _, t in marks})
+    ux, uy = math.sin(azimuth_rad), math.cos(azimuth_rad)
+    nx, ny = -uy, ux
+    head_l, head_w = 0.3 * length, 0.3 * length
+    shape = [(0, tail_width / 2), (length - head_l, tail_width / 2), (length - head_l, head_w / 2), (length, 0),
+             (length - head_l, -head_w / 2), (length - head_l, -tail_width / 2), (0, -tail_width / 2)]
+    pts = []
+    for along, across in shape:
+        pts += [ax.px(x + along * ux + across * nx), ax.py(y + along * uy + across * ny)]
+    ax.d.add(Polygon(pts, fillColor=colors.HexColor(_ANT), strokeColor=colors.white, strokeWidth=0.5))
+    ax._keep_clear(*[(pts[k], pts[k + 1], pts[k + 2], pts[k + 3]) for k in range(0, len(pts) - 2, 2)])
 
-        handles += [
-            Line2D([], [], color=_ANT, linewidth=2.4, label="antenna seen from above, to its size"),
-            Line2D([], [], marker="o", color=_ANT, markeredgecolor="white", linestyle="none", markersize=6,
-                   label="vertical antenna (or size not declared)"),
-            Line2D([], [], marker=r"$\rightarrow$", color=_ANT, linestyle="none", markersize=9,
-                   label="beam heading"),
-            Line2D([], [], marker="o", markerfacecolor="white", markeredgecolor="black", linestyle="none",
-                   markersize=5.5, label="place, uncontrolled"),
-            Line2D([], [], marker="s", markerfacecolor="white", markeredgecolor="black", linestyle="none",
-                   markersize=5.5, label="place, controlled"),
-        ]
-        lax.legend(handles=handles, loc="upper left", fontsize=6.5, frameon=False, borderaxespad=0.0,
-                   handlelength=2.6, labelspacing=0.55, ncol=1 if side else 3, columnspacing=1.2)
-        canvas.draw()
-        if boxes is not None:
-            boxes.extend(text_boxes(fig, renderer))
-        rgb = np.ascontiguousarray(np.asarray(canvas.buffer_rgba())[..., :3])
-    buf = io.BytesIO()
-    PILImage.fromarray(rgb).save(buf, format="PNG", compress_level=3)
-    return buf.getvalue(), width_in, height
+
+def _north_arrow(ax) -> None:
+    """"N" with an arrow pointing up, near the top right corner of the map."""
+    from reportlab.graphics.shapes import Circle, Line, Polygon, String
+    from reportlab.lib import colors
+
+    from rfsafe.report.common import FONT_BOLD
+
+    X = ax.x0 + 0.95 * ax.w
+    Yn, Ytip = ax.y0 + 0.84 * ax.h, ax.y0 + 0.96 * ax.h
+    fs = 8.5
+    ax.d.add(Circle(X, Yn, 0.62 * fs, fillColor=colors.white, strokeColor=None))
+    ax.d.add(Line(X, Yn + 0.62 * fs, X, Ytip - 5, strokeColor=colors.black, strokeWidth=1.1))
+    ax.d.add(Polygon([X, Ytip, X - 2.6, Ytip - 6, X + 2.6, Ytip - 6], fillColor=colors.black, strokeColor=None))
+    ax.d.add(String(X, Yn - 0.36 * fs, "N", fontName=FONT_BOLD, fontSize=fs, textAnchor="middle"))
+    ax._add_box((X - 0.62 * fs, Yn - 0.62 * fs, X + 0.62 * fs, Ytip))
+
+
+def _scale_bar(ax, length_m: float) -> None:
+    """A framed scale bar ``length_m`` long with its length below it, in the lower left corner."""
+    from reportlab.graphics.shapes import Rect, String
+    from reportlab.lib import colors
+
+    from rfsafe.report.common import FONT
+
+    fs = 6.5
+    bar = ax.px(ax.xlim[0] + length_m) - ax.x0
+    thick = max(0.006 * ax.h, 0.8)
+    pad, border = 0.35 * fs, 0.5 * fs
+    text = f"{length_m:g} m"
+    w = max(bar, 0.0) + 2 * pad
+    h = thick + 2 + fs + 2 * pad
+    X0, Y0 = ax.x0 + border, ax.y0 + border
+    ax.d.add(Rect(X0, Y0, w, h, fillColor=colors.white, strokeColor=colors.black, strokeWidth=0.8))
+    ax.d.add(Rect(X0 + pad, Y0 + h - pad - thick, bar, thick, fillColor=colors.black, strokeColor=None))
+    ax.d.add(String(X0 + w / 2, Y0 + pad + 0.24 * fs, text, fontName=FONT, fontSize=fs, textAnchor="middle"))
+    ax._add_box((X0, Y0, X0 + w, Y0 + h))

@@ -12,7 +12,7 @@ import math
 
 import numpy as np
 
-__all__ = ["site_map_png", "KIND_STYLE", "nice_length"]
+__all__ = ["site_map_png", "KIND_STYLE", "nice_length", "text_boxes"]
 
 #: How each kind of area is drawn: edge colour, hatch, fill (light, so the colour field shows through).
 KIND_STYLE = {
@@ -258,9 +258,34 @@ def site_map_png(res, *, width_in: float = 10.2, height_in: float = 6.0, dpi: in
                    handlelength=2.2, labelspacing=0.45)
         fig.canvas.draw()
         if boxes is not None:
-            from rfsafe.report.plan_map import text_boxes
-
             boxes.extend(text_boxes(fig, fig.canvas.get_renderer()))
         buf = io.BytesIO()
         fig.savefig(buf, format="png", dpi=dpi, metadata={"Software": None})
     return buf.getvalue()
+
+
+def text_boxes(fig, renderer) -> list[tuple[str, tuple[float, float, float, float]]]:
+    """Every visible, non-empty text of a drawn matplotlib figure with its box (x0, y0, x1, y1) [px].
+
+    Legends and colour-bar labels are included; used by the tests that check that no two labels
+    overlap.
+    """
+    from matplotlib.text import Text
+
+    ticks, drawn = set(), set()           # tick labels exist for ticks that are never drawn: keep the drawn ones
+    for ax in fig.axes:
+        for axis in (ax.xaxis, ax.yaxis):
+            for tick in axis.get_major_ticks() + axis.get_minor_ticks():
+                ticks.update((id(tick.label1), id(tick.label2)))
+            if ax.axison and axis.get_visible():
+                for tick in axis._update_ticks():
+                    drawn.update(id(lab) for lab in (tick.label1, tick.label2) if lab.get_visible())
+        if not ax.axison:
+            ticks.update((id(ax.xaxis.label), id(ax.yaxis.label)))
+    out = []
+    for t in fig.findobj(Text):
+        if not t.get_visible() or not str(t.get_text()).strip() or (id(t) in ticks and id(t) not in drawn):
+            continue
+        b = t.get_window_extent(renderer)
+        out.append((str(t.get_text()), (b.x0, b.y0, b.x1, b.y1)))
+    return out

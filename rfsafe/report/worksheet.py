@@ -21,14 +21,13 @@ Entry points: :func:`build_worksheet_pdf` (bytes) and :func:`write_worksheet` (f
 
 from __future__ import annotations
 
-import io
 import math
 import re
 from pathlib import Path
 from xml.sax.saxutils import escape
 
 from reportlab.lib.units import mm
-from reportlab.platypus import CondPageBreak, Image, KeepTogether, Paragraph, Spacer
+from reportlab.platypus import CondPageBreak, KeepTogether, Paragraph, Spacer
 
 from rfsafe.report.common import (COMPLIES_COLOR, EXCEEDS_COLOR, Styled, build_pdf, cautions_block, data_table,
                                   frame_width, grouped_flags, heading_before_table, identity_block, kv_table,
@@ -36,7 +35,8 @@ from rfsafe.report.common import (COMPLIES_COLOR, EXCEEDS_COLOR, Styled, build_p
 from rfsafe.report.figures import exposure_distance_figure, exposure_legend, figure_rows, line_profile_figure
 from rfsafe.report.near_field import comparison_exposures, near_field_comparison_section, near_field_map_section
 from rfsafe.exposure import horizontal_compliance_distance_m
-from rfsafe.report.plan_map import MAX_NUMBERED_PLACES, MAX_PLACES_ALL_NUMBERED, plan_map_png
+from rfsafe.report.maps import scaled
+from rfsafe.report.plan_map import MAX_NUMBERED_PLACES, MAX_PLACES_ALL_NUMBERED, plan_map_drawing
 
 __all__ = ["build_worksheet_pdf", "write_worksheet", "worksheet_story", "EXEMPTION_STATEMENT"]
 
@@ -221,9 +221,8 @@ def _station(res, width, numbers) -> list:
         out.append(data_table(["#", "place", "x, y, height m", "environment", "why this environment"], rows,
                               [8 * mm, 44 * mm, 22 * mm, 52 * mm, width - 126 * mm], align="lllll"))
     if res.plan is not None and res.antennas:
-        png, w_in, h_in = plan_map_png(res, place_numbers=numbers)
-        scale = min(1.0, width / (w_in * 72.0))
-        img = Image(io.BytesIO(png), width=w_in * 72.0 * scale, height=h_in * 72.0 * scale)
+        drawing = plan_map_drawing(res, place_numbers=numbers)
+        img = scaled(drawing, min(1.0, width / drawing.width))
         plan = res.plan
         tops = "; ".join(f"{lvl} {env} {ratio_text(plan.max_ratio[f'{lvl} {env}'])}"
                          for lvl in ("ground", "head") for env in ENVIRONMENTS)
