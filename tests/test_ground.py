@@ -549,3 +549,18 @@ def test_remainder_fields_at_points_sharing_a_height_equal_the_reference_path(so
         ref = g.remainder_fields_reference(tab, src[part], mom[part], obs)[0]
         new = g.remainder_fields(tab, src[part], mom[part], obs)[0]
         assert np.max(np.abs(new - ref)) < 2e-6 * np.abs(ref).max()
+
+
+def test_fast_bessel_functions_equal_scipy_on_the_table_path():
+    # bessel_j01 (power series, Abramowitz and Stegun 9.1.10, and Hankel's expansion, A&S 9.2.5) stands in for
+    # scipy.special.jv (AMOS) on the complex part of the tables' krho path, where |Im z| <= 2: it must give
+    # scipy's values there, on both sides of the switch at |z| = 16 and on the imaginary axis (the path's first leg).
+    from scipy.special import jv
+
+    rng = np.random.default_rng(5)
+    z = np.r_[rng.uniform(0, 400, 4000) + 1j * rng.uniform(0, 2, 4000), 1j * rng.uniform(0, 2, 50),
+              np.linspace(15.5, 16.5, 201) + 1.5j, [0.0, 1e-8 + 1e-9j]]
+    j0, j1 = g.bessel_j01(z)
+    for mine, ref in ((j0, jv(0, z)), (j1, jv(1, z))):
+        assert np.max(np.abs(mine - ref) / np.maximum(np.abs(ref), 1e-2)) < 1e-8
+    assert j0[-2] == 1.0 and j1[-2] == 0.0
