@@ -109,14 +109,26 @@ def cpu_wall(fn):
 
 
 def ideal_fill(st, k):
-    """Floor: e^{-jkR}/R between all N^2 pairs of segment midpoints, vectorised in the solver's chunks."""
+    """Floor: e^{-jkR}/R between all N^2 pairs of segment midpoints, vectorised in chunks of 250,000 entries.
+
+    Written as tightly as numpy allows (squared differences per component, one square root, one complex
+    exponential and one division per entry, into the preallocated matrix): about 1.6-2x faster than
+    the earlier ``np.linalg.norm`` version, so the ratios against it are not flattered by a slow floor.
+    """
     mid = 0.5 * (st.start_m + st.end_m)
     n = len(mid)
     out = np.empty((n, n), dtype=complex)
     step = max(1, 250_000 // n)
     for i in range(0, n, step):
-        r = np.linalg.norm(mid[i:i + step, None, :] - mid[None, :, :], axis=-1) + 1e-3
-        out[i:i + step] = np.exp(-1j * k * r) / r
+        a = mid[i:i + step]
+        r = (a[:, None, 0] - mid[None, :, 0]) ** 2
+        r += (a[:, None, 1] - mid[None, :, 1]) ** 2
+        r += (a[:, None, 2] - mid[None, :, 2]) ** 2
+        np.sqrt(r, out=r)
+        r += 1e-3
+        g = np.exp(r * (-1j * k))
+        g /= r
+        out[i:i + step] = g
     return out
 
 
@@ -179,10 +191,13 @@ def scaling(sizes, make, name):
         t_all, sol = median_cpu(lambda: solve(s, F_HZ), rep)
         t_pow, _ = median_cpu(lambda: _radiated_power(sol.structure, sol.k, sol.segment_current_a), rep)
         ratio = t_all / (t_lu + t_ideal)
-        ok = ratio <= TARGET_RATIO and (sol.num_unknowns != 1600 or t_all < TARGET_1600_S) and t_pow <= t_fill
+        missed = [what for what, bad in (("ratio", ratio > TARGET_RATIO), ("power > fill", t_pow > t_fill),
+                                         (f"over {TARGET_1600_S:g} s", sol.num_unknowns == 1600 and t_all >= TARGET_1600_S))
+                  if bad]
         rows.append((sol.num_unknowns, t_fill, t_all, t_lu))
         print(f"{sol.num_unknowns:6d} {t_fill:8.3f} {t_ideal:11.3f} {t_lu:8.3f} {t_all:9.3f} {t_pow:10.3f} "
-              f"{t_fill / t_ideal:10.1f} {t_pow / t_fill:10.2f} {ratio:16.2f}  {'met' if ok else 'MISSED'}")
+              f"{t_fill / t_ideal:10.1f} {t_pow / t_fill:10.2f} {ratio:16.2f}  "
+              f"{'MISSED (' + ', '.join(missed) + ')' if missed else 'met'}")
         del sol
     for (n0, f0, a0, l0), (n1, f1, a1, l1) in zip(rows, rows[1:]):
         e = [math.log(v1 / v0) / math.log(n1 / n0) for v0, v1 in ((f0, f1), (a0, a1), (l0, l1))]

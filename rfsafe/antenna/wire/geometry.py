@@ -277,17 +277,15 @@ def _segment_wire(w, path, feeds_here, wavelength_m):
         counts = [max(1, math.ceil(x / max_seg - 1e-9)) for x in sub]
     _check_segment_budget(sum(counts), path, w)
 
-    def at(arc):
-        j = min(int(np.searchsorted(cum, arc, side="right")) - 1, len(piece) - 1)
-        t = (arc - cum[j]) / piece[j]
-        return pts[j] + t * (pts[j + 1] - pts[j])
-
     arcs = [0.0]
     for i, n in enumerate(counts):
         arcs.extend(merged[i] + sub[i] * (np.arange(1, n + 1) / n))
     arcs = np.asarray(arcs)
     arcs[-1] = total
-    nodes = np.array([at(a) for a in arcs])
+    # the point at each arc length along the polyline (all nodes at once)
+    j = np.minimum(np.searchsorted(cum, arcs, side="right") - 1, len(piece) - 1)
+    t = (arcs - cum[j]) / piece[j]
+    nodes = pts[j] + t[:, None] * (pts[j + 1] - pts[j])
     for j, c in enumerate(cum):  # vertices exactly as given
         nodes[int(np.argmin(np.abs(arcs - c)))] = pts[j]
     feed_nodes = [int(np.argmin(np.abs(arcs - pos * total))) for pos in feeds_here]
@@ -343,11 +341,12 @@ def build_structure(spec, freq_hz: float, feed_wires: tuple[int, ...], *, prefix
     # Global node ids: interior nodes unique, wire ends clustered into junctions.
     ends = [(i, e, wire_nodes[i][0 if e == 0 else -1]) for i in range(len(wire_nodes)) for e in (0, 1)]
     cluster = list(range(len(ends)))
+    end_pts = np.array([e[2] for e in ends])
+    near_end = np.sqrt(np.sum((end_pts[:, None, :] - end_pts[None, :, :]) ** 2, axis=-1)) <= JOIN_TOLERANCE_M
     for a in range(len(ends)):
-        for b in range(a):
-            if np.linalg.norm(ends[a][2] - ends[b][2]) <= JOIN_TOLERANCE_M:
-                cluster[a] = cluster[b]
-                break
+        b = np.flatnonzero(near_end[a, :a])
+        if len(b):                           # the first earlier end within the tolerance
+            cluster[a] = cluster[int(b[0])]
     next_id = max(cluster) + 1
     node_ids = []
     for i, nodes in enumerate(wire_nodes):

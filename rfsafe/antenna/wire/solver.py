@@ -142,9 +142,10 @@ def _node_sums(x, wf, nodes, a2, k):
     return np.matmul(wf, g)
 
 
-def _source_side(ts: _TestSide, k: float, src, need):
-    """Per source set: its nodes, the pair classes (near, non-parallel) and the PWS constants."""
-    s0, s1, _srad, sign, dist = src
+def _source_side(ts: _TestSide, k: float, src, need, truns=None):
+    """Per source set: its nodes, the pair classes (near, non-parallel), the PWS constants and (with
+    the test side's runs ``truns``, see :func:`_segment_runs`) the kernel sums of translated pairs."""
+    s0, s1, srad, sign, dist = src
     sd = s1 - s0
     sl = np.linalg.norm(sd, axis=1)
     sdir = sd / sl[:, None]
@@ -162,13 +163,133 @@ def _source_side(ts: _TestSide, k: float, src, need):
     wide &= other
     other &= ~wide
     ksl = k * sl
+    toe = _translate_sums(ts, k, truns, _segment_runs(s0, s1, srad), s0) if truns is not None and _TRANSLATES else None
     return dict(s0=s0, sl=sl, sdir=sdir, sign=sign, nodes=nodes, n1=inv[:nq], n2=inv[nq:], tid=ids[:ns], sid=ids[ns:],
                 near=np.nonzero(near), other=np.nonzero(other), wide=np.nonzero(wide), cos=np.cos(ksl),
-                amp=1j * ETA0_OHM / (4.0 * np.pi * np.sin(ksl)))
+                amp=1j * ETA0_OHM / (4.0 * np.pi * np.sin(ksl)), toe=toe)
 
 
-def _rows_into(blk, ts: _TestSide, k: float, src: dict, r0: int, r1: int, c0: int, c1: int) -> None:
-    """Add one source set's blocks for test rows r0:r1 and source columns c0:c1 to ``blk[p, e', q, e]``.
+#: Straight runs of at least ``_TRANSLATE_MIN`` equal segments share kernel values between translated
+#: pairs (:func:`_translate_sums`, :func:`_power_table`); False takes every pair on its own (the
+#: reference path, tests/test_wire_solver_translates.py).
+_TRANSLATES = True
+_TRANSLATE_MIN = 4
+#: Translated geometry is used only where it moves no point by more than this many step lengths, or
+#: (long wires) by more than the rounding of the coordinates (64 units in the last place of the largest).
+_TRANSLATE_TOL = 1e-13
+
+
+def _segment_runs(s0: np.ndarray, s1: np.ndarray, radius: np.ndarray) -> dict:
+    """Straight runs of equal segments (connected, collinear, one length and radius; see :func:`_uniform_runs`).
+
+    A run is kept if it has at least ``_TRANSLATE_MIN`` segments and its nodes lie on the progression
+    P + j delta (delta the mean step) to ``tol``: ``_TRANSLATE_TOL`` |delta| or the rounding of the
+    coordinates, whichever is larger. Returns the run of each segment (``run``, -1 outside runs) and
+    its place in the run (``pos``), and per run its first segment, number of segments, step vector,
+    radius and ``tol`` [m].
+    """
+    ns = len(s0)
+    ulp = 64 * np.finfo(float).eps * float(max(np.abs(s0).max(), np.abs(s1).max())) if ns else 0.0
+    run = np.full(ns, -1, dtype=np.intp)
+    pos = np.zeros(ns, dtype=np.intp)
+    first, size, step, tol = [], [], [], []
+    for a, b in _uniform_runs(s0, s1):
+        cuts = [a] + [i for i in range(a + 1, b) if radius[i] != radius[i - 1]] + [b]
+        for u, v in zip(cuts, cuts[1:]):
+            if v - u < _TRANSLATE_MIN:
+                continue
+            delta = (s1[v - 1] - s0[u]) / (v - u)
+            nodes = np.concatenate([s0[u:v], s1[v - 1:v]])
+            dev = np.abs(nodes - (s0[u] + np.arange(v - u + 1)[:, None] * delta)).max()
+            t = max(_TRANSLATE_TOL * float(np.linalg.norm(delta)), ulp)
+            if dev <= t:
+                tol.append(t)
+                run[u:v] = len(first)
+                pos[u:v] = np.arange(v - u)
+                first.append(u)
+                size.append(v - u)
+                step.append(delta)
+    first = np.array(first, dtype=np.intp)
+    return dict(run=run, pos=pos, first=first, size=np.array(size, dtype=np.intp),
+                step=np.array(step).reshape(-1, 3), radius=radius[first], tol=np.array(tol))
+
+
+def _translated_pairs(ta: dict, sb: dict, rel: np.ndarray):
+    """Run pairs (A of ``ta``, B of ``sb``) whose geometry is a translate, and which of them are alike.
+
+    A and B are translates if their steps agree so closely that no node of either moves by more than
+    their ``tol`` when B is laid along A's step (|delta_A - delta_B| (m_A + m_B) at most that): then
+    segment i of A against segment j of B depends on i - j only. ``rel(ia, ib)`` gives the vector
+    from B's first node to A's. Pairs with the same test radius and run lengths, and steps and
+    vectors equal to the smallest ``tol``, are alike (the same values: an array of equal elements on a
+    regular grid has few distinct pairs). Returns (ia, ib, rep, inv): the pairs,
+    the index of each distinct pair's first member and each pair's distinct pair.
+    """
+    da, db = ta["step"], sb["step"]
+    if not len(da) or not len(db):
+        return None
+    reach = ta["size"][:, None] + sb["size"][None, :]
+    ok = (np.abs(da[:, None, :] - db[None, :, :]).max(axis=-1) * reach
+          <= np.maximum(ta["tol"][:, None], sb["tol"][None, :]))
+    ia, ib = np.nonzero(ok)
+    if not len(ia):
+        return None
+    quantum = float(min(ta["tol"].min(), sb["tol"].min()))
+    key = np.column_stack([np.round(rel(ia, ib) / quantum), np.round(da[ia] * (reach.max() / quantum)),
+                           ta["size"][ia], sb["size"][ib], ta["radius"][ia]])
+    _u, rep, inv = np.unique(key, axis=0, return_index=True, return_inverse=True)
+    return ia, ib, rep, inv.reshape(-1)
+
+
+def _translate_sums(ts: _TestSide, k: float, ta: dict, sb: dict, s0: np.ndarray):
+    """The node sums of :func:`_parallel_blocks` for test runs against translated source runs.
+
+    For test segment i of run A and node j of a source run B with the same step vector delta, the
+    test points less the node are (P_A - N_B) + (i - j) delta + s t_A: the weighted kernel sums
+    H_e(i, j) = sum_q w_q f_e(s_q) e^{-jkR}/R depend on i - j only (the same radius, length and weights
+    along A). They are computed once per offset, m_A + m_B values per distinct run pair (see
+    :func:`_translated_pairs`) instead of m_A (m_B + 1), with the rules of the direct path (``N_WIDE``
+    points, ``N_FAR`` for nodes closer than ``WIDE_SEGMENTS`` + 1/2 test-segment lengths to the test
+    midpoint), and looked up per pair; the values agree with the direct ones to rounding
+    (tests/test_wire_solver_translates.py).
+    """
+    pairs = _translated_pairs(ta, sb, lambda i, j: ts.t0[ta["first"][i]] - s0[sb["first"][j]])
+    if pairs is None:
+        return None
+    ia, ib, rep, inv = pairs
+    ma, mb = ta["size"][ia[rep]], sb["size"][ib[rep]]
+    cnt = ma + mb
+    start = np.concatenate([[0], np.cumsum(cnt)[:-1]])
+    base = np.full((len(ta["size"]) + 1, len(sb["size"]) + 1), -1, dtype=np.intp)   # last row/column: no run
+    base[ia, ib] = start[inv]
+    hv = np.empty((int(cnt.sum()), 2), dtype=complex)
+    ra = ia[rep]
+    for a in np.unique(ra):                    # one test run at a time: one representative test segment
+        sel = np.flatnonzero(ra == a)
+        pa = ta["first"][a]
+        rows = np.concatenate([np.arange(start[i], start[i] + cnt[i]) for i in sel])
+        off = np.concatenate([np.arange(-mb[i], ma[i]) for i in sel])          # i - j, from -m_B to m_A - 1
+        rel = np.repeat(ts.t0[pa] - s0[sb["first"][ib[rep[sel]]]], cnt[sel], axis=0) + off[:, None] * ta["step"][a]
+        mid = rel + (ts.mid[pa] - ts.t0[pa])
+        close = np.einsum("vi,vi->v", mid, mid) < ((WIDE_SEGMENTS + 0.5) * ts.tl[pa]) ** 2
+        for part, x, wf in ((~close, ts.xw[pa], ts.wfw[pa]), (close, ts.x[pa], ts.wf[pa])):
+            v = np.flatnonzero(part)
+            step = max(1, _CHUNK // len(x))
+            for i in range(0, len(v), step):
+                xv = rel[v[i:i + step], None, :] + (x - ts.t0[pa])
+                r = np.sqrt(np.einsum("vqi,vqi->vq", xv, xv) + ts.a2[pa])
+                g = np.exp(-1j * k * r)
+                g /= r
+                hv[rows[v[i:i + step]]] = g @ wf.T
+    trun = np.where(ta["run"] >= 0, ta["run"], len(ta["size"]))
+    srun = np.where(sb["run"] >= 0, sb["run"], len(sb["size"]))
+    slen = np.concatenate([sb["size"], [0]])
+    return dict(hv=hv, base=base, trun=trun, tpos=ta["pos"], srun=srun, spos=sb["pos"] - slen[srun])
+
+
+def _rows_into(blk, ts: _TestSide, k: float, src: dict, r0: int, r1: int, c0: int, c1: int, fresh: bool = False) -> None:
+    """Add one source set's blocks for test rows r0:r1 and source columns c0:c1 to ``blk[p, e', q, e]``
+    (``fresh``: that part of ``blk`` holds zeros, and is written in place).
 
     Three paths, each the same Galerkin quadrature on the test segment:
 
@@ -186,26 +307,40 @@ def _rows_into(blk, ts: _TestSide, k: float, src: dict, r0: int, r1: int, c0: in
     """
     # Only columns parallel to some test row of the block take the node path.
     cols = c0 + np.flatnonzero(np.isin(src["sid"][c0:c1], src["tid"][r0:r1]))
-    part = np.zeros((r1 - r0, 2, c1 - c0, 2), dtype=complex)
+    # the first source set writes into the (zero) block itself, the others are added
+    part = blk[:, :, c0:c1, :] if fresh else np.zeros((r1 - r0, 2, c1 - c0, 2), dtype=complex)
     if len(cols):
         part[:, :, cols - c0, :] = _parallel_blocks(ts, k, src, r0, r1, cols)
     ip, iq = src["wide"]
     lo, hi = np.searchsorted(ip, [r0, r1])
     if hi > lo:
-        wcols, pos = np.unique(iq[lo:hi], return_inverse=True)
-        part[ip[lo:hi] - r0, :, iq[lo:hi] - c0, :] = _general_blocks(ts, k, src, r0, r1, wcols)[
-            ip[lo:hi] - r0, :, pos.reshape(-1), :]
+        # rows of one direction at a time: they see the same non-parallel columns (the others' are not computed)
+        ip, iq = ip[lo:hi], iq[lo:hi]
+        tid = src["tid"][ip]
+        for t in np.unique(tid):
+            sel = tid == t
+            gi, gq = ip[sel], iq[sel]
+            rows, rpos = np.unique(gi, return_inverse=True)
+            wcols, pos = np.unique(gq, return_inverse=True)
+            if len(gi) == len(rows) * len(wcols) and rows[-1] - rows[0] == len(rows) - 1:   # a full rectangle
+                part[rows[0] - r0:rows[-1] + 1 - r0, :, wcols - c0, :] = _general_blocks(
+                    ts, k, src, int(rows[0]), int(rows[-1]) + 1, wcols)
+            else:
+                gen = _general_blocks(ts, k, src, rows, None, wcols)
+                part[gi - r0, :, gq - c0, :] = gen[rpos.reshape(-1), :, pos.reshape(-1), :]
     for rule in ("other", "near"):
         ip, iq = src[rule]
         lo, hi = np.searchsorted(ip, [r0, r1])
         if hi > lo:
             part[ip[lo:hi] - r0, :, iq[lo:hi] - c0, :] = src["sign"] * _pair_list(
                 ts, k, ip[lo:hi], iq[lo:hi], rule, src)
-    blk[:, :, c0:c1, :] += part
+    if not fresh:
+        blk[:, :, c0:c1, :] += part
 
 
-def _general_blocks(ts: _TestSide, k: float, src: dict, r0: int, r1: int, cols: np.ndarray) -> np.ndarray:
-    """Blocks (rows, 2, cols, 2) of test rows r0:r1 and source columns ``cols``, wide rule, full field.
+def _general_blocks(ts: _TestSide, k: float, src: dict, r0, r1, cols: np.ndarray) -> np.ndarray:
+    """Blocks (rows, 2, cols, 2) of test rows r0:r1 (or the rows ``r0`` with ``r1`` None) and source
+    columns ``cols``, wide rule, full field.
 
     The closed-form field of ``kernel.segment_e_terms`` with A = j eta / (4 pi sin kd), c = cos kd,
     g_i = E_i / R_i and tau = (rho_vec . t) / rho^2 (reduced kernel):
@@ -213,31 +348,39 @@ def _general_blocks(ts: _TestSide, k: float, src: dict, r0: int, r1: int, cols: 
     mirror image for shape 2. E_i and R_i depend only on the test point and the source node, so
     they are computed once per node (shared by two segments).
     """
+    rows = slice(r0, r1) if r1 is not None else r0
     n1, n2, nodes = src["n1"][cols], src["n2"][cols], src["nodes"]
     used, loc = np.unique(np.concatenate([n1, n2]), return_inverse=True)
     loc = loc.reshape(-1)
     nc = len(cols)
-    x = ts.xw[r0:r1]                                                    # (c, Q, 3)
+    x = ts.xw[rows]                                                    # (c, Q, 3)
     nu = nodes[used]
-    r = np.sqrt(sum((x[..., j, None] - nu[:, j]) ** 2 for j in range(3)) + ts.a2[r0:r1, None, None])
+    r = np.sqrt(sum((x[..., j, None] - nu[:, j]) ** 2 for j in range(3)) + ts.a2[rows, None, None])
     e = np.exp(-1j * k * r)
     g = e / r
     e1, e2 = e[:, :, loc[:nc]], e[:, :, loc[nc:]]
     g1, g2 = g[:, :, loc[:nc]], g[:, :, loc[nc:]]
     s0, sdir, d = src["s0"][cols], src["sdir"][cols], src["sl"][cols]
-    t = ts.tdir[r0:r1]
+    t = ts.tdir[rows]
     v = [x[..., j, None] - s0[:, j] for j in range(3)]                  # (c, Q, nc) each
     z = v[0] * sdir[:, 0] + v[1] * sdir[:, 1] + v[2] * sdir[:, 2]
     rv = [v[j] - z * sdir[:, j] for j in range(3)]
-    rho2 = rv[0] * rv[0] + rv[1] * rv[1] + rv[2] * rv[2] + ts.a2[r0:r1, None, None]
+    rho2 = rv[0] * rv[0] + rv[1] * rv[1] + rv[2] * rv[2] + ts.a2[rows, None, None]
     tau = (rv[0] * t[:, 0, None, None] + rv[1] * t[:, 1, None, None] + rv[2] * t[:, 2, None, None]) / rho2
     cos_ps = (t @ sdir.T)[:, None, :]
     c, sn = src["cos"][cols], np.sin(k * d)
-    d2 = d - z
-    t1 = (c * g1 - g2) * cos_ps + tau * (-c * g1 * z - g2 * d2 - 1j * sn * e1)
-    t2 = (c * g2 - g1) * cos_ps + tau * (c * g2 * d2 + g1 * z + 1j * sn * e2)
-    wf = ts.wfw[r0:r1]                                                  # (c, 2, Q)
-    out = np.empty((r1 - r0, 2, nc, 2), dtype=complex)
+    # grouped by kernel value (real factors first): alpha = t.s - tau z, beta = t.s + tau (d - z)
+    alpha = cos_ps - tau * z
+    beta = cos_ps + tau * (d - z)
+    jg = 1j * (sn * tau)
+    t1 = g1 * (c * alpha)
+    t1 -= g2 * beta
+    t1 -= e1 * jg
+    t2 = g2 * (c * beta)
+    t2 -= g1 * alpha
+    t2 += e2 * jg
+    wf = ts.wfw[rows]                                                  # (c, 2, Q)
+    out = np.empty((len(x), 2, nc, 2), dtype=complex)
     scale = -src["sign"] * src["amp"][cols]
     out[..., 0] = np.matmul(wf, t1) * scale
     out[..., 1] = np.matmul(wf, t2) * scale
@@ -245,7 +388,42 @@ def _general_blocks(ts: _TestSide, k: float, src: dict, r0: int, r1: int, cols: 
 
 
 def _parallel_blocks(ts: _TestSide, k: float, src: dict, r0: int, r1: int, cols: np.ndarray) -> np.ndarray:
-    """Blocks (rows, 2, cols, 2) of test rows r0:r1 and source columns ``cols`` by the node path."""
+    """Blocks (rows, 2, cols, 2) of test rows r0:r1 and source columns ``cols`` by the node path.
+
+    Pairs of translated runs take their node sums from the table of :func:`_translate_sums`; the other
+    pairs are summed here, by rows of one run (their pairs are translated for the same columns)."""
+    nc = len(cols)
+    toe = src["toe"]
+    ha = np.empty((r1 - r0, 2, nc), dtype=complex)
+    hb = np.empty((r1 - r0, 2, nc), dtype=complex)
+    if toe is None:
+        ha[...], hb[...] = _node_sums_direct(ts, k, src, r0, r1, cols)
+    else:
+        trun = toe["trun"][r0:r1]
+        base = toe["base"][trun[:, None], toe["srun"][cols][None, :]]
+        ok = base >= 0
+        if ok.any():
+            ia = np.where(ok, base + toe["tpos"][r0:r1, None] - toe["spos"][cols][None, :], 1)
+            ha[...] = np.moveaxis(toe["hv"][ia], -1, 1)
+            ia -= 1
+            hb[...] = np.moveaxis(toe["hv"][ia], -1, 1)
+        cut = np.concatenate([[0], np.flatnonzero(trun[1:] != trun[:-1]) + 1, [r1 - r0]])
+        for a, b in zip(cut[:-1], cut[1:]):
+            direct = np.flatnonzero(~ok[a])
+            if len(direct):
+                da, db = _node_sums_direct(ts, k, src, r0 + a, r0 + b, cols[direct])
+                ha[a:b, :, direct] = da
+                hb[a:b, :, direct] = db
+    coef = (ts.tdir[r0:r1] @ src["sdir"][cols].T)[:, None, :] * (-src["sign"] * src["amp"][cols])
+    cc = src["cos"][cols]
+    part = np.empty((r1 - r0, 2, nc, 2), dtype=complex)
+    part[..., 0] = coef * (cc * ha - hb)
+    part[..., 1] = coef * (cc * hb - ha)
+    return part
+
+
+def _node_sums_direct(ts: _TestSide, k: float, src: dict, r0: int, r1: int, cols: np.ndarray):
+    """Node sums (rows, 2, cols) at the start and end nodes of source columns ``cols``, test rows r0:r1."""
     n1, n2, nodes = src["n1"][cols], src["n2"][cols], src["nodes"]
     used, loc = np.unique(np.concatenate([n1, n2]), return_inverse=True)
     loc = loc.reshape(-1)
@@ -262,13 +440,7 @@ def _parallel_blocks(ts: _TestSide, k: float, src: dict, r0: int, r1: int, cols:
     g /= r
     h[ip, :, iu] = np.einsum("nei,ni->ne", ts.wf[r0 + ip], g)
     nc = len(cols)
-    ha, hb = h[:, :, loc[:nc]], h[:, :, loc[nc:]]                     # at the source start / end nodes
-    coef = (ts.tdir[r0:r1] @ src["sdir"][cols].T)[:, None, :] * (-src["sign"] * src["amp"][cols])
-    cc = src["cos"][cols]
-    part = np.empty((r1 - r0, 2, nc, 2), dtype=complex)
-    part[..., 0] = coef * (cc * ha - hb)
-    part[..., 1] = coef * (cc * hb - ha)
-    return part
+    return h[:, :, loc[:nc]], h[:, :, loc[nc:]]                       # at the source start / end nodes
 
 
 def _pair_list(ts: _TestSide, k, ip, iq, rule, src):
@@ -362,7 +534,8 @@ def impedance_matrix(st: Structure) -> np.ndarray:
     # Over real soil the images carry -K (a constant): the same symmetry as over a perfect ground.
     need, sym = _needed_pairs(st)
     ts = _test_side(st, k)
-    srcs = [_source_side(ts, k, src, need) for src in st.sources()]
+    truns = _segment_runs(st.start_m, st.end_m, st.radius_m)
+    srcs = [_source_side(ts, k, src, need, truns) for src in st.sources()]
     gmap = _gather_map(st.half_to_basis)
     z = np.zeros((st.num_unknowns, st.num_unknowns), dtype=complex)   # p.T @ S @ p, a few test rows at a time
     if st.soil_eps_c is not None:   # real ground: the Sommerfeld remainder first (symmetric; the images carry -K)
@@ -374,8 +547,8 @@ def impedance_matrix(st: Structure) -> np.ndarray:
         c0, c1 = (int(cols[0]), int(cols[-1]) + 1) if len(cols) else (0, 0)
         blk = np.zeros((r1 - r0, 2, ns, 2), dtype=complex)
         if c1 > c0:
-            for src in srcs:
-                _rows_into(blk, ts, k, src, r0, r1, c0, c1)
+            for n, src in enumerate(srcs):
+                _rows_into(blk, ts, k, src, r0, r1, c0, c1, fresh=n == 0)
         _add_rows(z, _project_columns(blk.reshape(2 * (r1 - r0), 2 * ns), gmap), 2 * r0, gmap)
     low = np.tril(sym, -1)
     z[low] = z.T[low]   # the remainder, symmetric, is the same both ways
@@ -527,7 +700,8 @@ def _radiated_power(st: Structure, k: float, seg_i: np.ndarray) -> float:
     chg = k * (-i1 * np.cos(k * (dd - s)) + i2 * np.cos(k * s)) / sk * w        # (Ns, q) [A]
     total = 0.0
     tpts = None
-    for s0, s1, _r, sign, _dist in st.sources():
+    truns = _segment_runs(t0, t1, st.radius_m) if _TRANSLATES else None
+    for s0, s1, srad, sign, _dist in st.sources():
         sdir = (s1 - s0) / d[:, None]
         pts = (s0[:, None, :] + s[..., None] * sdir[:, None, :]).reshape(-1, 3)
         if tpts is None:
@@ -544,19 +718,84 @@ def _radiated_power(st: Structure, k: float, seg_i: np.ndarray) -> float:
         ta = np.column_stack([tpts, np.einsum("ai,ai->a", tpts, tpts), np.ones(len(tpts))])
         sb = np.column_stack([-2.0 * pts, np.ones(len(pts)), np.einsum("bi,bi->b", pts, pts)])
         m = len(pts)
-        step = max(1, 2_000_000 // m)
-        for i in range(0, m, step):
-            a = tpts[i:i + step]
-            r = ta[i:i + step] @ sb[i:].T
+        tab = _power_table(k, truns, _segment_runs(s0, s1, srad), tpts, pts, q) if truns is not None else None
+
+        def direct(i0, i1, cols):
+            r = ta[i0:i1] @ sb[cols].T
             np.maximum(r, 1e-300, out=r)
             np.sqrt(r, out=r)
             kern = np.multiply(r, k)
             np.sin(kern, out=kern)
-            kern /= r                                                                 # k at R = 0
+            kern /= r                                                             # k at R = 0
+            return kern
+
+        step = max(1, 2_000_000 // m)
+        for i in range(0, m, step):
+            a = tpts[i:i + step]
+            kern = direct(i, i + len(a), slice(i, None)) if tab is None else _power_kernel(tab, i, i + len(a), direct)
             v = np.sum(tx[i:i + step] * (kern @ sxr[i:]).view(complex), axis=0)
             w = np.sum(tx[i:i + step] * (kern[:, :len(a)] @ sxr[i:i + len(a)]).view(complex), axis=0)
             total += float(np.real(2.0 * np.sum(v) - np.sum(w)))
     return ETA0_OHM / (8.0 * math.pi) * total
+
+
+def _power_table(k: float, ta: dict, sb: dict, tpts: np.ndarray, pts: np.ndarray, q: int):
+    """sin(kR)/R between the points of translated run pairs, once per segment offset (see :func:`_radiated_power`).
+
+    Point u of segment i of test run A and point v of segment j of a source run B with the same step
+    vector delta are (P_A - P_B) + (i - j) delta + (s_u t_A - s_v t_B) apart: the kernel depends on
+    i - j, u and v only, so m_A + m_B - 1 blocks of q x q values per distinct run pair
+    (:func:`_translated_pairs`) replace m_A m_B of them. Returns None when no run pair is translated.
+    """
+    pairs = _translated_pairs(ta, sb, lambda i, j: tpts[ta["first"][i] * q] - pts[sb["first"][j] * q])
+    if pairs is None:
+        return None
+    ia, ib, rep, inv = pairs
+    ma, mb = ta["size"][ia[rep]], sb["size"][ib[rep]]
+    cnt = (ma + mb - 1) * q * q
+    start = np.concatenate([[0], np.cumsum(cnt)[:-1]])
+    base = np.full((len(ta["size"]) + 1, len(sb["size"]) + 1), -1, dtype=np.intp)
+    base[ia, ib] = start[inv]
+    kern = np.empty(int(cnt.sum()))
+    ra = ia[rep]
+    for a in np.unique(ra):                             # one test run at a time, all its source runs together
+        sel = np.flatnonzero(ra == a)
+        pa = ta["first"][a] * q
+        off = np.concatenate([np.arange(-(mb[i] - 1), ma[i]) for i in sel])   # offsets i - j
+        pb = np.repeat(sb["first"][ib[rep[sel]]] * q, ma[sel] + mb[sel] - 1)
+        x = (tpts[pa:pa + q][None, :, None, :] + (off[:, None] * ta["step"][a])[:, None, None, :]
+             - pts[pb[:, None] + np.arange(q)][:, None, :, :])
+        r = np.sqrt(np.einsum("ouvi,ouvi->ouv", x, x))
+        np.maximum(r, 1e-300, out=r)
+        kr = np.sin(k * r)
+        kr /= r
+        kern[np.concatenate([np.arange(start[i], start[i] + cnt[i]) for i in sel])] = kr.reshape(-1)
+    nrun_t, nrun_s = len(ta["size"]), len(sb["size"])
+    trun = np.repeat(np.where(ta["run"] >= 0, ta["run"], nrun_t), q)
+    srun = np.repeat(np.where(sb["run"] >= 0, sb["run"], nrun_s), q)
+    qq = np.tile(np.arange(q), len(ta["run"]))
+    rowterm = np.repeat(ta["pos"], q) * q * q + qq * q
+    slen = np.concatenate([sb["size"], [1]])
+    colterm = (slen[srun] - 1 - np.repeat(sb["pos"], q)) * q * q + qq
+    return dict(kern=kern, base=base, trun=trun, srun=srun, rowterm=rowterm, colterm=colterm)
+
+
+def _power_kernel(tab: dict, i0: int, i1: int, direct) -> np.ndarray:
+    """Kernel rows i0:i1 against points i0: of :func:`_radiated_power`: looked up for translated run pairs,
+    ``direct(i0, i1, columns)`` for the others (by rows of one run: they share their other columns)."""
+    trun = tab["trun"][i0:i1]
+    kern = np.empty((i1 - i0, len(tab["srun"]) - i0))
+    srun, colterm, rowterm = tab["srun"][i0:], tab["colterm"][i0:], tab["rowterm"][i0:i1]
+    cut = np.concatenate([[0], np.flatnonzero(trun[1:] != trun[:-1]) + 1, [i1 - i0]])
+    for a, b in zip(cut[:-1], cut[1:]):
+        base = tab["base"][trun[a], srun]
+        ok = base >= 0
+        if ok.any():
+            np.take(tab["kern"], rowterm[a:b, None] + np.where(ok, base + colterm, 0), out=kern[a:b])
+        cols = np.flatnonzero(~ok)
+        if len(cols):
+            kern[a:b, cols] = direct(i0 + a, i0 + b, i0 + cols)
+    return kern
 
 
 def _directions(theta, phi):
@@ -571,8 +810,10 @@ _NEAR_AXIS = 1e-3
 #: Straight runs of at least this many equal, connected, collinear segments take the factored
 #: evaluation of :func:`_run_vector`; the other segments are summed one by one.
 _RUN_MIN = 8
-#: ... and only for at least this many directions.
+#: ... for at least this many directions, or (fewer directions: the peak search) where run length
+#: times directions reaches ``_RUN_WORK`` (a run's fixed cost is then below the per-segment sum's).
 _RUN_DIRECTIONS = 512
+_RUN_WORK = 4096
 
 
 def _uniform_runs(s0: np.ndarray, s1: np.ndarray) -> list[tuple[int, int]]:
@@ -595,10 +836,18 @@ def _segment_sum(r, k, s0, s1, sdir, d, cur1, cur2):
     i1, i2 = cur1 / ks, cur2 / ks   # sin kd of the PWS shapes folded in
     alpha = k * (r @ sdir.T)
     p0 = np.exp(1j * k * (r @ s0.T))
-    p1 = np.exp(1j * k * (r @ s1.T))
+    # the end phase of a segment is the start phase of the next where they are joined (one exponential per node)
+    apart = np.ones(len(s0), dtype=bool)
+    apart[:-1] = np.any(s1[:-1] != s0[1:], axis=1)
+    p1 = np.empty_like(p0)
+    p1[:, :-1] = p0[:, 1:]
+    if apart.any():
+        p1[:, apart] = np.exp(1j * k * (r @ s1[apart].T))
     den = k * k - alpha * alpha
-    jas = 1j * alpha * ks
-    amp = (i1 * (k * p1 - p0 * (kc + jas)) + i2 * (p1 * (jas - kc) + k * p0))
+    # i1 (k p1 - p0 (kc + j a ks)) + i2 (p1 (j a ks - kc) + k p0), grouped by phase
+    c1, c0 = k * i1 - kc * i2, k * i2 - kc * i1
+    amp = p1 * (c1 + alpha * (1j * ks * i2))
+    amp += p0 * (c0 - alpha * (1j * ks * i1))
     near = np.abs(den) < _NEAR_AXIS * k * k
     with np.errstate(divide="ignore", invalid="ignore"):
         amp /= den
@@ -691,8 +940,9 @@ def _radiation_vector(st: Structure, k: float, seg_i: np.ndarray, rhat: np.ndarr
         d = np.linalg.norm(sd, axis=1)
         sdir = sd / d[:, None]
         cur1, cur2 = sign * seg_i[:, 0], sign * seg_i[:, 1]
-        # A few directions (peak search, gain toward places): one vectorised pass over all segments.
-        runs = [(a, b) for a, b in _uniform_runs(s0, s1) if b - a >= _RUN_MIN] if len(flat) >= _RUN_DIRECTIONS else []
+        # Few directions (peak search, gain toward places): one vectorised pass over the segments, long runs apart.
+        runs = [(a, b) for a, b in _uniform_runs(s0, s1)
+                if b - a >= _RUN_MIN and (len(flat) >= _RUN_DIRECTIONS or (b - a) * len(flat) >= _RUN_WORK)]
         single = np.ones(len(s0), dtype=bool)
         for a, b in runs:
             single[a:b] = False
