@@ -2,6 +2,8 @@
 
 import io
 import math
+import shutil
+import subprocess
 
 import pypdf
 import pytest
@@ -95,6 +97,36 @@ def test_a_table_of_long_words_stays_inside_the_frame(n_rows):
     data = c.build_pdf([t], title="T", author="", subject="", date_iso="2026-11-30", header_left="",
                        header_right="", footer_left="")
     assert pypdf.PdfReader(io.BytesIO(data)).pages
+
+
+@pytest.mark.skipif(shutil.which("pdftoppm") is None, reason="pdftoppm (poppler-utils) not installed")
+def test_plain_cells_print_as_the_paragraphs_they_replace(tmp_path):
+    """A short table sets the cells that fit on one line as plain strings: the page looks exactly as with a
+    paragraph in every cell (the layout it replaces), to the pixel at 100 dpi."""
+    from PIL import Image, ImageChops
+    from reportlab.platypus import Table
+
+    headers = ["configuration", "place", "ratio", "verdict", "note"]
+    align = "llrll"
+    rows = [["40m-ssb", "Garden bench under the dipole", "0.0389", c.Styled("COMPLIES", color=c.COMPLIES_COLOR,
+             bold=True), "the household's garden: family and visitors, not told about RF exposure"],
+            ["20m-cw-amp", "Path", "227", c.Styled(["EXCEEDS", "twice"], color=c.EXCEEDS_COLOR), "line one\nline two"],
+            ["", "–", "1.2e-05", "within rating", ""]] * 3
+    widths = [25 * c.mm, 40 * c.mm, 15 * c.mm, 25 * c.mm, c.frame_width() - 105 * c.mm]
+    new = c.data_table(headers, rows, widths, align=align)
+    head = [c._cell(h, "head_right" if a == "r" else "head") for h, a in zip(headers, align)]
+    body = [[c._cell(v, "cell_right" if a == "r" else "cell") for v, a in zip(row, align)] for row in rows]
+    old = Table([head] + body, colWidths=c.fit_widths(widths, headers, rows), repeatRows=1, hAlign="LEFT")
+    old.setStyle(c.table_style(n_rows=len(rows) + 1))
+    assert any(isinstance(v, str) for row in new._cellvalues for v in row)       # plain cells were used
+    pages = []
+    for name, table in (("new", new), ("old", old)):
+        pdf = tmp_path / f"{name}.pdf"
+        pdf.write_bytes(c.build_pdf([table], title="T", author="", subject="", date_iso="2026-11-30",
+                                    header_left="", header_right="", footer_left=""))
+        subprocess.run(["pdftoppm", "-r", "100", "-png", "-singlefile", str(pdf), str(tmp_path / name)], check=True)
+        pages.append(Image.open(tmp_path / f"{name}.png").convert("L"))
+    assert ImageChops.difference(*pages).getbbox() is None
 
 
 def test_data_table_rejects_a_short_row():

@@ -277,28 +277,77 @@ def data_table(headers, rows, col_widths, *, align: str | None = None, extra_sty
     n = len(headers)
     align = align or ("l" + "r" * (n - 1))
     bold_rows = set(bold_rows)
-    if len(rows) > LONG_TABLE_ROWS:
-        return _long_table(headers, rows, col_widths, align, extra_style, zebra, bold_rows)
-    st = styles()
-    head = [_cell(h, "head_right" if a == "r" else "head") for h, a in zip(headers, align)]
-    body = []
     for i, row in enumerate(rows):
         if len(row) != n:
             raise ValueError(f"table row {i} has {len(row)} cells, expected {n}")
-        cell_styles = ["cell_bold" if i in bold_rows else ("cell_right" if a == "r" else "cell")
-                       for a in align]
-        body.append([_cell(v, s) for v, s in zip(row, cell_styles)])
-    if bold_rows:
-        # a bold row keeps its alignment: right-aligned bold cells use a derived style
-        rb = ParagraphStyle("cell_bold_right", parent=st["cell_bold"], alignment=TA_RIGHT)
-        for i in bold_rows:
-            for j, a in enumerate(align):
-                if a == "r" and isinstance(rows[i][j], str):
-                    body[i][j] = Paragraph(escape(rows[i][j]), rb)
-    data = [head] + body
-    t = Table(data, colWidths=fit_widths(col_widths, headers, rows), repeatRows=1, hAlign="LEFT")
-    t.setStyle(table_style(n_rows=len(data), zebra=zebra, extra=extra_style))
+    if len(rows) > LONG_TABLE_ROWS:
+        return _long_table(headers, rows, col_widths, align, extra_style, zebra, bold_rows)
+    widths = fit_widths(col_widths, headers, rows)
+    head = [_cell(h, "head_right" if a == "r" else "head") for h, a in zip(headers, align)]
+    body, row_cmds = _body_cells(rows, widths, align, bold_rows, wrap=False)
+    cmds = list(table_style(n_rows=len(rows) + 1, zebra=zebra, extra=extra_style).getCommands())
+    cmds += _plain_cell_commands(align)
+    cmds += [(name, (c0, i + 1), (c1, i + 1), *args) for i, row in row_cmds.items() for name, c0, c1, *args in row]
+    t = Table([head] + body, colWidths=widths, repeatRows=1, hAlign="LEFT")
+    t.setStyle(TableStyle(cmds))
     return t
+
+
+def _plain_cell_commands(align) -> list:
+    """Table style commands that set plain-string body cells as the cell paragraphs are set."""
+    st = styles()["cell"]
+    cmds = [("FONTSIZE", (0, 1), (-1, -1), st.fontSize), ("LEADING", (0, 1), (-1, -1), st.leading),
+            ("TEXTCOLOR", (0, 1), (-1, -1), st.textColor)]
+    return cmds + [("ALIGN", (j, 1), (j, -1), "RIGHT") for j, a in enumerate(align) if a == "r"]
+
+
+def _body_cells(rows, widths, align, bold_rows, *, wrap: bool):
+    """Body cells of a data table and per-row style commands ``{row: [(name, col0, col1, *args)]}``.
+
+    A text that fits its column (each of its lines whole, or, with ``wrap``, broken at spaces) is a
+    plain string set by the table's style as its paragraph would be (a paragraph per cell costs about
+    100 times more); with ``wrap``, colours and bold of :class:`Styled` cells and bold rows become
+    style commands of those cells. Other texts are paragraphs, which wrap (and break a word wider than
+    the column).
+    """
+    body, row_cmds = [], {}
+    for i, row in enumerate(rows):
+        bold = i in bold_rows
+        out = []
+        for j, (v, a) in enumerate(zip(row, align)):
+            room = widths[j] - 5.0          # left and right padding of the table style
+            if isinstance(v, Styled) and not wrap:      # a short table's few coloured cells: as they were
+                out.append(v.paragraph())
+            elif isinstance(v, Styled):
+                font = FONT_BOLD if (v.bold or bold) else FONT
+                text = _plain_lines([str(t) for t in v.lines], font, room, wrap=wrap)
+                if text is not None:
+                    out.append(text)
+                    cmds = row_cmds.setdefault(i, [])
+                    if font != FONT:
+                        cmds.append(("FONTNAME", j, j, font))
+                    if v.color is not None:
+                        cmds.append(("TEXTCOLOR", j, j, v.color))
+                else:
+                    out.append(v.paragraph("cell_bold" if bold else ("cell_right" if a == "r" else "cell")))
+            elif v is None or isinstance(v, str):
+                text = "" if v is None else v
+                font = FONT_BOLD if bold else FONT
+                # (a paragraph sets a line break as a space: a short table keeps such a text a paragraph)
+                plain = _plain_lines(text.split("\n"), font, room, wrap=wrap) if wrap or "\n" not in text else None
+                if plain is not None:
+                    out.append(plain)
+                else:
+                    style = "cell_bold" if bold else ("cell_right" if a == "r" else "cell")
+                    out.append(Paragraph(escape(text), styles()[style]) if not (bold and a == "r") else
+                               Paragraph(escape(text), ParagraphStyle("cell_bold_right", parent=styles()["cell_bold"],
+                                                                      alignment=TA_RIGHT)))
+            else:
+                out.append(_cell(v, "cell"))
+        if bold:
+            row_cmds.setdefault(i, []).append(("FONTNAME", 0, -1, FONT_BOLD))
+        body.append(out)
+    return body, row_cmds
 
 
 #: Tables with more body rows than this are laid out page by page (:class:`_PagedTable`), with plain-string
@@ -313,14 +362,17 @@ def _line_width(text: str, font: str) -> float:
     return stringWidth(text, font, styles()["cell"].fontSize)
 
 
-def _plain_lines(lines, font: str, room: float) -> str | None:
-    """``lines`` broken at spaces to fit ``room`` [pt] as one plain string, or None when a word is wider."""
+def _plain_lines(lines, font: str, room: float, *, wrap: bool = True) -> str | None:
+    """``lines`` broken at spaces to fit ``room`` [pt] as one plain string, or None when a word is wider
+    (without ``wrap``: None when a line does not fit whole)."""
     out = []
     space = _line_width(" ", font)
     for line in lines:
         if _line_width(line, font) <= room:
             out.append(line)
             continue
+        if not wrap:
+            return None
         current, used = [], 0.0
         for word in line.split(" "):
             w = _line_width(word, font)
@@ -342,49 +394,10 @@ def _long_table(headers, rows, col_widths, align, extra_style, zebra, bold_rows)
     font, size and alignment by the table style; colours and bold of :class:`Styled`
     cells and bold rows become style commands of those cells. Other texts wrap as paragraphs.
     """
-    n = len(headers)
     widths = fit_widths(col_widths, headers, rows)
-    size, leading = styles()["cell"].fontSize, styles()["cell"].leading
     head = [_cell(h, "head_right" if a == "r" else "head") for h, a in zip(headers, align)]
-    body, row_cmds = [], {}
-    for i, row in enumerate(rows):
-        if len(row) != n:
-            raise ValueError(f"table row {i} has {len(row)} cells, expected {n}")
-        bold = i in bold_rows
-        out = []
-        for j, (v, a) in enumerate(zip(row, align)):
-            room = widths[j] - 5.0          # left and right padding of the table style
-            if isinstance(v, Styled):
-                font = FONT_BOLD if (v.bold or bold) else FONT
-                text = _plain_lines([str(t) for t in v.lines], font, room)
-                if text is not None:
-                    out.append(text)
-                    cmds = row_cmds.setdefault(i, [])
-                    if font != FONT:
-                        cmds.append(("FONTNAME", j, j, font))
-                    if v.color is not None:
-                        cmds.append(("TEXTCOLOR", j, j, v.color))
-                else:
-                    out.append(v.paragraph("cell_bold" if bold else ("cell_right" if a == "r" else "cell")))
-            elif v is None or isinstance(v, str):
-                text = "" if v is None else v
-                font = FONT_BOLD if bold else FONT
-                plain = _plain_lines(text.split("\n"), font, room)
-                if plain is not None:
-                    out.append(plain)
-                else:
-                    style = "cell_bold" if bold else ("cell_right" if a == "r" else "cell")
-                    out.append(Paragraph(escape(text), styles()[style]) if not (bold and a == "r") else
-                               Paragraph(escape(text), ParagraphStyle("cell_bold_right", parent=styles()["cell_bold"],
-                                                                      alignment=TA_RIGHT)))
-            else:
-                out.append(_cell(v, "cell"))
-        if bold:
-            row_cmds.setdefault(i, []).append(("FONTNAME", 0, -1, FONT_BOLD))
-        body.append(out)
-    base = list(table_style(n_rows=1, zebra=False).getCommands())
-    base += [("FONTSIZE", (0, 1), (-1, -1), size), ("LEADING", (0, 1), (-1, -1), leading)]
-    base += [("ALIGN", (j, 1), (j, -1), "RIGHT") for j, a in enumerate(align) if a == "r"]
+    body, row_cmds = _body_cells(rows, widths, align, bold_rows, wrap=True)
+    base = list(table_style(n_rows=1, zebra=False).getCommands()) + _plain_cell_commands(align)
     for cmd in extra_style:      # a command on one body row follows that row into whichever page it lands on
         name, (c0, r0), (c1, r1), *args = cmd
         if r0 == r1 and r0 >= 1:
