@@ -164,9 +164,22 @@ def _source_side(ts: _TestSide, k: float, src, need, truns=None):
     other &= ~wide
     ksl = k * sl
     toe = _translate_sums(ts, k, truns, _segment_runs(s0, s1, srad), s0) if truns is not None and _TRANSLATES else None
-    return dict(s0=s0, sl=sl, sdir=sdir, sign=sign, nodes=nodes, n1=inv[:nq], n2=inv[nq:], tid=ids[:ns], sid=ids[ns:],
-                near=np.nonzero(near), other=np.nonzero(other), wide=np.nonzero(wide), cos=np.cos(ksl),
-                amp=1j * ETA0_OHM / (4.0 * np.pi * np.sin(ksl)), toe=toe)
+    out = dict(s0=s0, sl=sl, sdir=sdir, sign=sign, nodes=nodes, n1=inv[:nq], n2=inv[nq:], tid=ids[:ns], sid=ids[ns:],
+               near=np.nonzero(near), other=np.nonzero(other), wide=np.nonzero(wide), cos=np.cos(ksl),
+               amp=1j * ETA0_OHM / (4.0 * np.pi * np.sin(ksl)), toe=toe)
+    if toe is not None:
+        # the 2x2 block of each offset (test segment i, source segment j: sums at i - j and i - j - 1), with the
+        # PWS constants of the pair's representative source segment (equal along a run to rounding)
+        p, q = toe["rep_test"], toe["rep_src"]
+        h = toe["hv"]
+        coef = np.einsum("vi,vi->v", ts.tdir[p], sdir[q]) * (-sign * out["amp"][q])
+        cc = out["cos"][q]
+        hm = np.roll(h, 1, axis=0)
+        blk = np.empty((len(h), 2, 2), dtype=complex)
+        blk[:, :, 0] = coef[:, None] * (cc[:, None] * h - hm)
+        blk[:, :, 1] = coef[:, None] * (cc[:, None] * hm - h)
+        toe["blocks"] = blk
+    return out
 
 
 #: Straight runs of at least ``_TRANSLATE_MIN`` equal segments share kernel values between translated
@@ -284,7 +297,9 @@ def _translate_sums(ts: _TestSide, k: float, ta: dict, sb: dict, s0: np.ndarray)
     trun = np.where(ta["run"] >= 0, ta["run"], len(ta["size"]))
     srun = np.where(sb["run"] >= 0, sb["run"], len(sb["size"]))
     slen = np.concatenate([sb["size"], [0]])
-    return dict(hv=hv, base=base, trun=trun, tpos=ta["pos"], srun=srun, spos=sb["pos"] - slen[srun])
+    cnt_all = np.repeat(np.arange(len(rep)), cnt)
+    return dict(hv=hv, base=base, trun=trun, tpos=ta["pos"], srun=srun, spos=sb["pos"] - slen[srun],
+                rep_test=ta["first"][ia[rep]][cnt_all], rep_src=sb["first"][ib[rep]][cnt_all])
 
 
 def _rows_into(blk, ts: _TestSide, k: float, src: dict, r0: int, r1: int, c0: int, c1: int, fresh: bool = False) -> None:
@@ -392,31 +407,31 @@ def _parallel_blocks(ts: _TestSide, k: float, src: dict, r0: int, r1: int, cols:
 
     Pairs of translated runs take their node sums from the table of :func:`_translate_sums`; the other
     pairs are summed here, by rows of one run (their pairs are translated for the same columns)."""
-    nc = len(cols)
     toe = src["toe"]
-    ha = np.empty((r1 - r0, 2, nc), dtype=complex)
-    hb = np.empty((r1 - r0, 2, nc), dtype=complex)
     if toe is None:
-        ha[...], hb[...] = _node_sums_direct(ts, k, src, r0, r1, cols)
-    else:
-        trun = toe["trun"][r0:r1]
-        base = toe["base"][trun[:, None], toe["srun"][cols][None, :]]
-        ok = base >= 0
-        if ok.any():
-            ia = np.where(ok, base + toe["tpos"][r0:r1, None] - toe["spos"][cols][None, :], 1)
-            ha[...] = np.moveaxis(toe["hv"][ia], -1, 1)
-            ia -= 1
-            hb[...] = np.moveaxis(toe["hv"][ia], -1, 1)
-        cut = np.concatenate([[0], np.flatnonzero(trun[1:] != trun[:-1]) + 1, [r1 - r0]])
-        for a, b in zip(cut[:-1], cut[1:]):
-            direct = np.flatnonzero(~ok[a])
-            if len(direct):
-                da, db = _node_sums_direct(ts, k, src, r0 + a, r0 + b, cols[direct])
-                ha[a:b, :, direct] = da
-                hb[a:b, :, direct] = db
+        return _node_blocks(ts, src, r0, r1, cols, *_node_sums_direct(ts, k, src, r0, r1, cols))
+    part = np.empty((r1 - r0, 2, len(cols), 2), dtype=complex)
+    trun = toe["trun"][r0:r1]
+    base = toe["base"][trun[:, None], toe["srun"][cols][None, :]]
+    ok = base >= 0
+    if ok.any():
+        ia = np.where(ok, base + toe["tpos"][r0:r1, None] - toe["spos"][cols][None, :], 1)
+        part[...] = toe["blocks"][ia].transpose(0, 2, 1, 3)
+    cut = np.concatenate([[0], np.flatnonzero(trun[1:] != trun[:-1]) + 1, [r1 - r0]])
+    for a, b in zip(cut[:-1], cut[1:]):
+        direct = np.flatnonzero(~ok[a])
+        if len(direct):
+            c = cols[direct]
+            part[a:b, :, direct, :] = _node_blocks(ts, src, r0 + a, r0 + b, c,
+                                                   *_node_sums_direct(ts, k, src, r0 + a, r0 + b, c))
+    return part
+
+
+def _node_blocks(ts: _TestSide, src: dict, r0: int, r1: int, cols: np.ndarray, ha, hb) -> np.ndarray:
+    """Blocks (rows, 2, cols, 2) from the node sums at the start (``ha``) and end (``hb``) of the source columns."""
     coef = (ts.tdir[r0:r1] @ src["sdir"][cols].T)[:, None, :] * (-src["sign"] * src["amp"][cols])
     cc = src["cos"][cols]
-    part = np.empty((r1 - r0, 2, nc, 2), dtype=complex)
+    part = np.empty(ha.shape + (2,), dtype=complex)
     part[..., 0] = coef * (cc * ha - hb)
     part[..., 1] = coef * (cc * hb - ha)
     return part
@@ -808,12 +823,9 @@ _NEAR_AXIS = 1e-3
 
 
 #: Straight runs of at least this many equal, connected, collinear segments take the factored
-#: evaluation of :func:`_run_vector`; the other segments are summed one by one.
+#: evaluation of :func:`_run_vector` (all runs at once, for any number of directions); the other
+#: segments are summed one by one.
 _RUN_MIN = 8
-#: ... for at least this many directions, or (fewer directions: the peak search) where run length
-#: times directions reaches ``_RUN_WORK`` (a run's fixed cost is then below the per-segment sum's).
-_RUN_DIRECTIONS = 512
-_RUN_WORK = 4096
 
 
 def _uniform_runs(s0: np.ndarray, s1: np.ndarray) -> list[tuple[int, int]]:
@@ -869,54 +881,109 @@ def _powers(z: np.ndarray, n: int) -> np.ndarray:
     return out
 
 
-def _run_vector(r, k, s0, s1, cur1, cur2):
-    """The same sum for one straight run of m equal segments, in O(sqrt(m)) exponentials per direction.
-
-    Along the run every segment has the same direction s, length d and alpha = k r.s, and its end
-    phases are P_n = P_0 z^n at the nodes n = 0..m with z = e^{j alpha d}. The segment formula of
-    :func:`_radiation_vector` then sums to s P_0 [C(z) + j alpha sin(kd) D(z)] / (k^2 - alpha^2),
-    with polynomials C and D whose coefficients are the node sums of the end currents. They are
-    evaluated exactly (no approximation) by splitting n = a B + b (B ~ sqrt(m + 1)): a matrix product
-    of z^b (B powers) with the coefficients, then a sum over a weighted by z^{aB} (baby-step
-    giant-step polynomial evaluation). Directions within ``_NEAR_AXIS`` of the axis use the sinc
-    form segment by segment, as there.
-    """
-    m = len(s0)
-    step_v = (s1[-1] - s0[0]) / m
-    d = float(np.linalg.norm(step_v))
-    sdir = step_v / d
-    kc, ks = k * math.cos(k * d), math.sin(k * d)
-    i1, i2 = cur1 / ks, cur2 / ks
-    cpoly = np.zeros(m + 1, dtype=complex)
-    dpoly = np.zeros(m + 1, dtype=complex)
-    cpoly[1:] += k * i1 - kc * i2       # P1 of segment n - 1
-    cpoly[:-1] += k * i2 - kc * i1      # P0 of segment n
-    dpoly[1:] += i2
-    dpoly[:-1] -= i1
+def _run_setup(k, s0, s1, cur1, cur2, runs) -> dict:
+    """The direction-free part of :func:`_run_vector` for straight runs ``runs`` (index ranges [a, b))."""
+    first = np.array([a for a, _b in runs])
+    size = np.array([b - a for a, b in runs])
+    m = int(size.max())
+    nr = len(runs)
+    step_v = (s1[first + size - 1] - s0[first]) / size[:, None]
+    d = np.linalg.norm(step_v, axis=1)
+    sdir = step_v / d[:, None]
+    kc, ks = k * np.cos(k * d), np.sin(k * d)
+    run = np.repeat(np.arange(nr), size)
+    seg = np.concatenate([np.arange(a, b) for a, b in runs])
+    pos = seg - first[run]
+    i1, i2 = cur1[seg] / ks[run], cur2[seg] / ks[run]
     nb = math.isqrt(m) + 1
     na = -(-(m + 1) // nb)
-    coef = np.zeros((2, na * nb), dtype=complex)
-    coef[0, :m + 1], coef[1, :m + 1] = cpoly, dpoly
-    coef = coef.reshape(2, na, nb).transpose(2, 0, 1).reshape(nb, 2 * na)   # [b, (poly, a)]
-    alpha = k * (r @ sdir)
-    ad = alpha * d
-    zb = _powers(np.exp(1j * ad), nb)                                   # z^b, b < nb
-    za = _powers(np.exp(1j * nb * ad), na)                              # z^(a nb), a < na
-    mix = (zb @ coef).reshape(len(r), 2, na)
-    poly = np.einsum("npa,na->np", mix, za)
+    coef = np.zeros((nr, 2, na * nb), dtype=complex)
+    np.add.at(coef, (run, 0, pos + 1), k * i1 - kc[run] * i2)      # P1 of segment n - 1
+    np.add.at(coef, (run, 0, pos), k * i2 - kc[run] * i1)          # P0 of segment n
+    np.add.at(coef, (run, 1, pos + 1), i2)
+    np.add.at(coef, (run, 1, pos), -i1)
+    coef = coef.reshape(nr, 2, na, nb).transpose(0, 3, 1, 2).reshape(nr, nb, 2 * na)   # [run, b, (poly, a)]
+    return dict(runs=runs, first=first, d=d, sdir=sdir, ks=ks, nb=nb, na=na, coef=coef, s0=s0, cur1=cur1,
+                cur2=cur2, width=4 * nb + 8)
+
+
+def _run_vector(r, k, setup: dict):
+    """The same sum for straight runs of equal segments, in O(sqrt(m)) exponentials per direction and run.
+
+    Along a run of m segments every segment has the same direction s, length d and alpha = k r.s, and
+    its end phases are P_n = P_0 z^n at the nodes n = 0..m with z = e^{j alpha d}. The segment formula
+    of :func:`_radiation_vector` then sums to s P_0 [C(z) + j alpha sin(kd) D(z)] / (k^2 - alpha^2),
+    with polynomials C and D whose coefficients are the node sums of the end currents. They are
+    evaluated exactly (no approximation) by splitting n = a B + b (B ~ sqrt(m + 1), m the longest
+    run's length; shorter runs padded with zero coefficients): a matrix product of z^b (B powers) with
+    the coefficients, then a sum over a weighted by z^{aB} (baby-step giant-step polynomial
+    evaluation), all runs at once. Directions within ``_NEAR_AXIS`` of a run's axis use the sinc form
+    segment by segment, as there. ``setup`` is :func:`_run_setup`'s (the coefficients).
+    """
+    runs, first, d, sdir, ks = setup["runs"], setup["first"], setup["d"], setup["sdir"], setup["ks"]
+    nb, na, nr = setup["nb"], setup["na"], len(runs)
+    s0, cur1, cur2 = setup["s0"], setup["cur1"], setup["cur2"]
+    alpha = k * (r @ sdir.T)                                            # (n, runs)
+    ad = (alpha * d).T.reshape(-1)                                      # (runs * n)
+    zb = _powers(np.exp(1j * ad), nb).reshape(nr, len(r), nb)           # z^b, b < nb
+    za = _powers(np.exp(1j * nb * ad), na).reshape(nr, len(r), na)      # z^(a nb), a < na
+    mix = np.matmul(zb, setup["coef"]).reshape(nr, len(r), 2, na)
+    poly = np.einsum("rnpa,rna->npr", mix, za)
     den = k * k - alpha * alpha
-    amp = np.exp(1j * k * (r @ s0[0])) * (poly[:, 0] + 1j * ks * alpha * poly[:, 1])
+    amp = np.exp(1j * k * (r @ s0[first].T)) * (poly[:, 0] + 1j * ks * alpha * poly[:, 1])
     near = np.abs(den) < _NEAR_AXIS * k * k
     with np.errstate(divide="ignore", invalid="ignore"):
         amp /= den
-        out = amp[:, None] * sdir
-    if near.any():
-        dd = np.full(m, d)
-        rn = r[near]
-        j1, j2 = radiation_integrals(k * (rn @ sdir)[:, None] * np.ones(m), dd, k)
-        p0 = np.exp(1j * k * (rn @ s0.T))
-        out[near] = np.sum(p0 * (cur1 * j1 + cur2 * j2), axis=1)[:, None] * sdir
+    amp[near] = 0.0
+    out = amp @ sdir
+    for j in np.flatnonzero(near.any(axis=0)):
+        a, b = runs[j]
+        rn = np.flatnonzero(near[:, j])
+        j1, j2 = radiation_integrals(k * (r[rn] @ sdir[j])[:, None] * np.ones(b - a), np.full(b - a, d[j]), k)
+        p0 = np.exp(1j * k * (r[rn] @ s0[a:b].T))
+        out[rn] += np.sum(p0 * (cur1[a:b] * j1 + cur2[a:b] * j2), axis=1)[:, None] * sdir[j]
     return out
+
+
+class _Radiator:
+    """:func:`_radiation_vector` of one structure and its currents, the direction-free work done once.
+
+    The pattern grid, the peak search (dozens of calls of a few directions) and the back direction of
+    one solve share it. Straight runs of at least ``_RUN_MIN`` segments go by :func:`_run_vector`, the
+    other segments by :func:`_segment_sum`.
+    """
+
+    def __init__(self, st: Structure, k: float, seg_i: np.ndarray):
+        self.k = k
+        self.parts = []
+        for s0, s1, _r, sign, _d in st.sources():
+            sd = s1 - s0
+            d = np.linalg.norm(sd, axis=1)
+            sdir = sd / d[:, None]
+            cur1, cur2 = sign * seg_i[:, 0], sign * seg_i[:, 1]
+            runs = [(a, b) for a, b in _uniform_runs(s0, s1) if b - a >= _RUN_MIN]
+            single = np.ones(len(s0), dtype=bool)
+            for a, b in runs:
+                single[a:b] = False
+            one = np.flatnonzero(single)
+            setup = _run_setup(k, s0, s1, cur1, cur2, runs) if runs else None
+            self.parts.append(((s0[one], s1[one], sdir[one], d[one], cur1[one], cur2[one]) if len(one) else None,
+                               setup))
+
+    def __call__(self, rhat: np.ndarray) -> np.ndarray:
+        out = np.zeros(rhat.shape[:-1] + (3,), dtype=complex)
+        flat = rhat.reshape(-1, 3)
+        res = out.reshape(-1, 3)
+        for single, setup in self.parts:
+            if single is not None:
+                step = max(1, _CHUNK // len(single[0]))
+                for i in range(0, len(flat), step):
+                    res[i:i + step] += _segment_sum(flat[i:i + step], self.k, *single)
+            if setup is not None:
+                step = max(1, _CHUNK // (len(setup["runs"]) * setup["width"]))
+                for i in range(0, len(flat), step):
+                    res[i:i + step] += _run_vector(flat[i:i + step], self.k, setup)
+        return out
 
 
 def _radiation_vector(st: Structure, k: float, seg_i: np.ndarray, rhat: np.ndarray) -> np.ndarray:
@@ -929,43 +996,20 @@ def _radiation_vector(st: Structure, k: float, seg_i: np.ndarray, rhat: np.ndarr
         int_0^d e^{j alpha z} sin kz dz * P0       = (P1 (j alpha sin kd - k cos kd) + k P0) / (k^2 - alpha^2)
 
     which costs two complex exponentials per segment and direction (fewer along straight runs of
-    equal segments, see :func:`_run_vector`); within ``_NEAR_AXIS`` of alpha = +-k (directions along
+    equal segments, see :func:`_run_vector`; :class:`_Radiator` keeps the direction-free work); within ``_NEAR_AXIS`` of alpha = +-k (directions along
     a segment) the sinc form of :func:`radiation_integrals` is used.
     """
-    out = np.zeros(rhat.shape[:-1] + (3,), dtype=complex)
-    flat = rhat.reshape(-1, 3)
-    res = out.reshape(-1, 3)
-    for s0, s1, _r, sign, _d in st.sources():
-        sd = s1 - s0
-        d = np.linalg.norm(sd, axis=1)
-        sdir = sd / d[:, None]
-        cur1, cur2 = sign * seg_i[:, 0], sign * seg_i[:, 1]
-        # Few directions (peak search, gain toward places): one vectorised pass over the segments, long runs apart.
-        runs = [(a, b) for a, b in _uniform_runs(s0, s1)
-                if b - a >= _RUN_MIN and (len(flat) >= _RUN_DIRECTIONS or (b - a) * len(flat) >= _RUN_WORK)]
-        single = np.ones(len(s0), dtype=bool)
-        for a, b in runs:
-            single[a:b] = False
-        one = np.flatnonzero(single)
-        if len(one):
-            step = max(1, _CHUNK // len(one))
-            for i in range(0, len(flat), step):
-                res[i:i + step] += _segment_sum(flat[i:i + step], k, s0[one], s1[one], sdir[one], d[one],
-                                                cur1[one], cur2[one])
-        for a, b in runs:
-            step = max(1, _CHUNK // (4 * math.isqrt(b - a) + 8))
-            for i in range(0, len(flat), step):
-                res[i:i + step] += _run_vector(flat[i:i + step], k, s0[a:b], s1[a:b], cur1[a:b], cur2[a:b])
-    return out
+    return _Radiator(st, k, seg_i)(rhat)
 
 
-def _intensity(st, k, seg_i, rhat):
-    """Radiation intensity U(r_hat) [W/sr] for the solved currents (peak phasors)."""
+def _intensity(st, k, seg_i, rhat, rad: _Radiator | None = None):
+    """Radiation intensity U(r_hat) [W/sr] for the solved currents (peak phasors); ``rad``, a prepared
+    :class:`_Radiator` of the same structure and currents (free space or perfect ground)."""
     if st.soil_eps_c is not None:   # real ground: space wave with Fresnel coefficients
         from rfsafe.antenna.wire.ground import space_wave_intensity
 
         return space_wave_intensity(st, k, seg_i, rhat, _radiation_vector)
-    n = _radiation_vector(st, k, seg_i, rhat)
+    n = (rad or _Radiator(st, k, seg_i))(rhat)
     n_perp = n - rhat * np.einsum("...i,...i->...", rhat, n)[..., None]
     return ETA0_OHM * k * k / (32.0 * math.pi ** 2) * np.einsum("...i,...i->...", n_perp, n_perp.conj()).real
 
@@ -1132,7 +1176,7 @@ def _diameter(pts: np.ndarray) -> float:
     return best
 
 
-def _peak_search(st, k, seg_i, starts, dth, dph, tmax):
+def _peak_search(st, k, seg_i, starts, dth, dph, tmax, rad=None):
     """Shrinking pattern searches for the largest intensity from each start (theta, phi) [rad].
 
     The searches run in lockstep (one intensity evaluation per step for all of them); each one moves
@@ -1142,7 +1186,7 @@ def _peak_search(st, k, seg_i, starts, dth, dph, tmax):
     m = len(starts)
     th = np.array([s[0] for s in starts], dtype=float)
     ph = np.array([s[1] for s in starts], dtype=float)
-    best = np.array([float(_intensity(st, k, seg_i, _directions(np.array(t), np.array(p)))) for t, p in starts])
+    best = np.array([float(_intensity(st, k, seg_i, _directions(np.array(t), np.array(p)), rad)) for t, p in starts])
     dt = np.full(m, float(dth))
     dp = np.full(m, float(dph))
     active = np.ones(m, dtype=bool)
@@ -1154,7 +1198,7 @@ def _peak_search(st, k, seg_i, starts, dth, dph, tmax):
             break
         tt = np.clip(th[idx, None] + dt[idx, None] * ot, 0.0, tmax)
         pp = ph[idx, None] + dp[idx, None] * op
-        u = _intensity(st, k, seg_i, _directions(tt, pp)).reshape(len(idx), 8)
+        u = _intensity(st, k, seg_i, _directions(tt, pp), rad).reshape(len(idx), 8)
         for row, i in enumerate(idx):
             j = int(np.argmax(u[row]))
             if u[row, j] > best[i] * (1 + 1e-12):
@@ -1262,8 +1306,9 @@ def solve(spec, freq_hz: float, *, field_prefix: str = "", enforce_limits: bool 
     theta = np.arccos(mu)
     phi = 2 * math.pi * np.arange(n_p) / n_p
     th, ph = np.meshgrid(theta, phi, indexing="ij")
+    rad = _Radiator(st, k, seg_i) if st.soil_eps_c is None else None   # shared by the grid, peak and back
     if st.soil_eps_c is None:
-        u = _intensity(st, k, seg_i, _directions(th, ph))
+        u = _intensity(st, k, seg_i, _directions(th, ph), rad)
     else:   # the space wave and, from the same radiation vectors, the perfect-ground pattern (see below)
         from rfsafe.antenna.wire.ground import space_and_image_intensity
 
@@ -1275,7 +1320,7 @@ def solve(spec, freq_hz: float, *, field_prefix: str = "", enforce_limits: bool 
     best = (-1.0, 0.0, 0.0)
     top = [np.unravel_index(int(f), u.shape) for f in np.argsort(u, axis=None)[::-1][:3]]
     more = [m for m in _grid_maxima(u, PEAK_STARTS) if m not in top] if k * size > 24 else []   # coarser grid
-    found = _peak_search(st, k, seg_i, [(th[it, ip], ph[it, ip]) for it, ip in top + more], dth, dph, tmax)
+    found = _peak_search(st, k, seg_i, [(th[it, ip], ph[it, ip]) for it, ip in top + more], dth, dph, tmax, rad)
     for n, cand in enumerate(found):
         if cand[0] > best[0] * (1.0 if n < 3 else 1.0 + 1e-9):   # a tie keeps the earlier lobe
             best = cand
@@ -1283,7 +1328,7 @@ def solve(spec, freq_hz: float, *, field_prefix: str = "", enforce_limits: bool 
     gain = 10 * math.log10(4 * math.pi * u_max / p_in)
     el = 90.0 - math.degrees(t_best)
     az = round(90.0 - math.degrees(p_best), 6) % 360.0 if abs(el) < 89.999 else 0.0  # undefined at zenith
-    u_back = _intensity(st, k, seg_i, _directions(np.array(t_best), np.array(p_best + math.pi)))
+    u_back = _intensity(st, k, seg_i, _directions(np.array(t_best), np.array(p_best + math.pi)), rad)
     fb = 10 * math.log10(u_max / float(u_back)) if u_back > 0 else math.inf
     gw_gain = None
     if st.soil_eps_c is not None:
