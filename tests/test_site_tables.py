@@ -12,6 +12,8 @@ import math
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from rfsafe import site
 from rfsafe.antenna import patterns as pt
@@ -60,39 +62,103 @@ def test_table_never_below_the_direct_evaluation(step_az, step_el, first_az, til
     assert rel.min() >= 0.0 and rel.max() <= 5e-4
 
 
+def _lift_bound(look, gmax_lin):
+    """Largest lift of ``look`` for a table whose largest linear gain is ``gmax_lin``, in G / (4 pi): the
+    weight error bounds (wa, we in cells) times the largest slope of a cell (|d01| + |f| and |e| + |f|, at
+    most 3 gmax each), plus the relative rounding allowance (grid._UniformTable)."""
+    wa = (grid._TABLE_WEIGHT_SPACINGS * float(np.spacing(np.float32(look.n_col)))
+          + grid._TABLE_ANGLE_ERR_RAD / math.radians(look.da))
+    we = (grid._TABLE_WEIGHT_SPACINGS * float(np.spacing(np.float32(look.cells.shape[0] // look.n_col)))
+          + grid._TABLE_ANGLE_ERR_RAD / math.radians(look.de))
+    return ((wa + we) * 3.0 + grid._TABLE_F32_REL) * gmax_lin / (4 * math.pi)
+
+
+def _excess_within_the_lift(pat, em, px, py, heights):
+    """The kernel against the float64 reference: never below; above by at most the largest lift."""
+    look = grid._UniformTable(pat.table)
+    got = site.ratio_grid([em], px, py, heights).ratio
+    ref = direct_ratio([em], px, py, heights)
+    r2_min = np.min([(px - em.x_m) ** 2 + (py - em.y_m) ** 2 + (h - em.height_m) ** 2 for h in heights], axis=0)
+    ok = r2_min > grid.MIN_FAR_FIELD_DIST_M ** 2 * 4     # the near-field override (peak gain) left out
+    coef = em.ratio_coefficient_m2[:, None]
+    bound = coef * _lift_bound(look, pat.table._gain_lin.max()) / r2_min
+    assert (got[:, ok] >= ref[:, ok]).all()
+    assert ((got - ref)[:, ok] <= bound[:, ok]).all()
+
+
 @pytest.mark.parametrize("tilt", [0.0, 12.0])
 def test_steep_table_never_below_and_within_its_bound(tilt):
-    # 40 dB steps between neighbouring samples: the lift that covers the rounding of the weights is at most
-    # 16 float32 spacings of the cell coordinate times the cell's gain differences, plus 2e-6 of its
-    # largest corner, so at most about 1.3e-4 of the cell's largest gain above the exact value
+    # 40 dB steps between neighbouring samples, where the rounding of the weights matters most
     pat = _table(10.0, 5.0, deep=True)
-    look = grid._UniformTable(pat.table)
     em = emitter(x=2.0, y=-3.0, h=4.0, pattern=pat, azimuth_deg=37.0, tilt_deg=tilt, polarisation="horizontal",
                  power=(100.0, 60.0), limit=(50.0, 10.0), f=2.56)
-    got = site.ratio_grid([em], PX, PY, HEIGHTS).ratio
-    ref = direct_ratio([em], PX, PY, HEIGHTS)
-    assert (got >= ref).all()
-    # the excess, in gain, against the table's largest gain (10 dBi) over 4 pi R^2: bounded as stated
-    bound = (16 * float(np.spacing(np.float32(look.n_col))) * 2 + 2e-6) * 10.0 * 2.0
-    r2_min = None
-    em_coef = np.array([100.0 * 2.56 / 50.0, 60.0 * 2.56 / 10.0])[:, None]
-    for h in HEIGHTS:
-        r2 = (PX - 2.0) ** 2 + (PY + 3.0) ** 2 + (h - 4.0) ** 2
-        r2_min = r2 if r2_min is None else np.minimum(r2_min, r2)
-    assert ((got - ref) <= em_coef * bound / (4 * math.pi * r2_min)).all()
+    _excess_within_the_lift(pat, em, PX, PY, HEIGHTS)
+
+
+@settings(max_examples=60, deadline=None)
+@given(step_az=st.sampled_from([1.0, 5.0, 10.0, 15.0, 30.0, 45.0, 120.0]),
+       step_el=st.sampled_from([1.0, 2.0, 5.0, 10.0, 15.0, 30.0, 90.0]),
+       first_frac=st.floats(0.0, 0.99), deep=st.booleans(), seed=st.integers(0, 2 ** 31),
+       az=st.floats(-720.0, 720.0), tilt=st.floats(-90.0, 90.0), h=st.floats(0.0, 30.0))
+def test_any_uniform_table_is_never_below_the_float64_lookup(step_az, step_el, first_frac, deep, seed, az, tilt, h):
+    # property: whatever the table, orientation and points, the kernel's polynomial-angle, single-precision
+    # lookup is never below the float64 bilinear value of patterns.table_gain (Numerical Recipes sec. 3.6,
+    # common practice) in the far-field prediction (OET Bulletin 65 sec. 2), and above it by at most its lift
+    rng = np.random.default_rng(seed)
+    azs = np.arange(first_frac * step_az, 360.0, step_az)
+    els = np.linspace(-90.0, 90.0, int(round(180.0 / step_el)) + 1)
+    gain = rng.uniform(-30.0, 10.0, (els.size, azs.size)) if deep else rng.uniform(-3.0, 3.0, (els.size, azs.size))
+    gain[0], gain[-1] = gain[0, 0], gain[-1, 0]
+    pat = pt.make_pattern("table", table=pt.PatternTable(azimuth_deg=azs, elevation_deg=els, gain_dbi=gain))
+    assert grid._UniformTable.fits(pat.table)
+    px = np.concatenate([rng.uniform(-40, 40, 600), rng.uniform(-1, 1, 100) + 2.0, [2.0]])
+    py = np.concatenate([rng.uniform(-40, 40, 600), rng.uniform(-1, 1, 100) - 3.0, [-3.0]])
+    em = emitter(x=2.0, y=-3.0, h=h, pattern=pat, azimuth_deg=az, tilt_deg=tilt, polarisation="horizontal",
+                 power=(100.0, 60.0), limit=(50.0, 10.0), f=2.56)
+    _excess_within_the_lift(pat, em, px, py, (0.5, 1.0, 1.7, 2.0, 12.0))
+
+
+def test_angles_within_their_stated_bound():
+    # the rational arctan (grid._ATAN_RATIONAL) through the half-angle identities, in float32, against
+    # numpy's float64 arctan2 (common practice) on the same float32 inputs: within half the error the
+    # lift allows for (_TABLE_ANGLE_ERR_RAD), and the cell coordinates within the weight bound
+    rng = np.random.default_rng(5)
+    n = 400_000
+    x = (rng.standard_normal(n) * 10 ** rng.uniform(-4, 4, n)).astype(np.float32)
+    y = (rng.standard_normal(n) * 10 ** rng.uniform(-4, 4, n)).astype(np.float32)
+    x[:4], y[:4] = [0.0, 1.0, -1.0, 0.0], [0.0, 0.0, 0.0, -2.0]
+    xs, ys = x.astype(float), y.astype(float)
+    look = grid._UniformTable(_table(10.0, 5.0, first_az=3.0).table)
+    bound = grid._TABLE_ANGLE_ERR_RAD
+    # azimuth atan2(y, x): the cell coordinate col + ta against the exact one, modulo the table's columns
+    off = look.column_offset(37.0)
+    col, ta = look.columns_xy(x, y, np.sqrt(x * x + y * y + np.float32(grid._TINY_M2)), off)
+    exact = np.degrees(np.arctan2(ys, xs)) / look.da + float(off)
+    d = (col + ta - exact + look.n_az / 2) % look.n_az - look.n_az / 2
+    assert np.abs(d).max() * math.radians(look.da) <= bound / 2 + 4 * float(np.spacing(np.float32(look.n_col))) * math.radians(look.da)
+    assert (col >= 0).all() and (col <= look.n_col - 1).all() and (ta >= 0).all() and (ta <= 1).all()
+    # elevation atan2(y, |x|) = 2 atan(y / (R + |x|))
+    with np.errstate(invalid="ignore"):
+        v = y / (np.sqrt(x * x + y * y) + np.abs(x))
+    v[0] = 0.0                                          # x = y = 0: 0 / 0, elevation 0 as arctan2 gives
+    xe = grid._atan_scaled(v, look.atan_e).astype(float)
+    el = np.arctan2(ys, np.abs(xs))
+    assert np.abs(xe - np.degrees(el) / look.de).max() * math.radians(look.de) <= bound / 2
 
 
 def test_lookup_reproduces_the_samples_and_the_poles():
-    # at the samples the bilinear value is the sample (patterns.table_gain); the lookup is within its lift
+    # at the samples the bilinear value is the sample (patterns.table_gain); the lookup is within its lift.
+    # Directions are given as the kernel gives them: azimuth by its components, elevation el by tan(el / 2).
     pat = _table(10.0, 5.0)
     tab = pat.table
     look = grid._UniformTable(tab)
-    az = np.radians(np.array([tab.azimuth_deg[3], tab.azimuth_deg[20]], dtype=np.float32))
+    az = np.radians(np.array([tab.azimuth_deg[3], tab.azimuth_deg[20]]))
+    fwd, rgt = np.cos(az).astype(np.float32), np.sin(az).astype(np.float32)
     for j in (0, 7, tab.elevation_deg.size - 1):
-        el = np.full(2, np.radians(tab.elevation_deg[j]), dtype=np.float32)
-        col, ta = look.columns(az.astype(np.float32).copy())
+        v = np.full(2, math.tan(math.radians(tab.elevation_deg[j]) / 2), dtype=np.float32)
+        col, ta = look.columns_xy(fwd, rgt, np.ones(2, dtype=np.float32), look.column_offset())
         out = np.empty(2, dtype=np.float32)
-        look.at(el, col, ta, out)
+        look.at_half_tangent(v, col, ta, out)
         want = tab._gain_lin[j, [3, 20]] / (4 * math.pi)
         assert (out >= want).all() and np.allclose(out, want, rtol=5e-4, atol=0)
 

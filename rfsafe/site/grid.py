@@ -255,12 +255,53 @@ class _TableLookup:
 
 
 #: Weight rounding allowed for in :class:`_UniformTable`, in cell units per float32 spacing of the
-#: largest cell coordinate: the float32 angles and cell coordinates are good to a few spacings (tested);
-#: the bound allows 16.
-_TABLE_WEIGHT_SPACINGS = 16.0
+#: largest cell coordinate, beyond the angle error: scaling an angle into cells and adding the offset
+#: round by at most one spacing (tested); the bound allows 4.
+_TABLE_WEIGHT_SPACINGS = 4.0
 #: Relative rounding of the float32 interpolation and of G / (4 pi R^2) allowed for (a few float32
 #: ulps, 6e-8 each).
 _TABLE_F32_REL = 2e-6
+#: Rational function ``v (a0 + a1 v^2 + a2 v^4) / (1 + b1 v^2 + b2 v^4)`` for arctan(v) on [-1, 1]
+#: (a least-maximum-error fit made for this kernel; its largest error is 1.9e-7 rad, tested), as
+#: ``(a0, a1, a2, b1, b2)``: numpy's arctan and arctan2 are not vectorised and cost 5 to 10 times the
+#: whole far-field formula per point. Angles are found by the half-angle identity
+#: ``atan2(y, x) = 2 atan(y / (sqrt(x^2 + y^2) + x))`` (x >= 0), whose argument lies in [-1, 1].
+_ATAN_RATIONAL = (0.9999975269110996, 0.6559232704922369, 0.04055477459232964, 0.9891876806615268,
+                  0.17083158360938025)
+#: Bound of the angle error of :data:`_ATAN_RATIONAL` through the half-angle identity in float32 [rad]:
+#: twice the fit's 1.9e-7 plus the rounding of the argument and the arithmetic (tested).
+_TABLE_ANGLE_ERR_RAD = 2e-6
+#: Added to a squared distance [m^2] (and its square root to a distance) so that a point at the antenna's
+#: centre (or on its up axis) gets a direction (the main beam's elevation, azimuth 0) instead of 0 / 0;
+#: it changes no angle of a point farther than 1e-12 m from the centre.
+_TINY_M2 = 1e-30
+
+
+def _atan_scaled(v, coef):
+    """``s arctan(v)`` for float32 ``v`` in [-1, 1] (overwritten), ``coef`` = ``s a0, s a1, s a2, b1, b2`` of
+    :data:`_ATAN_RATIONAL` in float32."""
+    a0, a1, a2, b1, b2 = coef
+    w = v * v
+    num = w * a2
+    num += a1
+    num *= w
+    num += a0
+    v *= num
+    np.multiply(w, b2, out=num)
+    num += b1
+    num *= w
+    num += _F32(1.0)
+    v /= num
+    return v
+
+
+def _neighbour_max(a):
+    """Largest value of each cell of ``a`` (rows: elevation, columns: azimuth) and its eight neighbours."""
+    b = np.maximum(a, np.maximum(np.roll(a, 1, axis=1), np.roll(a, -1, axis=1)))
+    out = b.copy()
+    out[1:] = np.maximum(out[1:], b[:-1])
+    out[:-1] = np.maximum(out[:-1], b[1:])
+    return out
 
 
 class _UniformTable:
@@ -271,9 +312,10 @@ class _UniformTable:
     upper), so that the bilinear value is ``c0 + ta d01 + te (e + ta f)`` with one gather per point and
     height. The rows are padded by a constant cell below and above (the poles: an elevation rounded just
     past +-90 deg reads the pole's gain), and the columns run round the azimuth as far as needed that an
-    azimuth in [-540, 180] deg needs no modulo. c0 is raised by the bound of what the
-    float32 weights and arithmetic can lose (see :data:`_TABLE_WEIGHT_SPACINGS`, :data:`_TABLE_F32_REL`), so
-    that the result is never below the float64 bilinear value of patterns.table_gain.
+    azimuth in [-180, 180] deg needs no modulo. c0 is raised by the bound of what the polynomial angles,
+    the float32 weights and arithmetic can lose (see :data:`_TABLE_ANGLE_ERR_RAD`,
+    :data:`_TABLE_WEIGHT_SPACINGS`, :data:`_TABLE_F32_REL`), so that the result is never below the float64
+    bilinear value of patterns.table_gain.
     """
 
     @staticmethod
@@ -292,25 +334,31 @@ class _UniformTable:
         i1 = (np.arange(n_az) + 1) % n_az
         c0, c1, c2, c3 = g[:-1], g[:-1][:, i1], g[1:], g[1:][:, i1]
         d01, e, f = c1 - c0, c2 - c0, (c3 - c2) - (c1 - c0)
-        # cell coordinates: xa = az / da + oa in [1, n_col - 1) for az in [-540, 180] (a bearing in
-        # [-180, 180] less an antenna azimuth in [0, 360)); xe = el / de + oe
+        # cell coordinates: xa = az / da + offset, column c holding the cell of table azimuth c mod n_az;
+        # the offset (column_offset) is brought into [n_az / 2 + 1, 3 n_az / 2 + 1), so that xa lies in
+        # [1, 2 n_az + 2) for az in [-180, 180]; xe = el / de + oe
         self.da, self.de = 360.0 / n_az, 180.0 / (n_el - 1)
-        k = math.ceil((540.0 + a[0]) / self.da) + 1
-        self.oa = k - a[0] / self.da
+        self.n_az, self.a0 = n_az, float(a[0])
         self.oe = 90.0 / self.de + 1.0                     # + 1: the padding row below
-        self.n_col = k + n_az + 2
-        # rounding bound in cell units: the largest coordinate's float32 spacing, times the allowance
-        wa = _TABLE_WEIGHT_SPACINGS * float(np.spacing(_F32(self.n_col)))
-        we = _TABLE_WEIGHT_SPACINGS * float(np.spacing(_F32(n_el + 1)))
+        self.n_col = 2 * n_az + 3
+        # error bound of the weights in cell units: the largest coordinate's float32 spacing times the
+        # allowance, and the angle error of the polynomial arctan. A weight off by w may put the point in
+        # the neighbouring cell, whose slope then counts: the slopes are the largest of each cell and its
+        # eight neighbours (azimuth round the circle, elevation up to the poles).
+        wa = (_TABLE_WEIGHT_SPACINGS * float(np.spacing(_F32(self.n_col)))
+              + _TABLE_ANGLE_ERR_RAD / math.radians(self.da))
+        we = (_TABLE_WEIGHT_SPACINGS * float(np.spacing(_F32(n_el + 1)))
+              + _TABLE_ANGLE_ERR_RAD / math.radians(self.de))
         cmax = np.maximum(np.maximum(c0, c1), np.maximum(c2, c3))
-        lift = wa * (np.abs(d01) + np.abs(f)) + we * (np.abs(e) + np.abs(f)) + _TABLE_F32_REL * cmax
+        lift = (wa * _neighbour_max(np.abs(d01) + np.abs(f)) + we * _neighbour_max(np.abs(e) + np.abs(f))
+                + _TABLE_F32_REL * cmax)
         body = np.stack([c0 + lift, d01, e, f], axis=-1)                 # (n_el - 1, n_az, 4)
         # the padding rows: constant in elevation, the pole rows' values along azimuth
         zero = np.zeros_like(g[0])
         lo = np.stack([c0[0] + lift[0], d01[0], zero, zero], axis=-1)[None]
         hi = np.stack([c2[-1] + lift[-1], d01[-1] + f[-1], zero, zero], axis=-1)[None]
         rows = np.concatenate([lo, body, hi])                             # (n_el + 1, n_az, 4)
-        cols = (np.arange(self.n_col) - k) % n_az
+        cols = np.arange(self.n_col) % n_az
         cells = rows[:, cols].reshape(-1, 4)
         # float32, rounded up in c0 (the other terms' rounding is within the lift)
         c32 = cells.astype(_F32)
@@ -319,37 +367,64 @@ class _UniformTable:
         self.cells = c32
         self.sa, self.se = _F32(180.0 / math.pi / self.da), _F32(180.0 / math.pi / self.de)
         self.oe32 = _F32(self.oe)
+        # 2 atan(v) in cell units, and a quarter turn in azimuth cells
+        a0, a1, a2, b1, b2 = _ATAN_RATIONAL
+        self.atan_a = tuple(_F32(v) for v in (2.0 * a0 * float(self.sa), 2.0 * a1 * float(self.sa),
+                                                2.0 * a2 * float(self.sa), b1, b2))
+        self.atan_e = tuple(_F32(v) for v in (2.0 * a0 * float(self.se), 2.0 * a1 * float(self.se),
+                                                2.0 * a2 * float(self.se), b1, b2))
+        self.quarter_a = _F32(0.5 * math.pi * float(self.sa))
 
-    def columns(self, az_rad, less_rad: float = 0.0):
-        """Columns (float32) and weights of azimuths ``az_rad - less_rad`` [rad] (``az_rad`` in [-pi, pi],
-        ``less_rad`` in [0, 2 pi); ``az_rad`` is overwritten by the weights)."""
-        az_rad *= self.sa
-        az_rad += _F32(self.oa - less_rad * float(self.sa))   # > 0 (see __init__)
-        col = np.floor(az_rad)
-        az_rad -= col
-        return col, az_rad
+    def column_offset(self, less_deg: float = 0.0) -> np.float32:
+        """The offset that puts azimuth ``az - less_deg`` of the table at cell coordinate ``az / da + offset``."""
+        lo = 0.5 * self.n_az + 1.0
+        return _F32((-(less_deg + self.a0) / self.da - lo) % self.n_az + lo)
 
-    def at(self, el_rad, col, ta, out) -> None:
-        """``out`` = G / (4 pi) at elevations ``el_rad`` [rad] (overwritten) and the columns, weights ``ta``.
+    def columns_xy(self, fwd, rgt, rho, offset, abs_rgt=None):
+        """Columns (float32) and weights of the azimuths ``atan2(rgt, fwd)`` of float32 components ``fwd``,
+        ``rgt`` (``rho``: their length, made at least ``sqrt(_TINY_M2)``; ``offset``: from
+        :meth:`column_offset`; ``abs_rgt``: ``|rgt|`` if known).
 
-        The arguments broadcast (heights x points against points).
+        ``fwd`` must not be -0.0 where ``rgt`` is 0 (add 0.0 to it): the azimuth there is 0, as arctan2 gives.
         """
-        el_rad *= self.se
-        el_rad += self.oe32                                # >= 0: row 0 pads -90 deg less rounding
-        te = np.floor(el_rad)
-        el_rad -= te                                       # the elevation weight
+        # from the nearer of the forward and backward axes: alpha = 2 atan(|rgt| / (rho + |fwd|)) in [0, pi/2]
+        v = np.abs(fwd)
+        v += rho
+        np.divide(np.abs(rgt) if abs_rgt is None else abs_rgt, v, out=v)
+        al = _atan_scaled(v, self.atan_a)
+        q = self.quarter_a
+        # behind (fwd < 0): pi - alpha; then the side of rgt
+        np.subtract(q, al, out=al)
+        np.copysign(al, fwd, out=al)
+        np.subtract(q, al, out=al)
+        np.copysign(al, rgt, out=al)
+        al += offset
+        col = np.floor(al)
+        al -= col
+        return col, al
+
+    def at_half_tangent(self, v, col, ta, out) -> None:
+        """``out`` = G / (4 pi) at elevations ``2 atan(v)`` (``v`` in [-1, 1], float32, overwritten), the
+        columns and weights ``ta`` (broadcast: heights x points against points)."""
+        xe = _atan_scaled(v, self.atan_e)
+        xe += self.oe32
+        self._lookup(xe, col, ta, out)
+
+    def _lookup(self, xe, col, ta, out) -> None:
+        te = np.floor(xe)
+        xe -= te                                           # the elevation weight
         te *= _F32(self.n_col)
         te += col                                          # exact: integers below 2^24 (see fits)
-        cb = np.take(self.cells, te.astype(np.intp), axis=0)
+        cb = np.take(self.cells, te.astype(np.int32), axis=0)
         np.multiply(cb[..., 3], ta, out=te)
         te += cb[..., 2]
-        te *= el_rad
-        np.multiply(cb[..., 1], ta, out=el_rad)
-        el_rad += cb[..., 0]
-        np.add(te, el_rad, out=out)
+        te *= xe
+        np.multiply(cb[..., 1], ta, out=xe)
+        xe += cb[..., 0]
+        np.add(te, xe, out=out)
 
 
-def _evaluator(g: _Group) -> tuple[Callable, Callable]:
+def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callable]:
     """Return ``prepare(px, py) -> state`` and ``at(state, dz, out, d2=None)`` computing G/(4 pi R^2) [1/m^2].
 
     With ``d2`` (squared distances to the nearest part of the structure [m^2]) it computes G/(4 pi d2)
@@ -368,6 +443,9 @@ def _evaluator(g: _Group) -> tuple[Callable, Callable]:
 
     An ``at`` with the attribute ``all_heights`` takes every height at once:
     ``dz`` (H, 1), ``out`` and ``d2`` (H, P), ``d2`` always given.
+
+    ``tables``: lookups of pattern tables already prepared, by the table's identity (emitters often
+    share one table), filled as they are made.
     """
     pat = g.pattern
     kind = pat.kind
@@ -557,53 +635,69 @@ def _evaluator(g: _Group) -> tuple[Callable, Callable]:
     if kind == "table" and _UniformTable.fits(pat.table):
         # Bilinear on the linear gain, as patterns.table_gain, in single precision, never below it
         # (_UniformTable). All heights at once (``at.all_heights``: dz (H, 1), out and d2 (H, P)): the
-        # per-call overhead of the few numpy operations per height is as large as their work. Untilted,
-        # the azimuth column and weight do not depend on the height and are found once per point; per
-        # height only the elevation (one arctan), one gather and the interpolation. Tilted, the
-        # direction is rotated into the antenna frame from the height-independent forward and right
-        # parts, as the tilted beam does.
-        look = _UniformTable(pat.table)
+        # per-call overhead of the few numpy operations per height is as large as their work. The angles
+        # come from the half-angle identity and a polynomial arctan (_ATAN_POLY; its error is within the
+        # lift): elevation 2 atan(up / (R + rho')), azimuth from the nearer of the forward and backward
+        # axes, with rho' the length of the horizontal part in the antenna frame. Untilted, the azimuth
+        # column and weight do not depend on the height and are found once per point; per height only the
+        # elevation, one gather and the interpolation. Tilted, the direction is rotated into the antenna
+        # frame from the height-independent forward and right parts, as the tilted beam does.
+        look = None if tables is None else tables.get(id(pat.table))
+        if look is None:
+            look = _UniformTable(pat.table)
+            if tables is not None:
+                tables[id(pat.table)] = look          # the groups keep the table alive meanwhile
         a_t = math.radians(g.tilt_deg)
         st32, ct32 = _F32(math.sin(a_t)), _F32(math.cos(a_t))
+        tiny = _F32(_TINY_M2)
 
         if untilted:
-            a_n = a % (2.0 * math.pi)
+            off = look.column_offset(g.azimuth_deg)
 
             def prepare(px, py):
+                # the bearing from north (dx, dy: +0.0 at the centre, never -0.0) less the antenna's azimuth
                 dx, dy, rho2 = base(px, py)
-                # at rho = 0: +-90 deg (|dz| > 1e-20 m), or 0 at dz = 0 (as arctan2); no float32 overflow
-                inv_rho = np.full(rho2.shape, _F32(1e20))
-                np.divide(_F32(1.0), np.sqrt(rho2), out=inv_rho, where=rho2 > 0.0)
-                # azimuth from the beam = bearing from north less the antenna's azimuth
-                bearing = np.arctan2(dx.astype(_F32), dy.astype(_F32))
-                return (rho2, inv_rho, *look.columns(bearing, a_n))
+                rho = rho2 + tiny
+                np.sqrt(rho, out=rho)
+                return (rho2, rho, *look.columns_xy(dy.astype(_F32), dx.astype(_F32), rho, off))
 
             def at(s, dz, out, d2):
-                _, inv_rho, col, ta = s
-                el = inv_rho * dz.astype(_F32)               # arctan of it: faster than arctan2 broadcast
-                np.arctan(el, out=el)
-                look.at(el, col, ta, out)
+                rho2, rho, col, ta = s
+                dz32 = dz.astype(_F32)
+                v = rho2 + dz32 * dz32                      # R^2
+                np.sqrt(v, out=v)
+                v += rho
+                np.divide(dz32, v, out=v)                  # tan(el / 2) in [-1, 1]
+                look.at_half_tangent(v, col, ta, out)
                 out /= d2
             at.all_heights = True
             return prepare, at
+
+        off = look.column_offset()
 
         def prepare(px, py):
             dx, dy, rho2 = base(px, py)
             rgt = (dx * ca - dy * sa).astype(_F32)
             hor = (dx * sa + dy * ca).astype(_F32)
-            return rho2, rgt, rgt * rgt, hor * ct32, hor * (-st32)
+            hor += _F32(0.0)                                # no -0.0 (see below)
+            rgt2 = rgt * rgt
+            rgt2 += tiny
+            return rho2, rgt, rgt2, hor * ct32, hor * (-st32), np.abs(rgt)
 
         def at(s, dz, out, d2):
-            _, rgt, rgt2, hor_c, hor_s = s
+            rho2, rgt, rgt2, hor_c, hor_s, abs_rgt = s
             dz32 = dz.astype(_F32)
-            fwd = hor_c + dz32 * st32
+            fwd = hor_c + dz32 * st32                       # not -0.0: the azimuth of the up axis is 0
             up = hor_s + dz32 * ct32
-            col, ta = look.columns(np.arctan2(rgt, fwd))
-            fwd *= fwd
-            fwd += rgt2
-            np.sqrt(fwd, out=fwd)
-            np.arctan2(up, fwd, out=up)
-            look.at(up, col, ta, out)
+            flat = fwd * fwd                                # rho'^2 + tiny
+            flat += rgt2
+            np.sqrt(flat, out=flat)
+            col, ta = look.columns_xy(fwd, rgt, flat, off, abs_rgt)
+            v = rho2 + dz32 * dz32                          # R^2 (a rotation keeps lengths)
+            np.sqrt(v, out=v)
+            v += flat
+            np.divide(up, v, out=v)                         # tan(el / 2) in [-1, 1]
+            look.at_half_tangent(v, col, ta, out)
             out /= d2
         at.all_heights = True
         return prepare, at
@@ -715,16 +809,12 @@ def _nearest_part_pass(grp: _Group, state, at, px, py, heights, geo, near) -> No
     thr = max(grp.near_field_m, MIN_FAR_FIELD_DIST_M)
     dzmin = max(min(abs(h - grp.height_m) for h in heights) - grp.reach_m, 0.0)
     lim = (thr + grp.reach_m) ** 2 * (1.0 + 1e-6) - dzmin * dzmin   # relative margin for float32 rounding
-    cand = np.flatnonzero(rho2 < lim) if lim > 0.0 else np.zeros(0, dtype=np.intp)
-    close = np.zeros(cand.size, dtype=bool)
-    flagged = np.zeros(cand.size, dtype=bool)
-    thr2, nf2 = _F32(thr * thr), _F32(grp.near_field_m ** 2)
-    for d2 in d2s:
-        dc = d2[cand]
-        close |= dc < thr2
-        flagged |= dc < nf2
-    near[cand[flagged]] = True
-    idx = cand[close]
+    cand = np.flatnonzero(rho2 < lim) if lim > 0.0 else None
+    idx = None
+    if cand is not None and cand.size:
+        dc = d2s[:, cand] if all_heights else np.stack([d2[cand] for d2 in d2s])
+        near[cand[(dc < _F32(grp.near_field_m ** 2)).any(axis=0)]] = True
+        idx = cand[(dc < _F32(thr * thr)).any(axis=0)]
     k_peak = _F32(10.0 ** (grp.pattern.peak_gain_dbi / 10.0) / _FOUR_PI)
     with np.errstate(divide="ignore", invalid="ignore"):
         if all_heights:
@@ -732,7 +822,7 @@ def _nearest_part_pass(grp: _Group, state, at, px, py, heights, geo, near) -> No
         for out, h, d2 in zip(geo, heights, d2s):
             if not all_heights:
                 at(state, h - grp.height_m, out, None if part is None else d2)
-            if idx.size:
+            if idx is not None and idx.size:
                 out[idx] = k_peak / np.maximum(d2[idx], _F32(MIN_FAR_FIELD_DIST_M ** 2))
 
 
@@ -812,7 +902,8 @@ def ratio_grid(emitters: Sequence[SiteEmitter], x_m, y_m, heights_m, *, chunk_po
     """
     x, y, heights = _check_points(x_m, y_m, heights_m)
     names, groups = _groups(emitters)
-    evaluators = [_evaluator(g) for g in groups]
+    tables: dict = {}
+    evaluators = [_evaluator(g, tables) for g in groups]
     n = x.size
     ratio = np.empty((2, n))
     worst = np.empty((2, n))
@@ -844,7 +935,8 @@ def transmitter_ratios(emitters: Sequence[SiteEmitter], x_m, y_m, heights_m, *,
     """
     x, y, heights = _check_points(x_m, y_m, heights_m)
     names, groups = _groups(emitters)
-    evaluators = [_evaluator(g) for g in groups]
+    tables: dict = {}
+    evaluators = [_evaluator(g, tables) for g in groups]
     out = np.empty((2, len(names), x.size), dtype=_F32)   # single precision, like the kernel
     for start in range(0, x.size, chunk_points):
         stop = min(x.size, start + chunk_points)
