@@ -221,15 +221,16 @@ def test_map_contours_are_the_lines_matplotlib_traces():
         assert np.allclose(a, b)
 
 
-def test_the_worksheet_does_not_load_matplotlib(tmp_path):
-    """The maps are reportlab drawings: importing matplotlib alone cost more than the rest of a worksheet."""
+def test_the_worksheet_loads_neither_matplotlib_nor_the_network_modules(tmp_path):
+    """The maps are reportlab drawings: importing matplotlib alone cost more than the rest of a worksheet; and
+    text is escaped without xml.sax.saxutils, whose import pulls in urllib, http and ssl."""
     import subprocess
     import sys
 
     code = ("import sys; from rfsafe.remedies import with_answers; from rfsafe.station import load_station; "
             "from rfsafe.report.worksheet import build_worksheet_pdf; "
             f"build_worksheet_pdf(with_answers(load_station({str(WIRE_DEMO)!r}))); "
-            "print(sorted(m for m in sys.modules if m.split('.')[0] == 'matplotlib'))")
+            "print(sorted(m for m in sys.modules if m.split('.')[0] in ('matplotlib', 'ssl', 'http', 'xml')))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == "[]"
 

@@ -8,14 +8,12 @@ from __future__ import annotations
 from reportlab.lib.units import mm
 from reportlab.platypus import Paragraph
 
-from rfsafe.report.common import data_table, num, p, section_heading, styles
+from rfsafe.report.common import data_table, escape, num, p, section_heading, styles
 
 __all__ = ["answers_section", "site_answers_section"]
 
 
 def _esc(text: str) -> str:
-    from xml.sax.saxutils import escape
-
     return escape(text)
 
 

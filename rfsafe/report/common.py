@@ -27,7 +27,6 @@ import math
 import re
 from functools import lru_cache
 from importlib import resources
-from xml.sax.saxutils import escape
 
 from reportlab import rl_config
 from reportlab.lib import colors
@@ -63,6 +62,12 @@ EXCEEDS_COLOR = colors.HexColor("#b3122b")    # dark red
 ACCENT = colors.HexColor("#1f3a5f")           # headings, table headers
 GRID = colors.HexColor("#9aa5b1")
 ZEBRA = colors.HexColor("#eef2f6")
+
+
+def escape(text: str) -> str:
+    """``&``, ``<`` and ``>`` as entities, for paragraph markup (as ``xml.sax.saxutils.escape``, whose import
+    pulls in urllib, http and ssl and cost more than a page of the worksheet)."""
+    return text.replace("&", "&amp;").replace(">", "&gt;").replace("<", "&lt;")
 
 
 def register_fonts() -> None:

@@ -13,14 +13,13 @@ the cells, so the same result gives the same drawing (and the same PDF).
 from __future__ import annotations
 
 import math
-from xml.sax.saxutils import escape
 
 from reportlab.graphics.shapes import Line, Rect, String
 from reportlab.lib import colors
 from reportlab.lib.units import mm
 from reportlab.platypus import KeepTogether
 
-from rfsafe.report.common import FONT, data_table, margin_text, num, p, ratio_text, section_heading
+from rfsafe.report.common import FONT, data_table, escape, margin_text, num, p, ratio_text, section_heading
 from rfsafe.report.maps import dash_points, scaled
 from rfsafe.report.plots import decade_label
 

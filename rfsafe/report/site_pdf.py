@@ -24,12 +24,11 @@ from __future__ import annotations
 
 import io
 from pathlib import Path
-from xml.sax.saxutils import escape
 
 from reportlab.lib.units import mm
 from reportlab.platypus import CondPageBreak, Image, KeepTogether, Paragraph, Spacer
 
-from rfsafe.report.common import (COMPLIES_COLOR, EXCEEDS_COLOR, FONT_BOLD, build_pdf,
+from rfsafe.report.common import (COMPLIES_COLOR, EXCEEDS_COLOR, FONT_BOLD, build_pdf, escape,
                                   cautions_block, data_table, frame_width, grouped_flags, identity_block, kv_table,
                                   num, p, ratio_text, section_heading, signoff_block, styles)
 

@@ -24,12 +24,11 @@ from __future__ import annotations
 import math
 import re
 from pathlib import Path
-from xml.sax.saxutils import escape
 
 from reportlab.lib.units import mm
 from reportlab.platypus import CondPageBreak, KeepTogether, Paragraph, Spacer
 
-from rfsafe.report.common import (COMPLIES_COLOR, EXCEEDS_COLOR, Styled, build_pdf, cautions_block, data_table,
+from rfsafe.report.common import (COMPLIES_COLOR, EXCEEDS_COLOR, Styled, build_pdf, cautions_block, data_table, escape,
                                   frame_width, grouped_flags, heading_before_table, identity_block, kv_table,
                                   margin_text, num, p, ratio_text, section_heading, signoff_block, styles)
 from rfsafe.report.figures import exposure_distance_figure, exposure_legend, figure_rows, line_profile_figure
