@@ -168,6 +168,8 @@ def _kz(kk, krho):
 
 _ALPHAS = 2.0 * math.pi * np.arange(5) / 5.0
 _NS = np.arange(-2, 3)
+#: Fourier coefficient n = -2..2 from the five samples in alpha: (1/5) e^{-j n alpha}, (n, alpha).
+_ALPHA_TO_N = np.exp(-1j * np.outer(_NS, _ALPHAS)) / 5.0
 
 
 def _spectral_coefficients(krho, k0: float, eps_c: complex, k_img: complex):
@@ -208,9 +210,8 @@ def _spectral_coefficients(krho, k0: float, eps_c: complex, k_img: complex):
         e_r = (s * ex - t * kxe_x / omega_eps0, s * ey - t * kxe_y / omega_eps0, -t * kxe_z / omega_eps0)
         # H_r = kr x (s e) / (omega mu0) + t e
         h_r = (s * kxe_x / omega_mu0 + t * ex, s * kxe_y / omega_mu0 + t * ey, s * kxe_z / omega_mu0)
-        comps = np.stack(e_r + h_r)                       # (6, 5, K)
-        phase = np.exp(-1j * np.outer(_NS, _ALPHAS)) / 5.0  # (n, alpha)
-        out[o] = np.einsum("na,cak->nck", phase, comps)
+        comps = np.stack(e_r + h_r, axis=1)               # (5 alpha, 6, K)
+        out[o] = (_ALPHA_TO_N @ comps.reshape(5, -1)).reshape(5, 6, -1)
     return out
 
 
@@ -359,6 +360,7 @@ _QUANT_O = np.array([q[0] for q in _QUANT])
 _QUANT_C = np.array([q[1] for q in _QUANT])
 _QUANT_WEIGHTS = np.array([[[sign * np.exp(1j * n * phi) * (-1j) ** abs(n) if abs(n) == m else 0.0 for m in range(3)]
                             for n in range(-2, 3)] for (_o, _c, phi, sign) in _QUANT])
+_QUANT_WEIGHTS_T = np.ascontiguousarray(_QUANT_WEIGHTS.transpose(0, 2, 1))
 #: The quantities that carry J_0, J_1, J_2 (the others' coefficients are zero: the vertical dipole's fields
 #: are axisymmetric, the horizontal dipole's are cos/sin phi times J_0 +- J_2 or J_1).
 _ORDERS = ([1, 3, 5, 6, 7], [0, 2, 4, 8], [3, 5, 6, 7])
@@ -482,22 +484,21 @@ class ReflectionTable:
             kb, wb = kr[c0:c1], w[c0:c1]
             coef = _spectral_coefficients(kb, k0, self.eps_c, self.k_img)       # (2, 5, 6, B)
             # a[q, m, k]: weight of J_m in quantity q
-            a = np.einsum("qnm,qnk->qmk", _QUANT_WEIGHTS, coef[_QUANT_O, :, _QUANT_C]) * (2.0 * math.pi * kb * wb)
-            # J_m(krho rho) as (B, nu) blocks
-            jm = np.empty((3, len(kb), nu), dtype=complex)
+            a = np.matmul(_QUANT_WEIGHTS_T, coef[_QUANT_O, :, _QUANT_C]) * (2.0 * math.pi * kb * wb)   # (9, 3, B)
+            # J_m(krho rho) as (B, nu) blocks: complex on the path's top, real on the real axis (its products real)
             top = max(0, min(n_top, c1) - c0)
+            jm = np.empty((3, top, nu), dtype=complex)
             if top:
                 x_top = np.outer(kb[:top], rho)
-                jm[0, :top], jm[1, :top] = bessel_j01(x_top)
+                jm[0], jm[1] = bessel_j01(x_top)
                 with np.errstate(divide="ignore", invalid="ignore"):   # J2 = 2 J1 / x - J0 (recurrence)
-                    jm[2, :top] = np.where(np.abs(x_top) > 1e-2, 2.0 * jm[1, :top] / x_top - jm[0, :top],
-                                           x_top ** 2 / 8.0)
+                    jm[2] = np.where(np.abs(x_top) > 1e-2, 2.0 * jm[1] / x_top - jm[0], x_top ** 2 / 8.0)
+            jr = np.empty((3, len(kb) - top, nu))
             if top < len(kb):
                 x_tail = np.outer(kb[top:].real, rho)
-                jm[0, top:], jm[1, top:] = j0(x_tail), j1(x_tail)
+                jr[0], jr[1] = j0(x_tail), j1(x_tail)
                 with np.errstate(divide="ignore", invalid="ignore"):   # J2 = 2 J1 / x - J0 (recurrence)
-                    jm[2, top:] = np.where(x_tail > 1e-2, 2.0 * jm[1, top:].real / x_tail - jm[0, top:].real,
-                                           x_tail ** 2 / 8.0)
+                    jr[2] = np.where(x_tail > 1e-2, 2.0 * jr[1] / x_tail - jr[0], x_tail ** 2 / 8.0)
             # Heights in groups of _ROW_GROUP (kend falls with h): one matrix product per group and order,
             # each height's nodes beyond its own tail end weighted 0.
             a_m = [np.ascontiguousarray(a[qs, m]) for m, qs in enumerate(_ORDERS)]
@@ -508,9 +509,15 @@ class ReflectionTable:
                     break
                 e = np.exp(-1j * hs[g0:g1, None] * kz[None, c0:c0 + ke])
                 e[np.arange(ke)[None, :] >= (np.minimum(kend[g0:g1], c1) - c0)[:, None]] = 0.0
+                kt = min(top, ke)
                 for m, qs in enumerate(_ORDERS):
                     t = (a_m[m][None, :, :ke] * e[:, None, :]).reshape(-1, ke)
-                    vals[g0:g1, qs] += (t @ jm[m, :ke]).reshape(g1 - g0, len(qs), nu)
+                    acc = t[:, :kt] @ jm[m, :kt]
+                    if ke > top:      # complex times real: two real products (half the work of a complex one)
+                        tail = t[:, top:]
+                        acc += tail.real @ jr[m, :ke - top]
+                        acc += 1j * (tail.imag @ jr[m, :ke - top])
+                    vals[g0:g1, qs] += acc.reshape(g1 - g0, len(qs), nu)
         vals = vals.transpose(2, 0, 1)
         r = np.sqrt(rho[:, None] ** 2 + hs[None, :] ** 2)
         self.values = vals * (r * np.exp(1j * k0 * r))[..., None]
@@ -1088,12 +1095,10 @@ def _run_dipoles(st, k: float, seg_i, idx, n: int):
     fine_c = ((seg_i[idx, 0, None] * f1[idx] + seg_i[idx, 1, None] * f2[idx]) * w[idx]).ravel()   # I ds [A m]
     xg, _ = gauss_legendre_01(n)
     nodes = xg * length
-    lag = np.ones((n, len(fine_s)))
-    for j in range(n):
-        for m in range(n):
-            if m != j:
-                lag[j] *= (fine_s - nodes[m]) / (nodes[j] - nodes[m])
-    weights = lag @ fine_c
+    # Lagrange polynomials l_j(s) = prod_{m != j} (s - x_m) / (x_j - x_m) at the fine nodes, (n, fine)
+    factors = (fine_s[None, None, :] - nodes[None, :, None]) / (nodes[:, None, None] - nodes[None, :, None] + np.eye(n)[..., None])
+    factors[np.arange(n), np.arange(n)] = 1.0
+    weights = factors.prod(axis=1) @ fine_c
     return o + nodes[:, None] * u, weights[:, None] * u
 
 
