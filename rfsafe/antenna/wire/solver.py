@@ -179,7 +179,16 @@ def _source_side(ts: _TestSide, k: float, src, need, truns=None):
         blk[:, :, 0] = coef[:, None] * (cc[:, None] * h - hm)
         blk[:, :, 1] = coef[:, None] * (cc[:, None] * hm - h)
         toe["blocks"] = blk
+    out["near_blocks"] = _near_blocks(ts, k, out)
     return out
+
+
+def _near_blocks(ts: _TestSide, k: float, src: dict) -> np.ndarray:
+    """Blocks (n, 2, 2) of the near pairs (closer than a test-segment length; sinh-mapped rule), all at once
+    per source set. (Not shared between translated pairs: a segment's self term changes by some 1e-11
+    with the rounding of its coordinates, which a conditioned system can raise to 1e-9 in the currents.)"""
+    ip, iq = src["near"]
+    return _pair_list(ts, k, ip, iq, "near", src)
 
 
 #: Straight runs of at least ``_TRANSLATE_MIN`` equal segments share kernel values between translated
@@ -347,8 +356,8 @@ def _rows_into(blk, ts: _TestSide, k: float, src: dict, r0: int, r1: int, c0: in
         ip, iq = src[rule]
         lo, hi = np.searchsorted(ip, [r0, r1])
         if hi > lo:
-            part[ip[lo:hi] - r0, :, iq[lo:hi] - c0, :] = src["sign"] * _pair_list(
-                ts, k, ip[lo:hi], iq[lo:hi], rule, src)
+            blocks = src["near_blocks"][lo:hi] if rule == "near" else _pair_list(ts, k, ip[lo:hi], iq[lo:hi], rule, src)
+            part[ip[lo:hi] - r0, :, iq[lo:hi] - c0, :] = src["sign"] * blocks
     if not fresh:
         blk[:, :, c0:c1, :] += part
 
