@@ -964,13 +964,15 @@ REMAINDER_NODES_PER_HEIGHT = 1.0
 
 
 def remainder_nodes(st, h_min_m: float) -> int:
-    """Gauss-Legendre nodes per segment for the Sommerfeld remainder over the smallest height sum h_min_m.
+    """Gauss-Legendre nodes per segment for the Sommerfeld remainder of the reaction matrix (``RemainderRows``)
+    over the smallest height sum h_min_m (the near fields take ``_remainder_dipoles``).
 
     The remainder varies on the scale of the height sum z + z' (the subtracted image carries the
     singular part), so segments get ``REMAINDER_NODES_PER_HEIGHT`` nodes per height sum (1 to 8): one
-    node where the segments are short against the height (measured: the near field within 0.3 % of the
-    direct Sommerfeld integral, 1 to 3 nodes, for a lambda/2 dipole 0.05 and 0.14 lambda up, points at
-    0 to 3 m).
+    node where the segments are short against the height (measured, when the near fields used the same rule:
+    the near field within 0.3 % of the direct Sommerfeld integral, 1 to 3 nodes, for a lambda/2 dipole 0.05 and
+    0.14 lambda up, points at 0 to 3 m; for the near fields of low sloped wires it was not enough,
+    ``FIELD_NODES_PER_HEIGHT_SLOPED``).
     """
     return int(min(MAX_REMAINDER_NODES, max(1, math.ceil(REMAINDER_NODES_PER_HEIGHT * float(st.length_m.max())
                                                           / h_min_m))))
@@ -1096,7 +1098,8 @@ def _run_dipoles(st, k: float, seg_i, idx, n: int):
     xg, _ = gauss_legendre_01(n)
     nodes = xg * length
     # Lagrange polynomials l_j(s) = prod_{m != j} (s - x_m) / (x_j - x_m) at the fine nodes, (n, fine)
-    factors = (fine_s[None, None, :] - nodes[None, :, None]) / (nodes[:, None, None] - nodes[None, :, None] + np.eye(n)[..., None])
+    gaps = nodes[:, None] - nodes[None, :] + np.eye(n)                       # x_j - x_m (1 on the diagonal)
+    factors = (fine_s[None, None, :] - nodes[None, :, None]) / gaps[..., None]
     factors[np.arange(n), np.arange(n)] = 1.0
     weights = factors.prod(axis=1) @ fine_c
     return o + nodes[:, None] * u, weights[:, None] * u
@@ -1142,11 +1145,11 @@ def approximation_cautions(st, k: float, points_m, labels=None) -> tuple[str, ..
 def remainder_near_fields(st, k: float, seg_i: np.ndarray, points_m: np.ndarray, usage: dict | None = None):
     """Sommerfeld remainder of E [V/m] and H [A/m] at points (N, 3) from the segment currents (Ns, 2).
 
-    The PWS current of each segment is integrated with ``remainder_nodes`` Gauss-Legendre nodes as
-    Hertzian dipoles I(s) w ds along the segment; the image part (-K times the image currents) is
-    summed exactly by the caller with the other closed-form segment fields. A point whose every pair with
-    those dipoles satisfies ``rca_mask`` gets the reflection-coefficient approximation; every other point
-    the interpolated Sommerfeld integrals, the table covering only those. ``usage`` (a dict) counts the
+    The PWS current of the segments is integrated as Hertzian dipoles along them (``_remainder_dipoles``: a
+    Gauss-Legendre rule per segment or a moment-matched rule per straight run); the image part (-K times the
+    image currents) is summed exactly by the caller with the other closed-form segment fields. A point whose
+    every pair with those dipoles satisfies ``rca_mask`` gets the reflection-coefficient approximation; every
+    other point the interpolated Sommerfeld integrals, the table covering only those. ``usage`` (a dict) counts the
     points of each method under "exact" and "rca".
     """
     points_m = np.asarray(points_m, dtype=float)
