@@ -431,6 +431,8 @@ def _parallel_blocks(ts: _TestSide, k: float, src: dict, r0: int, r1: int, cols:
         direct = np.flatnonzero(~ok[a])
         if len(direct):
             c = cols[direct]
+            if direct[-1] - direct[0] == len(direct) - 1:           # one range of columns (no scatter)
+                direct = slice(direct[0], direct[-1] + 1)
             part[a:b, :, direct, :] = _node_blocks(ts, src, r0 + a, r0 + b, c,
                                                    *_node_sums_direct(ts, k, src, r0 + a, r0 + b, c))
     return part
@@ -815,9 +817,11 @@ def _power_kernel(tab: dict, i0: int, i1: int, direct) -> np.ndarray:
         base = tab["base"][trun[a], srun]
         ok = base >= 0
         if ok.any():
-            np.take(tab["kern"], rowterm[a:b, None] + np.where(ok, base + colterm, 0), out=kern[a:b])
+            np.take(tab["kern"], rowterm[a:b, None] + np.where(ok, base + colterm, 0), out=kern[a:b], mode="clip")
         cols = np.flatnonzero(~ok)
-        if len(cols):
+        if len(cols) and cols[-1] - cols[0] == len(cols) - 1:     # one range of columns (no scatter)
+            kern[a:b, cols[0]:cols[-1] + 1] = direct(i0 + a, i0 + b, slice(i0 + cols[0], i0 + cols[-1] + 1))
+        elif len(cols):
             kern[a:b, cols] = direct(i0 + a, i0 + b, i0 + cols)
     return kern
 
