@@ -77,6 +77,24 @@ def test_half_wave_dipole_peak_is_2_15_dbi():
     assert pt.pattern_gain_dbi("half-wave-dipole", d) == pytest.approx(2.15, abs=0.005)
 
 
+def test_half_wave_dipole_directivity_is_four_over_cin_2pi():
+    # Balanis, Antenna Theory 4th ed., sec. 4.6: D0 = 4 / Cin(2 pi), Cin(x) = int_0^x (1 - cos t)/t dt.
+    # The module writes the value out (no quadrature at start-up); this is the quadrature it replaces
+    # (64-point Gauss-Legendre, numpy's nodes), which must give the same float bit for bit, and the
+    # cosine integral is also checked against scipy's Ci: Cin(x) = gamma + ln x - Ci(x) (Abramowitz and
+    # Stegun 5.2.2, from memory).
+    from scipy.special import sici
+
+    nodes, weights = np.polynomial.legendre.leggauss(64)
+    x = 2.0 * math.pi
+    t = 0.5 * x * (nodes + 1.0)
+    cin = float(0.5 * x * np.sum(weights * (1.0 - np.cos(t)) / t))
+    assert pt.HALF_WAVE_DIPOLE_DIRECTIVITY == 4.0 / cin
+    cin_closed = np.euler_gamma + math.log(x) - float(sici(x)[1])
+    assert cin == pytest.approx(cin_closed, rel=1e-13)   # smooth integrand: 64 points converge to rounding
+    assert pt.QUARTER_WAVE_VERTICAL_DIRECTIVITY == 2.0 * pt.HALF_WAVE_DIPOLE_DIRECTIVITY
+
+
 def test_half_wave_dipole_nulls_off_the_ends_and_lobes_broadside():
     # A horizontal dipole pointed at azimuth 30: wire along bearings 120/300, lobes toward 30 and 210.
     kw = dict(azimuth_deg=30.0, tilt_deg=0.0, polarisation="horizontal")
@@ -212,6 +230,15 @@ def test_gauss_legendre_integrates_polynomials_of_degree_2n_minus_1_exactly():
     for k in range(2 * n):
         exact = 2.0 / (k + 1) if k % 2 == 0 else 0.0
         assert float(np.sum(w * x ** k)) == pytest.approx(exact, abs=1e-14)
+
+
+def test_stored_beam_elevation_rule_is_gauss_legendre_721_bit_for_bit():
+    """The 721-point rule beam_sphere_integral reads from rfsafe/antenna/data is the one gauss_legendre
+    computes (a stored copy, read instead of computed at start-up): the same floats exactly."""
+    x, w = pt._beam_elevation_rule()
+    x_ref, w_ref = pt.gauss_legendre(721)
+    assert x.shape == w.shape == (721,)
+    assert np.array_equal(x, x_ref) and np.array_equal(w, w_ref)
 
 
 @pytest.mark.parametrize("fb, bh, bv", [(20.0, 66.0, 120.0), (25.0, 60.0, 40.0), (3.02, 359.0, 179.0),

@@ -48,18 +48,14 @@ PATTERN_KINDS = ("isotropic", "short-dipole", "half-wave-dipole", "quarter-wave-
 POLARISATIONS = ("horizontal", "vertical")
 
 
-def _cin(x: float, n: int = 64) -> float:
-    """Cosine integral Cin(x) = int_0^x (1 - cos t)/t dt, by Gauss-Legendre (smooth integrand)."""
-    nodes, weights = np.polynomial.legendre.leggauss(n)
-    t = 0.5 * x * (nodes + 1.0)
-    return float(0.5 * x * np.sum(weights * (1.0 - np.cos(t)) / t))
-
-
 #: Directivity of an infinitesimal (short) dipole: 3/2 (Balanis, Antenna Theory, sec. 4.2).
 SHORT_DIPOLE_DIRECTIVITY = 1.5
 #: Directivity of a thin half-wave dipole, 4 / Cin(2 pi) = 1.641 (2.15 dBi)
-#: (Balanis, Antenna Theory, sec. 4.6, D0 = 4/Cin(2 pi)).
-HALF_WAVE_DIPOLE_DIRECTIVITY = 4.0 / _cin(2.0 * math.pi)
+#: (Balanis, Antenna Theory, sec. 4.6, D0 = 4/Cin(2 pi)), with the cosine integral
+#: Cin(x) = int_0^x (1 - cos t)/t dt by 64-point Gauss-Legendre quadrature (numpy's leggauss nodes). Written
+#: out so that no quadrature (and no numpy.polynomial import) runs at every start-up; tests/test_patterns.py
+#: recomputes it by that quadrature and requires the same float bit for bit.
+HALF_WAVE_DIPOLE_DIRECTIVITY = 1.6409223769845829
 #: Quarter-wave monopole over perfect ground: twice the half-wave dipole (image theory,
 #: Balanis, Antenna Theory, sec. 4.7), 3.28 (5.16 dBi).
 QUARTER_WAVE_VERTICAL_DIRECTIVITY = 2.0 * HALF_WAVE_DIPOLE_DIRECTIVITY
@@ -346,12 +342,13 @@ def beam_sphere_integral(front_to_back_db: float, beamwidth_h_deg: float, beamwi
     ``max(a(elevation) h(azimuth), floor)``, so each elevation row sums ``a h`` over the azimuths where
     it lies above the floor (the largest ``h``, found by one sort and a prefix sum) and the floor over
     the rest. The same terms as the full grid, summed in another order, with the nodes of
-    :func:`gauss_legendre`: within 1e-13 relative of the full grid on numpy's nodes and weights (the
-    difference is numpy's rounding of the outermost weights; tests/test_patterns.py compares them).
+    :func:`gauss_legendre` (read from their stored copy, :func:`_beam_elevation_rule`): within 1e-13
+    relative of the full grid on numpy's nodes and weights (the difference is numpy's rounding of the
+    outermost weights; tests/test_patterns.py compares them).
     """
-    n_el, n_az = 721, 1440
+    n_az = 1440
     p, q = beam_exponents(beamwidth_h_deg, beamwidth_v_deg)
-    mu, w = gauss_legendre(n_el)                              # mu = sin(elevation)
+    mu, w = _beam_elevation_rule()                            # mu = sin(elevation), 721 nodes
     az = np.radians((np.arange(n_az) + 0.5) * (360.0 / n_az))
     h = np.sort(np.maximum(0.5 * (1.0 + np.cos(az)), 0.0) ** p)   # [(1 + cos phi) / 2]^p, ascending
     a = np.sqrt(np.maximum(1.0 - mu * mu, 0.0)) ** q          # cos^q(elevation)
@@ -361,6 +358,22 @@ def beam_sphere_integral(front_to_back_db: float, beamwidth_h_deg: float, beamwi
         above = n_az - np.searchsorted(h, floor / a, side="right")   # how many h have a h > floor
     rows = a * top[above] + floor * (n_az - above)            # sum over azimuth of max(a h, floor)
     return float(np.sum(w * rows) * (2.0 * math.pi / n_az))
+
+
+@functools.lru_cache(maxsize=1)
+def _beam_elevation_rule() -> tuple[np.ndarray, np.ndarray]:
+    """``gauss_legendre(721)`` as stored in ``data/gauss_legendre_721.txt`` (the same floats bit for bit,
+    tested; reading them takes well under a millisecond, computing them about 10 ms of every start-up that
+    checks a beam)."""
+    from importlib import resources
+
+    text = resources.files("rfsafe.antenna").joinpath("data", "gauss_legendre_721.txt").read_text(encoding="utf-8")
+    rows = [line.split() for line in text.splitlines() if line and not line.startswith("#")]
+    nodes = np.array([float.fromhex(a) for a, _ in rows])
+    weights = np.array([float.fromhex(b) for _, b in rows])
+    nodes.flags.writeable = False
+    weights.flags.writeable = False
+    return nodes, weights
 
 
 @functools.lru_cache(maxsize=8)
