@@ -648,10 +648,10 @@ def place_ratios(em: Emitter, loaded: LoadedStation, cres: ConfigurationResult, 
     pts = np.column_stack([np.repeat(xs, nh), np.repeat(ys, nh), np.tile(hz, n)])
     if em.solution is not None:
         return _wire_place_ratios(em, loaded, cres, environment, pts, list(heights))
-    from rfsafe.antenna.extent import nearest_distance_m
-
     limits = em.limits[environment]
-    dist_raw = nearest_distance_m(em.extent, pts)
+    dist_raw, g = _kept((em.extent, loaded.pattern_tables.get(em.antenna.id)),
+                        ("far field", em.peak_gain_dbi, pts.shape, pts.tobytes()),
+                        lambda: _far_field_geometry(em, loaded, pts), len(pts))
     dist = np.maximum(dist_raw, MIN_FAR_FIELD_DIST_M)
     ant = em.antenna
 
@@ -666,6 +666,24 @@ def place_ratios(em: Emitter, loaded: LoadedStation, cres: ConfigurationResult, 
 
     if not ant.use_pattern:
         return ratios(np.full(len(pts), em.peak_gain_dbi))
+    out = ratios(np.broadcast_to(np.asarray(g, dtype=float), (len(pts),)))
+    # a far-field pattern's nulls do not hold near the antenna: its peak gain is taken there
+    inside = dist_raw.reshape(n, nh).min(axis=1) < max(cres.near_field_distance_m, cres.aperture_far_field_m or 0.0)
+    if np.any(inside):
+        out = np.where(inside, ratios(np.full(len(pts), em.peak_gain_dbi)), out)
+    return out
+
+
+def _far_field_geometry(em: Emitter, loaded: LoadedStation, pts: np.ndarray):
+    """Distances [m] from points (N, 3) to the nearest part of the emitter's structure, and its pattern gain
+    toward them [dBi] (None when the antenna uses its peak gain): what :func:`place_ratios` computes that no
+    power, duty factor, schedule or line loss changes."""
+    from rfsafe.antenna.extent import nearest_distance_m
+
+    dist_raw = nearest_distance_m(em.extent, pts)
+    ant = em.antenna
+    if not ant.use_pattern:
+        return dist_raw, None
     from rfsafe.antenna import patterns
 
     index = next(k for k, a in enumerate(loaded.model.antennas) if a.id == ant.id)
@@ -676,12 +694,38 @@ def place_ratios(em: Emitter, loaded: LoadedStation, cres: ConfigurationResult, 
                                   front_to_back_db=ant.front_to_back_db, beamwidth_h_deg=ant.beamwidth_h_deg,
                                   beamwidth_v_deg=ant.beamwidth_v_deg, table=loaded.pattern_tables.get(ant.id),
                                   field=f"antennas[{index}]")
-    out = ratios(np.broadcast_to(np.asarray(g, dtype=float), (len(pts),)))
-    # a far-field pattern's nulls do not hold near the antenna: its peak gain is taken there
-    inside = dist_raw.reshape(n, nh).min(axis=1) < max(cres.near_field_distance_m, cres.aperture_far_field_m or 0.0)
-    if np.any(inside):
-        out = np.where(inside, ratios(np.full(len(pts), em.peak_gain_dbi)), out)
-    return out
+    return dist_raw, g
+
+
+#: Point geometry kept between evaluations (see :func:`_kept`): at most this many points in all.
+_KEPT_POINTS = 200_000
+_kept_values: dict = {}
+
+
+def _kept(owners: tuple, key: tuple, compute, points: int):
+    """``compute()``, kept under ``key`` and the identity of ``owners`` (objects never changed after they are
+    made: an antenna's extent, its pattern table, a wire solution), their read-only arrays handed out again.
+
+    The remedies evaluate the same places against the same structures many times with only a power, a duty
+    factor, a schedule or a line loss changed (extents and wire solutions are shared per antenna and
+    frequency): their distances, gains and wire distances are the same numbers each time. An entry holds
+    its owners, so their ids are not reused while it exists; the oldest entries go first beyond
+    :data:`_KEPT_POINTS` points.
+    """
+    full = (tuple(id(o) for o in owners), key)
+    hit = _kept_values.get(full)
+    if hit is not None:
+        return hit[1]
+    value = compute()
+    for a in (value if isinstance(value, tuple) else (value,)):
+        if isinstance(a, np.ndarray):
+            a.setflags(write=False)
+    _kept_values[full] = (owners, value, points)
+    _kept_values["points"] = _kept_values.get("points", 0) + points
+    while _kept_values["points"] > _KEPT_POINTS and len(_kept_values) > 2:   # oldest first
+        old = next(k for k in _kept_values if k != "points" and k != full)
+        _kept_values["points"] -= _kept_values.pop(old)[2]
+    return value
 
 
 def _wire_place_ratios(em: Emitter, loaded: LoadedStation, cres: ConfigurationResult, env: str, pts: np.ndarray,
@@ -786,11 +830,15 @@ def _wire_solutions(em: Emitter) -> list:
 
 
 def _wire_distance_m(solution, points: np.ndarray) -> np.ndarray:
-    """Distance [m] from each point (N, 3) to the nearest point of the solved wires (shield included)."""
+    """Distance [m] from each point (N, 3) to the nearest point of the solved wires (shield included); kept
+    per solution and points (read-only, see :func:`_kept`)."""
     from rfsafe.antenna.wire.geometry import point_segment_distances
 
     st = solution.structure
-    return point_segment_distances(points[:, None, :], st.start_m[None], st.end_m[None]).min(axis=1)
+    pts = np.asarray(points, dtype=float)
+    return _kept((solution,), ("wire distance", pts.shape, pts.tobytes()),
+                 lambda: point_segment_distances(pts[:, None, :], st.start_m[None], st.end_m[None]).min(axis=1),
+                 len(pts))
 
 
 def _wire_size_m(solution) -> float:

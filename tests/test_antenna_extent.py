@@ -138,3 +138,18 @@ def test_site_grid_flags_the_near_field_of_the_beam_elements():
     pts = [tip + right * (0.98 * lam / (2 * math.pi)), tip + right * (1.02 * lam / (2 * math.pi))]
     grid = ratio_grid(beam, [p[0] for p in pts], [p[1] for p in pts], [e.height_m])
     assert grid.near_field.tolist() == [True, False]
+
+
+def test_the_same_antenna_and_frequency_give_the_same_extent_object():
+    # shared so that its prepared geometry serves every evaluation (the remedies re-evaluate dozens of times);
+    # another frequency or any changed key gives another structure, equal to one made afresh
+    from rfsafe.antenna.extent import _antenna_extent, extent_key
+
+    ant = _ant(kind="half-wave-dipole", azimuth_deg=30.0)
+    ext = antenna_extent(ant, F_HZ)
+    assert antenna_extent(_ant(kind="half-wave-dipole", azimuth_deg=30.0), F_HZ) is ext
+    assert extent_key(ext) == extent_key(_antenna_extent(ant, F_HZ, None))
+    other = antenna_extent(ant, 2 * F_HZ)
+    assert other is not ext and _d(other, (0.0, 0.0, 10.0 + LAM / 8)) == pytest.approx(LAM / 8)
+    moved = antenna_extent(_ant(kind="half-wave-dipole", azimuth_deg=30.0, height_m=11.0), F_HZ)
+    assert moved is not ext and extent_key(moved) != extent_key(ext)

@@ -372,3 +372,38 @@ def test_remedies_from_the_first_evaluation_equal_remedies_solved_afresh():
         R._budget.clear()
     assert places == res.place_remedies
     assert configs == res.configuration_remedies
+
+
+@pytest.mark.parametrize("name", ["demo_station.toml", "demo_wire_station.toml"])
+def test_kept_extents_distances_and_gains_give_the_answers_computed_afresh(name, monkeypatch):
+    """Extents shared per antenna and frequency, and the distances, pattern gains and wire distances kept
+    per structure and points (assess._kept), change no number: the whole evaluation with its keep-out and
+    remedies equals the one computed with nothing kept (every extent made anew, every value recomputed)."""
+    import rfsafe.antenna.extent as extent_module
+    import rfsafe.assess as assess_module
+    from rfsafe.cli.output import dump_json
+
+    loaded = load_station(DEMO / name)
+    kept = dump_json(R.with_answers(loaded, near_field_maps=False))
+    again = dump_json(R.with_answers(loaded, near_field_maps=False))   # now served from what was kept
+    monkeypatch.setattr(extent_module, "_MADE_ENTRIES", 0)
+    monkeypatch.setattr(assess_module, "_kept", lambda owners, key, compute, points: compute())
+    fresh = dump_json(R.with_answers(load_station(DEMO / name), near_field_maps=False))
+    assert kept == fresh
+    assert again == fresh
+
+
+def test_kept_values_are_dropped_oldest_first_beyond_their_point_budget(monkeypatch):
+    import numpy as np
+
+    import rfsafe.assess as assess_module
+
+    monkeypatch.setattr(assess_module, "_kept_values", {})
+    monkeypatch.setattr(assess_module, "_KEPT_POINTS", 10)
+    owner = object()
+    first = assess_module._kept((owner,), ("k", 1), lambda: np.zeros(6), 6)
+    assert not first.flags.writeable                        # handed out again: nobody may change it
+    assert assess_module._kept((owner,), ("k", 1), lambda: np.ones(6), 6) is first
+    assess_module._kept((owner,), ("k", 2), lambda: np.ones(6), 6)   # 12 points > 10: the oldest goes
+    assert ("k", 1) not in {k[1] for k in assess_module._kept_values if k != "points"}
+    assert assess_module._kept_values["points"] == 6

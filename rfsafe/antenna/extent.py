@@ -89,8 +89,16 @@ def _frame(azimuth_deg: float, tilt_deg: float):
     return (np.array([sa * ct, ca * ct, st]), np.array([ca, -sa, 0.0]), np.array([-sa * st, -ca * st, ct]))
 
 
+#: Extents made lately, under their inputs: the same antenna at the same frequency gives the same object, so
+#: its prepared geometry (:func:`structure_parts`) and what callers keep per extent serve every evaluation of
+#: it (the remedies re-evaluate a station dozens of times with only a power or a schedule changed).
+_MADE: dict = {}
+_MADE_ENTRIES = 64
+
+
 def antenna_extent(ant, freq_hz: float, wire_spec=None) -> Extent:
-    """The radiating structure of a declared antenna at ``freq_hz`` [Hz].
+    """The radiating structure of a declared antenna at ``freq_hz`` [Hz] (the same object for the same inputs,
+    among the last ``_MADE_ENTRIES``; an extent is never changed after it is made).
 
     Parameters
     ----------
@@ -107,6 +115,20 @@ def antenna_extent(ant, freq_hz: float, wire_spec=None) -> Extent:
     sec. 4.7 (quarter-wave monopole over a ground plane); a short dipole is shorter than a half wave.
     47 CFR 1.1307(b)(3): the separation is measured from any part of the radiating structure.
     """
+    try:
+        key = (type(ant).__name__, ant.model_dump_json(), float(freq_hz),
+               None if wire_spec is None else wire_spec.model_dump_json())
+    except (AttributeError, TypeError, ValueError):   # not a file model: made afresh
+        return _antenna_extent(ant, freq_hz, wire_spec)
+    made = _MADE.get(key)
+    if made is None:
+        made = _MADE[key] = _antenna_extent(ant, freq_hz, wire_spec)
+        while len(_MADE) > _MADE_ENTRIES:
+            _MADE.pop(next(iter(_MADE)))
+    return made
+
+
+def _antenna_extent(ant, freq_hz: float, wire_spec) -> Extent:
     lam = C0_M_S / float(freq_hz)
     centre = np.array([ant.x_m, ant.y_m, ant.height_m], dtype=float)
     fwd, right, up = _frame(ant.azimuth_deg, ant.tilt_deg)
