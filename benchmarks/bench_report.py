@@ -1,4 +1,7 @@
-"""Benchmark: wall time of the demo worksheet through the ``rfsafe report`` path (load + assess + render).
+"""Benchmark: the demo worksheets through the ``rfsafe report`` path (load + assess + render).
+
+First, the wire demo's worksheet step by step in a fresh process (CPU time: imports, evaluation, story,
+layout and PDF), against a fresh process that writes the minimal document; then wall times in process.
 
 Floor: a minimal reportlab document (one page, one paragraph in the embedded DejaVu Sans) built in
 the same run, so the ratio says how much the worksheet costs over reportlab's own fixed cost.
@@ -31,10 +34,75 @@ def _best(fn, repeats: int) -> tuple[float, float]:
 
 
 def main(repeats: int = 5) -> None:
+    bench_worksheet_phases(repeats)
     for demo in DEMOS:
         bench(demo, repeats)
     bench_wire_verdict(repeats)
     bench_wire_targets(min(repeats, 3))
+
+
+#: Run in a new process: CPU time [s] at each step of ``rfsafe report`` (as cmd_report does it).
+_PHASES = """
+import json, sys, time
+T = time.process_time
+marks = [("", 0.0), ("interpreter start", T())]
+import typer
+marks.append(("import typer", T()))
+from rfsafe.remedies import with_answers
+from rfsafe.station import load_station
+marks.append(("import evaluation", T()))
+from rfsafe.report.worksheet import build_pdf, worksheet_story, build_worksheet_pdf
+marks.append(("import report", T()))
+res = with_answers(load_station(sys.argv[1]))
+marks.append(("load + evaluate", T()))
+story = worksheet_story(res)
+marks.append(("worksheet: story (figures, maps, tables)", T()))
+build_pdf(story, title="t", author="", subject="", date_iso="2026-01-01", header_left="", header_right="",
+          footer_left="")
+marks.append(("worksheet: layout and PDF", T()))
+print(json.dumps({name: t1 - t0 for (_, t0), (name, t1) in zip(marks[:-1], marks[1:])}))
+print("matplotlib loaded:", any(m.startswith("matplotlib") for m in sys.modules))
+"""
+
+
+def bench_worksheet_phases(repeats: int) -> None:
+    """Where the CPU time of the wire-demo worksheet goes, step by step in a fresh process (medians).
+
+    Floor, in the same run: a fresh process that imports reportlab's platypus and writes the minimal
+    document (the least any worksheet costs beyond evaluating). The worksheet's own share is the story
+    (figures, maps, tables) plus layout and PDF; the issue-18 aim for the whole ``rfsafe report`` process
+    is 1.2 s, of which evaluation is the other part.
+    """
+    import json
+    import os
+    import subprocess
+
+    env = {**os.environ, "OMP_NUM_THREADS": "1", "OPENBLAS_NUM_THREADS": "1"}
+    env.pop("PYTHONDONTWRITEBYTECODE", None)
+    env["PYTHONPYCACHEPREFIX"] = str(Path(tempfile.gettempdir()) / "rfsafe-bench-pycache")
+    floor_code = (f"import sys, time; sys.path.insert(0, {str(Path(__file__).resolve().parent)!r}); "
+                  "import bench_report; bench_report.build_pdf_floor(); print(time.process_time())")
+    demo = DEMOS[1]
+    runs, floors, loaded = [], [], ""
+    for k in range(repeats + 1):          # the first run fills the bytecode cache
+        out = subprocess.run([sys.executable, "-c", _PHASES, str(demo)], capture_output=True, text=True, env=env,
+                             check=True).stdout.splitlines()
+        fl = subprocess.run([sys.executable, "-c", floor_code], capture_output=True, text=True, env=env,
+                            check=True).stdout.split()
+        if k:
+            runs.append(json.loads(out[0]))
+            floors.append(float(fl[-1]))
+            loaded = out[1]
+    names = list(runs[0])
+    med = {n: statistics.median(r[n] for r in runs) for n in names}
+    floor = statistics.median(floors)
+    print(f"== {demo.name}: CPU time of each step of the worksheet command in a fresh process, median of {repeats}")
+    for n in names:
+        print(f"  {n:42s} {med[n] * 1e3:8.1f} ms")
+    own = med["worksheet: story (figures, maps, tables)"] + med["worksheet: layout and PDF"] + med["import report"]
+    print(f"  {'floor: fresh process writing the minimal document':42s} {floor * 1e3:8.1f} ms")
+    print(f"  {'worksheet (report imports + story + PDF)':42s} {own * 1e3:8.1f} ms = {own / floor:.1f}x the floor; "
+          f"all steps {sum(med.values()) * 1e3:.1f} ms; {loaded}")
 
 
 def bench_wire_verdict(repeats: int) -> None:
