@@ -12,7 +12,10 @@ surface, distances sqrt(rho^2 + a^2)). Only a one-dimensional Gauss-Legendre qua
 test segment remains, vectorised over all segment pairs; pairs closer than one test-segment length
 use a sinh-mapped rule clustered at the segment ends, where the reduced kernel peaks. Kernel values
 are shared between the two segments of a node, parallel pairs need only them, and the symmetric
-matrix is computed as one triangle and mirrored (``impedance_matrix``). A perfectly
+matrix is computed as one triangle and mirrored (``impedance_matrix``). Along straight runs of
+equal segments, and between runs laid along the same step (the elements of an array), the geometry
+of a pair depends only on the segment offset: those kernel sums are computed once per offset and
+looked up (``_translate_sums``; the radiated-power kernel likewise, ``_power_table``). A perfectly
 conducting ground at z = 0 is represented by images. Delta-gap sources at nodes give the voltage
 vector V_m = sum_f g_fm V_f, and Z I = V is solved densely.
 
@@ -311,7 +314,8 @@ def _translate_sums(ts: _TestSide, k: float, ta: dict, sb: dict, s0: np.ndarray)
                 rep_test=ta["first"][ia[rep]][cnt_all], rep_src=sb["first"][ib[rep]][cnt_all])
 
 
-def _rows_into(blk, ts: _TestSide, k: float, src: dict, r0: int, r1: int, c0: int, c1: int, fresh: bool = False) -> None:
+def _rows_into(blk, ts: _TestSide, k: float, src: dict, r0: int, r1: int, c0: int, c1: int,
+               fresh: bool = False) -> None:
     """Add one source set's blocks for test rows r0:r1 and source columns c0:c1 to ``blk[p, e', q, e]``
     (``fresh``: that part of ``blk`` holds zeros, and is written in place).
 
@@ -1008,9 +1012,10 @@ def _radiation_vector(st: Structure, k: float, seg_i: np.ndarray, rhat: np.ndarr
         int_0^d e^{j alpha z} sin k(d - z) dz * P0 = (k P1 - P0 (k cos kd + j alpha sin kd)) / (k^2 - alpha^2)
         int_0^d e^{j alpha z} sin kz dz * P0       = (P1 (j alpha sin kd - k cos kd) + k P0) / (k^2 - alpha^2)
 
-    which costs two complex exponentials per segment and direction (fewer along straight runs of
-    equal segments, see :func:`_run_vector`; :class:`_Radiator` keeps the direction-free work); within ``_NEAR_AXIS`` of alpha = +-k (directions along
-    a segment) the sinc form of :func:`radiation_integrals` is used.
+    which costs one complex exponential per node and direction (fewer along straight runs of equal
+    segments, see :func:`_run_vector`; :class:`_Radiator` keeps the direction-free work); within
+    ``_NEAR_AXIS`` of alpha = +-k (directions along a segment) the sinc form of
+    :func:`radiation_integrals` is used.
     """
     return _Radiator(st, k, seg_i)(rhat)
 
