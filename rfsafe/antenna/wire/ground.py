@@ -385,7 +385,8 @@ _BLOCK = 8192
 #: |z| up to which ``bessel_j01`` sums the power series (its largest term, about e^|z| / (2 pi |z|), costs
 #: 1e-11 of the values there); beyond, Hankel's asymptotic expansion with ``_HANKEL_TERMS`` terms.
 _SERIES_MAX = 16.0
-_SERIES_TERMS = 52
+#: Terms of the series up to each |z| (each term beyond below 1e-17 of the largest: (|z|/2)^2n / n!^2).
+_SERIES_BANDS = ((2.0, 13), (6.0, 22), (_SERIES_MAX, 52))
 _HANKEL_TERMS = 16
 
 
@@ -399,18 +400,24 @@ def bessel_j01(z):
     z = np.asarray(z, dtype=complex)
     j0v = np.empty(z.shape, dtype=complex)
     j1v = np.empty(z.shape, dtype=complex)
-    small = np.abs(z) <= _SERIES_MAX
-    zs = z[small]
-    w = -0.25 * zs * zs
-    n = _SERIES_TERMS
-    a = np.full(zs.shape, 1.0 / math.factorial(n - 1) ** 2, dtype=complex)
-    b = np.full(zs.shape, 1.0 / (math.factorial(n - 1) * math.factorial(n)), dtype=complex)
-    for m in range(n - 2, -1, -1):
-        a *= w
-        a += 1.0 / math.factorial(m) ** 2
-        b *= w
-        b += 1.0 / (math.factorial(m) * math.factorial(m + 1))
-    j0v[small], j1v[small] = a, 0.5 * zs * b
+    mag = np.abs(z)
+    small = mag <= _SERIES_MAX
+    lower = -1.0
+    for upper, n in _SERIES_BANDS:        # fewer terms for the many small arguments
+        band = (mag > lower) & (mag <= upper)
+        lower = upper
+        if not band.any():
+            continue
+        zs = z[band]
+        w = -0.25 * zs * zs
+        a = np.full(zs.shape, 1.0 / math.factorial(n - 1) ** 2, dtype=complex)
+        b = np.full(zs.shape, 1.0 / (math.factorial(n - 1) * math.factorial(n)), dtype=complex)
+        for m in range(n - 2, -1, -1):
+            a *= w
+            a += 1.0 / math.factorial(m) ** 2
+            b *= w
+            b += 1.0 / (math.factorial(m) * math.factorial(m + 1))
+        j0v[band], j1v[band] = a, 0.5 * zs * b
     if not small.all():
         zl = z[~small]
         inv2 = 1.0 / (zl * zl)
@@ -993,9 +1000,10 @@ def _segment_nodes(st, k: float, nq: int):
 
 
 def _horizontal_span(a, b) -> float:
-    lo = np.minimum(a[:, :2].min(0), b[:, :2].min(0))
-    hi = np.maximum(a[:, :2].max(0), b[:, :2].max(0))
-    return float(np.hypot(*(hi - lo)))
+    # column by column (a reduction over the rows of an (N, 2) view is many times slower)
+    dx = max(a[:, 0].max(), b[:, 0].max()) - min(a[:, 0].min(), b[:, 0].min())
+    dy = max(a[:, 1].max(), b[:, 1].max()) - min(a[:, 1].min(), b[:, 1].min())
+    return float(np.hypot(dx, dy))
 
 
 def structure_table(st, k: float, obs_m=None) -> ReflectionTable:
@@ -1112,8 +1120,9 @@ def _rca_points(st, k: float, src, points_m) -> np.ndarray:
     ends = np.concatenate([st.start_m, st.end_m])
     lo = np.r_[ends[:, :2].min(0), -ends[:, 2].max()]
     hi = np.r_[ends[:, :2].max(0), -ends[:, 2].min()]
-    gap = np.linalg.norm(np.maximum(0.0, np.maximum(lo - points_m, points_m - hi)), axis=1)
-    far = gap >= rca_radius_m(k, st.soil_eps_c)
+    d = np.maximum(lo - points_m, points_m - hi)
+    np.maximum(d, 0.0, out=d)
+    far = d[:, 0] ** 2 + d[:, 1] ** 2 + d[:, 2] ** 2 >= rca_radius_m(k, st.soil_eps_c) ** 2   # the gap, squared
     cand = np.flatnonzero(far)
     step = max(1, 200_000 // len(src))
     for lo_i in range(0, len(cand), step):
