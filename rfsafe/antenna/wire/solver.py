@@ -219,7 +219,7 @@ def _segment_runs(s0: np.ndarray, s1: np.ndarray, radius: np.ndarray) -> dict:
     pos = np.zeros(ns, dtype=np.intp)
     first, size, step, tol = [], [], [], []
     for a, b in _uniform_runs(s0, s1):
-        cuts = [a] + [i for i in range(a + 1, b) if radius[i] != radius[i - 1]] + [b]
+        cuts = [a] + (a + 1 + np.flatnonzero(radius[a + 1:b] != radius[a:b - 1])).tolist() + [b]
         for u, v in zip(cuts, cuts[1:]):
             if v - u < _TRANSLATE_MIN:
                 continue
@@ -264,6 +264,11 @@ def _translated_pairs(ta: dict, sb: dict, rel: np.ndarray):
                            ta["size"][ia], sb["size"][ib], ta["radius"][ia]])
     _u, rep, inv = np.unique(key, axis=0, return_index=True, return_inverse=True)
     return ia, ib, rep, inv.reshape(-1)
+
+
+def _pattern_classes(base: np.ndarray) -> np.ndarray:
+    """Per test run (and the no-run row): an id shared by the runs translated to the same source runs."""
+    return np.unique(base >= 0, axis=0, return_inverse=True)[1].reshape(-1)
 
 
 def _translate_sums(ts: _TestSide, k: float, ta: dict, sb: dict, s0: np.ndarray):
@@ -311,6 +316,7 @@ def _translate_sums(ts: _TestSide, k: float, ta: dict, sb: dict, s0: np.ndarray)
     slen = np.concatenate([sb["size"], [0]])
     cnt_all = np.repeat(np.arange(len(rep)), cnt)
     return dict(hv=hv, base=base, trun=trun, tpos=ta["pos"], srun=srun, spos=sb["pos"] - slen[srun],
+                tcls=_pattern_classes(base),
                 rep_test=ta["first"][ia[rep]][cnt_all], rep_src=sb["first"][ib[rep]][cnt_all])
 
 
@@ -430,7 +436,8 @@ def _parallel_blocks(ts: _TestSide, k: float, src: dict, r0: int, r1: int, cols:
     if ok.any():
         ia = np.where(ok, base + toe["tpos"][r0:r1, None] - toe["spos"][cols][None, :], 1)
         part[...] = toe["blocks"][ia].transpose(0, 2, 1, 3)
-    cut = np.concatenate([[0], np.flatnonzero(trun[1:] != trun[:-1]) + 1, [r1 - r0]])
+    cls = toe["tcls"][trun]                     # rows of one class have the same directly computed columns
+    cut = np.concatenate([[0], np.flatnonzero(cls[1:] != cls[:-1]) + 1, [r1 - r0]])
     for a, b in zip(cut[:-1], cut[1:]):
         direct = np.flatnonzero(~ok[a])
         if len(direct):
@@ -807,12 +814,14 @@ def _power_table(k: float, ta: dict, sb: dict, tpts: np.ndarray, pts: np.ndarray
     rowterm = np.repeat(ta["pos"], q) * q * q + qq * q
     slen = np.concatenate([sb["size"], [1]])
     colterm = (slen[srun] - 1 - np.repeat(sb["pos"], q)) * q * q + qq
-    return dict(kern=kern, base=base, trun=trun, srun=srun, rowterm=rowterm, colterm=colterm)
+    return dict(kern=kern, base=base, trun=trun, srun=srun, rowterm=rowterm, colterm=colterm,
+                tcls=_pattern_classes(base))
 
 
 def _power_kernel(tab: dict, i0: int, i1: int, direct) -> np.ndarray:
-    """Kernel rows i0:i1 against points i0: of :func:`_radiated_power`: looked up for translated run pairs,
-    ``direct(i0, i1, columns)`` for the others (by rows of one run: they share their other columns)."""
+    """Kernel rows i0:i1 against points i0: of :func:`_radiated_power`: looked up for translated run pairs
+    (by rows of one run), ``direct(i0, i1, columns)`` for the others (by rows of one class of runs: they
+    share those columns)."""
     trun = tab["trun"][i0:i1]
     kern = np.empty((i1 - i0, len(tab["srun"]) - i0))
     srun, colterm, rowterm = tab["srun"][i0:], tab["colterm"][i0:], tab["rowterm"][i0:i1]
@@ -822,7 +831,10 @@ def _power_kernel(tab: dict, i0: int, i1: int, direct) -> np.ndarray:
         ok = base >= 0
         if ok.any():
             np.take(tab["kern"], rowterm[a:b, None] + np.where(ok, base + colterm, 0), out=kern[a:b], mode="clip")
-        cols = np.flatnonzero(~ok)
+    cls = tab["tcls"][trun]
+    cut = np.concatenate([[0], np.flatnonzero(cls[1:] != cls[:-1]) + 1, [i1 - i0]])
+    for a, b in zip(cut[:-1], cut[1:]):
+        cols = np.flatnonzero(tab["base"][trun[a], srun] < 0)
         if len(cols) and cols[-1] - cols[0] == len(cols) - 1:     # one range of columns (no scatter)
             kern[a:b, cols[0]:cols[-1] + 1] = direct(i0 + a, i0 + b, slice(i0 + cols[0], i0 + cols[-1] + 1))
         elif len(cols):
@@ -945,7 +957,8 @@ def _run_vector(r, k, setup: dict):
     zb = _powers(np.exp(1j * ad), nb).reshape(nr, len(r), nb)           # z^b, b < nb
     za = _powers(np.exp(1j * nb * ad), na).reshape(nr, len(r), na)      # z^(a nb), a < na
     mix = np.matmul(zb, setup["coef"]).reshape(nr, len(r), 2, na)
-    poly = np.einsum("rnpa,rna->npr", mix, za)
+    mix *= za[:, :, None, :]
+    poly = mix.sum(axis=-1).transpose(1, 2, 0)                          # (n, poly, runs)
     den = k * k - alpha * alpha
     amp = np.exp(1j * k * (r @ s0[first].T)) * (poly[:, 0] + 1j * ks * alpha * poly[:, 1])
     near = np.abs(den) < _NEAR_AXIS * k * k
