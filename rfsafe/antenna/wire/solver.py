@@ -944,9 +944,9 @@ def _run_vector(r, k, setup: dict):
     of :func:`_radiation_vector` then sums to s P_0 [C(z) + j alpha sin(kd) D(z)] / (k^2 - alpha^2),
     with polynomials C and D whose coefficients are the node sums of the end currents. They are
     evaluated exactly (no approximation) by splitting n = a B + b (B ~ sqrt(m + 1), m the longest
-    run's length; shorter runs padded with zero coefficients): a matrix product of z^b (B powers) with
-    the coefficients, then a sum over a weighted by z^{aB} (baby-step giant-step polynomial
-    evaluation), all runs at once. Directions within ``_NEAR_AXIS`` of a run's axis use the sinc form
+    run's length; shorter runs of the same B padded with zero coefficients): a matrix product of
+    z^b (B powers) with the coefficients, then a sum over a weighted by z^{aB} (baby-step giant-step
+    polynomial evaluation), all the setup's runs at once. Directions within ``_NEAR_AXIS`` of a run's axis use the sinc form
     segment by segment, as there. ``setup`` is :func:`_run_setup`'s (the coefficients).
     """
     runs, first, d, sdir, ks = setup["runs"], setup["first"], setup["d"], setup["sdir"], setup["ks"]
@@ -996,20 +996,23 @@ class _Radiator:
             for a, b in runs:
                 single[a:b] = False
             one = np.flatnonzero(single)
-            setup = _run_setup(k, s0, s1, cur1, cur2, runs) if runs else None
+            # runs of one width sqrt(m) + 1 together (padding a short run to a long one would cost its length)
+            width = [math.isqrt(b - a) + 1 for a, b in runs]
+            setups = [_run_setup(k, s0, s1, cur1, cur2, [r for r, w in zip(runs, width) if w == u])
+                      for u in sorted(set(width))]
             self.parts.append(((s0[one], s1[one], sdir[one], d[one], cur1[one], cur2[one]) if len(one) else None,
-                               setup))
+                               setups))
 
     def __call__(self, rhat: np.ndarray) -> np.ndarray:
         out = np.zeros(rhat.shape[:-1] + (3,), dtype=complex)
         flat = rhat.reshape(-1, 3)
         res = out.reshape(-1, 3)
-        for single, setup in self.parts:
+        for single, setups in self.parts:
             if single is not None:
                 step = max(1, _CHUNK // len(single[0]))
                 for i in range(0, len(flat), step):
                     res[i:i + step] += _segment_sum(flat[i:i + step], self.k, *single)
-            if setup is not None:
+            for setup in setups:
                 step = max(1, _CHUNK // (len(setup["runs"]) * setup["width"]))
                 for i in range(0, len(flat), step):
                     res[i:i + step] += _run_vector(flat[i:i + step], self.k, setup)
