@@ -8,7 +8,7 @@ import pytest
 from reportlab.graphics.shapes import Drawing, Line, PolyLine
 
 from rfsafe.report.figures import exposure_distance_figure, exposure_plot_ranges, line_profile_figure
-from rfsafe.report.plots import PALETTE, Axes, decade_label, linear_ticks, log_range
+from rfsafe.report.plots import PALETTE, Axes, decade_label, linear_ticks, log_range, new_drawing
 
 
 def test_decade_labels():
@@ -117,10 +117,22 @@ class _LineCfg:
     line = _Line()
 
 
-def test_line_profile_draws_every_sample_and_places_ratings():
-    drawing, caption = line_profile_figure(_LineCfg(), width=250, height=190)
-    polys = [s for s in drawing.contents if isinstance(s, PolyLine)]
-    assert [len(pl.points) // 2 for pl in polys] == [41, 41]            # |V| and |I|, every sample
+def test_line_profile_draws_every_sample_and_places_ratings(monkeypatch):
+    import rfsafe.report.plots as plots
+
+    def curves():
+        drawing, caption = line_profile_figure(_LineCfg(), width=250, height=190)
+        polys = [s for s in drawing.contents if isinstance(s, PolyLine)]
+        return drawing, caption, [list(zip(pl.points[::2], pl.points[1::2])) for pl in polys]
+
+    drawing, caption, drawn = curves()
+    with monkeypatch.context() as m:
+        m.setattr(plots, "simplified", list)
+        _, _, every = curves()
+    assert [len(c) for c in every] == [41, 41]                          # |V| and |I|, one point per sample
+    for curve, samples in zip(drawn, every):                            # drawn through every sample
+        assert all(min(_segment_distance(q, a, b) for a, b in zip(curve[:-1], curve[1:])) <= 0.02 + 2e-3
+                   for q in samples)                                    # + the 0.001 pt rounding of each end
     # the 500 V rating is within 10x of the maximum: drawn; the 7071 V one is named in the caption
     assert any(getattr(s, "text", "") == "connector.antenna 500 V peak" for s in drawing.contents)
     assert "line rated 7071 V peak (headroom 47.1×)" in caption
@@ -306,3 +318,33 @@ def test_a_crowded_exposure_figure_names_the_highest_ratios(crowded):
     assert colliding(boxes) == [], colliding(boxes)
     markers = sum(1 for node in d.getContents() for _ in [0] if type(node).__name__ in ("Circle", "Rect"))
     assert markers >= 150
+
+
+def _segment_distance(p, a, b):
+    (px, py), (ax, ay), (bx, by) = p, a, b
+    dx, dy = bx - ax, by - ay
+    t = 0.0 if dx == dy == 0 else min(1.0, max(0.0, ((px - ax) * dx + (py - ay) * dy) / (dx * dx + dy * dy)))
+    return math.hypot(px - ax - t * dx, py - ay - t * dy)
+
+
+def test_simplified_curves_stay_within_their_tolerance_of_every_sample(demo_results):
+    """Every sample a curve leaves out lies within SIMPLIFY_PT (0.02 pt, 7 micrometres) of the line drawn
+    between the samples kept around it (a geometric check, independent of how the samples were chosen)."""
+    from rfsafe.report.plots import SIMPLIFY_PT, simplified
+
+    res = demo_results[1]
+    c = res.configurations[0]
+    xs = [float(v) for v in c.line.profile_position_m]
+    d = new_drawing(250, 100)
+    ax = Axes(d, 20, 20, 220, 70, xlim=(0, xs[-1]), ylim=(0, 1.25 * max(c.line.profile_voltage_v_peak)))
+    page = [(ax.px(x), ax.py(float(v))) for x, v in zip(xs, c.line.profile_voltage_v_peak)]
+    for pts in (page, [(k * 0.5, math.sin(k / 9.0) * 40) for k in range(300)], [(0, 0), (5, 5), (1, 1), (9, 0)]):
+        kept = simplified(pts)
+        assert kept[0] == pts[0] and kept[-1] == pts[-1] and len(kept) <= len(pts)
+        k = 0
+        for p in pts:                          # kept points are in order: find the kept segment around p
+            if p == kept[k]:
+                k = min(k + 1, len(kept) - 1)
+                continue
+            assert _segment_distance(p, kept[k - 1], kept[k]) <= SIMPLIFY_PT + 1e-12
+    assert len(simplified(page)) < len(page) / 3      # the standing wave: far fewer points to draw
