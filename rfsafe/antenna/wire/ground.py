@@ -789,7 +789,7 @@ def _remainder_level(tab, src, moments, obs, z: float, want_h: bool):
         lines = _level_lines(tab, hm, weights)
         s32 = src[sel, :2].astype(np.float32)
         m = len(sel)
-        base = (np.arange(m, dtype=np.int32) * nu)[None, :]
+        base = (np.arange(m, dtype=np.intp) * nu)[None, :]
         hm2 = hm * hm
         mom = np.stack([px[sel], py[sel]], axis=1) if horizontal else pz[sel, None]
         step = max(1, LEVEL_PAIRS // m)
@@ -809,7 +809,7 @@ def _remainder_level(tab, src, moments, obs, z: float, want_h: bool):
             u += rho * a_u
             np.log(u, out=u)
             u *= b_u
-            i = u.astype(np.int32)
+            i = u.astype(np.intp)
             np.minimum(i, nu - 2, out=i)
             np.subtract(u, i, out=u, dtype=np.float32, casting="unsafe")    # the fraction within the cell
             i += base
