@@ -473,9 +473,10 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
             if d2 is not None:
                 np.divide(k, d2, out=out)
                 return
-            np.add(s[0], _F32(dz * dz), out=out)
+            np.add(s[0], (dz * dz).astype(_F32), out=out)
             with np.errstate(divide="ignore"):
                 np.divide(k, out, out=out)
+        at.all_heights = at.own_r2 = True
         return prepare, at
 
     if kind in ("short-dipole", "half-wave-dipole", "quarter-wave-vertical"):
@@ -501,18 +502,16 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
 
         def at(s, dz, out, d2=None):
             rho2, anum, fwd2 = s
-            dz2 = _F32(dz * dz)
+            dz2 = (dz * dz).astype(_F32)
             r2 = rho2 + dz2
             if vertical_axis and untilted:
-                den, anum = rho2, _F32(abs(dz))   # R^2 sin^2 = horizontal distance^2
+                den, anum = rho2, np.abs(dz).astype(_F32)   # R^2 sin^2 = horizontal distance^2
             elif vertical_axis:                  # anum holds the horizontal forward part, fwd2 right^2
-                dz32 = _F32(dz)
-                f = anum * ct32
-                f += dz32 * st32
+                dz32 = dz.astype(_F32)
+                f = anum * ct32 + dz32 * st32
                 den = f * f
                 den += fwd2
-                anum = anum * (-st32)
-                anum += dz32 * ct32
+                anum = anum * (-st32) + dz32 * ct32
                 np.abs(anum, out=anum)
             else:
                 den = fwd2 + dz2
@@ -531,12 +530,13 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
                     np.divide(t, den, out=out)
             out *= k
             if den.min() == 0.0:                  # 0/0 on the element axis: a null, unless R = 0
-                zero = den == 0.0
+                zero = np.broadcast_to(den == 0.0, out.shape)
                 out[zero] = 0.0
                 out[zero & (r2 == 0.0)] = np.inf
             if d2 is not None:                    # G / R^2 -> G / d^2
                 out *= r2
                 out /= d2
+        at.all_heights = at.own_r2 = True
         return prepare, at
 
     if untilted and kind == "beam":
@@ -595,12 +595,10 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
 
         def at(s, dz, out, d2=None):
             rho2, hor, rgt2 = s
-            dz32 = _F32(dz)
-            r2 = rho2 + _F32(dz * dz)
-            f = hor * ct32
-            f += dz32 * st32
-            up = hor * (-st32)
-            up += dz32 * ct32
+            dz32 = dz.astype(_F32)
+            r2 = rho2 + (dz * dz).astype(_F32)
+            f = hor * ct32 + dz32 * st32
+            up = hor * (-st32) + dz32 * ct32
             rp2 = f * f
             rp2 += rgt2
             with np.errstate(divide="ignore", invalid="ignore"):
@@ -613,8 +611,8 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
                 w += w
                 np.divide(rgt2, w, out=w)
                 t = np.log1p(-w)
-                back = np.flatnonzero(f < 0.0)
-                if back.size:
+                back = f < 0.0
+                if back.any():
                     t[back] = np.log(w[back])
                 t *= p32
                 rp2 /= r2                               # cos^2 of the elevation in the antenna frame
@@ -630,6 +628,7 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
                 np.maximum(out, up, out=out)
                 out *= k_up
                 out /= r2 if d2 is None else d2
+        at.all_heights = at.own_r2 = True
         return prepare, at
 
     if kind == "table" and _UniformTable.fits(pat.table):
@@ -817,8 +816,9 @@ def _nearest_part_pass(grp: _Group, state, at, px, py, heights, geo, near) -> No
         idx = cand[(dc < _F32(thr * thr)).any(axis=0)]
     k_peak = _F32(10.0 ** (grp.pattern.peak_gain_dbi / 10.0) / _FOUR_PI)
     with np.errstate(divide="ignore", invalid="ignore"):
-        if all_heights:
-            at(state, np.array([[h - grp.height_m] for h in heights]), geo, d2s)
+        if all_heights:   # without a structure, evaluators that find R^2 themselves take d2 = None (as per height)
+            at(state, np.array([[h - grp.height_m] for h in heights]), geo,
+               None if part is None and getattr(at, "own_r2", False) else d2s)
         for out, h, d2 in zip(geo, heights, d2s):
             if not all_heights:
                 at(state, h - grp.height_m, out, None if part is None else d2)
