@@ -3,9 +3,12 @@
 Prints the CPU time per million (point, antenna, height) evaluations of each kernel path, its ratio to
 a floor, and the peak memory of the process and of ``--csv`` writing.
 
-Floor (stated): bare numpy ``S = EIRP / (4 pi R^2)`` in float64, summed over the same antennas and
-heights, on the same points, in blocks of the same size, in the same run: the least any far-field grid
-computation must do. The kernel does more per evaluation (distance to the nearest part of each
+Floor (stated): bare numpy ``S = EIRP / (4 pi R^2)`` in float64, written as the formula reads (R^2 from
+the point's offsets at each height), summed over the same antennas and heights, on the same points, in
+blocks of the same size, in the same run. It is not the least a grid computation can do: with the
+horizontal distance found once per antenna and block (``floor_hoisted``) the same sum takes less time;
+that ratio is printed too, so that the aims can be read against either. The kernel does more per
+evaluation (distance to the nearest part of each
 antenna's structure, pattern gain toward the point, near-field peak gain, two environments, worst
 configuration per transmitter, worst height); the aims are within 3x of the floor for the standard
 paths and within 4x for pattern tables and tilted antennas. Every path is timed twice: with each
@@ -101,6 +104,28 @@ def floor_sum(ems, x, y, heights, chunk, dtype=np.float64):
     return total
 
 
+def floor_hoisted(ems, x, y, heights, chunk):
+    """The stated floor's sum with the horizontal distance found once per antenna and block (float64)."""
+    total = np.empty_like(x)
+    for start in range(0, x.size, chunk):
+        px, py = x[start:start + chunk], y[start:start + chunk]
+        acc = np.zeros_like(px)
+        t = np.empty_like(px)
+        for em in ems:
+            rho2 = px - em.x_m
+            rho2 *= rho2
+            dy = py - em.y_m
+            dy *= dy
+            rho2 += dy
+            k = em.power_w[0] * 1.64 / (4.0 * math.pi)
+            for h in heights:
+                np.add(rho2, (h - em.height_m) ** 2, out=t)
+                np.divide(k, t, out=t)
+                acc += t
+        total[start:start + chunk] = acc
+    return total
+
+
 def paired(kernel, floor, repeat):
     """Median CPU seconds of ``kernel`` and ``floor`` over ``repeat`` paired runs, and the median ratio."""
     tk, tf = [], []
@@ -146,17 +171,23 @@ def main() -> None:
 
     floor = lambda: floor_sum(ems, x, y, heights, args.chunk)  # noqa: E731
     floor32 = lambda: floor_sum(ems, x, y, heights, args.chunk, np.float32)  # noqa: E731
+    hoisted = lambda: floor_hoisted(ems, x, y, heights, args.chunk)  # noqa: E731
     print(f"grid {args.n} x {args.n} = {x.size} points, {len(ems)} stations, {len(heights)} heights "
           f"-> {evals / 1e6:.0f} M evaluations; CPU time, median of {args.repeat} paired runs "
           "(the machine may be shared)")
     tk, tf, r = paired(run(ems), floor, args.repeat)
     _, tf32, r32 = paired(floor32, floor, args.repeat)
+    _, _, r_h = paired(hoisted, floor, args.repeat)
     print(f"floor   EIRP/4piR^2 (float64): {tf:7.3f} s  {per_m(tf):6.2f} ms per million evaluations")
     print(f"floor   EIRP/4piR^2 (float32): float32/float64 = {r32:5.2f}")
+    print(f"floor   horizontal distance once per antenna (float64, hoisted): hoisted/stated = {r_h:5.2f} "
+          f"(a ratio to the hoisted floor is the printed ratio / {r_h:.2f})")
+    results = [("mixed kinds with their structure", r, 3.0)]
     print(f"kernel, mixed kinds with their structure: {tk:7.3f} s  {per_m(tk):6.2f} ms per million  "
-          f"ratio to floor {r:5.2f} (aim <= 3)")
+          f"ratio to floor {r:5.2f} (aim <= 3: {'within' if r <= 3.0 else 'ABOVE AIM'})")
     print(f"peak RSS {rss_peak:.0f} MB (before the kernel {rss0:.0f} MB); "
           f"peak traced allocations during the kernel {traced_peak / 2**20:.0f} MB  (aim < 1024 MB)")
+    results.append(("peak allocations during the kernel, MB", traced_peak / 2**20, 1024.0))
 
     table = _table_pattern()
     paths = [(f"{k[0]} {k[2]}", dict(kinds=[k]), 3.0) for k in KINDS]
@@ -171,13 +202,15 @@ def main() -> None:
         bare = stations(args.stations, extent, structure=False, **kw)
         _, _, r_s = paired(run(with_s), floor, args.repeat)
         _, _, r_p = paired(run(bare), floor, args.repeat)
+        results.append((label, r_s, aim))
         print(f"  {label:40s} {r_s:10.2f} {r_p:8.2f} {aim:5.1f}" + ("" if r_s <= aim else "  ABOVE AIM"))
 
     # the single-precision table lookup is raised by a bound of its rounding: never below the float64 value
     for label, tilt in (("untilted", 0.0), ("tilted 5 deg", 5.0)):
         lo, hi = _table_check(table, tilt, x[::37], y[::37], heights)
         print(f"pattern table {label}: kernel / float64 bilinear (patterns.table_gain) - 1 on {x[::37].size} points: "
-              f"min {lo:.1e}, max {hi:.1e} (never below 0)")
+              f"min {lo:.1e}, max {hi:.1e} " + ("(never below 0)" if lo >= 0.0 else "BELOW THE FLOAT64 VALUE"))
+        results.append((f"pattern table {label} never below float64", 0.0 if lo >= 0.0 else 1.0, 0.0))
 
     # the whole site analysis (grid, areas, keep-out attribution) on a 100 m site at 0.1 m spacing
     from rfsafe.site import Area, analyse_site
@@ -194,6 +227,10 @@ def main() -> None:
           f"{len(heights)} heights: {t_site:.2f} s CPU; peak RSS of the process now {rss_site:.0f} MB")
     if not args.no_csv:
         csv_memory()
+    above = [f"{label} ({v:.2f} > {aim:g})" if aim else label for label, v, aim in results if v > aim]
+    print(f"verdict: {len(results) - len(above)} of {len(results)} checks within their aims against the stated "
+          f"float64 floor (medians of paired CPU times on a machine that may be shared)"
+          + ("; above: " + "; ".join(above) if above else ""))
 
 
 def _table_check(table, tilt_deg, x, y, heights):
