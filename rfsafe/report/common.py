@@ -25,6 +25,7 @@ import datetime as dt
 import io
 import math
 import re
+from contextlib import contextmanager
 from functools import lru_cache
 from importlib import resources
 
@@ -47,7 +48,7 @@ __all__ = [
     "LONG_TABLE_ROWS",
     "verdict_box", "identity_block", "section_heading", "heading_before_table", "cautions_block", "signoff_block",
     "grouped_flags", "merge_numbers",
-    "build_pdf", "frame_width", "fit_widths", "num", "ratio_text", "margin_text", "dist_text",
+    "build_pdf", "quick_reportlab", "escape", "frame_width", "fit_widths", "num", "ratio_text", "margin_text", "dist_text",
 ]
 
 FONT = "DejaVuSans"
@@ -811,12 +812,20 @@ def build_pdf(story, *, title: str, author: str, subject: str, date_iso: str, he
     if first_template == "landscape":
         templates.reverse()
     doc.addPageTemplates(templates)
-    # binary streams: reportlab's pure-Python ASCII85 encoding of images and fonts was a third of the
-    # build (a PDF needs no 7-bit-safe streams)
-    a85 = rl_config.useA85
-    rl_config.useA85 = 0
-    try:
+    with quick_reportlab():
         doc.build(list(story), canvasmaker=_page_canvas(header_left, header_right, footer_left, date_iso))
-    finally:
-        rl_config.useA85 = a85
     return buf.getvalue()
+
+
+@contextmanager
+def quick_reportlab():
+    """reportlab settings for a finished document, restored on leaving: binary streams (its pure-Python
+    ASCII85 encoding of images and fonts was a third of the build; a PDF needs no 7-bit-safe streams)
+    and no type check of every attribute set on a drawing's shapes (a sixth of building the figures;
+    the figure functions, called directly as the tests do, keep the checks)."""
+    saved = rl_config.useA85, rl_config.shapeChecking
+    rl_config.useA85, rl_config.shapeChecking = 0, 0
+    try:
+        yield
+    finally:
+        rl_config.useA85, rl_config.shapeChecking = saved

@@ -30,7 +30,8 @@ from reportlab.platypus import CondPageBreak, KeepTogether, Paragraph, Spacer
 
 from rfsafe.report.common import (COMPLIES_COLOR, EXCEEDS_COLOR, Styled, build_pdf, cautions_block, data_table, escape,
                                   frame_width, grouped_flags, heading_before_table, identity_block, kv_table,
-                                  margin_text, num, p, ratio_text, section_heading, signoff_block, styles)
+                                  margin_text, num, p, quick_reportlab, ratio_text, section_heading, signoff_block,
+                                  styles)
 from rfsafe.report.figures import exposure_distance_figure, exposure_legend, figure_rows, line_profile_figure
 from rfsafe.report.near_field import comparison_exposures, near_field_comparison_section, near_field_map_section
 from rfsafe.exposure import horizontal_compliance_distance_m
@@ -774,7 +775,8 @@ def build_worksheet_pdf(result, *, extra_figures=()) -> bytes:
     extra_figures : sequence of flowables
         Further figures appended to section 6, after the built-in ones.
     """
-    story = worksheet_story(result, extra_figures=extra_figures)
+    with quick_reportlab():
+        story = worksheet_story(result, extra_figures=extra_figures)
     who = result.station or result.title or "station"
     return build_pdf(
         story, title=result.title or "RF exposure evaluation worksheet", author=result.evaluator or "",
