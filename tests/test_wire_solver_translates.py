@@ -200,3 +200,28 @@ def test_nodes_placed_at_once_equal_the_node_by_node_formula():
     for j, c in enumerate(cum):
         ref[int(np.argmin(np.abs(arcs - c)))] = pts[j]
     np.testing.assert_array_equal(nodes, ref)
+
+
+@pytest.mark.parametrize("name", ["inverted V", "wire with a radius step", "beam over ground"])
+def test_near_blocks_with_grouped_terms_equal_the_field_of_segment_e_terms(name):
+    """_pair_blocks_grouped (the near pairs' blocks: self terms, neighbours, touching wires) against
+    _pair_blocks, which takes the field from kernel.segment_e_terms as written in the references."""
+    st = _structure(CASES[name]())
+    ts = S._test_side(st, K)
+    tested = 0
+    for source in st.sources():
+        src = S._source_side(ts, K, source, None)
+        ip, iq = src["near"]
+        if not len(ip):            # the images of wires above ground have none
+            continue
+        tested += 1
+        b = np.sqrt(ts.a2[ip])
+        sa, wa = S.sinh_rule(0.5 * ts.tl[ip], b, S.N_NEAR)
+        sp = np.concatenate([sa, ts.tl[ip, None] - sa], axis=1)
+        wp = np.concatenate([wa, wa], axis=1)
+        f1, f2 = S._test_shapes(sp, ts.tl[ip, None], K)
+        x = ts.t0[ip, None, :] + sp[..., None] * ts.tdir[ip, None, :]
+        args = (x, wp, f1, f2, ts.tdir[ip, None], src["s0"][iq, None], src["sdir"][iq, None], src["sl"][iq, None],
+                ts.a2[ip, None], K)
+        assert _rel(S._pair_blocks_grouped(*args), S._pair_blocks(*args)) < 1e-12
+    assert tested

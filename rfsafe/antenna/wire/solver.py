@@ -85,6 +85,49 @@ def _pair_blocks(x, w, f1, f2, tdir, p1, sdir, d, a2, k):
     return out
 
 
+def _pair_blocks_grouped(x, w, f1, f2, tdir, p1, sdir, d, a2, k):
+    """:func:`_pair_blocks` (the same reaction blocks) with the field's terms grouped by kernel value.
+
+    With tau = (rho_vec . t) / rho^2, alpha = t.s - tau z and beta = t.s + tau (d - z) (real), the
+    tangential field of ``kernel.segment_e_terms`` is -t.E_1 = -A [c g_1 alpha - g_2 beta - j sin(kd) tau E_1]
+    and -t.E_2 = -A [c g_2 beta - g_1 alpha + j sin(kd) tau E_2]; the constant A = j eta / (4 pi sin kd) of
+    the pair multiplies the quadrature sums. Fewer complex operations per point; tested against
+    :func:`_pair_blocks` (tests/test_wire_solver_translates.py).
+    """
+    v = x - p1
+    z = np.einsum("...i,...i->...", v, sdir)
+    rv = v - z[..., None] * sdir
+    rho2 = np.einsum("...i,...i->...", rv, rv) + a2
+    d2 = d - z
+    r1 = np.sqrt(rho2 + z * z)
+    r2 = np.sqrt(rho2 + d2 * d2)
+    e1 = np.exp(-1j * k * r1)
+    e2 = np.exp(-1j * k * r2)
+    g1 = e1 / r1
+    g2 = e2 / r2
+    kd = k * d
+    c, sn = np.cos(kd), np.sin(kd)
+    cos_ps = np.einsum("...i,...i->...", tdir, sdir)
+    tau = np.einsum("...i,...i->...", rv, tdir) / rho2
+    alpha = cos_ps - tau * z
+    beta = cos_ps + tau * d2
+    jg = 1j * (sn * tau)
+    t1 = g1 * (c * alpha)
+    t1 -= g2 * beta
+    t1 -= e1 * jg
+    t2 = g2 * (c * beta)
+    t2 -= g1 * alpha
+    t2 += e2 * jg
+    amp = -1j * ETA0_OHM / (4.0 * np.pi * sn[..., 0])
+    wf1, wf2 = w * f1, w * f2
+    out = np.empty(t1.shape[:-1] + (2, 2), dtype=complex)
+    out[..., 0, 0] = np.sum(wf1 * t1, axis=-1) * amp
+    out[..., 0, 1] = np.sum(wf1 * t2, axis=-1) * amp
+    out[..., 1, 0] = np.sum(wf2 * t1, axis=-1) * amp
+    out[..., 1, 1] = np.sum(wf2 * t2, axis=-1) * amp
+    return out
+
+
 def _test_shapes(s, d, k):
     sk = np.sin(k * d)
     return np.sin(k * (d - s)) / sk, np.sin(k * s) / sk
@@ -499,7 +542,7 @@ def _pair_list(ts: _TestSide, k, ip, iq, rule, src):
     step = max(1, _CHUNK // (2 * N_NEAR))
     for j in range(0, len(ip), step):
         a, q = ip[j:j + step], iq[j:j + step]
-        out[j:j + step] = _pair_blocks(*(v[j:j + step] for v in args), ts.tdir[a, None], s0[q, None],
+        out[j:j + step] = _pair_blocks_grouped(*(v[j:j + step] for v in args), ts.tdir[a, None], s0[q, None],
                                        sdir[q, None], sl[q, None], ts.a2[a, None], k)
     return out
 
