@@ -235,3 +235,17 @@ def test_styled_cell_in_a_short_table_is_the_same_paragraph_markup():
     para = c.Styled(["a +", "b"], color=c.EXCEEDS_COLOR, bold=True).paragraph()
     assert para.text == f'<font name="{c.FONT_BOLD}" color="#b3122b">a +<br/>b</font>'
     assert c.Styled("x < y").paragraph().text == "x &lt; y"
+
+
+def test_quick_reportlab_restores_the_settings_it_changes():
+    from reportlab import rl_config
+
+    before = (rl_config.useA85, rl_config.shapeChecking)
+    with pytest.raises(RuntimeError):
+        with c.quick_reportlab():
+            assert (rl_config.useA85, rl_config.shapeChecking) == (0, 0)
+            raise RuntimeError("a failed build")
+    assert (rl_config.useA85, rl_config.shapeChecking) == before
+    data = c.build_pdf([c.p("x")], title="T", author="", subject="", date_iso="2026-11-30", header_left="",
+                       header_right="", footer_left="")
+    assert b"ASCII85Decode" not in data and (rl_config.useA85, rl_config.shapeChecking) == before
