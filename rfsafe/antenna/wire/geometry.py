@@ -351,24 +351,20 @@ def build_structure(spec, freq_hz: float, feed_wires: tuple[int, ...], *, prefix
     node_ids = []
     for i, nodes in enumerate(wire_nodes):
         ids = np.empty(len(nodes), dtype=int)
+        ids[1:-1] = np.arange(next_id, next_id + len(nodes) - 2)
+        next_id += len(nodes) - 2
         ids[0], ids[-1] = cluster[2 * i], cluster[2 * i + 1]
-        for j in range(1, len(nodes) - 1):
-            ids[j] = next_id
-            next_id += 1
         node_ids.append(ids)
     ground_nodes = frozenset(cluster[a] for a in range(len(ends)) if ground and abs(ends[a][2][2]) <= JOIN_TOLERANCE_M)
 
-    start, end, radius, wire, n1, n2 = [], [], [], [], [], []
-    first_seg = []
-    for i, nodes in enumerate(wire_nodes):
-        first_seg.append(len(start))
-        for j in range(len(nodes) - 1):
-            start.append(nodes[j]); end.append(nodes[j + 1])
-            radius.append(spec.wires[i].radius_m); wire.append(i)
-            n1.append(node_ids[i][j]); n2.append(node_ids[i][j + 1])
-    start, end = np.array(start), np.array(end)
-    radius, wire = np.array(radius), np.array(wire)
-    n1, n2 = np.array(n1), np.array(n2)
+    counts = [len(nodes) - 1 for nodes in wire_nodes]
+    first_seg = np.concatenate([[0], np.cumsum(counts)[:-1]]).astype(int).tolist()
+    start = np.concatenate([nodes[:-1] for nodes in wire_nodes])
+    end = np.concatenate([nodes[1:] for nodes in wire_nodes])
+    radius = np.repeat([float(w.radius_m) for w in spec.wires], counts)
+    wire = np.repeat(np.arange(len(wire_nodes)), counts)
+    n1 = np.concatenate([ids[:-1] for ids in node_ids])
+    n2 = np.concatenate([ids[1:] for ids in node_ids])
     ns = len(start)
     length = np.linalg.norm(end - start, axis=1)
 
