@@ -477,9 +477,11 @@ def build_structure(spec, freq_hz: float, feed_wires: tuple[int, ...], *, prefix
     # Exact where a pair may touch or be a near pair of the matrix fill (closer than a segment length).
     exact_below = 1.01 * max(float(length.max()), 2.0 * float(radius.max()))
     dist = segment_distances(start, end, start, end, exact_below)
-    share = (n1[:, None] == n1[None, :]) | (n1[:, None] == n2[None, :]) | \
-            (n2[:, None] == n1[None, :]) | (n2[:, None] == n2[None, :])
-    touch = (dist <= radius[:, None] + radius[None, :]) & ~share
+    # pairs within the sum of their radii that share no node (found among the close pairs only)
+    p, q = np.nonzero(dist <= radius[:, None] + radius[None, :])
+    share = (n1[p] == n1[q]) | (n1[p] == n2[q]) | (n2[p] == n1[q]) | (n2[p] == n2[q])
+    touch = np.zeros(dist.shape, dtype=bool)
+    touch[p[~share], q[~share]] = True
     _report_touch(touch, start, end, wire, labels, fields, dist, "")
     img_dist = None
     if ground:
@@ -487,8 +489,10 @@ def build_structure(spec, freq_hz: float, feed_wires: tuple[int, ...], *, prefix
         img_dist = segment_distances(start, end, start * m3, end * m3, exact_below)
         on_g = np.array([[x in ground_nodes for x in (a, b)] for a, b in zip(n1, n2)])
         gnode = np.where(on_g[:, 0], n1, np.where(on_g[:, 1], n2, -1))
-        share_img = (gnode[:, None] == gnode[None, :]) & (gnode[:, None] >= 0)
-        touch = (img_dist <= radius[:, None] + radius[None, :]) & ~share_img
+        p, q = np.nonzero(img_dist <= radius[:, None] + radius[None, :])
+        share_img = (gnode[p] == gnode[q]) & (gnode[p] >= 0)
+        touch = np.zeros(img_dist.shape, dtype=bool)
+        touch[p[~share_img], q[~share_img]] = True
         _report_touch(touch, start, end, wire, labels, fields, img_dist, "image ")
 
     return Structure(freq_hz=float(freq_hz), wavelength_m=lam, ground=ground, start_m=start, end_m=end,
