@@ -282,7 +282,7 @@ def _segment_runs(s0: np.ndarray, s1: np.ndarray, radius: np.ndarray) -> dict:
                 step=np.array(step).reshape(-1, 3), radius=radius[first], tol=np.array(tol))
 
 
-def _translated_pairs(ta: dict, sb: dict, rel: np.ndarray):
+def _translated_pairs(ta: dict, sb: dict, rel):
     """Run pairs (A of ``ta``, B of ``sb``) whose geometry is a translate, and which of them are alike.
 
     A and B are translates if their steps agree so closely that no node of either moves by more than
