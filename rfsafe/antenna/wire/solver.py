@@ -989,8 +989,8 @@ def _run_vector(r, k, setup: dict):
     evaluated exactly (no approximation) by splitting n = a B + b (B ~ sqrt(m + 1), m the longest
     run's length; shorter runs of the same B padded with zero coefficients): a matrix product of
     z^b (B powers) with the coefficients, then a sum over a weighted by z^{aB} (baby-step giant-step
-    polynomial evaluation), all the setup's runs at once. Directions within ``_NEAR_AXIS`` of a run's axis use the sinc form
-    segment by segment, as there. ``setup`` is :func:`_run_setup`'s (the coefficients).
+    polynomial evaluation), all the setup's runs at once. Directions within ``_NEAR_AXIS`` of a run's
+    axis use the sinc form segment by segment, as there. ``setup`` is :func:`_run_setup`'s.
     """
     runs, first, d, sdir, ks = setup["runs"], setup["first"], setup["d"], setup["sdir"], setup["ks"]
     nb, na, nr = setup["nb"], setup["na"], len(runs)
