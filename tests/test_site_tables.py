@@ -68,7 +68,7 @@ def _lift_bound(look, gmax_lin):
     most 3 gmax each), plus the relative rounding allowance (grid._UniformTable)."""
     wa = (grid._TABLE_WEIGHT_SPACINGS * float(np.spacing(np.float32(look.n_col)))
           + grid._TABLE_ANGLE_ERR_RAD / math.radians(look.da))
-    we = (grid._TABLE_WEIGHT_SPACINGS * float(np.spacing(np.float32(look.cells.shape[0] // look.n_col)))
+    we = (grid._TABLE_WEIGHT_SPACINGS * float(np.spacing(np.float32(look.n_rows)))
           + grid._TABLE_ANGLE_ERR_RAD / math.radians(look.de))
     return ((wa + we) * 3.0 + grid._TABLE_F32_REL) * gmax_lin / (4 * math.pi)
 
@@ -134,6 +134,7 @@ def test_angles_within_their_stated_bound():
     off = look.column_offset(37.0)
     col, ta = look.columns_xy(x, y, np.sqrt(x * x + y * y + np.float32(grid._TINY_M2)), off)
     exact = np.degrees(np.arctan2(ys, xs)) / look.da + float(off)
+    col = col / look.n_rows                              # the column index (columns_xy gives it times n_rows)
     d = (col + ta - exact + look.n_az / 2) % look.n_az - look.n_az / 2
     assert np.abs(d).max() * math.radians(look.da) <= bound / 2 + 4 * float(np.spacing(np.float32(look.n_col))) * math.radians(look.da)
     assert (col >= 0).all() and (col <= look.n_col - 1).all() and (ta >= 0).all() and (ta <= 1).all()

@@ -263,13 +263,15 @@ _TABLE_WEIGHT_SPACINGS = 4.0
 _TABLE_F32_REL = 2e-6
 #: Rational function ``v (a0 + a1 v^2 + a2 v^4) / (1 + b1 v^2 + b2 v^4)`` for arctan(v) on [-1, 1]
 #: (a least-maximum-error fit made for this kernel; its largest error is 1.9e-7 rad, tested), as
-#: ``(a0, a1, a2, b1, b2)``: numpy's arctan and arctan2 are not vectorised and cost 5 to 10 times the
-#: whole far-field formula per point. Angles are found by the half-angle identity
+#: ``(a0, a1, a2, b1, b2)``, evaluated in partial fractions (:func:`_atan_terms`, eight numpy
+#: operations): numpy's arctan and arctan2 are not vectorised and cost 5 to 10 times the whole
+#: far-field formula per point. Angles are found by the half-angle identity
 #: ``atan2(y, x) = 2 atan(y / (sqrt(x^2 + y^2) + x))`` (x >= 0), whose argument lies in [-1, 1].
 _ATAN_RATIONAL = (0.9999975269110996, 0.6559232704922369, 0.04055477459232964, 0.9891876806615268,
                   0.17083158360938025)
 #: Bound of the angle error of :data:`_ATAN_RATIONAL` through the half-angle identity in float32 [rad]:
-#: twice the fit's 1.9e-7 plus the rounding of the argument and the arithmetic (tested).
+#: twice the fit's 1.9e-7 plus the rounding of the argument and the arithmetic (largest found in 2e7
+#: random directions 8.0e-7; tested within half the bound).
 _TABLE_ANGLE_ERR_RAD = 2e-6
 #: Added to a squared distance [m^2] (and its square root to a distance) so that a point at the antenna's
 #: centre (or on its up axis) gets a direction (the main beam's elevation, azimuth 0) instead of 0 / 0;
@@ -277,21 +279,30 @@ _TABLE_ANGLE_ERR_RAD = 2e-6
 _TINY_M2 = 1e-30
 
 
-def _atan_scaled(v, coef):
-    """``s arctan(v)`` for float32 ``v`` in [-1, 1] (overwritten), ``coef`` = ``s a0, s a1, s a2, b1, b2`` of
-    :data:`_ATAN_RATIONAL` in float32."""
-    a0, a1, a2, b1, b2 = coef
+def _atan_terms(scale: float) -> tuple:
+    """``scale`` x :data:`_ATAN_RATIONAL` in partial fractions, ``(A, alpha, -r1, beta, -r2)`` in float32:
+    ``scale arctan(v) = v (A + alpha / (v^2 - r1) + beta / (v^2 - r2))``; the denominator's roots r1, r2
+    are real and below -1 (the terms are all positive on [0, 1]: no cancellation)."""
+    a0, a1, a2, b1, b2 = _ATAN_RATIONAL
+    disc = math.sqrt(b1 * b1 - 4.0 * b2)
+    r1, r2 = (-b1 - disc) / (2.0 * b2), (-b1 + disc) / (2.0 * b2)
+    big = a2 / b2
+    c1, c0 = a1 - big * b1, a0 - big
+    alpha, beta = (c1 * r1 + c0) / (b2 * (r1 - r2)), (c1 * r2 + c0) / (b2 * (r2 - r1))
+    return tuple(_F32(t) for t in (scale * big, scale * alpha, -r1, scale * beta, -r2))
+
+
+def _atan_scaled(v, terms):
+    """``scale arctan(v)`` for float32 ``v`` in [-1, 1] (overwritten), ``terms`` from :func:`_atan_terms`."""
+    big, alpha, m1, beta, m2 = terms
     w = v * v
-    num = w * a2
-    num += a1
-    num *= w
-    num += a0
-    v *= num
-    np.multiply(w, b2, out=num)
-    num += b1
-    num *= w
-    num += _F32(1.0)
-    v /= num
+    t = w + m1
+    np.divide(alpha, t, out=t)
+    w += m2
+    np.divide(beta, w, out=w)
+    t += w
+    t += big
+    v *= t
     return v
 
 
@@ -359,7 +370,8 @@ class _UniformTable:
         hi = np.stack([c2[-1] + lift[-1], d01[-1] + f[-1], zero, zero], axis=-1)[None]
         rows = np.concatenate([lo, body, hi])                             # (n_el + 1, n_az, 4)
         cols = np.arange(self.n_col) % n_az
-        cells = rows[:, cols].reshape(-1, 4)
+        self.n_rows = n_el + 1
+        cells = rows[:, cols].transpose(1, 0, 2).reshape(-1, 4)     # column by column: index col n_rows + row
         # float32, rounded up in c0 (the other terms' rounding is within the lift)
         c32 = cells.astype(_F32)
         up = c32[:, 0].astype(float) < cells[:, 0]
@@ -368,11 +380,8 @@ class _UniformTable:
         self.sa, self.se = _F32(180.0 / math.pi / self.da), _F32(180.0 / math.pi / self.de)
         self.oe32 = _F32(self.oe)
         # 2 atan(v) in cell units, and a quarter turn in azimuth cells
-        a0, a1, a2, b1, b2 = _ATAN_RATIONAL
-        self.atan_a = tuple(_F32(v) for v in (2.0 * a0 * float(self.sa), 2.0 * a1 * float(self.sa),
-                                                2.0 * a2 * float(self.sa), b1, b2))
-        self.atan_e = tuple(_F32(v) for v in (2.0 * a0 * float(self.se), 2.0 * a1 * float(self.se),
-                                                2.0 * a2 * float(self.se), b1, b2))
+        self.atan_a = _atan_terms(2.0 * float(self.sa))
+        self.atan_e = _atan_terms(2.0 * float(self.se))
         self.quarter_a = _F32(0.5 * math.pi * float(self.sa))
 
     def column_offset(self, less_deg: float = 0.0) -> np.float32:
@@ -381,7 +390,7 @@ class _UniformTable:
         return _F32((-(less_deg + self.a0) / self.da - lo) % self.n_az + lo)
 
     def columns_xy(self, fwd, rgt, rho, offset, abs_rgt=None):
-        """Columns (float32) and weights of the azimuths ``atan2(rgt, fwd)`` of float32 components ``fwd``,
+        """Columns (float32, times ``n_rows``) and weights of the azimuths ``atan2(rgt, fwd)`` of float32 components ``fwd``,
         ``rgt`` (``rho``: their length, made at least ``sqrt(_TINY_M2)``; ``offset``: from
         :meth:`column_offset`; ``abs_rgt``: ``|rgt|`` if known).
 
@@ -401,6 +410,7 @@ class _UniformTable:
         al += offset
         col = np.floor(al)
         al -= col
+        col *= _F32(self.n_rows)                           # exact: integers below 2^24 (see fits)
         return col, al
 
     def at_half_tangent(self, v, col, ta, out) -> None:
@@ -413,7 +423,6 @@ class _UniformTable:
     def _lookup(self, xe, col, ta, out) -> None:
         te = np.floor(xe)
         xe -= te                                           # the elevation weight
-        te *= _F32(self.n_col)
         te += col                                          # exact: integers below 2^24 (see fits)
         cb = np.take(self.cells, te.astype(np.int32), axis=0)
         np.multiply(cb[..., 3], ta, out=te)
