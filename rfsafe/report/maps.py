@@ -140,23 +140,20 @@ class MapAxes(Axes):
     font_size = 7.5
     tick_size = 6.5
 
-    def __init__(self, drawing: Drawing, box, *, xlim, ylim, centred: bool = True):
+    def __init__(self, drawing: Drawing, box, *, xlim, ylim):
         x, y, w, h = box
         aspect = (ylim[1] - ylim[0]) / (xlim[1] - xlim[0])
         if h / w > aspect:
-            h2 = w * aspect
-            y, h = (y + (h - h2) / 2 if centred else y), h2
+            y, h = y + (h - w * aspect) / 2, w * aspect
         else:
-            w2 = h / aspect
-            x, w = (x + (w - w2) / 2 if centred else x), w2
+            x, w = x + (w - h / aspect) / 2, h / aspect
         super().__init__(drawing, x, y, w, h, xlim=xlim, ylim=ylim)
         self._label_boxes: list[tuple] = []
 
     # ---- furniture
     def frame_map(self, *, xlabel: str = "", ylabel: str = "", tick_size: float | None = None,
-                  tick_len: float = 2.5, line_width: float = 0.6, labels: bool = True, pad: float | None = None,
-                  labelpad: float = 2.0) -> float:
-        """Ticks, tick labels, axis labels and the frame; returns the left edge of the y tick labels."""
+                  tick_len: float = 2.5, pad: float | None = None, labelpad: float = 2.0) -> None:
+        """Ticks and tick labels outside the frame (matplotlib's default tick rule), axis labels, the frame."""
         ts = tick_size or self.tick_size
         d = self.d
         pad = 3.5 * ts / 6.5 if pad is None else pad
@@ -168,19 +165,15 @@ class MapAxes(Axes):
         for v in xt:
             X = self.px(v)
             d.add(Line(X, self.y0, X, self.y0 - tick_len, strokeColor=colors.black, strokeWidth=0.6))
-            if labels:
-                d.add(String(X, self.y0 - tick_len - pad - 0.76 * ts, _tick_label(v, xstep), fontName=FONT,
-                             fontSize=ts, textAnchor="middle"))
+            d.add(String(X, self.y0 - tick_len - pad - 0.76 * ts, _tick_label(v, xstep), fontName=FONT,
+                         fontSize=ts, textAnchor="middle"))
         for v in yt:
             Y = self.py(v)
             d.add(Line(self.x0, Y, self.x0 - tick_len, Y, strokeColor=colors.black, strokeWidth=0.6))
-            if labels:
-                text = _tick_label(v, ystep)
-                widest = max(widest, stringWidth(text, FONT, ts))
-                d.add(String(self.x0 - tick_len - pad, Y - 0.36 * ts, text, fontName=FONT, fontSize=ts,
-                             textAnchor="end"))
-        d.add(Rect(self.x0, self.y0, self.w, self.h, fillColor=None, strokeColor=colors.black,
-                   strokeWidth=line_width))
+            text = _tick_label(v, ystep)
+            widest = max(widest, stringWidth(text, FONT, ts))
+            d.add(String(self.x0 - tick_len - pad, Y - 0.36 * ts, text, fontName=FONT, fontSize=ts, textAnchor="end"))
+        d.add(Rect(self.x0, self.y0, self.w, self.h, fillColor=None, strokeColor=colors.black, strokeWidth=0.6))
         fs = self.font_size
         if xlabel:
             d.add(String(self.x0 + self.w / 2, self.y0 - tick_len - pad - 0.96 * ts - labelpad - 0.76 * fs, xlabel,
@@ -190,7 +183,6 @@ class MapAxes(Axes):
             g = Group(String(0, 0, ylabel, fontName=FONT, fontSize=fs, textAnchor="middle"))
             g.transform = (0, 1, -1, 0, left - labelpad - 0.24 * fs, self.y0 + self.h / 2)
             d.add(g)
-        return left
 
     def title(self, lines, *, size: float = 8.0, pad: float = 4.0) -> None:
         """Title lines left-aligned above the frame, the last one ``pad`` above it."""
@@ -252,9 +244,9 @@ class MapAxes(Axes):
             runs.append(cur)
         return [r for r in runs if len(r) > 1]
 
-    def line(self, xs, ys, *, color, width: float, dash=None, halo: float = 0.0, cap: int = 0,
-             keep_clear: bool = True) -> None:
-        """A polyline in data coordinates, clipped to the frame; ``halo`` [pt] of white beneath it."""
+    def line(self, xs, ys, *, color, width: float, dash=None, halo: float = 0.0, cap: int = 0) -> None:
+        """A polyline in data coordinates, clipped to the frame; ``halo`` [pt] of white beneath it. Labels
+        keep clear of it."""
         for run in self._clipped(self._page_path(xs, ys)):
             flat = [round(v, 3) for p in run for v in p]
             if halo:
@@ -262,8 +254,7 @@ class MapAxes(Axes):
                                     strokeLineJoin=1))
             self.d.add(PolyLine(flat, strokeColor=hex_colour(color), strokeWidth=width, strokeDashArray=dash,
                                 strokeLineCap=cap, strokeLineJoin=1))
-            if keep_clear:
-                self._keep_clear(*[(run[k][0], run[k][1], run[k + 1][0], run[k + 1][1]) for k in range(len(run) - 1)])
+            self._keep_clear(*[(run[k][0], run[k][1], run[k + 1][0], run[k + 1][1]) for k in range(len(run) - 1)])
 
     def contour_lines(self, x, y, z, level: float = 1.0):
         """The ``level`` contour of ``z`` (NaN cells left out) as a list of (n, 2) arrays [m]."""
@@ -280,8 +271,8 @@ class MapAxes(Axes):
         return out
 
     def point(self, xv, yv, *, shape: str = "o", size: float = 6.0, face="#ffffff", edge="#000000",
-              edge_width: float = 1.1, keep: bool = True) -> tuple[float, float]:
-        """A marker of ``size`` [pt] (diameter, or side of a square) at a data point."""
+              edge_width: float = 1.1) -> None:
+        """A marker of ``size`` [pt] (diameter, or side of a square) at a data point; labels keep clear of it."""
         X, Y = self.px(xv), self.py(yv)
         r = size / 2
         fill = hex_colour(face) if face is not None else None
@@ -290,9 +281,7 @@ class MapAxes(Axes):
             self.d.add(Rect(X - r, Y - r, size, size, fillColor=fill, strokeColor=stroke, strokeWidth=edge_width))
         else:
             self.d.add(Circle(X, Y, r, fillColor=fill, strokeColor=stroke, strokeWidth=edge_width))
-        if keep:
-            self._add_box((X - r, Y - r, X + r, Y + r))
-        return X, Y
+        self._add_box((X - r, Y - r, X + r, Y + r))
 
     def place_labels(self, marks, *, colours=None, size: float = 7.5, drop: set | None = None) -> None:
         """Label each (x, y, text) mark beside it on the first side clear of wires, contours, markers and
