@@ -48,7 +48,8 @@ __all__ = [
     "LONG_TABLE_ROWS",
     "verdict_box", "identity_block", "section_heading", "heading_before_table", "cautions_block", "signoff_block",
     "grouped_flags", "merge_numbers",
-    "build_pdf", "quick_reportlab", "escape", "frame_width", "fit_widths", "num", "ratio_text", "margin_text", "dist_text",
+    "build_pdf", "quick_reportlab", "escape", "frame_width", "fit_widths", "num", "ratio_text", "margin_text",
+    "dist_text",
 ]
 
 FONT = "DejaVuSans"
