@@ -126,12 +126,12 @@ def test_a_run_off_its_progression_is_not_taken_as_one():
     assert runs["run"][5] == -1 or runs["size"][runs["run"][5]] < 40
 
 
-def test_pattern_phases_shared_between_joined_segments(name="beam over ground"):
+def test_pattern_phases_shared_between_joined_segments():
     """_segment_sum (one phase per node where segments join) against the radiation integrals segment by
     segment (kernel.radiation_integrals, the sinc form), for a few directions (the peak search's path)."""
     from rfsafe.antenna.wire.kernel import radiation_integrals
 
-    sol = solve(CASES[name](), F_HZ)
+    sol = solve(CASES["beam over ground"](), F_HZ)
     st, seg_i = sol.structure, sol.segment_current_a
     rng = np.random.default_rng(3)
     r = rng.normal(size=(40, 3))
