@@ -387,6 +387,9 @@ _BLOCK = 8192
 _SERIES_MAX = 16.0
 #: Terms of the series up to each |z| (each term beyond below 1e-17 of the largest: (|z|/2)^2n / n!^2).
 _SERIES_BANDS = ((2.0, 13), (6.0, 22), (_SERIES_MAX, 52))
+#: Series coefficients 1 / m!^2 of J_0 and 1 / (m! (m + 1)!) of 2 J_1 / z, in powers of -z^2 / 4.
+_J0_SERIES = [1.0 / math.factorial(m) ** 2 for m in range(52)]
+_J1_SERIES = [1.0 / (math.factorial(m) * math.factorial(m + 1)) for m in range(52)]
 _HANKEL_TERMS = 16
 
 
@@ -410,13 +413,13 @@ def bessel_j01(z):
             continue
         zs = z[band]
         w = -0.25 * zs * zs
-        a = np.full(zs.shape, 1.0 / math.factorial(n - 1) ** 2, dtype=complex)
-        b = np.full(zs.shape, 1.0 / (math.factorial(n - 1) * math.factorial(n)), dtype=complex)
+        a = np.full(zs.shape, _J0_SERIES[n - 1], dtype=complex)
+        b = np.full(zs.shape, _J1_SERIES[n - 1], dtype=complex)
         for m in range(n - 2, -1, -1):
             a *= w
-            a += 1.0 / math.factorial(m) ** 2
+            a += _J0_SERIES[m]
             b *= w
-            b += 1.0 / (math.factorial(m) * math.factorial(m + 1))
+            b += _J1_SERIES[m]
         j0v[band], j1v[band] = a, 0.5 * zs * b
     if not small.all():
         zl = z[~small]
