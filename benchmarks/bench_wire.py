@@ -197,15 +197,15 @@ def scaling(sizes, make, name):
         checks = (("ratio", ratio > TARGET_RATIO), ("power > fill", t_pow > t_fill),
                   (f"over {TARGET_1600_S:g} s", sol.num_unknowns == 1600 and t_all >= TARGET_1600_S))
         missed = [what for what, bad in checks if bad]
-        rows.append((sol.num_unknowns, t_fill, t_all, t_lu))
+        rows.append((sol.num_unknowns, t_fill, t_all, t_lu, n))
         print(f"{sol.num_unknowns:6d} {t_fill:8.3f} {t_ideal:11.3f} {t_lu:8.3f} {t_all:9.3f} {t_pow:10.3f} "
               f"{t_fill / t_ideal:10.1f} {t_pow / t_fill:10.2f} {ratio:16.2f}  "
               f"{'MISSED (' + ', '.join(missed) + ')' if missed else 'met'}")
         del sol
-    for (n0, f0, a0, l0), (n1, f1, a1, l1) in zip(rows, rows[1:]):
+    for (n0, f0, a0, l0, _), (n1, f1, a1, l1, _) in zip(rows, rows[1:]):
         e = [math.log(v1 / v0) / math.log(n1 / n0) for v0, v1 in ((f0, f1), (a0, a1), (l0, l1))]
         print(f"  exponent N = {n0} -> {n1}: fill {e[0]:.2f}, whole solve {e[1]:.2f}, LU {e[2]:.2f}")
-    big = [r for r in rows if r[0] >= 400]
+    big = [r for r in rows if r[4] >= 400]          # by the size asked for (the inverted V has 399 unknowns)
     if len(big) >= 2:
         x = np.log([r[0] for r in big])
         fit = {name: np.polyfit(x, np.log([r[i] for r in big]), 1) for name, i in (("fill", 1), ("solve", 2))}
