@@ -922,8 +922,14 @@ def ratio_grid(emitters: Sequence[SiteEmitter], x_m, y_m, heights_m, *, chunk_po
         stop = min(n, start + chunk_points)
         total, nf = _chunk_pass(names, groups, evaluators, x[start:stop], y[start:stop], heights,
                                 per_transmitter=False)
-        k = np.argmax(total, axis=0)                            # (2, P)
-        ratio[:, start:stop] = np.take_along_axis(total, k[None], axis=0)[0]
+        best = total.max(axis=0)                                # (2, P)
+        if np.isnan(best).any():
+            k = np.argmax(total, axis=0)
+        else:                                                   # argmax's first height, without its slow strided pass
+            k = np.zeros(best.shape, dtype=np.intp)
+            for h in range(len(heights) - 1, -1, -1):
+                k[total[h] == best] = h
+        ratio[:, start:stop] = best
         worst[:, start:stop] = h_arr[k]
         near[start:stop] = nf
         if progress is not None:
