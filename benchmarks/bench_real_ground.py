@@ -5,6 +5,8 @@ cost, measured in the same run. Printed: best-of times and the ratios; "cold" bu
 interpolation table in the timed call (the first solve at a frequency and soil), "warm" reuses it
 (every further configuration, place and map at that frequency and soil). Times are CPU times of this
 process (the shared machine's load swells wall time); pin BLAS to one thread so they measure the work.
+The cases being compared take turns, round after round (a load that comes and goes then swells all of them);
+even so the ratios move by some 10 % from run to run on a busy machine: run it twice.
 
 Large antennas (issue 18): a 120 m wire 8 m up cut into 1,000 and 2,000 segments (the segment cap), each
 solve in a fresh process reporting its own CPU time and peak resident memory (median of 3), over free space
