@@ -857,13 +857,14 @@ def _chunk_pass(names, groups, evaluators, px, py, heights, *, per_transmitter: 
     c_single = coef[:n_single].T.astype(_F32)                          # (2, n_single)
     multi = [t for t in range(n_t) if counts[t] > 1]
     total = np.zeros((n_h, 2, n_p), dtype=_F32)
-    for hi in range(n_h):
-        if n_single:
+    if n_single:
+        for hi in range(n_h):
             np.matmul(c_single, geo[hi, :n_single], out=total[hi])
-        for t in multi:
-            idx = [gi for gi, g in enumerate(groups) if g.transmitter == t]
-            for e in range(2):
-                total[hi, e] += np.max(coef[idx, e][:, None].astype(_F32) * geo[hi, idx], axis=0)
+    for t in multi:                       # every height at once (the same sums, in the same order per height)
+        idx = [gi for gi, g in enumerate(groups) if g.transmitter == t]
+        sub = geo[:, idx]                 # (H, groups of t, P)
+        for e in range(2):
+            total[:, e] += np.max(coef[idx, e][:, None].astype(_F32) * sub, axis=1)
     return total, near
 
 
