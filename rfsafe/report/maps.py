@@ -162,14 +162,14 @@ class MapAxes(Axes):
         xstep = xt[1] - xt[0] if len(xt) > 1 else 1.0
         ystep = yt[1] - yt[0] if len(yt) > 1 else 1.0
         widest = 0.0
+        self._segments_path([(self.px(v), self.y0, self.px(v), self.y0 - tick_len) for v in xt], colors.black, 0.6)
+        self._segments_path([(self.x0, self.py(v), self.x0 - tick_len, self.py(v)) for v in yt], colors.black, 0.6)
         for v in xt:
             X = self.px(v)
-            d.add(Line(X, self.y0, X, self.y0 - tick_len, strokeColor=colors.black, strokeWidth=0.6))
             d.add(String(X, self.y0 - tick_len - pad - 0.76 * ts, _tick_label(v, xstep), fontName=FONT,
                          fontSize=ts, textAnchor="middle"))
         for v in yt:
             Y = self.py(v)
-            d.add(Line(self.x0, Y, self.x0 - tick_len, Y, strokeColor=colors.black, strokeWidth=0.6))
             text = _tick_label(v, ystep)
             widest = max(widest, stringWidth(text, FONT, ts))
             d.add(String(self.x0 - tick_len - pad, Y - 0.36 * ts, text, fontName=FONT, fontSize=ts, textAnchor="end"))
