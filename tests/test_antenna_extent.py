@@ -148,6 +148,8 @@ def test_the_same_antenna_and_frequency_give_the_same_extent_object():
     ant = _ant(kind="half-wave-dipole", azimuth_deg=30.0)
     ext = antenna_extent(ant, F_HZ)
     assert antenna_extent(_ant(kind="half-wave-dipole", azimuth_deg=30.0), F_HZ) is ext
+    with pytest.raises(ValueError):   # shared, so read-only: a change in place would reach later evaluations
+        ext.segments_m[0, 0, 0] = 1.0
     assert extent_key(ext) == extent_key(_antenna_extent(ant, F_HZ, None))
     other = antenna_extent(ant, 2 * F_HZ)
     assert other is not ext and _d(other, (0.0, 0.0, 10.0 + LAM / 8)) == pytest.approx(LAM / 8)

@@ -123,6 +123,9 @@ def antenna_extent(ant, freq_hz: float, wire_spec=None) -> Extent:
     made = _MADE.get(key)
     if made is None:
         made = _MADE[key] = _antenna_extent(ant, freq_hz, wire_spec)
+        for a in (made.segments_m, *(x for part in (*made.discs, *made.rectangles, *made.spheres) for x in part)):
+            if isinstance(a, np.ndarray):
+                a.setflags(write=False)   # shared: a change in place would reach every later evaluation
         while len(_MADE) > _MADE_ENTRIES:
             _MADE.pop(next(iter(_MADE)))
     return made
