@@ -139,7 +139,8 @@ def test_angles_within_their_stated_bound():
     exact = np.degrees(np.arctan2(ys, xs)) / look.da + float(off)
     col = col / look.n_rows                              # the column index (columns_xy gives it times n_rows)
     d = (col + ta - exact + look.n_az / 2) % look.n_az - look.n_az / 2
-    assert np.abs(d).max() * math.radians(look.da) <= bound / 2 + 4 * float(np.spacing(np.float32(look.n_col))) * math.radians(look.da)
+    rounding_rad = 4 * float(np.spacing(np.float32(look.n_col))) * math.radians(look.da)   # cells -> rad
+    assert np.abs(d).max() * math.radians(look.da) <= bound / 2 + rounding_rad
     assert (col >= 0).all() and (col <= look.n_col - 1).all() and (ta >= 0).all() and (ta <= 1).all()
     # elevation atan2(y, |x|) = 2 atan(y / (R + |x|))
     with np.errstate(invalid="ignore"):

@@ -273,9 +273,11 @@ _ATAN_RATIONAL = (0.9999975269110996, 0.6559232704922369, 0.04055477459232964, 0
 #: twice the fit's 1.9e-7 plus the rounding of the argument and the arithmetic (largest found in 2e7
 #: random directions 8.0e-7; tested within half the bound).
 _TABLE_ANGLE_ERR_RAD = 2e-6
-#: Added to a squared distance [m^2] (and its square root to a distance) so that a point at the antenna's
-#: centre (or on its up axis) gets a direction (the main beam's elevation, azimuth 0) instead of 0 / 0;
-#: it changes no angle of a point farther than 1e-12 m from the centre.
+#: Added to a squared horizontal distance [m^2] before its square root so that a point at the antenna's
+#: centre or on its up axis gets a direction (elevation 0 at the centre, the pole on the axis; the
+#: azimuth of north, or of the main beam when tilted) instead of 0 / 0. It moves no angle by more than
+#: 1e-6 rad at a point more than 1e-12 m off that axis; nearer, the elevation is within 1e-12 rad of the
+#: pole, where the azimuth weighs nothing to float32 precision.
 _TINY_M2 = 1e-30
 
 
@@ -323,7 +325,7 @@ class _UniformTable:
     upper), so that the bilinear value is ``c0 + ta d01 + te (e + ta f)`` with one gather per point and
     height. The rows are padded by a constant cell below and above (the poles: an elevation rounded just
     past +-90 deg reads the pole's gain), and the columns run round the azimuth as far as needed that an
-    azimuth in [-180, 180] deg needs no modulo. c0 is raised by the bound of what the polynomial angles,
+    azimuth in [-180, 180] deg needs no modulo. c0 is raised by the bound of what the rational arctan,
     the float32 weights and arithmetic can lose (see :data:`_TABLE_ANGLE_ERR_RAD`,
     :data:`_TABLE_WEIGHT_SPACINGS`, :data:`_TABLE_F32_REL`), so that the result is never below the float64
     bilinear value of patterns.table_gain.
@@ -390,8 +392,8 @@ class _UniformTable:
         return _F32((-(less_deg + self.a0) / self.da - lo) % self.n_az + lo)
 
     def columns_xy(self, fwd, rgt, rho, offset, abs_rgt=None):
-        """Columns (float32, times ``n_rows``) and weights of the azimuths ``atan2(rgt, fwd)`` of float32 components ``fwd``,
-        ``rgt`` (``rho``: their length, made at least ``sqrt(_TINY_M2)``; ``offset``: from
+        """Columns (float32, times ``n_rows``) and weights of the azimuths ``atan2(rgt, fwd)`` of float32
+        components ``fwd``, ``rgt`` (``rho``: their length, made at least ``sqrt(_TINY_M2)``; ``offset``: from
         :meth:`column_offset`; ``abs_rgt``: ``|rgt|`` if known).
 
         ``fwd`` must not be -0.0 where ``rgt`` is 0 (add 0.0 to it): the azimuth there is 0, as arctan2 gives.
@@ -589,8 +591,8 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
         # back-lobe floor and, below the antenna's plane (u < 0), the downward floor 1/2 (u/R)^2
         # (patterns.beam_gain). Single precision: within 5e-6 relative of the pattern function for lobes
         # down to 30 deg (tested); the result is raised by BEAM_F32_MARGIN so that rounding never
-        # understates it, far below the 0.01 dB (2.3e-3) to which any gain is declared. fmax, not maximum: rho' = 0 (along the up axis) gives NaN, where the lobe
-        # is 0 and the floors govern.
+        # understates it, far below the 0.01 dB (2.3e-3) to which any gain is declared. fmax, not maximum:
+        # rho' = 0 (along the up axis) gives NaN, where the lobe is 0 and the floors govern.
         p, q = beam_exponents(pat.beamwidth_h_deg, pat.beamwidth_v_deg)
         floor = _F32(10.0 ** (-pat.front_to_back_db / 10.0))
         p32, hq = _F32(p), _F32(0.5 * q)
