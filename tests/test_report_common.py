@@ -101,32 +101,50 @@ def test_a_table_of_long_words_stays_inside_the_frame(n_rows):
 
 @pytest.mark.skipif(shutil.which("pdftoppm") is None, reason="pdftoppm (poppler-utils) not installed")
 def test_plain_cells_print_as_the_paragraphs_they_replace(tmp_path):
-    """A short table sets the cells that fit on one line as plain strings: the page looks exactly as with a
-    paragraph in every cell (the layout it replaces), to the pixel at 100 dpi."""
+    """A short table sets the cells that fit as plain strings, broken into lines where their paragraphs break
+    them: the page looks exactly as with a paragraph in every cell (the layout it replaces), to the pixel at
+    100 dpi."""
     from PIL import Image, ImageChops
     from reportlab.platypus import Table
 
-    headers = ["configuration", "place", "ratio", "verdict", "note"]
-    align = "llrll"
     rows = [["40m-ssb", "Garden bench under the dipole", "0.0389", c.Styled("COMPLIES", color=c.COMPLIES_COLOR,
              bold=True), "the household's garden: family and visitors, not told about RF exposure"],
             ["20m-cw-amp", "Path", "227", c.Styled(["EXCEEDS", "twice"], color=c.EXCEEDS_COLOR), "line one\nline two"],
-            ["", "–", "1.2e-05", "within rating", ""]] * 3
-    widths = [25 * c.mm, 40 * c.mm, 15 * c.mm, 25 * c.mm, c.frame_width() - 105 * c.mm]
-    new = c.data_table(headers, rows, widths, align=align)
-    head = [c._cell(h, "head_right" if a == "r" else "head") for h, a in zip(headers, align)]
-    body = [[c._cell(v, "cell_right" if a == "r" else "cell") for v, a in zip(row, align)] for row in rows]
-    old = Table([head] + body, colWidths=c.fit_widths(widths, headers, rows), repeatRows=1, hAlign="LEFT")
-    old.setStyle(c.table_style(n_rows=len(rows) + 1))
-    assert any(isinstance(v, str) for row in new._cellvalues for v in row)       # plain cells were used
-    pages = []
-    for name, table in (("new", new), ("old", old)):
+            ["", "–", "1.2e-05 and more words to wrap", "within rating", ""],
+            # paragraphs collapse runs of spaces, split long words and keep a no-break space: kept paragraphs
+            ["a  double space", " lead", "verylongwordwithoutanyspaceatall", "no\u00a0break here", "soft\u00adhyphen"],
+            ["The same 40 m dipole and coax route with a ferrite choke at the feed point", "&amp; <b>", "x " * 30,
+             "20 m quarter-wave wire vertical with its base on a ground system beside the path", "≤ 0.01 µT"]] * 2
+    tables = [(["configuration", "place", "ratio", "verdict", "note"], "llrll", rows,
+               [25 * c.mm, 40 * c.mm, 15 * c.mm, 25 * c.mm, c.frame_width() - 105 * c.mm]),
+              # 81.8 pt of room: "dipole and coax route" is 0.08 pt wider and still set on one line (a
+              # paragraph squeezes up to 5 % of a space per gap between its words): this cell stays a
+              # paragraph; with 6 pt more room it is plain text with the same breaks
+              (["description", "x"], "lr", [["The same 40 m dipole and coax route with a ferrite choke at the feed "
+                                             "point", "1"]] * 3, [86.8, c.frame_width() - 86.8]),
+              (["description", "x"], "lr", [["The same 40 m dipole and coax route with a ferrite choke at the feed "
+                                             "point", "1"]] * 3, [92.8, c.frame_width() - 92.8])]
+    pages = {"new": [], "old": []}
+    plain = []
+    for headers, align, body_rows, widths in tables:
+        new = c.data_table(headers, body_rows, widths, align=align)
+        plain += [v for row in new._cellvalues for v in row if isinstance(v, str)]
+        head = [c._cell(h, "head_right" if a == "r" else "head") for h, a in zip(headers, align)]
+        body = [[c._cell(v, "cell_right" if a == "r" else "cell") for v, a in zip(row, align)] for row in body_rows]
+        old = Table([head] + body, colWidths=c.fit_widths(widths, headers, body_rows), repeatRows=1, hAlign="LEFT")
+        old.setStyle(c.table_style(n_rows=len(body_rows) + 1))
+        pages["new"].append(new)
+        pages["old"].append(old)
+    assert "The same 40 m dipole\nand coax route with a\nferrite choke at the\nfeed point" in plain
+    assert not any(v.startswith("The same 40 m\ndipole and coax route") for v in plain)
+    images = []
+    for name, story in pages.items():
         pdf = tmp_path / f"{name}.pdf"
-        pdf.write_bytes(c.build_pdf([table], title="T", author="", subject="", date_iso="2026-11-30",
+        pdf.write_bytes(c.build_pdf(story, title="T", author="", subject="", date_iso="2026-11-30",
                                     header_left="", header_right="", footer_left=""))
         subprocess.run(["pdftoppm", "-r", "100", "-png", "-singlefile", str(pdf), str(tmp_path / name)], check=True)
-        pages.append(Image.open(tmp_path / f"{name}.png").convert("L"))
-    assert ImageChops.difference(*pages).getbbox() is None
+        images.append(Image.open(tmp_path / f"{name}.png").convert("L"))
+    assert ImageChops.difference(*images).getbbox() is None
 
 
 def test_data_table_rejects_a_short_row():

@@ -175,6 +175,10 @@ def dist_text(dist_m, dist_ft=None) -> str:
 
 
 # ---------------------------------------------------------------- tables
+#: Left and right padding of table cells [pt].
+_PAD = 2.5
+
+
 def table_style(*, n_rows: int, header_rows: int = 1, zebra: bool = True, extra=()) -> TableStyle:
     """The one table look: dark header, thin grid, zebra body rows, top-aligned cells."""
     cmds = [
@@ -182,8 +186,8 @@ def table_style(*, n_rows: int, header_rows: int = 1, zebra: bool = True, extra=
         ("BACKGROUND", (0, 0), (-1, header_rows - 1), ACCENT),
         ("VALIGN", (0, 0), (-1, -1), "TOP"),
         ("GRID", (0, 0), (-1, -1), 0.35, GRID),
-        ("LEFTPADDING", (0, 0), (-1, -1), 2.5),
-        ("RIGHTPADDING", (0, 0), (-1, -1), 2.5),
+        ("LEFTPADDING", (0, 0), (-1, -1), _PAD),
+        ("RIGHTPADDING", (0, 0), (-1, -1), _PAD),
         ("TOPPADDING", (0, 0), (-1, -1), 1.6),
         ("BOTTOMPADDING", (0, 0), (-1, -1), 1.8),
     ]
@@ -311,11 +315,12 @@ def _plain_cell_commands(align) -> list:
 def _body_cells(rows, widths, align, bold_rows, *, wrap: bool):
     """Body cells of a data table and per-row style commands ``{row: [(name, col0, col1, *args)]}``.
 
-    A text that fits its column (each of its lines whole, or, with ``wrap``, broken at spaces) is a
-    plain string set by the table's style as its paragraph would be (a paragraph per cell costs about
-    100 times more); with ``wrap``, colours and bold of :class:`Styled` cells and bold rows become
-    style commands of those cells. Other texts are paragraphs, which wrap (and break a word wider than
-    the column).
+    A text that fits its column is a plain string set by the table's style (a paragraph per cell costs
+    about 100 times more): in a short table broken exactly where its paragraph would break it
+    (:func:`_paragraph_breaks`, so the page is the same), in a long one (``wrap``) at spaces, each line
+    break kept, and the colours and bold of :class:`Styled` cells and of bold rows become style
+    commands of those cells. Other texts are paragraphs, which wrap (and break a word wider than the
+    column).
     """
     body, row_cmds = [], {}
     for i, row in enumerate(rows):
@@ -327,7 +332,7 @@ def _body_cells(rows, widths, align, bold_rows, *, wrap: bool):
                 out.append(v.paragraph())
             elif isinstance(v, Styled):
                 font = FONT_BOLD if (v.bold or bold) else FONT
-                text = _plain_lines([str(t) for t in v.lines], font, room, wrap=wrap)
+                text = _plain_lines([str(t) for t in v.lines], font, room)
                 if text is not None:
                     out.append(text)
                     cmds = row_cmds.setdefault(i, [])
@@ -340,8 +345,8 @@ def _body_cells(rows, widths, align, bold_rows, *, wrap: bool):
             elif v is None or isinstance(v, str):
                 text = "" if v is None else v
                 font = FONT_BOLD if bold else FONT
-                # (a paragraph sets a line break as a space: a short table keeps such a text a paragraph)
-                plain = _plain_lines(text.split("\n"), font, room, wrap=wrap) if wrap or "\n" not in text else None
+                plain = (_plain_lines(text.split("\n"), font, room) if wrap else
+                         _paragraph_breaks(text, font, widths[j] - _PAD - _PAD))
                 if plain is not None:
                     out.append(plain)
                 else:
@@ -369,17 +374,47 @@ def _line_width(text: str, font: str) -> float:
     return stringWidth(text, font, styles()["cell"].fontSize)
 
 
-def _plain_lines(lines, font: str, room: float, *, wrap: bool = True) -> str | None:
-    """``lines`` broken at spaces to fit ``room`` [pt] as one plain string, or None when a word is wider
-    (without ``wrap``: None when a line does not fit whole)."""
+def _paragraph_breaks(text: str, font: str, room: float) -> str | None:
+    """``text`` broken into lines where a cell paragraph of ``room`` [pt] breaks it, as one plain string.
+
+    reportlab's rule for a plain-text paragraph: words taken greedily, a line running over ``room`` by at
+    most its style's space shrinkage (a share of a space per gap between its words). None for a text the
+    paragraph sets otherwise: a line it squeezes into the room that way, whitespace other than single
+    spaces between words, a soft hyphen, or a word wider than the room (the paragraph splits it).
+    """
+    if (text != text.strip(" ") or "  " in text or "\xad" in text
+            or any(ch.isspace() and ch != " " for ch in text)):
+        return None
+    space = _line_width(" ", font)
+    shrink = styles()["cell"].spaceShrinkage * space
+    lines, current, used = [], [], -space
+    for word in text.split(" ") if text else ():
+        w = _line_width(word, font)
+        if w > room:
+            return None
+        wider = used + space + w
+        if wider <= room + shrink * len(current) or not current:
+            current.append(word)
+            used = wider
+        else:
+            if used > room:         # the paragraph squeezes this line's spaces: a plain string cannot
+                return None
+            lines.append(" ".join(current))
+            current, used = [word], w
+    if used > room:
+        return None
+    lines.append(" ".join(current))
+    return "\n".join(lines)
+
+
+def _plain_lines(lines, font: str, room: float) -> str | None:
+    """``lines`` broken at spaces to fit ``room`` [pt] as one plain string, or None when a word is wider."""
     out = []
     space = _line_width(" ", font)
     for line in lines:
         if _line_width(line, font) <= room:
             out.append(line)
             continue
-        if not wrap:
-            return None
         current, used = [], 0.0
         for word in line.split(" "):
             w = _line_width(word, font)
