@@ -10,6 +10,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from rfsafe import site
+from rfsafe.site import grid
 from rfsafe.antenna import patterns as pt
 from rfsafe.errors import InputError
 
@@ -329,12 +330,37 @@ def _table_pattern():
                                              (120.0, 10.0, 90.0, "horizontal"), (66.0, 20.0, 1e-3, "horizontal")])
 def test_tilted_beam_is_never_below_the_pattern_and_within_its_margin(bw, fb, tilt, pol):
     # the single-precision tilted-beam closed form against patterns.beam_gain written out in direct_ratio
-    # (OET Bulletin 65 sec. 2): never below it (its margin covers the rounding), at most 3e-5 above
+    # (OET Bulletin 65 sec. 2): never below it (its margin covers the rounding), at most 1.5 times its margin
+    # above (2e-5 plus 1e-6 per unit of q/2: 3.1e-5 at 30 deg)
     pat = pt.make_pattern("beam", peak_gain_dbi=3.0, front_to_back_db=fb, beamwidth_h_deg=bw, beamwidth_v_deg=bw)
     em = emitter(x=2.0, y=-3.0, h=4.0, pattern=pat, azimuth_deg=37.0, tilt_deg=tilt, polarisation=pol,
                  power=(100.0, 60.0), limit=(50.0, 10.0), f=2.56)
     rel = site.ratio_grid([em], PX, PY, HEIGHTS).ratio / direct_ratio([em], PX, PY, HEIGHTS) - 1.0
-    assert rel.min() >= 0.0 and rel.max() <= 3e-5
+    margin = grid._BEAM_F32_MARGIN + grid._BEAM_F32_MARGIN_PER_Q * 0.5 * pt.beam_exponents(bw, bw)[1]
+    assert rel.min() >= 0.0 and rel.max() <= 1.5 * margin
+
+
+@settings(max_examples=60, deadline=None)
+@given(bw_h=st.floats(3.0, 350.0), bw_v=st.floats(3.0, 179.0), fb=st.floats(3.1, 60.0),
+       tilt=st.one_of(st.floats(-90.0, -0.01), st.floats(0.01, 90.0)),      # tilted: the closed form with its margin
+       az=st.floats(0.0, 360.0), vertical=st.booleans(), h=st.floats(0.0, 20.0))
+def test_tilted_beam_is_never_below_the_pattern_anywhere(bw_h, bw_v, fb, tilt, az, vertical, h):
+    # property: the tilted-beam closed form in single precision (ln(1 - w) by a compensated logarithm, the
+    # back and downward floors by blends) against patterns.beam_gain written out in float64 in direct_ratio
+    # (OET Bulletin 65 sec. 2): never below it, above by at most twice its margin (the margin and the
+    # rounding it covers; 2e-5 for wide beams, up to 1e-3 = 0.004 dB for a 3 deg vertical beamwidth)
+    # a peak gain every lobe shape allows (the beam model refuses more than its lobe can hold)
+    pat = pt.make_pattern("beam", peak_gain_dbi=-3.0, front_to_back_db=fb, beamwidth_h_deg=bw_h, beamwidth_v_deg=bw_v)
+    em = emitter(x=2.0, y=-3.0, h=h, pattern=pat, azimuth_deg=az, tilt_deg=tilt,
+                 polarisation="vertical" if vertical else "horizontal", power=(100.0, 60.0), limit=(50.0, 10.0), f=2.56)
+    heights = (0.5, 1.0, 1.7, 2.0, 12.0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ref = direct_ratio([em], PX, PY, heights)
+    r2_min = np.min([(PX - 2.0) ** 2 + (PY + 3.0) ** 2 + (z - h) ** 2 for z in heights], axis=0)
+    ok = r2_min > 4 * grid.MIN_FAR_FIELD_DIST_M ** 2      # the near-field override (peak gain) left out
+    rel = site.ratio_grid([em], PX, PY, heights).ratio[:, ok] / ref[:, ok] - 1.0
+    margin = grid._BEAM_F32_MARGIN + grid._BEAM_F32_MARGIN_PER_Q * 0.5 * pt.beam_exponents(bw_h, bw_v)[1]
+    assert rel.min() >= 0.0 and rel.max() <= 2 * margin
 
 
 @pytest.mark.parametrize("tilt", [0.0, 15.0])
