@@ -69,3 +69,30 @@ def test_one_blas_thread_by_default_and_the_user_wins():
     out = subprocess.run([sys.executable, "-c", code], env={**env, "RFSAFE_THREADS": "3"},
                          capture_output=True, text=True).stdout
     assert out.split() == ["3", "3"]
+
+
+def test_evaluate_loads_only_what_the_station_declares(tmp_path):
+    # The demo station declares no tuner and no balun, and evaluate draws its plan with the site grid
+    # kernel alone: the tuner networks, the baluns, the site file models and the site loader stay
+    # unloaded (start-up, issue 18). The same run with a tuner and a balun loads the first two, and
+    # the package names stay reachable (PEP 562 look-up) for every caller that imports them.
+    from pathlib import Path
+
+    demo = Path(__file__).resolve().parent.parent / "reports_demo" / "demo_station.toml"
+    code = ("import sys, json; from rfsafe.cli import app\n"
+            f"try:\n    app(['evaluate', {str(demo)!r}, '--json'])\nexcept SystemExit:\n    pass\n"
+            "print(json.dumps(sorted(sys.modules)), file=sys.stderr)")
+    proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True)
+    loaded = set(json.loads(proc.stderr.strip().splitlines()[-1]))
+    assert "rfsafe.site.grid" in loaded and "rfsafe.feedline.stress" in loaded   # the check can fail
+    unused = ("rfsafe.feedline.matching", "rfsafe.feedline.balun", "rfsafe.site.schema", "rfsafe.site.load")
+    assert [m for m in unused if m in loaded] == []
+
+    import rfsafe.feedline
+    import rfsafe.site
+    from rfsafe.feedline.matching import TunerSpec
+    from rfsafe.site.load import load_site
+
+    assert rfsafe.feedline.TunerSpec is TunerSpec and rfsafe.site.load_site is load_site
+    assert all(getattr(rfsafe.site, name) is not None for name in rfsafe.site.__all__)
+    assert all(getattr(rfsafe.feedline, name) is not None for name in rfsafe.feedline.__all__)

@@ -13,7 +13,7 @@ from __future__ import annotations
 import dataclasses
 import math
 from dataclasses import dataclass, field as dc_field
-from typing import ClassVar
+from typing import TYPE_CHECKING, ClassVar
 
 import numpy as np
 
@@ -25,8 +25,10 @@ from rfsafe.feedline.line import (
     reflection_coefficient, reflection_from_swr, swr_from_reflection, exact_total_loss_db,
     line_voltage_current, swr_of_load,
 )
-from rfsafe.feedline.matching import MatchingPart, TunerResult, TunerSpec, design_tuner
-from rfsafe.feedline.balun import BalunSpec, BalunStress, balun_equivalent_power_w, balun_stress
+
+if TYPE_CHECKING:   # the tuner networks and baluns are imported where a line declares one
+    from rfsafe.feedline.balun import BalunSpec, BalunStress
+    from rfsafe.feedline.matching import MatchingPart, TunerResult, TunerSpec
 
 __all__ = ["PartStress", "LineResult", "evaluate_line", "THERMAL_RULE", "LOSS_MODEL_CLOSED",
            "LOSS_MODEL_EXACT", "TRANSMITTER_TARGET_OHM", "NO_CONNECTOR", "TUNER_SWR_SEARCH_TOP", "connector_ends"]
@@ -337,6 +339,8 @@ def _tuner_tolerable_swrs(spec: TunerSpec, result: TunerResult, rated: dict, *, 
     refined by bisection. Loads for which the network has no part in that role, or cannot be built,
     are skipped (said in the note).
     """
+    from rfsafe.feedline.matching import design_tuner
+
     net = result.network
     if spec.c1_pf is not None:
         spec = dataclasses.replace(spec, c1_pf=None, l_uh=None, c2_pf=None, loaded_q=net.loaded_q)
@@ -545,6 +549,10 @@ def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: Ca
             raise bad_value(f"{field}.load_ohm", load_c, f"gives an SWR of {load_swr:.3g} on this {cable.z0_ohm:g} ohm "
                             f"line (accepted: loads with an SWR <= {MAX_SWR:g}; a short, an open or a pure "
                             "reactance reflects everything and has no finite stress)")
+    if tuner is not None:
+        from rfsafe.feedline.matching import design_tuner
+    if balun is not None:
+        from rfsafe.feedline.balun import balun_equivalent_power_w, balun_stress
     if tuner is not None and load_ohm is None:
         raise bad_value(f"{field}.tuner", tuner.topology, "needs load_ohm: a network's parts depend on the "
                         "complex impedance, which an SWR alone does not fix")

@@ -116,13 +116,14 @@ def _check_feedline(i: int, f: Feedline) -> None:
             if getattr(f, key) is not None:
                 raise bad_value(f"{path}.{key}", getattr(f, key),
                                 f'applies only to cable = "custom" (this feedline uses {format_value(f.cable)})')
-    from rfsafe.feedline.balun import parse_balun_ratio
     from rfsafe.feedline.stress import connector_ends
 
     balanced = f.cable != "custom" and fl.cable_class(f.cable).balanced
     connector_ends(path, f.connector, f.connector_at_transmitter, f.connector_at_antenna, f.connector_v_peak_rating,
                    balanced)
     if f.balun is not None:
+        from rfsafe.feedline.balun import parse_balun_ratio
+
         parse_balun_ratio(f.balun.ratio, field=f"{path}.balun.ratio")
 
 
