@@ -935,10 +935,15 @@ _SHELL_DIRECTIONS /= np.linalg.norm(_SHELL_DIRECTIONS, axis=1)[:, None]
 _SHELL_NODES = 24
 
 
+def _wire_shell_points(sols, r_m: float, nodes: np.ndarray) -> np.ndarray:
+    """Points r_m from the wires (z >= 0) around the shell centres ``nodes``."""
+    pts = (nodes[:, None, :] + r_m * _SHELL_DIRECTIONS[None]).reshape(-1, 3)
+    return pts[(pts[:, 2] >= 0) & (_wire_distance_m(sols[0], pts) >= 0.999 * r_m)]
+
+
 def _wire_shell_fields(sols, r_m: float, nodes: np.ndarray) -> list:
     """RMS E and H at 1 W [V/m, A/m] at points r_m from the wires (z >= 0), one pair per solution."""
-    pts = (nodes[:, None, :] + r_m * _SHELL_DIRECTIONS[None]).reshape(-1, 3)
-    pts = pts[(pts[:, 2] >= 0) & (_wire_distance_m(sols[0], pts) >= 0.999 * r_m)]
+    pts = _wire_shell_points(sols, r_m, nodes)
     return [sol.fields_rms(pts, 1.0, field="compliance distance search") for sol in sols] if len(pts) else []
 
 
@@ -978,7 +983,11 @@ def _wire_compliance_distances(sols, limits, avg_ant, pep_ant: float, distances,
     nodes = np.unique(np.concatenate([st.start_m, st.end_m]), axis=0)
     nodes = nodes[np.unique(np.linspace(0, len(nodes) - 1, min(_SHELL_NODES, len(nodes))).round().astype(int))]
     r_min = max(0.05, 5 * float(st.radius_m.max()))
-    cache: dict = {}   # fields at 1 W per shell radius, shared by the environments
+    # Shell points per radius and their fields at 1 W per (radius, solution), shared by the environments and
+    # computed only when asked: a shell is over the limit as soon as one solution's fields are (the worse of
+    # the two governs), so the other solution's fields there are not needed for that answer.
+    shells: dict = {}
+    fields: dict = {}
     need = [max(r_min, d.dist_m) for d in distances if d.dist_m < boundary_m]
     common = np.geomspace(min(need), boundary_m, 6) if need and r_min < boundary_m else np.array([])
     out, flags = [], []
@@ -989,9 +998,17 @@ def _wire_compliance_distances(sols, limits, avg_ant, pep_ant: float, distances,
         env = d.environment
 
         def over_limit(r_m: float, env: str = env) -> bool:
-            if r_m not in cache:
-                cache[r_m] = _wire_shell_fields(sols, r_m, nodes)
-            return _wire_shell_ratio(cache[r_m], limits[env], avg_ant[env], pep_ant) > 1.0
+            if r_m not in shells:
+                shells[r_m] = _wire_shell_points(sols, r_m, nodes)
+            pts = shells[r_m]
+            if not len(pts):
+                return False
+            for j, sol in enumerate(sols):   # the same answer as the ratio over all solutions at once
+                if (r_m, j) not in fields:
+                    fields[r_m, j] = sol.fields_rms(pts, 1.0, field="compliance distance search")
+                if _wire_shell_ratio([fields[r_m, j]], limits[env], avg_ant[env], pep_ant) > 1.0:
+                    return True
+            return False
 
         grid = np.concatenate([[max(r_min, d.dist_m)], common[common > max(r_min, d.dist_m)]])
         over = [r for r in grid if over_limit(r)]

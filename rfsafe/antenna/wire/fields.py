@@ -309,6 +309,42 @@ def _nearest(st, pts):
     return dist[np.arange(len(pts)), q], q, dist
 
 
+def _clear_of_wires(st, pts: np.ndarray, lam: float, d_near: float, enforced: bool) -> bool:
+    """True when no point can fail :func:`check_points`, judged by straight runs instead of segments.
+
+    A straight run (``_runs``: collinear, connected segments) is the union of its segments, so the
+    distance from a point to the run's line piece is the smallest distance to its segments. Every
+    point at least ``MIN_POINT_RADII`` of the largest radius (and, when limits are enforced, lambda/2pi
+    from every run holding a segment longer than lambda/20) from every run, with a margin of 1e-6
+    relative and 1e-9 of the run's length for the rounding, passes the segment-by-segment test; any
+    other set of points takes that test (the screen only skips work, it never decides a refusal).
+    Costs points x runs instead of points x segments.
+    """
+    geo = _runs(st)
+    nr = geo["real_runs"]
+    first = geo["run_start"][:nr]
+    last = np.append(geo["run_start"][1:], len(geo["t"]))[:nr] - 1
+    t0, t1 = geo["t"][first], geo["t"][last]
+    origin, unit = geo["origin"][:nr], geo["unit"][:nr]
+    need = np.full(nr, MIN_POINT_RADII * float(st.radius_m.max()))
+    long_seg = st.length_m > NEAR_SEGMENT_WAVELENGTHS * lam * (1 + 1e-9)
+    if enforced and np.any(long_seg):
+        run_of_seg = np.empty(st.num_segments, dtype=int)
+        run_of_seg[geo["seg"][:st.num_segments]] = np.repeat(np.arange(nr), last - first)
+        has_long = np.zeros(nr, dtype=bool)
+        has_long[run_of_seg[long_seg]] = True
+        need = np.where(has_long, np.maximum(need, d_near), need)
+    need = need * (1 + 1e-6) + 1e-9 * np.abs(t1 - t0)
+    step = max(1, _CHUNK // nr)
+    for a in range(0, len(pts), step):
+        w = pts[a:a + step, None, :] - origin[None]                     # (N, runs, 3)
+        z = np.clip(np.einsum("prk,rk->pr", w, unit), np.minimum(t0, t1), np.maximum(t0, t1))
+        dist = np.linalg.norm(w - z[..., None] * unit, axis=-1)
+        if not np.all(dist >= need):
+            return False
+    return True
+
+
 def check_points(sol, points_m, *, field: str = "points_m") -> np.ndarray:
     """Validate observation points against the method's limits; returns them as (N, 3).
 
@@ -329,6 +365,8 @@ def check_points(sol, points_m, *, field: str = "points_m") -> np.ndarray:
         return pts
     lam = sol.wavelength_m
     d_near = lam / (2 * math.pi)
+    if _clear_of_wires(st, pts, lam, d_near, sol.limits_enforced):
+        return pts
     step = max(1, _CHUNK // st.num_segments)
     for a in range(0, len(pts), step):
         p = pts[a:a + step]

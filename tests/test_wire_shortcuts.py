@@ -1,0 +1,82 @@
+"""Shortcuts of the wire near-field path against the paths they replace (issue 18: evaluate speed).
+
+Each shortcut only skips work; these tests check that it gives the same answer as the full path on
+cases chosen to sit on both sides of its thresholds (the full path is the reference, not a number).
+"""
+
+import math
+
+import numpy as np
+import pytest
+
+from rfsafe.antenna.wire import WireAntennaSpec, solve
+from rfsafe.antenna.wire import fields as F
+from rfsafe.errors import InputError
+
+F_HZ = 14.1e6
+
+
+def _bent_spec(segments=None):
+    # A bent wire (three straight pieces, so several runs) and a straight one, 1 mm and 5 mm radius.
+    wires = [{"label": "bent", "points_m": [[0, 0, 5], [4, 0, 5], [4, 3, 6], [1, 3, 8]], "radius_m": 0.001},
+             {"label": "rod", "points_m": [[8, 0, 1], [8, 0, 6]], "radius_m": 0.005}]
+    if segments is not None:
+        for w in wires:
+            w["segments"] = segments
+    return WireAntennaSpec.model_validate({"wires": wires, "feeds": [{"wire": "bent", "position": 0.2}]})
+
+
+def _full_check(sol, pts):
+    """check_points with the run screen switched off (the segment-by-segment reference)."""
+    saved = F._clear_of_wires
+    F._clear_of_wires = lambda *a: False
+    try:
+        return F.check_points(sol, pts)
+    finally:
+        F._clear_of_wires = saved
+
+
+def _outcome(fn, sol, pts):
+    try:
+        fn(sol, pts)
+        return None
+    except InputError as err:
+        return str(err)
+
+
+@pytest.mark.parametrize("enforce", [True, False])
+def test_run_screen_refuses_exactly_what_the_segment_check_refuses(enforce):
+    # Points at random from 0 to 40 radii of the wires (across the 3-radii limit), one at a time, and in
+    # sets: the screened check must raise the same error (same point, same text) or pass the same points.
+    sol = solve(_bent_spec(None if enforce else 4), F_HZ, enforce_limits=enforce)
+    st = sol.structure
+    rng = np.random.default_rng(7)
+    seg = rng.integers(0, st.num_segments, 400)
+    t = rng.uniform(0, 1, 400)[:, None]
+    on = st.start_m[seg] + t * (st.end_m[seg] - st.start_m[seg])
+    off = rng.normal(size=(400, 3))
+    off /= np.linalg.norm(off, axis=1)[:, None]
+    pts = on + off * rng.uniform(0, 40 * 0.005, 400)[:, None]
+    pts = pts[pts[:, 2] >= 0]
+    refused = 0
+    for p in pts:
+        full = _outcome(_full_check, sol, p[None])
+        refused += full is not None
+        assert _outcome(F.check_points, sol, p[None]) == full
+    assert 0 < refused < len(pts)   # both sides of the limit were tried
+    for chunk in np.array_split(pts, 9):
+        assert _outcome(F.check_points, sol, chunk) == _outcome(_full_check, sol, chunk)
+    far = np.array([[20.0, 20.0, 2.0], [-5.0, 1.0, 0.5]])
+    assert F._clear_of_wires(st, far, sol.wavelength_m, sol.wavelength_m / (2 * math.pi), enforce)
+
+
+def test_run_screen_keeps_the_long_segment_refusal():
+    # Four segments per wire at 14.1 MHz are longer than lambda/20 (common practice limit, see fields.py):
+    # a point within lambda/2pi of them is refused with limits enforced, by the screened check as by the full one.
+    sol = solve(_bent_spec(4), F_HZ, enforce_limits=False)
+    from dataclasses import replace
+    enforced = replace(sol, limits_enforced=True)
+    near = np.array([[2.0, 0.5, 5.0]])
+    assert _outcome(_full_check, enforced, near) is not None
+    assert _outcome(F.check_points, enforced, near) == _outcome(_full_check, enforced, near)
+    assert _outcome(F.check_points, sol, near) is None
