@@ -916,22 +916,34 @@ def _uniform_runs(s0: np.ndarray, s1: np.ndarray) -> list[tuple[int, int]]:
 
 def _segment_sum(r, k, s0, s1, sdir, d, cur1, cur2):
     """sum_q s_q int I_q e^{jk r . r'} dz' of the segments one by one, for directions r (n, 3)."""
+    return _segment_apply(r, k, _segment_setup(k, s0, s1, sdir, d, cur1, cur2))
+
+
+def _segment_setup(k, s0, s1, sdir, d, cur1, cur2) -> tuple:
+    """The direction-free part of :func:`_segment_sum` (computed once per structure and currents)."""
     kc, ks = k * np.cos(k * d), np.sin(k * d)
     i1, i2 = cur1 / ks, cur2 / ks   # sin kd of the PWS shapes folded in
-    alpha = k * (r @ sdir.T)
-    p0 = np.exp(1j * k * (r @ s0.T))
     # the end phase of a segment is the start phase of the next where they are joined (one exponential per node)
     apart = np.ones(len(s0), dtype=bool)
     apart[:-1] = np.any(s1[:-1] != s0[1:], axis=1)
-    p1 = np.empty_like(p0)
-    p1[:, :-1] = p0[:, 1:]
-    if apart.any():
-        p1[:, apart] = np.exp(1j * k * (r @ s1[apart].T))
-    den = k * k - alpha * alpha
     # i1 (k p1 - p0 (kc + j a ks)) + i2 (p1 (j a ks - kc) + k p0), grouped by phase
     c1, c0 = k * i1 - kc * i2, k * i2 - kc * i1
-    amp = p1 * (c1 + alpha * (1j * ks * i2))
-    amp += p0 * (c0 - alpha * (1j * ks * i1))
+    return (s0, sdir, d, cur1, cur2, c1, c0, 1j * ks * i2, 1j * ks * i1, apart,
+            s1[apart] if apart.any() else None)
+
+
+def _segment_apply(r, k, setup: tuple):
+    """:func:`_segment_sum` for directions r (n, 3) with its :func:`_segment_setup`."""
+    s0, sdir, d, cur1, cur2, c1, c0, jks_i2, jks_i1, apart, s1_apart = setup
+    alpha = k * (r @ sdir.T)
+    p0 = np.exp(1j * k * (r @ s0.T))
+    p1 = np.empty_like(p0)
+    p1[:, :-1] = p0[:, 1:]
+    if s1_apart is not None:
+        p1[:, apart] = np.exp(1j * k * (r @ s1_apart.T))
+    den = k * k - alpha * alpha
+    amp = p1 * (c1 + alpha * jks_i2)
+    amp += p0 * (c0 - alpha * jks_i1)
     near = np.abs(den) < _NEAR_AXIS * k * k
     with np.errstate(divide="ignore", invalid="ignore"):
         amp /= den
@@ -976,7 +988,7 @@ def _run_setup(k, s0, s1, cur1, cur2, runs) -> dict:
     np.add.at(coef, (run, 1, pos), -i1)
     coef = coef.reshape(nr, 2, na, nb).transpose(0, 3, 1, 2).reshape(nr, nb, 2 * na)   # [run, b, (poly, a)]
     return dict(runs=runs, first=first, d=d, sdir=sdir, ks=ks, nb=nb, na=na, coef=coef, s0=s0, cur1=cur1,
-                cur2=cur2, width=4 * nb + 8)
+                cur2=cur2, width=4 * nb + 8, s0_first=s0[first], jks=1j * ks)
 
 
 def _run_vector(r, k, setup: dict):
@@ -1003,7 +1015,7 @@ def _run_vector(r, k, setup: dict):
     mix *= za[:, :, None, :]
     poly = mix.sum(axis=-1).transpose(1, 2, 0)                          # (n, poly, runs)
     den = k * k - alpha * alpha
-    amp = np.exp(1j * k * (r @ s0[first].T)) * (poly[:, 0] + 1j * ks * alpha * poly[:, 1])
+    amp = np.exp(1j * k * (r @ setup["s0_first"].T)) * (poly[:, 0] + setup["jks"] * alpha * poly[:, 1])
     near = np.abs(den) < _NEAR_AXIS * k * k
     with np.errstate(divide="ignore", invalid="ignore"):
         amp /= den
@@ -1043,8 +1055,8 @@ class _Radiator:
             width = [math.isqrt(b - a) + 1 for a, b in runs]
             setups = [_run_setup(k, s0, s1, cur1, cur2, [r for r, w in zip(runs, width) if w == u])
                       for u in sorted(set(width))]
-            self.parts.append(((s0[one], s1[one], sdir[one], d[one], cur1[one], cur2[one]) if len(one) else None,
-                               setups))
+            self.parts.append((_segment_setup(k, s0[one], s1[one], sdir[one], d[one], cur1[one], cur2[one])
+                               if len(one) else None, setups))
 
     def __call__(self, rhat: np.ndarray) -> np.ndarray:
         out = np.zeros(rhat.shape[:-1] + (3,), dtype=complex)
@@ -1054,7 +1066,7 @@ class _Radiator:
             if single is not None:
                 step = max(1, _CHUNK // len(single[0]))
                 for i in range(0, len(flat), step):
-                    res[i:i + step] += _segment_sum(flat[i:i + step], self.k, *single)
+                    res[i:i + step] += _segment_apply(flat[i:i + step], self.k, single)
             for setup in setups:
                 step = max(1, _CHUNK // (len(setup["runs"]) * setup["width"]))
                 for i in range(0, len(flat), step):
