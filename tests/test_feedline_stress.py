@@ -418,3 +418,49 @@ def test_pi_part_tolerable_swr_against_brute_force():
     assert 1 < s_c2 < 100
     assert _tuner_part_worst_stress(kw, tuner, "C2", s_c2 * 0.995, None) <= 1000.0 * (1 + 1e-9)
     assert _tuner_part_worst_stress(kw, tuner, "C2", s_c2 * 1.005, None) > 1000.0
+
+
+@pytest.mark.parametrize("case", ["swr", "load", "exact", "tuner_tx", "tuner_ant", "balun", "exceeded"])
+def test_without_tolerable_swr_every_other_field_is_the_same(case):
+    """``tolerable_swr=False`` (the remedies' repeated evaluations) is a shortcut: tested against the path it
+    replaces. Every field but the tolerable SWRs and the first failure is the same number, bit for bit."""
+    import dataclasses
+
+    from rfsafe.feedline.balun import BalunSpec
+    from rfsafe.feedline.stress import TOLERABLE_SWR_SKIPPED
+
+    kw = dict(pep_w=400.0, avg_power_w=200.0, freq_hz=7.1e6, cable=cable_class("rg-213"), length_m=25.0,
+              connector="uhf")
+    kw.update({"swr": dict(swr=2.5), "load": dict(load_ohm=30 - 40j), "exact": dict(swr=3.0, exact_complex_z0=True),
+               "tuner_tx": dict(load_ohm=12 - 35j, tuner=TunerSpec("t", capacitor_max_voltage_v_peak=3000.0,
+                                                                  inductor_max_current_a_rms=8.0)),
+               "tuner_ant": dict(load_ohm=12 - 35j, tuner=TunerSpec("pi", position="antenna", loaded_q=5.0,
+                                                                   capacitor_max_voltage_v_peak=2000.0)),
+               "balun": dict(load_ohm=200 + 50j, balun=BalunSpec(4.0, "antenna", power_rating_w=300.0)),
+               "exceeded": dict(swr=8.0, pep_w=1500.0, avg_power_w=1500.0, length_m=60.0)}[case])
+    full, lean = evaluate_line(**kw), evaluate_line(tolerable_swr=False, **kw)
+    swr_fields = {"largest_tolerable_swr", "tolerable_swr_note", "largest_tolerable_swr_case"}
+    first = {"first_failure", "first_failure_part", "first_failure_swr", "first_failure_case"}
+
+    def same(a, b):
+        if isinstance(a, np.ndarray):
+            return a.dtype == b.dtype and np.array_equal(a, b)
+        return type(a) is type(b) and (a == b or (a != a and b != b))
+
+    for f in dataclasses.fields(full):
+        a, b = getattr(full, f.name), getattr(lean, f.name)
+        if f.name in swr_fields | first:
+            continue
+        if f.name == "part_stresses":
+            assert len(a) == len(b)
+            for pa, pb in zip(a, b):
+                for g in dataclasses.fields(pa):
+                    if g.name not in swr_fields:
+                        assert same(getattr(pa, g.name), getattr(pb, g.name)), (case, pa.part, g.name)
+                assert pb.largest_tolerable_swr is None
+                assert pb.tolerable_swr_note == ("no rating" if pb.rating is None else TOLERABLE_SWR_SKIPPED)
+        else:
+            assert same(a, b), (case, f.name)
+    assert any(p.largest_tolerable_swr is not None for p in full.part_stresses)   # the search ran in `full`
+    if case == "exceeded":
+        assert lean.exceeded_parts and lean.exceeded_parts == full.exceeded_parts

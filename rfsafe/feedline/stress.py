@@ -272,6 +272,19 @@ def _stress(part, quantity, stress, rating, unit, tol, source) -> PartStress:
                       "not rated" if rating is None else ("EXCEEDED" if exceeded else "ok"))
 
 
+#: Note of a part whose largest tolerable SWR was left out (``evaluate_line(..., tolerable_swr=False)``).
+TOLERABLE_SWR_SKIPPED = "not computed in this evaluation (tolerable SWR left out)"
+
+
+def _stress_without_swr(part, quantity, stress, rating, unit, tol, source) -> PartStress:
+    """:func:`_stress` without the tolerable-SWR search (the same stress, headroom and status)."""
+    headroom = None if rating is None else (math.inf if stress == 0 else rating / stress)
+    exceeded = rating is not None and stress > rating
+    return PartStress(part, quantity, float(stress), rating, unit, headroom, None,
+                      "no rating" if rating is None else TOLERABLE_SWR_SKIPPED, exceeded, source,
+                      "not rated" if rating is None else ("EXCEEDED" if exceeded else "ok"))
+
+
 def connector_ends(field: str, connector, at_tx, at_ant, v_rating, balanced: bool):
     """Per-end connector: ``{"transmitter": (series id, rating [V peak], source) or None, "antenna": ...}``.
 
@@ -473,7 +486,7 @@ def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: Ca
                   connector_at_transmitter: str | None = None, connector_at_antenna: str | None = None,
                   balun: BalunSpec | None = None,
                   tuner: TunerSpec | None = None, exact_complex_z0: bool = False,
-                  profile_points: int = 401, field: str = "line") -> LineResult:
+                  profile_points: int = 401, field: str = "line", tolerable_swr: bool = True) -> LineResult:
     """Stress and loss of a feedline (and optional matching network) at PEP and average power.
 
     Parameters
@@ -515,6 +528,12 @@ def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: Ca
         Use the complex Z0 = R0 (1 - j alpha/beta) throughout instead of the real-Z0 closed form.
     profile_points : int
         Samples of the reported standing-wave profile (the maxima use a finer grid).
+    tolerable_swr : bool
+        ``False`` leaves out the search for each rated part's largest tolerable SWR (its bisections and,
+        with a rated tuner, the network designed again over load phases): ``largest_tolerable_swr`` is
+        then None with the note :data:`TOLERABLE_SWR_SKIPPED` and the first failure is not said. Every
+        other field (losses, powers, voltages, currents, stresses, headroom, exceeded parts) is the same
+        as with ``True``: for repeated evaluations that read only those (rfsafe.remedies).
 
     References
     ----------
@@ -708,13 +727,14 @@ def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: Ca
 
     # parts
     parts: list[PartStress] = []
+    stress_of = _stress if tolerable_swr else _stress_without_swr
     line_src = cable.source
 
     def env_line_v(g):
         va, vt, _, _ = _envelope_ends(g, r0, a_amp, pep)
         return max(va, vt)
 
-    parts.append(_stress("line", "voltage_v_peak", v_max, cable.max_voltage_v_peak, "V peak",
+    parts.append(stress_of("line", "voltage_v_peak", v_max, cable.max_voltage_v_peak, "V peak",
                          env_line_v, line_src + " (rms operating voltage x sqrt(2) compared with the peak)"))
     p_rating = power_rating_w(cable, freq)
     equiv = avg * (i_max / i_matched) ** 2
@@ -723,13 +743,13 @@ def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: Ca
         _, _, ia, it = _envelope_ends(g, r0, a_amp, pep)
         return avg * (max(ia, it) / i_matched) ** 2
 
-    parts.append(_stress("line.heating", "equivalent_matched_power_w", equiv, p_rating, "W average",
+    parts.append(stress_of("line.heating", "equivalent_matched_power_w", equiv, p_rating, "W average",
                          env_heat if avg > 0 else None, line_src + "; " + THERMAL_RULE))
     if ends["transmitter"] is not None:
-        parts.append(_stress("connector.transmitter", "voltage_v_peak", float(v_ends[1]), ends["transmitter"][1],
+        parts.append(stress_of("connector.transmitter", "voltage_v_peak", float(v_ends[1]), ends["transmitter"][1],
                              "V peak", lambda g: _envelope_ends(g, r0, a_amp, pep)[1], ends["transmitter"][2]))
     if ends["antenna"] is not None:
-        parts.append(_stress("connector.antenna", "voltage_v_peak", float(v_ends[0]), ends["antenna"][1], "V peak",
+        parts.append(stress_of("connector.antenna", "voltage_v_peak", float(v_ends[0]), ends["antenna"][1], "V peak",
                              lambda g: _envelope_ends(g, r0, a_amp, pep)[0], ends["antenna"][2]))
     balun_result = None
     if balun is not None:
@@ -742,7 +762,7 @@ def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: Ca
             e = _envelope_ends(g, r0, a_amp, pep)
             return balun_equivalent_power_w(e[k] / root_n, e[2 + k] * root_n)
 
-        parts.append(_stress("balun", "equivalent_power_w", balun_result.equivalent_power_w, balun.power_rating_w,
+        parts.append(stress_of("balun", "equivalent_power_w", balun_result.equivalent_power_w, balun.power_rating_w,
                              "W (PEP-equivalent)", balun_eq, "user rating; " + balun_result.rule))
         if balun.location == "transmitter" and not cable.balanced:
             notes.append("balun at the transmitter feeding an unbalanced (coax) line: check the declared location")
@@ -753,7 +773,7 @@ def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: Ca
     if tuner_result is not None:
         rated = {p.name: (p.kind, p.placement) for p in tuner_result.network.parts if p.rating is not None}
         tol = {}
-        if rated:
+        if rated and tolerable_swr:
             tol = _tuner_tolerable_swrs(
                 tuner, tuner_result, rated, r0=r0, z0=complex(z0), gam=complex(gam), length=length, freq=freq,
                 balun_ratio=n_balun, gamma_now=None if line_load is None else complex(reflection_coefficient(
@@ -762,7 +782,7 @@ def evaluate_line(*, pep_w: float, avg_power_w: float, freq_hz: float, cable: Ca
         for p in tuner_result.network.parts:
             stress = p.voltage_v_peak if p.kind == "capacitor" else p.current_a_rms
             qty = "voltage_v_peak" if p.kind == "capacitor" else "current_a_rms"
-            ps = _stress(f"tuner.{p.name}", qty, stress, p.rating, p.rating_unit, None, "user rating")
+            ps = stress_of(f"tuner.{p.name}", qty, stress, p.rating, p.rating_unit, None, "user rating")
             if p.name in tol:
                 ps = dataclasses.replace(ps, largest_tolerable_swr=tol[p.name][0], tolerable_swr_note=tol[p.name][1])
             parts.append(ps)
