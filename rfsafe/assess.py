@@ -853,8 +853,11 @@ def _wire_size_m(solution) -> float:
 
 
 def _wire_near_field_boundary_m(solution) -> float:
-    """2 D^2 / lambda of the wire structure [m] (Balanis Sec. 2.2.4); the boundary is its max with lambda/2pi."""
-    return float(ex.aperture_far_field_distance_m(_wire_size_m(solution), solution.freq_hz))
+    """2 D^2 / lambda of the wire structure [m] (Balanis Sec. 2.2.4); the boundary is its max with lambda/2pi.
+    Kept per solution (see :func:`_kept`): every configuration and trial of the remedies on that antenna and
+    frequency asks it again."""
+    return _kept((solution,), ("wire near-field boundary",),
+                 lambda: float(ex.aperture_far_field_distance_m(_wire_size_m(solution), solution.freq_hz)), 0)
 
 
 def _wire_near_field_at(em: Emitter, place, heights, field: str, average: bool):

@@ -49,22 +49,7 @@ def near_fields(st, k: float, seg_i: np.ndarray, points_m: np.ndarray):
     e_out = np.zeros(pts.shape, dtype=complex)
     h_out = np.zeros(pts.shape, dtype=complex)
     if len(pts):
-        d = st.length_m
-        i1, i2 = seg_i[:, 0], seg_i[:, 1]
-        c, s = np.cos(k * d), np.sin(k * d)
-        a = 1j * ETA0_OHM / (4.0 * math.pi * s)
-        # Per segment: coefficients at its start (row 0) and end (row 1) node of g (and g D) for E_z and
-        # E_rho rho^2 (A), of e for E_rho rho^2 (B), of g D for H_phi rho^2 (U) and of e for H_phi rho^2 (V).
-        seg_coef = np.empty((4, 2, len(d)), dtype=complex)
-        seg_coef[0, 0], seg_coef[0, 1] = a * (c * i1 - i2), a * (c * i2 - i1)
-        seg_coef[1, 0], seg_coef[1, 1] = -1j * s * a * i1, 1j * s * a * i2
-        seg_coef[2, 0], seg_coef[2, 1] = -i1 / (4.0 * math.pi), i2 / (4.0 * math.pi)
-        seg_coef[3, 0] = 1j * (i2 - c * i1) / (4.0 * math.pi * s)
-        seg_coef[3, 1] = 1j * (i1 - c * i2) / (4.0 * math.pi * s)
-        node_coef = np.zeros((4, len(geo["t"])), dtype=complex)     # (A, B, U, V) per node of every run
-        node_coef[:, geo["start_node"]] = seg_coef[:, 0, geo["seg"]]
-        node_coef[:, geo["end_node"]] += seg_coef[:, 1, geo["seg"]]   # each node ends at most one segment
-        node_coef *= geo["node_sign"]
+        node_coef = _node_coefficients(st, k, seg_i, geo)
         if len(pts) * len(geo["t"]) <= _SMALL:
             _all_runs_fields(pts, k, geo, node_coef, e_out, h_out)
         else:
@@ -84,6 +69,45 @@ def near_fields(st, k: float, seg_i: np.ndarray, points_m: np.ndarray):
     return e_out, h_out
 
 
+def _node_coefficients(st, k: float, seg_i: np.ndarray, geo: dict) -> np.ndarray:
+    """(A, B, U, V) coefficients of every run node (4, nodes) for currents ``seg_i`` (see near_fields).
+
+    They depend on the currents and the geometry only: the last few are kept on the (frozen) structure,
+    keyed by k and the current values (not the array's identity), for the many calls of one solution.
+    """
+    kept = st.__dict__.get("_field_node_coef")
+    if kept is None:
+        kept = {}
+        object.__setattr__(st, "_field_node_coef", kept)
+    key = (float(k), seg_i.dtype.str, seg_i.shape, np.ascontiguousarray(seg_i).tobytes())
+    hit = kept.get(key)
+    if hit is not None:
+        return hit
+    d = st.length_m
+    i1, i2 = seg_i[:, 0], seg_i[:, 1]
+    c, s = np.cos(k * d), np.sin(k * d)
+    a = 1j * ETA0_OHM / (4.0 * math.pi * s)
+    # Per segment: coefficients at its start (row 0) and end (row 1) node of g (and g D) for E_z and
+    # E_rho rho^2 (A), of e for E_rho rho^2 (B), of g D for H_phi rho^2 (U) and of e for H_phi rho^2 (V).
+    seg_coef = np.empty((4, 2, len(d)), dtype=complex)
+    seg_coef[0, 0], seg_coef[0, 1] = a * (c * i1 - i2), a * (c * i2 - i1)
+    seg_coef[1, 0], seg_coef[1, 1] = -1j * s * a * i1, 1j * s * a * i2
+    seg_coef[2, 0], seg_coef[2, 1] = -i1 / (4.0 * math.pi), i2 / (4.0 * math.pi)
+    seg_coef[3, 0] = 1j * (i2 - c * i1) / (4.0 * math.pi * s)
+    seg_coef[3, 1] = 1j * (i1 - c * i2) / (4.0 * math.pi * s)
+    node_coef = np.zeros((4, len(geo["t"])), dtype=complex)     # (A, B, U, V) per node of every run
+    node_coef[:, geo["start_node"]] = seg_coef[:, 0, geo["seg"]]
+    node_coef[:, geo["end_node"]] += seg_coef[:, 1, geo["seg"]]   # each node ends at most one segment
+    node_coef *= geo["node_sign"]
+    node_coef.setflags(write=False)
+    while len(kept) >= _KEPT_COEFFICIENTS:
+        kept.pop(next(iter(kept)))
+    kept[key] = node_coef
+    return node_coef
+
+
+#: Coefficient sets kept per structure (a solution's currents, and a few more for the shield's callers).
+_KEPT_COEFFICIENTS = 4
 #: Point-node pairs up to which all runs are summed at once (small calls: few array operations).
 _SMALL = 40_000
 
@@ -320,27 +344,32 @@ def _clear_of_wires(st, pts: np.ndarray, lam: float, d_near: float, enforced: bo
     other set of points takes that test (the screen only skips work, it never decides a refusal).
     Costs points x runs instead of points x segments.
     """
-    geo = _runs(st)
-    nr = geo["real_runs"]
-    first = geo["run_start"][:nr]
-    last = np.append(geo["run_start"][1:], len(geo["t"]))[:nr] - 1
-    t0, t1 = geo["t"][first], geo["t"][last]
-    origin, unit = geo["origin"][:nr], geo["unit"][:nr]
-    need = np.full(nr, MIN_POINT_RADII * float(st.radius_m.max()))
-    long_seg = st.length_m > NEAR_SEGMENT_WAVELENGTHS * lam * (1 + 1e-9)
-    if enforced and np.any(long_seg):
-        run_of_seg = np.empty(st.num_segments, dtype=int)
-        run_of_seg[geo["seg"][:st.num_segments]] = np.repeat(np.arange(nr), last - first)
-        has_long = np.zeros(nr, dtype=bool)
-        has_long[run_of_seg[long_seg]] = True
-        need = np.where(has_long, np.maximum(need, d_near), need)
-    need = need * (1 + 1e-6) + 1e-9 * np.abs(t1 - t0)
-    step = max(1, _CHUNK // nr)
+    key = (float(lam), float(d_near), bool(enforced))
+    kept = st.__dict__.get("_screen_runs")
+    if kept is None or kept[0] != key:
+        geo = _runs(st)
+        nr = geo["real_runs"]
+        first = geo["run_start"][:nr]
+        last = np.append(geo["run_start"][1:], len(geo["t"]))[:nr] - 1
+        t0, t1 = geo["t"][first], geo["t"][last]
+        need = np.full(nr, MIN_POINT_RADII * float(st.radius_m.max()))
+        long_seg = st.length_m > NEAR_SEGMENT_WAVELENGTHS * lam * (1 + 1e-9)
+        if enforced and np.any(long_seg):
+            run_of_seg = np.empty(st.num_segments, dtype=int)
+            run_of_seg[geo["seg"][:st.num_segments]] = np.repeat(np.arange(nr), last - first)
+            has_long = np.zeros(nr, dtype=bool)
+            has_long[run_of_seg[long_seg]] = True
+            need = np.where(has_long, np.maximum(need, d_near), need)
+        need = need * (1 + 1e-6) + 1e-9 * np.abs(t1 - t0)
+        kept = (key, geo["origin"][:nr], geo["unit"][:nr], np.minimum(t0, t1), np.maximum(t0, t1), need * need)
+        object.__setattr__(st, "_screen_runs", kept)
+    _key, origin, unit, lo, hi, need2 = kept
+    step = max(1, _CHUNK // len(origin))
     for a in range(0, len(pts), step):
         w = pts[a:a + step, None, :] - origin[None]                     # (N, runs, 3)
-        z = np.clip(np.einsum("prk,rk->pr", w, unit), np.minimum(t0, t1), np.maximum(t0, t1))
-        dist = np.linalg.norm(w - z[..., None] * unit, axis=-1)
-        if not np.all(dist >= need):
+        z = np.clip(np.einsum("prk,rk->pr", w, unit), lo, hi)
+        w -= z[..., None] * unit
+        if not np.all(np.einsum("prk,prk->pr", w, w) >= need2):
             return False
     return True
 
