@@ -191,6 +191,10 @@ _BEAM_F32_MARGIN = 2e-5
 #: elevation is a float32 ratio good to a few ulps (3e-7), whose logarithm is multiplied by q/2 (over 1,000
 #: for a 3 deg beam); 1e-6 per unit covers it (tested down to 3 deg beamwidths).
 _BEAM_F32_MARGIN_PER_Q = 1e-6
+#: And per unit of the deepest lobe that still counts, ln(1 / back-lobe floor) (12.7 at 55 dB front-to-back):
+#: the exponent p ln((1 + cos az)/2) of a narrow beam (p over 4,000 at 3 deg) carries the float32 rounding of
+#: its factors into the gain (tested down to 3 deg beamwidths and 60 dB).
+_BEAM_F32_MARGIN_PER_LN = 2e-6
 
 
 class _TableLookup:
@@ -600,7 +604,8 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
         p, q = beam_exponents(pat.beamwidth_h_deg, pat.beamwidth_v_deg)
         floor = _F32(10.0 ** (-pat.front_to_back_db / 10.0))
         p32, hq = _F32(p), _F32(0.5 * q)
-        k_up = _F32(float(k) * (1.0 + _BEAM_F32_MARGIN + _BEAM_F32_MARGIN_PER_Q * float(hq)))
+        k_up = _F32(float(k) * (1.0 + _BEAM_F32_MARGIN + _BEAM_F32_MARGIN_PER_Q * float(hq)
+                                + _BEAM_F32_MARGIN_PER_LN * pat.front_to_back_db * math.log(10.0) / 10.0))
         a_t = math.radians(g.tilt_deg)
         st32, ct32 = _F32(math.sin(a_t)), _F32(math.cos(a_t))
 
@@ -636,12 +641,15 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
                 e /= u
                 t = np.log(u)
                 t += e
-                # behind (f < 0): ln(w), put in by a 0/1 blend (a masked copy costs 5 ns a value); ln(0) =
-                # -inf is held at -1e30, which gives the same zero lobe without 0 x inf (NaN stays NaN)
+                # behind (f < 0): ln(w), put in exactly by 0/1 weights (a masked copy costs 5 ns a value;
+                # t + (ln w - t) would round, and p magnifies it); ln(0) = -inf is held at -1e30, which gives
+                # the same zero lobe without 0 x inf (NaN stays NaN)
                 np.log(w, out=w)
                 np.maximum(w, _F32(-1e30), out=w)
-                w -= t
-                w *= (f < 0.0).astype(_F32)
+                back = (f < 0.0).astype(_F32)
+                w *= back
+                np.subtract(_F32(1.0), back, out=back)
+                t *= back
                 t += w
                 t *= p32
                 rp2 /= r2                               # cos^2 of the elevation in the antenna frame
@@ -845,13 +853,21 @@ def _nearest_part_pass(grp: _Group, state, at, px, py, heights, geo, near) -> No
         near[cand[(dc < _F32(grp.near_field_m ** 2)).any(axis=0)]] = True
         idx = cand[(dc < _F32(thr * thr)).any(axis=0)]
     k_peak = _F32(10.0 ** (grp.pattern.peak_gain_dbi / 10.0) / _FOUR_PI)
+    near_d2 = None
+    if part is not None and idx is not None and idx.size:
+        # the peak-gain points lie next to the structure, where float32 projections lose the digits a
+        # distance of a few centimetres needs (1e-5 relative): their distances again in float64
+        p64 = NearestPart(grp.extent, px[idx], py[idx], parts=grp.parts)
+        near_d2 = [p64.squared_m2(h) for h in heights]
     with np.errstate(divide="ignore", invalid="ignore"):
         if all_heights:
             at(state, np.array([[h - grp.height_m] for h in heights]), geo, d2s)
-        for out, h, d2 in zip(geo, heights, d2s):
+        for hi, (out, h, d2) in enumerate(zip(geo, heights, d2s)):
             if not all_heights:
                 at(state, h - grp.height_m, out, None if part is None else d2)
-            if idx is not None and idx.size:
+            if near_d2 is not None:
+                out[idx] = float(k_peak) / np.maximum(near_d2[hi], MIN_FAR_FIELD_DIST_M ** 2)
+            elif idx is not None and idx.size:
                 out[idx] = k_peak / np.maximum(d2[idx], _F32(MIN_FAR_FIELD_DIST_M ** 2))
 
 
