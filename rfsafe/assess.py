@@ -939,9 +939,21 @@ _SHELL_NODES = 24
 
 
 def _wire_shell_points(sols, r_m: float, nodes: np.ndarray) -> np.ndarray:
-    """Points r_m from the wires (z >= 0) around the shell centres ``nodes``."""
+    """Points r_m from the wires (z >= 0) around the shell centres ``nodes``.
+
+    Those at least 0.999 r_m from every segment are kept. The distances to the wires' straight runs decide
+    it (few runs, many segments); only when some point lies within their rounding tolerance of 0.999 r_m
+    are the segment distances of :func:`_wire_distance_m` computed (the same selection either way).
+    """
+    from rfsafe.antenna.wire.fields import nearest_run_distance_m
+
     pts = (nodes[:, None, :] + r_m * _SHELL_DIRECTIONS[None]).reshape(-1, 3)
-    return pts[(pts[:, 2] >= 0) & (_wire_distance_m(sols[0], pts) >= 0.999 * r_m)]
+    limit = 0.999 * r_m
+    d_run, tol = nearest_run_distance_m(sols[0].structure, pts)
+    tol += 1e-9 * limit
+    if np.any(np.abs(d_run - limit) <= tol):
+        return pts[(pts[:, 2] >= 0) & (_wire_distance_m(sols[0], pts) >= limit)]
+    return pts[(pts[:, 2] >= 0) & (d_run >= limit)]
 
 
 def _wire_shell_fields(sols, r_m: float, nodes: np.ndarray) -> list:
@@ -1014,7 +1026,9 @@ def _wire_compliance_distances(sols, limits, avg_ant, pep_ant: float, distances,
             return False
 
         grid = np.concatenate([[max(r_min, d.dist_m)], common[common > max(r_min, d.dist_m)]])
-        over = [r for r in grid if over_limit(r)]
+        # Only the outermost radius over the limit matters (over[-1] below): scanned from the outside in,
+        # the radii inside it need no fields.
+        over = next(([r] for r in grid[::-1] if over_limit(r)), [])
         if not over:
             d_nf = grid[0]
         else:

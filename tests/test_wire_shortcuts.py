@@ -80,3 +80,38 @@ def test_run_screen_keeps_the_long_segment_refusal():
     assert _outcome(_full_check, enforced, near) is not None
     assert _outcome(F.check_points, enforced, near) == _outcome(_full_check, enforced, near)
     assert _outcome(F.check_points, sol, near) is None
+
+
+def test_run_distances_match_the_segment_distances():
+    # nearest_run_distance_m against geometry.point_segment_distances minimised over every segment, within
+    # the tolerance it states (points from on the wire to 30 m away).
+    from rfsafe.antenna.wire.geometry import point_segment_distances
+
+    sol = solve(_bent_spec(), F_HZ)
+    st = sol.structure
+    rng = np.random.default_rng(3)
+    pts = np.concatenate([rng.uniform([-5, -5, 0], [15, 10, 12], (500, 3)),
+                          st.start_m + rng.normal(scale=0.01, size=st.start_m.shape)])
+    exact = point_segment_distances(pts[:, None, :], st.start_m[None], st.end_m[None]).min(axis=1)
+    d_run, tol = F.nearest_run_distance_m(st, pts)
+    assert 0 < tol < 1e-7
+    assert np.max(np.abs(d_run - exact)) <= tol
+
+
+@pytest.mark.parametrize("r_m", [0.05, 0.3, 1.0, 2.5, 7.0])
+def test_shell_points_are_those_the_segment_distances_keep(r_m):
+    # _wire_shell_points (run distances, segment distances only near the threshold) against the filter on the
+    # segment distances of every point; the extra centres put shell points exactly 0.999 r_m from the rod and
+    # just inside and outside it, so both branches are taken.
+    from rfsafe import assess as A
+
+    sol = solve(_bent_spec(), F_HZ)
+    st = sol.structure
+    nodes = np.unique(np.concatenate([st.start_m, st.end_m]), axis=0)
+    rod = np.array([8.0, 0.0, 3.0])   # on the vertical rod (x = 8, y = 0)
+    extra = np.array([rod - [0.001 * r_m * (1 + e), 0, 0] for e in (-1e-7, 0.0, 1e-7)])
+    for centres in (nodes, np.concatenate([nodes, extra])):
+        pts = (centres[:, None, :] + r_m * A._SHELL_DIRECTIONS[None]).reshape(-1, 3)
+        full = pts[(pts[:, 2] >= 0) & (A._wire_distance_m(sol, pts) >= 0.999 * r_m)]
+        got = A._wire_shell_points([sol], r_m, centres)
+        assert got.shape == full.shape and np.array_equal(got, full)

@@ -21,7 +21,8 @@ from rfsafe.antenna.wire.geometry import point_segment_distances
 from rfsafe.antenna.wire.kernel import ETA0_OHM
 from rfsafe.errors import bad_value
 
-__all__ = ["near_fields", "near_fields_direct", "check_points", "point_cautions", "MIN_POINT_RADII",
+__all__ = ["near_fields", "near_fields_direct", "check_points", "point_cautions", "nearest_run_distance_m",
+           "MIN_POINT_RADII",
            "NEAR_SEGMENT_WAVELENGTHS"]
 
 #: Points must be at least this many wire radii from the wire axis (thin-wire fields).
@@ -372,6 +373,33 @@ def _clear_of_wires(st, pts: np.ndarray, lam: float, d_near: float, enforced: bo
         if not np.all(np.einsum("prk,prk->pr", w, w) >= need2):
             return False
     return True
+
+
+def nearest_run_distance_m(st, points_m) -> tuple[np.ndarray, float]:
+    """Distance [m] from each point (N, 3) to the nearest straight run of the real wires, and its tolerance [m].
+
+    A straight run (``_runs``) is the union of its collinear, connected segments, so this is the distance to
+    the nearest segment up to rounding: within the returned tolerance (1e-9 of the longest run plus 1e-9
+    relative) of ``geometry.point_segment_distances`` minimised over the segments. For deciding a threshold
+    cheaply (points x runs instead of points x segments): a point within the tolerance of the threshold
+    must be decided by the segment distances.
+    """
+    geo = _runs(st)
+    nr = geo["real_runs"]
+    first = geo["run_start"][:nr]
+    last = np.append(geo["run_start"][1:], len(geo["t"]))[:nr] - 1
+    t0, t1 = geo["t"][first], geo["t"][last]
+    lo, hi = np.minimum(t0, t1), np.maximum(t0, t1)
+    origin, unit = geo["origin"][:nr], geo["unit"][:nr]
+    pts = np.asarray(points_m, dtype=float).reshape(-1, 3)
+    out = np.empty(len(pts))
+    step = max(1, _CHUNK // nr)
+    for a in range(0, len(pts), step):
+        w = pts[a:a + step, None, :] - origin[None]
+        z = np.clip(np.einsum("prk,rk->pr", w, unit), lo, hi)
+        w -= z[..., None] * unit
+        out[a:a + step] = np.sqrt(np.einsum("prk,prk->pr", w, w).min(axis=1))
+    return out, 1e-9 * float(np.max(hi - lo)) if nr else 0.0
 
 
 def check_points(sol, points_m, *, field: str = "points_m") -> np.ndarray:
