@@ -112,3 +112,41 @@ def test_tables_are_printed_table_by_table_as_one_text():
     assert len(blocks) > 3 and "\n".join(blocks) == render_evaluation(res)
     out = CliRunner().invoke(app, ["evaluate", str(demo), "--no-remedies"]).stdout
     assert out == fit_text(render_evaluation(res)) + "\n"
+
+
+def test_indented_json_is_json_dumps_text():
+    """print_json's indented writer gives exactly the text of the json module (the reference encoder) with
+    indent=2: on the demo result and on random trees of nested lists, tuples, dicts and scalars (empty
+    containers, unicode, escapes, large and negative numbers, booleans, null; hypothesis)."""
+    import json
+    from pathlib import Path
+
+    from hypothesis import given, settings, strategies as st
+
+    from rfsafe.cli import output
+    from rfsafe.remedies import with_answers
+    from rfsafe.station import load_station
+
+    def reference(tree):
+        return json.dumps(tree, indent=2, ensure_ascii=False, allow_nan=False)
+
+    demo = Path(__file__).resolve().parent.parent / "reports_demo" / "demo_station.toml"
+    tree = output.to_jsonable(with_answers(load_station(demo), near_field_maps=True))
+    assert output._indented_json(tree) == reference(tree)
+
+    scalars = (st.none() | st.booleans() | st.integers(-10**20, 10**20)
+               | st.floats(allow_nan=False, allow_infinity=False) | st.text(max_size=8))
+    trees = st.recursive(scalars, lambda kids: st.lists(kids, max_size=4) | st.tuples(kids, kids)
+                         | st.dictionaries(st.text(max_size=5), kids, max_size=4), max_leaves=30)
+
+    @settings(max_examples=300, deadline=None)
+    @given(trees)
+    def check(t):
+        assert output._indented_json(t) == reference(t)
+
+    check()
+    for bad in ({1: "a"}, [1.0, float("inf")], [object()]):   # left to json, or refused as json refuses
+        with pytest.raises((output._NotPlainJSON, ValueError)):
+            output._indented_json(bad)
+    with pytest.raises(ValueError):
+        reference([1.0, float("inf")])
