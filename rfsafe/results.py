@@ -113,37 +113,6 @@ class ComplianceDistance:
 
 
 @dataclass(frozen=True)
-class WireSummary:
-    """Moment-method solution of a wire antenna at the configuration's frequency."""
-
-    feed_impedance_ohm: complex
-    gain_dbi: float
-    radiated_over_input_power: float
-
-
-@dataclass(frozen=True)
-class NearFieldMap:
-    """Near-field exposure ratios of a wire antenna on a horizontal grid (for plots).
-
-    ``e_ratio[env]`` and ``h_ratio[env]`` are (len(y_m), len(x_m)) arrays of (E/E_lim)^2 and
-    (H/H_lim)^2, worst over ``heights_m``; they are left out of the JSON output (plot data only).
-    """
-
-    configuration: str
-    antenna: str
-    plane: str
-    x_m: tuple[float, ...]
-    y_m: tuple[float, ...]
-    heights_m: tuple[float, ...]
-    wire_paths_m: tuple[tuple[tuple[float, float], ...], ...]   # each wire's (x, y) vertices, for drawing
-    max_e_ratio: dict[str, float]
-    max_h_ratio: dict[str, float]
-    excluded_points: int                      # grid cells left out because they touch a conductor
-    e_ratio: dict = field(repr=False, default_factory=dict)
-    h_ratio: dict = field(repr=False, default_factory=dict)
-
-
-@dataclass(frozen=True)
 class AntennaSummary:
     """An antenna as declared, with the extent rfsafe takes for it (for the worksheet's plan and table).
 
@@ -182,23 +151,6 @@ class PlanMap:
     max_ratio: dict[str, float]              # "<level> <environment>" -> largest ratio on the grid
     method: str
     ratio: dict = field(repr=False, default_factory=dict)
-
-
-@dataclass(frozen=True)
-class FeedlineShieldResult:
-    """Common-mode current on a wire antenna's feedline shield and the choke it needs (moment method)."""
-
-    route_length_m: float
-    far_end: str                             # "open" or "ground"
-    choke_impedance_ohm: complex | None      # the declared choke (None: no choke)
-    choke_distance_m: float | None           # along the route from the feed point
-    feed_current_a_rms: float                # at the PEP at the antenna
-    max_current_a_rms: float                 # largest common-mode current on the route, at the PEP
-    max_at_distance_m: float
-    places: tuple[str, ...]                  # places within lambda/2pi of the route (judged for the choke)
-    worst_ratio: float | None                # this configuration's largest ratio there (worst body height)
-    required_choke_ohm: float | None         # smallest |Z| bringing those places to ratio 1 (0: none needed)
-    required_choke_note: str
 
 
 @dataclass(frozen=True)
@@ -374,63 +326,10 @@ class GroundKeepOut:
     text: str
 
 
-@dataclass(frozen=True)
-class QuickAnswer:
-    """The answer to a question asked without a station file (``rfsafe ask``), one frequency and power.
-
-    Per-environment values are dicts keyed ``"controlled"`` / ``"uncontrolled"``; ``largest_pep_w`` holds
-    ``inf`` where the search found no power that exceeds (printed as null in JSON).
-    """
-
-    standard: str
-    standard_name: str
-    band: str | None
-    freq_mhz: float
-    pep_w: float
-    mode: str
-    duty_factor: float
-    gain_dbi: float
-    gain_source: str
-    line_loss_db: float
-    avg_power_at_antenna_w: dict[str, float]
-    eirp_w: dict[str, float]
-    compliance_dist_m: dict[str, float]
-    height_m: float | None
-    distance_m: float | None
-    ground_keep_out_m: dict[str, float] | None      # standing person 0.5-2 m, from the antenna's foot
-    ratio_at_distance: dict[str, float] | None
-    largest_pep_w: dict[str, float | None] | None
-    exemption: str
-    near_field_distance_m: float
-    flags: tuple[str, ...]
-    #: whether the limit rows and the duty factor were read in their published texts (rfsafe.verification)
-    limit_verification: dict[str, str] = field(default_factory=dict)
-    duty_factor_verification: str = "not confirmed"
-
-
-@dataclass(frozen=True)
-class SiteRemedy:
-    """For one site violation and one station (transmitter): the power cut or the move that clears it."""
-
-    violation: str                 # the region's label
-    environment: str
-    transmitter: str
-    power_factor: float | None     # largest fraction of today's power that clears it; None: none does
-    power_status: str              # "solved", "no value helps"
-    move_m: float | None           # smallest move straight away from the worst point that clears it
-    move_status: str               # "solved", "no value helps"
-    ratio_after_power: float | None
-    ratio_after_move: float | None
-    text: str
-
-
 #: Why a keep-out distance can be infinite (printed beside the null in JSON).
 GroundKeepOut.NONFINITE_NOTES = {"keep_out_m": "the configuration's compliance distance is not finite (see its flags)",
                                  "compliance_dist_m": "the configuration's compliance distance is not finite "
                                                       "(see its flags)"}
-#: Why a quick answer's largest PEP can be infinite (``rfsafe ask --json`` prints it beside the null).
-QuickAnswer.NONFINITE_NOTES = {"largest_pep_w": "no power up to a million times the asked PEP reaches the limit "
-                                                "at the distance"}
 
 
 @dataclass(frozen=True)
@@ -484,3 +383,128 @@ class EvaluationResult(VerdictPair):
         object.__setattr__(self, "exemption_case", case)
 
 
+#: Result classes that only some commands build (wire antennas, ``rfsafe ask``, site remedies): defined
+#: on first use (PEP 562 ``__getattr__``), so that every other start-up skips their dataclass creation
+#: (about a quarter of this module's import time). ``from rfsafe.results import QuickAnswer`` works as
+#: before; each class keeps its module and name (pickling, repr).
+_ON_FIRST_USE = ("WireSummary", "NearFieldMap", "FeedlineShieldResult", "QuickAnswer", "SiteRemedy")
+
+
+def _define_on_first_use() -> None:
+    """Define the classes of :data:`_ON_FIRST_USE` in this module (each ``__qualname__`` as at module level)."""
+
+    @dataclass(frozen=True)
+    class WireSummary:
+        """Moment-method solution of a wire antenna at the configuration's frequency."""
+
+        __qualname__ = "WireSummary"
+
+        feed_impedance_ohm: complex
+        gain_dbi: float
+        radiated_over_input_power: float
+
+    @dataclass(frozen=True)
+    class NearFieldMap:
+        """Near-field exposure ratios of a wire antenna on a horizontal grid (for plots).
+
+        ``e_ratio[env]`` and ``h_ratio[env]`` are (len(y_m), len(x_m)) arrays of (E/E_lim)^2 and
+        (H/H_lim)^2, worst over ``heights_m``; they are left out of the JSON output (plot data only).
+        """
+
+        __qualname__ = "NearFieldMap"
+
+        configuration: str
+        antenna: str
+        plane: str
+        x_m: tuple[float, ...]
+        y_m: tuple[float, ...]
+        heights_m: tuple[float, ...]
+        wire_paths_m: tuple[tuple[tuple[float, float], ...], ...]   # each wire's (x, y) vertices, for drawing
+        max_e_ratio: dict[str, float]
+        max_h_ratio: dict[str, float]
+        excluded_points: int                      # grid cells left out because they touch a conductor
+        e_ratio: dict = field(repr=False, default_factory=dict)
+        h_ratio: dict = field(repr=False, default_factory=dict)
+
+    @dataclass(frozen=True)
+    class FeedlineShieldResult:
+        """Common-mode current on a wire antenna's feedline shield and the choke it needs (moment method)."""
+
+        __qualname__ = "FeedlineShieldResult"
+
+        route_length_m: float
+        far_end: str                             # "open" or "ground"
+        choke_impedance_ohm: complex | None      # the declared choke (None: no choke)
+        choke_distance_m: float | None           # along the route from the feed point
+        feed_current_a_rms: float                # at the PEP at the antenna
+        max_current_a_rms: float                 # largest common-mode current on the route, at the PEP
+        max_at_distance_m: float
+        places: tuple[str, ...]                  # places within lambda/2pi of the route (judged for the choke)
+        worst_ratio: float | None                # this configuration's largest ratio there (worst body height)
+        required_choke_ohm: float | None         # smallest |Z| bringing those places to ratio 1 (0: none needed)
+        required_choke_note: str
+
+    @dataclass(frozen=True)
+    class QuickAnswer:
+        """The answer to a question asked without a station file (``rfsafe ask``), one frequency and power.
+
+        Per-environment values are dicts keyed ``"controlled"`` / ``"uncontrolled"``; ``largest_pep_w`` holds
+        ``inf`` where the search found no power that exceeds (printed as null in JSON).
+        """
+
+        __qualname__ = "QuickAnswer"
+
+        standard: str
+        standard_name: str
+        band: str | None
+        freq_mhz: float
+        pep_w: float
+        mode: str
+        duty_factor: float
+        gain_dbi: float
+        gain_source: str
+        line_loss_db: float
+        avg_power_at_antenna_w: dict[str, float]
+        eirp_w: dict[str, float]
+        compliance_dist_m: dict[str, float]
+        height_m: float | None
+        distance_m: float | None
+        ground_keep_out_m: dict[str, float] | None      # standing person 0.5-2 m, from the antenna's foot
+        ratio_at_distance: dict[str, float] | None
+        largest_pep_w: dict[str, float | None] | None
+        exemption: str
+        near_field_distance_m: float
+        flags: tuple[str, ...]
+        #: whether the limit rows and the duty factor were read in their published texts (rfsafe.verification)
+        limit_verification: dict[str, str] = field(default_factory=dict)
+        duty_factor_verification: str = "not confirmed"
+
+    @dataclass(frozen=True)
+    class SiteRemedy:
+        """For one site violation and one station (transmitter): the power cut or the move that clears it."""
+
+        __qualname__ = "SiteRemedy"
+
+        violation: str                 # the region's label
+        environment: str
+        transmitter: str
+        power_factor: float | None     # largest fraction of today's power that clears it; None: none does
+        power_status: str              # "solved", "no value helps"
+        move_m: float | None           # smallest move straight away from the worst point that clears it
+        move_status: str               # "solved", "no value helps"
+        ratio_after_power: float | None
+        ratio_after_move: float | None
+        text: str
+
+    #: Why a quick answer's largest PEP can be infinite (``rfsafe ask --json`` prints it beside the null).
+    QuickAnswer.NONFINITE_NOTES = {"largest_pep_w": "no power up to a million times the asked PEP reaches the "
+                                                    "limit at the distance"}
+    globals().update(WireSummary=WireSummary, NearFieldMap=NearFieldMap, FeedlineShieldResult=FeedlineShieldResult,
+                     QuickAnswer=QuickAnswer, SiteRemedy=SiteRemedy)
+
+
+def __getattr__(name: str):
+    if name in _ON_FIRST_USE:
+        _define_on_first_use()
+        return globals()[name]
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")

@@ -96,3 +96,21 @@ def test_evaluate_loads_only_what_the_station_declares(tmp_path):
     assert rfsafe.feedline.TunerSpec is TunerSpec and rfsafe.site.load_site is load_site
     assert all(getattr(rfsafe.site, name) is not None for name in rfsafe.site.__all__)
     assert all(getattr(rfsafe.feedline, name) is not None for name in rfsafe.feedline.__all__)
+
+
+def test_result_classes_defined_on_first_use_are_the_module_level_classes():
+    # rfsafe.results defines its wire, ask and site-remedy classes on first use (start-up, issue 18): in a
+    # fresh interpreter they are absent until asked for, then the same classes as ever (name, module,
+    # repr, pickling, frozen, equality), and `import *` reaches them.
+    code = ("import sys, json, pickle, dataclasses\nimport rfsafe.results as r\n"
+            "before = sorted(n for n in r._ON_FIRST_USE if n in vars(r))\n"
+            "from rfsafe.results import QuickAnswer, WireSummary\n"
+            "w = WireSummary(50 + 1j, 2.1, 0.97)\n"
+            "frozen = False\ntry:\n    w.gain_dbi = 0.0\nexcept dataclasses.FrozenInstanceError:\n    frozen = True\n"
+            "ns = {}\nexec('from rfsafe.results import *', ns)\n"
+            "print(json.dumps([before, repr(w), WireSummary.__module__ + '.' + WireSummary.__qualname__,\n"
+            "                  pickle.loads(pickle.dumps(w)) == w, frozen, sorted(QuickAnswer.NONFINITE_NOTES),\n"
+            "                  all(n in ns for n in r._ON_FIRST_USE)]))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
+    text = "WireSummary(feed_impedance_ohm=(50+1j), gain_dbi=2.1, radiated_over_input_power=0.97)"
+    assert json.loads(out) == [[], text, "rfsafe.results.WireSummary", True, True, ["largest_pep_w"], True]
