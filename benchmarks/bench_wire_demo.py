@@ -10,7 +10,9 @@ Floor, measured in the same run: ``python -c "import typer"`` (the least a typer
 Targets (absolute, on this machine): ``rfsafe evaluate`` of the wire demo under 0.5 s, ``rfsafe report``
 of it (the worksheet) under 1.2 s. Not a test: it prints, it asserts nothing.
 
-Run: ``python benchmarks/bench_wire_demo.py [repeats]``
+Run: ``python benchmarks/bench_wire_demo.py [repeats]``; ``--parts`` adds, from one in-process evaluation
+(imports done first), the CPU time of its main parts (nested: the peak search is part of the solves, the
+near fields part of the shells and the place ratios).
 """
 
 from __future__ import annotations
@@ -67,5 +69,49 @@ def main(repeats: int = 5) -> None:
         print(f"  {name:22s} {t:6.3f} s   ratio to floor {t / floor:6.1f}{verdict}")
 
 
+#: (module, function) timed by --parts, with the label printed.
+PARTS = [("rfsafe.antenna.wire.solver", "solve", "wire solves"),
+         ("rfsafe.antenna.wire.solver", "_peak_search", "  of which gain peak searches"),
+         ("rfsafe.antenna.wire.fields", "near_fields", "near fields (all callers)"),
+         ("rfsafe.antenna.wire.fields", "check_points", "point checks (all callers)"),
+         ("rfsafe.assess", "_wire_compliance_distances", "compliance-distance shells"),
+         ("rfsafe.assess", "_wire_place_ratios", "place ratios (remedies, keep-out)"),
+         ("rfsafe.remedies", "ground_keep_out", "ground keep-out")]
+
+
+def parts() -> None:
+    """CPU time of the main parts of one in-process ``evaluate`` of the wire demo (one BLAS thread)."""
+    import importlib
+    import time
+
+    from typer.testing import CliRunner
+
+    from rfsafe.cli import app
+
+    spent: dict[str, float] = {}
+    for mod_name, fn_name, label in PARTS:
+        mod = importlib.import_module(mod_name)
+        fn = getattr(mod, fn_name)
+
+        def timed(*a, _fn=fn, _label=label, **k):
+            t0 = time.process_time()
+            try:
+                return _fn(*a, **k)
+            finally:
+                spent[_label] = spent.get(_label, 0.0) + time.process_time() - t0
+        setattr(mod, fn_name, timed)
+    t0 = time.process_time()
+    CliRunner().invoke(app, ["evaluate", str(DEMO)])
+    total = time.process_time() - t0
+    print(f"in-process evaluate (imports excluded): {total:.3f} s CPU; parts (nested, may overlap):")
+    for _m, _f, label in PARTS:
+        print(f"  {label:36s} {spent.get(label, 0.0):6.3f} s")
+
+
 if __name__ == "__main__":
-    main(int(sys.argv[1]) if len(sys.argv) > 1 else 5)
+    os.environ.setdefault("OMP_NUM_THREADS", "1")
+    os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
+    args = [a for a in sys.argv[1:] if a != "--parts"]
+    main(int(args[0]) if args else 5)
+    if "--parts" in sys.argv[1:]:
+        parts()

@@ -132,6 +132,10 @@ def _near_field_map(cid, ant: Antenna, solution, limits, avg_ant, pep_ant, loade
     e1 = np.full(len(grid), np.nan)
     h1 = np.full(len(grid), np.nan)
     field = f"near-field map of configuration {cid!r}, point"
+    if twin is not None:   # one geometry and frequency: the two solutions' fields computed together
+        from rfsafe.antenna.wire.solver import unit_fields_together
+
+        unit_fields_together([solution, twin], grid[~near], field=field)
     e1[~near], h1[~near] = solution.fields_rms(grid[~near], 1.0, field=field)
     if twin is not None:
         e2, h2 = twin.fields_rms(grid[~near], 1.0, field=field)

@@ -21,9 +21,8 @@ from rfsafe.antenna.wire.geometry import point_segment_distances
 from rfsafe.antenna.wire.kernel import ETA0_OHM
 from rfsafe.errors import bad_value
 
-__all__ = ["near_fields", "near_fields_direct", "check_points", "point_cautions", "nearest_run_distance_m",
-           "MIN_POINT_RADII",
-           "NEAR_SEGMENT_WAVELENGTHS"]
+__all__ = ["near_fields", "near_fields_direct", "near_fields_together", "check_points", "point_cautions",
+           "nearest_run_distance_m", "MIN_POINT_RADII", "NEAR_SEGMENT_WAVELENGTHS"]
 
 #: Points must be at least this many wire radii from the wire axis (thin-wire fields).
 MIN_POINT_RADII = 3.0
@@ -55,12 +54,7 @@ def near_fields(st, k: float, seg_i: np.ndarray, points_m: np.ndarray):
             _all_runs_fields(pts, k, geo, node_coef, e_out, h_out)
         else:
             for r0, r1, origin, u, tiny in geo["runs"]:
-                cm = np.zeros((3, r1 - r0, 3), dtype=complex)      # (g | g D | e) x node x column
-                cm[0, :, 0] = cm[1, :, 1] = node_coef[0, r0:r1]
-                cm[2, :, 1] = node_coef[1, r0:r1]
-                cm[1, :, 2] = node_coef[2, r0:r1]
-                cm[2, :, 2] = node_coef[3, r0:r1]
-                _run_fields(pts, k, origin, u, geo["t"][r0:r1], tiny, cm.reshape(-1, 3), e_out, h_out)
+                _run_fields(pts, k, origin, u, geo["t"][r0:r1], tiny, _run_matrix(node_coef, r0, r1), e_out, h_out)
     if st.soil_eps_c is not None and len(pts):   # real ground: images above carry -K; add the remainder
         from rfsafe.antenna.wire.ground import remainder_near_fields
 
@@ -141,6 +135,13 @@ def _all_runs_fields(pts, k, geo, node_coef, e_out, h_out) -> None:
 
 def _run_fields(pts, k, origin, u, t, tiny, cm, e_out, h_out) -> None:
     """Add one straight run's E and H at pts (N, 3) into e_out, h_out; cm (3 (m + 1), 3): node coefficients."""
+    _run_fields_multi(pts, k, origin, u, t, tiny, [(cm, e_out, h_out)])
+
+
+def _run_fields_multi(pts, k, origin, u, t, tiny, items) -> None:
+    """:func:`_run_fields` for several sets of node coefficients on the same run (``items``: (cm, e_out, h_out)):
+    the point geometry, distances and phase factors are computed once, each set's sums and additions as
+    :func:`_run_fields` makes them alone (the same numbers)."""
     nn = len(t)
     step = max(1, _CHUNK // nn)
     for lo in range(0, len(pts), step):
@@ -156,13 +157,61 @@ def _run_fields(pts, k, origin, u, t, tiny, cm, e_out, h_out) -> None:
         np.exp(ph, out=ph)
         np.divide(ph, r, out=buf[:, 0])
         np.multiply(buf[:, 0], dz, out=buf[:, 1])
-        out = buf.reshape(len(w), 3 * nn) @ cm           # (E_z, E_rho rho^2, H_phi rho^2) summed over the run
+        flat = buf.reshape(len(w), 3 * nn)
         with np.errstate(divide="ignore"):
             inv = np.where(rho2 <= tiny, 0.0, 1.0 / rho2)
-        er = out[:, 1] * inv
-        hh = out[:, 2] * inv
-        e_out[lo:lo + step] += out[:, 0, None] * u + er[:, None] * rv
-        h_out[lo:lo + step] += hh[:, None] * np.cross(u, rv)
+        cross = np.cross(u, rv)
+        for cm, e_out, h_out in items:
+            out = flat @ cm                                # (E_z, E_rho rho^2, H_phi rho^2) summed over the run
+            er = out[:, 1] * inv
+            hh = out[:, 2] * inv
+            e_out[lo:lo + step] += out[:, 0, None] * u + er[:, None] * rv
+            h_out[lo:lo + step] += hh[:, None] * cross
+
+
+def _run_matrix(node_coef: np.ndarray, r0: int, r1: int) -> np.ndarray:
+    """Node coefficients of one run as the (3 (m + 1), 3) matrix of :func:`_run_fields`."""
+    cm = np.zeros((3, r1 - r0, 3), dtype=complex)      # (g | g D | e) x node x column
+    cm[0, :, 0] = cm[1, :, 1] = node_coef[0, r0:r1]
+    cm[2, :, 1] = node_coef[1, r0:r1]
+    cm[1, :, 2] = node_coef[2, r0:r1]
+    cm[2, :, 2] = node_coef[3, r0:r1]
+    return cm.reshape(-1, 3)
+
+
+def near_fields_together(items, k: float, points_m):
+    """``[near_fields(st, k, seg_i, points_m) for st, seg_i in items]``, the same numbers, sharing the work of
+    straight runs the structures have in common.
+
+    Solutions of one geometry at one frequency (the same antenna over free space and over a perfect ground,
+    or with and without a load) have the same real runs: the distances and phase factors of a point set to
+    a run are computed once for all of them; each structure's sums are formed and added in its own order
+    of runs (real, then its images), as :func:`near_fields` does. Structures over real soil, with mostly
+    short runs, or a call small enough for the all-runs path are evaluated one by one.
+    """
+    pts = np.asarray(points_m, dtype=float).reshape(-1, 3)
+    geos = [_runs(st) for st, _ in items]
+
+    def real(geo):
+        return [(r1 - r0, o.tobytes(), u.tobytes(), geo["t"][r0:r1].tobytes(), tiny)
+                for r0, r1, o, u, tiny in geo["runs"][:geo["real_runs"]]]
+
+    alone = (len(items) < 2 or not len(pts)
+             or any(st.soil_eps_c is not None or geo["real_runs"] * 4 > st.num_segments + 4
+                    or len(pts) * len(geo["t"]) <= _SMALL for (st, _), geo in zip(items, geos))
+             or any(real(geo) != real(geos[0]) for geo in geos[1:]))
+    if alone:
+        return [near_fields(st, k, seg_i, pts) for st, seg_i in items]
+    outs = [(np.zeros(pts.shape, dtype=complex), np.zeros(pts.shape, dtype=complex)) for _ in items]
+    coefs = [_node_coefficients(st, k, seg_i, geo) for (st, seg_i), geo in zip(items, geos)]
+    nr = geos[0]["real_runs"]
+    for j, (r0, r1, origin, u, tiny) in enumerate(geos[0]["runs"][:nr]):
+        _run_fields_multi(pts, k, origin, u, geos[0]["t"][r0:r1], tiny,
+                          [(_run_matrix(c, *g["runs"][j][:2]), e, h) for c, g, (e, h) in zip(coefs, geos, outs)])
+    for c, geo, (e, h) in zip(coefs, geos, outs):
+        for r0, r1, origin, u, tiny in geo["runs"][nr:]:
+            _run_fields(pts, k, origin, u, geo["t"][r0:r1], tiny, _run_matrix(c, r0, r1), e, h)
+    return outs
 
 
 def _runs(st) -> dict:

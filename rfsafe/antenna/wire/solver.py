@@ -1207,27 +1207,28 @@ class WireSolution:
         """
         from rfsafe.antenna.wire.fields import check_points, near_fields
 
-        try:
-            raw = np.asarray(points_m, dtype=float)
-            key = (raw.shape, raw.tobytes()) if raw.size <= 3 * _FIELD_CACHE_POINTS else None
-        except (TypeError, ValueError):
-            key = None
+        key = _field_key(points_m)
         if key is not None and key in self._unit_fields:   # these points passed check_points before
             e, h = self._unit_fields[key]
         else:
             pts = check_points(self, points_m, field=field)
             e, h = near_fields(self.structure, self.k, self.segment_current_a, pts)
-            if key is not None:
-                kept = self._unit_fields
-                kept["points"] = kept.get("points", 0) + len(pts)
-                while kept["points"] > _FIELD_CACHE_POINTS and len(kept) > 1:   # oldest first
-                    old = next(k for k in kept if k != "points")
-                    kept["points"] -= len(kept.pop(old)[0])
-                for a in (e, h):
-                    a.setflags(write=False)
-                self._unit_fields[key] = (e, h)
+            self._keep_unit_fields(key, e, h)
         scale = self.power_scale(input_power_w)
         return e * scale, h * scale
+
+    def _keep_unit_fields(self, key, e: np.ndarray, h: np.ndarray) -> None:
+        """Keep unit-excitation fields under ``key`` (see :func:`_field_key`), oldest dropped beyond the bound."""
+        if key is None:
+            return
+        kept = self._unit_fields
+        kept["points"] = kept.get("points", 0) + len(e)
+        while kept["points"] > _FIELD_CACHE_POINTS and len(kept) > 1:   # oldest first
+            old = next(k for k in kept if k != "points")
+            kept["points"] -= len(kept.pop(old)[0])
+        for a in (e, h):
+            a.setflags(write=False)
+        self._unit_fields[key] = (e, h)
 
     def fields_rms(self, points_m, input_power_w: float, *, field: str = "points_m"):
         """RMS field strengths at points for ``input_power_w`` delivered to the antenna.
@@ -1246,6 +1247,36 @@ class WireSolution:
         from rfsafe.antenna.wire.fields import point_cautions
 
         return point_cautions(self, points_m, labels)
+
+
+def _field_key(points_m):
+    """Key of a point set in :attr:`WireSolution._unit_fields` (None: not kept, too large or not an array)."""
+    try:
+        raw = np.asarray(points_m, dtype=float)
+        return (raw.shape, raw.tobytes()) if raw.size <= 3 * _FIELD_CACHE_POINTS else None
+    except (TypeError, ValueError):
+        return None
+
+
+def unit_fields_together(sols, points_m, *, field: str = "points_m") -> None:
+    """Compute and keep the unit-excitation near fields of several solutions at the same points at once.
+
+    For solutions of one frequency and geometry (an antenna and its ground bound): their common straight
+    runs are evaluated once (``fields.near_fields_together``); each solution's later
+    :meth:`WireSolution.fields_phasor` at these points then returns the same numbers it would have
+    computed. The points are checked for every solution first, in order (the same refusal as there).
+    Solutions that already hold these points, or point sets too large to keep, are left to fields_phasor.
+    """
+    from rfsafe.antenna.wire.fields import check_points, near_fields_together
+
+    key = _field_key(points_m)
+    todo = [s for s in sols if key is not None and key not in s._unit_fields]
+    if len(todo) < 2 or any(s.k != todo[0].k for s in todo):
+        return
+    pts = [check_points(s, points_m, field=field) for s in todo][0]
+    for s, (e, h) in zip(todo, near_fields_together([(s.structure, s.segment_current_a) for s in todo], todo[0].k,
+                                                    pts)):
+        s._keep_unit_fields(key, e, h)
 
 
 def _diameter(pts: np.ndarray) -> float:
