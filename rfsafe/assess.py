@@ -109,6 +109,54 @@ def _near_wire(points: np.ndarray, spec) -> np.ndarray:
     return near
 
 
+def _map_points(ant: Antenna, solution, loaded: LoadedStation):
+    """The points of a wire antenna's near-field map: (spec, x, y, gx, gy, grid, near), ``grid`` every point at
+    every body height and ``near`` those on or next to a conductor (left out)."""
+    spec = solution.geometry_spec or loaded.wire_specs[ant.id]   # with the feedline shield, if modelled
+    pts = np.array([p for w in spec.wires for p in w.points_m], dtype=float)
+    margin = max(float(ex.near_field_distance_m(solution.freq_hz)), 3.0)
+    x = np.linspace(pts[:, 0].min() - margin, pts[:, 0].max() + margin, 61)
+    y = np.linspace(pts[:, 1].min() - margin, pts[:, 1].max() + margin, 61)
+    gx, gy = np.meshgrid(x, y)
+    # Fields scale with sqrt(power): every height is solved once at 1 W, then scaled per limit.
+    grid = np.concatenate([np.column_stack([gx.ravel(), gy.ravel(), np.full(gx.size, z)])
+                           for z in MAP_BODY_HEIGHTS_M])
+    # Points on or next to a conductor are left out (NaN): thin-wire fields do not hold there.
+    return spec, x, y, gx, gy, grid, _near_wire(grid, spec)
+
+
+def _map_fields_together(loaded: LoadedStation) -> None:
+    """Unit fields of the near-field maps, computed together for every solution with the same geometry, frequency
+    and map points (configurations on one antenna and band, their ground bounds, the antenna with a choke):
+    see ``solver.unit_fields_together``. Only work shared ahead of :func:`_near_field_map`, which finds them
+    kept (the same numbers); any input error is left for the configuration's own evaluation to raise in order.
+    """
+    from rfsafe.antenna.wire.solver import _SHARED_ENTRIES, unit_fields_together
+
+    st = loaded.model
+    wired = [(c, next(a for a in st.antennas if a.id == c.antenna)) for c in st.configurations]
+    wired = [(c, a) for c, a in wired if a.kind == "wire"]
+    if len({(a.id, c.freq_mhz) for c, a in wired}) * 2 > _SHARED_ENTRIES:   # the solutions would not stay shared
+        return
+    groups: dict = {}
+    for c, ant in wired:
+        try:
+            freq_hz = c.freq_mhz * 1e6
+            solution = _wire_solution(loaded, ant, freq_hz)
+            twin = _ground_bound_solution(loaded, ant, solution, freq_hz)
+            _spec, *_axes, grid, near = _map_points(ant, solution, loaded)
+        except InputError:
+            continue
+        pts = grid[~near]
+        sols = groups.setdefault((solution.freq_hz, pts.shape, pts.tobytes()), (pts, []))[1]
+        sols.extend(s for s in (solution, twin) if s is not None and all(s is not t for t in sols))
+    for pts, sols in groups.values():
+        try:
+            unit_fields_together(sols, pts, field="near-field map point")
+        except InputError:
+            pass
+
+
 def _near_field_map(cid, ant: Antenna, solution, limits, avg_ant, pep_ant, loaded: LoadedStation, twin=None):
     """Horizontal near-field map around a wire antenna: ratios worst over body heights (and over the ground
     bound ``twin``, the same antenna over a perfect ground, where given)."""
@@ -117,18 +165,8 @@ def _near_field_map(cid, ant: Antenna, solution, limits, avg_ant, pep_ant, loade
     from rfsafe.limits import exposure_ratio
     from rfsafe.results import NearFieldMap
 
-    spec = solution.geometry_spec or loaded.wire_specs[ant.id]   # with the feedline shield, if modelled
-    pts = np.array([p for w in spec.wires for p in w.points_m], dtype=float)
-    margin = max(float(ex.near_field_distance_m(solution.freq_hz)), 3.0)
-    x = np.linspace(pts[:, 0].min() - margin, pts[:, 0].max() + margin, 61)
-    y = np.linspace(pts[:, 1].min() - margin, pts[:, 1].max() + margin, 61)
-    gx, gy = np.meshgrid(x, y)
-    # Points on or next to a conductor are left out (NaN): thin-wire fields do not hold there.
+    spec, x, y, gx, gy, grid, near = _map_points(ant, solution, loaded)
     e_ratio, h_ratio = {}, {}
-    # Fields scale with sqrt(power): solve every height once at 1 W, then scale per limit.
-    grid = np.concatenate([np.column_stack([gx.ravel(), gy.ravel(), np.full(gx.size, z)])
-                           for z in MAP_BODY_HEIGHTS_M])
-    near = _near_wire(grid, spec)
     e1 = np.full(len(grid), np.nan)
     h1 = np.full(len(grid), np.nan)
     field = f"near-field map of configuration {cid!r}, point"
@@ -1172,6 +1210,8 @@ def assess_with_emitters(loaded: LoadedStation, *, today: dt.date | None = None,
     st = loaded.model
     info = standard_info(st.standard)
     gf = ex.GROUND_FACTORS[st.ground_reflection]
+    if near_field_maps:
+        _map_fields_together(loaded)
     pairs = [_configuration(loaded, i, c, gf, near_field_maps) for i, c in enumerate(st.configurations)]
     configs = tuple(p[0] for p in pairs)
     ems = [p[1] for p in pairs]

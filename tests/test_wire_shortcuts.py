@@ -161,3 +161,31 @@ def test_unit_fields_together_fill_each_solution_with_its_own_fields():
             assert np.array_equal(got, want)
     with pytest.raises(InputError):   # a point on the wire: refused as fields_phasor refuses it
         unit_fields_together([ref_a, ref_b], np.array([[0.0, 0.0, 6.0]] + pts.tolist()), field="map")
+
+
+def test_maps_computed_together_equal_the_maps_one_by_one(monkeypatch):
+    # The wire demo (invented station: two configurations on one antenna at 7.05 MHz, a choke variant, ground
+    # bounds): the near-field maps with their fields shared ahead (assess._map_fields_together) against the maps
+    # each computed alone, bit for bit.
+    from pathlib import Path
+
+    from rfsafe import assess as A
+    from rfsafe.antenna.wire import solver as S
+    from rfsafe.station.load import load_station
+
+    path = Path(__file__).resolve().parent.parent / "reports_demo" / "demo_wire_station.toml"
+
+    def maps():
+        S._shared.clear()
+        A._kept_values.clear()
+        result, _ = A.assess_with_emitters(load_station(path))
+        return [c.near_field_map for c in result.configurations]
+
+    together = maps()
+    monkeypatch.setattr(A, "_map_fields_together", lambda loaded: None)
+    alone = maps()
+    assert sum(m is not None for m in alone) == 4
+    for a, b in zip(together, alone):
+        for env in ("controlled", "uncontrolled"):
+            assert np.array_equal(a.e_ratio[env], b.e_ratio[env], equal_nan=True)
+            assert np.array_equal(a.h_ratio[env], b.h_ratio[env], equal_nan=True)
