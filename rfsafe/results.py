@@ -6,8 +6,9 @@ Per-environment values are dicts keyed ``"controlled"`` / ``"uncontrolled"``.
 
 from __future__ import annotations
 
+import _thread
 import sys
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, fields
 from typing import Any
 
 __all__ = ["VerdictPair", "FigureCheck", "ComplianceDistance", "AntennaSummary", "PlanMap", "WireSummary", "NearFieldMap", "FeedlineShieldResult", "ConfigurationResult", "PlaceExposure", "TransmitterShare",
@@ -15,6 +16,56 @@ __all__ = ["VerdictPair", "FigureCheck", "ComplianceDistance", "AntennaSummary",
            "GroundKeepOut", "QuickAnswer", "SiteRemedy", "EXPOSURE_VERDICTS", "EQUIPMENT_VERDICTS", "EXIT_COMPLIES",
            "EXIT_EXPOSURE_EXCEEDED", "EXIT_EQUIPMENT_EXCEEDED", "EXIT_NOT_EVALUATED", "EXIT_STATUS_HELP", "exit_status",
            "verdict_headline"]
+
+class _Result:
+    """Base of the result dataclasses: the ``repr``, ``==`` and ``hash`` that ``dataclass(frozen=True)``
+    generates, written once here instead of compiled anew for every class (start-up, issue 18: most of
+    this module's import time is that compilation). The same text, the same comparisons and the same
+    hash values as the generated methods: fields with ``repr`` in the repr, fields with ``compare`` in
+    ``==`` (instances of the same class only), and those with ``hash`` (or ``compare``) in the hash.
+    """
+
+    __slots__ = ()
+
+    def __repr__(self) -> str:
+        key = id(self), _thread.get_ident()
+        if key in _REPR_RUNNING:        # a result that holds itself: "..." as dataclasses' repr gives
+            return "..."
+        _REPR_RUNNING.add(key)
+        try:
+            return self.__class__.__qualname__ + "(" + ", ".join(
+                f"{name}={getattr(self, name)!r}" for name in _field_names(self.__class__)[0]) + ")"
+        finally:
+            _REPR_RUNNING.discard(key)
+
+    def __eq__(self, other):
+        if other.__class__ is self.__class__:
+            names = _field_names(self.__class__)[1]
+            return tuple(getattr(self, n) for n in names) == tuple(getattr(other, n) for n in names)
+        return NotImplemented
+
+    def __hash__(self) -> int:
+        return hash(tuple(getattr(self, n) for n in _field_names(self.__class__)[2]))
+
+
+_REPR_RUNNING: set = set()
+_FIELD_NAMES: dict = {}
+
+
+def _field_names(cls: type) -> tuple[tuple[str, ...], tuple[str, ...], tuple[str, ...]]:
+    """(repr, compare, hash) field names of a result class, as dataclasses picks them."""
+    names = _FIELD_NAMES.get(cls)
+    if names is None:
+        fs = fields(cls)
+        names = _FIELD_NAMES[cls] = (tuple(f.name for f in fs if f.repr), tuple(f.name for f in fs if f.compare),
+                                     tuple(f.name for f in fs if (f.compare if f.hash is None else f.hash)))
+    return names
+
+
+#: A frozen result dataclass (``repr``, ``==`` and ``hash`` from :class:`_Result`).
+_result = dataclass(frozen=True, eq=False, repr=False)
+_result_with_slots = dataclass(frozen=True, eq=False, repr=False, slots=True)
+
 
 #: Exposure verdicts: every evaluated place within its limits, some place above, or no place declared.
 EXPOSURE_VERDICTS = ("COMPLIES", "EXCEEDS", "NOT EVALUATED")
@@ -76,8 +127,8 @@ CAUTIONS = (
 )
 
 
-@dataclass(frozen=True)
-class FigureCheck:
+@_result
+class FigureCheck(_Result):
     """One published figure an evaluation used, and whether it was read in its published text.
 
     ``state`` is one of :data:`rfsafe.verification.STATES`; ``verification`` is the data row's own text.
@@ -91,8 +142,8 @@ class FigureCheck:
     state: str
 
 
-@dataclass(frozen=True)
-class ComplianceDistance:
+@_result
+class ComplianceDistance(_Result):
     """Distance beyond which one environment's limit is met (peak gain, far-field formula)."""
 
     environment: str
@@ -112,8 +163,8 @@ class ComplianceDistance:
     limit_verification: str = "not confirmed"   # was the limit's row read in its published text (rfsafe.verification)
 
 
-@dataclass(frozen=True)
-class AntennaSummary:
+@_result
+class AntennaSummary(_Result):
     """An antenna as declared, with the extent rfsafe takes for it (for the worksheet's plan and table).
 
     ``segments_m`` are straight pieces ((x, y, z), (x, y, z)) of the radiating structure in the station
@@ -135,8 +186,8 @@ class AntennaSummary:
     segments_m: tuple = ()
 
 
-@dataclass(frozen=True)
-class PlanMap:
+@_result
+class PlanMap(_Result):
     """Plan view of a station: total exposure ratios on a horizontal grid at two levels (for plots).
 
     ``ratio[(level, env)]`` is a (len(y_m), len(x_m)) array of the total exposure ratio (every
@@ -153,8 +204,8 @@ class PlanMap:
     ratio: dict = field(repr=False, default_factory=dict)
 
 
-@dataclass(frozen=True)
-class ConfigurationResult:
+@_result
+class ConfigurationResult(_Result):
     """One operating configuration: power chain, line, gain, compliance distances."""
 
     id: str
@@ -195,8 +246,8 @@ class ConfigurationResult:
     duty_factor_verification: str = "not confirmed"   # was the duty factor read in its published table
 
 
-@dataclass(frozen=True, slots=True)
-class PlaceExposure:
+@_result_with_slots
+class PlaceExposure(_Result):
     """Exposure at one place from one configuration.
 
     One is kept per place and configuration (up to 500,000 of them): slots instead of an instance
@@ -245,8 +296,8 @@ _INTERNED = ("configuration", "transmitter", "gain_method", "governing", "method
              "limit_verification")
 
 
-@dataclass(frozen=True, slots=True)
-class TransmitterShare:
+@_result_with_slots
+class TransmitterShare(_Result):
     """A transmitter's contribution to a place's total (its worst configuration there)."""
 
     transmitter: str
@@ -254,8 +305,8 @@ class TransmitterShare:
     exposure_ratio: float
 
 
-@dataclass(frozen=True)
-class PlaceResult:
+@_result
+class PlaceResult(_Result):
     """One place: every configuration's exposure and the simultaneous total."""
 
     label: str
@@ -274,8 +325,8 @@ class PlaceResult:
     why: str = ""                            # why the place is in its environment (from the station file)
 
 
-@dataclass(frozen=True)
-class Remedy:
+@_result
+class Remedy(_Result):
     """One change that brings a place (or every place) to its limit, everything else unchanged.
 
     Solved by re-running the whole evaluation with the parameter changed (see :mod:`rfsafe.remedies`).
@@ -290,8 +341,8 @@ class Remedy:
     text: str                      # one sentence for tables and the worksheet
 
 
-@dataclass(frozen=True)
-class PlaceRemedies:
+@_result
+class PlaceRemedies(_Result):
     """What would make one place that exceeds comply."""
 
     place: str
@@ -300,8 +351,8 @@ class PlaceRemedies:
     remedies: tuple[Remedy, ...]
 
 
-@dataclass(frozen=True)
-class ConfigurationRemedies:
+@_result
+class ConfigurationRemedies(_Result):
     """Per configuration: the values with which every place complies (headroom where it already does)."""
 
     configuration: str
@@ -310,8 +361,8 @@ class ConfigurationRemedies:
     remedies: tuple[Remedy, ...]
 
 
-@dataclass(frozen=True)
-class GroundKeepOut:
+@_result
+class GroundKeepOut(_Result):
     """Horizontal keep-out distance from the antenna's foot at one body level, one configuration alone."""
 
     configuration: str
@@ -332,8 +383,8 @@ GroundKeepOut.NONFINITE_NOTES = {"keep_out_m": "the configuration's compliance d
                                                       "(see its flags)"}
 
 
-@dataclass(frozen=True)
-class EvaluationResult(VerdictPair):
+@_result
+class EvaluationResult(VerdictPair, _Result):
     """The whole evaluation of one station file."""
 
     title: str
@@ -393,8 +444,8 @@ _ON_FIRST_USE = ("WireSummary", "NearFieldMap", "FeedlineShieldResult", "QuickAn
 def _define_on_first_use() -> None:
     """Define the classes of :data:`_ON_FIRST_USE` in this module (each ``__qualname__`` as at module level)."""
 
-    @dataclass(frozen=True)
-    class WireSummary:
+    @_result
+    class WireSummary(_Result):
         """Moment-method solution of a wire antenna at the configuration's frequency."""
 
         __qualname__ = "WireSummary"
@@ -403,8 +454,8 @@ def _define_on_first_use() -> None:
         gain_dbi: float
         radiated_over_input_power: float
 
-    @dataclass(frozen=True)
-    class NearFieldMap:
+    @_result
+    class NearFieldMap(_Result):
         """Near-field exposure ratios of a wire antenna on a horizontal grid (for plots).
 
         ``e_ratio[env]`` and ``h_ratio[env]`` are (len(y_m), len(x_m)) arrays of (E/E_lim)^2 and
@@ -426,8 +477,8 @@ def _define_on_first_use() -> None:
         e_ratio: dict = field(repr=False, default_factory=dict)
         h_ratio: dict = field(repr=False, default_factory=dict)
 
-    @dataclass(frozen=True)
-    class FeedlineShieldResult:
+    @_result
+    class FeedlineShieldResult(_Result):
         """Common-mode current on a wire antenna's feedline shield and the choke it needs (moment method)."""
 
         __qualname__ = "FeedlineShieldResult"
@@ -444,8 +495,8 @@ def _define_on_first_use() -> None:
         required_choke_ohm: float | None         # smallest |Z| bringing those places to ratio 1 (0: none needed)
         required_choke_note: str
 
-    @dataclass(frozen=True)
-    class QuickAnswer:
+    @_result
+    class QuickAnswer(_Result):
         """The answer to a question asked without a station file (``rfsafe ask``), one frequency and power.
 
         Per-environment values are dicts keyed ``"controlled"`` / ``"uncontrolled"``; ``largest_pep_w`` holds
@@ -479,8 +530,8 @@ def _define_on_first_use() -> None:
         limit_verification: dict[str, str] = field(default_factory=dict)
         duty_factor_verification: str = "not confirmed"
 
-    @dataclass(frozen=True)
-    class SiteRemedy:
+    @_result
+    class SiteRemedy(_Result):
         """For one site violation and one station (transmitter): the power cut or the move that clears it."""
 
         __qualname__ = "SiteRemedy"

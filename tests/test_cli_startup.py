@@ -114,3 +114,51 @@ def test_result_classes_defined_on_first_use_are_the_module_level_classes():
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
     text = "WireSummary(feed_impedance_ohm=(50+1j), gain_dbi=2.1, radiated_over_input_power=0.97)"
     assert json.loads(out) == [[], text, "rfsafe.results.WireSummary", True, True, ["largest_pep_w"], True]
+
+
+def _stock_dataclass_twin(cls):
+    """The same fields, defaults and __post_init__ built by the standard library's dataclass(frozen=True)."""
+    import dataclasses
+
+    ns = {"__annotations__": {}, "__qualname__": cls.__qualname__}
+    for f in dataclasses.fields(cls):
+        ns["__annotations__"][f.name] = f.type
+        kw = dict(init=f.init, repr=f.repr, hash=f.hash, compare=f.compare)
+        if f.default is not dataclasses.MISSING:
+            kw["default"] = f.default
+        if f.default_factory is not dataclasses.MISSING:
+            kw["default_factory"] = f.default_factory
+        ns[f.name] = dataclasses.field(**kw)
+    if "__post_init__" in vars(cls):
+        ns["__post_init__"] = vars(cls)["__post_init__"]
+    return dataclasses.dataclass(frozen=True, slots="__slots__" in vars(cls))(type(cls.__name__, (), ns))
+
+
+def test_result_classes_compare_hash_and_print_as_stock_dataclasses():
+    # The result classes take repr, == and hash from one base class instead of compiling them per class
+    # (start-up, issue 18). Reference: the standard library's generated methods on a twin of each class:
+    # the same repr text, the same equality (equal, unequal, other types) and the same hash values.
+    import dataclasses
+
+    import rfsafe.results as r
+
+    classes = [getattr(r, n) for n in r.__all__
+               if isinstance(getattr(r, n), type) and dataclasses.is_dataclass(getattr(r, n))]
+    assert len(classes) >= 18
+    for cls in classes:
+        twin = _stock_dataclass_twin(cls)
+        init = [f for f in dataclasses.fields(cls) if f.init]
+        for variant in range(3):
+            kw = {f.name: (f"v{i}" if i % 3 else i + 0.5 * variant) if variant < 2 else (f"v{i}", i)
+                  for i, f in enumerate(init)}
+            other = {**kw, init[0].name: "changed"}
+            a, a2, b = cls(**kw), cls(**dict(kw)), cls(**other)
+            t, t2, u = twin(**kw), twin(**dict(kw)), twin(**other)
+            assert repr(a) == repr(t) and repr(b) == repr(u), cls.__name__
+            assert (a == a2, a == b, a != b, a == 1) == (t == t2, t == u, t != u, t == 1), cls.__name__
+            assert hash(a) == hash(t) and hash(b) == hash(u), cls.__name__
+            assert a.__eq__(t) is NotImplemented           # another class never compares equal
+    import pytest
+
+    with pytest.raises(dataclasses.FrozenInstanceError):
+        r.Remedy(**{f.name: "x" for f in dataclasses.fields(r.Remedy) if f.init}).text = "changed"
