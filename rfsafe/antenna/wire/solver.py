@@ -85,6 +85,18 @@ def _pair_blocks(x, w, f1, f2, tdir, p1, sdir, d, a2, k):
     return out
 
 
+def _grouped_terms(g1, g2, e1, e2, c, alpha, beta, jg):
+    """The two tangential-field terms grouped by kernel value (see :func:`_pair_blocks_grouped`):
+    t1 = c g1 alpha - g2 beta - jg e1 and t2 = c g2 beta - g1 alpha + jg e2, jg = j sin(kd) tau."""
+    t1 = g1 * (c * alpha)
+    t1 -= g2 * beta
+    t1 -= e1 * jg
+    t2 = g2 * (c * beta)
+    t2 -= g1 * alpha
+    t2 += e2 * jg
+    return t1, t2
+
+
 def _pair_blocks_grouped(x, w, f1, f2, tdir, p1, sdir, d, a2, k):
     """:func:`_pair_blocks` (the same reaction blocks) with the field's terms grouped by kernel value.
 
@@ -111,13 +123,7 @@ def _pair_blocks_grouped(x, w, f1, f2, tdir, p1, sdir, d, a2, k):
     tau = np.einsum("...i,...i->...", rv, tdir) / rho2
     alpha = cos_ps - tau * z
     beta = cos_ps + tau * d2
-    jg = 1j * (sn * tau)
-    t1 = g1 * (c * alpha)
-    t1 -= g2 * beta
-    t1 -= e1 * jg
-    t2 = g2 * (c * beta)
-    t2 -= g1 * alpha
-    t2 += e2 * jg
+    t1, t2 = _grouped_terms(g1, g2, e1, e2, c, alpha, beta, 1j * (sn * tau))
     amp = -1j * ETA0_OHM / (4.0 * np.pi * sn[..., 0])
     wf1, wf2 = w * f1, w * f2
     out = np.empty(t1.shape[:-1] + (2, 2), dtype=complex)
@@ -449,13 +455,7 @@ def _general_blocks(ts: _TestSide, k: float, src: dict, r0, r1, cols: np.ndarray
     # grouped by kernel value (real factors first): alpha = t.s - tau z, beta = t.s + tau (d - z)
     alpha = cos_ps - tau * z
     beta = cos_ps + tau * (d - z)
-    jg = 1j * (sn * tau)
-    t1 = g1 * (c * alpha)
-    t1 -= g2 * beta
-    t1 -= e1 * jg
-    t2 = g2 * (c * beta)
-    t2 -= g1 * alpha
-    t2 += e2 * jg
+    t1, t2 = _grouped_terms(g1, g2, e1, e2, c, alpha, beta, 1j * (sn * tau))
     wf = ts.wfw[rows]                                                  # (c, 2, Q)
     out = np.empty((len(x), 2, nc, 2), dtype=complex)
     scale = -src["sign"] * src["amp"][cols]
