@@ -1338,15 +1338,25 @@ def place_totals(loaded: LoadedStation, memo: dict | None = None) -> list[tuple[
     # a place it refuses (on a conductor) makes the whole evaluation refused, as assess refuses it.
     fresh = {j: _ratios_at_places(em, loaded, cres) for j, (keep, (cres, em)) in enumerate(zip(kept, pairs))
              if not keep}
-    out = []
+    # A kept configuration's exposures at the same places (the same place keys in the same order) are held
+    # as one column: the trials of :mod:`rfsafe.remedies` then look up one column per configuration instead
+    # of one memo entry per place and configuration (the same objects either way).
+    pks = [_place_key(memo, place) for place in st.places] if memo is not None else None
+    sig = tuple(pks) if pks is not None else None
+    cols = {j: memo.get(("column", k, sig)) for j, k in enumerate(keys) if j not in fresh} if memo is not None else {}
+    cols = {j: col for j, col in cols.items() if col is not None}
+    rows = []
     for pi_, place in enumerate(st.places):
-        pk = _place_key(memo, place) if memo is not None else None
-        exposures = tuple(
-            fresh[j][pi_] if j in fresh else _memoised(memo, (k, pk), lambda cres=cres, em=em: _place_exposure(
-                em, loaded, pi_, place, cres, em.solution))
-            for j, (k, (cres, em)) in enumerate(zip(keys, pairs)))
-        out.append((place.label, _totals(exposures, st)[0]))
-    return out
+        pk = pks[pi_] if pks is not None else None
+        rows.append(tuple(
+            fresh[j][pi_] if j in fresh else cols[j][pi_] if j in cols else _memoised(
+                memo, (k, pk), lambda cres=cres, em=em: _place_exposure(em, loaded, pi_, place, cres, em.solution))
+            for j, (k, (cres, em)) in enumerate(zip(keys, pairs))))
+    if memo is not None:
+        for j, k in enumerate(keys):
+            if j not in fresh and j not in cols:
+                memo[("column", k, sig)] = tuple(row[j] for row in rows)
+    return [(place.label, _totals(row, st)[0]) for place, row in zip(st.places, rows)]
 
 
 @dataclass(frozen=True, slots=True)
