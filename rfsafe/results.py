@@ -17,6 +17,7 @@ __all__ = ["VerdictPair", "FigureCheck", "ComplianceDistance", "AntennaSummary",
            "EXIT_EXPOSURE_EXCEEDED", "EXIT_EQUIPMENT_EXCEEDED", "EXIT_NOT_EVALUATED", "EXIT_STATUS_HELP", "exit_status",
            "verdict_headline"]
 
+
 class _Result:
     """Base of the result dataclasses: the ``repr``, ``==`` and ``hash`` that ``dataclass(frozen=True)``
     generates, written once here instead of compiled anew for every class (start-up, issue 18: most of
