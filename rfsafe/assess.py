@@ -131,11 +131,13 @@ def _map_fields_together(loaded: LoadedStation) -> None:
     see ``solver.unit_fields_together``. Only work shared ahead of :func:`_near_field_map`, which finds them
     kept (the same numbers); any input error is left for the configuration's own evaluation to raise in order.
     """
-    from rfsafe.antenna.wire.solver import _SHARED_ENTRIES, unit_fields_together
-
     st = loaded.model
     wired = [(c, next(a for a in st.antennas if a.id == c.antenna)) for c in st.configurations]
     wired = [(c, a) for c, a in wired if a.kind == "wire"]
+    if not wired:     # no wire antenna: nothing to share (and the solver is not imported)
+        return
+    from rfsafe.antenna.wire.solver import _SHARED_ENTRIES, unit_fields_together
+
     if len({(a.id, c.freq_mhz) for c, a in wired}) * 2 > _SHARED_ENTRIES:   # the solutions would not stay shared
         return
     groups: dict = {}
