@@ -122,9 +122,12 @@ def test_negative_length_and_power():
     r = run(["line", "--pep-w", "100", "--freq-mhz", "14.2", "--length-m", "-3", "--cable", "rg-58", "--swr", "2"])
     assert (r.exit_code, r.stderr) == (2, "Error: --length-m: -3.0 must be a number >= 0 m\n")
     r = run(["line", "--pep-w", "0", "--freq-mhz", "14.2", "--length-m", "3", "--cable", "rg-58", "--swr", "2"])
-    assert (r.exit_code, r.stderr) == (2, "Error: --pep-w: 0.0 must be a number > 0 W\n")
+    assert (r.exit_code, r.stderr) == (2, "Error: --pep-w: 0.0 must be a finite number > 0 W\n")
     r = run(["line", "--pep-w", "100", "--freq-mhz", "-1", "--length-m", "3", "--cable", "rg-58", "--swr", "2"])
-    assert (r.exit_code, r.stderr) == (2, "Error: --freq-mhz: -1.0 must be a number > 0 MHz\n")
+    assert (r.exit_code, r.stderr) == (2, "Error: --freq-mhz: -1.0 must be a finite number > 0 MHz\n")
+    # a number too large for a float is read as infinity: the message must not read as if inf were accepted
+    r = run(["line", "--pep-w", "1e400", "--freq-mhz", "14.2", "--length-m", "3", "--cable", "rg-58", "--swr", "2"])
+    assert (r.exit_code, r.stderr) == (2, "Error: --pep-w: inf must be a finite number > 0 W\n")
 
 
 def test_help():

@@ -170,7 +170,7 @@ def line(
     from rfsafe.feedline.matching import TunerSpec
 
     if not (math.isfinite(freq_mhz) and freq_mhz > 0):
-        raise bad_value("--freq-mhz", freq_mhz, "must be a number > 0 MHz")
+        raise bad_value("--freq-mhz", freq_mhz, "must be a finite number > 0 MHz")
     if not (math.isfinite(duty_factor) and 0 < duty_factor <= 1):
         raise bad_value("--duty-factor", duty_factor, "must be > 0 and <= 1")
     custom = {"--z0-ohm": z0_ohm, "--loss-db-per-100m": loss_db_per_100m, "--vf": vf}
@@ -204,7 +204,7 @@ def line(
             raise bad_value(opt, val, "describes a balun: give --balun")
     for opt, val in (("--inductor-q", inductor_q), ("--q", q)):
         if val is not None and not (math.isfinite(val) and val > 0):
-            raise bad_value(opt, val, "must be a number > 0")
+            raise bad_value(opt, val, "must be a finite number > 0")
     try:
         if cable is not None:
             line_cable = cable_class(cable, field="--cable")
@@ -229,7 +229,7 @@ def line(
             balun_spec = BalunSpec(ratio=parse_balun_ratio(balun, field="--balun"), location=where,
                                    power_rating_w=balun_power_w, loss_db=balun_loss_db, label=balun.strip())
         if not (math.isfinite(pep_w) and pep_w > 0):
-            raise bad_value("--pep-w", pep_w, "must be a number > 0 W")
+            raise bad_value("--pep-w", pep_w, "must be a finite number > 0 W")
         result = evaluate_line(pep_w=pep_w, avg_power_w=pep_w * duty_factor, freq_hz=freq_mhz * 1e6,
                                cable=line_cable, length_m=length_m, swr=swr, load_ohm=load, connector=connector,
                                connector_v_peak_rating=connector_v_peak, connector_at_transmitter=connector_tx,
