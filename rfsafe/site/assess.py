@@ -16,7 +16,7 @@ from rfsafe.site.analysis import (
 )
 from rfsafe.site.constants import ENVIRONMENTS, ROPE_STEP_M
 from rfsafe.site.geometry import Area, points_in_polygon
-from rfsafe.site.grid import SiteEmitter
+from rfsafe.site.grid import SiteEmitter, limit_equivalent_w_m2, site_pattern
 from rfsafe.verification import figure_checks
 from rfsafe.results import VerdictPair
 
@@ -93,33 +93,6 @@ class SiteResult(VerdictPair):
     data_verification: tuple = ()
 
 
-def limit_equivalent_w_m2(limits, power_w: float, pep_w: float) -> float:
-    """Fold one environment's limits into a plane-wave-equivalent limit for ``power_w`` [W/m^2].
-
-    Every far-field ratio is proportional to the power density, so the worst
-    basis at any point is the one with the largest ``power x ratio per W/m^2``;
-    an instantaneous basis is compared with the PEP.
-    """
-    from rfsafe import exposure as ex
-
-    worst = max((pep_w if lim.basis == "instantaneous" else power_w) * float(ex.ratio_at(lim, 1.0))
-                for lim in limits)
-    return power_w / worst
-
-
-def _site_pattern(ant, peak_gain_dbi: float, tables: dict, field: str):
-    """The pattern used on the grid and a short note of how it was chosen."""
-    from rfsafe.antenna.patterns import PATTERN_KINDS, make_pattern
-
-    if ant.use_pattern and ant.kind in PATTERN_KINDS:
-        pat = make_pattern(ant.kind, peak_gain_dbi=peak_gain_dbi, front_to_back_db=ant.front_to_back_db,
-                           beamwidth_h_deg=ant.beamwidth_h_deg, beamwidth_v_deg=ant.beamwidth_v_deg,
-                           table=tables.get(ant.id), field=field)
-        return pat, f"{ant.kind} pattern"
-    return make_pattern("isotropic", peak_gain_dbi=peak_gain_dbi), \
-        f"peak gain {peak_gain_dbi:.2f} dBi in every direction (conservative)"
-
-
 def site_emitters(loaded_site) -> tuple[list[SiteEmitter], list[SiteStationResult], list[str]]:
     """Every configuration of every station, placed on the site, with its power chain from rfsafe.assess."""
     from rfsafe.assess import assess_with_emitters
@@ -139,7 +112,7 @@ def site_emitters(loaded_site) -> tuple[list[SiteEmitter], list[SiteStationResul
         used = {}
         for em in ems:
             k = next(j for j, a in enumerate(loaded.model.antennas) if a.id == em.antenna.id)
-            pat, how = _site_pattern(em.antenna, em.peak_gain_dbi, loaded.pattern_tables, f"{prefix}antennas[{k}]")
+            pat, how = site_pattern(em.antenna, em.peak_gain_dbi, loaded.pattern_tables, f"{prefix}antennas[{k}]")
             used[em.antenna.id] = how
             cfg = next(c for c in evaluation.configurations if c.id == em.configuration)
             # measured from the nearest part of the antenna, as the station evaluation measures it (the

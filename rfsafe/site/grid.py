@@ -29,7 +29,8 @@ from rfsafe.antenna.extent import Extent, NearestPart, extent_key, farthest_dist
 from rfsafe.antenna.patterns import DOWNWARD_FLOOR_FRACTION, AntennaDirection, Pattern, beam_exponents
 from rfsafe.site.constants import _FOUR_PI
 
-__all__ = ["SiteEmitter", "RatioGrid", "ratio_grid", "transmitter_ratios", "MIN_FAR_FIELD_DIST_M"]
+__all__ = ["SiteEmitter", "RatioGrid", "ratio_grid", "transmitter_ratios", "MIN_FAR_FIELD_DIST_M",
+           "limit_equivalent_w_m2", "site_pattern"]
 
 #: Smallest distance used in the far-field formula [m], as for a station's places
 #: (rfsafe.assess.MIN_FAR_FIELD_DIST_M, the same value; tested): a point on an antenna, or inside the
@@ -1054,3 +1055,28 @@ def transmitter_ratios(emitters: Sequence[SiteEmitter], x_m, y_m, heights_m, *,
     return names, out
 
 
+def limit_equivalent_w_m2(limits, power_w: float, pep_w: float) -> float:
+    """Fold one environment's limits into a plane-wave-equivalent limit for ``power_w`` [W/m^2].
+
+    Every far-field ratio is proportional to the power density, so the worst
+    basis at any point is the one with the largest ``power x ratio per W/m^2``;
+    an instantaneous basis is compared with the PEP.
+    """
+    from rfsafe import exposure as ex
+
+    worst = max((pep_w if lim.basis == "instantaneous" else power_w) * float(ex.ratio_at(lim, 1.0))
+                for lim in limits)
+    return power_w / worst
+
+
+def site_pattern(ant, peak_gain_dbi: float, tables: dict, field: str):
+    """The pattern used on the grid and a short note of how it was chosen."""
+    from rfsafe.antenna.patterns import PATTERN_KINDS, make_pattern
+
+    if ant.use_pattern and ant.kind in PATTERN_KINDS:
+        pat = make_pattern(ant.kind, peak_gain_dbi=peak_gain_dbi, front_to_back_db=ant.front_to_back_db,
+                           beamwidth_h_deg=ant.beamwidth_h_deg, beamwidth_v_deg=ant.beamwidth_v_deg,
+                           table=tables.get(ant.id), field=field)
+        return pat, f"{ant.kind} pattern"
+    return make_pattern("isotropic", peak_gain_dbi=peak_gain_dbi), \
+        f"peak gain {peak_gain_dbi:.2f} dBi in every direction (conservative)"

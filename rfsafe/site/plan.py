@@ -62,14 +62,13 @@ def station_plan(loaded, emitters, configs, outlines):
     """
     from rfsafe.antenna.extent import shifted
     from rfsafe.results import PlanMap
-    from rfsafe.site.assess import _site_pattern, limit_equivalent_w_m2
     from rfsafe.site.constants import ENVIRONMENTS
-    from rfsafe.site.grid import SiteEmitter, ratio_grid
+    from rfsafe.site.grid import SiteEmitter, limit_equivalent_w_m2, ratio_grid, site_pattern
 
     site_ems = []
     for em in emitters:
         k = next(j for j, a in enumerate(loaded.model.antennas) if a.id == em.antenna.id)
-        pat, _ = _site_pattern(em.antenna, em.peak_gain_dbi, loaded.pattern_tables, f"antennas[{k}]")
+        pat, _ = site_pattern(em.antenna, em.peak_gain_dbi, loaded.pattern_tables, f"antennas[{k}]")
         cfg = next(c for c in configs if c.id == em.configuration)
         site_ems.append(SiteEmitter(
             transmitter=em.transmitter, configuration=em.configuration, x_m=em.x_m, y_m=em.y_m,
