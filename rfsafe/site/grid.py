@@ -758,12 +758,7 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
             def at(s, dz, out, d2):
                 rho2, rho, col, ta = s
                 dz32 = dz.astype(_F32)
-                v = rho2 + dz32 * dz32                      # R^2
-                np.sqrt(v, out=v)
-                v += rho
-                np.divide(dz32, v, out=v)                  # tan(el / 2) in [-1, 1]
-                look.at_half_tangent(v, col, ta, out)
-                out /= d2
+                _table_at(look, rho2, dz32, rho, dz32, col, ta, out, d2)
             at.all_heights = True
             return prepare, at
 
@@ -787,12 +782,7 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
             flat += rgt2
             np.sqrt(flat, out=flat)
             col, ta = look.columns_xy(fwd, rgt, flat, off, abs_rgt)
-            v = rho2 + dz32 * dz32                          # R^2 (a rotation keeps lengths)
-            np.sqrt(v, out=v)
-            v += flat
-            np.divide(up, v, out=v)                         # tan(el / 2) in [-1, 1]
-            look.at_half_tangent(v, col, ta, out)
-            out /= d2
+            _table_at(look, rho2, dz32, flat, up, col, ta, out, d2)   # R^2: a rotation keeps lengths
         at.all_heights = True
         return prepare, at
 
@@ -1053,6 +1043,18 @@ def transmitter_ratios(emitters: Sequence[SiteEmitter], x_m, y_m, heights_m, *,
                              per_transmitter=True)
         out[:, :, start:stop] = per.max(axis=2)
     return names, out
+
+
+def _table_at(look, rho2, dz32, flat, up, col, ta, out, d2) -> None:
+    """Uniform-table gain over d^2 into ``out``: the elevation by its half tangent up / (R + flat) in [-1, 1]
+    (R^2 = rho2 + dz^2; flat the horizontal distance in the antenna's own frame), then the table's
+    ``at_half_tangent`` in the columns ``col`` (weights ``ta``) already chosen by azimuth."""
+    v = rho2 + dz32 * dz32
+    np.sqrt(v, out=v)
+    v += flat
+    np.divide(up, v, out=v)
+    look.at_half_tangent(v, col, ta, out)
+    out /= d2
 
 
 def limit_equivalent_w_m2(limits, power_w: float, pep_w: float) -> float:
