@@ -186,6 +186,25 @@ def test_beam_front_to_back_and_half_power_beamwidths_as_declared():
     assert np.all(np.diff(lin) <= 0)
 
 
+@settings(max_examples=300, deadline=None)
+@given(st.floats(1e-12, 0.05), st.sampled_from([-1.0, 1.0]), st.floats(200.0, 359.9), st.floats(10.0, 60.0))
+def test_beam_lobe_just_behind_a_wide_beam_is_not_lost_to_rounding(d, side, bw_h, fb):
+    """Just off the back of a wide beam the lobe [(1 + cos phi)/2]^p is well above a deep back-lobe floor
+    (p = 0.06 at 359 deg); (1 + cos phi)/2 = sin^2(d/2) at phi = pi - d (half-angle identity, common
+    practice) must not round to zero there, or the gain would be understated by the floor."""
+    p, q = pt.beam_exponents(bw_h, 60.0)
+    direction = pt.AntennaDirection(forward=np.array(-math.cos(d)), right=np.array(side * math.sin(d)),
+                                    up=np.array(0.0), axis=np.array(side * math.sin(d)))
+    got = float(pt.beam_gain(direction, peak_gain_dbi=0.0, front_to_back_db=fb, beamwidth_h_deg=bw_h,
+                             beamwidth_v_deg=60.0, downward_floor=False))
+    # the direction as given (forward, right) = (-cos d, sin d) rounded: its exact half-angle value
+    f, r = -math.cos(d), math.sin(d)
+    rho = math.hypot(f, r)
+    exact = max((r * r / (2.0 * rho * (rho - f))) ** p, 10.0 ** (-fb / 10.0))
+    assert got == pytest.approx(exact, rel=1e-12)
+    assert got >= exact * (1.0 - 1e-12)
+
+
 def test_beam_integral_is_at_most_4_pi():
     """Energy conservation: a declared gain is accepted only if G0 x integral <= 4 pi, for the radiating
     lobe; the downward floor is a stated overstatement on top of it (it raises the integral)."""

@@ -309,9 +309,12 @@ def beam_gain(direction: AntennaDirection, *, peak_gain_dbi: float, front_to_bac
     f = np.asarray(direction.forward, dtype=float)
     rt = np.asarray(direction.right, dtype=float)
     rho = np.hypot(f, rt)  # cos(elevation)
+    # (1 + cos az)/2 = (rho + f)/(2 rho). Behind the beam (f < 0) rho + f cancels: within 1e-8 rad of the
+    # back it rounded to 0, and a wide beam's lobe (p of 0.06 at 359 deg) fell to the back-lobe floor where it
+    # is 0.09 G0. There rho + f = rt^2/(rho - f) (no cancellation). Zenith and nadir (rho = 0): f = 0, front.
     with np.errstate(invalid="ignore", divide="ignore"):
-        cos_az = np.where(rho > 0.0, f / rho, 1.0)
-    half = np.maximum(0.5 * (1.0 + cos_az), 0.0)
+        half = np.where(f >= 0.0, np.where(rho > 0.0, 0.5 * (1.0 + f / rho), 1.0), 0.5 * rt * rt / (rho * (rho - f)))
+    half = np.maximum(half, 0.0)
     lobe = np.maximum(half ** p * rho ** q, 10.0 ** (-front_to_back_db / 10.0))
     if downward_floor:
         lobe = np.maximum(lobe, beam_downward_floor(direction))
