@@ -688,8 +688,11 @@ def _project_columns(s: np.ndarray, gmap) -> np.ndarray:
     """``s @ p`` by gathering columns (see :func:`_gather_map`)."""
     r_idx, wts = gmap
     half = np.zeros((s.shape[0], r_idx.shape[1]), dtype=np.result_type(s, wts))
+    tmp = np.empty_like(half)   # the same products and sums as half += s[:, r_idx[j]] * wts[j], no temporaries
     for j in range(len(r_idx)):
-        half += s[:, r_idx[j]] * wts[j]
+        np.take(s, r_idx[j], axis=1, out=tmp)
+        tmp *= wts[j]
+        half += tmp
     return half
 
 
@@ -716,7 +719,9 @@ def _add_rows(z: np.ndarray, rows: np.ndarray, h0: int, gmap) -> None:
     r_idx, wts = gmap
     for j in range(len(r_idx)):
         sel = np.flatnonzero((r_idx[j] >= h0) & (r_idx[j] < h0 + len(rows)) & (wts[j] != 0))
-        if len(sel):
+        if len(sel) and sel[-1] - sel[0] == len(sel) - 1:       # one range of bases: add in place
+            z[sel[0]:sel[-1] + 1] += wts[j, sel, None] * rows[r_idx[j, sel] - h0]
+        elif len(sel):
             z[sel] += wts[j, sel, None] * rows[r_idx[j, sel] - h0]
 
 
