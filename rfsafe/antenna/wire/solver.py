@@ -1301,6 +1301,71 @@ def _diameter(pts: np.ndarray) -> float:
     return best
 
 
+#: Above this many segments solve() checks the radiated power by the sphere integral of the far-field
+#: intensity on its pattern grid (no extra cost: the peak search needs the grid) instead of the double sum
+#: of :func:`_radiated_power` (8 Ns^2 kernel values, some 8 times the fill's N^2 at large N); the two agree
+#: to about 1e-12 of the power (tests/test_wire_power_check.py). Up to it the double sum is kept (the
+#: reference, and the figures of small models stay as they were to the last bit).
+_POWER_SUM_MAX_SEGMENTS = 200
+
+
+def _pattern_grid(st, k, seg_i, size, rad=None):
+    """The direction grid of :func:`solve`: (theta, phi, U, U of the perfect-ground image or None, n_t, n_p,
+    the sphere integral of U [W]) for a structure of diameter ``size`` [m] (with its images).
+
+    Gauss-Legendre in cos(theta) (n_t points over [-1, 1], or [0, 1] over a ground), trapezoid in phi
+    (n_p points, periodic). The intensity is a sum of terms e^{jk r.(p_a - p_b)} with |p_a - p_b| <= D
+    (D = ``size``): as a function on the sphere it is band-limited to degree about kD, its phi harmonics
+    |m| < kD + 1 and, after the phi sum removes m != 0, a polynomial in cos(theta) of degree about kD.
+    Here 2 n_t - 1 >= kD + 45 and n_p >= kD + 34 (for kD > 24: 2 n_t - 1 >= kD + 69, n_p >= kD + 58),
+    so the rule integrates it exactly up to the spherical-Bessel tail beyond degree kD, which falls off
+    as exp(-(2/3) (2 m)^{3/2} / sqrt(kD)) at a margin m (Debye's asymptotic form, from memory): below
+    1e-15 of the power for kD up to 500. Over a ground, the upper half-space (Gauss-Legendre on [0, 1]).
+    Measured against the double sum of :func:`_radiated_power`: agreement to 2e-12 of the power or better
+    for kD up to 400 (tests/test_wire_power_check.py).
+
+    Peak search: the intensity of a structure of size D varies no faster than its narrowest lobe, about
+    2 pi / (k D) rad between nulls. Up to k D = 24 the grid is the quadrature grid (about 4 points across
+    that lobe); beyond, it grows half as fast (at least 2 points across it), and the best local maxima
+    are refined as well as the best points. Over real soil the grid is the quadrature grid of the space
+    wave at every size.
+    """
+    if st.soil_eps_c is None:
+        extra = min(int(k * size), 12 + int(0.5 * k * size))
+        n_t = extra + 24
+        n_p = 2 * extra + 36
+    else:
+        n_t = int(k * size) + 24
+        n_p = 2 * int(k * size) + 36
+    xg, wg = gauss_legendre_01(n_t)
+    mu, wmu = (xg, wg) if st.ground else (2 * xg - 1, 2 * wg)   # cos(theta) in [0, 1] or [-1, 1]
+    theta = np.arccos(mu)
+    phi = 2 * math.pi * np.arange(n_p) / n_p
+    th, ph = np.meshgrid(theta, phi, indexing="ij")
+    u_img = None
+    if st.soil_eps_c is None:
+        u = _intensity(st, k, seg_i, _directions(th, ph), rad)
+    else:   # the space wave and, from the same radiation vectors, the perfect-ground pattern (see solve)
+        from rfsafe.antenna.wire.ground import space_and_image_intensity
+
+        u, u_img = space_and_image_intensity(st, k, seg_i, _directions(th, ph), _radiation_vector)
+    return th, ph, u, u_img, n_t, n_p, float(np.sum(u * wmu[:, None]) * 2 * math.pi / n_p)
+
+
+def _power_check(st, k, seg_i) -> float:
+    """The radiated power solve() reports for these currents [W], computed as it does (the double sum up to
+    ``_POWER_SUM_MAX_SEGMENTS`` segments, the pattern grid's sphere integral above: the grid included, which
+    solve() needs anyway for the peak). For benchmarks and tests."""
+    if st.soil_eps_c is None and st.num_segments <= _POWER_SUM_MAX_SEGMENTS:
+        return _radiated_power(st, k, seg_i)
+    pts = np.concatenate([st.start_m, st.end_m])
+    if st.ground:
+        pts = np.concatenate([pts, pts * np.array([1.0, 1.0, -1.0])])
+    size = _diameter(pts) if len(pts) < 3000 else float(np.linalg.norm(pts.max(0) - pts.min(0)))
+    rad = _Radiator(st, k, seg_i) if st.soil_eps_c is None else None
+    return _pattern_grid(st, k, seg_i, size, rad)[-1]
+
+
 def _peak_search(st, k, seg_i, starts, dth, dph, tmax, rad=None):
     """Shrinking pattern searches for the largest intensity from each start (theta, phi) [rad].
 
@@ -1406,39 +1471,19 @@ def solve(spec, freq_hz: float, *, field_prefix: str = "", enforce_limits: bool 
     p_load = 0.5 * float(np.sum(np.abs(i_load) ** 2 * z_load.real))
 
     # Radiated power, a check of the solution: from the real part of the mutual impedance, O(N^2)
-    # (see _radiated_power); over real soil the sphere integral of the space wave (below).
+    # (see _radiated_power), or above _POWER_SUM_MAX_SEGMENTS segments the sphere integral of the far-field
+    # intensity on the pattern grid (see _pattern_grid); over real soil that of the space wave (below).
     pts = np.concatenate([st.start_m, st.end_m])
     if st.ground:
         pts = np.concatenate([pts, pts * np.array([1.0, 1.0, -1.0])])
     size = _diameter(pts) if len(pts) < 3000 else float(np.linalg.norm(pts.max(0) - pts.min(0)))
     tmax = 0.5 * math.pi if st.ground else math.pi
-    if st.soil_eps_c is None:
-        p_rad = _radiated_power(st, k, seg_i)
-        # Peak search grid: the intensity of a structure of size D varies no faster than its
-        # narrowest lobe, about 2 pi / (k D) rad between nulls. Up to k D = 24 the grid is the
-        # quadrature grid (about 4 points across that lobe); beyond, it grows half as fast (at least
-        # 2 points across it), and the best local maxima are refined as well as the best points.
-        extra = min(int(k * size), 12 + int(0.5 * k * size))
-        n_t = extra + 24
-        n_p = 2 * extra + 36
-    else:
-        # Real soil: Gauss-Legendre in cos(theta), trapezoid in phi (periodic), exact for the
-        # band-limited space-wave intensity; the same grid starts the peak search.
-        n_t = int(k * size) + 24
-        n_p = 2 * int(k * size) + 36
-    xg, wg = gauss_legendre_01(n_t)
-    mu, wmu = (xg, wg) if st.ground else (2 * xg - 1, 2 * wg)   # cos(theta) in [0, 1] or [-1, 1]
-    theta = np.arccos(mu)
-    phi = 2 * math.pi * np.arange(n_p) / n_p
-    th, ph = np.meshgrid(theta, phi, indexing="ij")
     rad = _Radiator(st, k, seg_i) if st.soil_eps_c is None else None   # shared by the grid, peak and back
-    if st.soil_eps_c is None:
-        u = _intensity(st, k, seg_i, _directions(th, ph), rad)
-    else:   # the space wave and, from the same radiation vectors, the perfect-ground pattern (see below)
-        from rfsafe.antenna.wire.ground import space_and_image_intensity
-
-        u, u_img = space_and_image_intensity(st, k, seg_i, _directions(th, ph), _radiation_vector)
-        p_rad = float(np.sum(u * wmu[:, None]) * 2 * math.pi / n_p)
+    th, ph, u, u_img, n_t, n_p, p_grid = _pattern_grid(st, k, seg_i, size, rad)
+    if st.soil_eps_c is not None or st.num_segments > _POWER_SUM_MAX_SEGMENTS:
+        p_rad = p_grid
+    else:
+        p_rad = _radiated_power(st, k, seg_i)
 
     # Peak: the best local maxima of the grid refined by a shrinking pattern search.
     dth, dph = math.pi / n_t, 2 * math.pi / n_p
@@ -1463,7 +1508,7 @@ def solve(spec, freq_hz: float, *, field_prefix: str = "", enforce_limits: bool 
         from dataclasses import replace as _replace
 
         st_pec = _replace(st, soil_eps_c=None)
-        ring = _directions(np.full(n_p, 0.5 * math.pi), phi)
+        ring = _directions(np.full(n_p, 0.5 * math.pi), ph[0])
         u_gw = max(float(u_img.max()), float(_intensity(st_pec, k, seg_i, ring).max()))
         gw_gain = 10 * math.log10(4 * math.pi * u_gw / p_in)
 
