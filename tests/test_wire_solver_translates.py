@@ -225,3 +225,63 @@ def test_near_blocks_with_grouped_terms_equal_the_field_of_segment_e_terms(name)
                 ts.a2[ip, None], K)
         assert _rel(S._pair_blocks_grouped(*args), S._pair_blocks(*args)) < 1e-12
     assert tested
+
+
+def _demo(name):
+    import tomllib
+    from pathlib import Path
+
+    from rfsafe.antenna.wire.model import WireFile
+
+    path = Path(__file__).resolve().parents[1] / "reports_demo" / name
+    wf = WireFile.model_validate(tomllib.loads(path.read_text()))
+    return wf, wf.freq_mhz * 1e6
+
+
+RUN_BASIS_CASES = dict(CASES)
+RUN_BASIS_CASES["array of dipoles, 4 x 4"] = lambda: _array(4)
+RUN_BASIS_CASES["long wire fed off centre, 400 segments"] = lambda: _spec({"wires": [
+    {"points_m": [[0, 0, 0], [16, 0, 0.0]], "radius_m": 0.002, "segments": 401}], "feeds": [{"wire": 0, "position": 0.3}]})
+RUN_BASIS_CASES["two wires end to end, one reversed"] = lambda: _spec({"wires": [
+    {"points_m": [[0, 0, 0], [1, 0, 0.0]], "radius_m": 0.002, "segments": 30, "label": "a"},
+    {"points_m": [[2, 0, 0], [1, 0, 0.0]], "radius_m": 0.002, "segments": 30}], "feeds": [{"wire": "a", "position": 0.5}]})
+
+
+@pytest.mark.parametrize("name", list(RUN_BASIS_CASES) + ["wire_beam_3el_20m.toml", "wire_ground_plane_20m.toml",
+                                                         "wire_inverted_v_40m.toml", "wire_trap_dipole_40m_20m.toml"])
+def test_entries_written_per_offset_from_the_run_tables_equal_the_row_block_fill_bit_for_bit(name, monkeypatch):
+    """solver._run_bases / _run_basis_fill combine the same table blocks with the same operations in the same
+    order as the row-block projection (weights +1 only): the matrices are identical, not merely close."""
+    if name.endswith(".toml"):
+        spec, f_hz = _demo(name)
+        feeds = check_wire_antenna(spec)
+        geo = loaded_geometry(spec, feeds)
+        st = build_structure(geo.spec, f_hz, geo.feed_wires, load_places=geo.load_places, wire_fields=geo.wire_fields)
+    else:
+        st = _structure(RUN_BASIS_CASES[name]())
+    fast = S.impedance_matrix(st)
+    monkeypatch.setattr(S, "_RUN_BASES", False)
+    slow = S.impedance_matrix(st)
+    assert np.array_equal(fast, slow)
+
+
+def test_entries_from_the_run_tables_are_most_of_an_array_and_a_long_wire():
+    """The shortcut applies where it should: nearly every needed segment pair of an array of equal dipoles
+    and of a long wire is left to the run tables (the row-block fill keeps the rest)."""
+    for spec in (_array(4), RUN_BASIS_CASES["long wire fed off centre, 400 segments"]()):
+        st = _structure(spec)
+        k = 2 * math.pi * st.freq_hz / S.C0_M_S
+        need, _sym = S._needed_pairs(st)
+        ts = S._test_side(st, k)
+        truns = S._segment_runs(st.start_m, st.end_m, st.radius_m)
+        srcs = [S._source_side(ts, k, src, need, truns) for src in st.sources()]
+        plan = S._run_bases(st, srcs, need, S._gather_map(st.half_to_basis))
+        assert plan is not None and plan["regular"].mean() > 0.9
+        assert plan["need_seg"].sum() < 0.6 * need.sum()
+    st = _structure(CASES["beam over ground"]())   # two source sets (images): not taken
+    k = 2 * math.pi * st.freq_hz / S.C0_M_S
+    need, _sym = S._needed_pairs(st)
+    ts = S._test_side(st, k)
+    truns = S._segment_runs(st.start_m, st.end_m, st.radius_m)
+    srcs = [S._source_side(ts, k, src, need, truns) for src in st.sources()]
+    assert S._run_bases(st, srcs, need, S._gather_map(st.half_to_basis)) is None

@@ -248,6 +248,10 @@ def _near_blocks(ts: _TestSide, k: float, src: dict) -> np.ndarray:
 #: reference path, tests/test_wire_solver_translates.py).
 _TRANSLATES = True
 _TRANSLATE_MIN = 4
+#: Entries of Z between regular basis functions of translated runs are written per offset from the run
+#: tables (:func:`_run_bases`); False fills them by the row blocks (bit for bit the same matrix,
+#: tests/test_wire_solver_translates.py).
+_RUN_BASES = True
 #: Translated geometry is used only where it moves no point by more than this many step lengths, or
 #: (long wires) by more than the rounding of the coordinates (64 units in the last place of the largest).
 _TRANSLATE_TOL = 1e-13
@@ -370,9 +374,10 @@ def _translate_sums(ts: _TestSide, k: float, ta: dict, sb: dict, s0: np.ndarray)
 
 
 def _rows_into(blk, ts: _TestSide, k: float, src: dict, r0: int, r1: int, c0: int, c1: int,
-               fresh: bool = False) -> None:
+               fresh: bool = False, only=None) -> None:
     """Add one source set's blocks for test rows r0:r1 and source columns c0:c1 to ``blk[p, e', q, e]``
-    (``fresh``: that part of ``blk`` holds zeros, and is written in place).
+    (``fresh``: that part of ``blk`` holds zeros, and is written in place; ``only``, an (Ns, Ns) mask:
+    only the columns some row of the block needs and the listed pairs it marks are computed).
 
     Three paths, each the same Galerkin quadrature on the test segment:
 
@@ -389,13 +394,19 @@ def _rows_into(blk, ts: _TestSide, k: float, src: dict, r0: int, r1: int, c0: in
     The first is computed for the whole rectangle, the others overwrite their pairs.
     """
     # Only columns parallel to some test row of the block take the node path.
-    cols = c0 + np.flatnonzero(np.isin(src["sid"][c0:c1], src["tid"][r0:r1]))
+    par = np.isin(src["sid"][c0:c1], src["tid"][r0:r1])
+    if only is not None:
+        par &= only[r0:r1, c0:c1].any(axis=0)
+    cols = c0 + np.flatnonzero(par)
     # the first source set writes into the (zero) block itself, the others are added
     part = blk[:, :, c0:c1, :] if fresh else np.zeros((r1 - r0, 2, c1 - c0, 2), dtype=complex)
     if len(cols):
         part[:, :, cols - c0, :] = _parallel_blocks(ts, k, src, r0, r1, cols)
     ip, iq = src["wide"]
     lo, hi = np.searchsorted(ip, [r0, r1])
+    if hi > lo and only is not None:
+        keep = only[ip[lo:hi], iq[lo:hi]]
+        ip, iq, lo, hi = ip[lo:hi][keep], iq[lo:hi][keep], 0, int(keep.sum())
     if hi > lo:
         # rows of one direction at a time: they see the same non-parallel columns (the others' are not computed)
         ip, iq = ip[lo:hi], iq[lo:hi]
@@ -415,8 +426,15 @@ def _rows_into(blk, ts: _TestSide, k: float, src: dict, r0: int, r1: int, c0: in
         ip, iq = src[rule]
         lo, hi = np.searchsorted(ip, [r0, r1])
         if hi > lo:
-            blocks = src["near_blocks"][lo:hi] if rule == "near" else _pair_list(ts, k, ip[lo:hi], iq[lo:hi], rule, src)
-            part[ip[lo:hi] - r0, :, iq[lo:hi] - c0, :] = src["sign"] * blocks
+            pi, qi = ip[lo:hi], iq[lo:hi]
+            nb = src["near_blocks"][lo:hi] if rule == "near" else None
+            if only is not None:
+                keep = only[pi, qi]
+                pi, qi = pi[keep], qi[keep]
+                nb = nb[keep] if nb is not None else None
+            if len(pi):
+                blocks = nb if rule == "near" else _pair_list(ts, k, pi, qi, rule, src)
+                part[pi - r0, :, qi - c0, :] = src["sign"] * blocks
     if not fresh:
         blk[:, :, c0:c1, :] += part
 
@@ -620,19 +638,169 @@ def impedance_matrix(st: Structure) -> np.ndarray:
     z = np.zeros((st.num_unknowns, st.num_unknowns), dtype=complex)   # p.T @ S @ p, a few test rows at a time
     if st.soil_eps_c is not None:   # real ground: the Sommerfeld remainder first (symmetric; the images carry -K)
         _remainder_into(z, st, k, gmap)
+    plan = _run_bases(st, srcs, need, gmap) if _TRANSLATES and _RUN_BASES else None
+    need_seg = need if plan is None else plan["need_seg"]
     step = max(1, _CHUNK // (N_FAR * max(len(s["nodes"]) for s in srcs)))
+    if plan is not None:   # each basis touches the segments from seg_lo to seg_hi (projection by column range)
+        seg_lo, seg_hi = plan["seg_lo"], plan["seg_hi"]
     for r0 in range(0, ns, step):
         r1 = min(ns, r0 + step)
-        cols = np.flatnonzero(need[r0:r1].any(axis=0))
+        cols = np.flatnonzero(need_seg[r0:r1].any(axis=0))
         c0, c1 = (int(cols[0]), int(cols[-1]) + 1) if len(cols) else (0, 0)
+        if plan is not None and c1 <= c0:
+            continue                               # rows whose every needed entry comes from the run tables
         blk = np.zeros((r1 - r0, 2, ns, 2), dtype=complex)
         if c1 > c0:
             for n, src in enumerate(srcs):
-                _rows_into(blk, ts, k, src, r0, r1, c0, c1, fresh=n == 0)
-        _add_rows(z, _project_columns(blk.reshape(2 * (r1 - r0), 2 * ns), gmap), 2 * r0, gmap)
+                _rows_into(blk, ts, k, src, r0, r1, c0, c1, fresh=n == 0,
+                           only=None if plan is None else need_seg)
+        if plan is None:
+            _add_rows(z, _project_columns(blk.reshape(2 * (r1 - r0), 2 * ns), gmap), 2 * r0, gmap)
+        else:
+            bsel = np.flatnonzero((seg_hi >= c0) & (seg_lo < c1))
+            b0, b1 = int(bsel[0]), int(bsel[-1]) + 1
+            sub = (gmap[0][:, b0:b1], gmap[1][:, b0:b1])
+            _add_rows(z, _project_columns(blk.reshape(2 * (r1 - r0), 2 * ns), sub), 2 * r0, gmap, cols=(b0, b1))
+    if plan is not None:
+        _run_basis_fill(z, plan, srcs[0], sym)
     low = np.tril(sym, -1)
     z[low] = z.T[low]   # the remainder, symmetric, is the same both ways
     return z
+
+
+def _run_bases(st: Structure, srcs: list, need: np.ndarray, gmap):
+    """Which entries of Z come whole from the run tables of :func:`_translate_sums` (free space only).
+
+    A basis function is *regular* if its two halves are the end of segment a and the start of segment
+    a + 1 of one straight run (:func:`_segment_runs`), both with weight +1 (every interior node of a
+    straight wire). For regular m on run A and n on run B, with A and B translates (the table's
+    ``base`` >= 0), the four half-pair blocks of Z[m, n] are the table's blocks at offsets o - 1, o, o + 1
+    (o that of the first halves): Z[m, n] depends on the runs and o only, and
+    :func:`_run_basis_fill` writes it from one value per offset, combined as the projection combines
+    the blocks (the same products and sums in the same order, so the same bits); pairs with a near
+    half-pair are recombined from the near blocks. Every other needed entry (a basis across runs or
+    at a junction, runs that are not translates, segments outside runs) keeps the row-block fill:
+    ``need_seg`` marks the segment pairs it still needs. Returns None when nothing would be shared.
+    """
+    if len(srcs) != 1 or srcs[0]["toe"] is None:
+        return None
+    toe = srcs[0]["toe"]
+    r_idx, wts = gmap
+    nb, ns = r_idx.shape[1], st.num_segments
+    nz = wts != 0
+    two = nz.sum(axis=0) == 2
+    h0 = r_idx[0]
+    seg0 = h0 // 2
+    ok = two & nz[0] & nz[1] & (wts[0] == 1.0) & (wts[1] == 1.0) & (h0 % 2 == 1) & (r_idx[1] == h0 + 1)
+    seg1 = np.minimum(seg0 + 1, ns - 1)
+    trun, tpos = toe["trun"], toe["tpos"]
+    nrun = toe["base"].shape[0] - 1
+    ok &= (trun[seg0] < nrun) & (trun[seg0] == trun[seg1]) & (tpos[seg1] == tpos[seg0] + 1)
+    if not ok.any():
+        return None
+    # segments of irregular bases need the row-block fill for all their pairs
+    irr = np.zeros(ns, dtype=bool)
+    bad = ~ok
+    for j in range(len(r_idx)):
+        irr[r_idx[j, bad & nz[j]] // 2] = True
+    table = toe["base"][trun[:, None], toe["srun"][None, :]] >= 0
+    need_seg = need & ~(table & ~irr[:, None] & ~irr[None, :])
+    segs = r_idx // 2
+    seg_lo = np.where(nz, segs, ns).min(axis=0)
+    seg_hi = np.where(nz, segs, -1).max(axis=0)
+    return dict(regular=ok, seg0=seg0, need_seg=need_seg, seg_lo=seg_lo, seg_hi=seg_hi)
+
+
+def _run_basis_fill(z: np.ndarray, plan: dict, src: dict, sym: np.ndarray) -> None:
+    """Write the entries of Z that come whole from the run tables (see :func:`_run_bases`).
+
+    With B the table's 2x2 blocks (test half e, source half e'), the projection forms
+    Z = 1 (B[o][1, 1] 1 + B[o - 1][1, 0] 1) + 1 (B[o + 1][0, 1] 1 + B[o][0, 0] 1), each sum started from
+    zero, as :func:`_project_columns` and :func:`_add_rows` do; the same operations here give the same
+    value per offset o. Pairs with a near half-pair (the sinh-rule blocks, which are not shared) are
+    formed again from those blocks. Only needed entries are written (upper triangle, and pairs that are
+    not mirrored); the lower triangle is mirrored afterwards as before.
+    """
+    toe = src["toe"]
+    blk = toe["blocks"]
+    one = np.ones(1)
+
+    def combine(b00, b01, b10, b11):
+        h0 = np.zeros(b00.shape, dtype=complex)
+        h0 += b00 * one
+        h0 += b01 * one
+        h1 = np.zeros(b00.shape, dtype=complex)
+        h1 += b10 * one
+        h1 += b11 * one
+        out = np.zeros(b00.shape, dtype=complex)
+        out += one * h0
+        out += one * h1
+        return out
+
+    nv = len(blk)
+    up, dn = np.minimum(np.arange(nv) + 1, nv - 1), np.maximum(np.arange(nv) - 1, 0)   # edges never used
+    per_offset = combine(blk[:, 1, 1], blk[dn, 1, 0], blk[up, 0, 1], blk[:, 0, 0])
+    reg = np.flatnonzero(plan["regular"])
+    p0 = plan["seg0"][reg]
+    trun, srun, tpos, spos = toe["trun"], toe["srun"], toe["tpos"], toe["spos"]
+    # regular bases in runs of contiguous basis ranges: one rectangle per (test range, source range)
+    cut = np.flatnonzero((np.diff(reg) != 1) | (trun[p0[1:]] != trun[p0[:-1]])) + 1
+    lo_hi = list(zip(np.concatenate([[0], cut]).tolist(), np.concatenate([cut, [len(reg)]]).tolist()))
+    for a0, a1 in lo_hi:
+        m0, m1 = int(reg[a0]), int(reg[a1 - 1]) + 1
+        pa = p0[a0:a1]
+        for b0, b1 in lo_hi:
+            n0, n1 = int(reg[b0]), int(reg[b1 - 1]) + 1
+            if n1 <= m0 and not (~sym[m0:m1, n0:n1]).any():
+                continue                                      # lower triangle, mirrored later
+            qb = p0[b0:b1]
+            base = toe["base"][trun[pa[0]], srun[qb[0]]]
+            if base < 0:
+                continue
+            idx = base + tpos[pa][:, None] - spos[qb][None, :]
+            want = np.arange(m0, m1)[:, None] <= np.arange(n0, n1)[None, :]
+            want |= ~sym[m0:m1, n0:n1]
+            vals = per_offset[idx]
+            if want.all():
+                z[m0:m1, n0:n1] = vals
+            else:
+                z[m0:m1, n0:n1][want] = vals[want]
+    # near half-pairs: recombine the basis pairs they touch from the near blocks
+    ip, iq = src["near"]
+    if not len(ip):
+        return
+    ns = len(trun)
+    key = ip * ns + iq
+    order = np.argsort(key, kind="stable")
+    key_s = key[order]
+    near_val = src["sign"] * src["near_blocks"]
+    owner = np.full((ns, 2), -1, dtype=np.intp)       # regular basis whose first / second half lies on a segment
+    owner[p0, 0] = reg
+    owner[p0 + 1, 1] = reg
+    mm = np.concatenate([owner[ip, x] for x in (0, 0, 1, 1)])
+    nn = np.concatenate([owner[iq, y] for y in (0, 1, 0, 1)])
+    good = (mm >= 0) & (nn >= 0)
+    mm, nn = mm[good], nn[good]
+    if not len(mm):
+        return
+    pair = np.unique(mm * z.shape[1] + nn)
+    mm, nn = pair // z.shape[1], pair % z.shape[1]
+    a, b = plan["seg0"][mm], plan["seg0"][nn]
+    base = toe["base"][trun[a], srun[b]]
+    want = (base >= 0) & ((mm <= nn) | ~sym[mm, nn])
+    mm, nn, a, b = mm[want], nn[want], a[want], b[want]
+    if not len(mm):
+        return
+
+    def val(p, q, e, f):
+        v = blk[toe["base"][trun[p], srun[q]] + tpos[p] - spos[q], e, f]
+        w = np.searchsorted(key_s, p * ns + q)
+        w = np.minimum(w, len(key_s) - 1)
+        hit = key_s[w] == p * ns + q
+        v[hit] = near_val[order[w[hit]], e, f]
+        return v
+
+    z[mm, nn] = combine(val(a, b, 1, 1), val(a, b + 1, 1, 0), val(a + 1, b, 0, 1), val(a + 1, b + 1, 0, 0))
 
 
 def _remainder_into(z: np.ndarray, st: Structure, k: float, gmap) -> None:
@@ -710,19 +878,21 @@ def _project_rows(half: np.ndarray, gmap) -> np.ndarray:
     return z
 
 
-def _add_rows(z: np.ndarray, rows: np.ndarray, h0: int, gmap) -> None:
-    """``z += p.T @ half`` where ``half`` holds ``rows`` from half index ``h0`` on and is zero elsewhere.
+def _add_rows(z: np.ndarray, rows: np.ndarray, h0: int, gmap, cols=None) -> None:
+    """``z += p.T @ half`` where ``half`` holds ``rows`` from half index ``h0`` on and is zero elsewhere
+    (with ``cols`` = (b0, b1), ``rows`` holds the basis columns b0:b1 only, and only they are added).
 
     The k-th half of each basis function is taken in one pass (each basis once, so fancy-index
     addition is safe); over all row blocks in order this sums exactly as :func:`_project_rows`.
     """
     r_idx, wts = gmap
+    zc = z if cols is None else z[:, cols[0]:cols[1]]
     for j in range(len(r_idx)):
         sel = np.flatnonzero((r_idx[j] >= h0) & (r_idx[j] < h0 + len(rows)) & (wts[j] != 0))
         if len(sel) and sel[-1] - sel[0] == len(sel) - 1:       # one range of bases: add in place
-            z[sel[0]:sel[-1] + 1] += wts[j, sel, None] * rows[r_idx[j, sel] - h0]
+            zc[sel[0]:sel[-1] + 1] += wts[j, sel, None] * rows[r_idx[j, sel] - h0]
         elif len(sel):
-            z[sel] += wts[j, sel, None] * rows[r_idx[j, sel] - h0]
+            zc[sel] += wts[j, sel, None] * rows[r_idx[j, sel] - h0]
 
 
 def _project(s: np.ndarray, p: np.ndarray) -> np.ndarray:
