@@ -459,20 +459,44 @@ def _general_blocks(ts: _TestSide, k: float, src: dict, r0, r1, cols: np.ndarray
     r = np.sqrt(sum((x[..., j, None] - nu[:, j]) ** 2 for j in range(3)) + ts.a2[rows, None, None])
     e = np.exp(-1j * k * r)
     g = e / r
-    e1, e2 = e[:, :, loc[:nc]], e[:, :, loc[nc:]]
-    g1, g2 = g[:, :, loc[:nc]], g[:, :, loc[nc:]]
+
+    def ends(a):
+        """a at the start and at the end node of every column (views where the nodes run in order)."""
+        out = []
+        for li in (loc[:nc], loc[nc:]):
+            if nc and li[-1] - li[0] == nc - 1 and np.all(np.diff(li) == 1):
+                out.append(a[:, :, li[0]:li[-1] + 1])
+            else:
+                out.append(a[:, :, li])
+        return out
+
+    e1, e2 = ends(e)
+    g1, g2 = ends(g)
     s0, sdir, d = src["s0"][cols], src["sdir"][cols], src["sl"][cols]
     t = ts.tdir[rows]
+    # the operations of the direct expressions, in their order, written in place
     v = [x[..., j, None] - s0[:, j] for j in range(3)]                  # (c, Q, nc) each
-    z = v[0] * sdir[:, 0] + v[1] * sdir[:, 1] + v[2] * sdir[:, 2]
-    rv = [v[j] - z * sdir[:, j] for j in range(3)]
-    rho2 = rv[0] * rv[0] + rv[1] * rv[1] + rv[2] * rv[2] + ts.a2[rows, None, None]
-    tau = (rv[0] * t[:, 0, None, None] + rv[1] * t[:, 1, None, None] + rv[2] * t[:, 2, None, None]) / rho2
+    z = v[0] * sdir[:, 0]
+    z += v[1] * sdir[:, 1]
+    z += v[2] * sdir[:, 2]                                             # v . s
+    for j in range(3):
+        v[j] -= z * sdir[:, j]                                         # rho_vec
+    rho2 = v[0] * v[0]
+    rho2 += v[1] * v[1]
+    rho2 += v[2] * v[2]
+    rho2 += ts.a2[rows, None, None]
+    tau = v[0] * t[:, 0, None, None]
+    tau += v[1] * t[:, 1, None, None]
+    tau += v[2] * t[:, 2, None, None]
+    tau /= rho2
     cos_ps = (t @ sdir.T)[:, None, :]
     c, sn = src["cos"][cols], np.sin(k * d)
     # grouped by kernel value (real factors first): alpha = t.s - tau z, beta = t.s + tau (d - z)
-    alpha = cos_ps - tau * z
-    beta = cos_ps + tau * (d - z)
+    alpha = tau * z
+    np.subtract(cos_ps, alpha, out=alpha)
+    beta = np.subtract(d, z, out=z)
+    beta *= tau
+    np.add(cos_ps, beta, out=beta)
     t1, t2 = _grouped_terms(g1, g2, e1, e2, c, alpha, beta, 1j * (sn * tau))
     wf = ts.wfw[rows]                                                  # (c, 2, Q)
     out = np.empty((len(x), 2, nc, 2), dtype=complex)
