@@ -152,8 +152,8 @@ class _Group:
             self.reach_m = farthest_distance_m(self.extent, (self.x_m, self.y_m, self.height_m))
             self.parts = structure_parts(self.extent)
 
-    def nearest_part(self, px, py) -> NearestPart | None:
-        return None if self.extent is None else NearestPart(self.extent, px, py, dtype=_F32, parts=self.parts)
+    def nearest_part(self, blk) -> "_BlockNearest | None":
+        return None if self.extent is None else _BlockNearest(self.parts, blk)
 
 
 def _groups(emitters: Sequence[SiteEmitter]) -> tuple[list[str], list[_Group]]:
@@ -474,8 +474,234 @@ class _UniformTable:
         np.add(te, xe, out=out)
 
 
+class _Block:
+    """The points of one block: flat coordinate arrays, or a block of a regular grid.
+
+    On a grid (the points ``np.meshgrid(gx, gy)`` flattened: x runs along each row, one row per y) every
+    quantity that is a sum of a term in x and a term in y is formed from the two axes, one term per
+    column and one per row, and added once per point: the same floating-point operations on the same
+    values as point by point, so the same bits (addition is commutative in IEEE arithmetic, and
+    ``a - b`` is ``a + (-b)``), at one operation per point instead of five.
+
+    Attributes
+    ----------
+    gx, gy : ndarray or None
+        The block's columns and rows (float64) on a grid; None for flat points.
+    size : int
+        Number of points (rows x columns on a grid, row by row).
+    """
+
+    __slots__ = ("gx", "gy", "size", "_px", "_py", "_d")
+
+    def __init__(self, px=None, py=None, gx=None, gy=None) -> None:
+        self.gx, self.gy = gx, gy
+        self._px, self._py = px, py
+        self.size = px.size if gx is None else gx.size * gy.size
+        self._d = None
+
+    @property
+    def px(self):
+        if self._px is None:
+            self._px = np.tile(self.gx, self.gy.size)
+        return self._px
+
+    @property
+    def py(self):
+        if self._py is None:
+            self._py = np.repeat(self.gy, self.gx.size)
+        return self._py
+
+    def points(self, idx):
+        """The coordinates of the points ``idx`` (flat indices into the block)."""
+        if self.gx is None:
+            return self._px[idx], self._py[idx]
+        return self.gx[idx % self.gx.size], self.gy[idx // self.gx.size]
+
+    def _offsets(self, x0: float, y0: float):
+        """``(px - x0, py - y0)``: per column and per row on a grid, per point otherwise (kept for the last
+        centre asked for: an evaluator asks several times)."""
+        d = self._d
+        if d is None or d[0] != x0 or d[1] != y0:
+            if self.gx is None:
+                d = (x0, y0, self._px - x0, self._py - y0)
+            else:
+                d = (x0, y0, self.gx - x0, self.gy - y0)
+            self._d = d
+        return d[2], d[3]
+
+    def offsets(self, x0: float, y0: float):
+        """``(px - x0, py - y0)`` per point (float64, flat)."""
+        dx, dy = self._offsets(x0, y0)
+        if self.gx is None:
+            return dx, dy
+        shape = (self.gy.size, self.gx.size)
+        return np.broadcast_to(dx, shape).reshape(-1), np.broadcast_to(dy[:, None], shape).reshape(-1)
+
+    def lin(self, x0: float, y0: float, cx: float, cy: float):
+        """``dx cx + dy cy`` per point (float64, flat), with ``dx = px - x0``, ``dy = py - y0``."""
+        dx, dy = self._offsets(x0, y0)
+        if self.gx is None:
+            return dx * cx + dy * cy
+        return np.add.outer(dy * cy, dx * cx).reshape(-1)
+
+    def rho2(self, x0: float, y0: float):
+        """``dx dx + dy dy`` per point (float64, flat)."""
+        dx, dy = self._offsets(x0, y0)
+        if self.gx is None:
+            return dx * dx + dy * dy
+        return np.add.outer(dy * dy, dx * dx).reshape(-1)
+
+
+class _BlockNearest:
+    """Squared distances from the points of a :class:`_Block` to the nearest part of a structure, in single
+    precision: :class:`rfsafe.antenna.extent.NearestPart` with ``dtype=float32`` (the same operations on
+    the same values in the same order, bit for bit; tested), with the per-point parts formed from the
+    block's axes on a grid (a projection ``a = x vx + y vy + off`` from one term per column and one per row),
+    and the per-height parts computed in place.
+    """
+
+    __slots__ = ("_quadratic", "_discs", "_spheres")
+
+    def __init__(self, parts, blk: _Block) -> None:
+        ref, quadratic, discs, spheres = parts
+        f = _F32
+        if blk.gx is None:
+            x = (np.asarray(blk.px, dtype=float) - ref[0]).astype(f)
+            y = (np.asarray(blk.py, dtype=float) - ref[1]).astype(f)
+            flat = lambda a: a  # noqa: E731
+        else:
+            x = (blk.gx - ref[0]).astype(f)[None, :]
+            y = (blk.gy - ref[1]).astype(f)[:, None]
+            flat = lambda a: a.reshape(-1)  # noqa: E731
+
+        def linear(vec, origin):
+            """``(a, c)`` of extent._Linear: a per point (or a scalar), c the vertical coefficient."""
+            vx, vy, vz = (float(t) for t in vec)
+            off = -float(np.dot(origin, vec))
+            if vx == 0.0 and vy == 0.0:
+                return f(off), f(vz)
+            a = flat(x * f(vx) + y * f(vy))
+            a += f(off)
+            return a, f(vz)
+
+        self._quadratic = []
+        for origin, plain, clamped in quadratic:
+            const, terms, cterms = None, [], []
+            for vec in plain:
+                a, c = linear(vec, origin)
+                if c == 0.0:
+                    const = np.square(a) if const is None else const + np.square(a)
+                else:
+                    terms.append((a, c))
+            for vec, half in clamped:
+                a, c = linear(vec, origin)
+                if c == 0.0:
+                    e = a - np.clip(a, -half, half)
+                    const = np.square(e) if const is None else const + np.square(e)
+                else:
+                    cterms.append((a, c, f(half)))
+            if const is None:
+                const = np.zeros(blk.size, dtype=f)
+            self._quadratic.append((np.broadcast_to(const, (blk.size,)), terms, cterms))
+        self._discs = []
+        for c, r in discs:
+            dx, dy = x - f(c[0]), y - f(c[1])
+            rho = flat(np.sqrt(dx * dx + dy * dy))
+            rho -= f(r)
+            np.maximum(rho, 0.0, out=rho)
+            self._discs.append((rho * rho, f(c[2])))
+        self._spheres = []
+        for c, r in spheres:
+            dx, dy = x - f(c[0]), y - f(c[1])
+            self._spheres.append((flat(dx * dx + dy * dy), f(c[2]), f(r)))
+
+    def squared_m2(self, z_m):
+        """Squared distances [m^2] at heights ``z_m`` (float32: a scalar, or (H, 1) for every height at once)."""
+        best = None
+        for const, terms, cterms in self._quadratic:
+            d2 = const
+            for a, c in terms:
+                d2 = _add_square(d2, const, a + c * z_m, None)
+            for a, c, half in cterms:
+                d2 = _add_square(d2, const, a + c * z_m, half)
+            best = d2 if best is None else np.minimum(best, d2)
+        for rho2, cz in self._discs:
+            d2 = np.square(z_m - cz)
+            d2 = rho2 + d2
+            best = d2 if best is None else np.minimum(best, d2)
+        for rho2, cz, r in self._spheres:
+            d = np.sqrt(rho2 + np.square(z_m - cz))
+            d -= r
+            np.maximum(d, 0.0, out=d)
+            d *= d
+            best = d if best is None else np.minimum(best, d)
+        if best is not None and self._quadratic and best is self._quadratic[0][0]:
+            best = best.copy()
+        return best
+
+
+def _add_square(d2, const, t, half):
+    """``d2 + t^2`` (``half``: ``d2 + (t - clip(t, -half, half))^2``), in place where ``d2`` or ``t`` is a fresh
+    array of the full shape (never in ``const``)."""
+    if not isinstance(t, np.ndarray) or t.ndim == 0:     # a vertical projection at one height: a scalar
+        t = np.square(t if half is None else t - np.clip(t, -half, half))
+    else:
+        if half is not None:
+            m = np.maximum(t, -half)
+            np.minimum(m, half, out=m)
+            t -= m
+        np.square(t, out=t)
+    if d2 is not const:
+        d2 += t
+        return d2
+    if np.ndim(t) and t.shape == np.broadcast_shapes(t.shape, np.shape(d2)):
+        return np.add(d2, t, out=t)
+    return d2 + t
+
+
+def _grid_axes(x, y):
+    """``(gx, gy)`` if the points are ``np.meshgrid(gx, gy)`` flattened (bit for bit), else None."""
+    n = x.size
+    if n < 4:
+        return None
+    change = np.flatnonzero(y != y[0])
+    nx = int(change[0]) if change.size else n
+    if nx < 2 or n % nx or n // nx < 2:
+        return None
+    gx, gy = x[:nx], y[::nx]
+    xi, yi = x.view(np.int64).reshape(-1, nx), y.view(np.int64).reshape(-1, nx)
+    if not (np.array_equal(xi, np.broadcast_to(gx.view(np.int64), xi.shape))
+            and (yi == gy.view(np.int64)[:, None]).all()):
+        return None
+    return gx.copy(), gy.copy()
+
+
+def _blocks(x, y, chunk_points: int):
+    """``(start, stop, _Block)`` covering the points in order, about ``chunk_points`` each (whole grid rows
+    where the points form a grid, or pieces of one row when a row is longer)."""
+    n = x.size
+    axes = _grid_axes(x, y)
+    if axes is None:
+        for start in range(0, n, chunk_points):
+            stop = min(n, start + chunk_points)
+            yield start, stop, _Block(px=x[start:stop], py=y[start:stop])
+        return
+    gx, gy = axes
+    nx = gx.size
+    if nx <= chunk_points:
+        rows = chunk_points // nx
+        for r in range(0, gy.size, rows):
+            r1 = min(gy.size, r + rows)
+            yield r * nx, r1 * nx, _Block(gx=gx, gy=gy[r:r1])
+        return
+    for r in range(gy.size):
+        for c in range(0, nx, chunk_points):
+            c1 = min(nx, c + chunk_points)
+            yield r * nx + c, r * nx + c1, _Block(gx=gx[c:c1], gy=gy[r:r + 1])
+
+
 def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callable]:
-    """Return ``prepare(px, py) -> state`` and ``at(state, dz, out, d2=None)`` computing G/(4 pi R^2) [1/m^2].
+    """Return ``prepare(block) -> state`` and ``at(state, dz, out, d2=None)`` computing G/(4 pi R^2) [1/m^2].
 
     With ``d2`` (squared distances to the nearest part of the structure [m^2]) it computes G/(4 pi d2)
     instead: the gain is still taken toward the point from the centre of radiation.
@@ -505,10 +731,8 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
     untilted = g.tilt_deg == 0.0
     vertical_axis = kind == "quarter-wave-vertical" or g.polarisation == "vertical"
 
-    def base(px, py):
-        dx = px - g.x_m
-        dy = py - g.y_m
-        return dx, dy, (dx * dx + dy * dy).astype(_F32)
+    def base(blk):
+        return blk.rho2(g.x_m, g.y_m).astype(_F32)
 
     def fix_origin(rho2, dz, out):
         """At R = 0 the power density is infinite (flagged as near field by the caller)."""
@@ -516,8 +740,8 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
             out[rho2 == 0.0] = np.inf
 
     if kind == "isotropic":
-        def prepare(px, py):
-            return (base(px, py)[2],)
+        def prepare(blk):
+            return (base(blk),)
 
         def at(s, dz, out, d2=None):
             if d2 is not None:
@@ -539,14 +763,15 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
         a_t = math.radians(g.tilt_deg)
         st32, ct32 = _F32(math.sin(a_t)), _F32(math.cos(a_t))
 
-        def prepare(px, py):
-            dx, dy, rho2 = base(px, py)
+        def prepare(blk):
+            rho2 = base(blk)
             if vertical_axis and untilted:
                 return rho2, None, None
             if vertical_axis:
-                return rho2, (dx * sa + dy * ca).astype(_F32), np.square(dx * ca - dy * sa).astype(_F32)
-            num = np.abs(dx * ca - dy * sa).astype(_F32)   # along the wire (the "right" axis)
-            fwd = (dx * sa + dy * ca).astype(_F32)           # horizontal, across the wire
+                return (rho2, blk.lin(g.x_m, g.y_m, sa, ca).astype(_F32),
+                        np.square(blk.lin(g.x_m, g.y_m, ca, -sa)).astype(_F32))
+            num = np.abs(blk.lin(g.x_m, g.y_m, ca, -sa)).astype(_F32)   # along the wire (the "right" axis)
+            fwd = blk.lin(g.x_m, g.y_m, sa, ca).astype(_F32)             # horizontal, across the wire
             return rho2, num, fwd * fwd
 
         def at(s, dz, out, d2=None):
@@ -605,13 +830,11 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
         compensated = 0.5 * q > _PLAIN_LOG_MAX_HQ
         k_up = _F32(float(k) * (1.0 + _untilted_beam_margin(pat.front_to_back_db)))
 
-        def prepare(px, py):
-            dx = px - g.x_m
-            dy = py - g.y_m
-            rho2 = dx * dx + dy * dy
+        def prepare(blk):
+            rho2 = blk.rho2(g.x_m, g.y_m)
             rho = np.sqrt(rho2)
             with np.errstate(divide="ignore", invalid="ignore"):
-                cos_az = np.where(rho > 0.0, (dx * sa + dy * ca) / rho, 1.0)
+                cos_az = np.where(rho > 0.0, blk.lin(g.x_m, g.y_m, sa, ca) / rho, 1.0)
                 half = np.maximum(0.5 * (1.0 + cos_az), 0.0)    # rounding may give -1e-17 at the back
                 amp = (p * np.log(half)).astype(_F32)
                 inv_rho2 = (1.0 / rho2).astype(_F32)            # inf on the up axis (rho = 0)
@@ -666,9 +889,9 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
         a_t = math.radians(g.tilt_deg)
         st32, ct32 = _F32(math.sin(a_t)), _F32(math.cos(a_t))
 
-        def prepare(px, py):
-            dx, dy, rho2 = base(px, py)
-            return rho2, (dx * sa + dy * ca).astype(_F32), np.square(dx * ca - dy * sa).astype(_F32)
+        def prepare(blk):
+            return (base(blk), blk.lin(g.x_m, g.y_m, sa, ca).astype(_F32),
+                    np.square(blk.lin(g.x_m, g.y_m, ca, -sa)).astype(_F32))
 
         def at(s, dz, out, d2=None):
             rho2, hor, rgt2 = s
@@ -748,9 +971,10 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
         if untilted:
             off = look.column_offset(g.azimuth_deg)
 
-            def prepare(px, py):
+            def prepare(blk):
                 # the bearing from north (dx, dy: +0.0 at the centre, never -0.0) less the antenna's azimuth
-                dx, dy, rho2 = base(px, py)
+                rho2 = base(blk)
+                dx, dy = blk.offsets(g.x_m, g.y_m)
                 rho = rho2 + tiny
                 np.sqrt(rho, out=rho)
                 return (rho2, rho, *look.columns_xy(dy.astype(_F32), dx.astype(_F32), rho, off))
@@ -764,10 +988,10 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
 
         off = look.column_offset()
 
-        def prepare(px, py):
-            dx, dy, rho2 = base(px, py)
-            rgt = (dx * ca - dy * sa).astype(_F32)
-            hor = (dx * sa + dy * ca).astype(_F32)
+        def prepare(blk):
+            rho2 = base(blk)
+            rgt = blk.lin(g.x_m, g.y_m, ca, -sa).astype(_F32)
+            hor = blk.lin(g.x_m, g.y_m, sa, ca).astype(_F32)
             hor += _F32(0.0)                                # no -0.0 (see below)
             rgt2 = rgt * rgt
             rgt2 += tiny
@@ -792,10 +1016,10 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
         # on the height and is found once per point; tilted, both cells are found per height.
         look = _TableLookup(pat.table)
         if untilted:
-            def prepare(px, py):
-                dx, dy, rho2 = base(px, py)
-                fwd = (dx * sa + dy * ca).astype(_F32)
-                rgt = (dx * ca - dy * sa).astype(_F32)
+            def prepare(blk):
+                rho2 = base(blk)
+                fwd = blk.lin(g.x_m, g.y_m, sa, ca).astype(_F32)
+                rgt = blk.lin(g.x_m, g.y_m, ca, -sa).astype(_F32)
                 with np.errstate(divide="ignore"):   # at rho = 0: +-90 deg, or 0 at dz = 0 (as arctan2)
                     inv_rho = np.where(rho2 > 0.0, _F32(1.0) / np.sqrt(rho2), _F32(1e30))
                 return (rho2, inv_rho, *look.azimuth_cells(np.degrees(np.arctan2(rgt, fwd))))
@@ -817,10 +1041,10 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
         a_t = math.radians(g.tilt_deg)
         st32, ct32 = _F32(math.sin(a_t)), _F32(math.cos(a_t))
 
-        def prepare(px, py):
-            dx, dy, rho2 = base(px, py)
-            rgt = (dx * ca - dy * sa).astype(_F32)
-            return rho2, (dx * sa + dy * ca).astype(_F32), rgt, rgt * rgt
+        def prepare(blk):
+            rho2 = base(blk)
+            rgt = blk.lin(g.x_m, g.y_m, ca, -sa).astype(_F32)
+            return rho2, blk.lin(g.x_m, g.y_m, sa, ca).astype(_F32), rgt, rgt * rgt
 
         def at(s, dz, out, d2=None):
             rho2, hor, rgt, rgt2 = s
@@ -851,9 +1075,8 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
     a_t = math.radians(g.tilt_deg)
     st, ct = math.sin(a_t), math.cos(a_t)
 
-    def prepare(px, py):
-        dx, dy, rho2 = base(px, py)
-        return dx * dx + dy * dy, dx * sa + dy * ca, dx * ca - dy * sa
+    def prepare(blk):
+        return blk.rho2(g.x_m, g.y_m), blk.lin(g.x_m, g.y_m, sa, ca), blk.lin(g.x_m, g.y_m, ca, -sa)
 
     def at(s, dz, out, d2=None):
         rho2, hor, rgt = s
@@ -871,7 +1094,7 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
     return prepare, at
 
 
-def _nearest_part_pass(grp: _Group, state, at, px, py, heights, geo, near) -> None:
+def _nearest_part_pass(grp: _Group, state, at, blk: _Block, heights, geo, near) -> None:
     """``G / (4 pi d^2)`` of one group at every height into ``geo`` (H, P); its near-field flags into ``near``.
 
     d is the distance to the nearest part of the structure (R from the centre of radiation without one).
@@ -880,7 +1103,7 @@ def _nearest_part_pass(grp: _Group, state, at, px, py, heights, geo, near) -> No
     instead, as a station's places do. Only points within that distance plus the structure's reach of
     the centre can be so close (triangle inequality): the others skip the test.
     """
-    part = grp.nearest_part(px, py)
+    part = grp.nearest_part(blk)
     rho2 = state[0]
     all_heights = getattr(at, "all_heights", False)
     if all_heights:                     # the evaluator takes every height at once, with d^2 (H, P)
@@ -904,7 +1127,7 @@ def _nearest_part_pass(grp: _Group, state, at, px, py, heights, geo, near) -> No
     if part is not None and idx is not None and idx.size:
         # the peak-gain points lie next to the structure, where float32 projections lose the digits a
         # distance of a few centimetres needs (1e-5 relative): their distances again in float64
-        p64 = NearestPart(grp.extent, px[idx], py[idx], parts=grp.parts)
+        p64 = NearestPart(grp.extent, *blk.points(idx), parts=grp.parts)
         near_d2 = [p64.squared_m2(h) for h in heights]
     with np.errstate(divide="ignore", invalid="ignore"):
         if all_heights:
@@ -918,15 +1141,15 @@ def _nearest_part_pass(grp: _Group, state, at, px, py, heights, geo, near) -> No
                 out[idx] = k_peak / np.maximum(d2[idx], _F32(MIN_FAR_FIELD_DIST_M ** 2))
 
 
-def _chunk_pass(names, groups, evaluators, px, py, heights, *, per_transmitter: bool):
+def _chunk_pass(names, groups, evaluators, blk: _Block, heights, *, per_transmitter: bool):
     """Ratios for one chunk: totals (H, 2, P) or per transmitter (2, T, H, P)."""
-    n_g, n_h, n_p = len(groups), len(heights), px.size
+    n_g, n_h, n_p = len(groups), len(heights), blk.size
     n_t = len(names)
     geo = np.empty((n_h, n_g, n_p), dtype=_F32)
     near = np.zeros(n_p, dtype=bool)
     for gi, (grp, (prepare, at)) in enumerate(zip(groups, evaluators)):
-        state = prepare(px, py)
-        _nearest_part_pass(grp, state, at, px, py, heights, geo[:, gi], near)
+        state = prepare(blk)
+        _nearest_part_pass(grp, state, at, blk, heights, geo[:, gi], near)
     counts = np.bincount([g.transmitter for g in groups], minlength=n_t)
     coef = np.array([g.coefficient for g in groups])          # (n_g, 2)
     if per_transmitter:
@@ -1002,10 +1225,8 @@ def ratio_grid(emitters: Sequence[SiteEmitter], x_m, y_m, heights_m, *, chunk_po
     worst = np.empty((2, n))
     near = np.empty(n, dtype=bool)
     h_arr = np.array(heights)
-    for start in range(0, n, chunk_points):
-        stop = min(n, start + chunk_points)
-        total, nf = _chunk_pass(names, groups, evaluators, x[start:stop], y[start:stop], heights,
-                                per_transmitter=False)
+    for start, stop, blk in _blocks(x, y, chunk_points):
+        total, nf = _chunk_pass(names, groups, evaluators, blk, heights, per_transmitter=False)
         best = total.max(axis=0)                                # (2, P)
         if np.isnan(best).any():
             k = np.argmax(total, axis=0)
@@ -1037,10 +1258,8 @@ def transmitter_ratios(emitters: Sequence[SiteEmitter], x_m, y_m, heights_m, *,
     tables: dict = {}
     evaluators = [_evaluator(g, tables) for g in groups]
     out = np.empty((2, len(names), x.size), dtype=_F32)   # single precision, like the kernel
-    for start in range(0, x.size, chunk_points):
-        stop = min(x.size, start + chunk_points)
-        per, _ = _chunk_pass(names, groups, evaluators, x[start:stop], y[start:stop], heights,
-                             per_transmitter=True)
+    for start, stop, blk in _blocks(x, y, chunk_points):
+        per, _ = _chunk_pass(names, groups, evaluators, blk, heights, per_transmitter=True)
         out[:, :, start:stop] = per.max(axis=2)
     return names, out
 
