@@ -15,7 +15,8 @@ on the pattern grid, timed with the grid although solve() needs that grid for it
 the exponents (fill 2, whole solve at most 3), for a compact array of dipoles, a
 long wire fed off centre and an inverted V (half its pairs non-parallel); N up to 800, or 2000 with
 ``--large`` (target also: N = 1600 under 5 s). The last column says "met" only when every target of
-the row is met, else which ones were missed.
+the row is met, else which ones were missed. Last, the fixed per-solve cost (solve() of a 4-unknown
+wire, and its dependent pattern evaluations) against 5 x the floor at N = 100 and 200.
 
 Run: OMP_NUM_THREADS=1 OPENBLAS_NUM_THREADS=1 /work/venv/bin/python benchmarks/bench_wire.py [--large]
 (pinning BLAS threads keeps the timings stable on the shared 2-core machine)
@@ -199,12 +200,12 @@ def scaling(sizes, make, name):
         checks = (("ratio", ratio > TARGET_RATIO), ("power > fill", t_pow > t_fill),
                   (f"over {TARGET_1600_S:g} s", sol.num_unknowns == 1600 and t_all >= TARGET_1600_S))
         missed = [what for what, bad in checks if bad]
-        rows.append((sol.num_unknowns, t_fill, t_all, t_lu, n))
+        rows.append((sol.num_unknowns, t_fill, t_all, t_lu, n, t_lu + t_ideal))
         print(f"{sol.num_unknowns:6d} {t_fill:8.3f} {t_ideal:11.3f} {t_lu:8.3f} {t_all:9.3f} {t_pow:10.3f} "
               f"{t_fill / t_ideal:10.1f} {t_pow / t_fill:10.2f} {ratio:16.2f}  "
               f"{'MISSED (' + ', '.join(missed) + ')' if missed else 'met'}")
         del sol
-    for (n0, f0, a0, l0, _), (n1, f1, a1, l1, _) in zip(rows, rows[1:]):
+    for (n0, f0, a0, l0, _, _), (n1, f1, a1, l1, _, _) in zip(rows, rows[1:]):
         e = [math.log(v1 / v0) / math.log(n1 / n0) for v0, v1 in ((f0, f1), (a0, a1), (l0, l1))]
         print(f"  exponent N = {n0} -> {n1}: fill {e[0]:.2f}, whole solve {e[1]:.2f}, LU {e[2]:.2f}")
     big = [r for r in rows if r[4] >= 400]          # by the size asked for (the inverted V has 399 unknowns)
@@ -213,6 +214,43 @@ def scaling(sizes, make, name):
         fit = {name: np.polyfit(x, np.log([r[i] for r in big]), 1) for name, i in (("fill", 1), ("solve", 2))}
         print(f"  least-squares exponent, N >= 400: fill {fit['fill'][0]:.2f} (aim 2), whole solve "
               f"{fit['solve'][0]:.2f} (aim <= 3); solve() = {math.exp(fit['solve'][1]):.2e} N^{fit['solve'][0]:.2f} s")
+    return rows
+
+
+def fixed_cost(floors):
+    """The per-solve cost that does not shrink with N, against 5 x the floor at the small sizes.
+
+    solve() of a 4-unknown wire, and the part of it spent evaluating the pattern: mostly the peak
+    search, a pattern search whose steps depend on each other (each moves from the best point of the
+    step before, or halves its step), so its few dozen evaluations of 8 directions each cannot be
+    batched; each is a fixed number of numpy calls whatever the size of the structure.
+    """
+    from rfsafe.antenna.wire import solver as S
+
+    s = long_wire(4)
+    t_tiny, _ = median_cpu(lambda: solve(s, F_HZ), 15)
+    real = S._intensity
+    spent = [0, 0.0]
+
+    def timed(*a, **kw):
+        t = time.process_time()
+        out = real(*a, **kw)
+        spent[0] += 1
+        spent[1] += time.process_time() - t
+        return out
+
+    S._intensity = timed
+    try:
+        for _ in range(15):
+            solve(s, F_HZ)
+    finally:
+        S._intensity = real
+    n_calls, t_pat = spent[0] // 15, spent[1] / 15
+    print(f"\nfixed per-solve cost: solve() of a 4-unknown wire {1e3 * t_tiny:.2f} ms CPU, of which "
+          f"{1e3 * t_pat:.2f} ms in {n_calls} pattern evaluations (grid, dependent peak-search steps, back)")
+    for n, floor in sorted(floors.items()):
+        print(f"  N = {n}: 5 x (LU + ideal fill) = {1e3 * 5 * floor:.2f} ms, "
+              f"{'below' if 5 * floor < t_tiny else 'above'} that fixed cost ({t_tiny / floor:.1f} x the floor)")
 
 
 if __name__ == "__main__":
@@ -224,6 +262,7 @@ if __name__ == "__main__":
     # Scaling beyond the input bound of one wire antenna (rfsafe.bounds.MAX_WIRE_SEGMENTS), raised here only.
     rfsafe.bounds.MAX_WIRE_SEGMENTS = 10_000
     sizes = (100, 200, 400, 800, 1600, 2000) if "--large" in sys.argv else (100, 200, 400, 800)
-    scaling(sizes, array_of_dipoles, "array of parallel dipoles (compact)")
+    rows = scaling(sizes, array_of_dipoles, "array of parallel dipoles (compact)")
     scaling(sizes, long_wire, "long straight wire (electrically largest for its N: the pattern grid grows fastest)")
     scaling(sizes, inverted_v, "inverted V (two sloping legs: half the pairs take the general, non-parallel path)")
+    fixed_cost({r[0]: r[5] for r in rows if r[0] <= 200})

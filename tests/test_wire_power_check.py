@@ -76,7 +76,8 @@ def test_sphere_integral_on_the_pattern_grid_equals_the_double_sum(name, monkeyp
 
 
 def test_solve_takes_the_double_sum_up_to_the_threshold_and_the_grid_above():
-    small, large = solve(_long_wire(S._POWER_SUM_MAX_SEGMENTS), F_HZ), solve(_long_wire(S._POWER_SUM_MAX_SEGMENTS + 1), F_HZ)
+    small = solve(_long_wire(S._POWER_SUM_MAX_SEGMENTS), F_HZ)
+    large = solve(_long_wire(S._POWER_SUM_MAX_SEGMENTS + 1), F_HZ)
     assert small.structure.num_segments <= S._POWER_SUM_MAX_SEGMENTS < large.structure.num_segments
     assert small.radiated_power_w == S._radiated_power(small.structure, small.k, small.segment_current_a)
     assert large.radiated_power_w == S._power_check(large.structure, large.k, large.segment_current_a)

@@ -241,10 +241,12 @@ def _demo(name):
 RUN_BASIS_CASES = dict(CASES)
 RUN_BASIS_CASES["array of dipoles, 4 x 4"] = lambda: _array(4)
 RUN_BASIS_CASES["long wire fed off centre, 400 segments"] = lambda: _spec({"wires": [
-    {"points_m": [[0, 0, 0], [16, 0, 0.0]], "radius_m": 0.002, "segments": 401}], "feeds": [{"wire": 0, "position": 0.3}]})
+    {"points_m": [[0, 0, 0], [16, 0, 0.0]], "radius_m": 0.002, "segments": 401}],
+    "feeds": [{"wire": 0, "position": 0.3}]})
 RUN_BASIS_CASES["two wires end to end, one reversed"] = lambda: _spec({"wires": [
     {"points_m": [[0, 0, 0], [1, 0, 0.0]], "radius_m": 0.002, "segments": 30, "label": "a"},
-    {"points_m": [[2, 0, 0], [1, 0, 0.0]], "radius_m": 0.002, "segments": 30}], "feeds": [{"wire": "a", "position": 0.5}]})
+    {"points_m": [[2, 0, 0], [1, 0, 0.0]], "radius_m": 0.002, "segments": 30}],
+    "feeds": [{"wire": "a", "position": 0.5}]})
 
 
 @pytest.mark.parametrize("name", list(RUN_BASIS_CASES) + ["wire_beam_3el_20m.toml", "wire_ground_plane_20m.toml",

@@ -15,14 +15,16 @@ are shared between the two segments of a node, parallel pairs need only them, an
 matrix is computed as one triangle and mirrored (``impedance_matrix``). Along straight runs of
 equal segments, and between runs laid along the same step (the elements of an array), the geometry
 of a pair depends only on the segment offset: those kernel sums are computed once per offset and
-looked up (``_translate_sums``; the radiated-power kernel likewise, ``_power_table``). A perfectly
+looked up (``_translate_sums``; the radiated-power kernel likewise, ``_power_table``), and the entries
+of Z between basis functions inside such runs are written per offset (``_run_bases``). A perfectly
 conducting ground at z = 0 is represented by images. Delta-gap sources at nodes give the voltage
 vector V_m = sum_f g_fm V_f, and Z I = V is solved densely.
 
 Pattern and gain come from the radiation integrals of the PWS currents (closed form); the radiated
 power, from the real part of the currents' mutual impedance with the exact kernel sin(kR)/R (O(N^2),
-independent of the fill; over real soil the sphere integral of the space wave), is reported against
-the input power 0.5 Re(sum V I*) as a check of the solution.
+independent of the fill; above ``_POWER_SUM_MAX_SEGMENTS`` segments, and over real soil, the sphere
+integral of the far-field intensity on the pattern grid), is reported against the input power
+0.5 Re(sum V I*) as a check of the solution.
 
 References
 ----------
