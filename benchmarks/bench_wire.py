@@ -10,7 +10,7 @@ Scaling (issue 18): fill, numpy's dense LU, the radiated-power check and the who
 floors measured in the same run (numpy's LU of our matrix and an ideal vectorised kernel fill of
 N^2 entries, written as tightly as numpy allows: see ``ideal_fill``), in CPU time (medians), with
 the ratio solve / (LU + ideal fill) against the target 5, the power check against the fill (target:
-no larger; the check solve() makes: the double sum up to 200 segments, above them the sphere integral
+no larger; the check solve() makes: the double sum up to 100 segments, above them the sphere integral
 on the pattern grid, timed with the grid although solve() needs that grid for its peak anyway), and
 the exponents (fill 2, whole solve at most 3), for a compact array of dipoles, a
 long wire fed off centre and an inverted V (half its pairs non-parallel); N up to 800, or 2000 with
