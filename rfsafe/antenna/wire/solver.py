@@ -572,13 +572,16 @@ def _pair_list(ts: _TestSide, k, ip, iq, rule, src):
     s0, sl, sdir = src["s0"], src["sl"], src["sdir"]
     out = np.empty((len(ip), 2, 2), dtype=complex)
     if rule == "near":
-        b = np.sqrt(ts.a2[ip])
-        sa, wa = sinh_rule(0.5 * ts.tl[ip], b, N_NEAR)
-        sp = np.concatenate([sa, ts.tl[ip, None] - sa], axis=1)
+        # the rule, test shapes and points depend on the test segment only: once per test segment
+        up, inv = np.unique(ip, return_inverse=True)
+        inv = inv.reshape(-1)
+        b = np.sqrt(ts.a2[up])
+        sa, wa = sinh_rule(0.5 * ts.tl[up], b, N_NEAR)
+        sp = np.concatenate([sa, ts.tl[up, None] - sa], axis=1)
         wp = np.concatenate([wa, wa], axis=1)
-        fp1, fp2 = _test_shapes(sp, ts.tl[ip, None], k)
-        xp = ts.t0[ip, None, :] + sp[..., None] * ts.tdir[ip, None, :]
-        args = (xp, wp, fp1, fp2)
+        fp1, fp2 = _test_shapes(sp, ts.tl[up, None], k)
+        xp = ts.t0[up, None, :] + sp[..., None] * ts.tdir[up, None, :]
+        args = (xp[inv], wp[inv], fp1[inv], fp2[inv])
     elif rule == "wide":
         args = (ts.xw[ip], ts.ww[ip], ts.fw1[ip], ts.fw2[ip])
     else:
