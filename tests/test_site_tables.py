@@ -102,11 +102,13 @@ def test_steep_table_never_below_and_within_its_bound(tilt):
 @given(step_az=st.sampled_from([1.0, 5.0, 10.0, 15.0, 30.0, 45.0, 120.0]),
        step_el=st.sampled_from([1.0, 2.0, 5.0, 10.0, 15.0, 30.0, 90.0]),
        first_frac=st.floats(0.0, 0.99), deep=st.booleans(), seed=st.integers(0, 2 ** 31),
-       az=st.floats(-720.0, 720.0), tilt=st.floats(-90.0, 90.0), h=st.floats(0.0, 30.0))
-def test_any_uniform_table_is_never_below_the_float64_lookup(step_az, step_el, first_frac, deep, seed, az, tilt, h):
-    # property: whatever the table, orientation and points, the kernel's polynomial-angle, single-precision
-    # lookup is never below the float64 bilinear value of patterns.table_gain (Numerical Recipes sec. 3.6,
-    # common practice) in the far-field prediction (OET Bulletin 65 sec. 2), and above it by at most its lift
+       az=st.floats(-720.0, 720.0), tilt=st.floats(-90.0, 90.0), h=st.floats(0.0, 30.0), simd=st.booleans())
+def test_any_uniform_table_is_never_below_the_float64_lookup(step_az, step_el, first_frac, deep, seed, az, tilt, h,
+                                                            simd):
+    # property: whatever the table, orientation and points, and with either kind of float32 angles (numpy's
+    # arctan or the rational one), the kernel's single-precision lookup is never below the float64 bilinear
+    # value of patterns.table_gain (Numerical Recipes sec. 3.6, common practice) in the far-field prediction
+    # (OET Bulletin 65 sec. 2), and above it by at most its lift
     rng = np.random.default_rng(seed)
     azs = np.arange(first_frac * step_az, 360.0, step_az)
     els = np.linspace(-90.0, 90.0, int(round(180.0 / step_el)) + 1)
@@ -118,52 +120,77 @@ def test_any_uniform_table_is_never_below_the_float64_lookup(step_az, step_el, f
     py = np.concatenate([rng.uniform(-40, 40, 600), rng.uniform(-1, 1, 100) - 3.0, [-3.0]])
     em = emitter(x=2.0, y=-3.0, h=h, pattern=pat, azimuth_deg=az, tilt_deg=tilt, polarisation="horizontal",
                  power=(100.0, 60.0), limit=(50.0, 10.0), f=2.56)
-    _excess_within_the_lift(pat, em, px, py, (0.5, 1.0, 1.7, 2.0, 12.0))
+    saved = grid._ANGLES
+    grid._ANGLES = grid._Angles(simd=simd)
+    try:
+        _excess_within_the_lift(pat, em, px, py, (0.5, 1.0, 1.7, 2.0, 12.0))
+    finally:
+        grid._ANGLES = saved
 
 
-def test_angles_within_their_stated_bound():
-    # the rational arctan (grid._ATAN_RATIONAL) through the half-angle identities, in float32, against
-    # numpy's float64 arctan2 (common practice) on the same float32 inputs: within half the error the
-    # lift allows for (_TABLE_ANGLE_ERR_RAD), and the cell coordinates within the weight bound
+@pytest.mark.parametrize("simd", [True, False])
+def test_angles_within_their_stated_bound(simd):
+    # the kernel's float32 angles (grid._Angles: numpy's arctan2 and arctan, or the rational arctan through
+    # the half-angle identity) against numpy's float64 arctan2 (common practice) on the same float32 inputs:
+    # within half the error the lift allows for (_TABLE_ANGLE_ERR_RAD), and the cell coordinates within the
+    # weight bound
     rng = np.random.default_rng(5)
     n = 400_000
     x = (rng.standard_normal(n) * 10 ** rng.uniform(-4, 4, n)).astype(np.float32)
     y = (rng.standard_normal(n) * 10 ** rng.uniform(-4, 4, n)).astype(np.float32)
     x[:4], y[:4] = [0.0, 1.0, -1.0, 0.0], [0.0, 0.0, 0.0, -2.0]
     xs, ys = x.astype(float), y.astype(float)
-    look = grid._UniformTable(_table(10.0, 5.0, first_az=3.0).table)
+    angles = grid._Angles(simd=simd)
     bound = grid._TABLE_ANGLE_ERR_RAD
-    # azimuth atan2(y, x): the cell coordinate col + ta against the exact one, modulo the table's columns
+    exact = np.arctan2(ys, xs)
+    az = angles.atan2(y, x)
+    assert np.abs(az.astype(float) - exact).max() <= bound / 2
+    # azimuth to cells: the cell coordinate col + ta against the exact one, modulo the table's columns
+    look = grid._UniformTable(_table(10.0, 5.0, first_az=3.0).table)
     off = look.column_offset(37.0)
-    col, ta = look.columns_xy(x, y, np.sqrt(x * x + y * y + np.float32(grid._TINY_M2)), off)
-    exact = np.degrees(np.arctan2(ys, xs)) / look.da + float(off)
-    col = col / look.n_rows                              # the column index (columns_xy gives it times n_rows)
-    d = (col + ta - exact + look.n_az / 2) % look.n_az - look.n_az / 2
+    col, ta = look.columns(az, off)
+    want = np.degrees(exact) / look.da + float(off)
+    col = col / look.n_rows                              # the column index (columns gives it times n_rows)
+    d = (col + ta - want + look.n_az / 2) % look.n_az - look.n_az / 2
     rounding_rad = 4 * float(np.spacing(np.float32(look.n_col))) * math.radians(look.da)   # cells -> rad
     assert np.abs(d).max() * math.radians(look.da) <= bound / 2 + rounding_rad
-    assert (col >= 0).all() and (col <= look.n_col - 1).all() and (ta >= 0).all() and (ta <= 1).all()
-    # elevation atan2(y, |x|) = 2 atan(y / (R + |x|))
-    with np.errstate(invalid="ignore"):
-        v = y / (np.sqrt(x * x + y * y) + np.abs(x))
-    v[0] = 0.0                                          # x = y = 0: 0 / 0, elevation 0 as arctan2 gives
-    xe = grid._atan_scaled(v, look.atan_e).astype(float)
-    el = np.arctan2(ys, np.abs(xs))
-    assert np.abs(xe - np.degrees(el) / look.de).max() * math.radians(look.de) <= bound / 2
+    assert (col >= 1).all() and (col <= look.n_col - 1).all() and (ta >= 0).all() and (ta <= 1).all()
+    # elevation atan(y / |x|) for |x| > 0 (the kernel's horizontal distances are at least 1e-15 m)
+    den = np.maximum(np.abs(x), np.float32(1e-15))
+    el = angles.atan_ratio(y.copy(), den)
+    assert np.abs(el.astype(float) - np.arctan2(ys, den.astype(float))).max() <= bound / 2
+    col_h = angles.atan_ratio(y[:1000].reshape(1, -1).copy(), den[:1000])           # broadcast as the kernel does
+    assert np.array_equal(col_h[0], angles.atan_ratio(y[:1000].copy(), den[:1000]))
+
+
+def test_numpy_reports_its_arctan_as_the_kernel_expects():
+    # the choice between numpy's arctan and the rational function asks numpy which code runs; it must
+    # answer a bool without raising, whatever numpy and processor
+    assert grid._simd_arctan() in (True, False)
+
+
+@pytest.mark.parametrize("tilt", [0.0, 12.0])
+def test_rational_angles_never_below_either(tilt, monkeypatch):
+    # the rational arctan (machines where numpy's float32 arctan is a scalar loop) through the same kernel
+    monkeypatch.setattr(grid, "_ANGLES", grid._Angles(simd=False))
+    pat = _table(10.0, 5.0, deep=True)
+    em = emitter(x=2.0, y=-3.0, h=4.0, pattern=pat, azimuth_deg=37.0, tilt_deg=tilt, polarisation="horizontal",
+                 power=(100.0, 60.0), limit=(50.0, 10.0), f=2.56)
+    _excess_within_the_lift(pat, em, PX, PY, HEIGHTS)
 
 
 def test_lookup_reproduces_the_samples_and_the_poles():
     # at the samples the bilinear value is the sample (patterns.table_gain); the lookup is within its lift.
-    # Directions are given as the kernel gives them: azimuth by its components, elevation el by tan(el / 2).
+    # Directions are given as the kernel gives them: azimuth and elevation in radians (float32).
     pat = _table(10.0, 5.0)
     tab = pat.table
     look = grid._UniformTable(tab)
-    az = np.radians(np.array([tab.azimuth_deg[3], tab.azimuth_deg[20]]))
-    fwd, rgt = np.cos(az).astype(np.float32), np.sin(az).astype(np.float32)
+    az = np.radians(np.array([tab.azimuth_deg[3], tab.azimuth_deg[20]])).astype(np.float32)
     for j in (0, 7, tab.elevation_deg.size - 1):
-        v = np.full(2, math.tan(math.radians(tab.elevation_deg[j]) / 2), dtype=np.float32)
-        col, ta = look.columns_xy(fwd, rgt, np.ones(2, dtype=np.float32), look.column_offset())
+        el = np.full(2, math.radians(tab.elevation_deg[j]), dtype=np.float32)
+        col, ta = look.columns(az.copy(), look.column_offset())
         out = np.empty(2, dtype=np.float32)
-        look.at_half_tangent(v, col, ta, out)
+        look.at_elevation(el, col, ta, out)
         want = tab._gain_lin[j, [3, 20]] / (4 * math.pi)
         assert (out >= want).all() and np.allclose(out, want, rtol=5e-4, atol=0)
 

@@ -303,14 +303,16 @@ _TABLE_F32_REL = 2e-6
 #: Rational function ``v (a0 + a1 v^2 + a2 v^4) / (1 + b1 v^2 + b2 v^4)`` for arctan(v) on [-1, 1]
 #: (a least-maximum-error fit made for this kernel; its largest error is 1.9e-7 rad, tested), as
 #: ``(a0, a1, a2, b1, b2)``, evaluated in partial fractions (:func:`_atan_terms`, eight numpy
-#: operations): numpy's arctan and arctan2 are not vectorised and cost 5 to 10 times the whole
-#: far-field formula per point. Angles are found by the half-angle identity
-#: ``atan2(y, x) = 2 atan(y / (sqrt(x^2 + y^2) + x))`` (x >= 0), whose argument lies in [-1, 1].
+#: operations) through the half-angle identity ``atan2(y, x) = 2 atan(y / (sqrt(x^2 + y^2) + x))``
+#: (x >= 0), whose argument lies in [-1, 1]: the angles of :class:`_Angles` where numpy's float32
+#: arctan is not vectorised (see there).
 _ATAN_RATIONAL = (0.9999975269110996, 0.6559232704922369, 0.04055477459232964, 0.9891876806615268,
                   0.17083158360938025)
-#: Bound of the angle error of :data:`_ATAN_RATIONAL` through the half-angle identity in float32 [rad]:
-#: twice the fit's 1.9e-7 plus the rounding of the argument and the arithmetic (largest found in 2e7
-#: random directions 8.0e-7; tested within half the bound).
+#: Bound of the angle error of :class:`_Angles` in float32 [rad]: numpy's vectorised float32 arctan and
+#: arctan2 are within 4 ulps (numpy pull request 19478, the SIMD versions from SVML; 1.0 and 3.2 ulps,
+#: 1.2e-7 and 3.2e-7 rad, found here), with the rounding of their float32 arguments; the rational
+#: function through the half-angle identity twice its fit's 1.9e-7 plus the rounding of the argument and
+#: the arithmetic (largest found in 2e7 random directions 8.0e-7). Both are tested within half the bound.
 _TABLE_ANGLE_ERR_RAD = 2e-6
 #: Added to a squared horizontal distance [m^2] before its square root so that a point at the antenna's
 #: centre or on its up axis gets a direction (elevation 0 at the centre, the pole on the axis; the
@@ -347,6 +349,86 @@ def _atan_scaled(v, terms):
     return v
 
 
+def _simd_arctan() -> bool:
+    """True when numpy runs its float32 arctan and arctan2 vectorised on this machine (numpy >= 2 says so)."""
+    try:
+        from numpy.lib.introspect import opt_func_info
+        info = opt_func_info(func_name="^arctan2?$")
+        targets = [info["arctan"]["ff"]["current"], info["arctan2"]["fff"]["current"]]
+        return not any("baseline" in t for t in targets)
+    except Exception:   # older numpy, or no such information: the rational function is always fast
+        return False
+
+
+class _Angles:
+    """Float32 angles [rad] within :data:`_TABLE_ANGLE_ERR_RAD`, the cheapest way this machine has.
+
+    numpy's float32 arctan and arctan2 are vectorised (SIMD) where the processor has AVX-512: a third to
+    half a nanosecond a value, when both operands run contiguously along the last axis (a broadcast
+    column, stride 0, falls back to a scalar loop two to three times slower). Elsewhere they are scalar
+    calls costing several times the whole far-field formula, and :data:`_ATAN_RATIONAL` (eight numpy
+    operations through the half-angle identity) takes their place. ``simd`` chooses (None: ask numpy once).
+    """
+
+    _simd_default: bool | None = None
+
+    def __init__(self, simd: bool | None = None) -> None:
+        if simd is None:
+            if _Angles._simd_default is None:
+                _Angles._simd_default = _simd_arctan()
+            simd = _Angles._simd_default
+        self.simd = bool(simd)
+        self._atan2 = _atan_terms(2.0)
+        self._half_pi = _F32(0.5 * math.pi)
+
+    def atan2(self, y, x):
+        """``atan2(y, x)`` in (-pi, pi] (a new array; ``x`` not -0.0 where ``y`` is 0: the angle there is 0)."""
+        if self.simd:
+            return np.arctan2(y, x)
+        # from the nearer of the +x and -x axes: alpha = 2 atan(|y| / (r + |x|)) in [0, pi/2]
+        r = x * x
+        r += y * y
+        r += _F32(_TINY_M2)
+        np.sqrt(r, out=r)
+        r += np.abs(x)
+        np.divide(np.abs(y), r, out=r)
+        al = _atan_scaled(r, self._atan2)
+        q = self._half_pi
+        # behind (x < 0): pi - alpha; then the side of y
+        np.subtract(q, al, out=al)
+        np.copysign(al, x, out=al)
+        np.subtract(q, al, out=al)
+        np.copysign(al, y, out=al)
+        return al
+
+    def atan_ratio(self, num, den):
+        """``atan(num / den)`` in [-pi/2, pi/2] for ``den`` > 0 (overwrites ``num`` where it is a float32 array
+        of the result's shape; otherwise a new array)."""
+        full = isinstance(num, np.ndarray) and num.dtype == _F32 and num.shape == np.broadcast_shapes(
+            num.shape, np.shape(den))
+        if self.simd:
+            t = np.divide(num, den, out=num if full else None)
+            return np.arctan(t, out=t)
+        # 2 atan(num / (sqrt(num^2 + den^2) + den)), the argument in [-1, 1]
+        v = np.multiply(num, num)
+        v = v + den * den
+        np.sqrt(v, out=v)
+        v += den
+        np.divide(num, v, out=v)
+        return _atan_scaled(v, self._atan2)
+
+
+_ANGLES: _Angles | None = None
+
+
+def _angles() -> _Angles:
+    """The angle functions of this machine (made once)."""
+    global _ANGLES
+    if _ANGLES is None:
+        _ANGLES = _Angles()
+    return _ANGLES
+
+
 def _neighbour_max(a):
     """Largest value of each cell of ``a`` (rows: elevation, columns: azimuth) and its eight neighbours."""
     b = np.maximum(a, np.maximum(np.roll(a, 1, axis=1), np.roll(a, -1, axis=1)))
@@ -364,10 +446,15 @@ class _UniformTable:
     upper), so that the bilinear value is ``c0 + ta d01 + te (e + ta f)`` with one gather per point and
     height. The rows are padded by a constant cell below and above (the poles: an elevation rounded just
     past +-90 deg reads the pole's gain), and the columns run round the azimuth as far as needed that an
-    azimuth in [-180, 180] deg needs no modulo. c0 is raised by the bound of what the rational arctan,
-    the float32 weights and arithmetic can lose (see :data:`_TABLE_ANGLE_ERR_RAD`,
-    :data:`_TABLE_WEIGHT_SPACINGS`, :data:`_TABLE_F32_REL`), so that the result is never below the float64
-    bilinear value of patterns.table_gain.
+    azimuth in [-180, 180] deg needs no modulo. c0 is raised by the bound of what the float32 angles,
+    weights and arithmetic can lose (see :data:`_TABLE_ANGLE_ERR_RAD`, :data:`_TABLE_WEIGHT_SPACINGS`,
+    :data:`_TABLE_F32_REL`), so that the result is never below the float64 bilinear value of
+    patterns.table_gain.
+
+    Angles come in radians (float32, :class:`_Angles`): azimuth ``az`` in [-pi, pi] to the cell
+    coordinate ``az / da + offset`` (:meth:`columns`), elevation ``el`` in [-pi/2, pi/2] to
+    ``el / de + oe`` (:meth:`at_elevation`), the integer part of oe taken into the gather's start
+    (``cells`` from row ``oe_int`` on) rather than added to every value.
     """
 
     @staticmethod
@@ -387,16 +474,17 @@ class _UniformTable:
         c0, c1, c2, c3 = g[:-1], g[:-1][:, i1], g[1:], g[1:][:, i1]
         d01, e, f = c1 - c0, c2 - c0, (c3 - c2) - (c1 - c0)
         # cell coordinates: xa = az / da + offset, column c holding the cell of table azimuth c mod n_az;
-        # the offset (column_offset) is brought into [n_az / 2 + 1, 3 n_az / 2 + 1), so that xa lies in
-        # [1, 2 n_az + 2) for az in [-180, 180]; xe = el / de + oe
+        # the offset (column_offset) is brought into [n_az / 2 + 2, 3 n_az / 2 + 2), so that xa lies in
+        # [2, 2 n_az + 2) for az in [-180, 180] (a column at least 1 even where rounding reaches below 2);
+        # xe = el / de + oe
         self.da, self.de = 360.0 / n_az, 180.0 / (n_el - 1)
         self.n_az, self.a0 = n_az, float(a[0])
         self.oe = 90.0 / self.de + 1.0                     # + 1: the padding row below
         self.n_col = 2 * n_az + 3
         # error bound of the weights in cell units: the largest coordinate's float32 spacing times the
-        # allowance, and the angle error of the polynomial arctan. A weight off by w may put the point in
-        # the neighbouring cell, whose slope then counts: the slopes are the largest of each cell and its
-        # eight neighbours (azimuth round the circle, elevation up to the poles).
+        # allowance, and the angle error. A weight off by w may put the point in the neighbouring cell,
+        # whose slope then counts: the slopes are the largest of each cell and its eight neighbours
+        # (azimuth round the circle, elevation up to the poles).
         wa = (_TABLE_WEIGHT_SPACINGS * float(np.spacing(_F32(self.n_col)))
               + _TABLE_ANGLE_ERR_RAD / math.radians(self.da))
         we = (_TABLE_WEIGHT_SPACINGS * float(np.spacing(_F32(n_el + 1)))
@@ -418,60 +506,44 @@ class _UniformTable:
         up = c32[:, 0].astype(float) < cells[:, 0]
         c32[up, 0] = np.nextafter(c32[up, 0], _F32(np.inf))
         self.cells = c32
+        # radians to cells; the elevation offset's integer part taken into the gather's start (every column
+        # index is at least n_rows and every row at least -oe_int, so the index stays >= 0)
         self.sa, self.se = _F32(180.0 / math.pi / self.da), _F32(180.0 / math.pi / self.de)
-        self.oe32 = _F32(self.oe)
-        # 2 atan(v) in cell units, and a quarter turn in azimuth cells
-        self.atan_a = _atan_terms(2.0 * float(self.sa))
-        self.atan_e = _atan_terms(2.0 * float(self.se))
-        self.quarter_a = _F32(0.5 * math.pi * float(self.sa))
+        self.oe_int = int(math.floor(self.oe))
+        self.oe_frac = _F32(self.oe - self.oe_int)
+        self.cells_from_oe = self.cells[self.oe_int:]
 
     def column_offset(self, less_deg: float = 0.0) -> np.float32:
         """The offset that puts azimuth ``az - less_deg`` of the table at cell coordinate ``az / da + offset``."""
-        lo = 0.5 * self.n_az + 1.0
+        lo = 0.5 * self.n_az + 2.0
         return _F32((-(less_deg + self.a0) / self.da - lo) % self.n_az + lo)
 
-    def columns_xy(self, fwd, rgt, rho, offset, abs_rgt=None):
-        """Columns (float32, times ``n_rows``) and weights of the azimuths ``atan2(rgt, fwd)`` of float32
-        components ``fwd``, ``rgt`` (``rho``: their length, made at least ``sqrt(_TINY_M2)``; ``offset``: from
-        :meth:`column_offset`; ``abs_rgt``: ``|rgt|`` if known).
-
-        ``fwd`` must not be -0.0 where ``rgt`` is 0 (add 0.0 to it): the azimuth there is 0, as arctan2 gives.
-        """
-        # from the nearer of the forward and backward axes: alpha = 2 atan(|rgt| / (rho + |fwd|)) in [0, pi/2]
-        v = np.abs(fwd)
-        v += rho
-        np.divide(np.abs(rgt) if abs_rgt is None else abs_rgt, v, out=v)
-        al = _atan_scaled(v, self.atan_a)
-        q = self.quarter_a
-        # behind (fwd < 0): pi - alpha; then the side of rgt
-        np.subtract(q, al, out=al)
-        np.copysign(al, fwd, out=al)
-        np.subtract(q, al, out=al)
-        np.copysign(al, rgt, out=al)
-        al += offset
-        col = np.floor(al)
-        al -= col
+    def columns(self, az, offset):
+        """Columns (float32, times ``n_rows``) and weights of azimuths ``az`` [rad] in [-pi, pi] (float32,
+        overwritten by the weights; ``offset`` from :meth:`column_offset`)."""
+        az *= self.sa
+        az += offset
+        col = np.floor(az)
+        az -= col                                          # exact (Sterbenz)
         col *= _F32(self.n_rows)                           # exact: integers below 2^24 (see fits)
-        return col, al
+        return col, az
 
-    def at_half_tangent(self, v, col, ta, out) -> None:
-        """``out`` = G / (4 pi) at elevations ``2 atan(v)`` (``v`` in [-1, 1], float32, overwritten), the
-        columns and weights ``ta`` (broadcast: heights x points against points)."""
-        xe = _atan_scaled(v, self.atan_e)
-        xe += self.oe32
-        self._lookup(xe, col, ta, out)
-
-    def _lookup(self, xe, col, ta, out) -> None:
-        te = np.floor(xe)
-        xe -= te                                           # the elevation weight
+    def at_elevation(self, el, col, ta, out) -> None:
+        """``out`` = G / (4 pi) at elevations ``el`` [rad] in [-pi/2, pi/2] (float32, overwritten), in the
+        columns ``col`` with weights ``ta`` (broadcast: heights x points against points)."""
+        el *= self.se
+        if self.oe_frac:
+            el += self.oe_frac
+        te = np.floor(el)
+        el -= te                                           # the elevation weight (exact)
         te += col                                          # exact: integers below 2^24 (see fits)
-        cb = np.take(self.cells, te.astype(np.int32), axis=0)
+        cb = np.take(self.cells_from_oe, te.astype(np.intp), axis=0)
         np.multiply(cb[..., 3], ta, out=te)
         te += cb[..., 2]
-        te *= xe
-        np.multiply(cb[..., 1], ta, out=xe)
-        xe += cb[..., 0]
-        np.add(te, xe, out=out)
+        te *= el
+        np.multiply(cb[..., 1], ta, out=el)
+        el += cb[..., 0]
+        np.add(te, el, out=out)
 
 
 class _Block:
@@ -532,6 +604,17 @@ class _Block:
     def offsets(self, x0: float, y0: float):
         """``(px - x0, py - y0)`` per point (float64, flat)."""
         dx, dy = self._offsets(x0, y0)
+        if self.gx is None:
+            return dx, dy
+        shape = (self.gy.size, self.gx.size)
+        return np.broadcast_to(dx, shape).reshape(-1), np.broadcast_to(dy[:, None], shape).reshape(-1)
+
+    def offsets32(self, x0: float, y0: float):
+        """``(px - x0, py - y0)`` per point in float32 (flat; -0.0 made +0.0)."""
+        dx, dy = self._offsets(x0, y0)
+        dx, dy = dx.astype(_F32), dy.astype(_F32)
+        dx += _F32(0.0)
+        dy += _F32(0.0)
         if self.gx is None:
             return dx, dy
         shape = (self.gy.size, self.gx.size)
@@ -953,17 +1036,17 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
         # Bilinear on the linear gain, as patterns.table_gain, in single precision, never below it
         # (_UniformTable). All heights at once (``at.all_heights``: dz (H, 1), out and d2 (H, P)): the
         # per-call overhead of the few numpy operations per height is as large as their work. The angles
-        # come from the half-angle identity and a polynomial arctan (_ATAN_POLY; its error is within the
-        # lift): elevation 2 atan(up / (R + rho')), azimuth from the nearer of the forward and backward
-        # axes, with rho' the length of the horizontal part in the antenna frame. Untilted, the azimuth
-        # column and weight do not depend on the height and are found once per point; per height only the
-        # elevation, one gather and the interpolation. Tilted, the direction is rotated into the antenna
-        # frame from the height-independent forward and right parts, as the tilted beam does.
+        # (_Angles, within the lift): untilted, the azimuth atan2(east, north) of the point and its column
+        # and weight are found once per point, and per height only the elevation atan(dz / rho), one
+        # gather and the interpolation. Tilted, the direction is rotated into the antenna frame from the
+        # height-independent forward and right parts, as the tilted beam does: azimuth atan2(right,
+        # forward), elevation atan(up / rho') with rho' the length of the horizontal part in that frame.
         look = None if tables is None else tables.get(id(pat.table))
         if look is None:
             look = _UniformTable(pat.table)
             if tables is not None:
                 tables[id(pat.table)] = look          # the groups keep the table alive meanwhile
+        angles = _angles()
         a_t = math.radians(g.tilt_deg)
         st32, ct32 = _F32(math.sin(a_t)), _F32(math.cos(a_t))
         tiny = _F32(_TINY_M2)
@@ -974,15 +1057,15 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
             def prepare(blk):
                 # the bearing from north (dx, dy: +0.0 at the centre, never -0.0) less the antenna's azimuth
                 rho2 = base(blk)
-                dx, dy = blk.offsets(g.x_m, g.y_m)
+                dx, dy = blk.offsets32(g.x_m, g.y_m)
                 rho = rho2 + tiny
                 np.sqrt(rho, out=rho)
-                return (rho2, rho, *look.columns_xy(dy.astype(_F32), dx.astype(_F32), rho, off))
+                return (rho2, rho, *look.columns(angles.atan2(dx, dy), off))
 
             def at(s, dz, out, d2):
                 rho2, rho, col, ta = s
-                dz32 = dz.astype(_F32)
-                _table_at(look, rho2, dz32, rho, dz32, col, ta, out, d2)
+                look.at_elevation(angles.atan_ratio(dz.astype(_F32), rho), col, ta, out)
+                out /= d2
             at.all_heights = True
             return prepare, at
 
@@ -995,18 +1078,19 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
             hor += _F32(0.0)                                # no -0.0 (see below)
             rgt2 = rgt * rgt
             rgt2 += tiny
-            return rho2, rgt, rgt2, hor * ct32, hor * (-st32), np.abs(rgt)
+            return rho2, rgt, rgt2, hor * ct32, hor * (-st32)
 
         def at(s, dz, out, d2):
-            rho2, rgt, rgt2, hor_c, hor_s, abs_rgt = s
+            rho2, rgt, rgt2, hor_c, hor_s = s
             dz32 = dz.astype(_F32)
             fwd = hor_c + dz32 * st32                       # not -0.0: the azimuth of the up axis is 0
+            col, ta = look.columns(angles.atan2(rgt, fwd), off)
             up = hor_s + dz32 * ct32
-            flat = fwd * fwd                                # rho'^2 + tiny
-            flat += rgt2
-            np.sqrt(flat, out=flat)
-            col, ta = look.columns_xy(fwd, rgt, flat, off, abs_rgt)
-            _table_at(look, rho2, dz32, flat, up, col, ta, out, d2)   # R^2: a rotation keeps lengths
+            fwd *= fwd                                      # rho'^2 + tiny
+            fwd += rgt2
+            np.sqrt(fwd, out=fwd)
+            look.at_elevation(angles.atan_ratio(up, fwd), col, ta, out)
+            out /= d2
         at.all_heights = True
         return prepare, at
 
@@ -1262,18 +1346,6 @@ def transmitter_ratios(emitters: Sequence[SiteEmitter], x_m, y_m, heights_m, *,
         per, _ = _chunk_pass(names, groups, evaluators, blk, heights, per_transmitter=True)
         out[:, :, start:stop] = per.max(axis=2)
     return names, out
-
-
-def _table_at(look, rho2, dz32, flat, up, col, ta, out, d2) -> None:
-    """Uniform-table gain over d^2 into ``out``: the elevation by its half tangent up / (R + flat) in [-1, 1]
-    (R^2 = rho2 + dz^2; flat the horizontal distance in the antenna's own frame), then the table's
-    ``at_half_tangent`` in the columns ``col`` (weights ``ta``) already chosen by azimuth."""
-    v = rho2 + dz32 * dz32
-    np.sqrt(v, out=v)
-    v += flat
-    np.divide(up, v, out=v)
-    look.at_half_tangent(v, col, ta, out)
-    out /= d2
 
 
 def limit_equivalent_w_m2(limits, power_w: float, pep_w: float) -> float:
