@@ -583,6 +583,17 @@ class _Block:
             self._py = np.repeat(self.gy, self.gx.size)
         return self._py
 
+    def rows_within(self, x0: float, y0: float, lim_m2: float) -> slice:
+        """The slice of the block's points that holds every point with ``(px - x0)^2 + (py - y0)^2 < lim_m2``
+        (on a grid: the rows whose ``(py - y0)^2`` is below it; otherwise all points)."""
+        if self.gx is None:
+            return slice(None)
+        dy = self.gy - y0
+        rows = np.flatnonzero(dy * dy < lim_m2 * (1.0 + 1e-5))     # a superset: the points are tested after
+        if not rows.size:
+            return slice(0, 0)
+        return slice(int(rows[0]) * self.gx.size, (int(rows[-1]) + 1) * self.gx.size)
+
     def points(self, idx):
         """The coordinates of the points ``idx`` (flat indices into the block)."""
         if self.gx is None:
@@ -679,8 +690,13 @@ class _BlockNearest:
             for vec, half in clamped:
                 a, c = linear(vec, origin)
                 if c == 0.0:
-                    e = a - np.clip(a, -half, half)
-                    const = np.square(e) if const is None else const + np.square(e)
+                    e2 = _clamped_square(a, f(half))
+                    if const is None:
+                        const = e2
+                    elif isinstance(const, np.ndarray) and const.shape == np.broadcast_shapes(const.shape, np.shape(e2)):
+                        const += e2
+                    else:
+                        const = const + e2
                 else:
                     cterms.append((a, c, f(half)))
             if const is None:
@@ -723,17 +739,28 @@ class _BlockNearest:
         return best
 
 
+def _clamped_square(t, half):
+    """``(t - clip(t, -half, half))^2`` as ``max(|t| - half, 0)^2``, in place in ``t`` when it is an array:
+    the same bits (beyond ``-half``, ``t + half`` and ``-t - half`` are the same rounding of opposite
+    numbers; within, both are +0), in four passes without a temporary."""
+    if not isinstance(t, np.ndarray) or t.ndim == 0:
+        return np.square(t - np.clip(t, -half, half))
+    np.abs(t, out=t)
+    t -= half
+    np.maximum(t, _F32(0.0), out=t)
+    np.square(t, out=t)
+    return t
+
+
 def _add_square(d2, const, t, half):
     """``d2 + t^2`` (``half``: ``d2 + (t - clip(t, -half, half))^2``), in place where ``d2`` or ``t`` is a fresh
     array of the full shape (never in ``const``)."""
     if not isinstance(t, np.ndarray) or t.ndim == 0:     # a vertical projection at one height: a scalar
         t = np.square(t if half is None else t - np.clip(t, -half, half))
-    else:
-        if half is not None:
-            m = np.maximum(t, -half)
-            np.minimum(m, half, out=m)
-            t -= m
+    elif half is None:
         np.square(t, out=t)
+    else:
+        t = _clamped_square(t, half)
     if d2 is not const:
         d2 += t
         return d2
@@ -1200,12 +1227,16 @@ def _nearest_part_pass(grp: _Group, state, at, blk: _Block, heights, geo, near) 
     thr = max(grp.near_field_m, MIN_FAR_FIELD_DIST_M)
     dzmin = max(min(abs(h - grp.height_m) for h in heights) - grp.reach_m, 0.0)
     lim = (thr + grp.reach_m) ** 2 * (1.0 + 1e-6) - dzmin * dzmin   # relative margin for float32 rounding
-    cand = np.flatnonzero(rho2 < lim) if lim > 0.0 else None
     idx = None
-    if cand is not None and cand.size:
-        dc = d2s[:, cand] if all_heights else np.stack([d2[cand] for d2 in d2s])
-        near[cand[(dc < _F32(grp.near_field_m ** 2)).any(axis=0)]] = True
-        idx = cand[(dc < _F32(thr * thr)).any(axis=0)]
+    if lim > 0.0:
+        # the candidates' least squared distance over the heights (on a grid, over the rows that hold any)
+        sl = blk.rows_within(grp.x_m, grp.y_m, lim)
+        inside = rho2[sl] < lim
+        if inside.any():
+            dmin = np.min(d2s[:, sl], axis=0) if all_heights else np.minimum.reduce([d2[sl] for d2 in d2s])
+            base_i = 0 if sl.start is None else sl.start
+            near[base_i + np.flatnonzero(inside & (dmin < _F32(grp.near_field_m ** 2)))] = True
+            idx = base_i + np.flatnonzero(inside & (dmin < _F32(thr * thr)))
     k_peak = _F32(10.0 ** (grp.pattern.peak_gain_dbi / 10.0) / _FOUR_PI)
     near_d2 = None
     if part is not None and idx is not None and idx.size:
