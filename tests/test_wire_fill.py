@@ -223,3 +223,18 @@ def test_diameter_equals_the_largest_pairwise_distance():
     clouds.append(np.column_stack([np.cos(t), np.sin(t), 0 * t]))
     for c in clouds:
         assert S._diameter(c) == float(np.max(np.linalg.norm(c[:, None] - c[None], axis=-1)))
+
+
+def test_mirroring_by_tiles_copies_exactly_what_the_mask_copies():
+    """solver._mirror_upper (tiles) against the boolean-mask assignment it replaces, bit for bit, for sizes
+    below, at and above the tile and not multiples of it."""
+    rng = np.random.default_rng(11)
+    for n in (1, 2, 5, 127, 128, 129, 300, 513):
+        z = rng.normal(size=(n, n)) + 1j * rng.normal(size=(n, n))
+        ref = z.copy()
+        low = np.tril(np.ones((n, n), dtype=bool), -1)
+        ref[low] = ref.T[low]
+        S._mirror_upper(z)
+        assert np.array_equal(z, ref)
+        S._mirror_upper(z, tile=7)
+        assert np.array_equal(z, ref)
