@@ -129,7 +129,7 @@ def test_block_nearest_part_is_extent_nearest_part_in_single_precision(name):
     ref = NearestPart(ext, blk.px, blk.py, dtype=np.float32, parts=parts)
     zs = np.array([[h] for h in (-3.0, 0.0, 0.5, 2.6, 9.0)], dtype=np.float32)
     for b in (blk, flat):
-        near = grid._BlockNearest(parts, b)
+        near = grid._BlockNearest(grid._NearestPlan(parts), b)
         got_all = near.squared_m2(zs)
         want_all = np.broadcast_to(ref.squared_m2(zs), got_all.shape)
         assert got_all.dtype == np.float32 and np.array_equal(got_all, want_all)

@@ -146,14 +146,27 @@ class _Group:
     reach_m: float = 0.0             # largest distance from the centre of radiation to any part [m]
 
     parts: tuple | None = None       # extent.structure_parts, computed once
+    plan: "_NearestPlan | None" = None  # their float32 constants, made once
 
     def __post_init__(self) -> None:
         if self.extent is not None:
             self.reach_m = farthest_distance_m(self.extent, (self.x_m, self.y_m, self.height_m))
             self.parts = structure_parts(self.extent)
+            self.plan = _NearestPlan(self.parts)
+
+    def height_columns(self, heights) -> tuple:
+        """The heights as columns (H, 1): z (float32), (z - height)^2 (float32, as the evaluators round R^2)
+        and z - height (float64); kept for the last heights asked for."""
+        cached = self.__dict__.get("_cols")
+        if cached is None or cached[0] != heights:
+            cached = (heights, (np.array([[h] for h in heights], dtype=_F32),
+                                np.array([[(h - self.height_m) ** 2] for h in heights], dtype=_F32),
+                                np.array([[h - self.height_m] for h in heights])))
+            self.__dict__["_cols"] = cached
+        return cached[1]
 
     def nearest_part(self, blk) -> "_BlockNearest | None":
-        return None if self.extent is None else _BlockNearest(self.parts, blk)
+        return None if self.extent is None else _BlockNearest(self.plan, blk)
 
 
 def _groups(emitters: Sequence[SiteEmitter]) -> tuple[list[str], list[_Group]]:
@@ -185,6 +198,9 @@ def _groups(emitters: Sequence[SiteEmitter]) -> tuple[list[str], list[_Group]]:
 
 
 _F32 = np.float32
+_umath_clip = getattr(np._core.umath, "clip", None) if hasattr(np, "_core") else None
+if _umath_clip is None:                    # numpy < 2: the public function (slower by its Python wrapper)
+    _umath_clip = np.clip
 #: Relative margin added to the single-precision tilted-beam kernel so that its rounding (at most 5e-6
 #: relative, tested) never understates the pattern function.
 _BEAM_F32_MARGIN = 2e-5
@@ -640,8 +656,10 @@ class _Block:
         dy += _F32(0.0)
         if self.gx is None:
             return dx, dy
-        shape = (self.gy.size, self.gx.size)
-        return np.broadcast_to(dx, shape).reshape(-1), np.broadcast_to(dy[:, None], shape).reshape(-1)
+        fx, fy = np.empty((self.gy.size, self.gx.size), dtype=_F32), np.empty((self.gy.size, self.gx.size), dtype=_F32)
+        fx[...] = dx
+        fy[...] = dy[:, None]
+        return fx.reshape(-1), fy.reshape(-1)
 
     def lin(self, x0: float, y0: float, cx: float, cy: float):
         """``dx cx + dy cy`` per point (float64, flat), with ``dx = px - x0``, ``dy = py - y0``."""
@@ -658,6 +676,29 @@ class _Block:
         return np.add.outer(dy * dy, dx * dx).reshape(-1)
 
 
+class _NearestPlan:
+    """The constants of a structure's nearest-part distance (rfsafe.antenna.extent.structure_parts) in float32,
+    made once per antenna: a block then does array operations only (:class:`_BlockNearest`)."""
+
+    __slots__ = ("ref", "quadratic", "discs", "spheres")
+
+    def __init__(self, parts) -> None:
+        ref, quadratic, discs, spheres = parts
+        f = _F32
+        self.ref = (float(ref[0]), float(ref[1]))
+        self.quadratic = []
+        for origin, plain, clamped in quadratic:
+            terms = []
+            for vec, half in [(v, None) for v in plain] + list(clamped):
+                vx, vy, vz = (float(t) for t in vec)
+                off = -float(np.dot(origin, vec))      # extent._Linear, as NearestPart rounds them
+                terms.append((vx == 0.0 and vy == 0.0, f(vx), f(vy), f(off), f(vz),
+                              None if half is None else f(half)))
+            self.quadratic.append(terms)
+        self.discs = [(f(c[0]), f(c[1]), f(c[2]), f(r)) for c, r in discs]
+        self.spheres = [(f(c[0]), f(c[1]), f(c[2]), f(r)) for c, r in spheres]
+
+
 class _BlockNearest:
     """Squared distances from the points of a :class:`_Block` to the nearest part of a structure, in single
     precision: :class:`rfsafe.antenna.extent.NearestPart` with ``dtype=float32`` (the same operations on
@@ -666,75 +707,80 @@ class _BlockNearest:
     and the per-height parts computed in place.
     """
 
-    __slots__ = ("_quadratic", "_discs", "_spheres")
+    __slots__ = ("_quadratic", "_discs", "_spheres", "_n")
 
-    def __init__(self, parts, blk: _Block) -> None:
-        ref, quadratic, discs, spheres = parts
+    def __init__(self, plan: _NearestPlan, blk: _Block) -> None:
         f = _F32
+        n = self._n = blk.size
         if blk.gx is None:
-            x = (np.asarray(blk.px, dtype=float) - ref[0]).astype(f)
-            y = (np.asarray(blk.py, dtype=float) - ref[1]).astype(f)
-            flat = lambda a: a  # noqa: E731
+            x = (np.asarray(blk.px, dtype=float) - plan.ref[0]).astype(f)
+            y = (np.asarray(blk.py, dtype=float) - plan.ref[1]).astype(f)
+            grid = False
         else:
-            x = (blk.gx - ref[0]).astype(f)[None, :]
-            y = (blk.gy - ref[1]).astype(f)[:, None]
-            flat = lambda a: a.reshape(-1)  # noqa: E731
+            x = (blk.gx - plan.ref[0]).astype(f)
+            y = (blk.gy - plan.ref[1]).astype(f)
+            grid = True
 
-        def linear(vec, origin):
-            """``(a, c)`` of extent._Linear: a per point (or a scalar), c the vertical coefficient."""
-            vx, vy, vz = (float(t) for t in vec)
-            off = -float(np.dot(origin, vec))
-            if vx == 0.0 and vy == 0.0:
-                return f(off), f(vz)
-            a = flat(x * f(vx) + y * f(vy))
-            a += f(off)
-            return a, f(vz)
+        def per_point(ax, ay):
+            """``ax + ay`` per point: an outer sum on a grid (rows of y, columns of x), flat."""
+            return np.add.outer(ay, ax).reshape(-1) if grid else ax + ay
 
         self._quadratic = []
-        for origin, plain, clamped in quadratic:
-            const, terms, cterms = None, [], []
-            for vec in plain:
-                a, c = linear(vec, origin)
-                if c == 0.0:
-                    const = np.square(a) if const is None else const + np.square(a)
+        for terms in plan.quadratic:
+            const, per_height, cterms = None, [], []
+            for vertical, vx, vy, off, c, half in terms:
+                if vertical:
+                    a = off                               # a scalar: the projection has no horizontal part
                 else:
-                    terms.append((a, c))
-            for vec, half in clamped:
-                a, c = linear(vec, origin)
-                if c == 0.0:
-                    e2 = _clamped_square(a, f(half))
-                    if const is None:
-                        const = e2
-                    elif isinstance(const, np.ndarray) and const.shape == np.broadcast_shapes(const.shape, np.shape(e2)):
-                        const += e2
-                    else:
-                        const = const + e2
+                    a = per_point(x * vx, y * vy)
+                    a += off
+                if c != 0.0:
+                    (per_height if half is None else cterms).append((a, c, half))
+                    continue
+                e2 = np.square(a) if half is None else _clamped_square(a, half)
+                if const is None:
+                    const = e2
+                elif isinstance(const, np.ndarray) and const.shape == (n,):
+                    const += e2
                 else:
-                    cterms.append((a, c, f(half)))
+                    const = const + e2
             if const is None:
-                const = np.zeros(blk.size, dtype=f)
-            self._quadratic.append((np.broadcast_to(const, (blk.size,)), terms, cterms))
+                const = np.zeros(n, dtype=f)
+            elif np.shape(const) != (n,):
+                const = np.full(n, const, dtype=f)
+            self._quadratic.append((const, per_height, cterms))
         self._discs = []
-        for c, r in discs:
-            dx, dy = x - f(c[0]), y - f(c[1])
-            rho = flat(np.sqrt(dx * dx + dy * dy))
-            rho -= f(r)
+        for cx, cy, cz, r in plan.discs:
+            dx, dy = x - cx, y - cy
+            rho = np.sqrt(per_point(dx * dx, dy * dy))
+            rho -= r
             np.maximum(rho, 0.0, out=rho)
-            self._discs.append((rho * rho, f(c[2])))
+            self._discs.append((rho * rho, cz))
         self._spheres = []
-        for c, r in spheres:
-            dx, dy = x - f(c[0]), y - f(c[1])
-            self._spheres.append((flat(dx * dx + dy * dy), f(c[2]), f(r)))
+        for cx, cy, cz, r in plan.spheres:
+            dx, dy = x - cx, y - cy
+            self._spheres.append((per_point(dx * dx, dy * dy), cz, r))
 
     def squared_m2(self, z_m):
         """Squared distances [m^2] at heights ``z_m`` (float32: a scalar, or (H, 1) for every height at once)."""
         best = None
+        n = self._n
         for const, terms, cterms in self._quadratic:
             d2 = const
-            for a, c in terms:
-                d2 = _add_square(d2, const, a + c * z_m, None)
-            for a, c, half in cterms:
-                d2 = _add_square(d2, const, a + c * z_m, half)
+            for a, c, half in terms + cterms:
+                t = a + c * z_m
+                if not isinstance(t, np.ndarray) or t.ndim == 0:   # a vertical projection at one height
+                    t = np.square(t if half is None else t - np.clip(t, -half, half))
+                elif half is None:
+                    np.square(t, out=t)
+                else:
+                    t = _clamped_square(t, half)
+                if d2 is not const:
+                    d2 += t
+                elif np.ndim(t) and t.shape[-1] == n:
+                    d2 = np.add(const, t, out=t)
+                else:
+                    d2 = const + t
             best = d2 if best is None else np.minimum(best, d2)
         for rho2, cz in self._discs:
             d2 = np.square(z_m - cz)
@@ -752,33 +798,13 @@ class _BlockNearest:
 
 
 def _clamped_square(t, half):
-    """``(t - clip(t, -half, half))^2`` as ``max(|t| - half, 0)^2``, in place in ``t`` when it is an array:
-    the same bits (beyond ``-half``, ``t + half`` and ``-t - half`` are the same rounding of opposite
-    numbers; within, both are +0), in four passes without a temporary."""
+    """``(t - clip(t, -half, half))^2`` (as extent.NearestPart), in place in ``t`` when it is an array."""
     if not isinstance(t, np.ndarray) or t.ndim == 0:
         return np.square(t - np.clip(t, -half, half))
-    np.abs(t, out=t)
-    t -= half
-    np.maximum(t, _F32(0.0), out=t)
+    m = _umath_clip(t, -half, half)
+    t -= m
     np.square(t, out=t)
     return t
-
-
-def _add_square(d2, const, t, half):
-    """``d2 + t^2`` (``half``: ``d2 + (t - clip(t, -half, half))^2``), in place where ``d2`` or ``t`` is a fresh
-    array of the full shape (never in ``const``)."""
-    if not isinstance(t, np.ndarray) or t.ndim == 0:     # a vertical projection at one height: a scalar
-        t = np.square(t if half is None else t - np.clip(t, -half, half))
-    elif half is None:
-        np.square(t, out=t)
-    else:
-        t = _clamped_square(t, half)
-    if d2 is not const:
-        d2 += t
-        return d2
-    if np.ndim(t) and t.shape == np.broadcast_shapes(t.shape, np.shape(d2)):
-        return np.add(d2, t, out=t)
-    return d2 + t
 
 
 def _grid_axes(x, y):
@@ -1071,7 +1097,8 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
                 out /= r2 if d2 is None else d2
         return prepare, at
 
-    if kind == "table" and _UniformTable.fits(pat.table):
+    if kind == "table" and ((tables is not None and id(pat.table) in tables)
+                            or _UniformTable.fits(pat.table)):
         # Bilinear on the linear gain, as patterns.table_gain, in single precision, never below it
         # (_UniformTable). All heights at once (``at.all_heights``: dz (H, 1), out and d2 (H, P)): the
         # per-call overhead of the few numpy operations per height is as large as their work. The angles
@@ -1244,10 +1271,11 @@ def _nearest_part_pass(grp: _Group, state, at, blk: _Block, heights, geo, near) 
     part = grp.nearest_part(blk)
     rho2 = state[0]
     all_heights = getattr(at, "all_heights", False)
+    cols = grp.height_columns(heights)
     if all_heights:                     # the evaluator takes every height at once, with d^2 (H, P)
-        d2s = np.broadcast_to(rho2 + np.array([[(h - grp.height_m) ** 2] for h in heights], dtype=_F32)
-                              if part is None else part.squared_m2(np.array([[h] for h in heights], dtype=_F32)),
-                              (len(heights), rho2.size))
+        d2s = rho2 + cols[1] if part is None else part.squared_m2(cols[0])
+        if d2s.shape != (len(heights), rho2.size):
+            d2s = np.broadcast_to(d2s, (len(heights), rho2.size))
     else:
         d2s = ([rho2 + _F32((h - grp.height_m) ** 2) for h in heights] if part is None   # as the evaluators round R^2
                else [part.squared_m2(_F32(h)) for h in heights])
@@ -1273,7 +1301,9 @@ def _nearest_part_pass(grp: _Group, state, at, blk: _Block, heights, geo, near) 
         near_d2 = [p64.squared_m2(h) for h in heights]
     with np.errstate(divide="ignore", invalid="ignore"):
         if all_heights:
-            at(state, np.array([[h - grp.height_m] for h in heights]), geo, d2s)
+            at(state, cols[2], geo, d2s)
+            if idx is None or not idx.size:
+                return
         for hi, (out, h, d2) in enumerate(zip(geo, heights, d2s)):
             if not all_heights:
                 at(state, h - grp.height_m, out, None if part is None else d2)
