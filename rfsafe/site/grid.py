@@ -1375,6 +1375,10 @@ def ratio_grid(emitters: Sequence[SiteEmitter], x_m, y_m, heights_m, *, chunk_po
         Evaluation heights above ground [m]; the worst is kept.
     chunk_points : int
         Points per block; memory is about ``8 (heights x antennas + 4 heights) x chunk_points`` bytes.
+        Points that form a regular grid (``np.meshgrid(gx, gy)``, flattened or not; detected bit for bit)
+        are taken in blocks of whole rows (or pieces of a row longer than this), with the terms that
+        depend on x alone and on y alone formed once per column and row (:class:`_Block`): the same
+        results as the same points in any order.
     progress : callable, optional
         Called as ``progress(points_done, points_total)`` after every block.
 
