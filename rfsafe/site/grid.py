@@ -640,14 +640,6 @@ class _Block:
             self._d = d
         return d[2], d[3]
 
-    def offsets(self, x0: float, y0: float):
-        """``(px - x0, py - y0)`` per point (float64, flat)."""
-        dx, dy = self._offsets(x0, y0)
-        if self.gx is None:
-            return dx, dy
-        shape = (self.gy.size, self.gx.size)
-        return np.broadcast_to(dx, shape).reshape(-1), np.broadcast_to(dy[:, None], shape).reshape(-1)
-
     def offsets32(self, x0: float, y0: float):
         """``(px - x0, py - y0)`` per point in float32 (flat; -0.0 made +0.0)."""
         dx, dy = self._offsets(x0, y0)
