@@ -973,9 +973,20 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
         def prepare(blk):
             rho2 = blk.rho2(g.x_m, g.y_m)
             rho = np.sqrt(rho2)
+            fwd = blk.lin(g.x_m, g.y_m, sa, ca)
             with np.errstate(divide="ignore", invalid="ignore"):
-                cos_az = np.where(rho > 0.0, blk.lin(g.x_m, g.y_m, sa, ca) / rho, 1.0)
-                half = np.maximum(0.5 * (1.0 + cos_az), 0.0)    # rounding may give -1e-17 at the back
+                cos_az = np.where(rho > 0.0, fwd / rho, 1.0)
+                half = 0.5 * (1.0 + cos_az)
+                # near the back 1 + cos az cancels (within 1e-8 rad it rounds to 0, and a wide beam's lobe,
+                # 0.09 G0 there at 359 deg, fell to the floor): (rho + f)/(2 rho) = r^2/(2 rho (rho - f)), r the
+                # right component, exact there; used where half < 1e-3 (relative error of the plain form
+                # below 1e-13 elsewhere), as patterns.beam_gain does behind every beam
+                back = np.flatnonzero(half < 1e-3)
+                if back.size:
+                    rb, fb = rho[back], fwd[back]
+                    rt = blk.lin(g.x_m, g.y_m, ca, -sa)[back]
+                    half[back] = np.where(fb < 0.0, 0.5 * rt * rt / (rb * (rb - fb)), half[back])
+                half = np.maximum(half, 0.0)
                 amp = (p * np.log(half)).astype(_F32)
                 inv_rho2 = (1.0 / rho2).astype(_F32)            # inf on the up axis (rho = 0)
             return rho2.astype(_F32), amp, inv_rho2
