@@ -888,8 +888,10 @@ def _wire_distance_m(solution, points: np.ndarray) -> np.ndarray:
 def _wire_size_m(solution) -> float:
     """Largest dimension D [m] of the radiating wire structure (greatest distance between two nodes), with its
     image over a perfect ground (the currents that radiate, Balanis Sec. 4.7)."""
+    from rfsafe.antenna.wire.geometry import unique_rows
+
     st = solution.structure
-    nodes = np.unique(np.concatenate([st.start_m, st.end_m]), axis=0)
+    nodes = unique_rows(np.concatenate([st.start_m, st.end_m]))
     if st.ground:
         nodes = np.concatenate([nodes, nodes * np.array([1.0, 1.0, -1.0])])
     return float(max(np.linalg.norm(nodes[i:i + 256, None, :] - nodes[None], axis=-1).max()
@@ -1032,6 +1034,7 @@ def _wire_compliance_distances(sols, limits, avg_ant, pep_ant: float, distances,
     import dataclasses
 
     from rfsafe.antenna.wire.fields import NEAR_SEGMENT_WAVELENGTHS
+    from rfsafe.antenna.wire.geometry import unique_ints, unique_rows
 
     st = sols[0].structure
     if st.length_m.max() > NEAR_SEGMENT_WAVELENGTHS * st.wavelength_m * (1 + 1e-9):
@@ -1039,8 +1042,8 @@ def _wire_compliance_distances(sols, limits, avg_ant, pep_ant: float, distances,
         return distances, [f"{d.environment} compliance distance {d.dist_m:.2f} m lies inside the near-field "
                            f"boundary {boundary_m:.2f} m: {NEAR_FIELD_FLAG} (the solver check needs segments of at "
                            "most lambda/20 on every wire)" for d in distances if d.dist_m < boundary_m]
-    nodes = np.unique(np.concatenate([st.start_m, st.end_m]), axis=0)
-    nodes = nodes[np.unique(np.linspace(0, len(nodes) - 1, min(_SHELL_NODES, len(nodes))).round().astype(int))]
+    nodes = unique_rows(np.concatenate([st.start_m, st.end_m]))
+    nodes = nodes[unique_ints(np.linspace(0, len(nodes) - 1, min(_SHELL_NODES, len(nodes))).round().astype(int))]
     r_min = max(0.05, 5 * float(st.radius_m.max()))
     # Shell points per radius and their fields at 1 W per (radius, solution), shared by the environments and
     # computed only when asked: a shell is over the limit as soon as one solution's fields are (the worse of

@@ -24,7 +24,7 @@ from rfsafe.errors import InputError, bad_value
 
 __all__ = ["Structure", "HalfMap", "build_structure", "segment_distances", "point_segment_distances",
            "DEFAULT_SEGMENTS_PER_WAVELENGTH", "MAX_SEGMENT_WAVELENGTHS", "MIN_SEGMENT_RADII",
-           "JOIN_TOLERANCE_M", "MAX_JUNCTION_RADIUS_RATIO"]
+           "JOIN_TOLERANCE_M", "MAX_JUNCTION_RADIUS_RATIO", "unique_ints", "unique_rows"]
 
 #: Default rule when a wire gives neither ``segments`` nor ``max_segment_m``: lambda/40.
 DEFAULT_SEGMENTS_PER_WAVELENGTH = 40
@@ -170,6 +170,40 @@ class Structure:
         if self.ground:
             m = np.array([1.0, 1.0, -1.0])
             yield self.start_m * m, self.end_m * m, self.radius_m, self.image_sign, self.image_distance_m
+
+
+def unique_ints(values) -> np.ndarray:
+    """``np.unique(values)`` of an integer array: its distinct values, sorted.
+
+    The same values by a sort and a comparison of neighbours: numpy's own ``np.unique`` (without
+    ``return_index``/``inverse``/``counts``) asks ``np.ma.is_masked`` first, which imports ``numpy.ma``
+    (about 5 ms) on its first call. Any other dtype is handed to ``np.unique``.
+    """
+    a = np.asarray(values)
+    if a.dtype.kind not in "iub":
+        return np.unique(a)
+    s = np.sort(a.ravel())
+    keep = np.empty(len(s), dtype=bool)
+    keep[:1] = True
+    np.not_equal(s[1:], s[:-1], out=keep[1:])
+    return s[keep]
+
+
+def unique_rows(rows) -> np.ndarray:
+    """``np.unique(rows, axis=0)`` of a 2-D float array: its distinct rows in lexicographic order.
+
+    The same rows by a lexicographic sort and a comparison of neighbours (without ``numpy.ma``, see
+    :func:`unique_ints`), for finite rows without a negative zero (where rows equal as numbers are equal
+    bit for bit, so which duplicate is kept does not matter); any other input is handed to ``np.unique``.
+    """
+    a = np.asarray(rows, dtype=float)
+    if a.ndim != 2 or not a.shape[1] or not np.all(np.isfinite(a)) or np.any((a == 0.0) & np.signbit(a)):
+        return np.unique(a, axis=0)
+    s = a[np.lexsort(a.T[::-1])]
+    keep = np.empty(len(s), dtype=bool)
+    keep[:1] = True
+    np.any(s[1:] != s[:-1], axis=1, out=keep[1:])
+    return s[keep]
 
 
 def point_segment_distances(points, a0, a1):

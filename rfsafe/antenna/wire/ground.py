@@ -56,6 +56,7 @@ from importlib import resources
 
 import numpy as np
 
+from rfsafe.antenna.wire.geometry import unique_ints
 from rfsafe.antenna.wire.kernel import ETA0_OHM, gauss_legendre_01
 
 __all__ = ["MIN_HEIGHT_WAVELENGTHS", "RCA_MIN_NUMERICAL_DISTANCE", "ReflectionApproximation", "ReflectionTable",
@@ -1064,7 +1065,7 @@ def _remainder_dipoles(st, k: float, seg_i: np.ndarray, points_m: np.ndarray):
 def _segment_dipoles(st, k: float, seg_i, nq_seg, use):
     """The per-segment rule: ``nq_seg`` Gauss-Legendre nodes on each segment where ``use``, moments I(s) w ds."""
     src, mom = [], []
-    for nq in np.unique(nq_seg[use]):
+    for nq in unique_ints(nq_seg[use]):
         sel = use & (nq_seg == nq)
         pts, w, f1, f2 = _segment_nodes(st, k, int(nq))
         cur = seg_i[sel, 0, None] * f1[sel] + seg_i[sel, 1, None] * f2[sel]     # (Ns_sel, Q) [A]

@@ -78,11 +78,24 @@ def gauss_legendre_01(n: int) -> tuple[np.ndarray, np.ndarray]:
     nodes, weights : ndarray (n,)
         Nodes in (0, 1) and weights summing to 1.
     """
-    x, w = np.polynomial.legendre.leggauss(n)
+    x, w = _leggauss(n)
     nodes, weights = 0.5 * (x + 1.0), 0.5 * w
     nodes.setflags(write=False)
     weights.setflags(write=False)
     return nodes, weights
+
+
+def _leggauss(n: int) -> tuple[np.ndarray, np.ndarray]:
+    """``numpy.polynomial.legendre.leggauss(n)`` (nodes and weights on [-1, 1]), bit for bit: from the stored
+    table (``legendre_table``, numpy's own output) where it holds n, else from numpy."""
+    from rfsafe.antenna.wire.legendre_table import HALF_RULES
+
+    half = HALF_RULES.get(n)
+    if half is None:
+        return np.polynomial.legendre.leggauss(n)
+    xh, wh = np.array(half[0]), np.array(half[1])
+    m = n // 2   # the nodes are antisymmetric and the weights symmetric, exactly (as numpy makes them)
+    return np.concatenate([xh, -xh[:m][::-1]]), np.concatenate([wh, wh[:m][::-1]])
 
 
 def sinh_rule(length_m, scale_m, n: int) -> tuple[np.ndarray, np.ndarray]:
@@ -231,10 +244,10 @@ def radiation_integrals(alpha, d, k):
     F(x) = int_0^d e^{jxz} dz = d e^{jxd/2} sinc(x d / 2), and shape 1 follows from z -> d - z.
     """
     s = np.sin(k * d)
-
-    def f(x):
-        return d * np.exp(0.5j * x * d) * np.sinc(x * d / (2.0 * np.pi))
-
-    j2 = (f(alpha + k) - f(alpha - k)) / (2j * s)
-    j1 = np.exp(1j * alpha * d) * (f(-alpha + k) - f(-alpha - k)) / (2j * s)
+    # F at the four arguments, stacked (one pass of the same elementwise operations, not four)
+    alpha_b, d_b = np.broadcast_arrays(alpha, d)
+    x = np.stack([alpha_b + k, alpha_b - k, -alpha_b + k, -alpha_b - k])
+    f = d_b * np.exp(0.5j * x * d_b) * np.sinc(x * d_b / (2.0 * np.pi))
+    j2 = (f[0] - f[1]) / (2j * s)
+    j1 = np.exp(1j * alpha * d) * (f[2] - f[3]) / (2j * s)
     return j1, j2

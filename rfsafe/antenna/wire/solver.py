@@ -43,7 +43,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from rfsafe.antenna.wire.geometry import Structure, build_structure
+from rfsafe.antenna.wire.geometry import Structure, build_structure, unique_ints
 from rfsafe.antenna.wire.kernel import (ETA0_OHM, gauss_legendre_01, radiation_integrals,
                                         segment_e_terms, sinh_rule)
 from rfsafe.antenna.wire.loads import load_impedances_ohm, loaded_geometry
@@ -353,7 +353,7 @@ def _translate_sums(ts: _TestSide, k: float, ta: dict, sb: dict, s0: np.ndarray)
     base[ia, ib] = start[inv]
     hv = np.empty((int(cnt.sum()), 2), dtype=complex)
     ra = ia[rep]
-    for a in np.unique(ra):                    # one test run at a time: one representative test segment
+    for a in unique_ints(ra):                    # one test run at a time: one representative test segment
         sel = np.flatnonzero(ra == a)
         pa = ta["first"][a]
         rows = np.concatenate([np.arange(start[i], start[i] + cnt[i]) for i in sel])
@@ -417,7 +417,7 @@ def _rows_into(blk, ts: _TestSide, k: float, src: dict, r0: int, r1: int, c0: in
         # rows of one direction at a time: they see the same non-parallel columns (the others' are not computed)
         ip, iq = ip[lo:hi], iq[lo:hi]
         tid = src["tid"][ip]
-        for t in np.unique(tid):
+        for t in unique_ints(tid):
             sel = tid == t
             gi, gq = ip[sel], iq[sel]
             rows, rpos = np.unique(gi, return_inverse=True)
@@ -832,7 +832,7 @@ def _run_basis_fill(z: np.ndarray, plan: dict, src: dict, sym: np.ndarray) -> No
     mm, nn = mm[good], nn[good]
     if not len(mm):
         return
-    pair = np.unique(mm * z.shape[1] + nn)
+    pair = unique_ints(mm * z.shape[1] + nn)
     mm, nn = pair // z.shape[1], pair % z.shape[1]
     a, b = plan["seg0"][mm], plan["seg0"][nn]
     base = toe["base"][trun[a], srun[b]]
@@ -1062,7 +1062,7 @@ def _power_table(k: float, ta: dict, sb: dict, tpts: np.ndarray, pts: np.ndarray
     base[ia, ib] = start[inv]
     kern = np.empty(int(cnt.sum()))
     ra = ia[rep]
-    for a in np.unique(ra):                             # one test run at a time, all its source runs together
+    for a in unique_ints(ra):                             # one test run at a time, all its source runs together
         sel = np.flatnonzero(ra == a)
         pa = ta["first"][a] * q
         off = np.concatenate([np.arange(-(mb[i] - 1), ma[i]) for i in sel])   # offsets i - j
