@@ -80,7 +80,7 @@ def _radiation_integrals_one_by_one(alpha, d, k):
     return j1, j2
 
 
-@pytest.mark.parametrize("shape", ["flat", "matrix", "scalar"])
+@pytest.mark.parametrize("shape", ["flat", "matrix", "scalar", "large"])
 def test_radiation_integrals_stacked_are_the_terms_one_by_one(shape):
     from rfsafe.antenna.wire.kernel import radiation_integrals
 
@@ -95,8 +95,152 @@ def test_radiation_integrals_stacked_are_the_terms_one_by_one(shape):
             alpha = k * rng.uniform(-1, 1, (int(rng.integers(1, 9)), 5))
             alpha[0, :2] = k, -k
             d = np.full(5, rng.uniform(0.05, 0.7))
+        elif shape == "large":   # arrays above numpy's 256 kB for evaluating in place into temporaries
+            alpha = k * rng.uniform(-1, 1, (int(rng.integers(2000, 6000)), 7))
+            d = rng.uniform(0.05, 0.7, 7)
         else:
             alpha, d = k * float(rng.uniform(-1, 1)), float(rng.uniform(0.05, 0.7))
         got = radiation_integrals(alpha, d, k)
         ref = _radiation_integrals_one_by_one(alpha, d, k)
         assert all(_same_bits(g, r) for g, r in zip(got, ref))
+
+
+# --- the radiation vector: real segments and images together, against one part after the other ---
+
+def _segment_apply_one_part(r, k, setup):
+    """solver._segment_apply as it was for one part (two-dimensional arrays), the reference."""
+    from rfsafe.antenna.wire import solver as S
+
+    s0, sdir, d, cur1, cur2, c1, c0, jks_i2, jks_i1, apart, s1_apart = setup
+    alpha = k * (r @ sdir.T)
+    p0 = np.exp(1j * k * (r @ s0.T))
+    p1 = np.empty_like(p0)
+    p1[:, :-1] = p0[:, 1:]
+    if s1_apart is not None:
+        p1[:, apart] = np.exp(1j * k * (r @ s1_apart.T))
+    den = k * k - alpha * alpha
+    amp = p1 * (c1 + alpha * jks_i2)
+    amp += p0 * (c0 - alpha * jks_i1)
+    near = np.abs(den) < S._NEAR_AXIS * k * k
+    with np.errstate(divide="ignore", invalid="ignore"):
+        amp /= den
+    if near.any():
+        a_n = alpha[near]
+        qn = np.nonzero(near)[1]
+        j1, j2 = _radiation_integrals_one_by_one(a_n, d[qn], k)
+        amp[near] = p0[near] * (cur1[qn] * j1 + cur2[qn] * j2)
+    return amp @ sdir
+
+
+def _run_vector_one_part(r, k, setup):
+    """solver._run_vector as it was for one part, the reference."""
+    from rfsafe.antenna.wire import solver as S
+
+    runs, d, sdir = setup["runs"], setup["d"], setup["sdir"]
+    nb, na, nr = setup["nb"], setup["na"], len(runs)
+    s0, cur1, cur2 = setup["s0"], setup["cur1"], setup["cur2"]
+    alpha = k * (r @ sdir.T)
+    ad = (alpha * d).T.reshape(-1)
+    zb = S._powers(np.exp(1j * ad), nb).reshape(nr, len(r), nb)
+    za = S._powers(np.exp(1j * nb * ad), na).reshape(nr, len(r), na)
+    mix = np.matmul(zb, setup["coef"]).reshape(nr, len(r), 2, na)
+    mix *= za[:, :, None, :]
+    poly = mix.sum(axis=-1).transpose(1, 2, 0)
+    den = k * k - alpha * alpha
+    amp = np.exp(1j * k * (r @ setup["s0_first"].T)) * (poly[:, 0] + setup["jks"] * alpha * poly[:, 1])
+    near = np.abs(den) < S._NEAR_AXIS * k * k
+    with np.errstate(divide="ignore", invalid="ignore"):
+        amp /= den
+    amp[near] = 0.0
+    out = amp @ sdir
+    for j in np.flatnonzero(near.any(axis=0)):
+        a, b = runs[j]
+        rn = np.flatnonzero(near[:, j])
+        j1, j2 = _radiation_integrals_one_by_one(k * (r[rn] @ sdir[j])[:, None] * np.ones(b - a),
+                                                 np.full(b - a, d[j]), k)
+        p0 = np.exp(1j * k * (r[rn] @ s0[a:b].T))
+        out[rn] += np.sum(p0 * (cur1[a:b] * j1 + cur2[a:b] * j2), axis=1)[:, None] * sdir[j]
+    return out
+
+
+def _radiation_vector_part_by_part(st, k, seg_i, rhat):
+    """solver._Radiator as it was: each part (real, image) on its own, pieces chunked, added in order."""
+    import math
+
+    from rfsafe.antenna.wire import solver as S
+
+    out = np.zeros(rhat.shape[:-1] + (3,), dtype=complex)
+    flat = rhat.reshape(-1, 3)
+    res = out.reshape(-1, 3)
+    for s0, s1, _r, sign, _d in st.sources():
+        sd = s1 - s0
+        d = np.linalg.norm(sd, axis=1)
+        sdir = sd / d[:, None]
+        cur1, cur2 = sign * seg_i[:, 0], sign * seg_i[:, 1]
+        runs = [(a, b) for a, b in S._uniform_runs(s0, s1) if b - a >= S._RUN_MIN]
+        single = np.ones(len(s0), dtype=bool)
+        for a, b in runs:
+            single[a:b] = False
+        one = np.flatnonzero(single)
+        width = [math.isqrt(b - a) + 1 for a, b in runs]
+        setups = [S._run_setup(k, s0, s1, cur1, cur2, [r for r, w in zip(runs, width) if w == u])
+                  for u in sorted(set(width))]
+        if len(one):
+            seg = S._segment_setup(k, s0[one], s1[one], sdir[one], d[one], cur1[one], cur2[one])
+            step = max(1, S._CHUNK // len(seg[0]))
+            for i in range(0, len(flat), step):
+                res[i:i + step] += _segment_apply_one_part(flat[i:i + step], k, seg)
+        for setup in setups:
+            step = max(1, S._CHUNK // (len(setup["runs"]) * setup["width"]))
+            for i in range(0, len(flat), step):
+                res[i:i + step] += _run_vector_one_part(flat[i:i + step], k, setup)
+    return out
+
+
+def _radiator_cases():
+    from rfsafe.antenna.wire import WireAntennaSpec, load_wire_file
+    from rfsafe.cli.cmd_demo import demo_dir
+    from rfsafe.station.load import load_station
+
+    cases = []
+    loaded = load_station(demo_dir() / "demo_wire_station.toml")
+    for ant, f_hz in (("wire-dipole-40m", 7.1e6), ("wire-dipole-40m-choke", 7.05e6), ("wire-vertical-20m", 14.1e6)):
+        spec = loaded.wire_specs[ant]
+        cases += [(f"{ant} {g}", spec.model_copy(update={"ground": g}), f_hz) for g in ("perfect", "free-space")
+                  if g == "perfect" or ant != "wire-vertical-20m"]   # a ground-fed vertical needs its ground
+    for name in ("wire_beam_3el_20m", "wire_inverted_v_40m", "wire_trap_dipole_40m_20m", "wire_ground_plane_20m"):
+        wf = load_wire_file(demo_dir() / f"{name}.toml")
+        cases.append((name, wf, wf.freq_mhz * 1e6))
+    # a long bent wire over ground (several run widths, single segments, many chunks of the pattern grid)
+    cases.append(("long bent wire", WireAntennaSpec.model_validate({"ground": "perfect", "wires": [
+        {"points_m": [[0, 0, 2], [30, 0, 6], [30, 12, 6], [29, 12.5, 6.2]], "radius_m": 0.001,
+         "max_segment_m": 0.3}], "feeds": [{"wire": 0, "position": 0.1}]}), 21.2e6))
+    return cases
+
+
+@pytest.mark.parametrize("case", _radiator_cases(), ids=lambda c: c[0])
+def test_radiation_vector_of_parts_together_is_part_by_part(case):
+    from rfsafe.antenna.wire import solve
+    from rfsafe.antenna.wire import solver as S
+
+    _name, spec, f_hz = case
+    sol = solve(spec, f_hz)
+    st, k, seg_i = sol.structure, sol.k, sol.segment_current_a
+    if st.soil_eps_c is not None:
+        pytest.skip("real soil: the space wave takes _radiation_vector part by part")
+    rad = S._Radiator(st, k, seg_i)
+    rng = np.random.default_rng(5)
+    axes = np.unique(np.round(st.direction, 12), axis=0)
+    # one direction, the peak search's steps, up to the largest call evaluated together, beyond it (and with
+    # arrays of a part between 128 and 256 kB and above), the pattern grid's sizes
+    limit = getattr(rad, "stack_max_dirs", 100)
+    for count in (1, 2, 8, 24, limit, limit + 1, 561, 1134, 4000):
+        r = rng.normal(size=(count, 3))
+        # along the wires (the sinc branches of both routes), exactly and within the near-axis cone
+        r[: count // 2] = axes[rng.integers(0, len(axes), count // 2)] * rng.choice([1, -1], (count // 2, 1))
+        r[: count // 2] += rng.choice([0.0, 1e-9, 1e-5, 1e-3, 3e-2], (count // 2, 1)) * rng.normal(size=(count // 2, 3))
+        r /= np.linalg.norm(r, axis=1)[:, None]
+        assert _same_bits(rad(r), _radiation_vector_part_by_part(st, k, seg_i, r))
+    th, ph = np.meshgrid(np.linspace(0, np.pi, 17), np.linspace(0, 2 * np.pi, 33), indexing="ij")
+    grid = S._directions(th, ph)   # (17, 33, 3): the shape of the pattern grid
+    assert _same_bits(rad(grid), _radiation_vector_part_by_part(st, k, seg_i, grid))

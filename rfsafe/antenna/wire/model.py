@@ -264,8 +264,6 @@ def soil_of(spec: WireAntennaSpec, *, prefix: str = ""):
     InputError
         Soil keys with another ground, an unknown class, a class and values both given, one value missing.
     """
-    from rfsafe.antenna.wire.ground import Soil, soil_classes
-
     keys = {"soil": spec.soil, "soil_relative_permittivity": spec.soil_relative_permittivity,
             "soil_conductivity_s_m": spec.soil_conductivity_s_m}
     given = {k: v for k, v in keys.items() if v is not None}
@@ -274,6 +272,8 @@ def soil_of(spec: WireAntennaSpec, *, prefix: str = ""):
             k, v = next(iter(given.items()))
             raise bad_value(f"{prefix}{k}", v, f'applies only to ground = "real" (ground is "{spec.ground}")')
         return None
+    from rfsafe.antenna.wire.ground import Soil, soil_classes   # real soil only (the module is large)
+
     classes = soil_classes()
     if spec.soil is not None:
         if len(given) > 1:

@@ -1158,25 +1158,58 @@ def _segment_setup(k, s0, s1, sdir, d, cur1, cur2) -> tuple:
 
 def _segment_apply(r, k, setup: tuple):
     """:func:`_segment_sum` for directions r (n, 3) with its :func:`_segment_setup`."""
+    return _segment_apply_parts(r, k, _stack_setups([setup]))[0]
+
+
+def _segment_apply_parts(r, k, setup: tuple):
+    """:func:`_segment_apply` of several parts at once (real segments and their images): ``setup`` is
+    :func:`_segment_setup`'s for each part, stacked by :func:`_stack_setups` (the parts have the same
+    segment count and joints); returns (parts, n, 3). Each part's numbers are those of
+    :func:`_segment_apply` alone: the same elementwise operations, and matrix products per part of
+    the same shapes and layouts (tests/test_wire_exact_replacements.py)."""
     s0, sdir, d, cur1, cur2, c1, c0, jks_i2, jks_i1, apart, s1_apart = setup
-    alpha = k * (r @ sdir.T)
-    p0 = np.exp(1j * k * (r @ s0.T))
+    alpha = k * np.matmul(r, sdir.transpose(0, 2, 1))                  # (parts, n, Ns)
+    p0 = np.exp(1j * k * np.matmul(r, s0.transpose(0, 2, 1)))
     p1 = np.empty_like(p0)
-    p1[:, :-1] = p0[:, 1:]
+    p1[..., :-1] = p0[..., 1:]
     if s1_apart is not None:
-        p1[:, apart] = np.exp(1j * k * (r @ s1_apart.T))
+        p1[..., apart] = np.exp(1j * k * np.matmul(r, s1_apart.transpose(0, 2, 1)))
     den = k * k - alpha * alpha
-    amp = p1 * (c1 + alpha * jks_i2)
-    amp += p0 * (c0 - alpha * jks_i1)
+    amp = p1 * (c1[:, None] + alpha * jks_i2[:, None])
+    amp += p0 * (c0[:, None] - alpha * jks_i1[:, None])
     near = np.abs(den) < _NEAR_AXIS * k * k
     with np.errstate(divide="ignore", invalid="ignore"):
         amp /= den
     if near.any():
-        a_n = alpha[near]
-        qn = np.nonzero(near)[1]
-        j1, j2 = radiation_integrals(a_n, d[qn], k)
-        amp[near] = p0[near] * (cur1[qn] * j1 + cur2[qn] * j2)
-    return amp @ sdir
+        pn, _dn, qn = np.nonzero(near)
+        j1, j2 = radiation_integrals(alpha[near], d[pn, qn], k)
+        amp[near] = p0[near] * (cur1[pn, qn] * j1 + cur2[pn, qn] * j2)
+    return np.matmul(amp, sdir)
+
+
+def _stack_setups(setups: list):
+    """Setups of several parts (:func:`_segment_setup` tuples or :func:`_run_setup` dicts of the same
+    structure: equal counts, joints and runs) stacked along a first axis, for :func:`_segment_apply_parts`
+    and :func:`_run_vector_parts`."""
+    if isinstance(setups[0], dict):
+        out = dict(setups[0])
+        for key in ("d", "sdir", "ks", "coef", "s0", "cur1", "cur2", "s0_first", "jks"):
+            out[key] = np.stack([s[key] for s in setups])
+        return out
+    s1_apart = setups[0][-1]
+    return (*(np.stack([s[i] for s in setups]) for i in range(9)), setups[0][9],
+            None if s1_apart is None else np.stack([s[-1] for s in setups]))
+
+
+def _stackable(a, b) -> bool:
+    """Whether two parts' setups (:class:`_Radiator`) have the same structure (counts, joints, runs)."""
+    (sa, ua), (sb, ub) = a, b
+    if (sa is None) != (sb is None) or len(ua) != len(ub):
+        return False
+    if sa is not None and (sa[0].shape != sb[0].shape or not np.array_equal(sa[9], sb[9])):
+        return False
+    return all(x["runs"] == y["runs"] and x["nb"] == y["nb"] and x["na"] == y["na"] and x["s0"].shape == y["s0"].shape
+               for x, y in zip(ua, ub))
 
 
 def _powers(z: np.ndarray, n: int) -> np.ndarray:
@@ -1228,30 +1261,51 @@ def _run_vector(r, k, setup: dict):
     polynomial evaluation), all the setup's runs at once. Directions within ``_NEAR_AXIS`` of a run's
     axis use the sinc form segment by segment, as there. ``setup`` is :func:`_run_setup`'s.
     """
-    runs, first, d, sdir, ks = setup["runs"], setup["first"], setup["d"], setup["sdir"], setup["ks"]
-    nb, na, nr = setup["nb"], setup["na"], len(runs)
+    return _run_vector_parts(r, k, _stack_setups([setup]))[0]
+
+
+def _run_vector_parts(r, k, setup: dict):
+    """:func:`_run_vector` of several parts at once (real runs and their images), ``setup`` their
+    :func:`_run_setup` dicts stacked by :func:`_stack_setups`; returns (parts, n, 3), each part's numbers
+    those of :func:`_run_vector` alone (the same elementwise operations; sums and matrix products per
+    part of the same shapes and layouts)."""
+    runs, d, sdir = setup["runs"], setup["d"], setup["sdir"]
+    nb, na, nr, npart = setup["nb"], setup["na"], len(runs), len(d)
     s0, cur1, cur2 = setup["s0"], setup["cur1"], setup["cur2"]
-    alpha = k * (r @ sdir.T)                                            # (n, runs)
-    ad = (alpha * d).T.reshape(-1)                                      # (runs * n)
-    zb = _powers(np.exp(1j * ad), nb).reshape(nr, len(r), nb)           # z^b, b < nb
-    za = _powers(np.exp(1j * nb * ad), na).reshape(nr, len(r), na)      # z^(a nb), a < na
-    mix = np.matmul(zb, setup["coef"]).reshape(nr, len(r), 2, na)
-    mix *= za[:, :, None, :]
-    poly = mix.sum(axis=-1).transpose(1, 2, 0)                          # (n, poly, runs)
+    alpha = k * np.matmul(r, sdir.transpose(0, 2, 1))                 # (parts, n, runs)
+    ad = (alpha * d[:, None]).transpose(0, 2, 1).reshape(-1)          # (parts * runs * n)
+    zb = _powers(np.exp(1j * ad), nb).reshape(npart, nr, len(r), nb)  # z^b, b < nb
+    za = _powers(np.exp(1j * nb * ad), na).reshape(npart, nr, len(r), na)   # z^(a nb), a < na
+    mix = np.matmul(zb, setup["coef"]).reshape(npart, nr, len(r), 2, na)
+    mix *= za[:, :, :, None, :]
+    poly = mix.sum(axis=-1).transpose(0, 2, 3, 1)                     # (parts, n, poly, runs)
     den = k * k - alpha * alpha
-    amp = np.exp(1j * k * (r @ setup["s0_first"].T)) * (poly[:, 0] + setup["jks"] * alpha * poly[:, 1])
+    amp = (np.exp(1j * k * np.matmul(r, setup["s0_first"].transpose(0, 2, 1)))
+           * (poly[:, :, 0] + setup["jks"][:, None] * alpha * poly[:, :, 1]))
     near = np.abs(den) < _NEAR_AXIS * k * k
     with np.errstate(divide="ignore", invalid="ignore"):
         amp /= den
     amp[near] = 0.0
-    out = amp @ sdir
-    for j in np.flatnonzero(near.any(axis=0)):
+    out = np.matmul(amp, sdir)
+    for p, j in zip(*np.nonzero(near.any(axis=1))):
         a, b = runs[j]
-        rn = np.flatnonzero(near[:, j])
-        j1, j2 = radiation_integrals(k * (r[rn] @ sdir[j])[:, None] * np.ones(b - a), np.full(b - a, d[j]), k)
-        p0 = np.exp(1j * k * (r[rn] @ s0[a:b].T))
-        out[rn] += np.sum(p0 * (cur1[a:b] * j1 + cur2[a:b] * j2), axis=1)[:, None] * sdir[j]
+        rn = np.flatnonzero(near[p, :, j])
+        j1, j2 = radiation_integrals(k * (r[rn] @ sdir[p, j])[:, None] * np.ones(b - a), np.full(b - a, d[p, j]), k)
+        p0 = np.exp(1j * k * (r[rn] @ s0[p, a:b].T))
+        out[p, rn] += np.sum(p0 * (cur1[p, a:b] * j1 + cur2[p, a:b] * j2), axis=1)[:, None] * sdir[p, j]
     return out
+
+
+#: Largest complex array (bytes) of a call of the real segments and their images evaluated together (see
+#: :class:`_Radiator`): well below numpy's 256 kB for evaluating an expression in place into a temporary.
+_STACK_MAX_BYTES = 64 * 1024
+
+
+def _chunked(fn, flat, k, setup, step: int) -> np.ndarray:
+    """``fn(flat, k, setup)`` (parts, n, 3) computed on row blocks of ``step`` directions."""
+    if len(flat) <= step:
+        return fn(flat, k, setup)
+    return np.concatenate([fn(flat[i:i + step], k, setup) for i in range(0, len(flat), step)], axis=1)
 
 
 class _Radiator:
@@ -1259,12 +1313,14 @@ class _Radiator:
 
     The pattern grid, the peak search (dozens of calls of a few directions) and the back direction of
     one solve share it. Straight runs of at least ``_RUN_MIN`` segments go by :func:`_run_vector`, the
-    other segments by :func:`_segment_sum`.
+    other segments by :func:`_segment_sum`. The real segments and their images (the same structure
+    mirrored) are evaluated together (:func:`_segment_apply_parts`, :func:`_run_vector_parts`: half the
+    array operations of one part after the other, the same numbers), their sums added part after part.
     """
 
     def __init__(self, st: Structure, k: float, seg_i: np.ndarray):
         self.k = k
-        self.parts = []
+        parts = []
         for s0, s1, _r, sign, _d in st.sources():
             sd = s1 - s0
             d = np.linalg.norm(sd, axis=1)
@@ -1279,23 +1335,43 @@ class _Radiator:
             width = [math.isqrt(b - a) + 1 for a, b in runs]
             setups = [_run_setup(k, s0, s1, cur1, cur2, [r for r, w in zip(runs, width) if w == u])
                       for u in sorted(set(width))]
-            self.parts.append((_segment_setup(k, s0[one], s1[one], sdir[one], d[one], cur1[one], cur2[one])
-                               if len(one) else None, setups))
+            parts.append((_segment_setup(k, s0[one], s1[one], sdir[one], d[one], cur1[one], cur2[one])
+                          if len(one) else None, setups))
+        def stacked(group):
+            return (None if group[0][0] is None else _stack_setups([p[0] for p in group]),
+                    [_stack_setups([p[1][u] for p in group]) for u in range(len(group[0][1]))], len(group))
+
+        # Parts evaluated together when they have the same structure (an image has), for calls of 2 directions or
+        # more whose arrays stay small (_STACK_MAX_BYTES); else part by part, each with the arrays it has alone.
+        # numpy rounds a complex product the same way whatever the array's length, except (measured, numpy 2.4)
+        # a product of strided columns of one element (one direction and run: a different loop) and a product
+        # whose right operand is a temporary of 256 kB or more (evaluated in place into it, operands swapped);
+        # stacked arrays of these sizes would change the last bits.
+        self.one_by_one = [stacked([p]) for p in parts]
+        self.together = stacked(parts) if len(parts) > 1 and all(_stackable(parts[0], p) for p in parts[1:]) else None
+        if self.together is not None:
+            single, setups, npart = self.together
+            per_dir = max([single[0].shape[1] if single is not None else 0]
+                          + [len(u["runs"]) * max(u["nb"], 2 * u["na"]) for u in setups])
+            self.stack_max_dirs = _STACK_MAX_BYTES // (16 * npart * max(per_dir, 1))
 
     def __call__(self, rhat: np.ndarray) -> np.ndarray:
         out = np.zeros(rhat.shape[:-1] + (3,), dtype=complex)
         flat = rhat.reshape(-1, 3)
         res = out.reshape(-1, 3)
-        for single, setups in self.parts:
+        together = self.together is not None and 2 <= len(flat) <= self.stack_max_dirs
+        for single, setups, npart in ([self.together] if together else self.one_by_one):
+            pieces = []   # (parts, n, 3) per piece, chunked as one part alone would be (the same products)
             if single is not None:
-                step = max(1, _CHUNK // len(single[0]))
-                for i in range(0, len(flat), step):
-                    res[i:i + step] += _segment_apply(flat[i:i + step], self.k, single)
+                pieces.append(_chunked(_segment_apply_parts, flat, self.k, single, max(1, _CHUNK // single[0].shape[1])))
             for setup in setups:
-                step = max(1, _CHUNK // (len(setup["runs"]) * setup["width"]))
-                for i in range(0, len(flat), step):
-                    res[i:i + step] += _run_vector(flat[i:i + step], self.k, setup)
+                pieces.append(_chunked(_run_vector_parts, flat, self.k, setup,
+                                       max(1, _CHUNK // (len(setup["runs"]) * setup["width"]))))
+            for p in range(npart):   # the sums added part after part, piece after piece (as one by one)
+                for piece in pieces:
+                    res += piece[p]
         return out
+
 
 
 def _radiation_vector(st: Structure, k: float, seg_i: np.ndarray, rhat: np.ndarray) -> np.ndarray:
