@@ -244,3 +244,35 @@ def test_radiation_vector_of_parts_together_is_part_by_part(case):
     th, ph = np.meshgrid(np.linspace(0, np.pi, 17), np.linspace(0, 2 * np.pi, 33), indexing="ij")
     grid = S._directions(th, ph)   # (17, 33, 3): the shape of the pattern grid
     assert _same_bits(rad(grid), _radiation_vector_part_by_part(st, k, seg_i, grid))
+
+
+def test_a_kept_impedance_matrix_is_the_fill_of_that_structure():
+    """solve() reuses the matrix of an equal structure (the demo's dipole and the same dipole with a choke on its
+    feedline, which solve adds after the fill): the solution is bit for bit the one with a fresh fill."""
+    from rfsafe.antenna.wire import solver as S
+    from rfsafe.cli.cmd_demo import demo_dir
+    from rfsafe.station.load import load_station
+
+    loaded = load_station(demo_dir() / "demo_wire_station.toml")
+    plain, choke = loaded.wire_specs["wire-dipole-40m"], loaded.wire_specs["wire-dipole-40m-choke"]
+    fills = []
+    fill = S.impedance_matrix
+    try:
+        S.impedance_matrix = lambda st: fills.append(st) or fill(st)
+        S._kept_matrices.clear()
+        S.solve(plain, 7.05e6, field_prefix="antennas[0].wire.")
+        kept = S.solve(choke, 7.05e6, field_prefix="antennas[1].wire.")
+        assert len(fills) == 1                            # the dipole's matrix was reused
+        S._kept_matrices.clear()
+        fresh = S.solve(choke, 7.05e6, field_prefix="antennas[1].wire.")
+        assert len(fills) == 2
+    finally:
+        S.impedance_matrix = fill
+    assert _same_bits(kept.impedance_matrix_ohm, fresh.impedance_matrix_ohm)
+    assert _same_bits(kept.segment_current_a, fresh.segment_current_a)
+    assert (kept.gain_dbi, kept.feed_impedance_ohm, kept.radiated_power_w) == (
+        fresh.gain_dbi, fresh.feed_impedance_ohm, fresh.radiated_power_w)
+    # another frequency or ground is another matrix
+    other = S.solve(plain, 7.1e6)
+    assert other.impedance_matrix_ohm.shape == kept.impedance_matrix_ohm.shape
+    assert not _same_bits(other.impedance_matrix_ohm, kept.impedance_matrix_ohm)

@@ -43,7 +43,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from rfsafe.antenna.wire.geometry import Structure, build_structure, unique_ints
+from rfsafe.antenna.wire.geometry import HalfMap, Structure, build_structure, unique_ints
 from rfsafe.antenna.wire.kernel import (ETA0_OHM, gauss_legendre_01, radiation_integrals,
                                         segment_e_terms, sinh_rule)
 from rfsafe.antenna.wire.loads import load_impedances_ohm, loaded_geometry
@@ -1751,7 +1751,7 @@ def solve(spec, freq_hz: float, *, field_prefix: str = "", enforce_limits: bool 
 
         st = with_soil(st, spec, prefix=field_prefix)
     k = 2.0 * math.pi * st.freq_hz / C0_M_S
-    z = impedance_matrix(st)
+    z = _kept_impedance_matrix(st)
     # Lumped loads (Harrington 1968, Sec. 4.5): Z_L in series with the gap at a node adds Z_L g^T g.
     z_load = load_impedances_ohm(geo, st.freq_hz)
     if len(z_load):
@@ -1820,6 +1820,62 @@ def solve(spec, freq_hz: float, *, field_prefix: str = "", enforce_limits: bool 
         load_labels=geo.load_labels, load_impedance_ohm=tuple(complex(x) for x in z_load),
         load_current_a=tuple(complex(x) for x in i_load), load_power_w=p_load, geometry_spec=geo.spec,
         shield=geo.shield, ground_method=_ground_method(spec, st), ground_wave_bound_gain_dbi=gw_gain)
+
+
+#: Impedance matrices kept by solve (see _kept_impedance_matrix): the last few, up to this many unknowns.
+_KEPT_MATRICES = 4
+_KEPT_MATRIX_MAX_UNKNOWNS = 600
+_kept_matrices: dict = {}
+
+
+#: Structure fields the fill does not read: feeds and loads (solve applies them to the filled matrix) and the
+#: names used in messages (they carry the antenna's place in the station file).
+_NOT_FILLED = frozenset({"feed_coupling", "feed_voltage_v", "feed_position_m", "load_coupling", "load_position_m",
+                         "wire_labels", "wire_fields"})
+
+
+def _structure_key(st: Structure) -> tuple:
+    """Every field of a structure the matrix fill reads, as bytes and values (the sparse basis map by its
+    entries)."""
+    import dataclasses
+
+    out = []
+    for f in dataclasses.fields(st):
+        if f.name in _NOT_FILLED:
+            continue
+        v = getattr(st, f.name)
+        if isinstance(v, HalfMap):
+            v = (v.shape, v.rows.tobytes(), v.cols.tobytes(), v.vals.tobytes())
+        elif isinstance(v, np.ndarray):
+            v = (v.dtype.str, v.shape, v.tobytes())
+        elif isinstance(v, frozenset):
+            v = tuple(sorted(v))
+        out.append((f.name, v))
+    return tuple(out)
+
+
+def _kept_impedance_matrix(st: Structure) -> np.ndarray:
+    """``impedance_matrix(st)`` (a new array), the matrix of an equal structure reused.
+
+    Two antennas with the same wires at the same frequency (one with a load or a choke, which solve adds
+    after the fill, and their ground bounds) have equal structures: the fill is the same function of the
+    same numbers, so it is made once. The key holds every field of the structure the fill reads
+    (:func:`_structure_key`), the fill function and the module settings it reads; only small structures
+    are kept.
+    """
+    settings = (impedance_matrix, _TRANSLATES, _TRANSLATE_MIN, _RUN_BASES, _TRANSLATE_TOL, N_FAR, N_NEAR, N_WIDE,
+                _CHUNK)
+    if st.num_unknowns > _KEPT_MATRIX_MAX_UNKNOWNS:
+        return impedance_matrix(st)
+    key = (settings, _structure_key(st))
+    hit = _kept_matrices.get(key)
+    if hit is None:
+        hit = impedance_matrix(st)
+        hit.setflags(write=False)
+        _kept_matrices[key] = hit
+        while len(_kept_matrices) > _KEPT_MATRICES:
+            _kept_matrices.pop(next(iter(_kept_matrices)))
+    return hit.copy()
 
 
 #: Unit-excitation near fields kept per solution: at most this many points in all (about 100 bytes each).
