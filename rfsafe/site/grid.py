@@ -165,6 +165,20 @@ class _Group:
             self.__dict__["_cols"] = cached
         return cached[1]
 
+    def near_limits(self, heights) -> tuple:
+        """For the peak-gain points (see :func:`_nearest_part_pass`): the candidates' squared horizontal reach
+        [m^2], the squared near-field distance and its threshold (float32), and the peak gain / (4 pi)
+        (float32); kept for the last heights asked for."""
+        cached = self.__dict__.get("_near")
+        if cached is None or cached[0] != heights:
+            thr = max(self.near_field_m, MIN_FAR_FIELD_DIST_M)
+            dzmin = max(min(abs(h - self.height_m) for h in heights) - self.reach_m, 0.0)
+            lim = (thr + self.reach_m) ** 2 * (1.0 + 1e-6) - dzmin * dzmin   # relative margin for float32 rounding
+            cached = (heights, (lim, _F32(self.near_field_m ** 2), _F32(thr * thr),
+                                _F32(10.0 ** (self.pattern.peak_gain_dbi / 10.0) / _FOUR_PI)))
+            self.__dict__["_near"] = cached
+        return cached[1]
+
     def nearest_part(self, blk) -> "_BlockNearest | None":
         return None if self.extent is None else _BlockNearest(self.plan, blk)
 
@@ -546,10 +560,11 @@ class _UniformTable:
         col *= _F32(self.n_rows)                           # exact: integers below 2^24 (see fits)
         return col, az
 
-    def at_elevation(self, el, col, ta, out, work=None) -> None:
+    def at_elevation(self, el, col, ta, out, work=None, d2=None) -> None:
         """``out`` = G / (4 pi) at elevations ``el`` [rad] in [-pi/2, pi/2] (float32, overwritten), in the
-        columns ``col`` with weights ``ta`` (broadcast: heights x points against points). ``work``: two float32
-        arrays and one of indices of ``out``'s shape (:class:`_Scratch`), or None (new arrays).
+        columns ``col`` with weights ``ta`` (broadcast: heights x points against points); divided by ``d2`` if
+        given (the same as dividing ``out`` afterwards). ``work``: two float32 arrays and one of indices of
+        ``out``'s shape (:class:`_Scratch`), or None (new arrays).
 
         ``c0 + ta d01 + te (e + ta f)``, each coefficient gathered from its own plane into a contiguous array
         (four gathers of one value cost about what one of four values did, and the arithmetic then runs on
@@ -574,7 +589,11 @@ class _UniformTable:
         d01.take(ix, mode="clip", out=el)                  # c0 + ta d01
         el *= ta
         el += c0.take(ix, mode="clip", out=v)
-        np.add(te, el, out=out)
+        if d2 is None:
+            np.add(te, el, out=out)
+        else:
+            te += el
+            np.divide(te, d2, out=out)
 
 
 class _Scratch:
@@ -716,12 +735,13 @@ class _NearestPlan:
     """The constants of a structure's nearest-part distance (rfsafe.antenna.extent.structure_parts) in float32,
     made once per antenna: a block then does array operations only (:class:`_BlockNearest`)."""
 
-    __slots__ = ("ref", "quadratic", "discs", "spheres")
+    __slots__ = ("ref", "quadratic", "discs", "spheres", "columns", "slopes")
 
     def __init__(self, parts) -> None:
         ref, quadratic, discs, spheres = parts
         f = _F32
         self.ref = (float(ref[0]), float(ref[1]))
+        self.columns = None      # a grid's columns last seen, their offsets and projections' column terms
         self.quadratic = []
         for origin, plain, clamped in quadratic:
             terms = []
@@ -733,6 +753,9 @@ class _NearestPlan:
             self.quadratic.append(terms)
         self.discs = [(f(c[0]), f(c[1]), f(c[2]), f(r)) for c, r in discs]
         self.spheres = [(f(c[0]), f(c[1]), f(c[2]), f(r)) for c, r in spheres]
+        # the projections with a horizontal part, as (k, 1) columns: vx, vy, off
+        flat = [t for terms in self.quadratic for t in terms if not t[0]]
+        self.slopes = tuple(np.array([[t[i]] for t in flat], dtype=f).reshape(-1, 1) for i in (1, 2, 3))
 
 
 class _BlockNearest:
@@ -748,14 +771,27 @@ class _BlockNearest:
     def __init__(self, plan: _NearestPlan, blk: _Block) -> None:
         f = _F32
         n = self._n = blk.size
+        projections = None
         if blk.gx is None:
             x = (np.asarray(blk.px, dtype=float) - plan.ref[0]).astype(f)
             y = (np.asarray(blk.py, dtype=float) - plan.ref[1]).astype(f)
             grid = False
         else:
-            x = (blk.gx - plan.ref[0]).astype(f)
+            if plan.columns is None or plan.columns[0] is not blk.gx:
+                x = (blk.gx - plan.ref[0]).astype(f)
+                plan.columns = (blk.gx, x, x * plan.slopes[0])
+            x = plan.columns[1]
             y = (blk.gy - plan.ref[1]).astype(f)
             grid = True
+            if plan.slopes[0].size:
+                # every projection's outer sum (y vy + x vx) + off at once: the rows' terms broadcast into
+                # place, the columns' (the same for every block of rows) and the offsets added
+                k = plan.slopes[0].size
+                projections = np.empty((k, y.size, x.size), dtype=f)
+                np.copyto(projections, (y * plan.slopes[1])[:, :, None])
+                projections += plan.columns[2][:, None, :]
+                projections += plan.slopes[2][:, :, None]
+                projections = iter(projections.reshape(k, n))
 
         def per_point(ax, ay):
             """``ax + ay`` per point: an outer sum on a grid (rows of y, columns of x), flat."""
@@ -767,6 +803,8 @@ class _BlockNearest:
             for vertical, vx, vy, off, c, half in terms:
                 if vertical:
                     a = off                               # a scalar: the projection has no horizontal part
+                elif projections is not None:
+                    a = next(projections)
                 else:
                     a = per_point(x * vx, y * vy)
                     a += off
@@ -1185,15 +1223,42 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
 
             def at(s, dz, out, d2):
                 rho2, rho, col, ta = s
-                look.at_elevation(angles.atan_ratio(dz.astype(_F32), rho), col, ta, out, scratch.get(out.shape)[4:])
-                out /= d2
+                look.at_elevation(angles.atan_ratio(dz.astype(_F32), rho), col, ta, out, scratch.get(out.shape)[4:], d2)
             at.all_heights = True
             return prepare, at
 
         off = look.column_offset()
         turn = [None, None, None]           # dz (H, 1) last seen and its tilted parts dz sin, dz cos (float32)
+        columns = [None, None]              # the grid's columns last seen and their four terms (4, nx)
+
+        def axis_terms(d, c_rgt, c_hor, plus_zero):
+            """The four float32 terms of one axis, as below: d^2, right part, forward part (cos and -sin of
+            the tilt), (4, n)."""
+            t = np.empty((4, d.size), dtype=_F32)
+            np.multiply(d, d, out=t[0], casting="same_kind")       # float64 products rounded once
+            np.multiply(d, c_rgt, out=t[1], casting="same_kind")
+            np.multiply(d, c_hor, out=t[2], casting="same_kind")
+            if plus_zero:
+                t[2] += _F32(0.0)
+            np.multiply(t[2], -st32, out=t[3])
+            t[2] *= ct32
+            return t
 
         def prepare(blk):
+            if blk.gx is not None:
+                # on a grid the four per-point terms in one pass: the rows' terms broadcast into place and the
+                # columns' (the same for every block of rows) added, the sums below in the same roundings
+                dx, dy = blk._offsets(g.x_m, g.y_m)
+                if columns[0] is not blk.gx:
+                    columns[:] = blk.gx, axis_terms(dx, ca, sa, True)
+                rows = axis_terms(dy, -sa, ca, False)
+                both = np.empty((4, dy.size, dx.size), dtype=_F32)
+                np.copyto(both, rows[:, :, None])
+                both += columns[1][:, None, :]
+                rho2, rgt, hor_c, hor_s = both.reshape(4, -1)
+                rgt2 = rgt * rgt
+                rgt2 += tiny
+                return rho2, rgt, rgt2, hor_c, hor_s
             rho2 = rho2_32(blk)
             rgt = blk.sum32(*blk.axes32(g.x_m, g.y_m, ca, -sa))
             hx, hy = blk.axes32(g.x_m, g.y_m, sa, ca)
@@ -1216,8 +1281,7 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
             fwd *= fwd                                      # rho'^2 + tiny
             fwd += rgt2
             np.sqrt(fwd, out=fwd)
-            look.at_elevation(angles.atan_ratio(up, fwd), col, ta, out, w[4:])
-            out /= d2
+            look.at_elevation(angles.atan_ratio(up, fwd), col, ta, out, w[4:], d2)
         at.all_heights = True
         return prepare, at
 
@@ -1331,9 +1395,7 @@ def _nearest_part_pass(grp: _Group, state, at, blk: _Block, heights, geo, near) 
     else:
         d2s = ([rho2 + _F32((h - grp.height_m) ** 2) for h in heights] if part is None   # as the evaluators round R^2
                else [part.squared_m2(_F32(h)) for h in heights])
-    thr = max(grp.near_field_m, MIN_FAR_FIELD_DIST_M)
-    dzmin = max(min(abs(h - grp.height_m) for h in heights) - grp.reach_m, 0.0)
-    lim = (thr + grp.reach_m) ** 2 * (1.0 + 1e-6) - dzmin * dzmin   # relative margin for float32 rounding
+    lim, nf2, thr2, k_peak = grp.near_limits(heights)
     idx = None
     if lim > 0.0:
         # the candidates' least squared distance over the heights (on a grid, over the rows that hold any)
@@ -1342,9 +1404,13 @@ def _nearest_part_pass(grp: _Group, state, at, blk: _Block, heights, geo, near) 
         if inside.any():
             dmin = np.min(d2s[:, sl], axis=0) if all_heights else np.minimum.reduce([d2[sl] for d2 in d2s])
             base_i = 0 if sl.start is None else sl.start
-            near[base_i + np.flatnonzero(inside & (dmin < _F32(grp.near_field_m ** 2)))] = True
-            idx = base_i + np.flatnonzero(inside & (dmin < _F32(thr * thr)))
-    k_peak = _F32(10.0 ** (grp.pattern.peak_gain_dbi / 10.0) / _FOUR_PI)
+            close = dmin < thr2
+            close &= inside
+            idx = base_i + np.flatnonzero(close)
+            if nf2 == thr2:                   # the same points (a near-field distance of 1 cm or more)
+                near[idx] = True
+            else:
+                near[base_i + np.flatnonzero(inside & (dmin < nf2))] = True
     near_d2 = None
     if part is not None and idx is not None and idx.size:
         # the peak-gain points lie next to the structure, where float32 projections lose the digits a
