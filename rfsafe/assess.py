@@ -775,6 +775,7 @@ def _kept(owners: tuple, key: tuple, compute, points: int):
 def _wire_place_ratios(em: Emitter, loaded: LoadedStation, cres: ConfigurationResult, env: str, pts: np.ndarray,
                        heights: list[float]) -> np.ndarray:
     """:func:`place_ratios` for a wire antenna (see :func:`_wire_place_exposure`, whose arithmetic it repeats)."""
+    from rfsafe.antenna.wire.solver import unit_fields_together
     from rfsafe.limits import exposure_ratio
 
     nh = len(heights)
@@ -791,7 +792,10 @@ def _wire_place_ratios(em: Emitter, loaded: LoadedStation, cres: ConfigurationRe
                 out[part] = _wire_place_ratios(em, loaded, cres, env, pts[sel], heights)
             return out
     try:
-        for sol in sols:   # the unit-power fields, kept by the solution; points on a conductor are refused
+        # the unit-power fields, kept by the solution (the solutions of one geometry together, the same numbers);
+        # points on a conductor are refused
+        unit_fields_together(sols, pts, field=field)
+        for sol in sols:
             sol.fields_rms(pts, 1.0, field=field)
     except InputError:   # some place on or next to a conductor (refused: counts as exceeding); halve and retry
         if n == 1:
@@ -908,7 +912,12 @@ def _wire_near_field_boundary_m(solution) -> float:
 
 def _wire_near_field_at(em: Emitter, place, heights, field: str, average: bool):
     """Moment-method result at a place, worst over the solutions (declared and ground bound)."""
+    from rfsafe.antenna.wire.solver import unit_fields_together
+
     best, which = None, ""
+    # their unit fields at the place together (one geometry: the same numbers, see _near_field_at's points)
+    unit_fields_together(_wire_solutions(em), np.array([[place.x_m, place.y_m, z] for z in heights], dtype=float),
+                         field=field)
     for sol in _wire_solutions(em):
         r = _near_field_at(em, sol, place, heights, field, average)
         if best is None or r[0] > best[0]:
@@ -1035,6 +1044,7 @@ def _wire_compliance_distances(sols, limits, avg_ant, pep_ant: float, distances,
 
     from rfsafe.antenna.wire.fields import NEAR_SEGMENT_WAVELENGTHS
     from rfsafe.antenna.wire.geometry import unique_ints, unique_rows
+    from rfsafe.antenna.wire.solver import unit_fields_together
 
     st = sols[0].structure
     if st.length_m.max() > NEAR_SEGMENT_WAVELENGTHS * st.wavelength_m * (1 + 1e-9):
@@ -1065,6 +1075,13 @@ def _wire_compliance_distances(sols, limits, avg_ant, pep_ant: float, distances,
             pts = shells[r_m]
             if not len(pts):
                 return False
+            if len(sols) > 1 and (r_m, 0) not in fields:
+                # the second solution's fields are needed at most radii: both made together (one geometry,
+                # the same numbers); a refusal is left to fields_rms below, as it would come without this
+                try:
+                    unit_fields_together(sols, pts, field="compliance distance search")
+                except InputError:
+                    pass
             for j, sol in enumerate(sols):   # the same answer as the ratio over all solutions at once
                 if (r_m, j) not in fields:
                     fields[r_m, j] = sol.fields_rms(pts, 1.0, field="compliance distance search")

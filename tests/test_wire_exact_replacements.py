@@ -276,3 +276,33 @@ def test_a_kept_impedance_matrix_is_the_fill_of_that_structure():
     other = S.solve(plain, 7.1e6)
     assert other.impedance_matrix_ohm.shape == kept.impedance_matrix_ohm.shape
     assert not _same_bits(other.impedance_matrix_ohm, kept.impedance_matrix_ohm)
+
+
+@pytest.mark.parametrize("order", ["perfect first", "free space first"])
+@pytest.mark.parametrize("antenna", ["wire-dipole-40m", "wire-dipole-40m-choke"])
+def test_small_point_sets_together_are_the_fields_one_by_one(antenna, order):
+    """fields.near_fields_together on point sets small enough for the all-runs path (places, shells, keep-out
+    steps): the node phases of the antenna over ground are shared with its free-space twin, bit for bit the
+    fields near_fields gives each alone."""
+    from rfsafe.antenna.wire import fields as F
+    from rfsafe.antenna.wire import solve
+    from rfsafe.cli.cmd_demo import demo_dir
+    from rfsafe.station.load import load_station
+
+    spec = load_station(demo_dir() / "demo_wire_station.toml").wire_specs[antenna]
+    sols = [solve(spec.model_copy(update={"ground": g}), 7.05e6) for g in ("perfect", "free-space")]
+    if order != "perfect first":
+        sols = sols[::-1]
+    items = [(s.structure, s.segment_current_a) for s in sols]
+    rng = np.random.default_rng(2)
+    for n in (1, 2, 4, 37, 120, 400):
+        pts = np.column_stack([rng.uniform(-15, 15, n), rng.uniform(-5, 25, n), rng.uniform(0, 10, n)])
+        pts[: n // 2, 1] = 10.0                   # on the dipole's line (beyond or beside its ends)
+        pts[: n // 4, 2] = 8.0
+        pts[: n // 4, 0] = rng.choice([-14.0, 12.5, 0.3], n // 4)
+        geos = [F._runs(st) for st, _ in items]
+        assert all(len(pts) * len(g["t"]) <= F._SMALL for g in geos) and F._run_prefixes(geos)   # the shared path
+        together = F.near_fields_together(items, sols[0].k, pts)
+        for (st, seg_i), (e, h) in zip(items, together):
+            e1, h1 = F.near_fields(st, sols[0].k, seg_i, pts)
+            assert _same_bits(e, e1) and _same_bits(h, h1)

@@ -109,16 +109,33 @@ _SMALL = 40_000
 
 def _all_runs_fields(pts, k, geo, node_coef, e_out, h_out) -> None:
     """Add the E and H of every run at pts (N, 3) into e_out, h_out, all runs at once (see near_fields)."""
+    rv, rho2, dz = _all_runs_geometry(pts, geo)
+    _all_runs_sums(geo, node_coef, *_all_runs_phases(k, rho2, dz, geo["node_run"]), rv, rho2, e_out, h_out)
+
+
+def _all_runs_geometry(pts, geo):
+    """Radial vectors (N, runs, 3), rho^2 (N, runs) and D of each node (N, nodes) of the points (_all_runs_fields)."""
     origin, u, node_run = geo["origin"], geo["unit"], geo["node_run"]
     w = pts[:, None, :] - origin[None]                     # (N, runs, 3)
     zg = np.einsum("prk,rk->pr", w, u)
     rv = w - zg[..., None] * u
     rho2 = np.einsum("prk,prk->pr", rv, rv)
     dz = geo["t"] - zg[:, node_run]                        # D of each node (D1 = -z, D2 = d - z of its segments)
+    return rv, rho2, dz
+
+
+def _all_runs_phases(k, rho2, dz, node_run):
+    """e^{-jkR}, e^{-jkR}/R and e^{-jkR} D/R of every node (N, nodes) (_all_runs_fields)."""
     r = np.sqrt(rho2[:, node_run] + dz * dz)
     ph = np.exp(r * (-1j * k))
     g = ph / r
     gd = g * dz
+    return ph, g, gd
+
+
+def _all_runs_sums(geo, node_coef, ph, g, gd, rv, rho2, e_out, h_out) -> None:
+    """The run sums of :func:`_all_runs_fields` from its node phases, added into e_out, h_out."""
+    u = geo["unit"]
     starts = geo["run_start"]
     ez = np.add.reduceat(g * node_coef[0], starts, axis=1)
     er = np.add.reduceat(gd * node_coef[0] + ph * node_coef[1], starts, axis=1)
@@ -131,6 +148,31 @@ def _all_runs_fields(pts, k, geo, node_coef, e_out, h_out) -> None:
     cu[..., 2] = u[:, 0] * rv[..., 1] - u[:, 1] * rv[..., 0]
     e_out += ez @ u + np.einsum("pr,prk->pk", er * inv, rv)
     h_out += np.einsum("pr,prk->pk", hh * inv, cu)
+
+
+def _all_runs_fields_together(pts, k, geos, coefs, outs) -> None:
+    """:func:`_all_runs_fields` of several structures whose runs are the first runs of the one with the most
+    (a free-space antenna and the same antenna over a perfect ground: its real runs, then the images).
+
+    The node phases of the largest are computed once; a structure whose radial geometry at the points is,
+    bit for bit, the first columns of the largest's takes the first columns of its phases (the same
+    elementwise operations on the same numbers), any other computes its own. Each structure's sums are its
+    own, as :func:`_all_runs_fields` forms them.
+    """
+    big = max(range(len(geos)), key=lambda j: len(geos[j]["t"]))
+    rv_b, rho2_b, dz_b = _all_runs_geometry(pts, geos[big])
+    phases_b = _all_runs_phases(k, rho2_b, dz_b, geos[big]["node_run"])
+    for j, (geo, coef, (e_out, h_out)) in enumerate(zip(geos, coefs, outs)):
+        if j == big:
+            _all_runs_sums(geo, coef, *phases_b, rv_b, rho2_b, e_out, h_out)
+            continue
+        rv, rho2, dz = _all_runs_geometry(pts, geo)
+        n, nr = len(geo["t"]), len(geo["run_start"])
+        if rho2.tobytes() == rho2_b[:, :nr].tobytes() and dz.tobytes() == np.ascontiguousarray(dz_b[:, :n]).tobytes():
+            phases = tuple(x[:, :n] for x in phases_b)
+        else:
+            phases = _all_runs_phases(k, rho2, dz, geo["node_run"])
+        _all_runs_sums(geo, coef, *phases, rv, rho2, e_out, h_out)
 
 
 def _run_fields(pts, k, origin, u, t, tiny, cm, e_out, h_out) -> None:
@@ -198,9 +240,15 @@ def near_fields_together(items, k: float, points_m):
 
     alone = (len(items) < 2 or not len(pts)
              or any(st.soil_eps_c is not None or geo["real_runs"] * 4 > st.num_segments + 4
-                    or len(pts) * len(geo["t"]) <= _SMALL for (st, _), geo in zip(items, geos))
+                    for (st, _), geo in zip(items, geos))
              or any(real(geo) != real(geos[0]) for geo in geos[1:]))
-    if alone:
+    small = [len(pts) * len(geo["t"]) <= _SMALL for geo in geos]
+    if not alone and all(small) and _run_prefixes(geos):   # all-runs path of each, the node phases shared
+        outs = [(np.zeros(pts.shape, dtype=complex), np.zeros(pts.shape, dtype=complex)) for _ in items]
+        coefs = [_node_coefficients(st, k, seg_i, geo) for (st, seg_i), geo in zip(items, geos)]
+        _all_runs_fields_together(pts, k, geos, coefs, outs)
+        return outs
+    if alone or any(small):
         return [near_fields(st, k, seg_i, pts) for st, seg_i in items]
     outs = [(np.zeros(pts.shape, dtype=complex), np.zeros(pts.shape, dtype=complex)) for _ in items]
     coefs = [_node_coefficients(st, k, seg_i, geo) for (st, seg_i), geo in zip(items, geos)]
@@ -212,6 +260,14 @@ def near_fields_together(items, k: float, points_m):
         for r0, r1, origin, u, tiny in geo["runs"][nr:]:
             _run_fields(pts, k, origin, u, geo["t"][r0:r1], tiny, _run_matrix(c, r0, r1), e, h)
     return outs
+
+
+def _run_prefixes(geos) -> bool:
+    """Whether every structure's runs (``_runs``) are, to the bit, the first runs of the one with the most nodes."""
+    big = max(geos, key=lambda geo: len(geo["t"]))
+    keys = ("t", "node_run", "run_start", "origin", "unit", "tiny")
+    return all(all(np.asarray(geo[q]).tobytes() == np.asarray(big[q])[:len(geo[q])].tobytes() for q in keys)
+               for geo in geos)
 
 
 def _runs(st) -> dict:
