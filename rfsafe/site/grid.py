@@ -680,7 +680,8 @@ class _Block:
         if self.gx is None:
             return slice(None)
         dy = self.gy - y0
-        rows = np.flatnonzero(dy * dy < lim_m2 * (1.0 + 1e-5))     # a superset: the points are tested after
+        dy *= dy
+        rows = (dy < lim_m2 * (1.0 + 1e-5)).nonzero()[0]     # a superset: the points are tested after
         if not rows.size:
             return slice(0, 0)
         return slice(int(rows[0]) * self.gx.size, (int(rows[-1]) + 1) * self.gx.size)
@@ -1281,7 +1282,12 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
             fwd *= fwd                                      # rho'^2 + tiny
             fwd += rgt2
             np.sqrt(fwd, out=fwd)
-            look.at_elevation(angles.atan_ratio(up, fwd), col, ta, out, w[4:], d2)
+            if angles.simd:                                 # atan(up / rho'), in place (see _Angles.atan_ratio)
+                np.divide(up, fwd, out=up)
+                el = np.arctan(up, out=up)
+            else:
+                el = angles.atan_ratio(up, fwd)
+            look.at_elevation(el, col, ta, out, w[4:], d2)
         at.all_heights = True
         return prepare, at
 
@@ -1406,29 +1412,30 @@ def _nearest_part_pass(grp: _Group, state, at, blk: _Block, heights, geo, near) 
             base_i = 0 if sl.start is None else sl.start
             close = dmin < thr2
             close &= inside
-            idx = base_i + np.flatnonzero(close)
+            idx = close.nonzero()[0]
+            idx += base_i
             if nf2 == thr2:                   # the same points (a near-field distance of 1 cm or more)
                 near[idx] = True
             else:
-                near[base_i + np.flatnonzero(inside & (dmin < nf2))] = True
+                near[base_i + (inside & (dmin < nf2)).nonzero()[0]] = True
     near_d2 = None
     if part is not None and idx is not None and idx.size:
         # the peak-gain points lie next to the structure, where float32 projections lose the digits a
         # distance of a few centimetres needs (1e-5 relative): their distances again in float64
         p64 = NearestPart(grp.extent, *blk.points(idx), parts=grp.parts)
         near_d2 = [p64.squared_m2(h) for h in heights]
-    with np.errstate(divide="ignore", invalid="ignore"):
-        if all_heights:
-            at(state, cols[2], geo, d2s)
-            if idx is None or not idx.size:
-                return
-        for hi, (out, h, d2) in enumerate(zip(geo, heights, d2s)):
-            if not all_heights:
-                at(state, h - grp.height_m, out, None if part is None else d2)
-            if near_d2 is not None:
-                out[idx] = float(k_peak) / np.maximum(near_d2[hi], MIN_FAR_FIELD_DIST_M ** 2)
-            elif idx is not None and idx.size:
-                out[idx] = k_peak / np.maximum(d2[idx], _F32(MIN_FAR_FIELD_DIST_M ** 2))
+    # (the caller ignores division by zero and invalid operations: R = 0 gives inf, replaced here)
+    if all_heights:
+        at(state, cols[2], geo, d2s)
+        if idx is None or not idx.size:
+            return
+    for hi, (out, h, d2) in enumerate(zip(geo, heights, d2s)):
+        if not all_heights:
+            at(state, h - grp.height_m, out, None if part is None else d2)
+        if near_d2 is not None:
+            out[idx] = float(k_peak) / np.maximum(near_d2[hi], MIN_FAR_FIELD_DIST_M ** 2)
+        elif idx is not None and idx.size:
+            out[idx] = k_peak / np.maximum(d2[idx], _F32(MIN_FAR_FIELD_DIST_M ** 2))
 
 
 def _chunk_pass(names, groups, evaluators, blk: _Block, heights, *, per_transmitter: bool):
@@ -1437,9 +1444,10 @@ def _chunk_pass(names, groups, evaluators, blk: _Block, heights, *, per_transmit
     n_t = len(names)
     geo = np.empty((n_h, n_g, n_p), dtype=_F32)
     near = np.zeros(n_p, dtype=bool)
-    for gi, (grp, (prepare, at)) in enumerate(zip(groups, evaluators)):
-        state = prepare(blk)
-        _nearest_part_pass(grp, state, at, blk, heights, geo[:, gi], near)
+    with np.errstate(divide="ignore", invalid="ignore"):    # once per block (about 2 us each time)
+        for gi, (grp, (prepare, at)) in enumerate(zip(groups, evaluators)):
+            state = prepare(blk)
+            _nearest_part_pass(grp, state, at, blk, heights, geo[:, gi], near)
     counts = np.bincount([g.transmitter for g in groups], minlength=n_t)
     coef = np.array([g.coefficient for g in groups])          # (n_g, 2)
     if per_transmitter:
