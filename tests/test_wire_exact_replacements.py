@@ -9,7 +9,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from rfsafe.antenna.wire.geometry import unique_ints, unique_rows
+from rfsafe.antenna.wire.geometry import unique_ints, unique_inverse, unique_rows
 from rfsafe.antenna.wire.kernel import _leggauss, gauss_legendre_01
 from rfsafe.antenna.wire.legendre_table import HALF_RULES
 
@@ -49,6 +49,17 @@ def test_unique_ints_is_np_unique(values, dtype):
     a = np.array([v % 256 for v in values] if dtype == "uint8" else
                  [v % 2 ** 31 for v in values] if dtype == "int32" else values, dtype=dtype)
     assert _same_bits(unique_ints(a), np.unique(a))
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.lists(st.integers(-50, 50), max_size=60), st.booleans())
+def test_unique_inverse_is_np_unique_with_return_inverse(values, square):
+    a = np.array(values, dtype=np.intp)
+    if square and len(a) >= 4:
+        a = a[: (len(a) // 2) * 2].reshape(2, -1)
+    u, inv = unique_inverse(a)
+    ref_u, ref_inv = np.unique(a, return_inverse=True)
+    assert _same_bits(u, ref_u) and _same_bits(inv, ref_inv)
 
 
 @settings(max_examples=300, deadline=None)

@@ -24,7 +24,7 @@ from rfsafe.errors import InputError, bad_value
 
 __all__ = ["Structure", "HalfMap", "build_structure", "segment_distances", "point_segment_distances",
            "DEFAULT_SEGMENTS_PER_WAVELENGTH", "MAX_SEGMENT_WAVELENGTHS", "MIN_SEGMENT_RADII",
-           "JOIN_TOLERANCE_M", "MAX_JUNCTION_RADIUS_RATIO", "unique_ints", "unique_rows"]
+           "JOIN_TOLERANCE_M", "MAX_JUNCTION_RADIUS_RATIO", "unique_ints", "unique_inverse", "unique_rows"]
 
 #: Default rule when a wire gives neither ``segments`` nor ``max_segment_m``: lambda/40.
 DEFAULT_SEGMENTS_PER_WAVELENGTH = 40
@@ -187,6 +187,17 @@ def unique_ints(values) -> np.ndarray:
     keep[:1] = True
     np.not_equal(s[1:], s[:-1], out=keep[1:])
     return s[keep]
+
+
+def unique_inverse(values) -> tuple[np.ndarray, np.ndarray]:
+    """``np.unique(values, return_inverse=True)`` of an integer array: its distinct values and, for each
+    element, the index of its value among them (the same arrays, by :func:`unique_ints` and a search;
+    fewer steps). Any other dtype is handed to ``np.unique``."""
+    a = np.asarray(values)
+    if a.dtype.kind not in "iub":
+        return np.unique(a, return_inverse=True)
+    u = unique_ints(a)
+    return u, np.searchsorted(u, a)
 
 
 def unique_rows(rows) -> np.ndarray:

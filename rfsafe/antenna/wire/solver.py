@@ -43,7 +43,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from rfsafe.antenna.wire.geometry import HalfMap, Structure, build_structure, unique_ints
+from rfsafe.antenna.wire.geometry import HalfMap, Structure, build_structure, unique_ints, unique_inverse
 from rfsafe.antenna.wire.kernel import (ETA0_OHM, gauss_legendre_01, radiation_integrals,
                                         segment_e_terms, sinh_rule)
 from rfsafe.antenna.wire.loads import load_impedances_ohm, loaded_geometry
@@ -420,8 +420,8 @@ def _rows_into(blk, ts: _TestSide, k: float, src: dict, r0: int, r1: int, c0: in
         for t in unique_ints(tid):
             sel = tid == t
             gi, gq = ip[sel], iq[sel]
-            rows, rpos = np.unique(gi, return_inverse=True)
-            wcols, pos = np.unique(gq, return_inverse=True)
+            rows, rpos = unique_inverse(gi)
+            wcols, pos = unique_inverse(gq)
             if len(gi) == len(rows) * len(wcols) and rows[-1] - rows[0] == len(rows) - 1:   # a full rectangle
                 part[rows[0] - r0:rows[-1] + 1 - r0, :, wcols - c0, :] = _general_blocks(
                     ts, k, src, int(rows[0]), int(rows[-1]) + 1, wcols)
@@ -457,7 +457,7 @@ def _general_blocks(ts: _TestSide, k: float, src: dict, r0, r1, cols: np.ndarray
     """
     rows = slice(r0, r1) if r1 is not None else r0
     n1, n2, nodes = src["n1"][cols], src["n2"][cols], src["nodes"]
-    used, loc = np.unique(np.concatenate([n1, n2]), return_inverse=True)
+    used, loc = unique_inverse(np.concatenate([n1, n2]))
     loc = loc.reshape(-1)
     nc = len(cols)
     x = ts.xw[rows]                                                    # (c, Q, 3)
@@ -553,7 +553,7 @@ def _node_blocks(ts: _TestSide, src: dict, r0: int, r1: int, cols: np.ndarray, h
 def _node_sums_direct(ts: _TestSide, k: float, src: dict, r0: int, r1: int, cols: np.ndarray):
     """Node sums (rows, 2, cols) at the start and end nodes of source columns ``cols``, test rows r0:r1."""
     n1, n2, nodes = src["n1"][cols], src["n2"][cols], src["nodes"]
-    used, loc = np.unique(np.concatenate([n1, n2]), return_inverse=True)
+    used, loc = unique_inverse(np.concatenate([n1, n2]))
     loc = loc.reshape(-1)
     nu = nodes[used]
     h = _node_sums(ts.xw[r0:r1], ts.wfw[r0:r1], nu, ts.a2[r0:r1], k)   # (c, 2, nodes), wide rule
@@ -577,7 +577,7 @@ def _pair_list(ts: _TestSide, k, ip, iq, rule, src):
     out = np.empty((len(ip), 2, 2), dtype=complex)
     if rule == "near":
         # the rule, test shapes and points depend on the test segment only: once per test segment
-        up, inv = np.unique(ip, return_inverse=True)
+        up, inv = unique_inverse(ip)
         inv = inv.reshape(-1)
         b = np.sqrt(ts.a2[up])
         sa, wa = sinh_rule(0.5 * ts.tl[up], b, N_NEAR)
