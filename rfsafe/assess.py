@@ -1237,7 +1237,7 @@ def assess_with_emitters(loaded: LoadedStation, *, today: dt.date | None = None,
     pairs = [_configuration(loaded, i, c, gf, near_field_maps) for i, c in enumerate(st.configurations)]
     configs = tuple(p[0] for p in pairs)
     ems = [p[1] for p in pairs]
-    keys = [_configuration_key(loaded, c) for c in st.configurations] if memo is not None else None
+    keys = [_configuration_key(loaded, c, memo) for c in st.configurations] if memo is not None else None
     if keys is not None:
         for k, pair in zip(keys, pairs):
             memo[k] = (True, pair)
@@ -1304,16 +1304,29 @@ def assess_with_emitters(loaded: LoadedStation, *, today: dt.date | None = None,
     return result, ems
 
 
-def _configuration_key(loaded: LoadedStation, c: Configuration) -> tuple:
-    """Everything a configuration's emitter and its exposure at a place depend on (for :func:`place_totals`)."""
+def _configuration_key(loaded: LoadedStation, c: Configuration, memo: dict | None = None) -> tuple:
+    """Everything a configuration's emitter and its exposure at a place depend on (for :func:`place_totals`);
+    with a ``memo``, each (frozen) model's JSON is made once per object (see :func:`_json_of`)."""
     st = loaded.model
     tx = next(t for t in st.transmitters if t.id == c.transmitter)
     fline = next(f for f in st.feedlines if f.id == c.feedline)
     ant = next(a for a in st.antennas if a.id == c.antenna)
     spec = loaded.wire_specs.get(ant.id)
     return (st.standard, st.ground_reflection, st.exact_line_loss, st.near_field_spatial_average,
-            c.model_dump_json(), tx.model_dump_json(), fline.model_dump_json(), ant.model_dump_json(),
-            None if spec is None else spec.model_dump_json(), id(loaded.pattern_tables.get(ant.id)))
+            _json_of(memo, c), _json_of(memo, tx), _json_of(memo, fline), _json_of(memo, ant),
+            None if spec is None else _json_of(memo, spec), id(loaded.pattern_tables.get(ant.id)))
+
+
+def _json_of(memo: dict | None, model) -> str:
+    """``model.model_dump_json()``, kept in ``memo`` per object (the models are frozen; the memo keeps the object,
+    so its ``id`` is not reused while the entry exists). The remedies' trials change one model at a time: the
+    others are the same objects, dumped once."""
+    if memo is None:
+        return model.model_dump_json()
+    held = memo.get(("json", id(model)))
+    if held is None or held[0] is not model:
+        held = memo[("json", id(model))] = (model, model.model_dump_json())
+    return held[1]
 
 
 def _memoised(memo: dict | None, key, compute):
@@ -1348,7 +1361,7 @@ def place_totals(loaded: LoadedStation, memo: dict | None = None) -> list[tuple[
     """
     st = loaded.model
     gf = ex.GROUND_FACTORS[st.ground_reflection]
-    keys = [_configuration_key(loaded, c) for c in st.configurations] if memo is not None else [None] * len(
+    keys = [_configuration_key(loaded, c, memo) for c in st.configurations] if memo is not None else [None] * len(
         st.configurations)
     # Exposures are kept only for configurations the memo already held (those of the first evaluation):
     # a changed configuration (a trial power, duty or schedule) is rarely asked again, and keeping its

@@ -407,3 +407,19 @@ def test_kept_values_are_dropped_oldest_first_beyond_their_point_budget(monkeypa
     assess_module._kept((owner,), ("k", 2), lambda: np.ones(6), 6)   # 12 points > 10: the oldest goes
     assert ("k", 1) not in {k[1] for k in assess_module._kept_values if k != "points"}
     assert assess_module._kept_values["points"] == 6
+
+
+def test_memoised_configuration_keys_are_the_fresh_ones():
+    # place_totals' memo keeps each frozen model's JSON per object: the key is the one made afresh, and a
+    # changed model (a new object, as the remedies' trials make) is dumped anew (the key sees the change)
+    from rfsafe.assess import _configuration_key
+
+    loaded = load_station(DEMO / "demo_wire_station.toml")
+    memo: dict = {}
+    for c in loaded.model.configurations:
+        assert _configuration_key(loaded, c, memo) == _configuration_key(loaded, c)
+        assert _configuration_key(loaded, c, memo) == _configuration_key(loaded, c)   # from the memo
+    c = loaded.model.configurations[0]
+    changed = c.model_copy(update={"swr": 2.0})
+    assert _configuration_key(loaded, changed, memo) == _configuration_key(loaded, changed)
+    assert _configuration_key(loaded, changed, memo) != _configuration_key(loaded, c, memo)
