@@ -8,6 +8,7 @@ from __future__ import annotations
 import datetime as dt
 import math
 from dataclasses import dataclass
+from typing import NamedTuple
 
 import numpy as np
 
@@ -1394,9 +1395,9 @@ def place_totals(loaded: LoadedStation, memo: dict | None = None) -> list[tuple[
     return [(place.label, _totals(row, st)[0]) for place, row in zip(st.places, rows)]
 
 
-@dataclass(frozen=True, slots=True)
-class _Ratio:
-    """The part of a :class:`PlaceExposure` that :func:`_totals` reads."""
+class _Ratio(NamedTuple):
+    """The part of a :class:`PlaceExposure` that :func:`_totals` reads (a named tuple: a private record, made
+    faster at import than a frozen dataclass)."""
 
     configuration: str
     transmitter: str
