@@ -732,6 +732,22 @@ class _Block:
         return np.add.outer(dy * dy, dx * dx).reshape(-1)
 
 
+class _RowSums:
+    """``fy[i] + fx[j]`` on a grid block (rows i, columns j), formed only for the rows asked for: ``self[sl]`` with
+    a slice of whole rows (:meth:`_Block.rows_within`) is ``np.add.outer(fy, fx).reshape(-1)[sl]``."""
+
+    __slots__ = ("fy", "fx")
+
+    def __init__(self, fy, fx) -> None:
+        self.fy, self.fx = fy, fx
+
+    def __getitem__(self, sl: slice):
+        nx = self.fx.size
+        r0 = 0 if sl.start is None else sl.start // nx
+        r1 = self.fy.size if sl.stop is None else sl.stop // nx
+        return np.add.outer(self.fy[r0:r1], self.fx).reshape(-1)
+
+
 class _NearestPlan:
     """The constants of a structure's nearest-part distance (rfsafe.antenna.extent.structure_parts) in float32,
     made once per antenna: a block then does array operations only (:class:`_BlockNearest`)."""
@@ -929,7 +945,8 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
     With ``d2`` (squared distances to the nearest part of the structure [m^2]) it computes G/(4 pi d2)
     instead: the gain is still taken toward the point from the centre of radiation.
 
-    ``state[0]`` is always the squared horizontal distance [m^2] (float32).
+    ``state[0]`` is always the squared horizontal distance [m^2] (float32; a tilted pattern table with a
+    structure gives it as :class:`_RowSums`, formed for the peak-gain candidates' rows alone).
     Untilted antennas get closed forms that reuse the height-independent part
     of the geometry; tilted dipoles, beams and pattern tables rotate the
     direction into the antenna frame from height-independent terms; other
@@ -1253,10 +1270,12 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
                 if columns[0] is not blk.gx:
                     columns[:] = blk.gx, axis_terms(dx, ca, sa, True)
                 rows = axis_terms(dy, -sa, ca, False)
-                both = np.empty((4, dy.size, dx.size), dtype=_F32)
-                np.copyto(both, rows[:, :, None])
-                both += columns[1][:, None, :]
-                rho2, rgt, hor_c, hor_s = both.reshape(4, -1)
+                k = 1 if g.extent is not None else 0   # with a structure, rho^2 serves the candidates' rows only
+                both = np.empty((4 - k, dy.size, dx.size), dtype=_F32)
+                np.copyto(both, rows[k:, :, None])
+                both += columns[1][k:, None, :]
+                rgt, hor_c, hor_s = both[-3:].reshape(3, -1)
+                rho2 = _RowSums(rows[0], columns[1][0]) if k else both[0].reshape(-1)
                 rgt2 = rgt * rgt
                 rgt2 += tiny
                 return rho2, rgt, rgt2, hor_c, hor_s
@@ -1396,8 +1415,8 @@ def _nearest_part_pass(grp: _Group, state, at, blk: _Block, heights, geo, near) 
     cols = grp.height_columns(heights)
     if all_heights:                     # the evaluator takes every height at once, with d^2 (H, P)
         d2s = rho2 + cols[1] if part is None else part.squared_m2(cols[0])
-        if d2s.shape != (len(heights), rho2.size):
-            d2s = np.broadcast_to(d2s, (len(heights), rho2.size))
+        if d2s.shape != (len(heights), blk.size):
+            d2s = np.broadcast_to(d2s, (len(heights), blk.size))
     else:
         d2s = ([rho2 + _F32((h - grp.height_m) ** 2) for h in heights] if part is None   # as the evaluators round R^2
                else [part.squared_m2(_F32(h)) for h in heights])
@@ -1532,10 +1551,14 @@ def ratio_grid(emitters: Sequence[SiteEmitter], x_m, y_m, heights_m, *, chunk_po
         best = total.max(axis=0)                                # (2, P)
         if np.isnan(best).any():
             k = np.argmax(total, axis=0)
-        else:                                                   # argmax's first height, without its slow strided pass
-            k = np.zeros(best.shape, dtype=np.intp)
-            for h in range(len(heights) - 1, -1, -1):
-                k[total[h] == best] = h
+        else:
+            # argmax's first height, without its slow strided pass: the number of leading heights below the
+            # best (a running mask; masked stores per height cost seven times as much)
+            later = total[0] != best
+            k = later.astype(np.intp)
+            for h in range(1, len(heights) - 1):
+                later &= total[h] != best
+                k += later
         ratio[:, start:stop] = best
         worst[:, start:stop] = h_arr[k]
         near[start:stop] = nf
