@@ -880,12 +880,15 @@ def _wire_solutions(em: Emitter) -> list:
 
 def _wire_distance_m(solution, points: np.ndarray) -> np.ndarray:
     """Distance [m] from each point (N, 3) to the nearest point of the solved wires (shield included); kept
-    per solution and points (read-only, see :func:`_kept`)."""
+    per segment geometry and points (read-only, see :func:`_kept`): solutions of the same wires at nearby
+    frequencies (several bands' configurations, an antenna with and without a choke) often have the same
+    segments, and the distances are then the same numbers."""
     from rfsafe.antenna.wire.geometry import point_segment_distances
 
     st = solution.structure
     pts = np.asarray(points, dtype=float)
-    return _kept((solution,), ("wire distance", pts.shape, pts.tobytes()),
+    return _kept((), ("wire distance", st.start_m.shape, st.start_m.tobytes(), st.end_m.tobytes(), pts.shape,
+                      pts.tobytes()),
                  lambda: point_segment_distances(pts[:, None, :], st.start_m[None], st.end_m[None]).min(axis=1),
                  len(pts))
 

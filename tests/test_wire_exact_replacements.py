@@ -317,3 +317,22 @@ def test_small_point_sets_together_are_the_fields_one_by_one(antenna, order):
         for (st, seg_i), (e, h) in zip(items, together):
             e1, h1 = F.near_fields(st, sols[0].k, seg_i, pts)
             assert _same_bits(e, e1) and _same_bits(h, h1)
+
+
+def test_point_segment_distances_are_the_clip_and_norm_ones():
+    from rfsafe.antenna.wire.geometry import point_segment_distances
+
+    rng = np.random.default_rng(9)
+    for shape in [(1, 1), (7, 1), (5, 13), (300, 40)]:
+        pts = rng.normal(size=(shape[0], 1, 3)) * 5
+        a0 = rng.normal(size=(shape[1], 3)) * 5
+        a1 = a0 + rng.normal(size=(shape[1], 3)) * rng.choice([0.0, 1e-9, 1.0], (shape[1], 1))
+        a1[0] = a0[0]                       # a zero-length segment (0/0: NaN, as before)
+        pts[0, 0] = a0[-1]                  # a point on a segment end
+        u = a1 - a0
+        uu = np.einsum("...i,...i->...", u, u)
+        w = pts - a0
+        with np.errstate(divide="ignore", invalid="ignore"):
+            ref = np.linalg.norm(w - np.clip(np.einsum("...i,...i->...", w, u) / uu, 0.0, 1.0)[..., None] * u, axis=-1)
+            got = point_segment_distances(pts, a0, a1)
+        assert _same_bits(got, ref)
