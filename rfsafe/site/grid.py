@@ -732,22 +732,6 @@ class _Block:
         return np.add.outer(dy * dy, dx * dx).reshape(-1)
 
 
-class _RowSums:
-    """``fy[i] + fx[j]`` on a grid block (rows i, columns j), formed only for the rows asked for: ``self[sl]`` with
-    a slice of whole rows (:meth:`_Block.rows_within`) is ``np.add.outer(fy, fx).reshape(-1)[sl]``."""
-
-    __slots__ = ("fy", "fx")
-
-    def __init__(self, fy, fx) -> None:
-        self.fy, self.fx = fy, fx
-
-    def __getitem__(self, sl: slice):
-        nx = self.fx.size
-        r0 = 0 if sl.start is None else sl.start // nx
-        r1 = self.fy.size if sl.stop is None else sl.stop // nx
-        return np.add.outer(self.fy[r0:r1], self.fx).reshape(-1)
-
-
 class _NearestPlan:
     """The constants of a structure's nearest-part distance (rfsafe.antenna.extent.structure_parts) in float32,
     made once per antenna: a block then does array operations only (:class:`_BlockNearest`)."""
@@ -945,8 +929,8 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
     With ``d2`` (squared distances to the nearest part of the structure [m^2]) it computes G/(4 pi d2)
     instead: the gain is still taken toward the point from the centre of radiation.
 
-    ``state[0]`` is always the squared horizontal distance [m^2] (float32; a tilted pattern table with a
-    structure gives it as :class:`_RowSums`, formed for the peak-gain candidates' rows alone).
+    ``state[0]`` is the squared horizontal distance [m^2] (float32), or None where nothing needs it (a
+    tilted pattern table with a structure on a grid: see :func:`_nearest_part_pass`).
     Untilted antennas get closed forms that reuse the height-independent part
     of the geometry; tilted dipoles, beams and pattern tables rotate the
     direction into the antenna frame from height-independent terms; other
@@ -1270,12 +1254,12 @@ def _evaluator(g: _Group, tables: dict | None = None) -> tuple[Callable, Callabl
                 if columns[0] is not blk.gx:
                     columns[:] = blk.gx, axis_terms(dx, ca, sa, True)
                 rows = axis_terms(dy, -sa, ca, False)
-                k = 1 if g.extent is not None else 0   # with a structure, rho^2 serves the candidates' rows only
+                k = 1 if g.extent is not None else 0   # with a structure nothing needs rho^2
                 both = np.empty((4 - k, dy.size, dx.size), dtype=_F32)
                 np.copyto(both, rows[k:, :, None])
                 both += columns[1][k:, None, :]
                 rgt, hor_c, hor_s = both[-3:].reshape(3, -1)
-                rho2 = _RowSums(rows[0], columns[1][0]) if k else both[0].reshape(-1)
+                rho2 = None if k else both[0].reshape(-1)
                 rgt2 = rgt * rgt
                 rgt2 += tiny
                 return rho2, rgt, rgt2, hor_c, hor_s
@@ -1425,18 +1409,26 @@ def _nearest_part_pass(grp: _Group, state, at, blk: _Block, heights, geo, near) 
     if lim > 0.0:
         # the candidates' least squared distance over the heights (on a grid, over the rows that hold any)
         sl = blk.rows_within(grp.x_m, grp.y_m, lim)
-        inside = rho2[sl] < lim
-        if inside.any():
+        # without rho^2 (a tilted pattern table with a structure) every point of the rows is a candidate: a
+        # distance to the structure below the threshold puts the point within reach + threshold anyway, so
+        # the test of rho^2 only saves work (were rounding to break that, a point would get the peak gain:
+        # never less)
+        inside = None if rho2 is None else rho2[sl] < lim
+        if inside.any() if inside is not None else sl.start != sl.stop:
             dmin = np.min(d2s[:, sl], axis=0) if all_heights else np.minimum.reduce([d2[sl] for d2 in d2s])
             base_i = 0 if sl.start is None else sl.start
             close = dmin < thr2
-            close &= inside
+            if inside is not None:
+                close &= inside
             idx = close.nonzero()[0]
             idx += base_i
             if nf2 == thr2:                   # the same points (a near-field distance of 1 cm or more)
                 near[idx] = True
             else:
-                near[base_i + (inside & (dmin < nf2)).nonzero()[0]] = True
+                near_nf = dmin < nf2
+                if inside is not None:
+                    near_nf &= inside
+                near[base_i + near_nf.nonzero()[0]] = True
     near_d2 = None
     if part is not None and idx is not None and idx.size:
         # the peak-gain points lie next to the structure, where float32 projections lose the digits a
