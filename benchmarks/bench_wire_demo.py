@@ -71,8 +71,10 @@ def main(repeats: int = 5) -> None:
 
 #: (module, function) timed by --parts, with the label printed.
 PARTS = [("rfsafe.antenna.wire.solver", "solve", "wire solves"),
+         ("rfsafe.antenna.wire.solver", "impedance_matrix", "  of which matrix fills"),
          ("rfsafe.antenna.wire.solver", "_peak_search", "  of which gain peak searches"),
-         ("rfsafe.antenna.wire.fields", "near_fields", "near fields (all callers)"),
+         ("rfsafe.antenna.wire.fields", "near_fields", "near fields, one solution at a time"),
+         ("rfsafe.antenna.wire.fields", "near_fields_together", "near fields, solutions together"),
          ("rfsafe.antenna.wire.fields", "check_points", "point checks (all callers)"),
          ("rfsafe.assess", "_wire_compliance_distances", "compliance-distance shells"),
          ("rfsafe.assess", "_wire_place_ratios", "place ratios (remedies, keep-out)"),
