@@ -1459,8 +1459,7 @@ def _chunk_pass(names, groups, evaluators, blk: _Block, heights, *, per_transmit
         for gi, (grp, (prepare, at)) in enumerate(zip(groups, evaluators)):
             state = prepare(blk)
             _nearest_part_pass(grp, state, at, blk, heights, geo[:, gi], near)
-    counts = np.bincount([g.transmitter for g in groups], minlength=n_t)
-    coef = np.array([g.coefficient for g in groups])          # (n_g, 2)
+    counts, coef, n_single, c_single, multi = _sum_plan(groups, n_t)
     if per_transmitter:
         out = np.zeros((2, n_t, n_h, n_p))
         for gi, grp in enumerate(groups):
@@ -1468,19 +1467,40 @@ def _chunk_pass(names, groups, evaluators, blk: _Block, heights, *, per_transmit
                 np.maximum(out[e, grp.transmitter], coef[gi, e] * geo[:, gi].astype(float),
                            out=out[e, grp.transmitter])
         return out, near
-    n_single = int(sum(counts[g.transmitter] == 1 for g in groups))   # they come first (see _groups)
-    c_single = coef[:n_single].T.astype(_F32)                          # (2, n_single)
-    multi = [t for t in range(n_t) if counts[t] > 1]
     total = np.zeros((n_h, 2, n_p), dtype=_F32)
     if n_single:
         for hi in range(n_h):
             np.matmul(c_single, geo[hi, :n_single], out=total[hi])
-    for t in multi:                       # every height at once (the same sums, in the same order per height)
-        idx = [gi for gi, g in enumerate(groups) if g.transmitter == t]
+    for idx, c_t in multi:                # every height at once (the same sums, in the same order per height)
         sub = geo[:, idx]                 # (H, groups of t, P)
         for e in range(2):
-            total[:, e] += np.max(coef[idx, e][:, None].astype(_F32) * sub, axis=1)
+            total[:, e] += np.max(c_t[e] * sub, axis=1)
     return total, near
+
+
+def _sum_plan(groups, n_t: int) -> tuple:
+    """The constants of :func:`_chunk_pass`'s sums, made once per list of groups: groups per transmitter,
+    coefficients (n_g, 2), the leading groups of one-antenna transmitters (see _groups) and their float32
+    coefficients (2, n_single), and per other transmitter its groups and float32 coefficient columns."""
+    cache = _SUM_PLANS.get(id(groups))
+    if cache is not None and cache[0] is groups:
+        return cache[1]
+    counts = np.bincount([g.transmitter for g in groups], minlength=n_t)
+    coef = np.array([g.coefficient for g in groups])          # (n_g, 2)
+    n_single = int(sum(counts[g.transmitter] == 1 for g in groups))   # they come first (see _groups)
+    c_single = coef[:n_single].T.astype(_F32)                          # (2, n_single)
+    multi = []
+    for t in range(n_t):
+        if counts[t] > 1:
+            idx = [gi for gi, g in enumerate(groups) if g.transmitter == t]
+            multi.append((idx, [coef[idx, e][:, None].astype(_F32) for e in range(2)]))
+    plan = (counts, coef, n_single, c_single, multi)
+    _SUM_PLANS.clear()                    # one list of groups at a time (a kernel call)
+    _SUM_PLANS[id(groups)] = (groups, plan)
+    return plan
+
+
+_SUM_PLANS: dict = {}
 
 
 def _check_points(x_m, y_m, heights_m):
