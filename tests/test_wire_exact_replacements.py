@@ -336,3 +336,27 @@ def test_point_segment_distances_are_the_clip_and_norm_ones():
             ref = np.linalg.norm(w - np.clip(np.einsum("...i,...i->...", w, u) / uu, 0.0, 1.0)[..., None] * u, axis=-1)
             got = point_segment_distances(pts, a0, a1)
         assert _same_bits(got, ref)
+
+
+def test_fields_together_refuse_what_fields_phasor_refuses():
+    """unit_fields_together checks the points once for solutions on the same segments when the first check
+    implies the others (solver._same_check); a point below the ground is still refused whichever comes first."""
+    from rfsafe.antenna.wire import solve
+    from rfsafe.antenna.wire import solver as S
+    from rfsafe.cli.cmd_demo import demo_dir
+    from rfsafe.errors import InputError
+    from rfsafe.station.load import load_station
+
+    spec = load_station(demo_dir() / "demo_wire_station.toml").wire_specs["wire-dipole-40m"]
+    per, free = (solve(spec.model_copy(update={"ground": g}), 7.1e6) for g in ("perfect", "free-space"))
+    assert S._same_check(per, free) and not S._same_check(free, per)
+    for pts in (np.array([[1.0, 2.0, -0.5], [3.0, 4.0, 1.0]]),       # below the ground (the perfect one refuses)
+                np.array([[0.0, 10.0, 8.0005], [3.0, 4.0, 1.0]])):    # on the dipole (both refuse)
+        for order in ((per, free), (free, per)):
+            fresh = [solve(spec.model_copy(update={"ground": s.ground}), 7.1e6) for s in order]
+            with pytest.raises(InputError) as together:
+                S.unit_fields_together(fresh, pts, field="p")
+            with pytest.raises(InputError) as alone:
+                for s in fresh:
+                    s.fields_rms(pts, 1.0, field="p")
+            assert str(together.value) == str(alone.value)

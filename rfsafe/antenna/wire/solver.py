@@ -1574,10 +1574,23 @@ def unit_fields_together(sols, points_m, *, field: str = "points_m") -> None:
     todo = [s for s in sols if key is not None and key not in s._unit_fields]
     if len(todo) < 2 or any(s.k != todo[0].k for s in todo):
         return
-    pts = [check_points(s, points_m, field=field) for s in todo][0]
+    pts = check_points(todo[0], points_m, field=field)
+    for s in todo[1:]:   # a check is implied by the first one's on the same segments (and its ground, if any)
+        if not _same_check(todo[0], s):
+            check_points(s, points_m, field=field)
     for s, (e, h) in zip(todo, near_fields_together([(s.structure, s.segment_current_a) for s in todo], todo[0].k,
                                                     pts)):
         s._keep_unit_fields(key, e, h)
+
+
+def _same_check(a: WireSolution, b: WireSolution) -> bool:
+    """Whether ``fields.check_points`` accepting points for solution ``a`` implies it accepts them for ``b``:
+    the same segments and radii, wavelength and limits, and no ground check on ``b`` that ``a`` did not make."""
+    sa, sb = a.structure, b.structure
+    return (a.wavelength_m == b.wavelength_m and a.limits_enforced == b.limits_enforced
+            and (sa.ground or not sb.ground) and (sa.soil_eps_c is None) == (sb.soil_eps_c is None)
+            and all(x.shape == y.shape and x.tobytes() == y.tobytes() for x, y in
+                    ((sa.start_m, sb.start_m), (sa.end_m, sb.end_m), (sa.radius_m, sb.radius_m), (sa.wire, sb.wire))))
 
 
 def _diameter(pts: np.ndarray) -> float:
