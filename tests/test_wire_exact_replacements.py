@@ -360,3 +360,23 @@ def test_fields_together_refuse_what_fields_phasor_refuses():
                 for s in fresh:
                     s.fields_rms(pts, 1.0, field="p")
             assert str(together.value) == str(alone.value)
+
+
+@pytest.mark.parametrize("n_points", [1, 4, 300, 2000])   # the all-runs path and the run-by-run path
+def test_choke_sweep_fields_are_near_fields_one_by_one(n_points):
+    from rfsafe.antenna.wire import fields as F
+    from rfsafe.antenna.wire import solve
+    from rfsafe.antenna.wire.shield import ChokeSweep
+    from rfsafe.antenna.wire.solver import segment_currents
+    from rfsafe.cli.cmd_demo import demo_dir
+    from rfsafe.station.load import load_station
+
+    spec = load_station(demo_dir() / "demo_wire_station.toml").wire_specs["wire-dipole-40m-choke"]
+    sol = solve(spec, 7.05e6)
+    rng = np.random.default_rng(4)
+    pts = np.column_stack([rng.uniform(-12, 12, n_points), rng.uniform(-4, 20, n_points), rng.uniform(0.2, 3, n_points)])
+    sw = ChokeSweep(sol, pts)
+    st = sol.structure
+    for c, (e, h) in ((sol.basis_current_a, (sw._ea, sw._ha)), (sw._b, (sw._eb, sw._hb))):
+        e1, h1 = F.near_fields(st, sol.k, segment_currents(st, c), pts)
+        assert _same_bits(e, e1) and _same_bits(h, h1)

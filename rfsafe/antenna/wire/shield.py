@@ -323,7 +323,7 @@ class ChokeSweep:
     """
 
     def __init__(self, sol, points_m, *, field: str = "points_m"):
-        from rfsafe.antenna.wire.fields import check_points, near_fields
+        from rfsafe.antenna.wire.fields import check_points, near_fields_together
         from rfsafe.antenna.wire.solver import segment_currents
 
         st = sol.structure
@@ -336,10 +336,11 @@ class ChokeSweep:
         self._ga, self._gb = complex(self._g @ self._a), complex(self._g @ self._b)
         pts = check_points(sol, points_m, field=field)
         self._route = np.isin(st.wire, sol.shield.route_wires)
-        fields = []
-        for c in (self._a, self._b):
-            seg = segment_currents(st, c)   # a few rows at a time (no complex copy of the map)
-            fields.append(near_fields(st, sol.k, seg, pts) if len(pts) else (np.zeros((0, 3)), np.zeros((0, 3))))
+        # a few rows at a time (no complex copy of the map); the two current sets on one structure share the
+        # distances and phase factors (near_fields_together: the numbers near_fields gives each)
+        segs = [(st, segment_currents(st, c)) for c in (self._a, self._b)]
+        fields = (near_fields_together(segs, sol.k, pts) if len(pts) else
+                  [(np.zeros((0, 3)), np.zeros((0, 3))) for _ in range(2)])
         (self._ea, self._ha), (self._eb, self._hb) = fields
         g = st.feed_coupling
         self._ia, self._ib = g @ self._a, g @ self._b
