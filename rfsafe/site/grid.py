@@ -674,17 +674,23 @@ class _Block:
         dx, dy = self._offsets(x0, y0)
         return (dx * cx).astype(_F32), (dy * cy).astype(_F32)
 
-    def rows_within(self, x0: float, y0: float, lim_m2: float) -> slice:
-        """The slice of the block's points that holds every point with ``(px - x0)^2 + (py - y0)^2 < lim_m2``
-        (on a grid: the rows whose ``(py - y0)^2`` is below it; otherwise all points)."""
+    def window_within(self, x0: float, y0: float, lim_m2: float) -> tuple:
+        """``(ny, nx, r0, r1, c0, c1)``: the block as ny rows of nx points, and the rows r0:r1 and columns c0:c1
+        that hold every point with ``(px - x0)^2 + (py - y0)^2 < lim_m2`` (on a grid: the rows whose
+        ``(py - y0)^2`` and the columns whose ``(px - x0)^2`` are below it, a superset; flat points: one row,
+        all of them)."""
         if self.gx is None:
-            return slice(None)
-        dy = self.gy - y0
-        dy *= dy
-        rows = (dy < lim_m2 * (1.0 + 1e-5)).nonzero()[0]     # a superset: the points are tested after
-        if not rows.size:
-            return slice(0, 0)
-        return slice(int(rows[0]) * self.gx.size, (int(rows[-1]) + 1) * self.gx.size)
+            return 1, self.size, 0, 1, 0, self.size
+        lim = lim_m2 * (1.0 + 1e-5)
+        d = self.gy - y0
+        d *= d
+        rows = (d < lim).nonzero()[0]
+        d = self.gx - x0
+        d *= d
+        cols = (d < lim).nonzero()[0]
+        if not rows.size or not cols.size:
+            return self.gy.size, self.gx.size, 0, 0, 0, 0
+        return self.gy.size, self.gx.size, int(rows[0]), int(rows[-1]) + 1, int(cols[0]), int(cols[-1]) + 1
 
     def points(self, idx):
         """The coordinates of the points ``idx`` (flat indices into the block)."""
@@ -1407,28 +1413,33 @@ def _nearest_part_pass(grp: _Group, state, at, blk: _Block, heights, geo, near) 
     lim, nf2, thr2, k_peak = grp.near_limits(heights)
     idx = None
     if lim > 0.0:
-        # the candidates' least squared distance over the heights (on a grid, over the rows that hold any)
-        sl = blk.rows_within(grp.x_m, grp.y_m, lim)
-        # without rho^2 (a tilted pattern table with a structure) every point of the rows is a candidate: a
-        # distance to the structure below the threshold puts the point within reach + threshold anyway, so
-        # the test of rho^2 only saves work (were rounding to break that, a point would get the peak gain:
-        # never less)
-        inside = None if rho2 is None else rho2[sl] < lim
-        if inside.any() if inside is not None else sl.start != sl.stop:
-            dmin = np.min(d2s[:, sl], axis=0) if all_heights else np.minimum.reduce([d2[sl] for d2 in d2s])
-            base_i = 0 if sl.start is None else sl.start
-            close = dmin < thr2
-            if inside is not None:
-                close &= inside
-            idx = close.nonzero()[0]
-            idx += base_i
-            if nf2 == thr2:                   # the same points (a near-field distance of 1 cm or more)
-                near[idx] = True
-            else:
-                near_nf = dmin < nf2
+        # the candidates' least squared distance over the heights (on a grid, over the window of rows and
+        # columns that holds any; flat points as one row)
+        ny, nx, r0, r1, c0, c1 = blk.window_within(grp.x_m, grp.y_m, lim)
+        if r0 < r1 and c0 < c1:
+            def window(a):
+                return a.reshape(-1, ny, nx)[..., r0:r1, c0:c1]
+            # without rho^2 (a tilted pattern table with a structure) every point of the window is a
+            # candidate: a distance to the structure below the threshold puts the point within reach +
+            # threshold anyway, so the test of rho^2 only saves work (were rounding to break that, a point
+            # would get the peak gain: never less)
+            inside = None if rho2 is None else window(rho2)[0] < lim
+            if inside is None or inside.any():
+                dmin = (np.min(window(d2s), axis=0) if all_heights
+                        else np.minimum.reduce([window(d2)[0] for d2 in d2s]))
+                close = dmin < thr2
                 if inside is not None:
-                    near_nf &= inside
-                near[base_i + near_nf.nonzero()[0]] = True
+                    close &= inside
+                ri, ci = close.nonzero()
+                idx = (ri + r0) * nx + (ci + c0)
+                if nf2 == thr2:                   # the same points (a near-field distance of 1 cm or more)
+                    near[idx] = True
+                else:
+                    near_nf = dmin < nf2
+                    if inside is not None:
+                        near_nf &= inside
+                    ri, ci = near_nf.nonzero()
+                    near[(ri + r0) * nx + (ci + c0)] = True
     near_d2 = None
     if part is not None and idx is not None and idx.size:
         # the peak-gain points lie next to the structure, where float32 projections lose the digits a
