@@ -797,7 +797,7 @@ def _wire_place_ratios(em: Emitter, loaded: LoadedStation, cres: ConfigurationRe
         # points on a conductor are refused
         unit_fields_together(sols, pts, field=field)
         for sol in sols:
-            sol.fields_rms(pts, 1.0, field=field)
+            sol.fields_phasor(pts, 1.0, field=field)   # (the check and the kept fields; no rms wanted here)
     except InputError:   # some place on or next to a conductor (refused: counts as exceeding); halve and retry
         if n == 1:
             return np.array([math.inf])

@@ -1540,8 +1540,9 @@ class WireSolution:
             sqrt(sum |E_i|^2 / 2) [V/m rms] and the same for H [A/m rms].
         """
         e, h = self.fields_phasor(points_m, input_power_w, field=field)
-        return (np.sqrt(0.5 * np.sum(np.abs(e) ** 2, axis=-1)),
-                np.sqrt(0.5 * np.sum(np.abs(h) ** 2, axis=-1)))
+        # np.add.reduce is what np.sum calls (the same sums; its Python wrapper costs more than they do here)
+        return (np.sqrt(0.5 * np.add.reduce(np.abs(e) ** 2, axis=-1)),
+                np.sqrt(0.5 * np.add.reduce(np.abs(h) ** 2, axis=-1)))
 
     def point_cautions(self, points_m, labels=None) -> tuple[str, ...]:
         """Method-limit cautions for points (closer to a wire than one segment length)."""
