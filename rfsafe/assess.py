@@ -303,8 +303,27 @@ def _schedule_text(c: Configuration) -> str:
     return f"{c.schedule.on_minutes:g} min on / {c.schedule.off_minutes:g} min off"
 
 
+#: Line results kept (see _line_result): the last few.
+_KEPT_LINES = 64
+_kept_lines: dict = {}
+
+
 def _line_result(station: Station, index: int, c: Configuration, f: Feedline, pep_w: float,
                  thermal_avg_w: float):
+    """The feedline evaluation of a configuration (``feedline.evaluate_line``), kept by everything it reads:
+    the remedies' trials of a schedule leave it unchanged (the same inputs, the same frozen result)."""
+    key = (station.exact_line_loss, index, c.freq_mhz, c.swr, c.load_r_ohm, c.load_x_ohm,
+           None if c.tuner is None else c.tuner.model_dump_json(), f.model_dump_json(), pep_w, thermal_avg_w)
+    hit = _kept_lines.get(key)
+    if hit is None:
+        hit = _kept_lines[key] = _evaluate_line(station, index, c, f, pep_w, thermal_avg_w)
+        while len(_kept_lines) > _KEPT_LINES:
+            _kept_lines.pop(next(iter(_kept_lines)))
+    return hit
+
+
+def _evaluate_line(station: Station, index: int, c: Configuration, f: Feedline, pep_w: float,
+                   thermal_avg_w: float):
     from rfsafe import feedline as fl
 
     freq_hz = c.freq_mhz * 1e6

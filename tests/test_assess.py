@@ -444,3 +444,32 @@ def test_line_loss_too_large_to_mean_anything_is_refused(tmp_path):
     assert r.exit_code == 2 and r.stdout == ""
     assert r.stderr.startswith('Error: configurations[0]: "hf" loses ')
     assert "(accepted: at most 20 dB" in r.stderr and "check freq_mhz (in MHz)" in r.stderr
+
+
+def test_kept_line_results_are_the_fresh_ones():
+    # assess._line_result keeps feedline.evaluate_line's result by everything it reads; a schedule change (what
+    # the remedies try) leaves the inputs, and so the result, unchanged; a power change makes a new one
+    from pathlib import Path
+
+    from rfsafe import assess as A
+    from rfsafe.station import load_station
+
+    loaded = load_station(Path(__file__).parent.parent / "reports_demo" / "demo_wire_station.toml")
+    st = loaded.model
+    c = st.configurations[1]
+    f = next(x for x in st.feedlines if x.id == c.feedline)
+    import dataclasses
+
+    import numpy as np
+
+    def same(a, b):
+        return all(np.array_equal(x, y) if isinstance(x, np.ndarray) else repr(x) == repr(y)
+                   for x, y in ((getattr(a, q.name), getattr(b, q.name)) for q in dataclasses.fields(a)))
+
+    A._kept_lines.clear()
+    kept = A._line_result(st, 1, c, f, 400.0, 160.0)
+    assert A._line_result(st, 1, c.model_copy(update={"description": "changed"}), f, 400.0, 160.0) is kept
+    assert same(kept, A._evaluate_line(st, 1, c, f, 400.0, 160.0))
+    other = A._line_result(st, 1, c, f, 300.0, 160.0)
+    assert other is not kept and same(other, A._evaluate_line(st, 1, c, f, 300.0, 160.0))
+    assert not same(other, kept)
