@@ -623,7 +623,9 @@ def ground_keep_out(loaded, result: EvaluationResult, emitters) -> tuple[GroundK
                     ys = [em.y_m + r * math.cos(math.radians(b)) for b in bearings for r in rs]
                     vals = [float(q) for q in place_ratios(em, loaded, cres, _env, xs, ys, _heights)]
                     for k, (x, y) in enumerate(zip(xs, ys)):   # at the antenna's centre: unbounded
-                        if any(math.dist((x, y, z), (em.x_m, em.y_m, em.height_m)) < 1e-3 for z in _heights):
+                        # (a place 2 mm or more from it horizontally is 1 mm or more from it: not tested further)
+                        if abs(x - em.x_m) < 2e-3 and abs(y - em.y_m) < 2e-3 and any(
+                                math.dist((x, y, z), (em.x_m, em.y_m, em.height_m)) < 1e-3 for z in _heights):
                             vals[k] = math.inf
                     return vals
 
