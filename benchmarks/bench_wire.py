@@ -29,10 +29,20 @@ import time
 
 import numpy as np
 
-from rfsafe.antenna.wire import WireAntennaSpec, solve
+from rfsafe.antenna.wire import WireAntennaSpec
+from rfsafe.antenna.wire import solve as _solve
+from rfsafe.antenna.wire import solver as _solver
 from rfsafe.antenna.wire.geometry import build_structure
 from rfsafe.antenna.wire.model import check_wire_antenna
 from rfsafe.antenna.wire.solver import impedance_matrix
+
+
+def solve(spec, freq_hz):
+    """``solve`` cold: without an impedance matrix kept from an earlier repetition of the same structure
+    (solve keeps the last few small ones, which the repeated timings here would otherwise reuse)."""
+    _solver._kept_matrices.clear()
+    return _solve(spec, freq_hz)
+
 
 F_HZ = 299_792_458.0  # lambda = 1 m
 BEAM_FLOOR_S = 0.3
