@@ -4,8 +4,8 @@
 Only the first ceil(n / 2) nodes (x <= 0) and their weights are stored: numpy makes the nodes antisymmetric and
 the weights symmetric exactly (x = (x - x[::-1]) / 2, w = (w + w[::-1]) / 2), so the rest are the mirror images.
 Read by :func:`rfsafe.antenna.wire.kernel.gauss_legendre_01`, which then need not import ``numpy.polynomial``
-(about 2 ms); tests/test_wire_exact_replacements.py checks every entry against ``leggauss`` (bit for bit with numpy 2.4.6)
-and for exactness on polynomials.
+(about 2 ms); tests/test_wire_exact_replacements.py checks every entry against ``leggauss`` (bit for bit with
+numpy 2.4.6) and for exactness on polynomials.
 """
 
 #: n -> (first ceil(n/2) nodes, their weights), each exactly as ``leggauss(n)`` gives them.
