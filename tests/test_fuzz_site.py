@@ -101,6 +101,12 @@ def test_grid_spacing_boundary_and_power_extremes(spacing, span, pep_w):
     _run(doc)
 
 
+def test_subnormal_grid_spacing():
+    """Found by the long fuzz: grid_spacing_m = 5e-324 made the margin over it infinite (OverflowError, exit 3)."""
+    code, _, err = _run({**EVENT, "grid_spacing_m": 5e-324})
+    assert code == 2 and err.startswith("Error: grid_spacing_m: 5e-324 gives more grid points"), err
+
+
 @pytest.mark.parametrize("key", ["transmitters", "feedlines", "antennas", "configurations"])
 def test_empty_inline_station_table(key):
     """Found by the fuzz: an empty inline table escaped as a pydantic ValidationError (exit 3)."""
