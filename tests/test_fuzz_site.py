@@ -102,9 +102,10 @@ def test_grid_spacing_boundary_and_power_extremes(spacing, span, pep_w):
 
 
 def test_subnormal_grid_spacing():
-    """Found by the long fuzz: grid_spacing_m = 5e-324 made the margin over it infinite (OverflowError, exit 3)."""
+    """Found by the long fuzz: grid_spacing_m = 5e-324 made the margin over it infinite (OverflowError, exit 3);
+    lengths below a nanometre are now refused with the other bounds (rfsafe.bounds.MIN_NONZERO_M)."""
     code, _, err = _run({**EVENT, "grid_spacing_m": 5e-324})
-    assert code == 2 and err.startswith("Error: grid_spacing_m: 5e-324 gives more grid points"), err
+    assert code == 2 and err.startswith("Error: grid_spacing_m: 5e-324 is out of range (accepted: 0 or a magnitude"), err
 
 
 @pytest.mark.parametrize("key", ["transmitters", "feedlines", "antennas", "configurations"])

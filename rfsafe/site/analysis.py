@@ -210,12 +210,6 @@ def analyse_site(emitters: Sequence[SiteEmitter], *, boundary, areas: Sequence[A
     reach = summed_reach_m(emitters)
     bx = [p[0] for p in boundary] + [g.x_m for g in groups]
     by = [p[1] for p in boundary] + [g.y_m for g in groups]
-    # a spacing so small that a coordinate or the margin over it overflows (5e-324 m) would need more points
-    # than any limit: refused like any other spacing that gives too many points
-    if not all(math.isfinite(v / grid_spacing_m) for v in (reach, *bx, *by)):
-        raise bad_value(f"{field_prefix}grid_spacing_m", grid_spacing_m,
-                        f"gives more grid points over the site than can be counted (accepted: at most "
-                        f"{MAX_GRID_POINTS:,} points; use a larger spacing)")
     margin = max(2.0 * grid_spacing_m, math.ceil(reach / grid_spacing_m) * grid_spacing_m)
     # count the points before allocating them: a tiny spacing or a huge margin must be refused, not
     # attempted (math on Python floats: no overflow, no allocation)
