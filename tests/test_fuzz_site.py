@@ -101,6 +101,14 @@ def test_grid_spacing_boundary_and_power_extremes(spacing, span, pep_w):
     _run(doc)
 
 
+def test_station_file_name_too_long():
+    """Found by the long fuzz: a station file name over the system's limit raised OSError (exit 3)."""
+    station = {"name": "S", "file": "=[" * 300 + "demo_station.toml", "x_m": 1.0, "y_m": 1.0}
+    code, _, err = _run({**FILE_SITE, "stations": [station]})
+    assert code == 2 and err.startswith("Error: stations[0].file: "), err
+    assert "cannot be read" in err, err
+
+
 def test_subnormal_grid_spacing():
     """Found by the long fuzz: grid_spacing_m = 5e-324 made the margin over it infinite (OverflowError, exit 3);
     lengths below a nanometre are now refused with the other bounds (rfsafe.bounds.MIN_NONZERO_M)."""

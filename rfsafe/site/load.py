@@ -48,10 +48,13 @@ def _station_from_file(i: int, s: SiteStation, site: Site, base: Path):
             raise InputError(f"stations[{i}].{key}: applies only to an inline station (this station is read "
                              f"from {format_value(s.file)})")
     path = base / s.file
-    if not path.is_file():
+    try:
+        is_file, exists = path.is_file(), path.exists()
+    except OSError as exc:   # a name too long, a path through a file, ...: not a readable file either
+        raise bad_value(f"stations[{i}].file", s.file, f"cannot be read ({exc.strerror})") from None
+    if not is_file:
         raise bad_value(f"stations[{i}].file", s.file,
-                        "does not exist (a path relative to the site file)" if not path.exists()
-                        else "is not a file")
+                        "does not exist (a path relative to the site file)" if not exists else "is not a file")
     prefix = f"stations[{i}] (file {format_value(s.file)}): "
     try:
         data, raw = read_toml(path)
