@@ -18,7 +18,7 @@ __all__ = [
     "MAX_CONFIGURATIONS", "MAX_PLACE_CONFIGURATIONS", "check_place_configurations", "MAX_BODY_HEIGHTS",
     "MAX_SITE_STATIONS", "MAX_POLYGON_VERTICES",
     "MAX_GRID_POINTS", "MAX_WIRE_SEGMENTS", "MAX_WIRE_POINTS", "MAX_PATTERN_ROWS", "MAX_POWER_W",
-    "MAX_DISTANCE_M", "MIN_NONZERO_M", "MAX_LENGTH_M", "MAX_SWR", "MAX_IMPEDANCE_OHM",
+    "MAX_DISTANCE_M", "MIN_SIZE_M", "MAX_LENGTH_M", "MAX_SWR", "MAX_IMPEDANCE_OHM",
     "MAX_TEXT_CHARS", "MAX_GAIN_DBI", "MIN_GAIN_DBI", "MAX_LOSS_DB", "MAX_Q", "check_nesting", "nesting_error",
     "nesting_depth", "finite_in_range", "field_bound_problem", "MAX_ANY_NUMBER",
     "check_file_size", "bounds_table",
@@ -160,9 +160,12 @@ MAX_ANY_NUMBER = 1e12
 #: Lowest frequency [MHz]: 3 kHz, the lower end of the radio spectrum (ITU Radio Regulations, common
 #: practice). Below it nothing here applies, and a wire antenna would be a vanishing fraction of a wavelength.
 MIN_FREQ_MHZ = 0.003
-#: Smallest nonzero length, coordinate or height [m]: a nanometre, far below any wire radius or grid spacing,
-#: and far above the subnormal numbers (5e-324) whose quotients overflow (common practice: no physical meaning).
-MIN_NONZERO_M = 1e-9
+#: Smallest wire radius, segment length or grid spacing [m]: a nanometre, far below any real one, and far above
+#: the subnormal numbers (5e-324) whose squares and quotients underflow or overflow. Coordinates are not bounded
+#: below (a computed 6e-16 is a zero).
+MIN_SIZE_M = 1e-9
+#: The sizes MIN_SIZE_M applies to.
+_SIZE_FIELDS = ("radius_m", "max_segment_m", "grid_spacing_m")
 #: Longest lists by field name; any other list holds at most MAX_LIST_ITEMS.
 _LIST_BOUNDS = {
     "places": MAX_PLACES, "points": MAX_PLACES, "configurations": MAX_CONFIGURATIONS,
@@ -221,10 +224,10 @@ def field_bound_problem(name: str, value: Any) -> str | None:
             shown = f"{x:g}" if isinstance(x, float) else str(x)
             lead = f"has {shown} at {where}, " if where else "is "
             return f"{lead}out of range (accepted: frequencies of at least {MIN_FREQ_MHZ:g} MHz)"
-        if unit == "m" and 0 < abs(x) < MIN_NONZERO_M:
+        if name in _SIZE_FIELDS and 0 < abs(x) < MIN_SIZE_M:
             shown = f"{x:g}" if isinstance(x, float) else str(x)
             lead = f"has {shown} at {where}, " if where else "is "
-            return f"{lead}out of range (accepted: 0 or a magnitude of at least {MIN_NONZERO_M:g} m)"
+            return f"{lead}out of range (accepted: at least {MIN_SIZE_M:g} m)"
     return None
 
 
@@ -254,8 +257,9 @@ def bounds_table() -> tuple[tuple[str, str], ...]:
              "_minutes": "times (`*_minutes`)", "_q": "quality factors (`*_q`)", "_v_peak": "voltages (`*_v_peak`)"}
     for suffix, hi, unit in _BY_SUFFIX:
         if suffix in names:
-            low = (f"{MIN_FREQ_MHZ:g} MHz <= " if suffix == "_mhz" else
-                   f"0 or {MIN_NONZERO_M:g} m <= " if unit == "m" else "")
+            low = f"{MIN_FREQ_MHZ:g} MHz <= " if suffix == "_mhz" else ""
             rows.append((names[suffix], f"{low}magnitude <= {hi:g}{' ' + unit if unit else ''}"))
+    rows.append(("wire radius, segment length, grid spacing (`radius_m`, `max_segment_m`, `grid_spacing_m`)",
+                 f">= {MIN_SIZE_M:g} m"))
     rows.append(("any other number", f"magnitude <= {MAX_ANY_NUMBER:g}"))
     return tuple(rows)

@@ -111,9 +111,9 @@ def test_station_file_name_too_long():
 
 def test_subnormal_grid_spacing():
     """Found by the long fuzz: grid_spacing_m = 5e-324 made the margin over it infinite (OverflowError, exit 3);
-    lengths below a nanometre are now refused with the other bounds (rfsafe.bounds.MIN_NONZERO_M)."""
+    sizes below a nanometre are now refused with the other bounds (rfsafe.bounds.MIN_SIZE_M)."""
     code, _, err = _run({**EVENT, "grid_spacing_m": 5e-324})
-    assert code == 2 and err.startswith("Error: grid_spacing_m: 5e-324 is out of range (accepted: 0 or a magnitude"), err
+    assert code == 2 and err.startswith("Error: grid_spacing_m: 5e-324 is out of range (accepted: at least 1e-09 m)"), err
 
 
 @pytest.mark.parametrize("key", ["transmitters", "feedlines", "antennas", "configurations"])
