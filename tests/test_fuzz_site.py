@@ -109,6 +109,13 @@ def test_station_file_name_too_long():
     assert "cannot be read" in err, err
 
 
+def test_area_edge_a_subnormal_apart():
+    """Found by the long fuzz: an area vertex 5e-324 m above its neighbour raised a RuntimeWarning (0 * inf)."""
+    area = {"label": "Lawn", "kind": "public", "polygon": [[0.0, 0.0], [20.0, 5e-324], [20.0, 20.0]]}
+    code, _, err = _run({**FILE_SITE, "areas": [area]})
+    assert code in (0, 1, 4, 5), err
+
+
 def test_subnormal_grid_spacing():
     """Found by the long fuzz: grid_spacing_m = 5e-324 made the margin over it infinite (OverflowError, exit 3);
     sizes below a nanometre are now refused with the other bounds (rfsafe.bounds.MIN_SIZE_M)."""

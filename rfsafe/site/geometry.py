@@ -92,7 +92,10 @@ def points_in_polygon(x_m, y_m, polygon) -> np.ndarray:
         if y1 == y2:
             continue  # a horizontal edge is never crossed by a horizontal ray
         straddle = (y1 > y) != (y2 > y)
-        x_cross = x1 + (y - y1) * ((x2 - x1) / (y2 - y1))
+        # an edge only a subnormal apart in y (5e-324) has an infinite slope: 0 * inf = NaN where the point
+        # does not straddle it, which the mask drops; where it does, the crossing is at +-inf or a number
+        with np.errstate(invalid="ignore", over="ignore"):
+            x_cross = x1 + (y - y1) * ((x2 - x1) / (y2 - y1))
         inside ^= straddle & (x < x_cross)
     return inside
 
