@@ -18,7 +18,7 @@ __all__ = [
     "MAX_CONFIGURATIONS", "MAX_PLACE_CONFIGURATIONS", "check_place_configurations", "MAX_BODY_HEIGHTS",
     "MAX_SITE_STATIONS", "MAX_POLYGON_VERTICES",
     "MAX_GRID_POINTS", "MAX_WIRE_SEGMENTS", "MAX_WIRE_POINTS", "MAX_PATTERN_ROWS", "MAX_POWER_W",
-    "MAX_DISTANCE_M", "MIN_SIZE_M", "MAX_LENGTH_M", "MAX_SWR", "MAX_IMPEDANCE_OHM",
+    "MAX_DISTANCE_M", "MIN_SIZE_M", "MIN_POWER_W", "MAX_LENGTH_M", "MAX_SWR", "MAX_IMPEDANCE_OHM",
     "MAX_TEXT_CHARS", "MAX_GAIN_DBI", "MIN_GAIN_DBI", "MAX_LOSS_DB", "MAX_Q", "check_nesting", "nesting_error",
     "nesting_depth", "finite_in_range", "field_bound_problem", "MAX_ANY_NUMBER",
     "check_file_size", "bounds_table",
@@ -166,6 +166,11 @@ MIN_FREQ_MHZ = 0.003
 MIN_SIZE_M = 1e-9
 #: The sizes MIN_SIZE_M applies to.
 _SIZE_FIELDS = ("radius_m", "max_segment_m", "grid_spacing_m")
+#: Smallest transmitter or input power [W]: a nanowatt, far below any transmitter, and far above the
+#: subnormal numbers whose products underflow to 0 W (common practice: no physical meaning).
+MIN_POWER_W = 1e-9
+#: The powers MIN_POWER_W applies to.
+_POWER_FIELDS = ("pep_w", "input_power_w")
 #: Longest lists by field name; any other list holds at most MAX_LIST_ITEMS.
 _LIST_BOUNDS = {
     "places": MAX_PLACES, "points": MAX_PLACES, "configurations": MAX_CONFIGURATIONS,
@@ -228,6 +233,10 @@ def field_bound_problem(name: str, value: Any) -> str | None:
             shown = f"{x:g}" if isinstance(x, float) else str(x)
             lead = f"has {shown} at {where}, " if where else "is "
             return f"{lead}out of range (accepted: at least {MIN_SIZE_M:g} m)"
+        if name in _POWER_FIELDS and 0 < abs(x) < MIN_POWER_W:
+            shown = f"{x:g}" if isinstance(x, float) else str(x)
+            lead = f"has {shown} at {where}, " if where else "is "
+            return f"{lead}out of range (accepted: at least {MIN_POWER_W:g} W)"
     return None
 
 
@@ -261,5 +270,6 @@ def bounds_table() -> tuple[tuple[str, str], ...]:
             rows.append((names[suffix], f"{low}magnitude <= {hi:g}{' ' + unit if unit else ''}"))
     rows.append(("wire radius, segment length, grid spacing (`radius_m`, `max_segment_m`, `grid_spacing_m`)",
                  f">= {MIN_SIZE_M:g} m"))
+    rows.append(("transmitter and input power (`pep_w`, `input_power_w`)", f">= {MIN_POWER_W:g} W"))
     rows.append(("any other number", f"magnitude <= {MAX_ANY_NUMBER:g}"))
     return tuple(rows)

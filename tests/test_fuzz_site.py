@@ -116,6 +116,13 @@ def test_area_edge_a_subnormal_apart():
     assert code in (0, 1, 4, 5), err
 
 
+def test_subnormal_power():
+    """Found by the long fuzz: pep_w = 5e-324 W underflowed to 0 W (ZeroDivisionError, exit 3)."""
+    station = {**WIRE_SITE["stations"][0], "transmitters": [{"id": "tx", "pep_w": 5e-324}]}
+    code, _, err = _run({**WIRE_SITE, "stations": [station]})
+    assert code == 2 and "pep_w: 5e-324 is out of range (accepted: at least 1e-09 W)" in err, err
+
+
 def test_subnormal_grid_spacing():
     """Found by the long fuzz: grid_spacing_m = 5e-324 made the margin over it infinite (OverflowError, exit 3);
     sizes below a nanometre are now refused with the other bounds (rfsafe.bounds.MIN_SIZE_M)."""
