@@ -91,7 +91,8 @@ def _wire_summary(solution):
     from rfsafe.results import WireSummary
 
     return WireSummary(feed_impedance_ohm=complex(solution.feed_impedance_ohm[0]), gain_dbi=float(solution.gain_dbi),
-                       radiated_over_input_power=float(solution.radiated_over_input_power))
+                       radiated_over_input_power=float(solution.radiated_over_input_power),
+                       carried_over_input_power=float(solution.carried_power_w / solution.input_power_w))
 
 
 #: Heights of a standing person's body at which near-field maps are evaluated, worst taken [m].
@@ -505,6 +506,11 @@ def _configuration(loaded: LoadedStation, i: int, c: Configuration, ground_facto
         f"lumped load {ld.label!r} on {ant.id} ({ld.voltage_v_peak:.4g} V peak at the PEP, rated "
         f"{ld.voltage_rating_v_peak:g} V peak)" for ld in loads if ld.voltage_headroom is not None
         and ld.voltage_headroom < 1)
+    from rfsafe.antenna.wire.solver import power_basis_flag
+
+    basis = power_basis_flag((solution, twin))
+    if basis is not None:
+        flags.append(basis)
     if any(ld.voltage_rating_v_peak is None for ld in loads):
         flags.append("lumped loads without voltage_rating_v_peak are not rated: their peak voltage at the PEP "
                      "is shown but not compared")

@@ -454,6 +454,9 @@ def _define_on_first_use() -> None:
         feed_impedance_ohm: complex
         gain_dbi: float
         radiated_over_input_power: float
+        #: 0.5 c^H Re(Z) c over the terminal power 0.5 Re V I*: 1 on wires of one radius; results are
+        #: scaled to the smaller of the two powers (conservative; see solver.power_basis_w).
+        carried_over_input_power: float = 1.0
 
     @_result
     class NearFieldMap(_Result):

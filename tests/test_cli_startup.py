@@ -112,7 +112,8 @@ def test_result_classes_defined_on_first_use_are_the_module_level_classes():
             "                  pickle.loads(pickle.dumps(w)) == w, frozen, sorted(QuickAnswer.NONFINITE_NOTES),\n"
             "                  all(n in ns for n in r._ON_FIRST_USE)]))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
-    text = "WireSummary(feed_impedance_ohm=(50+1j), gain_dbi=2.1, radiated_over_input_power=0.97)"
+    text = ("WireSummary(feed_impedance_ohm=(50+1j), gain_dbi=2.1, radiated_over_input_power=0.97, "
+            "carried_over_input_power=1.0)")
     assert json.loads(out) == [[], text, "rfsafe.results.WireSummary", True, True, ["largest_pep_w"], True]
 
 

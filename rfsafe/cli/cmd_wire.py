@@ -69,6 +69,7 @@ class WireResult:
     points: tuple[WirePointResult, ...]
     cautions: tuple[str, ...]
     load_power_over_input_power: float = 0.0
+    carried_over_input_power: float = 1.0   # 0.5 c^H Re(Z) c / terminal power (see solver.power_basis_w)
     loads: tuple = ()                  # rfsafe.antenna.wire.loads.LoadStress, at input_power_w
     common_mode: object = None         # rfsafe.antenna.wire.shield.CommonModeCurrent, or None
 
@@ -127,7 +128,13 @@ def build_result(path: Path) -> WireResult:
         cautions.append("Real ground: 'radiated / input power' counts the space wave into the air only; the rest "
                         "is lost in the soil or carried along it by the surface wave. Soil values of the named "
                         "classes are typical, not measured: the field near the ground depends on them.")
+    from rfsafe.antenna.wire.solver import power_basis_flag
+
+    basis = power_basis_flag([sol])
+    if basis is not None:
+        cautions.append(basis[0].upper() + basis[1:] + ".")
     return WireResult(
+        carried_over_input_power=sol.carried_power_w / sol.input_power_w,
         load_power_over_input_power=sol.load_power_w / sol.input_power_w, loads=loads, common_mode=cm,
         file=str(path), method="thin-wire moment method (PWS Galerkin, reduced kernel)"
         + (f"; {sol.ground_method}" if sol.ground == "real" else ""),
@@ -181,7 +188,8 @@ def wire(
         [["peak gain", f"{res.gain_dbi:.2f} dBi"],
          ["peak direction", f"azimuth {res.peak_azimuth_deg:.1f} deg, elevation {res.peak_elevation_deg:.1f} deg"],
          ["front-to-back", fb],
-         ["radiated / input power", f"{res.radiated_over_input_power:.5f}"]]
+         ["radiated / input power", f"{res.radiated_over_input_power:.5f}"],
+         ["carried / input power", f"{res.carried_over_input_power:.5f}"]]
         + ([["power in loads / input power", f"{res.load_power_over_input_power:.5f}"]] if res.loads else []),
         title="Pattern", align="ll"))
     if res.loads:

@@ -314,7 +314,11 @@ class ChokeSweep:
     Changing the choke's impedance from z0 to z changes the loaded matrix by (z - z0) g g^T (rank one),
     so the currents are c(z) = a - t b with a the solved currents, b = Z^-1 g and
     t = (z - z0) (g . a) / (1 + (z - z0) (g . b)) (Sherman-Morrison). Fields are linear in the currents,
-    so two field evaluations serve every z. The power delivered to the antenna is recomputed for each z.
+    so two field evaluations serve every z. The power delivered to the antenna is recomputed for each z,
+    as the solver does it (``solver.power_basis_w``): the smaller of the terminal power 0.5 Re V I* and the
+    power the currents carry, 0.5 c^H Re(Z(z)) c = P_aa + |t|^2 P_bb - 2 Re(t P_ab) + 0.5 Re(z - z0) |g . c|^2
+    with P_xy = 0.5 x^H Re(Z) y (the quadratic forms once, so each z costs O(1)). A choke value for which
+    neither is positive gets infinite fields (never judged to comply).
 
     References
     ----------
@@ -344,35 +348,65 @@ class ChokeSweep:
         (self._ea, self._ha), (self._eb, self._hb) = fields
         g = st.feed_coupling
         self._ia, self._ib = g @ self._a, g @ self._b
+        r = np.ascontiguousarray(sol.impedance_matrix_ohm.real)
+        r = 0.5 * (r + r.T)                  # only the symmetric part enters a quadratic form
+        ra, rb = r @ self._a, r @ self._b
+        self._paa = 0.5 * float(np.real(np.vdot(self._a, ra)))
+        self._pbb = 0.5 * float(np.real(np.vdot(self._b, rb)))
+        self._pab = 0.5 * complex(np.vdot(self._a, rb))
 
     def _t(self, z_choke_ohm) -> np.ndarray:
         dz = np.asarray(z_choke_ohm, dtype=complex) - self._z0
-        return dz * self._ga / (1.0 + dz * self._gb)
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):   # a pole: t infinite, handled in _scale
+            return dz * self._ga / (1.0 + dz * self._gb)
 
-    def _scale(self, t: np.ndarray, input_power_w: float) -> np.ndarray:
+    def _scale(self, t: np.ndarray, input_power_w: float, z_choke_ohm) -> np.ndarray:
+        """Amplitude factor to ``input_power_w`` delivered, per choke value (inf where no power is resolved)."""
+        from rfsafe.antenna.wire.solver import POWER_BASIS_TOL
+
         v = self._sol.structure.feed_voltage_v
-        i = self._ia - t[..., None] * self._ib
-        return np.sqrt(input_power_w / (0.5 * np.real(np.sum(v * np.conj(i), axis=-1))))
+        dz = np.asarray(z_choke_ohm, dtype=complex) - self._z0
+        with np.errstate(invalid="ignore", over="ignore", divide="ignore"):
+            i = self._ia - t[..., None] * self._ib
+            p_t = 0.5 * np.real(np.sum(v * np.conj(i), axis=-1))
+            p_c = (self._paa + np.abs(t) ** 2 * self._pbb - 2.0 * np.real(t * self._pab)
+                   + 0.5 * dz.real * np.abs(self._ga - t * self._gb) ** 2)
+            use_c = (p_c > 0) & (~(p_t > 0) | (p_c < p_t * (1.0 - POWER_BASIS_TOL)))
+            p = np.where(use_c, p_c, p_t)
+            ok = np.isfinite(p) & (p > 0)
+            return np.where(ok, np.sqrt(input_power_w / np.where(ok, p, 1.0)), np.inf)
 
     def fields_rms(self, z_choke_ohm, input_power_w: float):
         """E [V/m rms] and H [A/m rms] at the points for ``input_power_w`` [W] delivered.
 
         ``z_choke_ohm`` [ohm] may be an array: the results then have its shape followed by (Npoints,).
+        A choke value for which the model resolves no delivered power gives infinite fields.
         """
         t = self._t(z_choke_ohm)
-        s = self._scale(t, input_power_w)[..., None, None]
-        e = (self._ea - t[..., None, None] * self._eb) * s
-        h = (self._ha - t[..., None, None] * self._hb) * s
-        return np.sqrt(0.5 * np.sum(np.abs(e) ** 2, axis=-1)), np.sqrt(0.5 * np.sum(np.abs(h) ** 2, axis=-1))
+        s = self._scale(t, input_power_w, z_choke_ohm)
+        if np.all(np.isfinite(s)):
+            s = s[..., None, None]
+            e = (self._ea - t[..., None, None] * self._eb) * s
+            h = (self._ha - t[..., None, None] * self._hb) * s
+            return np.sqrt(0.5 * np.sum(np.abs(e) ** 2, axis=-1)), np.sqrt(0.5 * np.sum(np.abs(h) ** 2, axis=-1))
+        bad = ~np.isfinite(s)
+        tt = np.where(bad, 0.0, t)[..., None, None]
+        s1 = np.where(bad, 1.0, s)[..., None]
+        e = np.sqrt(0.5 * np.sum(np.abs(self._ea - tt * self._eb) ** 2, axis=-1)) * s1
+        h = np.sqrt(0.5 * np.sum(np.abs(self._ha - tt * self._hb) ** 2, axis=-1)) * s1
+        return np.where(bad[..., None], np.inf, e), np.where(bad[..., None], np.inf, h)
 
     def max_common_mode_a_rms(self, z_choke_ohm: complex, input_power_w: float) -> float:
         """Largest current on the shield route [A rms] for ``input_power_w`` [W] delivered (one choke value)."""
         t = self._t(z_choke_ohm)
+        s = float(self._scale(t, input_power_w, z_choke_ohm))
+        if not math.isfinite(s):
+            return math.inf
         c = self._a - complex(t) * self._b
         from rfsafe.antenna.wire.solver import segment_currents
 
         seg = segment_currents(self._sol.structure, c)[self._route]
-        return float(np.abs(seg).max()) * float(self._scale(t, input_power_w)) / math.sqrt(2)
+        return float(np.abs(seg).max()) * s / math.sqrt(2)
 
 
 #: Choke impedance magnitudes scanned by ``required_choke_ohm`` [ohm] (10 per decade, 1 ohm to 1 Mohm).
