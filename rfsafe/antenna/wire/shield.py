@@ -362,7 +362,7 @@ class ChokeSweep:
 
     def _scale(self, t: np.ndarray, input_power_w: float, z_choke_ohm) -> np.ndarray:
         """Amplitude factor to ``input_power_w`` delivered, per choke value (inf where no power is resolved)."""
-        from rfsafe.antenna.wire.solver import POWER_BASIS_TOL
+        from rfsafe.antenna.wire.solver import power_basis_array
 
         v = self._sol.structure.feed_voltage_v
         dz = np.asarray(z_choke_ohm, dtype=complex) - self._z0
@@ -371,9 +371,8 @@ class ChokeSweep:
             p_t = 0.5 * np.real(np.sum(v * np.conj(i), axis=-1))
             p_c = (self._paa + np.abs(t) ** 2 * self._pbb - 2.0 * np.real(t * self._pab)
                    + 0.5 * dz.real * np.abs(self._ga - t * self._gb) ** 2)
-            use_c = (p_c > 0) & (~(p_t > 0) | (p_c < p_t * (1.0 - POWER_BASIS_TOL)))
-            p = np.where(use_c, p_c, p_t)
-            ok = np.isfinite(p) & (p > 0)
+            p = power_basis_array(p_t, p_c)
+            ok = p > 0                                     # False for NaN: no power resolved
             return np.where(ok, np.sqrt(input_power_w / np.where(ok, p, 1.0)), np.inf)
 
     def fields_rms(self, z_choke_ohm, input_power_w: float):
@@ -384,17 +383,14 @@ class ChokeSweep:
         """
         t = self._t(z_choke_ohm)
         s = self._scale(t, input_power_w, z_choke_ohm)
-        if np.all(np.isfinite(s)):
-            s = s[..., None, None]
-            e = (self._ea - t[..., None, None] * self._eb) * s
-            h = (self._ha - t[..., None, None] * self._hb) * s
-            return np.sqrt(0.5 * np.sum(np.abs(e) ** 2, axis=-1)), np.sqrt(0.5 * np.sum(np.abs(h) ** 2, axis=-1))
-        bad = ~np.isfinite(s)
+        bad = ~np.isfinite(s)                  # no power resolved (or a pole): finite stand-ins, inf below
         tt = np.where(bad, 0.0, t)[..., None, None]
-        s1 = np.where(bad, 1.0, s)[..., None]
-        e = np.sqrt(0.5 * np.sum(np.abs(self._ea - tt * self._eb) ** 2, axis=-1)) * s1
-        h = np.sqrt(0.5 * np.sum(np.abs(self._ha - tt * self._hb) ** 2, axis=-1)) * s1
-        return np.where(bad[..., None], np.inf, e), np.where(bad[..., None], np.inf, h)
+        s1 = np.where(bad, 1.0, s)[..., None, None]
+        e = (self._ea - tt * self._eb) * s1
+        h = (self._ha - tt * self._hb) * s1
+        e_rms = np.sqrt(0.5 * np.sum(np.abs(e) ** 2, axis=-1))
+        h_rms = np.sqrt(0.5 * np.sum(np.abs(h) ** 2, axis=-1))
+        return np.where(bad[..., None], np.inf, e_rms), np.where(bad[..., None], np.inf, h_rms)
 
     def max_common_mode_a_rms(self, z_choke_ohm: complex, input_power_w: float) -> float:
         """Largest current on the shield route [A rms] for ``input_power_w`` [W] delivered (one choke value)."""

@@ -1782,16 +1782,23 @@ def power_basis_w(p_terminal: float, p_carried: float, *, field: str, freq_hz: f
         Neither estimate is positive: the structure is so small for the wavelength that the model
         resolves no power delivered to it.
     """
-    ok_t = math.isfinite(p_terminal) and p_terminal > 0
-    ok_c = math.isfinite(p_carried) and p_carried > 0
-    if not (ok_t or ok_c):
+    p = float(power_basis_array(np.float64(p_terminal), np.float64(p_carried)))
+    if not p > 0:
         raise bad_value(field, f"{freq_hz / 1e6:g} MHz",
                         "is far too small for the wavelength: the moment method resolves no power delivered to "
                         f"it (terminal {p_terminal:.3g} W, carried {p_carried:.3g} W per unit excitation); "
                         "accepted: an antenna the solver can resolve at this frequency")
-    if ok_c and (not ok_t or p_carried < p_terminal * (1.0 - POWER_BASIS_TOL)):
-        return p_carried
-    return p_terminal
+    return p
+
+
+def power_basis_array(p_terminal, p_carried) -> np.ndarray:
+    """The rule of :func:`power_basis_w` elementwise (arrays of terminal and carried powers [W]); NaN where
+    neither is a positive finite number (the caller decides: an error, or infinite fields)."""
+    with np.errstate(invalid="ignore", over="ignore"):
+        ok_t = np.isfinite(p_terminal) & (p_terminal > 0)
+        ok_c = np.isfinite(p_carried) & (p_carried > 0)
+        use_c = ok_c & (~ok_t | (p_carried < p_terminal * (1.0 - POWER_BASIS_TOL)))
+        return np.where(use_c, p_carried, np.where(ok_t, p_terminal, np.nan))
 
 
 #: Relative difference between the terminal power and the power the solved currents carry above which a
