@@ -18,7 +18,7 @@ __all__ = [
     "MAX_CONFIGURATIONS", "MAX_PLACE_CONFIGURATIONS", "check_place_configurations", "MAX_BODY_HEIGHTS",
     "MAX_SITE_STATIONS", "MAX_POLYGON_VERTICES",
     "MAX_GRID_POINTS", "MAX_WIRE_SEGMENTS", "MAX_WIRE_POINTS", "MAX_PATTERN_ROWS", "MAX_POWER_W",
-    "MAX_DISTANCE_M", "MIN_SIZE_M", "MIN_POWER_W", "MAX_LENGTH_M", "MAX_SWR", "MAX_IMPEDANCE_OHM",
+    "MAX_DISTANCE_M", "MIN_SIZE_M", "MIN_POWER_W", "MIN_BEAMWIDTH_DEG", "MAX_LENGTH_M", "MAX_SWR", "MAX_IMPEDANCE_OHM",
     "MAX_TEXT_CHARS", "MAX_GAIN_DBI", "MIN_GAIN_DBI", "MAX_LOSS_DB", "MAX_Q", "check_nesting", "nesting_error",
     "nesting_depth", "finite_in_range", "field_bound_problem", "MAX_ANY_NUMBER",
     "check_file_size", "bounds_table",
@@ -171,6 +171,15 @@ _SIZE_FIELDS = ("radius_m", "max_segment_m", "grid_spacing_m")
 MIN_POWER_W = 1e-9
 #: The powers MIN_POWER_W applies to.
 _POWER_FIELDS = ("pep_w", "input_power_w")
+#: Narrowest half-power beamwidth of the beam model [deg]: a dish some 700 wavelengths across (beamwidth about
+#: 70 lambda / D degrees, from memory), narrower than the antennas of this trade. Narrower, the model's exponents
+#: grow past 10^6 (q = ln(1/2) / ln cos(bw_v / 2)): the site grid's single-precision tilted beam, whose vertical
+#: term is q/2 times a logarithm good to a few float32 ulps, fell up to 99 % below the float64 pattern at
+#: vertical beamwidths under about 0.03 deg (measured; tests/test_site.py checks from this bound up), and below
+#: about 2e-6 deg the exponents divided by zero (cos rounds to 1). A beam that narrow is given as a pattern table.
+MIN_BEAMWIDTH_DEG = 0.1
+#: The beamwidths MIN_BEAMWIDTH_DEG applies to.
+_BEAMWIDTH_FIELDS = ("beamwidth_h_deg", "beamwidth_v_deg")
 #: Longest lists by field name; any other list holds at most MAX_LIST_ITEMS.
 _LIST_BOUNDS = {
     "places": MAX_PLACES, "points": MAX_PLACES, "configurations": MAX_CONFIGURATIONS,
@@ -237,6 +246,9 @@ def field_bound_problem(name: str, value: Any) -> str | None:
             shown = f"{x:g}" if isinstance(x, float) else str(x)
             lead = f"has {shown} at {where}, " if where else "is "
             return f"{lead}out of range (accepted: at least {MIN_POWER_W:g} W)"
+        if name in _BEAMWIDTH_FIELDS and abs(x) < MIN_BEAMWIDTH_DEG:
+            return (f"is out of range (accepted: at least {MIN_BEAMWIDTH_DEG:g} deg; a narrower beam is described "
+                    'by a pattern table, kind = "table")')
     return None
 
 
@@ -271,5 +283,6 @@ def bounds_table() -> tuple[tuple[str, str], ...]:
     rows.append(("wire radius, segment length, grid spacing (`radius_m`, `max_segment_m`, `grid_spacing_m`)",
                  f">= {MIN_SIZE_M:g} m"))
     rows.append(("transmitter and input power (`pep_w`, `input_power_w`)", f">= {MIN_POWER_W:g} W"))
+    rows.append(("beam half-power beamwidths (`beamwidth_h_deg`, `beamwidth_v_deg`)", f">= {MIN_BEAMWIDTH_DEG:g} deg"))
     rows.append(("any other number", f"magnitude <= {MAX_ANY_NUMBER:g}"))
     return tuple(rows)

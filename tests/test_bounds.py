@@ -28,6 +28,12 @@ def test_readme_states_every_bound():
     ("soil_conductivity_s_m", 5e3, "is out of range (accepted: magnitude at most 1000 S/m)"),
     ("soil_conductivity_s_m", 5.0, None),
     ("freq_mhz", 14.2, None),
+    # narrowest beam: below it the beam model's exponents divided by zero (found by the long fuzz)
+    ("beamwidth_h_deg", 6.4e-8, 'is out of range (accepted: at least 0.1 deg; a narrower beam is described by '
+                                'a pattern table, kind = "table")'),
+    ("beamwidth_v_deg", 0.099, 'is out of range (accepted: at least 0.1 deg; a narrower beam is described by '
+                                'a pattern table, kind = "table")'),
+    ("beamwidth_h_deg", 0.1, None),
     ("id", "x", None),
 ])
 def test_field_bounds_by_unit_suffix(name, value, problem):

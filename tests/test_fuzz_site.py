@@ -130,6 +130,16 @@ def test_subnormal_grid_spacing():
     assert code == 2 and err.startswith("Error: grid_spacing_m: 5e-324 is out of range (accepted: at least 1e-09 m)"), err
 
 
+def test_beam_narrower_than_the_model_resolves():
+    """Found by the long fuzz: a beam of beamwidth_h_deg = 6.4e-8 divided by zero in its exponents (exit 3);
+    beamwidths below rfsafe.bounds.MIN_BEAMWIDTH_DEG are now refused with the other bounds."""
+    station = EVENT["stations"][1]
+    antenna = {**station["antennas"][0], "beamwidth_h_deg": 6.4e-8}
+    code, _, err = _run({**EVENT, "stations": [{**station, "antennas": [antenna]}]})
+    assert code == 2 and err.startswith("Error: stations[0].antennas[0].beamwidth_h_deg: 6.4e-08 is out of range "
+                                        "(accepted: at least 0.1 deg"), err
+
+
 @pytest.mark.parametrize("key", ["transmitters", "feedlines", "antennas", "configurations"])
 def test_empty_inline_station_table(key):
     """Found by the fuzz: an empty inline table escaped as a pydantic ValidationError (exit 3)."""

@@ -277,8 +277,11 @@ def test_beam_sphere_integral_equals_the_full_grid_sum(fb, bh, bv):
 @pytest.mark.parametrize("params, message", [
     (dict(front_to_back_db=3.0), "antenna.front_to_back_db: 3.0 is out of range (accepted: > 3.01 dB, "
                                  "so that the half-power points lie on the main lobe)"),
-    (dict(beamwidth_h_deg=360.0), "antenna.beamwidth_h_deg: 360.0 is out of range (accepted: > 0 and < 360)"),
-    (dict(beamwidth_v_deg=180.0), "antenna.beamwidth_v_deg: 180.0 is out of range (accepted: > 0 and < 180)"),
+    (dict(beamwidth_h_deg=360.0), "antenna.beamwidth_h_deg: 360.0 is out of range (accepted: >= 0.1 and < 360)"),
+    (dict(beamwidth_v_deg=180.0), "antenna.beamwidth_v_deg: 180.0 is out of range (accepted: >= 0.1 and < 180)"),
+    # found by the long fuzz: cos(6.4e-8 deg / 4) rounds to 1 and the exponent divided by zero (exit 3)
+    (dict(beamwidth_h_deg=6.4e-8), "antenna.beamwidth_h_deg: 6.4e-08 is out of range (accepted: >= 0.1 and < 360)"),
+    (dict(beamwidth_v_deg=1e-300), "antenna.beamwidth_v_deg: 1e-300 is out of range (accepted: >= 0.1 and < 180)"),
     (dict(beamwidth_v_deg=None), 'antenna.beamwidth_v_deg: is required for kind = "beam"'),
     (dict(peak_gain_dbi=float("nan")), "antenna.gain_dbi: nan must be a finite number (dBi)"),
 ])
@@ -286,6 +289,27 @@ def test_beam_parameter_errors(params, message):
     with pytest.raises(InputError) as exc:
         pt.make_pattern("beam", **{**BEAM, **params})
     assert str(exc.value) == message
+
+
+@pytest.mark.parametrize("bh, bv", [(0.1, 60.0), (60.0, 0.1), (0.1, 0.1)])
+def test_narrowest_accepted_beam_is_finite_and_peaks_on_its_axis(bh, bv):
+    """At the narrowest accepted beamwidths (rfsafe.bounds.MIN_BEAMWIDTH_DEG) the exponents are finite and the
+    model keeps its definition: peak gain on the axis, half of it (-3 dB) at half the beamwidth off the axis
+    in that plane (the half-power beamwidth, IEEE Std 145 definition), the floor peak - F/B well off it."""
+    p, q = pt.beam_exponents(bh, bv)
+    assert math.isfinite(p) and math.isfinite(q) and p > 0 and q > 0
+    pat = pt.make_pattern("beam", **{**BEAM, "beamwidth_h_deg": bh, "beamwidth_v_deg": bv})
+    g0 = 10.0 ** (BEAM["peak_gain_dbi"] / 10.0)
+    axis = pat.gain(pt.direction_from_angles(0.0, 0.0))
+    half_h = pat.gain(pt.direction_from_angles(bh / 2.0, 0.0))
+    half_v = pat.gain(pt.direction_from_angles(0.0, bv / 2.0))
+    off = pat.gain(pt.direction_from_angles(30.0, 0.0))
+    assert float(axis) == pytest.approx(g0, rel=1e-12)
+    # 1e-6: cos of a quarter of 0.1 deg is 1 - 9.5e-8, held to about 1e-9 relative in float64
+    assert float(half_h) == pytest.approx(g0 / 2.0, rel=1e-6)
+    assert float(half_v) == pytest.approx(g0 / 2.0, rel=1e-6)
+    if bh < 30.0:
+        assert float(off) == pytest.approx(g0 * 10.0 ** (-BEAM["front_to_back_db"] / 10.0), rel=1e-12)
 
 
 def test_beam_parameters_on_a_dipole_are_rejected():

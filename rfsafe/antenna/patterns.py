@@ -32,6 +32,7 @@ from typing import NamedTuple
 
 import numpy as np
 
+from rfsafe.bounds import MIN_BEAMWIDTH_DEG
 from rfsafe.errors import InputError, bad_value, format_value
 
 __all__ = [
@@ -731,10 +732,14 @@ def make_pattern(kind: str, *, peak_gain_dbi: float | None = None, front_to_back
     if not fb > 10.0 * math.log10(2.0):
         raise bad_value(f"{field}.front_to_back_db", front_to_back_db,
                         "is out of range (accepted: > 3.01 dB, so that the half-power points lie on the main lobe)")
-    if not 0.0 < bh < 360.0:
-        raise bad_value(f"{field}.beamwidth_h_deg", beamwidth_h_deg, "is out of range (accepted: > 0 and < 360)")
-    if not 0.0 < bv < 180.0:
-        raise bad_value(f"{field}.beamwidth_v_deg", beamwidth_v_deg, "is out of range (accepted: > 0 and < 180)")
+    # narrower than MIN_BEAMWIDTH_DEG the exponents lose their precision, and cos of a quarter of the beamwidth
+    # rounds to 1 (a division by zero) below about 2e-6 deg
+    if not MIN_BEAMWIDTH_DEG <= bh < 360.0:
+        raise bad_value(f"{field}.beamwidth_h_deg", beamwidth_h_deg,
+                        f"is out of range (accepted: >= {MIN_BEAMWIDTH_DEG:g} and < 360)")
+    if not MIN_BEAMWIDTH_DEG <= bv < 180.0:
+        raise bad_value(f"{field}.beamwidth_v_deg", beamwidth_v_deg,
+                        f"is out of range (accepted: >= {MIN_BEAMWIDTH_DEG:g} and < 180)")
     integral = beam_sphere_integral(fb, bh, bv)
     d_max_dbi = 10.0 * math.log10(4.0 * math.pi / integral)
     if peak > d_max_dbi:
