@@ -18,7 +18,7 @@ __all__ = [
     "MAX_CONFIGURATIONS", "MAX_PLACE_CONFIGURATIONS", "check_place_configurations", "MAX_BODY_HEIGHTS",
     "MAX_SITE_STATIONS", "MAX_POLYGON_VERTICES",
     "MAX_GRID_POINTS", "MAX_WIRE_SEGMENTS", "MAX_WIRE_POINTS", "MAX_PATTERN_ROWS", "MAX_POWER_W",
-    "MAX_DISTANCE_M", "MIN_SIZE_M", "MIN_POWER_W", "MIN_BEAMWIDTH_DEG", "MAX_LENGTH_M", "MAX_SWR", "MAX_IMPEDANCE_OHM",
+    "MAX_DISTANCE_M", "MIN_SIZE_M", "MIN_POWER_W", "MIN_BEAMWIDTH_DEG", "MAX_FRONT_TO_BACK_DB", "MAX_LENGTH_M", "MAX_SWR", "MAX_IMPEDANCE_OHM",
     "MAX_TEXT_CHARS", "MAX_GAIN_DBI", "MIN_GAIN_DBI", "MAX_LOSS_DB", "MAX_Q", "check_nesting", "nesting_error",
     "nesting_depth", "finite_in_range", "field_bound_problem", "MAX_ANY_NUMBER",
     "check_file_size", "bounds_table",
@@ -178,6 +178,11 @@ _POWER_FIELDS = ("pep_w", "input_power_w")
 #: vertical beamwidths under about 0.03 deg (measured; tests/test_site.py checks from this bound up), and below
 #: about 2e-6 deg the exponents divided by zero (cos rounds to 1). A beam that narrow is given as a pattern table.
 MIN_BEAMWIDTH_DEG = 0.1
+#: Largest front-to-back ratio of the beam model [dB]: the site grid's single-precision kernels keep the
+#: float64 pattern only down to lobes about 1e-9 of the peak; past 60 dB the tilted beam fell below it (by 2e-5
+#: to 7e-4 at 63-97 dB, and to 0 where float32 underflows, measured). Real beams claim less (common practice);
+#: a larger ratio given as 60 dB only raises the back lobe, which cannot understate exposure.
+MAX_FRONT_TO_BACK_DB = 60.0
 #: The beamwidths MIN_BEAMWIDTH_DEG applies to.
 _BEAMWIDTH_FIELDS = ("beamwidth_h_deg", "beamwidth_v_deg")
 #: Longest lists by field name; any other list holds at most MAX_LIST_ITEMS.
@@ -246,6 +251,9 @@ def field_bound_problem(name: str, value: Any) -> str | None:
             shown = f"{x:g}" if isinstance(x, float) else str(x)
             lead = f"has {shown} at {where}, " if where else "is "
             return f"{lead}out of range (accepted: at least {MIN_POWER_W:g} W)"
+        if name == "front_to_back_db" and x > MAX_FRONT_TO_BACK_DB:
+            return (f"is out of range (accepted: at most {MAX_FRONT_TO_BACK_DB:g} dB; for a larger ratio give "
+                    f"{MAX_FRONT_TO_BACK_DB:g}: a higher back lobe is the conservative side)")
         if name in _BEAMWIDTH_FIELDS and abs(x) < MIN_BEAMWIDTH_DEG:
             return (f"is out of range (accepted: at least {MIN_BEAMWIDTH_DEG:g} deg; a narrower beam is described "
                     'by a pattern table, kind = "table")')
@@ -284,5 +292,6 @@ def bounds_table() -> tuple[tuple[str, str], ...]:
                  f">= {MIN_SIZE_M:g} m"))
     rows.append(("transmitter and input power (`pep_w`, `input_power_w`)", f">= {MIN_POWER_W:g} W"))
     rows.append(("beam half-power beamwidths (`beamwidth_h_deg`, `beamwidth_v_deg`)", f">= {MIN_BEAMWIDTH_DEG:g} deg"))
+    rows.append(("beam front-to-back ratio (`front_to_back_db`)", f"<= {MAX_FRONT_TO_BACK_DB:g} dB"))
     rows.append(("any other number", f"magnitude <= {MAX_ANY_NUMBER:g}"))
     return tuple(rows)

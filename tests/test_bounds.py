@@ -34,6 +34,10 @@ def test_readme_states_every_bound():
     ("beamwidth_v_deg", 0.099, 'is out of range (accepted: at least 0.1 deg; a narrower beam is described by '
                                 'a pattern table, kind = "table")'),
     ("beamwidth_h_deg", 0.1, None),
+    # largest front-to-back: past it the site grid's tilted beam fell below the float64 pattern (measured)
+    ("front_to_back_db", 63.4, "is out of range (accepted: at most 60 dB; for a larger ratio give 60: a higher "
+                               "back lobe is the conservative side)"),
+    ("front_to_back_db", 60.0, None),
     ("id", "x", None),
 ])
 def test_field_bounds_by_unit_suffix(name, value, problem):

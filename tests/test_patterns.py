@@ -276,7 +276,11 @@ def test_beam_sphere_integral_equals_the_full_grid_sum(fb, bh, bv):
 
 @pytest.mark.parametrize("params, message", [
     (dict(front_to_back_db=3.0), "antenna.front_to_back_db: 3.0 is out of range (accepted: > 3.01 dB, "
-                                 "so that the half-power points lie on the main lobe)"),
+                                 "so that the half-power points lie on the main lobe, and <= 60 dB, where "
+                                 "rfsafe's beam model is checked)"),
+    (dict(front_to_back_db=60.5), "antenna.front_to_back_db: 60.5 is out of range (accepted: > 3.01 dB, "
+                                  "so that the half-power points lie on the main lobe, and <= 60 dB, where "
+                                  "rfsafe's beam model is checked)"),
     (dict(beamwidth_h_deg=360.0), "antenna.beamwidth_h_deg: 360.0 is out of range (accepted: >= 0.1 and < 360)"),
     (dict(beamwidth_v_deg=180.0), "antenna.beamwidth_v_deg: 180.0 is out of range (accepted: >= 0.1 and < 180)"),
     # found by the long fuzz: cos(6.4e-8 deg / 4) rounds to 1 and the exponent divided by zero (exit 3)

@@ -32,7 +32,7 @@ from typing import NamedTuple
 
 import numpy as np
 
-from rfsafe.bounds import MIN_BEAMWIDTH_DEG
+from rfsafe.bounds import MAX_FRONT_TO_BACK_DB, MIN_BEAMWIDTH_DEG
 from rfsafe.errors import InputError, bad_value, format_value
 
 __all__ = [
@@ -729,9 +729,10 @@ def make_pattern(kind: str, *, peak_gain_dbi: float | None = None, front_to_back
     fb = _finite(f"{field}.front_to_back_db", front_to_back_db, "dB")
     bh = _finite(f"{field}.beamwidth_h_deg", beamwidth_h_deg, "deg")
     bv = _finite(f"{field}.beamwidth_v_deg", beamwidth_v_deg, "deg")
-    if not fb > 10.0 * math.log10(2.0):
+    if not 10.0 * math.log10(2.0) < fb <= MAX_FRONT_TO_BACK_DB:
         raise bad_value(f"{field}.front_to_back_db", front_to_back_db,
-                        "is out of range (accepted: > 3.01 dB, so that the half-power points lie on the main lobe)")
+                        f"is out of range (accepted: > 3.01 dB, so that the half-power points lie on the main lobe, "
+                        f"and <= {MAX_FRONT_TO_BACK_DB:g} dB, where rfsafe's beam model is checked)")
     # narrower than MIN_BEAMWIDTH_DEG the exponents lose their precision, and cos of a quarter of the beamwidth
     # rounds to 1 (a division by zero) below about 2e-6 deg
     if not MIN_BEAMWIDTH_DEG <= bh < 360.0:
