@@ -694,29 +694,12 @@ def with_answers(loaded, *, remedies: bool = True, near_field_maps: bool = True)
 # sites
 
 
-def _region_points(res, label: str):
-    """Grid points of a region plus its edge samples (as the site review checks them)."""
-    import numpy as np
-
-    from rfsafe.site.geometry import polygon_edge_points
-
-    g = res.grid
-    r = g.region_labels.index(label)
-    xx, yy = np.meshgrid(g.x_m, g.y_m)
-    mask = g.region == r
-    px, py = xx[mask], yy[mask]
-    area = next((a for a in res.areas if a.label == label), None)
-    if area is not None:
-        ex_, ey_ = polygon_edge_points(area.polygon, g.spacing_m / 2.0)
-        px, py = np.concatenate([px, ex_]), np.concatenate([py, ey_])
-    return px, py
-
-
 def site_remedies(res) -> tuple:
     """For every violation of a site review and every transmitter: the power cut and the move that clear it.
 
     Solved with the site review's own kernel (:func:`rfsafe.site.grid.ratio_grid`, every transmitter's
-    worst configuration summed, worst height) over the violated region's grid points and edge samples,
+    worst configuration summed, worst height) over the points the review checks in the violated region
+    (:func:`rfsafe.site.analysis.region_samples`),
     one transmitter changed at a time: all its configurations' power scaled by one factor, or its
     antennas moved together straight away from the violation's worst point (scan, then refined).
     """
@@ -724,6 +707,7 @@ def site_remedies(res) -> tuple:
 
     from rfsafe.results import SiteRemedy
     from rfsafe.site.constants import ENVIRONMENTS
+    from rfsafe.site.analysis import region_samples
     from rfsafe.site.grid import ratio_grid
 
     if not res.violations or res.grid is None:
@@ -731,11 +715,12 @@ def site_remedies(res) -> tuple:
     out = []
     ems = list(res.emitters)
     for v in res.violations:
-        px, py = _region_points(res, v.region)
         e = ENVIRONMENTS.index(v.environment)
 
-        def worst(emitters, _px=px, _py=py, _e=e):
-            ratio = ratio_grid(emitters, _px, _py, res.heights_m).ratio[_e]
+        def worst(emitters, _region=v.region, _e=e):
+            # the points the site review checks, for these emitters (the fine samples follow a moved antenna)
+            px, py = region_samples(emitters, res.grid, res.boundary, res.areas, _region)
+            ratio = ratio_grid(emitters, px, py, res.heights_m).ratio[_e]
             return float(np.max(ratio)) if ratio.size else 0.0
 
         r_now = worst(ems)
@@ -749,6 +734,13 @@ def site_remedies(res) -> tuple:
 
             p_status, factor, r_pow = _power_like(scaled, 1.0, r_now, 1.0)
             dx, dy = t.x_m - v.x_m, t.y_m - v.y_m
+            if dx == 0.0 and dy == 0.0:
+                # the worst point is at the antenna itself (in the region): away from the middle of the region's
+                # points, or east where that is the antenna's position too
+                px, py = region_samples(ems, res.grid, res.boundary, res.areas, v.region)
+                dx, dy = t.x_m - float(np.mean(px)), t.y_m - float(np.mean(py))
+                if dx == 0.0 and dy == 0.0:
+                    dx = 1.0
             norm = math.hypot(dx, dy) or 1.0
             ux, uy = dx / norm, dy / norm
 

@@ -8,6 +8,8 @@ from typing import Callable
 from rfsafe.antenna.extent import shifted
 from rfsafe.errors import InputError
 from rfsafe.site.analysis import (
+    LOCAL_FRACTION,
+    LOCAL_SPACINGS,
     RegionSite,
     SiteGrid,
     TransmitterSite,
@@ -25,7 +27,7 @@ SITE_CAUTIONS = (
     "Rope off every keep-out zone before transmitting, with the rope at or beyond the suggested radius, "
     "and keep people out of it while any station transmits.",
     "Re-run this review whenever a station, antenna, power, band, mode or the site layout changes.",
-    "Grid results are sampled at the grid spacing: small gaps between samples are not evaluated.",
+    "Grid results are sampled: between samples (the grid spacing, finer next to each antenna) nothing is evaluated.",
 )
 
 __all__ = ["SITE_CAUTIONS", "SiteStationResult", "SiteResult", "limit_equivalent_w_m2", "site_emitters", "assess_site"]
@@ -275,7 +277,10 @@ def assess_site(loaded_site, *, today=None, progress: Callable[[int, int], None]
         "the controlled limit (nobody may be there).",
         "Ground in no declared area, and everything outside the site boundary, is treated as public. Where areas "
         "overlap the most restrictive kind applies (no-access, operators, public). Areas are checked at their grid "
-        "points and along their edges at half the grid spacing.",
+        "points, along their edges at half the grid spacing and at each edge's point nearest each antenna; around "
+        f"every antenna, within {LOCAL_SPACINGS:g} grid spacings of its structure, the ground is also sampled at "
+        f"{LOCAL_FRACTION:g} of the grid spacing, with the antenna's own position (where a grid would miss the "
+        "peak next to an antenna). Point counts include these samples.",
         f"Suggested rope-off radius: the farthest keep-out point attributed to the station (largest own share) plus "
         f"one grid spacing, rounded up to the next {ROPE_STEP_M:g} m.",
         "Points within lambda/2pi (or 2D^2/lambda for an aperture) of the nearest part of an antenna (its "

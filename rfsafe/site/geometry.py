@@ -10,7 +10,8 @@ import numpy as np
 from rfsafe.errors import bad_value
 from rfsafe.site.constants import ROPE_STEP_M
 
-__all__ = ["Area", "points_in_polygon", "polygon_edge_points", "rope_off_radius_m", "validate_polygon"]
+__all__ = ["Area", "points_in_polygon", "polygon_edge_points", "polygon_nearest_points", "rope_off_radius_m",
+           "validate_polygon"]
 
 
 
@@ -112,6 +113,24 @@ def polygon_edge_points(polygon, spacing_m: float) -> tuple[np.ndarray, np.ndarr
         xs.append(x1 + (x2 - x1) * t)
         ys.append(y1 + (y2 - y1) * t)
     return np.concatenate(xs), np.concatenate(ys)
+
+
+def polygon_nearest_points(polygon, x_m, y_m) -> tuple[np.ndarray, np.ndarray]:
+    """The point of a polygon's boundary nearest to each given point [m] (the orthogonal projection onto each
+    edge, clamped to it, the nearest of those; common practice)."""
+    px = np.asarray(x_m, dtype=float).ravel()[:, None]
+    py = np.asarray(y_m, dtype=float).ravel()[:, None]
+    a = np.asarray(polygon, dtype=float)
+    b = np.roll(a, -1, axis=0)
+    ex, ey = b[:, 0] - a[:, 0], b[:, 1] - a[:, 1]                 # (E,)
+    ll = ex * ex + ey * ey
+    with np.errstate(divide="ignore", invalid="ignore"):
+        t = ((px - a[:, 0]) * ex + (py - a[:, 1]) * ey) / ll     # (P, E); a zero-length edge gives nan
+    t = np.clip(np.nan_to_num(t, nan=0.0), 0.0, 1.0)
+    qx, qy = a[:, 0] + t * ex, a[:, 1] + t * ey
+    k = np.argmin(np.hypot(qx - px, qy - py), axis=1)
+    rows = np.arange(px.shape[0])
+    return qx[rows, k], qy[rows, k]
 
 
 def rope_off_radius_m(keep_out_m: float, grid_spacing_m: float) -> float:
