@@ -51,7 +51,7 @@ def _m(x) -> str:
 
 
 def _ratio(x) -> str:
-    """An exposure ratio; infinity only occurs at a grid point on an antenna (distance 0)."""
+    """An exposure ratio; infinity only occurs at a sample on an antenna (distance 0)."""
     return "∞ (at an antenna)" if x == float("inf") else ratio_text(x)
 
 
@@ -168,8 +168,8 @@ def _map(res) -> list:
 # ------------------------------------------------------------------ 3 stations
 def _stations(res, width) -> list:
     out = [section_heading("1", "Stations and keep-out zones")]
-    out.append(p("Keep-out distances are horizontal distances on the ground from the antenna to the farthest grid "
-                 "point of the total keep-out zone where this station has the largest share (uncontrolled: the "
+    out.append(p("Keep-out distances are horizontal distances on the ground from the antenna to the farthest "
+                 "sampled point of the total keep-out zone where this station has the largest share (uncontrolled: the "
                  "public must be kept out; controlled: nobody). The peak-gain distance is the 3-D far-field "
                  "compliance distance with peak gain toward every direction from the nearest part of the antenna, "
                  "plus the reach of its structure from the declared position: an upper bound of the station's own "
@@ -199,7 +199,8 @@ def _stations(res, width) -> list:
 # ------------------------------------------------------------------ 4 areas
 def _areas(res, width) -> list:
     out = [CondPageBreak(60 * mm), section_heading("2", "Areas")]
-    out.append(p("Worst total exposure ratio found at the area's grid points and along its edges (1 = limit). "
+    out.append(p("Worst total exposure ratio found at the area's grid points, along its edges and at the finer "
+                 "samples next to each antenna (1 = limit). "
                  "Public areas, open ground (in no declared area) and ground outside the site are checked against "
                  "the uncontrolled limit, operators' areas against the controlled limit; no-access areas are not "
                  "checked (nobody may be there while the stations transmit).", "small"))

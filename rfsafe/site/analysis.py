@@ -63,8 +63,8 @@ class TransmitterSite:
     height_m: float
     configurations: tuple[str, ...]
     near_field_m: float
-    keep_out_m: dict[str, float]       # farthest grid point of the total zone where it dominates [m]
-    own_keep_out_m: dict[str, float]   # farthest grid point where its own ratio alone exceeds 1 [m]
+    keep_out_m: dict[str, float]       # farthest sample of the total zone where it dominates [m]
+    own_keep_out_m: dict[str, float]   # farthest sample where its own ratio alone exceeds 1 [m]
     rope_off_radius_m: float           # from the uncontrolled keep-out (see rope_off_radius_m)
     peak_gain_distance_m: dict[str, float]   # sqrt(P F G_peak / (4 pi S_lim)) + reach: 3-D bound of its own zone [m]
     flags: tuple[str, ...]
@@ -77,7 +77,7 @@ class RegionSite:
     label: str
     kind: str                          # public, operators, no-access, open ground, outside the site
     checked_environment: str | None    # the limit that applies to the people allowed there
-    points: int                        # grid points plus edge samples evaluated
+    points: int                        # grid points, fine samples and edge samples evaluated
     worst_ratio: dict[str, float]
     worst_x_m: float | None
     worst_y_m: float | None
@@ -88,7 +88,7 @@ class RegionSite:
 
     #: Why a field has no finite value (the JSON writer puts it in ``<field>_note``).
     NONFINITE_NOTES: ClassVar[dict] = {
-        "worst_ratio": "a grid point lies at an antenna's centre of radiation, where the far-field estimate "
+        "worst_ratio": "a sample lies at an antenna's centre of radiation, where the far-field estimate "
                        "has no finite value: nobody may stand there (near-field analysis needed)",
     }
 
@@ -106,7 +106,7 @@ class Violation:
 
     #: Why a field has no finite value (the JSON writer puts it in ``<field>_note``).
     NONFINITE_NOTES: ClassVar[dict] = {
-        "worst_ratio": "a grid point lies at an antenna's centre of radiation, where the far-field estimate "
+        "worst_ratio": "a sample lies at an antenna's centre of radiation, where the far-field estimate "
                        "has no finite value: nobody may stand there (near-field analysis needed)",
     }
     points_over: int
