@@ -349,6 +349,35 @@ def test_an_area_is_never_found_complying_where_a_point_of_it_exceeds(ox, oy, h,
         assert verdict == "complies", (worst, res.regions)
 
 
+@settings(max_examples=30, deadline=None)
+@given(bw=st.floats(1.0, 10.0), az=st.floats(0.0, 360.0), d_in=st.floats(5.0, 25.0), at_edge=st.floats(0.7, 1.3),
+       ox=st.floats(0.0, 0.999), oy=st.floats(0.0, 0.999))
+def test_a_narrow_beam_at_a_public_area_is_never_missed(bw, az, d_in, at_edge, ox, oy):
+    # property (the first principle): a beam 1-10 deg wide on a 1 m grid points at a public lawn beyond a rope
+    # (a 256-gon of radius d_in around it); the lawn's worst point is where the beam's axis leaves the rope,
+    # ratio P G F / (4 pi S t^2) there (OET Bulletin 65 sec. 2), t the axis's distance to the rope's edge. Found
+    # here: with grid and edge samples alone such beams at 1.3 times the limit were reported as complying.
+    from rfsafe.site.analysis import _ray_crossings
+
+    pat = pt.make_pattern("beam", peak_gain_dbi=15.0, front_to_back_db=20.0, beamwidth_h_deg=bw, beamwidth_v_deg=60.0)
+    x0, y0 = ox, oy
+    rope_poly = tuple((d_in * math.cos(t) + x0, d_in * math.sin(t) + y0)
+                      for t in np.linspace(0, 2 * math.pi, 256, endpoint=False))
+    b = math.radians(az)
+    cx, cy = _ray_crossings(rope_poly, [(x0, y0, math.sin(b), math.cos(b), 2 * d_in)])
+    t_edge = float(np.min(np.hypot(cx - x0, cy - y0)))
+    power = at_edge * 4 * math.pi * t_edge ** 2 * 2.0 / 10 ** 1.5     # ratio at_edge there (S = 2 W/m^2, F = 1)
+    em = emitter("tx", x=x0, y=y0, h=1.5, pattern=pat, azimuth_deg=az, power=(power, power), limit=(10.0, 2.0))
+    lawn = site.Area("lawn", "public", ((-40.0, -40.0), (40.0, -40.0), (40.0, 40.0), (-40.0, 40.0)))
+    rope = site.Area("rope", "no-access", rope_poly)
+    res = site.analyse_site([em], boundary=lawn.polygon, areas=[lawn, rope], heights_m=(1.5,), grid_spacing_m=1.0)
+    verdict = next(r for r in res.regions if r.label == "lawn").verdict
+    if at_edge > 1.0 + 1e-5:
+        assert verdict == "VIOLATION"
+    elif at_edge < 1.0 - 1e-3:              # the rope's chords bring other edge points 3e-4 nearer
+        assert verdict == "complies"
+
+
 def test_too_many_grid_points_is_an_input_error():
     with pytest.raises(InputError) as exc:
         site.analyse_site([one_isotropic()], boundary=[(0, 0), (5000, 0), (5000, 5000), (0, 5000)], areas=[],

@@ -8,6 +8,7 @@ from typing import Callable
 from rfsafe.antenna.extent import shifted
 from rfsafe.errors import InputError
 from rfsafe.site.analysis import (
+    AXIS_FRACTION,
     LOCAL_FRACTION,
     LOCAL_SPACINGS,
     RegionSite,
@@ -280,7 +281,9 @@ def assess_site(loaded_site, *, today=None, progress: Callable[[int, int], None]
         "points, along their edges at half the grid spacing and at each edge's point nearest each antenna; around "
         f"every antenna, within {LOCAL_SPACINGS:g} grid spacings of its structure, the ground is also sampled at "
         f"{LOCAL_FRACTION:g} of the grid spacing, with the antenna's own position (where a grid would miss the "
-        "peak next to an antenna). Point counts include these samples.",
+        "peak next to an antenna), and along the main-beam bearing of every beam and pattern table at "
+        f"{AXIS_FRACTION:g} of the grid spacing to the edge of the grid, with the points where it crosses an "
+        "area's edge (where a grid would miss a narrow beam). Point counts include these samples.",
         f"Suggested rope-off radius: the farthest keep-out point attributed to the station (largest own share) plus "
         f"one grid spacing, rounded up to the next {ROPE_STEP_M:g} m.",
         "Points within lambda/2pi (or 2D^2/lambda for an aperture) of the nearest part of an antenna (its "
