@@ -200,7 +200,7 @@ def _stations(res, width) -> list:
 def _areas(res, width) -> list:
     out = [CondPageBreak(60 * mm), section_heading("2", "Areas")]
     out.append(p("Worst total exposure ratio found at the area's grid points, along its edges and at the finer "
-                 "samples next to each antenna (1 = limit). "
+                 "samples next to each antenna and along each beam's bearing (1 = limit). "
                  "Public areas, open ground (in no declared area) and ground outside the site are checked against "
                  "the uncontrolled limit, operators' areas against the controlled limit; no-access areas are not "
                  "checked (nobody may be there while the stations transmit).", "small"))
