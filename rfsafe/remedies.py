@@ -694,6 +694,15 @@ def with_answers(loaded, *, remedies: bool = True, near_field_maps: bool = True)
 # sites
 
 
+def _site_jump_note(r: float | None) -> str:
+    """Said of a solved site move whose ratio stops short of the limit: the samples next to an antenna and along
+    its bearing move with it, and where one crosses a region's edge the sampled worst ratio jumps."""
+    if r is None or r >= 1.0 - RATIO_TOLERANCE:
+        return ""
+    return (f" (the sampled ratio jumps there, to {r:.3g}, as a sample that moves with the antenna crosses a "
+            "region's edge)")
+
+
 def site_remedies(res) -> tuple:
     """For every violation of a site review and every transmitter: the power cut and the move that clear it.
 
@@ -752,7 +761,8 @@ def site_remedies(res) -> tuple:
             power_text = ("no power cut of this station alone clears it" if p_status != "solved" else
                           f"cut its power to {factor:.3g} x today ({10 * math.log10(factor):.1f} dB)")
             move_text = ("no move up to {:g} m clears it".format(DISTANCE_STEPS_M[-1]) if m_status != "solved" else
-                         f"or move its antennas {move:.1f} m straight away from ({v.x_m:.1f}, {v.y_m:.1f}) m")
+                         f"or move its antennas {move:.1f} m straight away from ({v.x_m:.1f}, {v.y_m:.1f}) m"
+                         + _site_jump_note(r_move))
             out.append(SiteRemedy(
                 violation=v.region, environment=v.environment, transmitter=name,
                 power_factor=factor if p_status == "solved" else None, power_status=p_status,

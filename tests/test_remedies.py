@@ -285,7 +285,8 @@ def test_site_remedies_clear_the_violation_when_fed_back():
         assert region.points_over == 0
         assert region.worst_ratio[r.environment] >= 1.0 - R.RATIO_TOLERANCE
         if r.move_status == "solved":
-            assert _at_limit(r.ratio_after_move)
+            # at the limit, or short of it where the sampled ratio jumps (said in the text)
+            assert _at_limit(r.ratio_after_move) or (r.ratio_after_move <= 1.0 and "jumps there" in r.text)
 
 
 # --- Re-evaluation shortcuts (issue 18): the same numbers as the full evaluation, bit for bit ---

@@ -378,6 +378,23 @@ def test_a_narrow_beam_at_a_public_area_is_never_missed(bw, az, d_in, at_edge, o
         assert verdict == "complies"
 
 
+@pytest.mark.parametrize("at_edge, verdict", [(1.02, "VIOLATION"), (0.98, "complies")])
+def test_ground_just_outside_a_rope_is_checked_at_the_rope(at_edge, verdict):
+    # found here: an isotropic source inside a square rope (no-access) of half-side 10.07 m on a 0.25 m grid,
+    # the public ground outside it is most exposed at the rope's edge, P F / (4 pi S d^2) there (OET Bulletin 65
+    # sec. 2); the grid's first point outside lies up to a spacing farther out, (10.07 / 10.32)^2 = 0.95 of it,
+    # and 2 % above the limit at the rope was reported as complying. The rope's edge samples now count for the
+    # ground on both sides.
+    x0, y0, a = 0.1, 0.13, 10.07
+    power = at_edge * 4 * math.pi * a * a * 2.0 / 2.56
+    em = emitter("tx", x=x0, y=y0, h=1.5, power=(power, power), limit=(10.0, 2.0), f=2.56)
+    rope = site.Area("rope", "no-access", ((x0 - a, y0 - a), (x0 + a, y0 - a), (x0 + a, y0 + a), (x0 - a, y0 + a)))
+    res = site.analyse_site([em], boundary=SQUARE, areas=[rope], heights_m=(1.5,), grid_spacing_m=0.25)
+    ground = next(r for r in res.regions if r.label == "open ground")
+    assert ground.verdict == verdict
+    assert ground.worst_ratio["uncontrolled"] == pytest.approx(at_edge, rel=1e-5)
+
+
 def test_too_many_grid_points_is_an_input_error():
     with pytest.raises(InputError) as exc:
         site.analyse_site([one_isotropic()], boundary=[(0, 0), (5000, 0), (5000, 5000), (0, 5000)], areas=[],

@@ -277,8 +277,10 @@ def assess_site(loaded_site, *, today=None, progress: Callable[[int, int], None]
         "Keep-out zones: total ratio > 1 against the uncontrolled limit (the public must be kept out) and against "
         "the controlled limit (nobody may be there).",
         "Ground in no declared area, and everything outside the site boundary, is treated as public. Where areas "
-        "overlap the most restrictive kind applies (no-access, operators, public). Areas are checked at their grid "
-        "points, along their edges at half the grid spacing and at each edge's point nearest each antenna; around "
+        "overlap the most restrictive kind applies (no-access, operators, public). Regions are checked at their grid "
+        "points and at samples on the areas' edges (half the grid spacing, each edge's point nearest each antenna), "
+        "which count for the ground on both sides of an edge (the ground just outside a rope is checked at the "
+        "rope); around "
         f"every antenna, within {LOCAL_SPACINGS:g} grid spacings of its structure, the ground is also sampled at "
         f"{LOCAL_FRACTION:g} of the grid spacing, with the antenna's own position (where a grid would miss the "
         "peak next to an antenna), and along the main-beam bearing of every beam and pattern table at "
