@@ -186,6 +186,8 @@ LOCAL_MAX_STEPS = 48
 AXIS_FRACTION = 1.0 / 32.0
 AXIS_MAX_STEPS = 20_000
 AXIS_MAX_BEARINGS = 16
+#: ... and at most this many bearing samples in all (a site of many directional antennas gets coarser rays).
+AXIS_MAX_TOTAL = 200_000
 
 
 def _bearings(g) -> list[float]:
@@ -229,8 +231,10 @@ def _local_points(groups, grid_spacing_m: float, extent) -> tuple[np.ndarray, np
     """The fine samples around each antenna (see :data:`LOCAL_SPACINGS`) and along the bearing of each
     directional one (:data:`AXIS_FRACTION`) to the edge of ``extent`` (the grid's), ground coordinates [m]."""
     xs, ys = [], []
-    for x0, y0, ux, uy, length in _rays(groups, extent):
-        step = max(AXIS_FRACTION * grid_spacing_m, length / AXIS_MAX_STEPS)
+    rays = _rays(groups, extent)
+    most = min(AXIS_MAX_STEPS, AXIS_MAX_TOTAL // max(len(rays), 1))
+    for x0, y0, ux, uy, length in rays:
+        step = max(AXIS_FRACTION * grid_spacing_m, length / most)
         t = np.arange(1, math.floor(length / step) + 1) * step
         xs.append(x0 + ux * t)
         ys.append(y0 + uy * t)
