@@ -20,7 +20,8 @@ from rfsafe.site.geometry import (
 )
 from rfsafe.site.grid import SiteEmitter, _groups, ratio_grid, transmitter_ratios
 
-__all__ = ["summed_reach_m", "analyse_site", "region_samples", "SiteGrid", "TransmitterSite", "RegionSite", "Violation", "SiteAnalysis", "CHECKED_ENVIRONMENT", "MAX_GRID_POINTS"]
+__all__ = ["summed_reach_m", "analyse_site", "region_samples", "SiteGrid", "TransmitterSite", "RegionSite",
+           "Violation", "SiteAnalysis", "CHECKED_ENVIRONMENT", "MAX_GRID_POINTS"]
 
 
 #: Region kinds in order of precedence where areas overlap (most restrictive first).
@@ -281,10 +282,10 @@ def _edge_samples(areas, antenna_xy, spacing_m: float, rays, boundary, order):
     Each area's edges at half the grid spacing, each edge's point nearest an antenna position (where ground
     beside the antenna is most exposed) and where a directional antenna's bearing crosses an edge. An edge
     sample counts for every region it borders: the regions of the point and of the eight points
-    :data:`_EDGE_SIDE_M` beside it (along the axes and the diagonals, for edges and corners), so that the ground just outside a rope is
-    checked at the rope itself (the ratio is continuous there) and not only at the next grid point, up to a
-    spacing farther out (which understated it by up to (1 + s / (sqrt(2) R))^2, 3.6 % for a 10 m rope on a
-    0.25 m grid). Returns x, y [m] and a boolean (regions, points) table.
+    :data:`_EDGE_SIDE_M` beside it (along the axes and the diagonals, for edges and corners), so that the
+    ground just outside a rope is checked at the rope itself (the ratio is continuous there) and not only at
+    the next grid point, up to a spacing farther out (which understated it by up to (1 + s / (sqrt(2) R))^2,
+    3.6 % for a 10 m rope on a 0.25 m grid). Returns x, y [m] and a boolean (regions, points) table.
     """
     xs, ys = [], []
     for area in areas:
