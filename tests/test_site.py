@@ -20,6 +20,9 @@ BEAM = pt.make_pattern("beam", peak_gain_dbi=8.0, front_to_back_db=20.0, beamwid
 # Relative tolerance of the kernel: its per-height arithmetic is single precision (eps 6e-8);
 # a few operations and a sum over stations stay below 1e-6.
 RTOL = 1e-6
+#: The kernel's stated lift for one group (rfsafe.site.grid._kernel_lift): every result lies between the float64
+#: formula and this much above it (plus a path's own margin, for beams and tables).
+LIFT = grid._kernel_lift(1)
 
 
 def emitter(tx="a", cfg="c", x=0.0, y=0.0, h=1.0, pattern=ISO, power=(100.0, 100.0), limit=(50.0, 10.0),
@@ -77,7 +80,35 @@ def test_kernel_matches_the_far_field_prediction(kind, kw, tilt, pol):
     em = emitter(x=2.0, y=-3.0, h=4.0, pattern=pt.make_pattern(kind, **kw), azimuth_deg=37.0, tilt_deg=tilt,
                  polarisation=pol, power=(100.0, 60.0), limit=(50.0, 10.0), f=2.56)
     got = site.ratio_grid([em], PX, PY, HEIGHTS).ratio
-    assert np.allclose(got, direct_ratio([em], PX, PY, HEIGHTS), rtol=RTOL, atol=0)
+    rel = got / direct_ratio([em], PX, PY, HEIGHTS) - 1.0
+    assert rel.min() >= 0.0 and rel.max() <= 2 * LIFT      # never below the float64 formula; the lift and the
+    #                                                          rounding it covers above it
+
+
+@settings(max_examples=60, deadline=None)
+@given(kind=st.sampled_from(["isotropic", "short-dipole", "half-wave-dipole", "quarter-wave-vertical"]),
+       gain=st.one_of(st.none(), st.floats(-60.0, 60.0)), tilt=st.one_of(st.just(0.0), st.floats(-90.0, 90.0)),
+       vertical=st.booleans(), scale=st.floats(0.1, 3000.0), az=st.floats(-360.0, 360.0), seed=st.integers(0, 2**32 - 1))
+def test_standard_kernels_are_never_below_the_formula(kind, gain, tilt, vertical, scale, az, seed):
+    # property: the single-precision closed forms of the standard kinds at random positions, tilts and scales
+    # against the pattern functions written out in float64 in direct_ratio (OET Bulletin 65 sec. 2): never
+    # below (the kernel's stated lift covers its rounding: 5e-7 below was found before the lift), at most
+    # twice the lift above
+    rng = np.random.default_rng(seed)
+    pat = pt.make_pattern(kind, peak_gain_dbi=gain)
+    x0, y0 = rng.uniform(-scale, scale, 2)
+    h = rng.uniform(0.0, 2.0 * scale)
+    em = emitter(x=x0, y=y0, h=h, pattern=pat, azimuth_deg=az, tilt_deg=tilt,
+                 polarisation="vertical" if vertical else "horizontal", power=(100.0, 60.0), f=2.56)
+    px, py = rng.uniform(-3 * scale, 3 * scale, 2000), rng.uniform(-3 * scale, 3 * scale, 2000)
+    heights = tuple(rng.uniform(0.0, 2.0 * scale, 3)) + (h,)
+    with np.errstate(all="ignore"):
+        ref = direct_ratio([em], px, py, heights)
+        got = site.ratio_grid([em], px, py, heights).ratio
+    r2 = np.min([(px - x0) ** 2 + (py - y0) ** 2 + (z - h) ** 2 for z in heights], axis=0)
+    ok = (r2 > 4 * grid.MIN_FAR_FIELD_DIST_M ** 2) & np.all(ref > 0.0, axis=0) & np.all(np.isfinite(ref), axis=0)
+    rel = got[:, ok] / ref[:, ok] - 1.0
+    assert rel.size == 0 or (rel.min() >= 0.0 and rel.max() <= 2 * LIFT)
 
 
 def test_two_identical_stations_at_one_point_double_the_ratio():
@@ -94,7 +125,7 @@ def test_configurations_of_one_transmitter_are_not_summed():
     sep = np.maximum(site.ratio_grid([east], PX, PY, HEIGHTS).ratio, site.ratio_grid([west], PX, PY, HEIGHTS).ratio)
     assert np.allclose(both, sep, rtol=RTOL)
     rel = both / direct_ratio([east, west], PX, PY, HEIGHTS) - 1.0     # beams carry their stated lift
-    assert rel.min() >= 0.0 and rel.max() <= 2 * _untilted_beam_margin(20.0) + RTOL
+    assert rel.min() >= 0.0 and rel.max() <= 2 * _untilted_beam_margin(20.0) + grid._kernel_lift(2) + RTOL
     # as two transmitters they are summed instead
     west_b = emitter("b", "west", pattern=BEAM, azimuth_deg=270.0)
     summed = site.ratio_grid([east, west_b], PX, PY, HEIGHTS).ratio
@@ -105,7 +136,8 @@ def test_worst_height_of_the_sum_not_the_sum_of_worst_heights():
     a = emitter("a", h=0.5)
     b = emitter("b", x=1.0, h=2.0)
     got = site.ratio_grid([a, b], PX, PY, (0.5, 2.0))
-    assert np.allclose(got.ratio, direct_ratio([a, b], PX, PY, (0.5, 2.0)), rtol=RTOL)
+    rel = got.ratio / direct_ratio([a, b], PX, PY, (0.5, 2.0)) - 1.0
+    assert rel.min() >= 0.0 and rel.max() <= 2 * grid._kernel_lift(2)
     sum_of_worst = (site.ratio_grid([a], PX, PY, (0.5, 2.0)).ratio
                     + site.ratio_grid([b], PX, PY, (0.5, 2.0)).ratio)
     assert np.all(got.ratio <= sum_of_worst * (1 + RTOL))
@@ -248,11 +280,11 @@ def test_violations_exactly_where_constructed():
     assert v.environment == "uncontrolled" and v.dominant_transmitter == "tx1"
     # worst point: the path's west edge next to the station, (2.5, 0); ratio = (r_unc / 2.5)^2 at antenna height
     assert (v.x_m, v.y_m) == pytest.approx((2.5, 0.0), abs=1e-9)
-    assert v.worst_ratio == pytest.approx((r_unc / 2.5) ** 2, rel=RTOL)
+    assert 0.0 <= v.worst_ratio / (r_unc / 2.5) ** 2 - 1.0 <= 2 * LIFT
     # points above the limit: grid nodes of the strip inside the circle plus edge samples inside it
     t = next(v for v in res.violations if v.region == "tent in ctl zone")
     assert t.environment == "controlled"
-    assert t.worst_ratio == pytest.approx((r_ctl / math.hypot(0.5, 1.0)) ** 2, rel=RTOL)
+    assert 0.0 <= t.worst_ratio / (r_ctl / math.hypot(0.5, 1.0)) ** 2 - 1.0 <= 2 * LIFT
     # violations are listed worst first
     assert [v.worst_ratio for v in res.violations] == sorted((v.worst_ratio for v in res.violations), reverse=True)
 
@@ -432,7 +464,7 @@ def test_tilted_beam_is_never_below_the_pattern_and_within_its_margin(bw, fb, ti
     rel = site.ratio_grid([em], PX, PY, HEIGHTS).ratio / direct_ratio([em], PX, PY, HEIGHTS) - 1.0
     margin = (grid._BEAM_F32_MARGIN + grid._BEAM_F32_MARGIN_PER_Q * 0.5 * pt.beam_exponents(bw, bw)[1]
               + grid._BEAM_F32_MARGIN_PER_LN * fb * math.log(10.0) / 10.0)
-    assert rel.min() >= 0.0 and rel.max() <= 1.5 * margin
+    assert rel.min() >= 0.0 and rel.max() <= 1.5 * margin + LIFT
 
 
 @settings(max_examples=60, deadline=None)
@@ -457,7 +489,7 @@ def test_tilted_beam_is_never_below_the_pattern_anywhere(bw_h, bw_v, fb, tilt, a
     margin = (grid._BEAM_F32_MARGIN + grid._BEAM_F32_MARGIN_PER_Q * 0.5 * pt.beam_exponents(bw_h, bw_v)[1]
               + grid._BEAM_F32_MARGIN_PER_LN * fb * math.log(10.0) / 10.0)
     # where the downward floor governs it is raised by its own bound too (grid._tilted_down_floor_lift)
-    assert rel.min() >= 0.0 and rel.max() <= 2 * margin + grid._tilted_down_floor_lift(fb) * (1 + margin)
+    assert rel.min() >= 0.0 and rel.max() <= 2 * margin + grid._tilted_down_floor_lift(fb) * (1 + margin) + LIFT
 
 
 @pytest.mark.parametrize("fb", [60.0, 45.0, 25.0])
@@ -481,7 +513,7 @@ def test_tilted_beam_downward_floor_just_below_the_antennas_plane(fb):
     rel = site.ratio_grid([em], px, py, (0.5,)).ratio / ref - 1.0
     margin = (grid._BEAM_F32_MARGIN + grid._BEAM_F32_MARGIN_PER_Q * 0.5 * pt.beam_exponents(3.0, 24.0)[1]
               + grid._BEAM_F32_MARGIN_PER_LN * fb * math.log(10.0) / 10.0)
-    assert rel.min() >= 0.0 and rel.max() <= 2 * margin + grid._tilted_down_floor_lift(fb) * (1 + margin)
+    assert rel.min() >= 0.0 and rel.max() <= 2 * margin + grid._tilted_down_floor_lift(fb) * (1 + margin) + LIFT
 
 
 @settings(max_examples=40, deadline=None)
@@ -518,7 +550,7 @@ def test_narrow_beam_is_never_below_the_pattern_in_its_beam(bw_h, bw_v, fb, az, 
                   + grid._BEAM_F32_MARGIN_PER_LN * fb * math.log(10.0) / 10.0)
         down = grid._tilted_down_floor_lift(fb) * (1 + margin)     # where the downward floor governs
     assert ref.max() > 1.5 * ref.min()        # the lobe, not the floor, governs some of these points
-    assert rel.min() >= 0.0 and rel.max() <= 2 * margin + down
+    assert rel.min() >= 0.0 and rel.max() <= 2 * margin + down + LIFT
 
 
 @pytest.mark.parametrize("tilt", [0.0, 15.0])
@@ -552,7 +584,7 @@ def test_untilted_beam_is_never_below_the_pattern_and_within_its_margin(bw_h, bw
     heights = HEIGHTS + (h + 0.05, h + 0.3)               # points in and near a narrow beam's plane
     rel = site.ratio_grid([em], PX, PY, heights).ratio / direct_ratio([em], PX, PY, heights) - 1.0
     margin = _untilted_beam_margin(fb)
-    assert rel.min() >= 0.0 and rel.max() <= 2 * margin
+    assert rel.min() >= 0.0 and rel.max() <= 2 * margin + LIFT
 
 
 @pytest.mark.parametrize("bw_h, fb", [(359.0, 40.0), (300.0, 60.0), (200.0, 30.0)])
@@ -568,7 +600,7 @@ def test_untilted_beam_just_behind_a_wide_beam_is_never_below_the_pattern(bw_h, 
     py = np.full(px.size, -10.0)
     ref = direct_ratio([em], px, py, (1.0,))
     rel = site.ratio_grid([em], px, py, (1.0,)).ratio / ref - 1.0
-    assert rel.min() >= 0.0 and rel.max() <= 2 * _untilted_beam_margin(fb)
+    assert rel.min() >= 0.0 and rel.max() <= 2 * _untilted_beam_margin(fb) + LIFT
     assert ref.max() > 1.5 * ref.min()        # the lobe, not the floor, governs some of these points
 
 
@@ -592,4 +624,4 @@ def test_untilted_beam_is_never_below_the_pattern_anywhere(bw_h, bw_v, fb, az, v
     r2_min = np.min([(PX - 2.0) ** 2 + (PY + 3.0) ** 2 + (z - h) ** 2 for z in heights], axis=0)
     ok = r2_min > 4 * grid.MIN_FAR_FIELD_DIST_M ** 2      # the near-field override (peak gain) left out
     rel = site.ratio_grid([em], PX, PY, heights).ratio[:, ok] / ref[:, ok] - 1.0
-    assert rel.min() >= 0.0 and rel.max() <= 2 * _untilted_beam_margin(fb)
+    assert rel.min() >= 0.0 and rel.max() <= 2 * _untilted_beam_margin(fb) + LIFT
