@@ -87,13 +87,22 @@ def station_plan(loaded, emitters, configs, outlines):
     x = np.arange(x0, x1 + step / 2, step)
     y = np.arange(y0, y1 + step / 2, step)
     gx, gy = np.meshgrid(x, y)
+    # the largest ratio also from the site review's fine samples next to each antenna and along each beam's
+    # bearing (rfsafe.site.analysis._local_points): a keep-out zone smaller than a plan cell is not drawn, but
+    # the legend does not say "no keep-out" for it
+    from rfsafe.site.analysis import _local_points
+    from rfsafe.site.grid import _groups
+
+    lx, ly = _local_points(_groups(site_ems)[1], step, (float(x[0]), float(x[-1]), float(y[0]), float(y[-1])))
     ratio, top = {}, {}
     for level, heights in PLAN_LEVELS.items():
         grid = ratio_grid(site_ems, gx.ravel(), gy.ravel(), heights)
+        fine = ratio_grid(site_ems, lx, ly, heights)
         for i, env in enumerate(ENVIRONMENTS):
             r = np.asarray(grid.ratio[i], dtype=float).reshape(gx.shape)
             ratio[(level, env)] = r
-            finite = r[np.isfinite(r)]
+            both = np.concatenate([r.ravel(), np.asarray(fine.ratio[i], dtype=float)])
+            finite = both[np.isfinite(both)]
             top[f"{level} {env}"] = float(finite.max()) if finite.size else float("inf")
     method = ("far-field estimate S = P G F / (4 pi R^2) on a grid, gain toward each point as used for places "
               "(pattern where the antenna opts in, else peak gain in every direction); every transmitter its "
