@@ -261,7 +261,7 @@ def _ray_crossings(polygon, rays) -> tuple[np.ndarray, np.ndarray]:
     for x0, y0, ux, uy, length in rays:
         ex, ey = b[:, 0] - a[:, 0], b[:, 1] - a[:, 1]
         den = ux * ey - uy * ex                          # ray direction x edge direction
-        with np.errstate(divide="ignore", invalid="ignore"):
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):   # a nearly parallel edge: no hit
             t = ((a[:, 0] - x0) * ey - (a[:, 1] - y0) * ex) / den    # along the ray
             v = ((a[:, 0] - x0) * uy - (a[:, 1] - y0) * ux) / den    # along the edge
         hit = (den != 0.0) & (t >= 0.0) & (t <= length) & (v >= 0.0) & (v <= 1.0)

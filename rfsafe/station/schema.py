@@ -12,6 +12,7 @@ from typing import Literal
 from pydantic import Field
 
 from rfsafe.antenna.wire.model import WireAntennaSpec
+from rfsafe.bounds import MAX_FRONT_TO_BACK_DB, MIN_BEAMWIDTH_DEG
 from rfsafe.station.validation import StrictModel
 
 __all__ = [
@@ -96,9 +97,13 @@ class Antenna(_Strict):
     polarisation: Literal["horizontal", "vertical"] = "horizontal"
     use_pattern: bool = Field(default=False,
                               description="Use the pattern gain toward each place instead of the peak gain (opt-in).")
-    front_to_back_db: float | None = Field(default=None, gt=0, description="Beam: front-to-back ratio [dB].")
-    beamwidth_h_deg: float | None = Field(default=None, gt=0, lt=360, description="Beam: horizontal half-power beamwidth [deg].")
-    beamwidth_v_deg: float | None = Field(default=None, gt=0, lt=180, description="Beam: vertical half-power beamwidth [deg].")
+    # the model's range (rfsafe.bounds, checked with the other bounds) stated in the JSON Schema too
+    front_to_back_db: float | None = Field(default=None, gt=0, description="Beam: front-to-back ratio [dB].",
+                                           json_schema_extra={"maximum": MAX_FRONT_TO_BACK_DB})
+    beamwidth_h_deg: float | None = Field(default=None, gt=0, lt=360, description="Beam: horizontal half-power beamwidth [deg].",
+                                          json_schema_extra={"minimum": MIN_BEAMWIDTH_DEG})
+    beamwidth_v_deg: float | None = Field(default=None, gt=0, lt=180, description="Beam: vertical half-power beamwidth [deg].",
+                                          json_schema_extra={"minimum": MIN_BEAMWIDTH_DEG})
     pattern_file: str | None = Field(default=None,
                                      description="Table: CSV of azimuth_deg, elevation_deg, gain_dbi (relative to this file).")
     aperture_m: float | None = Field(default=None, gt=0,
