@@ -109,6 +109,15 @@ def test_station_file_name_too_long():
     assert "cannot be read" in err, err
 
 
+def test_inline_station_name_longer_than_a_file_name():
+    """Found by the long fuzz: an inline station named with 400 characters: its stand-in path beside the site file
+    was checked as an input file and raised OSError (file name too long, exit 3); an inline station's name is
+    no file."""
+    station = {**WIRE_SITE["stations"][0], "name": "a" * 400}
+    code, _, err = _run({**WIRE_SITE, "stations": [station]})
+    assert code in (0, 1, 4, 5), err
+
+
 def test_area_edge_a_subnormal_apart():
     """Found by the long fuzz: an area vertex 5e-324 m above its neighbour raised a RuntimeWarning (0 * inf)."""
     area = {"label": "Lawn", "kind": "public", "polygon": [[0.0, 0.0], [20.0, 5e-324], [20.0, 20.0]]}

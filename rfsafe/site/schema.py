@@ -100,8 +100,16 @@ class LoadedSite:
     def input_paths(self) -> tuple[Path, ...]:
         """Every file this site was read from: the site file, station files and pattern tables."""
         paths = [Path(self.path)]
-        for st in self.stations:
-            paths.extend(p for p in st.input_paths() if p.is_file())
+        for spec, st in zip(self.model.stations, self.stations):
+            # an inline station's path is only a name beside the site file (it may not exist, may be longer than
+            # the system allows, or may name an unrelated file): only its pattern tables were read
+            own = st.input_paths()
+            for p in own if spec.file is not None else own[1:]:
+                try:
+                    if p.is_file():
+                        paths.append(p)
+                except OSError:       # not a file that was read (found by the long fuzz: a 400-character name)
+                    pass
         return tuple(dict.fromkeys(paths))
 
 
