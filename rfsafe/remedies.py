@@ -726,9 +726,16 @@ def site_remedies(res) -> tuple:
     for v in res.violations:
         e = ENVIRONMENTS.index(v.environment)
 
-        def worst(emitters, _region=v.region, _e=e):
-            # the points the site review checks, for these emitters (the fine samples follow a moved antenna)
-            px, py = region_samples(emitters, res.grid, res.boundary, res.areas, _region)
+        samples: dict = {}
+
+        def worst(emitters, _region=v.region, _e=e, _samples=samples):
+            # the points the site review checks, for these emitters (the fine samples follow a moved antenna;
+            # they depend on the antennas' positions only, so a power change reuses them)
+            key = tuple((em.x_m, em.y_m) for em in emitters)
+            if key not in _samples:
+                _samples.clear()
+                _samples[key] = region_samples(emitters, res.grid, res.boundary, res.areas, _region)
+            px, py = _samples[key]
             ratio = ratio_grid(emitters, px, py, res.heights_m).ratio[_e]
             return float(np.max(ratio)) if ratio.size else 0.0
 

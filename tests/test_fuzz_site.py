@@ -112,7 +112,7 @@ def test_station_file_name_too_long():
 def test_inline_station_name_longer_than_a_file_name():
     """Found by the long fuzz: an inline station named with 400 characters: its stand-in path beside the site file
     was checked as an input file and raised OSError (file name too long, exit 3); an inline station's name is
-    no file."""
+    no file. 400 characters: past the 255-byte file-name limit of common Linux file systems (common practice)."""
     station = {**WIRE_SITE["stations"][0], "name": "a" * 400}
     code, _, err = _run({**WIRE_SITE, "stations": [station]})
     assert code in (0, 1, 4, 5), err
@@ -141,7 +141,9 @@ def test_subnormal_grid_spacing():
 
 def test_beam_narrower_than_the_model_resolves():
     """Found by the long fuzz: a beam of beamwidth_h_deg = 6.4e-8 divided by zero in its exponents (exit 3);
-    beamwidths below rfsafe.bounds.MIN_BEAMWIDTH_DEG are now refused with the other bounds."""
+    beamwidths below rfsafe.bounds.MIN_BEAMWIDTH_DEG are now refused with the other bounds. The numbers are
+    rfsafe's own bound (0.1 deg, a dish ~700 wavelengths across by the 70 lambda / D rule of thumb, from memory)
+    and the fuzz's value, not a published figure."""
     station = EVENT["stations"][1]
     antenna = {**station["antennas"][0], "beamwidth_h_deg": 6.4e-8}
     code, _, err = _run({**EVENT, "stations": [{**station, "antennas": [antenna]}]})
